@@ -1,0 +1,588 @@
+//! Opening workbooks and reading one sheet's used cells, safely.
+//!
+//! Every format calamine reads is accepted (.xlsx .xlsm .xlsb .xls .ods); the
+//! real format is taken from the file's bytes, not its name. Cells are read
+//! with calamine's streaming cell reader where the format has one (xlsx,
+//! xlsb), so a sheet with cells at `A1` and `XFD1048576` costs two cells, not
+//! the bounding box. Before calamine parses anything, [`guard`] checks the
+//! container; calamine's own panics are caught and become errors.
+
+mod guard;
+
+use std::collections::HashMap;
+use std::fs::File;
+use std::io::BufReader;
+use std::panic::{catch_unwind, AssertUnwindSafe};
+use std::path::{Path, PathBuf};
+
+use calamine::{Data, DataRef, Ods, Reader, Sheets, Xls, Xlsb, Xlsx};
+use serde::Serialize;
+
+use crate::cell::{parse_a1_range, split_sheet_reference, CellPos, CellRect, CellValue, MAX_COLS, MAX_ROWS};
+
+/// The container formats this crate reads.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Format {
+    /// Office Open XML workbook, with or without macros (.xlsx, .xlsm).
+    Xlsx,
+    /// Binary workbook (.xlsb).
+    Xlsb,
+    /// The older binary format (.xls).
+    Xls,
+    /// OpenDocument spreadsheet (.ods).
+    Ods,
+}
+
+impl Format {
+    /// The file extensions that name this format.
+    pub fn extensions(self) -> &'static [&'static str] {
+        match self {
+            Format::Xlsx => &["xlsx", "xlsm"],
+            Format::Xlsb => &["xlsb"],
+            Format::Xls => &["xls"],
+            Format::Ods => &["ods"],
+        }
+    }
+}
+
+/// Caps that keep a hostile or absurd file from exhausting the machine.
+#[derive(Debug, Clone)]
+pub struct ReadLimits {
+    /// Largest file accepted, in bytes.
+    pub max_file_bytes: u64,
+    /// Largest inflated size of one zip entry.
+    pub max_entry_bytes: u64,
+    /// Largest inflated size of all zip entries together.
+    pub max_total_bytes: u64,
+    /// Most zip entries accepted.
+    pub max_zip_entries: usize,
+    /// Largest inflation ratio accepted for entries above `ratio_check_above_bytes`.
+    pub max_compression_ratio: f64,
+    /// Entries smaller than this inflated size are not ratio-checked.
+    pub ratio_check_above_bytes: u64,
+    /// Most non-empty cells read from one sheet.
+    pub max_cells: u64,
+}
+
+impl Default for ReadLimits {
+    fn default() -> Self {
+        Self {
+            max_file_bytes: 1 << 31,
+            max_entry_bytes: 3 << 30,
+            max_total_bytes: 4 << 30,
+            max_zip_entries: 10_000,
+            // Sheet XML of repetitive numbers deflates 20 to 60 times in
+            // practice; deflate's ceiling is about 1,030, which bombs approach.
+            max_compression_ratio: 400.0,
+            ratio_check_above_bytes: 4 << 20,
+            max_cells: 40_000_000,
+        }
+    }
+}
+
+/// Why a workbook or sheet could not be read.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum ReadError {
+    /// The file could not be opened or read from disk.
+    #[error("cannot read '{}'", path.display())]
+    Io {
+        /// The file.
+        path: PathBuf,
+        /// The operating system's error.
+        #[source]
+        source: std::io::Error,
+    },
+    /// The bytes are not those of any supported workbook format.
+    #[error("'{}' is not a workbook: {detail}", path.display())]
+    NotAWorkbook {
+        /// The file.
+        path: PathBuf,
+        /// What was found instead.
+        detail: String,
+    },
+    /// The workbook is encrypted; it must be saved without a password first.
+    #[error("'{}' is password-protected; save a copy without a password and analyse that", path.display())]
+    PasswordProtected {
+        /// The file.
+        path: PathBuf,
+    },
+    /// A size, count or ratio is beyond what is accepted.
+    #[error("'{}' was refused: {what} (the limit is {limit})", path.display())]
+    TooLarge {
+        /// The file.
+        path: PathBuf,
+        /// What was too large.
+        what: String,
+        /// The limit in force.
+        limit: String,
+    },
+    /// The container or a part inside it is damaged.
+    #[error("'{}' is damaged: {detail}", path.display())]
+    Corrupt {
+        /// The file.
+        path: PathBuf,
+        /// What the parser reported.
+        detail: String,
+    },
+    /// The named sheet does not exist.
+    #[error("'{}' has no sheet named '{sheet}' (sheets: {available})", path.display())]
+    SheetNotFound {
+        /// The file.
+        path: PathBuf,
+        /// The sheet asked for.
+        sheet: String,
+        /// The sheets there are, comma-separated.
+        available: String,
+    },
+    /// A range, defined name or table name could not be resolved.
+    #[error("'{}': '{reference}' is not an A1 range, a defined name or a table of this workbook", path.display())]
+    BadReference {
+        /// The file.
+        path: PathBuf,
+        /// The reference as given.
+        reference: String,
+    },
+    /// A sheet has more non-empty cells than accepted.
+    #[error("'{}': sheet '{sheet}' has more than {limit} non-empty cells", path.display())]
+    TooManyCells {
+        /// The file.
+        path: PathBuf,
+        /// The sheet.
+        sheet: String,
+        /// The cap in force.
+        limit: u64,
+    },
+}
+
+/// One sheet's used cells, sparse and in row-major order.
+#[derive(Debug, Clone, Default)]
+pub struct SheetGrid {
+    /// The sheet's name.
+    pub name: String,
+    /// Non-empty cells, sorted by row then column.
+    pub cells: Vec<(CellPos, CellValue)>,
+    /// Distinct texts; `CellValue::Text(i)` and `Error(i)` index this.
+    pub strings: Vec<String>,
+    /// Merged areas of the sheet, where the format reports them.
+    pub merged: Vec<CellRect>,
+}
+
+impl SheetGrid {
+    /// The text behind a `Text` or `Error` index.
+    pub fn text(&self, index: u32) -> &str {
+        self.strings.get(index as usize).map(String::as_str).unwrap_or("")
+    }
+
+    /// The value at a position, by binary search.
+    pub fn get(&self, pos: CellPos) -> Option<CellValue> {
+        self.cells
+            .binary_search_by(|(cell_pos, _)| (cell_pos.row, cell_pos.col).cmp(&(pos.row, pos.col)))
+            .ok()
+            .map(|index| self.cells[index].1)
+    }
+
+    /// The value rendered as text, for messages.
+    pub fn display(&self, value: CellValue) -> String {
+        match value {
+            CellValue::Number(number) => format!("{number}"),
+            CellValue::Text(index) => self.text(index).to_string(),
+            CellValue::Bool(flag) => if flag { "TRUE" } else { "FALSE" }.to_string(),
+            CellValue::Date(serial) if serial.is_finite() => format!("date serial {serial}"),
+            CellValue::Date(_) => "a date".to_string(),
+            CellValue::Error(index) => self.text(index).to_string(),
+        }
+    }
+
+    /// The bounding rectangle of the used cells, if any.
+    pub fn used_rect(&self) -> Option<CellRect> {
+        let first = self.cells.first()?.0;
+        let last = self.cells.last()?.0;
+        let min_col = self.cells.iter().map(|(pos, _)| pos.col).min()?;
+        let max_col = self.cells.iter().map(|(pos, _)| pos.col).max()?;
+        Some(CellRect { first: CellPos::new(first.row, min_col), last: CellPos::new(last.row, max_col) })
+    }
+}
+
+/// Builds a [`SheetGrid`] cell by cell, interning text.
+struct GridBuilder {
+    grid: SheetGrid,
+    interned: HashMap<String, u32>,
+    window: Option<CellRect>,
+    max_cells: u64,
+    sorted: bool,
+}
+
+impl GridBuilder {
+    fn new(name: &str, window: Option<CellRect>, max_cells: u64) -> Self {
+        Self {
+            grid: SheetGrid { name: name.to_string(), ..SheetGrid::default() },
+            interned: HashMap::new(),
+            window,
+            max_cells,
+            sorted: true,
+        }
+    }
+
+    fn intern(&mut self, text: &str) -> u32 {
+        if let Some(&index) = self.interned.get(text) {
+            return index;
+        }
+        let index = self.grid.strings.len() as u32;
+        self.grid.strings.push(text.to_string());
+        self.interned.insert(text.to_string(), index);
+        index
+    }
+
+    /// Adds one cell; returns false when the cap is reached.
+    fn push(&mut self, row: u32, col: u32, value: CellValue) -> bool {
+        let pos = CellPos::new(row, col);
+        if row >= MAX_ROWS || col >= MAX_COLS {
+            return true;
+        }
+        if let Some(window) = self.window {
+            if !window.contains(pos) {
+                return true;
+            }
+        }
+        if let Some(&(last, _)) = self.grid.cells.last() {
+            if (last.row, last.col) >= (row, col) {
+                self.sorted = false;
+            }
+        }
+        self.grid.cells.push((pos, value));
+        (self.grid.cells.len() as u64) <= self.max_cells
+    }
+
+    fn push_data(&mut self, row: u32, col: u32, data: &DataRef<'_>) -> bool {
+        let value = match data {
+            DataRef::Empty => return true,
+            DataRef::Int(number) => CellValue::Number(*number as f64),
+            DataRef::Float(number) => CellValue::Number(*number),
+            DataRef::String(text) => {
+                if text.is_empty() {
+                    return true;
+                }
+                CellValue::Text(self.intern(text))
+            }
+            DataRef::SharedString(text) => {
+                if text.is_empty() {
+                    return true;
+                }
+                CellValue::Text(self.intern(text))
+            }
+            DataRef::Bool(flag) => CellValue::Bool(*flag),
+            DataRef::DateTime(date) => CellValue::Date(date.as_f64()),
+            DataRef::DateTimeIso(_) | DataRef::DurationIso(_) => CellValue::Date(f64::NAN),
+            DataRef::Error(error) => CellValue::Error(self.intern(&error.to_string())),
+        };
+        self.push(row, col, value)
+    }
+
+    fn finish(mut self) -> SheetGrid {
+        if !self.sorted {
+            self.grid.cells.sort_by_key(|(pos, _)| (pos.row, pos.col));
+            self.grid.cells.dedup_by_key(|(pos, _)| *pos);
+        }
+        self.grid
+    }
+}
+
+fn data_to_ref(data: &Data) -> DataRef<'_> {
+    match data {
+        Data::Int(number) => DataRef::Int(*number),
+        Data::Float(number) => DataRef::Float(*number),
+        Data::String(text) => DataRef::SharedString(text),
+        Data::Bool(flag) => DataRef::Bool(*flag),
+        Data::DateTime(date) => DataRef::DateTime(*date),
+        Data::DateTimeIso(text) => DataRef::DateTimeIso(text.clone()),
+        Data::DurationIso(text) => DataRef::DurationIso(text.clone()),
+        Data::Error(error) => DataRef::Error(error.clone()),
+        Data::Empty => DataRef::Empty,
+    }
+}
+
+/// A sheet's name and whether it is visible.
+#[derive(Debug, Clone, Serialize)]
+pub struct SheetInfo {
+    /// The sheet's name.
+    pub name: String,
+    /// False for hidden and very hidden sheets.
+    pub visible: bool,
+}
+
+/// An open workbook.
+pub struct Workbook {
+    path: PathBuf,
+    format: Format,
+    sheets: Vec<SheetInfo>,
+    defined_names: Vec<(String, String)>,
+    inner: Sheets<BufReader<File>>,
+    limits: ReadLimits,
+    macro_enabled: bool,
+}
+
+impl std::fmt::Debug for Workbook {
+    fn fmt(&self, formatter: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        formatter
+            .debug_struct("Workbook")
+            .field("path", &self.path)
+            .field("format", &self.format)
+            .field("sheets", &self.sheets)
+            .finish()
+    }
+}
+
+fn panic_text(payload: Box<dyn std::any::Any + Send>) -> String {
+    if let Some(text) = payload.downcast_ref::<&str>() {
+        (*text).to_string()
+    } else if let Some(text) = payload.downcast_ref::<String>() {
+        text.clone()
+    } else {
+        "the parser stopped unexpectedly".to_string()
+    }
+}
+
+/// Opens a workbook for reading, after checking its container.
+///
+/// The file is opened read-only and closed when the [`Workbook`] is dropped;
+/// nothing is ever written to it.
+///
+/// # Errors
+///
+/// Any [`ReadError`]: the file is missing, not a workbook, encrypted, a
+/// container bomb, or damaged.
+pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadError> {
+    let container = guard::inspect(path, limits)?;
+    let file = File::open(path).map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
+    let reader = BufReader::new(file);
+    let corrupt = |detail: String| ReadError::Corrupt { path: path.to_path_buf(), detail };
+    let opened = catch_unwind(AssertUnwindSafe(|| -> Result<Sheets<BufReader<File>>, String> {
+        Ok(match container.format {
+            Format::Xlsx => Sheets::Xlsx(Xlsx::new(reader).map_err(|error| error.to_string())?),
+            Format::Xlsb => Sheets::Xlsb(Xlsb::new(reader).map_err(|error| error.to_string())?),
+            Format::Xls => Sheets::Xls(Xls::new(reader).map_err(|error| error.to_string())?),
+            Format::Ods => Sheets::Ods(Ods::new(reader).map_err(|error| error.to_string())?),
+        })
+    }));
+    let inner = match opened {
+        Ok(Ok(inner)) => inner,
+        Ok(Err(detail)) if detail.to_lowercase().contains("password") => {
+            return Err(ReadError::PasswordProtected { path: path.to_path_buf() })
+        }
+        Ok(Err(detail)) => return Err(corrupt(detail)),
+        Err(payload) => return Err(corrupt(panic_text(payload))),
+    };
+    let sheets = inner
+        .sheets_metadata()
+        .iter()
+        .filter(|sheet| matches!(sheet.typ, calamine::SheetType::WorkSheet))
+        .map(|sheet| SheetInfo {
+            name: sheet.name.clone(),
+            visible: matches!(sheet.visible, calamine::SheetVisible::Visible),
+        })
+        .collect();
+    let defined_names = inner.defined_names().to_vec();
+    let macro_enabled = container.format == Format::Xlsx && {
+        let mut probe = inner_vba_probe(path);
+        probe.take().unwrap_or(false)
+    };
+    Ok(Workbook {
+        path: path.to_path_buf(),
+        format: container.format,
+        sheets,
+        defined_names,
+        inner,
+        limits: limits.clone(),
+        macro_enabled,
+    })
+}
+
+fn inner_vba_probe(path: &Path) -> Option<bool> {
+    let file = File::open(path).ok()?;
+    let archive = zip::ZipArchive::new(BufReader::new(file)).ok()?;
+    let has_macros = archive.file_names().filter_map(Result::ok).any(|name| name.ends_with("vbaProject.bin"));
+    Some(has_macros)
+}
+
+impl Workbook {
+    /// The file this workbook was read from.
+    pub fn path(&self) -> &Path {
+        &self.path
+    }
+
+    /// The container format found in the bytes.
+    pub fn format(&self) -> Format {
+        self.format
+    }
+
+    /// True when the workbook carries a macro project (never run by us).
+    pub fn macro_enabled(&self) -> bool {
+        self.macro_enabled
+    }
+
+    /// The worksheets, in workbook order (chart and macro sheets left out).
+    pub fn sheets(&self) -> &[SheetInfo] {
+        &self.sheets
+    }
+
+    /// Whether the file's extension names a different format than its bytes.
+    pub fn extension_mismatch(&self) -> Option<String> {
+        let extension = self.path.extension()?.to_str()?.to_ascii_lowercase();
+        if self.format.extensions().contains(&extension.as_str()) {
+            None
+        } else {
+            Some(extension)
+        }
+    }
+
+    fn check_sheet(&self, sheet: &str) -> Result<(), ReadError> {
+        if self.sheets.iter().any(|info| info.name == sheet) {
+            Ok(())
+        } else {
+            Err(ReadError::SheetNotFound {
+                path: self.path.clone(),
+                sheet: sheet.to_string(),
+                available: self.sheets.iter().map(|info| info.name.as_str()).collect::<Vec<_>>().join(", "),
+            })
+        }
+    }
+
+    /// Resolves a range given as A1 text (optionally sheet-qualified), a
+    /// defined name, or a worksheet table's name, to a sheet and rectangle.
+    /// `default_sheet` is used for an unqualified A1 range.
+    ///
+    /// # Errors
+    ///
+    /// [`ReadError::BadReference`] when nothing matches.
+    pub fn resolve_range(&mut self, reference: &str, default_sheet: Option<&str>) -> Result<(Option<String>, CellRect), ReadError> {
+        let bad = || ReadError::BadReference { path: self.path.clone(), reference: reference.to_string() };
+        let (sheet, range_text) = split_sheet_reference(reference);
+        if let Some(rect) = parse_a1_range(range_text) {
+            return Ok((sheet.or_else(|| default_sheet.map(str::to_string)), rect));
+        }
+        let wanted = reference.trim();
+        if let Some((_, formula)) = self.defined_names.iter().find(|(name, _)| name.eq_ignore_ascii_case(wanted)) {
+            let (sheet, range_text) = split_sheet_reference(formula);
+            if let Some(rect) = parse_a1_range(range_text) {
+                return Ok((sheet, rect));
+            }
+        }
+        if let Sheets::Xlsx(xlsx) = &mut self.inner {
+            if let Some(found) = table_reference(&self.path, xlsx, wanted) {
+                return Ok(found);
+            }
+        }
+        Err(bad())
+    }
+
+    /// Reads the used cells of one sheet, or of a window of it.
+    ///
+    /// # Errors
+    ///
+    /// [`ReadError::SheetNotFound`], [`ReadError::TooManyCells`],
+    /// [`ReadError::Corrupt`] when the sheet's part is damaged.
+    pub fn read_sheet(&mut self, sheet: &str, window: Option<CellRect>) -> Result<SheetGrid, ReadError> {
+        self.check_sheet(sheet)?;
+        let path = self.path.clone();
+        let max_cells = self.limits.max_cells;
+        let corrupt = |detail: String| ReadError::Corrupt { path: path.clone(), detail: format!("sheet '{sheet}': {detail}") };
+        let mut builder = GridBuilder::new(sheet, window, max_cells);
+        let mut merged = Vec::new();
+        let outcome = catch_unwind(AssertUnwindSafe(|| -> Result<bool, String> {
+            match &mut self.inner {
+                Sheets::Xlsx(xlsx) => {
+                    let mut reader = xlsx.worksheet_cells_reader(sheet).map_err(|error| error.to_string())?;
+                    while let Some(cell) = reader.next_cell().map_err(|error| error.to_string())? {
+                        let (row, col) = cell.get_position();
+                        if !builder.push_data(row, col, cell.get_value()) {
+                            return Ok(false);
+                        }
+                    }
+                    drop(reader);
+                    if let Ok(areas) = xlsx.merge_cells_by_sheet_name(sheet) {
+                        merged = areas;
+                    }
+                }
+                Sheets::Xlsb(xlsb) => {
+                    let mut reader = xlsb.worksheet_cells_reader(sheet).map_err(|error| error.to_string())?;
+                    while let Some(cell) = reader.next_cell().map_err(|error| error.to_string())? {
+                        let (row, col) = cell.get_position();
+                        if !builder.push_data(row, col, cell.get_value()) {
+                            return Ok(false);
+                        }
+                    }
+                }
+                Sheets::Xls(xls) => {
+                    let range = xls.worksheet_range(sheet).map_err(|error| error.to_string())?;
+                    for (row, col, data) in range.used_cells() {
+                        let (row, col) = (range.start().map_or(0, |s| s.0) + row as u32, range.start().map_or(0, |s| s.1) + col as u32);
+                        if !builder.push_data(row, col, &data_to_ref(data)) {
+                            return Ok(false);
+                        }
+                    }
+                    if let Ok(areas) = xls.merge_cells_by_sheet_name(sheet) {
+                        merged = areas;
+                    }
+                }
+                Sheets::Ods(ods) => {
+                    let range = ods.worksheet_range(sheet).map_err(|error| error.to_string())?;
+                    for (row, col, data) in range.used_cells() {
+                        let (row, col) = (range.start().map_or(0, |s| s.0) + row as u32, range.start().map_or(0, |s| s.1) + col as u32);
+                        if !builder.push_data(row, col, &data_to_ref(data)) {
+                            return Ok(false);
+                        }
+                    }
+                }
+            }
+            Ok(true)
+        }));
+        match outcome {
+            Ok(Ok(true)) => {}
+            Ok(Ok(false)) => {
+                return Err(ReadError::TooManyCells { path: self.path.clone(), sheet: sheet.to_string(), limit: max_cells })
+            }
+            Ok(Err(detail)) => return Err(corrupt(detail)),
+            Err(payload) => return Err(corrupt(panic_text(payload))),
+        }
+        let mut grid = builder.finish();
+        grid.merged = merged
+            .into_iter()
+            .map(|area| CellRect {
+                first: CellPos::new(area.start.0, area.start.1),
+                last: CellPos::new(area.end.0, area.end.1),
+            })
+            .collect();
+        Ok(grid)
+    }
+}
+
+/// Finds a worksheet table by name and returns its sheet and reference.
+fn table_reference(
+    path: &Path,
+    xlsx: &mut Xlsx<BufReader<File>>,
+    wanted: &str,
+) -> Option<(Option<String>, CellRect)> {
+    xlsx.load_tables().ok()?;
+    let sheet_names: Vec<String> = xlsx.sheet_names().to_vec();
+    let owner = sheet_names.into_iter().find(|sheet| {
+        xlsx.table_names_in_sheet(sheet).iter().any(|name| name.eq_ignore_ascii_case(wanted))
+    })?;
+    // The table's reference is read from its own part, without loading the sheet.
+    let file = File::open(path).ok()?;
+    let mut archive = zip::ZipArchive::new(BufReader::new(file)).ok()?;
+    let names: Vec<String> = archive.file_names().filter_map(Result::ok).filter(|name| name.starts_with("xl/tables/")).map(|name| name.into_owned()).collect();
+    for name in names {
+        let mut entry = archive.by_name(&name).ok()?;
+        let mut head = String::new();
+        use std::io::Read;
+        let _ = entry.by_ref().take(64 * 1024).read_to_string(&mut head);
+        let display = guard::attribute_value(&head, "displayName").or_else(|| guard::attribute_value(&head, "name"));
+        if display.is_some_and(|display| display.eq_ignore_ascii_case(wanted)) {
+            let reference = guard::attribute_value(&head, "ref")?;
+            return Some((Some(owner), parse_a1_range(reference)?));
+        }
+    }
+    None
+}

@@ -1,0 +1,483 @@
+//! Writing workbooks from a plain model of sheets, cells and charts.
+//!
+//! The caller (the report builder) describes what goes where with [`Book`];
+//! this module turns it into an xlsx file with rust_xlsxwriter. Text is always
+//! written as text, never as a formula, whatever it starts with. The file is
+//! written to a hidden temporary name in the destination folder and renamed
+//! into place, so a results file is either complete or absent.
+
+use std::path::{Path, PathBuf};
+
+use rust_xlsxwriter::{
+    Chart, ChartErrorBars, ChartErrorBarsType, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, ChartRange,
+    ChartSolidFill, Color, Format, FormatAlign, FormatBorder, Workbook as XlsxWorkbook, XlsxError,
+};
+
+/// The longest text a cell may hold in xlsx.
+const MAX_CELL_TEXT: usize = 32_767;
+
+/// How a number is shown.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum NumberFormat {
+    /// The application's general format.
+    General,
+    /// A whole number with thousands separators.
+    Integer,
+    /// Fixed decimals.
+    Decimals(u8),
+    /// A percentage with the given decimals.
+    Percent(u8),
+    /// A p-value: four decimals, small values in scientific notation.
+    PValue,
+    /// Scientific notation with the given decimals.
+    Scientific(u8),
+}
+
+impl NumberFormat {
+    fn code(self) -> String {
+        match self {
+            NumberFormat::General => "General".into(),
+            NumberFormat::Integer => "#,##0".into(),
+            NumberFormat::Decimals(0) => "0".into(),
+            NumberFormat::Decimals(places) => format!("0.{}", "0".repeat(places as usize)),
+            NumberFormat::Percent(0) => "0%".into(),
+            NumberFormat::Percent(places) => format!("0.{}%", "0".repeat(places as usize)),
+            NumberFormat::PValue => "[<0.0001]0.00E+00;0.0000".into(),
+            NumberFormat::Scientific(places) => format!("0.{}E+00", "0".repeat(places.max(1) as usize)),
+        }
+    }
+}
+
+/// How a cell looks.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
+pub enum Look {
+    /// Ordinary cell.
+    #[default]
+    Plain,
+    /// The sheet's title.
+    Title,
+    /// A section heading.
+    Heading,
+    /// A table's column header.
+    ColumnHeader,
+    /// An explanatory note in italics.
+    Note,
+    /// The caution about acting on results.
+    Caution,
+    /// A plain-language verdict, emphasised.
+    Verdict,
+    /// A key in a key/value list.
+    Key,
+}
+
+/// A cell's content.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Value {
+    /// Text, written as a string cell.
+    Text(String),
+    /// A number with its display format; non-finite numbers are written as text.
+    Number(f64, NumberFormat),
+    /// A link to another file, with the text shown.
+    Link {
+        /// The target, a relative file path or URL.
+        target: String,
+        /// The text shown.
+        text: String,
+    },
+    /// Nothing.
+    Blank,
+}
+
+impl Value {
+    /// Text.
+    pub fn text(text: impl Into<String>) -> Self {
+        Value::Text(text.into())
+    }
+
+    /// A number in the general format.
+    pub fn number(value: f64) -> Self {
+        Value::Number(value, NumberFormat::General)
+    }
+
+    /// A number with fixed decimals.
+    pub fn decimals(value: f64, places: u8) -> Self {
+        Value::Number(value, NumberFormat::Decimals(places))
+    }
+
+    /// A whole number.
+    pub fn integer(value: f64) -> Self {
+        Value::Number(value, NumberFormat::Integer)
+    }
+
+    /// A p-value.
+    pub fn p_value(value: f64) -> Self {
+        Value::Number(value, NumberFormat::PValue)
+    }
+}
+
+/// One cell placed on a sheet.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Placed {
+    /// Zero-based row.
+    pub row: u32,
+    /// Zero-based column.
+    pub col: u16,
+    /// The content.
+    pub value: Value,
+    /// The look.
+    pub look: Look,
+}
+
+/// A rectangle of cells on a named sheet, for chart data.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SheetRange {
+    /// The sheet's name.
+    pub sheet: String,
+    /// First row, zero-based.
+    pub first_row: u32,
+    /// First column.
+    pub first_col: u16,
+    /// Last row.
+    pub last_row: u32,
+    /// Last column.
+    pub last_col: u16,
+}
+
+impl SheetRange {
+    /// A single column range.
+    pub fn column(sheet: &str, col: u16, first_row: u32, last_row: u32) -> Self {
+        Self { sheet: sheet.to_string(), first_row, first_col: col, last_row, last_col: col }
+    }
+
+    fn to_chart_range(&self) -> ChartRange {
+        ChartRange::new_from_range(&self.sheet, self.first_row, self.first_col, self.last_row, self.last_col)
+    }
+}
+
+/// Chart kinds we draw.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ChartKind {
+    /// Points over text categories, without joining lines (means with bars).
+    Points,
+    /// Points over text categories, joined by lines (interaction plots).
+    Lines,
+    /// Points at numeric x and y (residual plots, probability plots).
+    Scatter,
+    /// Columns over categories (counts, verdict tallies).
+    Columns,
+}
+
+/// One series of a chart.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Series {
+    /// The legend name.
+    pub name: String,
+    /// Category labels (or x values for a scatter chart).
+    pub categories: SheetRange,
+    /// The plotted values.
+    pub values: SheetRange,
+    /// Upward half-widths of interval bars, if any.
+    pub bar_plus: Option<SheetRange>,
+    /// Downward half-widths of interval bars, if any.
+    pub bar_minus: Option<SheetRange>,
+}
+
+/// A chart placed on a sheet.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ChartSpec {
+    /// The kind.
+    pub kind: ChartKind,
+    /// The title shown above the chart.
+    pub title: String,
+    /// The horizontal axis title.
+    pub x_title: String,
+    /// The vertical axis title.
+    pub y_title: String,
+    /// The series.
+    pub series: Vec<Series>,
+    /// Top-left cell (row, column) where the chart is placed.
+    pub anchor: (u32, u16),
+    /// Width and height in pixels.
+    pub size: (u32, u32),
+}
+
+/// One sheet of a book.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Sheet {
+    /// The sheet's name (at most 31 characters, none of `[]:*?/\`).
+    pub name: String,
+    /// Column widths in characters, by column.
+    pub widths: Vec<(u16, f64)>,
+    /// The cells.
+    pub cells: Vec<Placed>,
+    /// The charts.
+    pub charts: Vec<ChartSpec>,
+    /// Rows frozen at the top (0 for none).
+    pub frozen_rows: u32,
+}
+
+impl Sheet {
+    /// A new empty sheet.
+    pub fn new(name: impl Into<String>) -> Self {
+        Self { name: name.into(), ..Self::default() }
+    }
+
+    /// Places a value.
+    pub fn put(&mut self, row: u32, col: u16, value: Value, look: Look) {
+        self.cells.push(Placed { row, col, value, look });
+    }
+
+    /// Places a table: a header row and rows of values. Returns the first row after it.
+    pub fn table(&mut self, row: u32, col: u16, headers: &[&str], rows: Vec<Vec<Value>>) -> u32 {
+        for (offset, header) in headers.iter().enumerate() {
+            self.put(row, col + offset as u16, Value::text(*header), Look::ColumnHeader);
+        }
+        let mut next = row + 1;
+        for values in rows {
+            for (offset, value) in values.into_iter().enumerate() {
+                self.put(next, col + offset as u16, value, Look::Plain);
+            }
+            next += 1;
+        }
+        next
+    }
+}
+
+/// A whole workbook to write.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Book {
+    /// The sheets, in order.
+    pub sheets: Vec<Sheet>,
+}
+
+/// Why a book could not be written.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum WriteError {
+    /// The spreadsheet writer refused the content.
+    #[error("cannot build the workbook '{}'", path.display())]
+    Build {
+        /// The destination.
+        path: PathBuf,
+        /// The writer's error.
+        #[source]
+        source: XlsxError,
+    },
+    /// The file could not be written or moved into place.
+    #[error("cannot write '{}'", path.display())]
+    Io {
+        /// The destination.
+        path: PathBuf,
+        /// The operating system's error.
+        #[source]
+        source: std::io::Error,
+    },
+}
+
+struct Looks {
+    plain: Format,
+    title: Format,
+    heading: Format,
+    column_header: Format,
+    note: Format,
+    caution: Format,
+    verdict: Format,
+    key: Format,
+}
+
+impl Looks {
+    fn new() -> Self {
+        let ink = Color::RGB(0x1F2A44);
+        Self {
+            plain: Format::new(),
+            title: Format::new().set_bold().set_font_size(15).set_font_color(ink),
+            heading: Format::new().set_bold().set_font_size(12).set_font_color(ink),
+            column_header: Format::new()
+                .set_bold()
+                .set_text_wrap()
+                .set_align(FormatAlign::Center)
+                .set_align(FormatAlign::VerticalCenter)
+                .set_border_bottom(FormatBorder::Medium)
+                .set_background_color(Color::RGB(0xE8EEF4)),
+            note: Format::new().set_italic().set_font_color(Color::RGB(0x505A64)),
+            caution: Format::new().set_bold().set_font_color(Color::RGB(0x8A3B00)).set_text_wrap(),
+            verdict: Format::new().set_bold().set_font_size(12).set_text_wrap(),
+            key: Format::new().set_bold(),
+        }
+    }
+
+    fn get(&self, look: Look) -> &Format {
+        match look {
+            Look::Plain => &self.plain,
+            Look::Title => &self.title,
+            Look::Heading => &self.heading,
+            Look::ColumnHeader => &self.column_header,
+            Look::Note => &self.note,
+            Look::Caution => &self.caution,
+            Look::Verdict => &self.verdict,
+            Look::Key => &self.key,
+        }
+    }
+}
+
+fn clip_text(text: &str) -> &str {
+    if text.len() <= MAX_CELL_TEXT {
+        return text;
+    }
+    let mut end = MAX_CELL_TEXT;
+    while !text.is_char_boundary(end) {
+        end -= 1;
+    }
+    &text[..end]
+}
+
+fn build(book: &Book) -> Result<XlsxWorkbook, XlsxError> {
+    let looks = Looks::new();
+    let mut workbook = XlsxWorkbook::new();
+    let mut number_formats: std::collections::HashMap<(NumberFormat, Look), Format> = std::collections::HashMap::new();
+    for sheet in &book.sheets {
+        let worksheet = workbook.add_worksheet();
+        worksheet.set_name(&sheet.name)?;
+        for (col, width) in &sheet.widths {
+            worksheet.set_column_width(*col, *width)?;
+        }
+        if sheet.frozen_rows > 0 {
+            worksheet.set_freeze_panes(sheet.frozen_rows, 0)?;
+        }
+        for placed in &sheet.cells {
+            let format = looks.get(placed.look);
+            match &placed.value {
+                Value::Text(text) => {
+                    worksheet.write_string_with_format(placed.row, placed.col, clip_text(text), format)?;
+                }
+                Value::Number(number, number_format) if number.is_finite() => {
+                    let with_number = number_formats
+                        .entry((*number_format, placed.look))
+                        .or_insert_with(|| format.clone().set_num_format(number_format.code()));
+                    worksheet.write_number_with_format(placed.row, placed.col, *number, &*with_number)?;
+                }
+                Value::Number(number, _) => {
+                    let shown = if number.is_nan() { "not defined" } else if *number > 0.0 { "+infinity" } else { "-infinity" };
+                    worksheet.write_string_with_format(placed.row, placed.col, shown, format)?;
+                }
+                Value::Link { target, text } => {
+                    let url = rust_xlsxwriter::Url::new(target.as_str()).set_text(clip_text(text));
+                    worksheet.write_url(placed.row, placed.col, url)?;
+                }
+                Value::Blank => {}
+            }
+        }
+        for spec in &sheet.charts {
+            let chart = build_chart(spec);
+            worksheet.insert_chart(spec.anchor.0, spec.anchor.1, &chart)?;
+        }
+    }
+    Ok(workbook)
+}
+
+const SERIES_COLOURS: [u32; 6] = [0x2F5D8C, 0xC0504D, 0x4E8F3A, 0x8064A2, 0xD08A20, 0x3A8FA0];
+
+fn build_chart(spec: &ChartSpec) -> Chart {
+    let mut chart = match spec.kind {
+        ChartKind::Points | ChartKind::Lines => Chart::new_line(),
+        ChartKind::Scatter => Chart::new_scatter(),
+        ChartKind::Columns => Chart::new_column(),
+    };
+    chart.title().set_name(&spec.title);
+    chart.x_axis().set_name(&spec.x_title);
+    chart.y_axis().set_name(&spec.y_title);
+    chart.set_width(spec.size.0).set_height(spec.size.1);
+    if spec.series.len() <= 1 {
+        chart.legend().set_hidden();
+    }
+    for (index, series_spec) in spec.series.iter().enumerate() {
+        let colour = Color::RGB(SERIES_COLOURS[index % SERIES_COLOURS.len()]);
+        let series = chart.add_series();
+        series
+            .set_name(series_spec.name.as_str())
+            .set_categories(&series_spec.categories.to_chart_range())
+            .set_values(&series_spec.values.to_chart_range());
+        match spec.kind {
+            ChartKind::Points | ChartKind::Scatter => {
+                series.set_format(ChartFormat::new().set_no_line());
+                series.set_marker(
+                    ChartMarker::new()
+                        .set_type(ChartMarkerType::Circle)
+                        .set_size(7)
+                        .set_format(ChartFormat::new().set_solid_fill(ChartSolidFill::new().set_color(colour)).set_line(ChartLine::new().set_color(colour))),
+                );
+            }
+            ChartKind::Lines => {
+                series.set_format(ChartFormat::new().set_line(ChartLine::new().set_color(colour).set_width(2.0)));
+                series.set_marker(ChartMarker::new().set_type(ChartMarkerType::Square).set_size(6));
+            }
+            ChartKind::Columns => {
+                series.set_format(ChartFormat::new().set_solid_fill(ChartSolidFill::new().set_color(colour)));
+            }
+        }
+        if let (Some(plus), Some(minus)) = (&series_spec.bar_plus, &series_spec.bar_minus) {
+            let mut bars = ChartErrorBars::new();
+            bars.set_type(ChartErrorBarsType::Custom(plus.to_chart_range(), minus.to_chart_range()))
+                .set_end_cap(true)
+                .set_format(ChartLine::new().set_color(colour).set_width(1.25));
+            series.set_y_error_bars(&bars);
+        }
+    }
+    chart
+}
+
+/// The hidden temporary name a file is first written under, beside `destination`.
+pub fn temporary_name(destination: &Path) -> PathBuf {
+    let file_name = destination.file_name().map(|name| name.to_string_lossy().into_owned()).unwrap_or_default();
+    let unique = format!(
+        ".{file_name}.{}-{}.tmp",
+        std::process::id(),
+        std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map_or(0, |elapsed| elapsed.as_nanos())
+    );
+    destination.with_file_name(unique)
+}
+
+/// Builds the workbook in memory as xlsx bytes.
+///
+/// # Errors
+///
+/// [`WriteError::Build`] when the writer refuses the content.
+pub fn to_bytes(book: &Book, destination: &Path) -> Result<Vec<u8>, WriteError> {
+    let mut workbook = build(book).map_err(|source| WriteError::Build { path: destination.to_path_buf(), source })?;
+    workbook.save_to_buffer().map_err(|source| WriteError::Build { path: destination.to_path_buf(), source })
+}
+
+/// Writes a book to `destination` atomically: to a hidden temporary file in
+/// the same folder, flushed, then renamed into place. On any failure the
+/// temporary file is removed and the destination is left as it was.
+///
+/// # Errors
+///
+/// [`WriteError::Build`] or [`WriteError::Io`].
+pub fn write_book(book: &Book, destination: &Path) -> Result<(), WriteError> {
+    let bytes = to_bytes(book, destination)?;
+    write_atomically(&bytes, destination)
+}
+
+/// Writes bytes to `destination` through a temporary file and a rename.
+///
+/// # Errors
+///
+/// [`WriteError::Io`].
+pub fn write_atomically(bytes: &[u8], destination: &Path) -> Result<(), WriteError> {
+    use std::io::Write;
+    let temporary = temporary_name(destination);
+    let io_error = |source| WriteError::Io { path: destination.to_path_buf(), source };
+    let outcome = (|| -> std::io::Result<()> {
+        let mut file = std::fs::OpenOptions::new().write(true).create_new(true).open(&temporary)?;
+        file.write_all(bytes)?;
+        file.sync_all()?;
+        drop(file);
+        std::fs::rename(&temporary, destination)
+    })();
+    if let Err(error) = outcome {
+        let _ = std::fs::remove_file(&temporary);
+        return Err(io_error(error));
+    }
+    Ok(())
+}
