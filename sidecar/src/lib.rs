@@ -1,0 +1,2 @@
+pub mod analysis;
+pub mod stats;

@@ -1,0 +1,5 @@
+//! Analyses built from the statistics routines: the one-way model and the
+//! contrasts users write. Plain Rust values in, plain Rust values out; no I/O.
+
+pub mod contrast;
+pub mod oneway;

@@ -1,0 +1,47 @@
+//! The statistics engine's numerical routines: distributions, exact
+//! accumulation of sums, special distributions for multiple comparisons,
+//! model checks and linear models.
+//!
+//! Nothing here does I/O or knows about workbooks or protocols; every routine
+//! validates its input and returns a [`StatsError`] rather than panicking.
+
+pub mod accumulate;
+pub mod dist;
+pub mod linear_model;
+pub mod normality;
+pub mod ranks;
+pub mod spread;
+
+/// Why a statistical routine refused its input or could not finish.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum StatsError {
+    /// A parameter was outside the range the routine accepts.
+    #[error("{name} must be {rule}, got {value}")]
+    InvalidParameter {
+        /// The parameter's name.
+        name: &'static str,
+        /// The rule it broke.
+        rule: &'static str,
+        /// The value given.
+        value: f64,
+    },
+    /// Too little data for the computation.
+    #[error("{what}: need at least {needed}, got {got}")]
+    TooFewValues {
+        /// What was being computed.
+        what: &'static str,
+        /// How many values are needed.
+        needed: usize,
+        /// How many there were.
+        got: usize,
+    },
+    /// An iteration did not reach its tolerance.
+    #[error("{what} did not converge after {iterations} iterations")]
+    NoConvergence {
+        /// What was being computed.
+        what: &'static str,
+        /// Iterations spent.
+        iterations: usize,
+    },
+}
