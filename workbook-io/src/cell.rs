@@ -58,10 +58,7 @@ pub struct CellRect {
 impl CellRect {
     /// Whether the position lies inside the rectangle.
     pub fn contains(&self, pos: CellPos) -> bool {
-        pos.row >= self.first.row
-            && pos.row <= self.last.row
-            && pos.col >= self.first.col
-            && pos.col <= self.last.col
+        pos.row >= self.first.row && pos.row <= self.last.row && pos.col >= self.first.col && pos.col <= self.last.col
     }
 
     /// The A1 form, for example `A1:C20`.

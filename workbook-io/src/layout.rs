@@ -257,6 +257,9 @@ pub enum LayoutError {
 
 #[derive(Default, Clone, Copy)]
 struct ColumnCounts {
+    /// True while every number so far is one more than the one above it.
+    counts_up: bool,
+    last_number: Option<f64>,
     numbers: usize,
     texts: usize,
     booleans: usize,
@@ -289,7 +292,12 @@ struct HeaderColumn {
 pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTable, LayoutError> {
     let sheet = grid.name.clone();
     let cells: Vec<(CellPos, CellValue)> = match request.range {
-        Some(rect) => grid.cells.iter().copied().filter(|(pos, _)| rect.contains(*pos)).collect(),
+        Some(rect) => grid
+            .cells
+            .iter()
+            .copied()
+            .filter(|(pos, _)| rect.contains(*pos))
+            .collect(),
         None => Vec::new(),
     };
     let cells: &[(CellPos, CellValue)] = if request.range.is_some() { &cells } else { &grid.cells };
@@ -318,7 +326,10 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
         .collect();
     for area in &grid.merged {
         if area.first.row <= header_row && area.last.row >= header_row && area.n_cols() > 1 {
-            let base = headers.iter().find(|(col, _)| *col == area.first.col).map(|(_, name)| name.clone());
+            let base = headers
+                .iter()
+                .find(|(col, _)| *col == area.first.col)
+                .map(|(_, name)| name.clone());
             if let Some(base) = base {
                 findings.push(Finding {
                     kind: FindingKind::MergedHeader,
@@ -363,11 +374,7 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
                 cell: Some(CellPos::new(header_row, col).a1()),
                 found: "a blank header".into(),
                 action: format!("the column was named '{name}'"),
-                message: format!(
-                    "{}!{} is blank but the column below holds data; it was named '{name}'",
-                    sheet,
-                    CellPos::new(header_row, col).a1()
-                ),
+                message: format!("the header cell is blank but the column below holds data; it was named '{name}'"),
             });
             headers.push((col, name));
         }
@@ -389,9 +396,7 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
                 found: name.clone(),
                 action: format!("renamed to '{renamed}'"),
                 message: format!(
-                    "{}!{}: the header '{name}' is used by an earlier column too; this one was called '{renamed}'",
-                    sheet,
-                    CellPos::new(header_row, *col).a1()
+                    "the header '{name}' is used by an earlier column too; this one was called '{renamed}'"
                 ),
             });
             *name = renamed;
@@ -399,17 +404,35 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
     }
 
     // Count what each column holds.
-    let col_index: HashMap<u32, usize> = headers.iter().enumerate().map(|(index, (col, _))| (*col, index)).collect();
+    let col_index: HashMap<u32, usize> = headers
+        .iter()
+        .enumerate()
+        .map(|(index, (col, _))| (*col, index))
+        .collect();
     let mut columns: Vec<HeaderColumn> = headers
         .iter()
-        .map(|(col, name)| HeaderColumn { col: *col, name: name.clone(), counts: ColumnCounts::default(), distinct_labels: 0 })
+        .map(|(col, name)| HeaderColumn {
+            col: *col,
+            name: name.clone(),
+            counts: ColumnCounts::default(),
+            distinct_labels: 0,
+        })
         .collect();
     let mut label_sets: Vec<HashMap<String, ()>> = vec![HashMap::new(); columns.len()];
     for (pos, value) in data_cells {
-        let Some(&index) = col_index.get(&pos.col) else { continue };
+        let Some(&index) = col_index.get(&pos.col) else {
+            continue;
+        };
         let counts = &mut columns[index].counts;
         match value {
-            CellValue::Number(_) => counts.numbers += 1,
+            CellValue::Number(number) => {
+                counts.counts_up = match counts.last_number {
+                    None => number.fract() == 0.0,
+                    Some(previous) => counts.counts_up && *number == previous + 1.0,
+                };
+                counts.last_number = Some(*number);
+                counts.numbers += 1;
+            }
             CellValue::Text(text_index) => {
                 counts.texts += 1;
                 if label_sets[index].len() <= 10_000 {
@@ -425,7 +448,13 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
         column.distinct_labels = labels.len();
     }
 
-    let available = || columns.iter().map(|column| column.name.clone()).collect::<Vec<_>>().join(", ");
+    let available = || {
+        columns
+            .iter()
+            .map(|column| column.name.clone())
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
     let find_column = |name: &str| -> Result<usize, LayoutError> {
         columns
             .iter()
@@ -459,12 +488,19 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
                 cell: Some(CellPos::new(header_row, column.col).a1()),
                 found: column.name.clone(),
                 action: "the column was left out".into(),
-                message: format!("the column headed '{}' has no values below its header; it was left out", column.name),
+                message: format!(
+                    "the column headed '{}' has no values below its header; it was left out",
+                    column.name
+                ),
             });
         }
     }
 
-    let n_data_rows = data_cells.iter().map(|(pos, _)| pos.row).collect::<std::collections::BTreeSet<_>>().len();
+    let n_data_rows = data_cells
+        .iter()
+        .map(|(pos, _)| pos.row)
+        .collect::<std::collections::BTreeSet<_>>()
+        .len();
     let layout = match request.layout {
         Some(layout) => layout,
         None if !factor_columns.is_empty() => Layout::Long,
@@ -477,7 +513,20 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
             for index in label_candidates {
                 let column = &columns[index];
                 let looks_like_identifier = n_data_rows >= 8 && column.distinct_labels * 10 > n_data_rows * 8;
-                if looks_like_identifier {
+                let looks_like_notes = column.counts.non_empty() * 2 < n_data_rows;
+                if looks_like_notes {
+                    findings.push(Finding {
+                        kind: FindingKind::IdentifierColumn,
+                        sheet: sheet.clone(),
+                        cell: Some(CellPos::new(header_row, column.col).a1()),
+                        found: column.name.clone(),
+                        action: "not used as a factor".into(),
+                        message: format!(
+                            "the column '{}' is filled on fewer than half of the rows, so it was read as notes, not a condition; name it as a factor to use it",
+                            column.name
+                        ),
+                    });
+                } else if looks_like_identifier {
                     findings.push(Finding {
                         kind: FindingKind::IdentifierColumn,
                         sheet: sheet.clone(),
@@ -509,6 +558,27 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
                     .filter(|index| columns[*index].counts.is_numeric())
                     .filter(|index| !factor_columns.iter().any(|(factor, _)| factor == index))
                     .collect();
+                // A column counting 1, 2, 3, ... is a run or sample number, not a measurement.
+                let (counters, measured): (Vec<usize>, Vec<usize>) = response_columns
+                    .iter()
+                    .partition(|&&index| columns[index].counts.counts_up && columns[index].counts.numbers >= 8);
+                if !measured.is_empty() {
+                    for index in counters {
+                        let column = &columns[index];
+                        findings.push(Finding {
+                            kind: FindingKind::IdentifierColumn,
+                            sheet: sheet.clone(),
+                            cell: Some(CellPos::new(header_row, column.col).a1()),
+                            found: column.name.clone(),
+                            action: "not analysed as a response".into(),
+                            message: format!(
+                                "the column '{}' counts up by one on every row, so it was read as a run number, not a measurement; name it as a response to analyse it",
+                                column.name
+                            ),
+                        });
+                    }
+                    response_columns = measured;
+                }
             }
             if factor_columns.is_empty() {
                 return Err(LayoutError::NoTable {
@@ -530,11 +600,23 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
                     ),
                 });
             }
-            Ok(build_long(grid, &sheet, header_row, last_row, data_cells, &columns, &factor_columns, &response_columns, findings))
+            Ok(build_long(
+                grid,
+                &sheet,
+                header_row,
+                last_row,
+                data_cells,
+                &columns,
+                &factor_columns,
+                &response_columns,
+                findings,
+            ))
         }
         Layout::Wide => {
             let condition_columns: Vec<usize> = if response_columns.is_empty() {
-                (0..columns.len()).filter(|index| columns[*index].counts.is_numeric()).collect()
+                (0..columns.len())
+                    .filter(|index| columns[*index].counts.is_numeric())
+                    .collect()
             } else {
                 response_columns.clone()
             };
@@ -548,8 +630,21 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
                     ),
                 });
             }
-            let response_name = request.wide_response_name.clone().unwrap_or_else(|| "value".to_string());
-            Ok(build_wide(grid, &sheet, header_row, last_row, data_cells, &columns, &condition_columns, response_name, findings))
+            let response_name = request
+                .wide_response_name
+                .clone()
+                .unwrap_or_else(|| "value".to_string());
+            Ok(build_wide(
+                grid,
+                &sheet,
+                header_row,
+                last_row,
+                data_cells,
+                &columns,
+                &condition_columns,
+                response_name,
+                findings,
+            ))
         }
     }
 }
@@ -569,16 +664,19 @@ fn row_spans(cells: &[(CellPos, CellValue)]) -> Vec<(usize, usize)> {
 
 /// The header is the first row of text cells followed by a row with a
 /// number; rows with two or more texts are preferred over a lone title.
-fn find_header_row(
-    cells: &[(CellPos, CellValue)],
-    rows: &[(usize, usize)],
-    explicit_range: bool,
-) -> Option<usize> {
+fn find_header_row(cells: &[(CellPos, CellValue)], rows: &[(usize, usize)], explicit_range: bool) -> Option<usize> {
     let is_text = |value: &CellValue| matches!(value, CellValue::Text(_));
-    let row_has_number = |span: &(usize, usize)| cells[span.0..span.1].iter().any(|(_, value)| matches!(value, CellValue::Number(_)));
+    let row_has_number = |span: &(usize, usize)| {
+        cells[span.0..span.1]
+            .iter()
+            .any(|(_, value)| matches!(value, CellValue::Number(_)))
+    };
     if explicit_range {
         let first = rows.first()?;
-        return cells[first.0..first.1].iter().any(|(_, value)| is_text(value)).then_some(0);
+        return cells[first.0..first.1]
+            .iter()
+            .any(|(_, value)| is_text(value))
+            .then_some(0);
     }
     let scan = rows.len().min(200);
     let mut lone_title: Option<usize> = None;
@@ -609,7 +707,13 @@ fn label_text(grid: &SheetGrid, value: CellValue) -> Option<String> {
     }
 }
 
-fn unusable_number(grid: &SheetGrid, sheet: &str, pos: CellPos, value: CellValue, column_name: &str) -> Option<Finding> {
+fn unusable_number(
+    grid: &SheetGrid,
+    sheet: &str,
+    pos: CellPos,
+    value: CellValue,
+    column_name: &str,
+) -> Option<Finding> {
     let (kind, what) = match value {
         CellValue::Number(number) if number.is_finite() => return None,
         CellValue::Number(_) => (FindingKind::TextInNumbers, "a non-finite number"),
@@ -625,10 +729,7 @@ fn unusable_number(grid: &SheetGrid, sheet: &str, pos: CellPos, value: CellValue
         cell: Some(pos.a1()),
         found: found.clone(),
         action: "the value was left out".into(),
-        message: format!(
-            "{sheet}!{}: found {what} '{found}' in the numbers of '{column_name}'; the value was left out",
-            pos.a1()
-        ),
+        message: format!("found {what} '{found}' in the numbers of '{column_name}'; the value was left out"),
     })
 }
 
@@ -657,7 +758,11 @@ fn build_long(
     let mut level_maps: Vec<HashMap<String, u32>> = vec![HashMap::new(); factors.len()];
     let mut responses: Vec<Response> = response_columns
         .iter()
-        .map(|&index| Response { name: columns[index].name.clone(), column: Some(columns[index].col), values: Vec::new() })
+        .map(|&index| Response {
+            name: columns[index].name.clone(),
+            column: Some(columns[index].col),
+            values: Vec::new(),
+        })
         .collect();
     let factor_cols: Vec<u32> = factors.iter().filter_map(|factor| factor.column).collect();
     let response_cols: Vec<u32> = responses.iter().filter_map(|response| response.column).collect();
@@ -704,10 +809,13 @@ fn build_long(
                     found: found.clone(),
                     action: "the row was left out".into(),
                     message: format!(
-                        "{sheet}!{}: the '{}' label is {} on a row with data; the row was left out",
-                        pos.a1(),
+                        "the '{}' label is {} on a row with data; the row was left out",
                         factors[index].name,
-                        if slot.is_none() { "blank".to_string() } else { format!("'{found}'") }
+                        if slot.is_none() {
+                            "blank".to_string()
+                        } else {
+                            format!("'{found}'")
+                        }
                     ),
                 });
             }
@@ -739,8 +847,7 @@ fn build_long(
                         found: "a blank".into(),
                         action: "left out of this response".into(),
                         message: format!(
-                            "{sheet}!{}: no value for '{}' on a row with a condition label; the row was left out of that response",
-                            pos.a1(),
+                            "no value for '{}' on a row with a condition label; the row was left out of that response",
                             responses[index].name
                         ),
                     });
@@ -758,7 +865,10 @@ fn build_long(
     let last_col = columns.last().map_or(0, |column| column.col);
     TrialTable {
         sheet: sheet.to_string(),
-        area: CellRect { first: CellPos::new(header_row, first_col), last: CellPos::new(last_row, last_col) },
+        area: CellRect {
+            first: CellPos::new(header_row, first_col),
+            last: CellPos::new(last_row, last_col),
+        },
         layout: Layout::Long,
         factors,
         responses,
@@ -781,7 +891,7 @@ fn similar_label_findings(sheet: &str, factor: &Factor, map: &HashMap<String, u3
         findings.push(Finding {
             kind: FindingKind::SimilarLabels,
             sheet: sheet.to_string(),
-            cell: factor.column.map(|col| column_letters(col)),
+            cell: factor.column.map(column_letters),
             found: group.join(" | "),
             action: "kept as different conditions".into(),
             message: format!(
@@ -806,7 +916,10 @@ fn build_wide(
     mut findings: Findings,
 ) -> TrialTable {
     let level_columns: Vec<u32> = condition_columns.iter().map(|&index| columns[index].col).collect();
-    let levels: Vec<String> = condition_columns.iter().map(|&index| columns[index].name.clone()).collect();
+    let levels: Vec<String> = condition_columns
+        .iter()
+        .map(|&index| columns[index].name.clone())
+        .collect();
     let mut level_of_record = Vec::new();
     let mut values = Vec::new();
     let mut record_rows = Vec::new();
@@ -814,7 +927,9 @@ fn build_wide(
     // values are gaps worth reporting.
     let mut previous_row: Vec<u32> = vec![header_row; level_columns.len()];
     for (pos, value) in data_cells {
-        let Some(level) = level_columns.iter().position(|col| *col == pos.col) else { continue };
+        let Some(level) = level_columns.iter().position(|col| *col == pos.col) else {
+            continue;
+        };
         for gap_row in previous_row[level] + 1..pos.row {
             let gap = CellPos::new(gap_row, pos.col);
             findings.push(Finding {
@@ -823,7 +938,7 @@ fn build_wide(
                 cell: Some(gap.a1()),
                 found: "a blank".into(),
                 action: "skipped".into(),
-                message: format!("{sheet}!{}: a blank between values of '{}'; it was skipped", gap.a1(), levels[level]),
+                message: format!("a blank between values of '{}'; it was skipped", levels[level]),
             });
         }
         previous_row[level] = pos.row;
@@ -844,10 +959,23 @@ fn build_wide(
     let last_col = level_columns.iter().copied().max().unwrap_or(0);
     TrialTable {
         sheet: sheet.to_string(),
-        area: CellRect { first: CellPos::new(header_row, first_col), last: CellPos::new(last_row, last_col) },
+        area: CellRect {
+            first: CellPos::new(header_row, first_col),
+            last: CellPos::new(last_row, last_col),
+        },
         layout: Layout::Wide,
-        factors: vec![Factor { name: "condition".into(), column: None, levels, level_of_record, is_block: false }],
-        responses: vec![Response { name: response_name, column: None, values }],
+        factors: vec![Factor {
+            name: "condition".into(),
+            column: None,
+            levels,
+            level_of_record,
+            is_block: false,
+        }],
+        responses: vec![Response {
+            name: response_name,
+            column: None,
+            values,
+        }],
         record_rows,
         level_columns,
         findings: findings.into_vec(),

@@ -48,13 +48,20 @@ pub fn read_setting_rows(grid: &SheetGrid) -> Vec<SettingRow> {
             };
             (pos, text.trim().to_string())
         });
-        let Some((key_pos, key)) = texts.find(|(_, text)| !text.is_empty()) else { continue };
+        let Some((key_pos, key)) = texts.find(|(_, text)| !text.is_empty()) else {
+            continue;
+        };
         let key = key.to_lowercase();
         if key.starts_with('#') {
             continue;
         }
         let value = texts.find(|(_, text)| !text.is_empty());
-        if rows.is_empty() && key == "setting" && value.as_ref().is_some_and(|(_, text)| text.eq_ignore_ascii_case("value")) {
+        if rows.is_empty()
+            && key == "setting"
+            && value
+                .as_ref()
+                .is_some_and(|(_, text)| text.eq_ignore_ascii_case("value"))
+        {
             continue;
         }
         let (cell, value) = match value {

@@ -77,7 +77,11 @@ struct Parser<'a> {
 
 impl<'a> Parser<'a> {
     fn error(&self, problem: impl Into<String>) -> ContrastError {
-        ContrastError::Syntax { text: self.text.to_string(), problem: problem.into(), position: self.position + 1 }
+        ContrastError::Syntax {
+            text: self.text.to_string(),
+            problem: problem.into(),
+            position: self.position + 1,
+        }
     }
 
     fn skip_spaces(&mut self) {
@@ -148,7 +152,10 @@ impl<'a> Parser<'a> {
             let c = self.chars[self.position];
             let inner_dash = c == '-'
                 && self.position > start
-                && self.chars.get(self.position + 1).is_some_and(|next| next.is_alphanumeric());
+                && self
+                    .chars
+                    .get(self.position + 1)
+                    .is_some_and(|next| next.is_alphanumeric());
             if c.is_alphanumeric() || c == '_' || c == '.' || inner_dash {
                 self.position += 1;
             } else {
@@ -165,7 +172,11 @@ impl<'a> Parser<'a> {
         self.conditions
             .iter()
             .position(|name| name == label)
-            .or_else(|| self.conditions.iter().position(|name| name.eq_ignore_ascii_case(label.trim())))
+            .or_else(|| {
+                self.conditions
+                    .iter()
+                    .position(|name| name.eq_ignore_ascii_case(label.trim()))
+            })
             .ok_or_else(|| ContrastError::UnknownCondition {
                 text: self.text.to_string(),
                 label: label.to_string(),
@@ -277,7 +288,12 @@ pub fn parse_contrast(text: &str, conditions: &[String]) -> Result<Contrast, Con
         Some(index) => (trimmed[..index].trim().to_string(), trimmed[index + 1..].trim()),
         None => (trimmed.to_string(), trimmed),
     };
-    let mut parser = Parser { text: trimmed, chars: expression.chars().collect(), position: 0, conditions };
+    let mut parser = Parser {
+        text: trimmed,
+        chars: expression.chars().collect(),
+        position: 0,
+        conditions,
+    };
     if parser.peek().is_none() {
         return Err(parser.error("the expression is empty"));
     }
@@ -286,9 +302,15 @@ pub fn parse_contrast(text: &str, conditions: &[String]) -> Result<Contrast, Con
         return Err(parser.error("unexpected text"));
     }
     if coefficients.iter().all(|value| *value == 0.0) {
-        return Err(ContrastError::AllZero { text: trimmed.to_string() });
+        return Err(ContrastError::AllZero {
+            text: trimmed.to_string(),
+        });
     }
-    Ok(Contrast { name, expression: expression.to_string(), coefficients })
+    Ok(Contrast {
+        name,
+        expression: expression.to_string(),
+        coefficients,
+    })
 }
 
 /// Parses several combinations separated by `;`, skipping empty pieces.
@@ -363,10 +385,25 @@ mod tests {
     #[test]
     fn clear_errors() {
         let conditions = names(&["A", "B"]);
-        assert!(matches!(parse_contrast("A - Z", &conditions), Err(ContrastError::UnknownCondition { .. })));
-        assert!(matches!(parse_contrast("A - (B", &conditions), Err(ContrastError::Syntax { .. })));
-        assert!(matches!(parse_contrast("A / 0", &conditions), Err(ContrastError::Syntax { .. })));
-        assert!(matches!(parse_contrast("A - A", &conditions), Err(ContrastError::AllZero { .. })));
-        assert!(matches!(parse_contrast("", &conditions), Err(ContrastError::Syntax { .. })));
+        assert!(matches!(
+            parse_contrast("A - Z", &conditions),
+            Err(ContrastError::UnknownCondition { .. })
+        ));
+        assert!(matches!(
+            parse_contrast("A - (B", &conditions),
+            Err(ContrastError::Syntax { .. })
+        ));
+        assert!(matches!(
+            parse_contrast("A / 0", &conditions),
+            Err(ContrastError::Syntax { .. })
+        ));
+        assert!(matches!(
+            parse_contrast("A - A", &conditions),
+            Err(ContrastError::AllZero { .. })
+        ));
+        assert!(matches!(
+            parse_contrast("", &conditions),
+            Err(ContrastError::Syntax { .. })
+        ));
     }
 }

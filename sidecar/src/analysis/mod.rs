@@ -3,3 +3,4 @@
 
 pub mod contrast;
 pub mod oneway;
+pub mod verdict;

@@ -208,7 +208,12 @@ pub fn fit_one_way(
     contrasts: &[Contrast],
 ) -> Result<OneWayFit, OneWayError> {
     if !(confidence > 0.0 && confidence < 1.0) {
-        return Err(StatsError::InvalidParameter { name: "confidence", rule: "between 0 and 1", value: confidence }.into());
+        return Err(StatsError::InvalidParameter {
+            name: "confidence",
+            rule: "between 0 and 1",
+            value: confidence,
+        }
+        .into());
     }
     let n_groups = condition_names.len();
     let mut accumulator = GroupAccumulator::new(n_groups);
@@ -230,7 +235,11 @@ pub fn fit_one_way(
     let df_between = k - 1.0;
     let df_within = n_total as f64 - k;
     let ms_between = sums.ss_between / df_between;
-    let ms_within = if df_within > 0.0 { sums.ss_within / df_within } else { f64::NAN };
+    let ms_within = if df_within > 0.0 {
+        sums.ss_within / df_within
+    } else {
+        f64::NAN
+    };
     let pooled_sd = ms_within.sqrt();
     let (f, p) = if df_within > 0.0 {
         if ms_within > 0.0 {
@@ -245,11 +254,36 @@ pub fn fit_one_way(
         (f64::NAN, f64::NAN)
     };
     let anova = vec![
-        AnovaLine { source: "between conditions".into(), df: df_between, ss: sums.ss_between, ms: Some(ms_between), f: Some(f), p: Some(p) },
-        AnovaLine { source: "within conditions".into(), df: df_within, ss: sums.ss_within, ms: Some(ms_within), f: None, p: None },
-        AnovaLine { source: "total".into(), df: n_total as f64 - 1.0, ss: sums.ss_total, ms: None, f: None, p: None },
+        AnovaLine {
+            source: "between conditions".into(),
+            df: df_between,
+            ss: sums.ss_between,
+            ms: Some(ms_between),
+            f: Some(f),
+            p: Some(p),
+        },
+        AnovaLine {
+            source: "within conditions".into(),
+            df: df_within,
+            ss: sums.ss_within,
+            ms: Some(ms_within),
+            f: None,
+            p: None,
+        },
+        AnovaLine {
+            source: "total".into(),
+            df: n_total as f64 - 1.0,
+            ss: sums.ss_total,
+            ms: None,
+            f: None,
+            p: None,
+        },
     ];
-    let r_squared = if sums.ss_total > 0.0 { sums.ss_between / sums.ss_total } else { f64::NAN };
+    let r_squared = if sums.ss_total > 0.0 {
+        sums.ss_between / sums.ss_total
+    } else {
+        f64::NAN
+    };
     let omega_squared = if sums.ss_total > 0.0 && ms_within.is_finite() {
         (sums.ss_between - df_between * ms_within) / (sums.ss_total + ms_within)
     } else {
@@ -264,7 +298,11 @@ pub fn fit_one_way(
         let mut sorted = std::mem::take(&mut raw[index]);
         sorted.sort_by(|a, b| a.total_cmp(b));
         let n = group.n as f64;
-        let sd = if group.n > 1 { (group.centred_ss / (n - 1.0)).sqrt() } else { f64::NAN };
+        let sd = if group.n > 1 {
+            (group.centred_ss / (n - 1.0)).sqrt()
+        } else {
+            f64::NAN
+        };
         let half_width = multiplier * pooled_sd / n.sqrt();
         conditions.push(ConditionSummary {
             name: condition_names[index].clone(),
@@ -318,7 +356,10 @@ pub fn fit_one_way(
         contrast_estimates.push(ContrastEstimate {
             name: contrast.name.clone(),
             expression: contrast.expression.clone(),
-            coefficients: kept.iter().map(|&index| contrast.coefficients.get(index).copied().unwrap_or(0.0)).collect(),
+            coefficients: kept
+                .iter()
+                .map(|&index| contrast.coefficients.get(index).copied().unwrap_or(0.0))
+                .collect(),
             is_contrast: contrast.is_contrast(),
             estimate,
             se,

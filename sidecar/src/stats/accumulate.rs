@@ -317,10 +317,7 @@ impl GroupState {
 enum HeldSums {
     Empty,
     Exact(ExactSums),
-    Binary {
-        mean: DoubleDouble,
-        centred: DoubleDouble,
-    },
+    Binary { mean: DoubleDouble, centred: DoubleDouble },
 }
 
 /// Exact decimal sums of one condition: values are `(offset + d_j) * 10^-scale`,
@@ -350,8 +347,8 @@ const MAX_SCALE: u32 = 22;
 const SHORT_DIGITS_BOUND: f64 = 1e15;
 
 const POW10_F64: [f64; 23] = [
-    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
-    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20,
+    1e21, 1e22,
 ];
 
 #[derive(Debug, Clone, Copy, Default)]
@@ -385,9 +382,7 @@ impl ExactState {
         self.s1 = self.s1.checked_add(deviation)?;
         let magnitude = deviation.unsigned_abs();
         self.s2 = match u64::try_from(magnitude) {
-            Ok(small) => self
-                .s2
-                .checked_add_u128(u128::from(small) * u128::from(small))?,
+            Ok(small) => self.s2.checked_add_u128(u128::from(small) * u128::from(small))?,
             Err(_) => self.s2.checked_add(Wide::square(magnitude))?,
         };
         Some(())
@@ -678,8 +673,7 @@ fn compensated_oneway(filled: &[&GroupStats]) -> OnewaySums {
                     .mul_natural(&n_nat)
                     .add(&Integer::from_i128(e.s1));
                 let mean = ratio_to_double_double(&level, &n_nat.mul(&unit));
-                let centred =
-                    ratio_to_double_double(&e.centred_numerator(g.n), &n_nat.mul(&unit).mul(&unit));
+                let centred = ratio_to_double_double(&e.centred_numerator(g.n), &n_nat.mul(&unit).mul(&unit));
                 (g.n, mean, centred)
             }
             HeldSums::Empty => (0, DoubleDouble::from_f64(0.0), DoubleDouble::from_f64(0.0)),
@@ -732,11 +726,7 @@ impl Wide {
     #[inline]
     fn checked_add_u128(self, v: u128) -> Option<Self> {
         let (lo, carry) = self.lo.overflowing_add(v);
-        let hi = if carry {
-            self.hi.checked_add(1)?
-        } else {
-            self.hi
-        };
+        let hi = if carry { self.hi.checked_add(1)? } else { self.hi };
         Some(Self { lo, hi })
     }
 
@@ -966,10 +956,7 @@ impl Integer {
 
     fn with_sign(negative: bool, magnitude: Natural) -> Self {
         let negative = negative && !magnitude.is_zero();
-        Self {
-            negative,
-            magnitude,
-        }
+        Self { negative, magnitude }
     }
 
     fn add(&self, o: &Self) -> Self {
@@ -987,10 +974,7 @@ impl Integer {
     }
 
     fn mul(&self, o: &Self) -> Self {
-        Self::with_sign(
-            self.negative != o.negative,
-            self.magnitude.mul(&o.magnitude),
-        )
+        Self::with_sign(self.negative != o.negative, self.magnitude.mul(&o.magnitude))
     }
 
     fn mul_natural(&self, o: &Natural) -> Self {
@@ -1083,10 +1067,7 @@ fn ratio_to_double_double(num: &Integer, den: &Natural) -> DoubleDouble {
         (num.sub(&approx), den.clone())
     } else {
         let scaled = Integer::with_sign(num.negative, num.magnitude.shl((-exponent) as u64));
-        (
-            scaled.sub(&hi_int.mul_natural(den)),
-            den.shl((-exponent) as u64),
-        )
+        (scaled.sub(&hi_int.mul_natural(den)), den.shl((-exponent) as u64))
     };
     DoubleDouble {
         hi,
@@ -1135,19 +1116,10 @@ mod tests {
             .expect("data line range");
         let range = last_numbers(&range_line.replace(['(', ')'], " ").replace("to", " "), 2);
         let (first, last) = (range[0] as usize, range[1] as usize);
-        let between = lines
-            .iter()
-            .find(|l| l.starts_with("Between"))
-            .expect("between");
-        let within = lines
-            .iter()
-            .find(|l| l.starts_with("Within"))
-            .expect("within");
+        let between = lines.iter().find(|l| l.starts_with("Between")).expect("between");
+        let within = lines.iter().find(|l| l.starts_with("Within")).expect("within");
         let r2 = lines.iter().find(|l| l.contains("R-Squared")).expect("r2");
-        let sd = lines
-            .iter()
-            .find(|l| l.contains("Standard Deviation"))
-            .expect("sd");
+        let sd = lines.iter().find(|l| l.contains("Standard Deviation")).expect("sd");
         let b = last_numbers(between, 4);
         let w = last_numbers(within, 3);
         let mut groups = Vec::new();
@@ -1275,30 +1247,15 @@ mod tests {
         // python 3.11.7, fractions.Fraction(float(v)) for every response, exact SS:
         // (name, SS_between, SS_within, grand mean).
         let references = [
-            (
-                "SmLs07",
-                1.6801562694014696,
-                1.8000978373345875,
-                1000000000000.4,
-            ),
-            (
-                "SmLs09",
-                160.09949443572512,
-                180.00978232919425,
-                1000000000000.4,
-            ),
+            ("SmLs07", 1.6801562694014696, 1.8000978373345875, 1000000000000.4),
+            ("SmLs09", 160.09949443572512, 180.00978232919425, 1000000000000.4),
             (
                 "AtmWtAg",
                 3.6383418747907132e-09,
                 1.049517291679747e-08,
                 107.86814506041667,
             ),
-            (
-                "SiRstv",
-                0.05114626159999952,
-                0.2166365600000165,
-                196.189156,
-            ),
+            ("SiRstv", 0.05114626159999952, 0.2166365600000165, 196.189156),
         ];
         let datasets = nist_datasets();
         for (name, between, within, grand) in references {
@@ -1307,21 +1264,9 @@ mod tests {
             assert!(stats.iter().all(|g| !g.exact_decimal));
             let sums = oneway_sums(&stats).expect("non-empty");
             assert!(!sums.exact_decimal);
-            assert!(
-                lre(sums.ss_between, between) >= 13.0,
-                "{name} {}",
-                sums.ss_between
-            );
-            assert!(
-                lre(sums.ss_within, within) >= 13.0,
-                "{name} {}",
-                sums.ss_within
-            );
-            assert!(
-                lre(sums.grand_mean, grand) >= 15.0,
-                "{name} {}",
-                sums.grand_mean
-            );
+            assert!(lre(sums.ss_between, between) >= 13.0, "{name} {}", sums.ss_between);
+            assert!(lre(sums.ss_within, within) >= 13.0, "{name} {}", sums.ss_within);
+            assert!(lre(sums.grand_mean, grand) >= 15.0, "{name} {}", sums.grand_mean);
         }
     }
 
@@ -1661,9 +1606,6 @@ mod tests {
             oneway_sums(&GroupAccumulator::new(3).finish()),
             Err(StatsError::TooFewValues { .. })
         ));
-        assert!(matches!(
-            oneway_sums(&[]),
-            Err(StatsError::TooFewValues { .. })
-        ));
+        assert!(matches!(oneway_sums(&[]), Err(StatsError::TooFewValues { .. })));
     }
 }

@@ -49,7 +49,11 @@ fn check_probability(name: &'static str, value: f64) -> Result<f64, StatsError> 
     if value.is_finite() && (0.0..=1.0).contains(&value) {
         Ok(value)
     } else {
-        Err(StatsError::InvalidParameter { name, rule: "a finite probability in [0, 1]", value })
+        Err(StatsError::InvalidParameter {
+            name,
+            rule: "a finite probability in [0, 1]",
+            value,
+        })
     }
 }
 
@@ -57,7 +61,11 @@ fn check_df(name: &'static str, value: f64) -> Result<f64, StatsError> {
     if value > 0.0 {
         Ok(value)
     } else {
-        Err(StatsError::InvalidParameter { name, rule: "> 0 (infinity allowed)", value })
+        Err(StatsError::InvalidParameter {
+            name,
+            rule: "> 0 (infinity allowed)",
+            value,
+        })
     }
 }
 
@@ -65,13 +73,21 @@ fn check_finite_df(name: &'static str, value: f64) -> Result<f64, StatsError> {
     if value > 0.0 && value.is_finite() {
         Ok(value)
     } else {
-        Err(StatsError::InvalidParameter { name, rule: "finite and > 0", value })
+        Err(StatsError::InvalidParameter {
+            name,
+            rule: "finite and > 0",
+            value,
+        })
     }
 }
 
 fn check_point(name: &'static str, value: f64) -> Result<f64, StatsError> {
     if value.is_nan() {
-        Err(StatsError::InvalidParameter { name, rule: "a number (not NaN)", value })
+        Err(StatsError::InvalidParameter {
+            name,
+            rule: "a number (not NaN)",
+            value,
+        })
     } else {
         Ok(value)
     }
@@ -81,7 +97,11 @@ fn check_noncentrality(value: f64) -> Result<f64, StatsError> {
     if value.is_finite() && value >= 0.0 {
         Ok(value)
     } else {
-        Err(StatsError::InvalidParameter { name: "noncentrality", rule: "finite and >= 0", value })
+        Err(StatsError::InvalidParameter {
+            name: "noncentrality",
+            rule: "finite and >= 0",
+            value,
+        })
     }
 }
 
@@ -125,10 +145,7 @@ fn stirling_remainder(z: f64) -> f64 {
                     - inv2
                         * (1.0 / 1260.0
                             - inv2
-                                * (1.0 / 1680.0
-                                    - inv2
-                                        * (1.0 / 1188.0
-                                            - inv2 * (691.0 / 360_360.0 - inv2 / 156.0)))));
+                                * (1.0 / 1680.0 - inv2 * (1.0 / 1188.0 - inv2 * (691.0 / 360_360.0 - inv2 / 156.0)))));
         series * inv
     } else {
         statrs::function::gamma::ln_gamma(z + 1.0) - (z + 0.5) * z.ln() + z - LN_SQRT_2PI
@@ -179,14 +196,29 @@ impl UnitPoint {
     /// (`s` may have overflowed to infinity as long as `ln s` is finite).
     fn from_odds(odds: f64, ln_odds: f64) -> UnitPoint {
         if odds <= 0.0 || ln_odds == f64::NEG_INFINITY {
-            return UnitPoint { x: 0.0, y: 1.0, ln_x: f64::NEG_INFINITY, ln_y: 0.0 };
+            return UnitPoint {
+                x: 0.0,
+                y: 1.0,
+                ln_x: f64::NEG_INFINITY,
+                ln_y: 0.0,
+            };
         }
         if ln_odds == f64::INFINITY {
-            return UnitPoint { x: 1.0, y: 0.0, ln_x: 0.0, ln_y: f64::NEG_INFINITY };
+            return UnitPoint {
+                x: 1.0,
+                y: 0.0,
+                ln_x: 0.0,
+                ln_y: f64::NEG_INFINITY,
+            };
         }
         if odds <= 1.0 {
             let ln1p = odds.ln_1p();
-            UnitPoint { x: odds / (1.0 + odds), y: 1.0 / (1.0 + odds), ln_x: ln_odds - ln1p, ln_y: -ln1p }
+            UnitPoint {
+                x: odds / (1.0 + odds),
+                y: 1.0 / (1.0 + odds),
+                ln_x: ln_odds - ln1p,
+                ln_y: -ln1p,
+            }
         } else {
             let inverse = if odds.is_finite() { 1.0 / odds } else { (-ln_odds).exp() };
             let ln1p = inverse.ln_1p();
@@ -202,11 +234,21 @@ impl UnitPoint {
     /// The point `x` given directly (y = 1 - x is then only as accurate as x).
     fn from_x(x: f64) -> UnitPoint {
         let y = 1.0 - x;
-        UnitPoint { x, y, ln_x: x.ln(), ln_y: (-x).ln_1p() }
+        UnitPoint {
+            x,
+            y,
+            ln_x: x.ln(),
+            ln_y: (-x).ln_1p(),
+        }
     }
 
     fn swapped(self) -> UnitPoint {
-        UnitPoint { x: self.y, y: self.x, ln_x: self.ln_y, ln_y: self.ln_x }
+        UnitPoint {
+            x: self.y,
+            y: self.x,
+            ln_x: self.ln_y,
+            ln_y: self.ln_x,
+        }
     }
 }
 
@@ -263,7 +305,10 @@ fn beta_fraction(a: f64, b: f64, x: f64) -> Result<f64, StatsError> {
             return Ok(h);
         }
     }
-    Err(StatsError::NoConvergence { what: "incomplete beta continued fraction", iterations: max_terms })
+    Err(StatsError::NoConvergence {
+        what: "incomplete beta continued fraction",
+        iterations: max_terms,
+    })
 }
 
 /// Both regularized incomplete beta values, `I_x(a, b)` and `1 - I_x(a, b)`;
@@ -345,10 +390,18 @@ fn large_first_applies(p: f64, q: f64, point: &UnitPoint) -> bool {
 
 fn beta_pair(a: f64, b: f64, point: &UnitPoint) -> Result<TailPair, StatsError> {
     if point.x <= 0.0 && point.ln_x == f64::NEG_INFINITY {
-        return Ok(TailPair { lower: 0.0, upper: 1.0, ln_kernel: f64::NEG_INFINITY });
+        return Ok(TailPair {
+            lower: 0.0,
+            upper: 1.0,
+            ln_kernel: f64::NEG_INFINITY,
+        });
     }
     if point.y <= 0.0 && point.ln_y == f64::NEG_INFINITY {
-        return Ok(TailPair { lower: 1.0, upper: 0.0, ln_kernel: f64::NEG_INFINITY });
+        return Ok(TailPair {
+            lower: 1.0,
+            upper: 0.0,
+            ln_kernel: f64::NEG_INFINITY,
+        });
     }
     let ln_kernel = ln_beta_kernel(a, b, point);
     let kernel = ln_kernel.exp();
@@ -361,7 +414,11 @@ fn beta_pair(a: f64, b: f64, point: &UnitPoint) -> Result<TailPair, StatsError> 
             Some(value) => value,
             None => (kernel / a * beta_fraction(a, b, point.x)?).min(1.0),
         };
-        Ok(TailPair { lower, upper: 1.0 - lower, ln_kernel })
+        Ok(TailPair {
+            lower,
+            upper: 1.0 - lower,
+            ln_kernel,
+        })
     } else {
         let swapped = point.swapped();
         let mut upper = None;
@@ -372,7 +429,11 @@ fn beta_pair(a: f64, b: f64, point: &UnitPoint) -> Result<TailPair, StatsError> 
             Some(value) => value,
             None => (kernel / b * beta_fraction(b, a, point.y)?).min(1.0),
         };
-        Ok(TailPair { lower: 1.0 - upper, upper, ln_kernel })
+        Ok(TailPair {
+            lower: 1.0 - upper,
+            upper,
+            ln_kernel,
+        })
     }
 }
 
@@ -404,7 +465,10 @@ fn lower_gamma_fraction(a: f64, x: f64) -> Result<f64, StatsError> {
             return Ok(h);
         }
     }
-    Err(StatsError::NoConvergence { what: "lower incomplete gamma continued fraction", iterations: max_terms })
+    Err(StatsError::NoConvergence {
+        what: "lower incomplete gamma continued fraction",
+        iterations: max_terms,
+    })
 }
 
 /// Legendre's continued fraction (A&S 6.5.31): `Q(a, x) = kernel * fraction`.
@@ -426,26 +490,45 @@ fn upper_gamma_fraction(a: f64, x: f64) -> Result<f64, StatsError> {
             return Ok(h);
         }
     }
-    Err(StatsError::NoConvergence { what: "upper incomplete gamma continued fraction", iterations: max_terms })
+    Err(StatsError::NoConvergence {
+        what: "upper incomplete gamma continued fraction",
+        iterations: max_terms,
+    })
 }
 
 /// Both regularized incomplete gamma values `P(a, x)` and `Q(a, x)`; the
 /// smaller is computed directly. `ln_kernel` is `ln(x^a e^{-x} / Γ(a))`.
 fn gamma_pair(a: f64, x: f64) -> Result<TailPair, StatsError> {
     if x <= 0.0 {
-        return Ok(TailPair { lower: 0.0, upper: 1.0, ln_kernel: f64::NEG_INFINITY });
+        return Ok(TailPair {
+            lower: 0.0,
+            upper: 1.0,
+            ln_kernel: f64::NEG_INFINITY,
+        });
     }
     if x == f64::INFINITY {
-        return Ok(TailPair { lower: 1.0, upper: 0.0, ln_kernel: f64::NEG_INFINITY });
+        return Ok(TailPair {
+            lower: 1.0,
+            upper: 0.0,
+            ln_kernel: f64::NEG_INFINITY,
+        });
     }
     let ln_kernel = ln_gamma_kernel(a, x);
     let kernel = ln_kernel.exp();
     if x < a + 1.0 {
         let lower = (kernel / a * lower_gamma_fraction(a, x)?).min(1.0);
-        Ok(TailPair { lower, upper: 1.0 - lower, ln_kernel })
+        Ok(TailPair {
+            lower,
+            upper: 1.0 - lower,
+            ln_kernel,
+        })
     } else {
         let upper = (kernel * upper_gamma_fraction(a, x)?).min(1.0);
-        Ok(TailPair { lower: 1.0 - upper, upper, ln_kernel })
+        Ok(TailPair {
+            lower: 1.0 - upper,
+            upper,
+            ln_kernel,
+        })
     }
 }
 
@@ -461,7 +544,11 @@ fn check_unit(name: &'static str, value: f64) -> Result<f64, StatsError> {
     if (0.0..=1.0).contains(&value) {
         Ok(value)
     } else {
-        Err(StatsError::InvalidParameter { name, rule: "in [0, 1]", value })
+        Err(StatsError::InvalidParameter {
+            name,
+            rule: "in [0, 1]",
+            value,
+        })
     }
 }
 
@@ -533,7 +620,11 @@ fn check_nonnegative(name: &'static str, value: f64) -> Result<f64, StatsError> 
     if value >= 0.0 {
         Ok(value)
     } else {
-        Err(StatsError::InvalidParameter { name, rule: ">= 0", value })
+        Err(StatsError::InvalidParameter {
+            name,
+            rule: ">= 0",
+            value,
+        })
     }
 }
 
@@ -775,7 +866,11 @@ fn solve_positive(
         let e = eval(v)?;
         let tail = if upper_side { e.upper } else { e.lower };
         // h increases with v and is zero at the root.
-        let h = if upper_side { ln_target - tail.ln() } else { tail.ln() - ln_target };
+        let h = if upper_side {
+            ln_target - tail.ln()
+        } else {
+            tail.ln() - ln_target
+        };
         if h == 0.0 {
             return Ok(v);
         }
@@ -811,11 +906,18 @@ fn solve_positive(
             return Ok(proposal);
         }
         if proposal == v || !(proposal.is_finite() && proposal > 0.0) {
-            return if proposal.is_finite() && proposal > 0.0 { Ok(v) } else { Ok(v.max(f64::MIN_POSITIVE)) };
+            return if proposal.is_finite() && proposal > 0.0 {
+                Ok(v)
+            } else {
+                Ok(v.max(f64::MIN_POSITIVE))
+            };
         }
         v = proposal;
     }
-    Err(StatsError::NoConvergence { what: "quantile search", iterations: MAX_ITERATIONS })
+    Err(StatsError::NoConvergence {
+        what: "quantile search",
+        iterations: MAX_ITERATIONS,
+    })
 }
 
 // ---------------------------------------------------------------------------
@@ -830,7 +932,11 @@ fn t_two_sided(t_abs: f64, df: f64) -> Result<TailPair, StatsError> {
     // Beta(df/2, 1/2) variable w = df / (df + t²) = 1 / (1 + odds).
     let point = UnitPoint::from_odds(odds, ln_odds).swapped();
     let pair = beta_pair(0.5 * df, 0.5, &point)?;
-    Ok(TailPair { lower: pair.upper, upper: pair.lower, ln_kernel: pair.ln_kernel })
+    Ok(TailPair {
+        lower: pair.upper,
+        upper: pair.lower,
+        ln_kernel: pair.ln_kernel,
+    })
 }
 
 fn t_upper(t: f64, df: f64) -> Result<f64, StatsError> {
@@ -910,16 +1016,28 @@ fn t_start(q: f64, df: f64) -> f64 {
 fn t_upper_quantile(q: f64, df: f64) -> Result<f64, StatsError> {
     if df == 1.0 {
         // Cauchy: t = cot(pi q)
-        return Ok(if q > 0.25 { (std::f64::consts::PI * (0.5 - q)).tan() } else { 1.0 / (std::f64::consts::PI * q).tan() });
+        return Ok(if q > 0.25 {
+            (std::f64::consts::PI * (0.5 - q)).tan()
+        } else {
+            1.0 / (std::f64::consts::PI * q).tan()
+        });
     }
     if df == 2.0 {
         return Ok((1.0 - 2.0 * q) / (2.0 * q * (1.0 - q)).sqrt());
     }
     let two_q = 2.0 * q;
-    let (target, upper_side) = if two_q <= 0.5 { (two_q, true) } else { (1.0 - two_q, false) };
+    let (target, upper_side) = if two_q <= 0.5 {
+        (two_q, true)
+    } else {
+        (1.0 - two_q, false)
+    };
     let eval = |v: f64| -> Result<PositiveEval, StatsError> {
         let pair = t_two_sided(v, df)?;
-        Ok(PositiveEval { lower: pair.lower, upper: pair.upper, log_density: 2.0 * pair.ln_kernel.exp() })
+        Ok(PositiveEval {
+            lower: pair.lower,
+            upper: pair.upper,
+            log_density: 2.0 * pair.ln_kernel.exp(),
+        })
     };
     solve_positive(eval, target, upper_side, t_start(q, df))
 }
@@ -976,7 +1094,11 @@ pub fn t_isf(q: f64, df: f64) -> Result<f64, StatsError> {
 
 fn chi2_eval(x: f64, df: f64) -> Result<PositiveEval, StatsError> {
     let pair = gamma_pair(0.5 * df, 0.5 * x)?;
-    Ok(PositiveEval { lower: pair.lower, upper: pair.upper, log_density: pair.ln_kernel.exp() })
+    Ok(PositiveEval {
+        lower: pair.lower,
+        upper: pair.upper,
+        log_density: pair.ln_kernel.exp(),
+    })
 }
 
 /// Chi-square distribution function `P(X <= x)` with `df` degrees of freedom.
@@ -1008,7 +1130,11 @@ pub fn chi2_sf(x: f64, df: f64) -> Result<f64, StatsError> {
 }
 
 fn chi2_start(target: f64, upper_side: bool, df: f64) -> f64 {
-    let z = if upper_side { -wichura_quantile(target) } else { wichura_quantile(target) };
+    let z = if upper_side {
+        -wichura_quantile(target)
+    } else {
+        wichura_quantile(target)
+    };
     let c = 2.0 / (9.0 * df);
     let base = 1.0 - c + z * c.sqrt();
     let lower_p = if upper_side { 1.0 - target } else { target };
@@ -1036,8 +1162,17 @@ fn chi2_quantile_sided(target: f64, upper_side: bool, df: f64) -> Result<f64, St
     if target == 1.0 {
         return Ok(if upper_side { 0.0 } else { f64::INFINITY });
     }
-    let (target, upper_side) = if target > 0.5 { (1.0 - target, !upper_side) } else { (target, upper_side) };
-    solve_positive(|x| chi2_eval(x, df), target, upper_side, chi2_start(target, upper_side, df))
+    let (target, upper_side) = if target > 0.5 {
+        (1.0 - target, !upper_side)
+    } else {
+        (target, upper_side)
+    };
+    solve_positive(
+        |x| chi2_eval(x, df),
+        target,
+        upper_side,
+        chi2_start(target, upper_side, df),
+    )
 }
 
 /// Chi-square quantile: `x` with `P(X <= x) = p`; `p = 1` gives `inf`.
@@ -1103,12 +1238,20 @@ fn f_eval(f: f64, d1: f64, d2: f64) -> Result<PositiveEval, StatsError> {
             let ln_odds = d1.ln() + f.ln() - d2.ln();
             let point = UnitPoint::from_odds(odds, ln_odds);
             let pair = beta_pair(0.5 * d1, 0.5 * d2, &point)?;
-            Ok(PositiveEval { lower: pair.lower, upper: pair.upper, log_density: pair.ln_kernel.exp() })
+            Ok(PositiveEval {
+                lower: pair.lower,
+                upper: pair.upper,
+                log_density: pair.ln_kernel.exp(),
+            })
         }
         FKind::DenominatorInfinite => chi2_eval(d1 * f, d1),
         FKind::NumeratorInfinite => {
             let e = chi2_eval(d2 / f, d2)?;
-            Ok(PositiveEval { lower: e.upper, upper: e.lower, log_density: e.log_density })
+            Ok(PositiveEval {
+                lower: e.upper,
+                upper: e.lower,
+                log_density: e.log_density,
+            })
         }
         FKind::Degenerate => {
             let at_or_above = f >= 1.0;
@@ -1123,10 +1266,18 @@ fn f_eval(f: f64, d1: f64, d2: f64) -> Result<PositiveEval, StatsError> {
 
 fn f_tails(f: f64, d1: f64, d2: f64) -> Result<PositiveEval, StatsError> {
     if f <= 0.0 {
-        return Ok(PositiveEval { lower: 0.0, upper: 1.0, log_density: 0.0 });
+        return Ok(PositiveEval {
+            lower: 0.0,
+            upper: 1.0,
+            log_density: 0.0,
+        });
     }
     if f == f64::INFINITY {
-        return Ok(PositiveEval { lower: 1.0, upper: 0.0, log_density: 0.0 });
+        return Ok(PositiveEval {
+            lower: 1.0,
+            upper: 0.0,
+            log_density: 0.0,
+        });
     }
     f_eval(f, d1, d2)
 }
@@ -1165,7 +1316,11 @@ pub fn f_sf(f: f64, d1: f64, d2: f64) -> Result<f64, StatsError> {
 }
 
 fn f_start(target: f64, upper_side: bool, d1: f64, d2: f64) -> f64 {
-    let z = if upper_side { -wichura_quantile(target) } else { wichura_quantile(target) };
+    let z = if upper_side {
+        -wichura_quantile(target)
+    } else {
+        wichura_quantile(target)
+    };
     // Paulson (1942): cube-root normal approximation.
     let a = 2.0 / (9.0 * d1);
     let b = 2.0 / (9.0 * d2);
@@ -1220,7 +1375,11 @@ fn f_quantile_sided(target: f64, upper_side: bool, d1: f64, d2: f64) -> Result<f
         FKind::DenominatorInfinite => Ok(chi2_quantile_sided(target, upper_side, d1)? / d1),
         FKind::NumeratorInfinite => Ok(d2 / chi2_quantile_sided(target, !upper_side, d2)?),
         FKind::Finite => {
-            let (target, upper_side) = if target > 0.5 { (1.0 - target, !upper_side) } else { (target, upper_side) };
+            let (target, upper_side) = if target > 0.5 {
+                (1.0 - target, !upper_side)
+            } else {
+                (target, upper_side)
+            };
             let start = f_start(target, upper_side, d1, d2);
             solve_positive(|f| f_eval(f, d1, d2), target, upper_side, start)
         }
@@ -1317,7 +1476,10 @@ fn poisson_mixture(
         }
         count += 1;
         if count > MAX_TERMS {
-            return Err(StatsError::NoConvergence { what: "noncentral Poisson mixture", iterations: count });
+            return Err(StatsError::NoConvergence {
+                what: "noncentral Poisson mixture",
+                iterations: count,
+            });
         }
     }
 
@@ -1346,7 +1508,10 @@ fn poisson_mixture(
         }
         count += 1;
         if count > MAX_TERMS {
-            return Err(StatsError::NoConvergence { what: "noncentral Poisson mixture", iterations: count });
+            return Err(StatsError::NoConvergence {
+                what: "noncentral Poisson mixture",
+                iterations: count,
+            });
         }
     }
     Ok((sum_lower.min(1.0), sum_upper.min(1.0)))
@@ -1373,7 +1538,9 @@ fn noncentral_f_finite_pair(f: f64, d1: f64, d2: f64, lambda: f64) -> Result<(f6
     let at_mode = beta_pair(a + mode, b, &point)?;
     let step = at_mode.ln_kernel.exp() / (a + mode);
     let x = point.x;
-    poisson_mixture(mean, mode, at_mode.lower, at_mode.upper, step, |j| x * (a + b + j) / (a + j + 1.0))
+    poisson_mixture(mean, mode, at_mode.lower, at_mode.upper, step, |j| {
+        x * (a + b + j) / (a + j + 1.0)
+    })
 }
 
 fn noncentral_f_pair(f: f64, d1: f64, d2: f64, lambda: f64) -> Result<(f64, f64), StatsError> {

@@ -249,10 +249,7 @@ pub struct FactorialFit {
 /// [`StatsError::InvalidParameter`] when the two slices differ in length, level vectors
 /// differ in length or a value is not finite; [`StatsError::TooFewValues`] when there are
 /// no observations.
-pub fn summarise_cells(
-    levels: &[Vec<usize>],
-    values: &[f64],
-) -> Result<Vec<CellSummary>, StatsError> {
+pub fn summarise_cells(levels: &[Vec<usize>], values: &[f64]) -> Result<Vec<CellSummary>, StatsError> {
     if levels.len() != values.len() {
         return Err(StatsError::InvalidParameter {
             name: "number of level vectors",
@@ -352,13 +349,7 @@ fn term_row(factors: &[FactorSpec], term_factors: &[usize], levels: &[usize]) ->
 fn combinations(items: &[usize], size: usize) -> Vec<Vec<usize>> {
     let mut out = Vec::new();
     let mut current = Vec::with_capacity(size);
-    fn walk(
-        items: &[usize],
-        size: usize,
-        start: usize,
-        current: &mut Vec<usize>,
-        out: &mut Vec<Vec<usize>>,
-    ) {
+    fn walk(items: &[usize], size: usize, start: usize, current: &mut Vec<usize>, out: &mut Vec<Vec<usize>>) {
         if current.len() == size {
             out.push(current.clone());
             return;
@@ -392,9 +383,7 @@ fn level_grid(n_levels: &[usize]) -> Vec<Vec<usize>> {
 }
 
 fn build_terms(factors: &[FactorSpec], order: usize) -> Result<Vec<ModelTerm>, StatsError> {
-    let treatments: Vec<usize> = (0..factors.len())
-        .filter(|&index| !factors[index].is_block)
-        .collect();
+    let treatments: Vec<usize> = (0..factors.len()).filter(|&index| !factors[index].is_block).collect();
     let mut term_factors: Vec<Vec<usize>> = (0..factors.len())
         .filter(|&index| factors[index].is_block)
         .map(|index| vec![index])
@@ -405,10 +394,7 @@ fn build_terms(factors: &[FactorSpec], order: usize) -> Result<Vec<ModelTerm>, S
     let mut terms = Vec::with_capacity(term_factors.len());
     let mut next_column = 1usize;
     for members in term_factors {
-        let width: usize = members
-            .iter()
-            .map(|&factor| factors[factor].n_levels - 1)
-            .product();
+        let width: usize = members.iter().map(|&factor| factors[factor].n_levels - 1).product();
         let end = next_column + width;
         if end > MAX_MODEL_COLUMNS {
             return Err(StatsError::InvalidParameter {
@@ -432,11 +418,7 @@ fn build_terms(factors: &[FactorSpec], order: usize) -> Result<Vec<ModelTerm>, S
     Ok(terms)
 }
 
-fn build_design(
-    factors: &[FactorSpec],
-    cells: &[CellSummary],
-    order: usize,
-) -> Result<Design, StatsError> {
+fn build_design(factors: &[FactorSpec], cells: &[CellSummary], order: usize) -> Result<Design, StatsError> {
     let terms = build_terms(factors, order)?;
     let n_columns = terms.last().map_or(1, |term| term.columns.end);
     let mut matrix = DMatrix::<f64>::zeros(cells.len(), n_columns);
@@ -460,11 +442,7 @@ fn build_design(
     })
 }
 
-fn validate(
-    cells: &[CellSummary],
-    factors: &[FactorSpec],
-    model: &ModelSpec,
-) -> Result<usize, StatsError> {
+fn validate(cells: &[CellSummary], factors: &[FactorSpec], model: &ModelSpec) -> Result<usize, StatsError> {
     if factors.is_empty() {
         return Err(StatsError::TooFewValues {
             what: "factors",
@@ -551,14 +529,11 @@ fn validate(
                 value: index as f64,
             });
         }
-        n_observations =
-            n_observations
-                .checked_add(cell.n)
-                .ok_or(StatsError::InvalidParameter {
-                    name: "total count",
-                    rule: "representable as an integer",
-                    value: f64::INFINITY,
-                })?;
+        n_observations = n_observations.checked_add(cell.n).ok_or(StatsError::InvalidParameter {
+            name: "total count",
+            rule: "representable as an integer",
+            value: f64::INFINITY,
+        })?;
     }
     if n_observations < 2 {
         return Err(StatsError::TooFewValues {
@@ -626,11 +601,7 @@ fn sum_sq_after(design: &Design, before: &[usize], test: &[usize]) -> (f64, usiz
 /// With `W` the rows of `R⁻¹` at `positions`, the covariance block is `W W'`; a QR of
 /// `W' = Q T` gives `W W' = T'T`, so the sum of squares `b'(W W')⁻¹b` is `|T⁻ᵀ b|²`,
 /// computed without forming or inverting `W W'`. Returns `(ss, df)`.
-fn wald_sum_sq(
-    r_inverse: &DMatrix<f64>,
-    coefficients: &DVector<f64>,
-    positions: &[usize],
-) -> (f64, usize) {
+fn wald_sum_sq(r_inverse: &DMatrix<f64>, coefficients: &DVector<f64>, positions: &[usize]) -> (f64, usize) {
     let rank = r_inverse.nrows();
     let mut w_transpose = DMatrix::<f64>::zeros(rank, positions.len());
     for (column, &position) in positions.iter().enumerate() {
@@ -698,17 +669,12 @@ impl Solution {
         let mut variance = 0.0;
         for &(column, left) in &active {
             let column_values = &covariance[column * rank..(column + 1) * rank];
-            let inner: f64 = active
-                .iter()
-                .map(|&(row, right)| column_values[row] * right)
-                .sum();
+            let inner: f64 = active.iter().map(|&(row, right)| column_values[row] * right).sum();
             variance += left * inner;
         }
         Estimate {
             value: Some(value),
-            standard_error: self
-                .sigma_sq
-                .map(|sigma_sq| (sigma_sq * variance.max(0.0)).sqrt()),
+            standard_error: self.sigma_sq.map(|sigma_sq| (sigma_sq * variance.max(0.0)).sqrt()),
         }
     }
 }
@@ -805,11 +771,7 @@ pub fn fit_factorial(
         sum_sq: residual_ss,
         mean_sq: (residual_df > 0).then(|| residual_ss / residual_df as f64),
     };
-    let grand_weighted_mean = cells
-        .iter()
-        .map(|cell| cell.n as f64 * cell.mean)
-        .sum::<f64>()
-        / n_observations as f64;
+    let grand_weighted_mean = cells.iter().map(|cell| cell.n as f64 * cell.mean).sum::<f64>() / n_observations as f64;
     let total_ss = within
         + cells
             .iter()
@@ -848,9 +810,7 @@ pub fn fit_factorial(
             },
         });
         if df > 0 {
-            type_i
-                .rows
-                .push(anova_row(&term.name, df, sum_sq, &residual));
+            type_i.rows.push(anova_row(&term.name, df, sum_sq, &residual));
         }
     }
 
@@ -867,9 +827,7 @@ pub fn fit_factorial(
         let test: Vec<usize> = term.columns.clone().collect();
         let (sum_sq, df) = sum_sq_after(&design, &before, &test);
         if df > 0 {
-            type_ii
-                .rows
-                .push(anova_row(&term.name, df, sum_sq, &residual));
+            type_ii.rows.push(anova_row(&term.name, df, sum_sq, &residual));
         }
     }
 
@@ -893,9 +851,7 @@ pub fn fit_factorial(
         }
         let (sum_sq, df) = wald_sum_sq(&r_inverse, &coefficients, &positions);
         if df > 0 {
-            type_iii
-                .rows
-                .push(anova_row(&term.name, df, sum_sq, &residual));
+            type_iii.rows.push(anova_row(&term.name, df, sum_sq, &residual));
         }
     }
 
@@ -913,8 +869,7 @@ pub fn fit_factorial(
             let mut contrast = vec![0.0; n_columns];
             contrast[0] = 1.0;
             for term in &design.terms {
-                let term_levels: Vec<usize> =
-                    term.factors.iter().map(|&f| cell.levels[f]).collect();
+                let term_levels: Vec<usize> = term.factors.iter().map(|&f| cell.levels[f]).collect();
                 let values = term_row(factors, &term.factors, &term_levels);
                 contrast[term.columns.clone()].copy_from_slice(&values);
             }
@@ -940,11 +895,7 @@ pub fn fit_factorial(
     let grand_mean = solution.estimate(&intercept);
     let mut ls_means = Vec::with_capacity(factors.len());
     for (factor_index, factor) in factors.iter().enumerate() {
-        let Some(main) = design
-            .terms
-            .iter()
-            .find(|term| term.factors == [factor_index])
-        else {
+        let Some(main) = design.terms.iter().find(|term| term.factors == [factor_index]) else {
             continue;
         };
         let means = (0..factor.n_levels)
@@ -964,17 +915,12 @@ pub fn fit_factorial(
         .terms
         .iter()
         .map(|term| {
-            let term_levels: Vec<usize> =
-                term.factors.iter().map(|&f| factors[f].n_levels).collect();
+            let term_levels: Vec<usize> = term.factors.iter().map(|&f| factors[f].n_levels).collect();
             let effects = level_grid(&term_levels)
                 .into_iter()
                 .map(|levels| {
                     let mut contrast = vec![0.0; n_columns];
-                    contrast[term.columns.clone()].copy_from_slice(&term_row(
-                        factors,
-                        &term.factors,
-                        &levels,
-                    ));
+                    contrast[term.columns.clone()].copy_from_slice(&term_row(factors, &term.factors, &levels));
                     LevelEffect {
                         estimate: solution.estimate(&contrast),
                         levels,

@@ -265,12 +265,7 @@ pub fn shapiro_wilk_sorted(sorted: &[f64]) -> Result<ShapiroWilk, StatsError> {
     let w = (numerator * numerator / ssq).min(1.0);
 
     let (p_value, z_score) = shapiro_wilk_p_value(w, n);
-    Ok(ShapiroWilk {
-        w,
-        p_value,
-        z_score,
-        n,
-    })
+    Ok(ShapiroWilk { w, p_value, z_score, n })
 }
 
 /// The upper half of the Shapiro-Wilk coefficients, a_n, a_(n-1), ..., a_(n+1-n/2)
@@ -303,11 +298,7 @@ fn shapiro_wilk_coefficients(n: usize) -> Vec<f64> {
     };
     let scale = 1.0 / eps.sqrt();
     for (j, value) in m.iter_mut().enumerate() {
-        *value = if j < n_fixed {
-            fixed[j]
-        } else {
-            *value * scale
-        };
+        *value = if j < n_fixed { fixed[j] } else { *value * scale };
     }
     m
 }
@@ -587,9 +578,7 @@ mod tests {
                 0.03521653816590372,
             ),
             reference(
-                vec![
-                    12.1, 11.4, 13.2, 12.8, 11.9, 12.5, 14.9, 12.2, 11.7, 12.0, 13.1, 12.6,
-                ],
+                vec![12.1, 11.4, 13.2, 12.8, 11.9, 12.5, 14.9, 12.2, 11.7, 12.0, 13.1, 12.6],
                 0.8809852434810448,
                 0.09023192601514515,
                 0.5056462085494804,
@@ -639,12 +628,7 @@ mod tests {
             let label = format!("n = {}", reference.values.len());
             let result = shapiro_wilk(&reference.values).expect("valid sample");
             assert_close(result.w, reference.w, 1e-8, &format!("W, {label}"));
-            assert_close(
-                result.p_value,
-                reference.p_shapiro,
-                1e-5,
-                &format!("p, {label}"),
-            );
+            assert_close(result.p_value, reference.p_shapiro, 1e-5, &format!("p, {label}"));
         }
     }
 
@@ -665,8 +649,7 @@ mod tests {
         let result = shapiro_wilk(&[4.0, 1.0, 2.0]).expect("valid sample");
         let w_exact = 27.0 / 28.0;
         assert_close(result.w, w_exact, 1e-14, "W");
-        let p_exact =
-            6.0 / std::f64::consts::PI * (w_exact.sqrt().asin() - std::f64::consts::PI / 3.0);
+        let p_exact = 6.0 / std::f64::consts::PI * (w_exact.sqrt().asin() - std::f64::consts::PI / 3.0);
         assert_close(result.p_value, p_exact, 1e-12, "p");
         // scipy 1.17.1: scipy.stats.shapiro([1.0, 2.0, 4.0]) -> p = 0.6368868450289689
         assert_close(result.p_value, 0.6368868450289689, 1e-6, "p vs scipy");
@@ -683,12 +666,7 @@ mod tests {
         // memory): 0.631 (10%), 0.752 (5%), 0.873 (2.5%), 1.035 (1%). The Table 4.9
         // formulas reproduce them to about two significant figures.
         for (critical, level) in [(0.631, 0.10), (0.752, 0.05), (0.873, 0.025), (1.035, 0.01)] {
-            assert_close(
-                anderson_darling_p_value(critical),
-                level,
-                0.03,
-                "critical point",
-            );
+            assert_close(anderson_darling_p_value(critical), level, 0.03, "critical point");
         }
         // p decreases as A*² grows, across branch boundaries and far into the tail.
         let mut previous = anderson_darling_p_value(0.0);
@@ -716,10 +694,7 @@ mod tests {
         for (i, (point, quantile)) in points.iter().zip(expected).enumerate() {
             assert_eq!(point.value, (i + 1) as f64);
             assert_close(point.probability, (i as f64 + 0.625) / 7.25, 1e-15, "p_i");
-            assert!(
-                (point.normal_quantile - quantile).abs() < 1e-14,
-                "quantile {i}"
-            );
+            assert!((point.normal_quantile - quantile).abs() < 1e-14, "quantile {i}");
         }
     }
 
@@ -735,11 +710,7 @@ mod tests {
         }
         assert!(matches!(
             shapiro_wilk(&[1.0, 2.0]),
-            Err(StatsError::TooFewValues {
-                needed: 3,
-                got: 2,
-                ..
-            })
+            Err(StatsError::TooFewValues { needed: 3, got: 2, .. })
         ));
         assert!(shapiro_wilk(&[1.0, f64::NAN, 2.0]).is_err());
         assert!(shapiro_wilk_sorted(&[1.0, 3.0, 2.0]).is_err());

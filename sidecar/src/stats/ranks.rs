@@ -226,21 +226,14 @@ fn two_sided_normal_p(z: f64) -> f64 {
     }
 }
 
-fn dunn_from(
-    groups: &[&[f64]],
-    mean_ranks: &[f64],
-    n_total: usize,
-    tie_sum: f64,
-) -> Vec<DunnComparison> {
+fn dunn_from(groups: &[&[f64]], mean_ranks: &[f64], n_total: usize, tie_sum: f64) -> Vec<DunnComparison> {
     let n = n_total as f64;
     let rank_variance = n * (n + 1.0) / 12.0 - tie_sum / (12.0 * (n - 1.0));
     let mut comparisons = Vec::new();
     for a in 0..groups.len() {
         for b in a + 1..groups.len() {
             let difference = mean_ranks[a] - mean_ranks[b];
-            let standard_error = (rank_variance
-                * (1.0 / groups[a].len() as f64 + 1.0 / groups[b].len() as f64))
-                .sqrt();
+            let standard_error = (rank_variance * (1.0 / groups[a].len() as f64 + 1.0 / groups[b].len() as f64)).sqrt();
             let z = difference / standard_error;
             comparisons.push(DunnComparison {
                 group_a: a,
@@ -308,12 +301,7 @@ pub fn dunn(groups: &[&[f64]]) -> Result<RankOutcome<Vec<DunnComparison>>, Stats
     if all_tied(n_total, tie_sum) {
         return Ok(RankOutcome::AllValuesEqual { n_values: n_total });
     }
-    Ok(RankOutcome::Tested(dunn_from(
-        groups,
-        &mean_ranks,
-        n_total,
-        tie_sum,
-    )))
+    Ok(RankOutcome::Tested(dunn_from(groups, &mean_ranks, n_total, tie_sum)))
 }
 
 /// Kruskal-Wallis test and Dunn's comparisons from a single pooled ranking.
@@ -362,13 +350,7 @@ pub fn bonferroni_adjust(p_values: &[f64]) -> Vec<f64> {
     let m_valid = p_values.iter().filter(|p| !p.is_nan()).count() as f64;
     p_values
         .iter()
-        .map(|&p| {
-            if p.is_nan() {
-                p
-            } else {
-                (m_valid * p).min(1.0)
-            }
-        })
+        .map(|&p| if p.is_nan() { p } else { (m_valid * p).min(1.0) })
         .collect()
 }
 
@@ -427,28 +409,19 @@ mod tests {
     #[test]
     fn kruskal_wallis_matches_scipy() {
         // scipy 1.17.1: scipy.stats.kruskal(*THREE)
-        let result = kruskal_wallis(&THREE)
-            .expect("valid")
-            .tested()
-            .expect("not tied");
+        let result = kruskal_wallis(&THREE).expect("valid").tested().expect("not tied");
         assert_close(result.h, 9.268333333333345, 1e-13, "H");
         assert_close(result.p_value, 0.009714198831993906, 1e-12, "p");
         assert_eq!(result.tie_correction, 1.0);
         assert_eq!(result.df, 2.0);
         // scipy 1.17.1: scipy.stats.kruskal(*TIES)
-        let result = kruskal_wallis(&TIES)
-            .expect("valid")
-            .tested()
-            .expect("not tied");
+        let result = kruskal_wallis(&TIES).expect("valid").tested().expect("not tied");
         assert_close(result.h, 15.529530574279429, 1e-13, "H ties");
         assert_close(result.p_value, 0.0014157446085138097, 1e-12, "p ties");
         assert!(result.tie_correction < 1.0 && result.h > result.h_uncorrected);
         // scipy 1.17.1: scipy.stats.kruskal([1, 2, 3], [4, 5, 6])
         let two: [&[f64]; 2] = [&[1.0, 2.0, 3.0], &[4.0, 5.0, 6.0]];
-        let result = kruskal_wallis(&two)
-            .expect("valid")
-            .tested()
-            .expect("not tied");
+        let result = kruskal_wallis(&two).expect("valid").tested().expect("not tied");
         assert_close(result.h, 3.857142857142854, 1e-13, "H two");
         assert_close(result.p_value, 0.049534613435626915, 1e-12, "p two");
         assert_eq!(result.mean_ranks, vec![2.0, 5.0]);
@@ -485,14 +458,7 @@ mod tests {
                 0.3050557539016714,
                 0.6101115078033428,
             ),
-            (
-                0,
-                2,
-                1.099803637299981,
-                0.2714176872162679,
-                0.5428353744325358,
-                1.0,
-            ),
+            (0, 2, 1.099803637299981, 0.2714176872162679, 0.5428353744325358, 1.0),
             (
                 0,
                 3,
@@ -509,14 +475,7 @@ mod tests {
                 0.030945640860103166,
                 0.0371347690321238,
             ),
-            (
-                1,
-                3,
-                -0.7559672976049947,
-                0.4496688029927626,
-                0.5428353744325358,
-                1.0,
-            ),
+            (1, 3, -0.7559672976049947, 0.4496688029927626, 0.5428353744325358, 1.0),
             (
                 2,
                 3,
@@ -537,18 +496,14 @@ mod tests {
         }
         // Same z for the untied set: scipy-built z for THREE, pairs (0,1), (0,2), (1,2).
         let comparisons = dunn(&THREE).expect("valid").tested().expect("not tied");
-        for (c, z) in
-            comparisons
-                .iter()
-                .zip([-2.941886634406052, -0.7666666666666666, 1.9629909152447276])
+        for (c, z) in comparisons
+            .iter()
+            .zip([-2.941886634406052, -0.7666666666666666, 1.9629909152447276])
         {
             assert_close(c.z, z, 1e-13, "z three");
         }
         // rank_analysis gives the same answers from one ranking.
-        let both = rank_analysis(&TIES)
-            .expect("valid")
-            .tested()
-            .expect("not tied");
+        let both = rank_analysis(&TIES).expect("valid").tested().expect("not tied");
         assert_eq!(both.comparisons, comparisons_for(&TIES));
         assert_close(both.kruskal_wallis.h, 15.529530574279429, 1e-13, "H");
     }
@@ -650,23 +605,13 @@ mod tests {
                 .map(|g| g.iter().map(|v| (0.7 * v).exp() - 3.0).collect())
                 .collect();
             let transformed: Vec<&[f64]> = transformed.iter().map(|g| g.as_slice()).collect();
-            let again = kruskal_wallis(&transformed)
-                .expect("valid")
-                .tested()
-                .expect("same");
+            let again = kruskal_wallis(&transformed).expect("valid").tested().expect("same");
             assert!((again.h - h).abs() <= 1e-12 * h.max(1.0));
             // For two groups Dunn's z² equals the tie-corrected H (algebraic identity).
             if n_groups == 2 {
                 let z = analysis.comparisons[0].z;
-                assert!(
-                    (z * z - h).abs() <= 1e-10 * h.max(1.0),
-                    "z² {} H {h}",
-                    z * z
-                );
-                assert!(
-                    (analysis.comparisons[0].p_value - analysis.kruskal_wallis.p_value).abs()
-                        < 1e-12
-                );
+                assert!((z * z - h).abs() <= 1e-10 * h.max(1.0), "z² {} H {h}", z * z);
+                assert!((analysis.comparisons[0].p_value - analysis.kruskal_wallis.p_value).abs() < 1e-12);
             }
         }
     }

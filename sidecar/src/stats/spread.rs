@@ -101,11 +101,7 @@ fn mean(values: &[f64]) -> f64 {
 /// Sample variance with divisor n - 1 (two-pass); needs at least two values.
 fn variance(values: &[f64]) -> f64 {
     let centre = mean(values);
-    values
-        .iter()
-        .map(|v| (v - centre) * (v - centre))
-        .sum::<f64>()
-        / (values.len() as f64 - 1.0)
+    values.iter().map(|v| (v - centre) * (v - centre)).sum::<f64>() / (values.len() as f64 - 1.0)
 }
 
 fn median(values: &[f64]) -> f64 {
@@ -356,12 +352,7 @@ mod tests {
         assert_close(mean.statistic, 0.18770579981693822, 1e-12, "F mean ties");
         assert_close(mean.p_value, 0.9034479438519342, 1e-12, "p mean ties");
         let median = levene(&TIES, Centre::Median).expect("valid groups");
-        assert_close(
-            median.statistic,
-            0.16588991799893804,
-            1e-12,
-            "F median ties",
-        );
+        assert_close(median.statistic, 0.16588991799893804, 1e-12, "F median ties");
         assert_close(median.p_value, 0.9180364908279907, 1e-12, "p median ties");
         assert_eq!((median.n_groups, median.n_total), (4, 23));
     }
@@ -415,12 +406,7 @@ mod tests {
             1e-10,
             "F",
         );
-        assert_close(
-            f_upper_tail(0.3, 2.0, 9.0).expect("ok"),
-            0.7479468608922977,
-            1e-12,
-            "F",
-        );
+        assert_close(f_upper_tail(0.3, 2.0, 9.0).expect("ok"), 0.7479468608922977, 1e-12, "F");
         // scipy 1.17.1: scipy.stats.chi2.sf(7.5, 3), chi2.sf(80, 2), chi2.sf(0.2, 5)
         assert_close(
             chi_square_upper_tail(7.5, 3.0).expect("ok"),
@@ -447,11 +433,7 @@ mod tests {
         let one_group: [&[f64]; 1] = [&[1.0, 2.0, 3.0]];
         assert!(matches!(
             levene(&one_group, Centre::Mean),
-            Err(StatsError::TooFewValues {
-                needed: 2,
-                got: 1,
-                ..
-            })
+            Err(StatsError::TooFewValues { needed: 2, got: 1, .. })
         ));
         let tiny: [&[f64]; 2] = [&[1.0, 2.0], &[3.0]];
         assert!(bartlett(&tiny).is_err());
@@ -489,18 +471,8 @@ mod tests {
         }
         let base = bartlett(&THREE).expect("valid");
         for other in [&moved[..], &reordered[..]] {
-            assert_close(
-                bartlett(other).expect("valid").statistic,
-                base.statistic,
-                1e-9,
-                "B",
-            );
-            assert_close(
-                sd_ratio(other).expect("valid").ratio,
-                1.5518450957407908,
-                1e-12,
-                "r",
-            );
+            assert_close(bartlett(other).expect("valid").statistic, base.statistic, 1e-9, "B");
+            assert_close(sd_ratio(other).expect("valid").ratio, 1.5518450957407908, 1e-12, "r");
         }
     }
 }

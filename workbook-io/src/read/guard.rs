@@ -26,7 +26,10 @@ pub(crate) struct Container {
 /// [`ReadError::NotAWorkbook`], [`ReadError::PasswordProtected`],
 /// [`ReadError::TooLarge`], [`ReadError::Io`].
 pub(crate) fn inspect(path: &Path, limits: &ReadLimits) -> Result<Container, ReadError> {
-    let io_error = |source| ReadError::Io { path: path.to_path_buf(), source };
+    let io_error = |source| ReadError::Io {
+        path: path.to_path_buf(),
+        source,
+    };
     let metadata = std::fs::metadata(path).map_err(io_error)?;
     if !metadata.is_file() {
         return Err(ReadError::NotAWorkbook {
@@ -55,7 +58,10 @@ pub(crate) fn inspect(path: &Path, limits: &ReadLimits) -> Result<Container, Rea
         } else {
             "its first bytes are not those of an xlsx, xlsm, xlsb, xls or ods workbook".to_string()
         };
-        Err(ReadError::NotAWorkbook { path: path.to_path_buf(), detail })
+        Err(ReadError::NotAWorkbook {
+            path: path.to_path_buf(),
+            detail,
+        })
     }
 }
 
@@ -74,18 +80,29 @@ fn read_up_to(file: &mut File, buffer: &mut [u8]) -> std::io::Result<usize> {
 /// A compound-document file is an xls workbook, or an encrypted
 /// (password-protected) xlsx, which is stored as a compound document too.
 fn inspect_compound(path: &Path) -> Result<Container, ReadError> {
-    let bytes = std::fs::read(path).map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
+    let bytes = std::fs::read(path).map_err(|source| ReadError::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
     // Directory entry names are UTF-16; "EncryptedPackage" marks an encrypted
     // OOXML package (MS-OFFCRYPTO).
-    let marker: Vec<u8> = "EncryptedPackage".encode_utf16().flat_map(|unit| unit.to_le_bytes()).collect();
+    let marker: Vec<u8> = "EncryptedPackage"
+        .encode_utf16()
+        .flat_map(|unit| unit.to_le_bytes())
+        .collect();
     if bytes.windows(marker.len()).any(|window| window == marker.as_slice()) {
-        return Err(ReadError::PasswordProtected { path: path.to_path_buf() });
+        return Err(ReadError::PasswordProtected {
+            path: path.to_path_buf(),
+        });
     }
     Ok(Container { format: Format::Xls })
 }
 
 fn inspect_zip(path: &Path, limits: &ReadLimits) -> Result<Container, ReadError> {
-    let file = File::open(path).map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
+    let file = File::open(path).map_err(|source| ReadError::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
     let mut archive = zip::ZipArchive::new(BufReader::new(file)).map_err(|error| ReadError::Corrupt {
         path: path.to_path_buf(),
         detail: format!("the zip container cannot be read ({error}); the file may be truncated"),
@@ -108,7 +125,8 @@ fn inspect_zip(path: &Path, limits: &ReadLimits) -> Result<Container, ReadError>
     } else {
         return Err(ReadError::NotAWorkbook {
             path: path.to_path_buf(),
-            detail: "it is a zip archive without a workbook part (no xl/workbook.xml, xl/workbook.bin or content.xml)".into(),
+            detail: "it is a zip archive without a workbook part (no xl/workbook.xml, xl/workbook.bin or content.xml)"
+                .into(),
         });
     };
     for index in 0..archive.len() {
@@ -133,10 +151,7 @@ fn inspect_zip(path: &Path, limits: &ReadLimits) -> Result<Container, ReadError>
                 path: path.to_path_buf(),
                 what: format!(
                     "zip entry '{}' inflates {:.0} times ({} bytes from {}), as a zip bomb does",
-                    entry_name,
-                    ratio,
-                    uncompressed,
-                    compressed
+                    entry_name, ratio, uncompressed, compressed
                 ),
                 limit: format!("a ratio of {:.0}", limits.max_compression_ratio),
             });
@@ -239,8 +254,12 @@ fn check_xlsb_workbook<R: Read + std::io::Seek>(
     let mut position = 0usize;
     // Records: a type and a length, each a little-endian base-128 number (MS-XLSB 2.1.4).
     while position < bytes.len() {
-        let Some((record_type, after_type)) = read_varint(&bytes, position, 2) else { break };
-        let Some((record_len, after_len)) = read_varint(&bytes, after_type, 4) else { break };
+        let Some((record_type, after_type)) = read_varint(&bytes, position, 2) else {
+            break;
+        };
+        let Some((record_len, after_len)) = read_varint(&bytes, after_type, 4) else {
+            break;
+        };
         let body_end = after_len.saturating_add(record_len as usize);
         if body_end > bytes.len() {
             break;

@@ -201,7 +201,10 @@ impl SheetGrid {
         let last = self.cells.last()?.0;
         let min_col = self.cells.iter().map(|(pos, _)| pos.col).min()?;
         let max_col = self.cells.iter().map(|(pos, _)| pos.col).max()?;
-        Some(CellRect { first: CellPos::new(first.row, min_col), last: CellPos::new(last.row, max_col) })
+        Some(CellRect {
+            first: CellPos::new(first.row, min_col),
+            last: CellPos::new(last.row, max_col),
+        })
     }
 }
 
@@ -217,7 +220,10 @@ struct GridBuilder {
 impl GridBuilder {
     fn new(name: &str, window: Option<CellRect>, max_cells: u64) -> Self {
         Self {
-            grid: SheetGrid { name: name.to_string(), ..SheetGrid::default() },
+            grid: SheetGrid {
+                name: name.to_string(),
+                ..SheetGrid::default()
+            },
             interned: HashMap::new(),
             window,
             max_cells,
@@ -355,9 +361,15 @@ fn panic_text(payload: Box<dyn std::any::Any + Send>) -> String {
 /// container bomb, or damaged.
 pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadError> {
     let container = guard::inspect(path, limits)?;
-    let file = File::open(path).map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
+    let file = File::open(path).map_err(|source| ReadError::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
     let reader = BufReader::new(file);
-    let corrupt = |detail: String| ReadError::Corrupt { path: path.to_path_buf(), detail };
+    let corrupt = |detail: String| ReadError::Corrupt {
+        path: path.to_path_buf(),
+        detail,
+    };
     let opened = catch_unwind(AssertUnwindSafe(|| -> Result<Sheets<BufReader<File>>, String> {
         Ok(match container.format {
             Format::Xlsx => Sheets::Xlsx(Xlsx::new(reader).map_err(|error| error.to_string())?),
@@ -369,7 +381,9 @@ pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadE
     let inner = match opened {
         Ok(Ok(inner)) => inner,
         Ok(Err(detail)) if detail.to_lowercase().contains("password") => {
-            return Err(ReadError::PasswordProtected { path: path.to_path_buf() })
+            return Err(ReadError::PasswordProtected {
+                path: path.to_path_buf(),
+            })
         }
         Ok(Err(detail)) => return Err(corrupt(detail)),
         Err(payload) => return Err(corrupt(panic_text(payload))),
@@ -402,7 +416,10 @@ pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadE
 fn inner_vba_probe(path: &Path) -> Option<bool> {
     let file = File::open(path).ok()?;
     let archive = zip::ZipArchive::new(BufReader::new(file)).ok()?;
-    let has_macros = archive.file_names().filter_map(Result::ok).any(|name| name.ends_with("vbaProject.bin"));
+    let has_macros = archive
+        .file_names()
+        .filter_map(Result::ok)
+        .any(|name| name.ends_with("vbaProject.bin"));
     Some(has_macros)
 }
 
@@ -444,7 +461,12 @@ impl Workbook {
             Err(ReadError::SheetNotFound {
                 path: self.path.clone(),
                 sheet: sheet.to_string(),
-                available: self.sheets.iter().map(|info| info.name.as_str()).collect::<Vec<_>>().join(", "),
+                available: self
+                    .sheets
+                    .iter()
+                    .map(|info| info.name.as_str())
+                    .collect::<Vec<_>>()
+                    .join(", "),
             })
         }
     }
@@ -456,14 +478,25 @@ impl Workbook {
     /// # Errors
     ///
     /// [`ReadError::BadReference`] when nothing matches.
-    pub fn resolve_range(&mut self, reference: &str, default_sheet: Option<&str>) -> Result<(Option<String>, CellRect), ReadError> {
-        let bad = || ReadError::BadReference { path: self.path.clone(), reference: reference.to_string() };
+    pub fn resolve_range(
+        &mut self,
+        reference: &str,
+        default_sheet: Option<&str>,
+    ) -> Result<(Option<String>, CellRect), ReadError> {
+        let bad = || ReadError::BadReference {
+            path: self.path.clone(),
+            reference: reference.to_string(),
+        };
         let (sheet, range_text) = split_sheet_reference(reference);
         if let Some(rect) = parse_a1_range(range_text) {
             return Ok((sheet.or_else(|| default_sheet.map(str::to_string)), rect));
         }
         let wanted = reference.trim();
-        if let Some((_, formula)) = self.defined_names.iter().find(|(name, _)| name.eq_ignore_ascii_case(wanted)) {
+        if let Some((_, formula)) = self
+            .defined_names
+            .iter()
+            .find(|(name, _)| name.eq_ignore_ascii_case(wanted))
+        {
             let (sheet, range_text) = split_sheet_reference(formula);
             if let Some(rect) = parse_a1_range(range_text) {
                 return Ok((sheet, rect));
@@ -487,7 +520,10 @@ impl Workbook {
         self.check_sheet(sheet)?;
         let path = self.path.clone();
         let max_cells = self.limits.max_cells;
-        let corrupt = |detail: String| ReadError::Corrupt { path: path.clone(), detail: format!("sheet '{sheet}': {detail}") };
+        let corrupt = |detail: String| ReadError::Corrupt {
+            path: path.clone(),
+            detail: format!("sheet '{sheet}': {detail}"),
+        };
         let mut builder = GridBuilder::new(sheet, window, max_cells);
         let mut merged = Vec::new();
         let outcome = catch_unwind(AssertUnwindSafe(|| -> Result<bool, String> {
@@ -517,7 +553,10 @@ impl Workbook {
                 Sheets::Xls(xls) => {
                     let range = xls.worksheet_range(sheet).map_err(|error| error.to_string())?;
                     for (row, col, data) in range.used_cells() {
-                        let (row, col) = (range.start().map_or(0, |s| s.0) + row as u32, range.start().map_or(0, |s| s.1) + col as u32);
+                        let (row, col) = (
+                            range.start().map_or(0, |s| s.0) + row as u32,
+                            range.start().map_or(0, |s| s.1) + col as u32,
+                        );
                         if !builder.push_data(row, col, &data_to_ref(data)) {
                             return Ok(false);
                         }
@@ -529,7 +568,10 @@ impl Workbook {
                 Sheets::Ods(ods) => {
                     let range = ods.worksheet_range(sheet).map_err(|error| error.to_string())?;
                     for (row, col, data) in range.used_cells() {
-                        let (row, col) = (range.start().map_or(0, |s| s.0) + row as u32, range.start().map_or(0, |s| s.1) + col as u32);
+                        let (row, col) = (
+                            range.start().map_or(0, |s| s.0) + row as u32,
+                            range.start().map_or(0, |s| s.1) + col as u32,
+                        );
                         if !builder.push_data(row, col, &data_to_ref(data)) {
                             return Ok(false);
                         }
@@ -541,7 +583,11 @@ impl Workbook {
         match outcome {
             Ok(Ok(true)) => {}
             Ok(Ok(false)) => {
-                return Err(ReadError::TooManyCells { path: self.path.clone(), sheet: sheet.to_string(), limit: max_cells })
+                return Err(ReadError::TooManyCells {
+                    path: self.path.clone(),
+                    sheet: sheet.to_string(),
+                    limit: max_cells,
+                })
             }
             Ok(Err(detail)) => return Err(corrupt(detail)),
             Err(payload) => return Err(corrupt(panic_text(payload))),
@@ -559,20 +605,23 @@ impl Workbook {
 }
 
 /// Finds a worksheet table by name and returns its sheet and reference.
-fn table_reference(
-    path: &Path,
-    xlsx: &mut Xlsx<BufReader<File>>,
-    wanted: &str,
-) -> Option<(Option<String>, CellRect)> {
+fn table_reference(path: &Path, xlsx: &mut Xlsx<BufReader<File>>, wanted: &str) -> Option<(Option<String>, CellRect)> {
     xlsx.load_tables().ok()?;
     let sheet_names: Vec<String> = xlsx.sheet_names().to_vec();
     let owner = sheet_names.into_iter().find(|sheet| {
-        xlsx.table_names_in_sheet(sheet).iter().any(|name| name.eq_ignore_ascii_case(wanted))
+        xlsx.table_names_in_sheet(sheet)
+            .iter()
+            .any(|name| name.eq_ignore_ascii_case(wanted))
     })?;
     // The table's reference is read from its own part, without loading the sheet.
     let file = File::open(path).ok()?;
     let mut archive = zip::ZipArchive::new(BufReader::new(file)).ok()?;
-    let names: Vec<String> = archive.file_names().filter_map(Result::ok).filter(|name| name.starts_with("xl/tables/")).map(|name| name.into_owned()).collect();
+    let names: Vec<String> = archive
+        .file_names()
+        .filter_map(Result::ok)
+        .filter(|name| name.starts_with("xl/tables/"))
+        .map(|name| name.into_owned())
+        .collect();
     for name in names {
         let mut entry = archive.by_name(&name).ok()?;
         let mut head = String::new();

@@ -146,11 +146,23 @@ pub struct SheetRange {
 impl SheetRange {
     /// A single column range.
     pub fn column(sheet: &str, col: u16, first_row: u32, last_row: u32) -> Self {
-        Self { sheet: sheet.to_string(), first_row, first_col: col, last_row, last_col: col }
+        Self {
+            sheet: sheet.to_string(),
+            first_row,
+            first_col: col,
+            last_row,
+            last_col: col,
+        }
     }
 
     fn to_chart_range(&self) -> ChartRange {
-        ChartRange::new_from_range(&self.sheet, self.first_row, self.first_col, self.last_row, self.last_col)
+        ChartRange::new_from_range(
+            &self.sheet,
+            self.first_row,
+            self.first_col,
+            self.last_row,
+            self.last_col,
+        )
     }
 }
 
@@ -219,7 +231,10 @@ pub struct Sheet {
 impl Sheet {
     /// A new empty sheet.
     pub fn new(name: impl Into<String>) -> Self {
-        Self { name: name.into(), ..Self::default() }
+        Self {
+            name: name.into(),
+            ..Self::default()
+        }
     }
 
     /// Places a value.
@@ -300,7 +315,10 @@ impl Looks {
                 .set_border_bottom(FormatBorder::Medium)
                 .set_background_color(Color::RGB(0xE8EEF4)),
             note: Format::new().set_italic().set_font_color(Color::RGB(0x505A64)),
-            caution: Format::new().set_bold().set_font_color(Color::RGB(0x8A3B00)).set_text_wrap(),
+            caution: Format::new()
+                .set_bold()
+                .set_font_color(Color::RGB(0x8A3B00))
+                .set_text_wrap(),
             verdict: Format::new().set_bold().set_font_size(12).set_text_wrap(),
             key: Format::new().set_bold(),
         }
@@ -357,7 +375,13 @@ fn build(book: &Book) -> Result<XlsxWorkbook, XlsxError> {
                     worksheet.write_number_with_format(placed.row, placed.col, *number, &*with_number)?;
                 }
                 Value::Number(number, _) => {
-                    let shown = if number.is_nan() { "not defined" } else if *number > 0.0 { "+infinity" } else { "-infinity" };
+                    let shown = if number.is_nan() {
+                        "not defined"
+                    } else if *number > 0.0 {
+                        "+infinity"
+                    } else {
+                        "-infinity"
+                    };
                     worksheet.write_string_with_format(placed.row, placed.col, shown, format)?;
                 }
                 Value::Link { target, text } => {
@@ -404,7 +428,11 @@ fn build_chart(spec: &ChartSpec) -> Chart {
                     ChartMarker::new()
                         .set_type(ChartMarkerType::Circle)
                         .set_size(7)
-                        .set_format(ChartFormat::new().set_solid_fill(ChartSolidFill::new().set_color(colour)).set_line(ChartLine::new().set_color(colour))),
+                        .set_format(
+                            ChartFormat::new()
+                                .set_solid_fill(ChartSolidFill::new().set_color(colour))
+                                .set_line(ChartLine::new().set_color(colour)),
+                        ),
                 );
             }
             ChartKind::Lines => {
@@ -417,9 +445,12 @@ fn build_chart(spec: &ChartSpec) -> Chart {
         }
         if let (Some(plus), Some(minus)) = (&series_spec.bar_plus, &series_spec.bar_minus) {
             let mut bars = ChartErrorBars::new();
-            bars.set_type(ChartErrorBarsType::Custom(plus.to_chart_range(), minus.to_chart_range()))
-                .set_end_cap(true)
-                .set_format(ChartLine::new().set_color(colour).set_width(1.25));
+            bars.set_type(ChartErrorBarsType::Custom(
+                plus.to_chart_range(),
+                minus.to_chart_range(),
+            ))
+            .set_end_cap(true)
+            .set_format(ChartLine::new().set_color(colour).set_width(1.25));
             series.set_y_error_bars(&bars);
         }
     }
@@ -428,11 +459,16 @@ fn build_chart(spec: &ChartSpec) -> Chart {
 
 /// The hidden temporary name a file is first written under, beside `destination`.
 pub fn temporary_name(destination: &Path) -> PathBuf {
-    let file_name = destination.file_name().map(|name| name.to_string_lossy().into_owned()).unwrap_or_default();
+    let file_name = destination
+        .file_name()
+        .map(|name| name.to_string_lossy().into_owned())
+        .unwrap_or_default();
     let unique = format!(
         ".{file_name}.{}-{}.tmp",
         std::process::id(),
-        std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map_or(0, |elapsed| elapsed.as_nanos())
+        std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map_or(0, |elapsed| elapsed.as_nanos())
     );
     destination.with_file_name(unique)
 }
@@ -443,8 +479,14 @@ pub fn temporary_name(destination: &Path) -> PathBuf {
 ///
 /// [`WriteError::Build`] when the writer refuses the content.
 pub fn to_bytes(book: &Book, destination: &Path) -> Result<Vec<u8>, WriteError> {
-    let mut workbook = build(book).map_err(|source| WriteError::Build { path: destination.to_path_buf(), source })?;
-    workbook.save_to_buffer().map_err(|source| WriteError::Build { path: destination.to_path_buf(), source })
+    let mut workbook = build(book).map_err(|source| WriteError::Build {
+        path: destination.to_path_buf(),
+        source,
+    })?;
+    workbook.save_to_buffer().map_err(|source| WriteError::Build {
+        path: destination.to_path_buf(),
+        source,
+    })
 }
 
 /// Writes a book to `destination` atomically: to a hidden temporary file in
@@ -467,9 +509,15 @@ pub fn write_book(book: &Book, destination: &Path) -> Result<(), WriteError> {
 pub fn write_atomically(bytes: &[u8], destination: &Path) -> Result<(), WriteError> {
     use std::io::Write;
     let temporary = temporary_name(destination);
-    let io_error = |source| WriteError::Io { path: destination.to_path_buf(), source };
+    let io_error = |source| WriteError::Io {
+        path: destination.to_path_buf(),
+        source,
+    };
     let outcome = (|| -> std::io::Result<()> {
-        let mut file = std::fs::OpenOptions::new().write(true).create_new(true).open(&temporary)?;
+        let mut file = std::fs::OpenOptions::new()
+            .write(true)
+            .create_new(true)
+            .open(&temporary)?;
         file.write_all(bytes)?;
         file.sync_all()?;
         drop(file);

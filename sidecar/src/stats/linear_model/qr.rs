@@ -88,11 +88,7 @@ pub(crate) fn sequential_qr(x: &DMatrix<f64>, y: &DVector<f64>) -> SequentialQr 
                 }
             };
             // column-major storage: each later column is one contiguous slice
-            for later in work
-                .as_mut_slice()
-                .chunks_exact_mut(n_rows)
-                .skip(column + 1)
-            {
+            for later in work.as_mut_slice().chunks_exact_mut(n_rows).skip(column + 1) {
                 reflect(&mut later[rank..]);
             }
             reflect(&mut effects.as_mut_slice()[rank..]);
@@ -156,11 +152,7 @@ mod tests {
     #[test]
     fn aliased_column_is_detected_and_expressed_through_earlier_ones() {
         // third column = 2 * first - second: exact dependence (common practice check)
-        let x = DMatrix::from_row_slice(
-            4,
-            3,
-            &[1.0, 0.0, 2.0, 1.0, 1.0, 1.0, 1.0, 2.0, 0.0, 1.0, 3.0, -1.0],
-        );
+        let x = DMatrix::from_row_slice(4, 3, &[1.0, 0.0, 2.0, 1.0, 1.0, 1.0, 1.0, 2.0, 0.0, 1.0, 3.0, -1.0]);
         let y = DVector::from_vec(vec![1.0, 2.0, 2.5, 4.5]);
         let qr = sequential_qr(&x, &y);
         assert_eq!(qr.kept, vec![0, 1]);

@@ -51,11 +51,7 @@ fn reference(kind: &str, dataset: &str) -> Vec<Vec<String>> {
     REFERENCE
         .lines()
         .filter(|line| !line.starts_with('#'))
-        .map(|line| {
-            line.split_whitespace()
-                .map(str::to_string)
-                .collect::<Vec<_>>()
-        })
+        .map(|line| line.split_whitespace().map(str::to_string).collect::<Vec<_>>())
         .filter(|fields| fields.len() > 2 && fields[0] == kind && fields[1] == dataset)
         .map(|fields| fields[2..].to_vec())
         .collect()
@@ -118,51 +114,21 @@ fn check_tables(fit: &FactorialFit, dataset: &str, agreement: &mut Agreement) {
         );
         let what = format!("{dataset} type {typ} {term}");
         agreement.check(&format!("{what} SS"), row.sum_sq, number(&fields[3]), 1e-10);
-        agreement.check(
-            &format!("{what} F"),
-            row.f_value.expect("F"),
-            number(&fields[4]),
-            1e-10,
-        );
-        agreement.check(
-            &format!("{what} p"),
-            row.p_value.expect("p"),
-            number(&fields[5]),
-            1e-9,
-        );
+        agreement.check(&format!("{what} F"), row.f_value.expect("F"), number(&fields[4]), 1e-10);
+        agreement.check(&format!("{what} p"), row.p_value.expect("p"), number(&fields[5]), 1e-9);
     }
     let residual = &reference("resid", dataset)[0];
     assert_eq!(fit.residual.df, residual[0].parse::<usize>().expect("df"));
-    agreement.check(
-        "residual SS",
-        fit.residual.sum_sq,
-        number(&residual[1]),
-        1e-10,
-    );
+    agreement.check("residual SS", fit.residual.sum_sq, number(&residual[1]), 1e-10);
     if let Some(r_squared) = reference("rsquared", dataset).first() {
-        agreement.check(
-            "R squared",
-            fit.r_squared.expect("R²"),
-            number(&r_squared[0]),
-            1e-10,
-        );
+        agreement.check("R squared", fit.r_squared.expect("R²"), number(&r_squared[0]), 1e-10);
     }
 }
 
 /// Compares grand mean, least-squares means and effects with the `t_test` reference.
-fn check_estimates(
-    fit: &FactorialFit,
-    factors: &[FactorSpec],
-    dataset: &str,
-    agreement: &mut Agreement,
-) {
+fn check_estimates(fit: &FactorialFit, factors: &[FactorSpec], dataset: &str, agreement: &mut Agreement) {
     let check = |agreement: &mut Agreement, what: &str, estimate: &Estimate, fields: &[String]| {
-        agreement.check(
-            what,
-            estimate.value.expect("estimable"),
-            number(&fields[0]),
-            1e-10,
-        );
+        agreement.check(what, estimate.value.expect("estimable"), number(&fields[0]), 1e-10);
         agreement.check(
             what,
             estimate.standard_error.expect("standard error"),
@@ -173,10 +139,7 @@ fn check_estimates(
     let grand = &reference("grand", dataset)[0];
     check(agreement, "grand mean", &fit.grand_mean, grand);
     let ls_rows = reference("lsmean", dataset);
-    assert_eq!(
-        ls_rows.len(),
-        factors.iter().map(|f| f.n_levels).sum::<usize>()
-    );
+    assert_eq!(ls_rows.len(), factors.iter().map(|f| f.n_levels).sum::<usize>());
     for fields in ls_rows {
         let means = fit
             .ls_means
@@ -184,12 +147,7 @@ fn check_estimates(
             .find(|means| means.factor == fields[0])
             .expect("factor has least-squares means");
         let level: usize = fields[1].parse().expect("level");
-        check(
-            agreement,
-            "least-squares mean",
-            &means.means[level],
-            &fields[2..],
-        );
+        check(agreement, "least-squares mean", &means.means[level], &fields[2..]);
     }
     let effect_rows = reference("effect", dataset);
     let expected_count: usize = fit.effects.iter().map(|term| term.effects.len()).sum();
@@ -200,10 +158,7 @@ fn check_estimates(
             .iter()
             .find(|term| term.term == fields[0])
             .expect("term has effects");
-        let levels: Vec<usize> = fields[1]
-            .split(',')
-            .map(|v| v.parse().expect("level"))
-            .collect();
+        let levels: Vec<usize> = fields[1].split(',').map(|v| v.parse().expect("level")).collect();
         let effect = term
             .effects
             .iter()
@@ -262,11 +217,7 @@ fn missing_cell_is_listed_and_flagged_and_types_i_ii_match_nested_fits() {
     assert_eq!(fit.missing_cells, vec![vec![2, 2]]);
     assert!(!fit.is_balanced);
     assert!(fit.type_iii_depends_on_coding);
-    let interaction = fit
-        .terms
-        .iter()
-        .find(|term| term.name == "a:b")
-        .expect("a:b");
+    let interaction = fit.terms.iter().find(|term| term.name == "a:b").expect("a:b");
     assert_eq!((interaction.df_full, interaction.df_estimable), (4, 3));
     assert_eq!(interaction.estimability, Estimability::Partial);
     assert!(fit.terms[..2]
@@ -285,19 +236,9 @@ fn missing_cell_is_listed_and_flagged_and_types_i_ii_match_nested_fits() {
     }
     let residual = &reference("resid", "missing_cell")[0];
     assert_eq!(fit.residual.df, residual[0].parse::<usize>().expect("df"));
-    agreement.check(
-        "residual SS",
-        fit.residual.sum_sq,
-        number(&residual[1]),
-        1e-10,
-    );
+    agreement.check("residual SS", fit.residual.sum_sq, number(&residual[1]), 1e-10);
     let r_squared = &reference("rsquared", "missing_cell")[0];
-    agreement.check(
-        "R squared",
-        fit.r_squared.expect("R²"),
-        number(&r_squared[0]),
-        1e-10,
-    );
+    agreement.check("R squared", fit.r_squared.expect("R²"), number(&r_squared[0]), 1e-10);
     agreement.report();
     // least-squares means of level 2 average over the empty cell (2, 2): not estimable
     // with the interaction in the model; levels 0 and 1 are.
@@ -329,27 +270,12 @@ fn one_factor_reproduces_one_way_anova() {
         let row = &table.rows[0];
         assert_eq!(row.df, 3);
         agreement.check("between SS", row.sum_sq, number(&reference_row[3]), 1e-12);
-        agreement.check(
-            "F",
-            row.f_value.expect("F"),
-            number(&reference_row[4]),
-            1e-12,
-        );
-        agreement.check(
-            "p",
-            row.p_value.expect("p"),
-            number(&reference_row[5]),
-            1e-9,
-        );
+        agreement.check("F", row.f_value.expect("F"), number(&reference_row[4]), 1e-12);
+        agreement.check("p", row.p_value.expect("p"), number(&reference_row[5]), 1e-9);
     }
     let residual = &reference("resid", "one_way")[0];
     assert_eq!(fit.residual.df, 14);
-    agreement.check(
-        "within SS",
-        fit.residual.sum_sq,
-        number(&residual[1]),
-        1e-12,
-    );
+    agreement.check("within SS", fit.residual.sum_sq, number(&residual[1]), 1e-12);
     // one factor: the cell means are fitted exactly, so no lack of fit
     assert_eq!(fit.lack_of_fit.df, 0);
     agreement.report();
@@ -372,11 +298,7 @@ impl Lcg {
 }
 
 /// Complete grid of cells with random means and centred SS.
-fn random_cells(
-    rng: &mut Lcg,
-    factors: &[FactorSpec],
-    counts: impl Fn(&mut Lcg) -> usize,
-) -> Vec<CellSummary> {
+fn random_cells(rng: &mut Lcg, factors: &[FactorSpec], counts: impl Fn(&mut Lcg) -> usize) -> Vec<CellSummary> {
     let n_levels: Vec<usize> = factors.iter().map(|f| f.n_levels).collect();
     level_grid(&n_levels)
         .into_iter()
@@ -386,11 +308,7 @@ fn random_cells(
                 levels,
                 n,
                 mean: 10.0 + 5.0 * rng.next_unit(),
-                centred_ss: if n > 1 {
-                    (n - 1) as f64 * rng.next_unit()
-                } else {
-                    0.0
-                },
+                centred_ss: if n > 1 { (n - 1) as f64 * rng.next_unit() } else { 0.0 },
             }
         })
         .collect()
@@ -419,8 +337,7 @@ fn balanced_designs_give_equal_type_i_ii_iii() {
                 assert_eq!(other.term, row.term);
                 assert_eq!(other.df, row.df);
                 assert!(
-                    relative_error(other.sum_sq, row.sum_sq) < 1e-9
-                        || (other.sum_sq - row.sum_sq).abs() < 1e-12,
+                    relative_error(other.sum_sq, row.sum_sq) < 1e-9 || (other.sum_sq - row.sum_sq).abs() < 1e-12,
                     "trial {trial} {}: {} vs {}",
                     row.term,
                     other.sum_sq,
@@ -446,10 +363,7 @@ fn type_i_sums_add_up_to_total_and_top_term_agrees_across_types() {
         let fit = fit_factorial(&cells, &factors, &ModelSpec::default()).expect("fit");
         let sequential: f64 = fit.type_i.rows.iter().map(|row| row.sum_sq).sum();
         let total = sequential + fit.residual.sum_sq;
-        assert!(
-            relative_error(total, fit.total.sum_sq) < 1e-10,
-            "trial {trial}"
-        );
+        assert!(relative_error(total, fit.total.sum_sq) < 1e-10, "trial {trial}");
         let df: usize = fit.type_i.rows.iter().map(|row| row.df).sum::<usize>() + fit.residual.df;
         assert_eq!(df, fit.total.df);
         let last = fit.type_i.rows.last().expect("rows");
@@ -526,8 +440,7 @@ fn automatic_order_leaves_residual_df_without_replication() {
     assert_eq!(fit.residual.df, 6);
     assert_eq!(fit.lack_of_fit.df, 6);
     // an explicit saturated request is honoured but gives no F tests
-    let saturated =
-        fit_factorial(&cells, &factors, &ModelSpec { max_order: Some(2) }).expect("fit");
+    let saturated = fit_factorial(&cells, &factors, &ModelSpec { max_order: Some(2) }).expect("fit");
     assert_eq!(saturated.residual.df, 0);
     assert!(saturated.residual.mean_sq.is_none());
     assert!(saturated
@@ -571,11 +484,7 @@ fn bad_input_is_refused() {
     let cases: Vec<(Vec<CellSummary>, Vec<FactorSpec>, ModelSpec)> = vec![
         (vec![], factors.to_vec(), spec.clone()),
         (vec![good.clone()], vec![], spec.clone()),
-        (
-            vec![good.clone()],
-            vec![factor("a", 1), factor("b", 2)],
-            spec.clone(),
-        ),
+        (vec![good.clone()], vec![factor("a", 1), factor("b", 2)], spec.clone()),
         (
             vec![CellSummary {
                 levels: vec![0],
@@ -593,10 +502,7 @@ fn bad_input_is_refused() {
             spec.clone(),
         ),
         (
-            vec![CellSummary {
-                n: 0,
-                ..good.clone()
-            }],
+            vec![CellSummary { n: 0, ..good.clone() }],
             factors.to_vec(),
             spec.clone(),
         ),
@@ -616,11 +522,7 @@ fn bad_input_is_refused() {
             factors.to_vec(),
             spec.clone(),
         ),
-        (
-            vec![good.clone(), good.clone()],
-            factors.to_vec(),
-            spec.clone(),
-        ),
+        (vec![good.clone(), good.clone()], factors.to_vec(), spec.clone()),
         (
             vec![CellSummary {
                 n: 1,
@@ -637,10 +539,7 @@ fn bad_input_is_refused() {
         ),
     ];
     for (index, (cells, factors, spec)) in cases.into_iter().enumerate() {
-        assert!(
-            fit_factorial(&cells, &factors, &spec).is_err(),
-            "case {index}"
-        );
+        assert!(fit_factorial(&cells, &factors, &spec).is_err(), "case {index}");
     }
 }
 

@@ -1,0 +1,456 @@
+//! The command line: argument parsing and glue over [`crate::service`].
+//!
+//! Exit codes: 0 when every workbook was analysed, 1 when at least one
+//! failed (each failure is printed on one line and the run goes on), 2 for a
+//! usage error.
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use clap::{Args, Parser, Subcommand};
+use workbook_io::layout::Layout;
+
+use crate::service::{self, AnalysisRequest, WorkbookResults};
+use crate::settings::{parse_confidence, parse_direction, Settings};
+
+/// Exit code when every workbook was analysed.
+pub const EXIT_OK: i32 = 0;
+/// Exit code when some workbook could not be analysed.
+pub const EXIT_SOME_FAILED: i32 = 1;
+/// Exit code for a usage error.
+pub const EXIT_USAGE: i32 = 2;
+
+/// Compare process conditions from trial workbooks.
+#[derive(Debug, Parser)]
+#[command(name = "trialyst", version, about, long_about = None)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Analyse workbooks (files or folders) and write a results workbook beside each.
+    Run(RunArgs),
+    /// Show the table that would be analysed and every data problem, without analysing.
+    Inspect(InspectArgs),
+}
+
+/// Options that choose the table and the analysis.
+#[derive(Debug, Args, Clone, Default)]
+pub struct TableArgs {
+    /// Sheet holding the trial table (default: the first sheet that holds one).
+    #[arg(long)]
+    pub sheet: Option<String>,
+    /// The table's cells: an A1 range (B2:D40), a defined name, or a table name.
+    #[arg(long)]
+    pub range: Option<String>,
+    /// Response column header; repeat or separate with commas for several.
+    #[arg(long, value_delimiter = ',')]
+    pub response: Vec<String>,
+    /// Factor (condition) column header; repeat or separate with commas.
+    #[arg(long, value_delimiter = ',')]
+    pub factor: Vec<String>,
+    /// Blocking column header; repeat or separate with commas.
+    #[arg(long, value_delimiter = ',')]
+    pub block: Vec<String>,
+    /// Table layout: long, wide (default: detect).
+    #[arg(long)]
+    pub layout: Option<String>,
+}
+
+/// `trialyst run`.
+#[derive(Debug, Args)]
+pub struct RunArgs {
+    /// Workbooks or folders of workbooks.
+    #[arg(required = true)]
+    pub paths: Vec<PathBuf>,
+    /// Look into sub-folders too.
+    #[arg(long)]
+    pub recursive: bool,
+    /// Print results as JSON Lines (one object per workbook) on stdout.
+    #[arg(long)]
+    pub json: bool,
+    /// Confidence level for intervals and tests: 0.95, 95 or 95%.
+    #[arg(long)]
+    pub confidence: Option<String>,
+    /// A linear combination of condition means, e.g. "new vs old: (A + B)/2 - C"; repeatable.
+    #[arg(long)]
+    pub contrast: Vec<String>,
+    /// Which way the response is better: higher, lower, or "target 12.5".
+    #[arg(long)]
+    pub direction: Option<String>,
+    /// Folder for the results workbooks (default: beside each original).
+    #[arg(long)]
+    pub out_dir: Option<PathBuf>,
+    /// Do not write results workbooks (with --json, for machine use).
+    #[arg(long)]
+    pub no_write: bool,
+    /// Workbooks analysed at once (default: the number of cores).
+    #[arg(long)]
+    pub jobs: Option<usize>,
+    /// Table options.
+    #[command(flatten)]
+    pub table: TableArgs,
+}
+
+/// `trialyst inspect`.
+#[derive(Debug, Args)]
+pub struct InspectArgs {
+    /// The workbook.
+    pub file: PathBuf,
+    /// Print as JSON.
+    #[arg(long)]
+    pub json: bool,
+    /// Table options.
+    #[command(flatten)]
+    pub table: TableArgs,
+}
+
+/// A usage problem found after parsing.
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+pub struct UsageError(pub String);
+
+fn table_settings(table: &TableArgs) -> Result<Settings, UsageError> {
+    let layout = match table.layout.as_deref().map(str::to_lowercase).as_deref() {
+        None | Some("detect") => None,
+        Some("long") => Some(Layout::Long),
+        Some("wide") => Some(Layout::Wide),
+        Some(other) => {
+            return Err(UsageError(format!(
+                "--layout must be long, wide or detect, not '{other}'"
+            )))
+        }
+    };
+    Ok(Settings {
+        sheet: table.sheet.clone(),
+        range: table.range.clone(),
+        responses: table.response.clone(),
+        factors: table.factor.clone(),
+        blocks: table.block.clone(),
+        layout,
+        ..Settings::default()
+    })
+}
+
+fn run_settings(args: &RunArgs) -> Result<Settings, UsageError> {
+    let mut settings = table_settings(&args.table)?;
+    if let Some(text) = &args.confidence {
+        settings.confidence = Some(parse_confidence(text).ok_or_else(|| {
+            UsageError(format!(
+                "--confidence must be between 0 and 1 (or a percentage), not '{text}'"
+            ))
+        })?);
+    }
+    if let Some(text) = &args.direction {
+        settings.direction = Some(parse_direction(text).ok_or_else(|| {
+            UsageError(format!(
+                "--direction must be higher, lower or \"target N\", not '{text}'"
+            ))
+        })?);
+    }
+    settings.contrasts = args.contrast.clone();
+    Ok(settings)
+}
+
+/// Expands files and folders into the workbooks to analyse, sorted, skipping
+/// lock files, temporary files and our own outputs.
+pub fn collect_workbooks(paths: &[PathBuf], recursive: bool) -> (Vec<PathBuf>, Vec<(PathBuf, String)>) {
+    let mut found = Vec::new();
+    let mut problems = Vec::new();
+    for path in paths {
+        if path.is_dir() {
+            scan_folder(path, recursive, &mut found, &mut problems);
+        } else if path.exists() {
+            found.push(path.clone());
+        } else {
+            problems.push((path.clone(), "no such file or folder".to_string()));
+        }
+    }
+    (found, problems)
+}
+
+fn scan_folder(folder: &Path, recursive: bool, found: &mut Vec<PathBuf>, problems: &mut Vec<(PathBuf, String)>) {
+    let entries = match std::fs::read_dir(folder) {
+        Ok(entries) => entries,
+        Err(error) => {
+            problems.push((folder.to_path_buf(), format!("cannot list the folder: {error}")));
+            return;
+        }
+    };
+    let mut paths: Vec<PathBuf> = entries.filter_map(Result::ok).map(|entry| entry.path()).collect();
+    paths.sort();
+    for path in paths {
+        let name = path
+            .file_name()
+            .map(|name| name.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        if path.is_dir() {
+            if recursive && !name.starts_with('.') {
+                scan_folder(&path, recursive, found, problems);
+            }
+        } else if service::has_workbook_extension(&name) && !service::is_ignored_file_name(&name) {
+            found.push(path);
+        }
+    }
+}
+
+/// The outcome of one workbook in a run.
+pub enum RunOutcome {
+    /// Analysed; results written to the path, if writing was asked for.
+    Analysed(Box<WorkbookResults>, Option<PathBuf>),
+    /// Failed, with the cause chain on one line.
+    Failed(String),
+}
+
+/// Analyses one workbook and writes its results workbook.
+pub fn run_one(path: &Path, request: &AnalysisRequest, out_dir: Option<&Path>, write: bool) -> RunOutcome {
+    let results = match service::analyse_workbook(path, request) {
+        Ok(results) => results,
+        Err(error) => return RunOutcome::Failed(error_chain(&error)),
+    };
+    if !write {
+        return RunOutcome::Analysed(Box::new(results), None);
+    }
+    let destination = service::results_path_for(path, out_dir);
+    match service::write_results(&results, &destination) {
+        Ok(()) => RunOutcome::Analysed(Box::new(results), Some(destination)),
+        Err(error) => RunOutcome::Failed(error_chain(&error)),
+    }
+}
+
+/// An error and all its sources on one line, joined by ": ".
+pub fn error_chain(error: &dyn std::error::Error) -> String {
+    let mut text = error.to_string();
+    let mut source = error.source();
+    while let Some(cause) = source {
+        let cause_text = cause.to_string();
+        if !text.contains(&cause_text) {
+            text.push_str(": ");
+            text.push_str(&cause_text);
+        }
+        source = cause.source();
+    }
+    text
+}
+
+fn json_line(path: &Path, outcome: &RunOutcome) -> String {
+    let value = match outcome {
+        RunOutcome::Analysed(results, written) => {
+            let mut value = serde_json::to_value(results.as_ref()).unwrap_or(serde_json::Value::Null);
+            if let serde_json::Value::Object(map) = &mut value {
+                map.insert("status".into(), "analysed".into());
+                map.insert(
+                    "results_file".into(),
+                    written
+                        .as_ref()
+                        .map(|path| serde_json::Value::from(path.display().to_string()))
+                        .unwrap_or(serde_json::Value::Null),
+                );
+            }
+            value
+        }
+        RunOutcome::Failed(message) => serde_json::json!({
+            "format_version": service::RESULTS_FORMAT_VERSION,
+            "status": "failed",
+            "source": { "path": path.display().to_string() },
+            "error": message,
+        }),
+    };
+    serde_json::to_string(&value).unwrap_or_default()
+}
+
+fn human_line(path: &Path, outcome: &RunOutcome) -> String {
+    match outcome {
+        RunOutcome::Analysed(results, written) => {
+            let verdicts: Vec<String> = results
+                .responses
+                .iter()
+                .map(|response| match &response.verdict {
+                    Some(verdict) => format!("{}: {}", response.name, verdict.headline),
+                    None => format!("{}: not analysed", response.name),
+                })
+                .collect();
+            let target = written
+                .as_ref()
+                .map(|path| format!(" -> {}", path.display()))
+                .unwrap_or_default();
+            format!(
+                "analysed {}{target} ({} finding(s))\n  {}",
+                path.display(),
+                results.findings.len(),
+                verdicts.join("\n  ")
+            )
+        }
+        RunOutcome::Failed(message) => format!("failed {}: {message}", path.display()),
+    }
+}
+
+/// Runs the command line; returns the process exit code.
+pub fn main_with(cli: Cli) -> i32 {
+    match cli.command {
+        Command::Run(args) => run_command(args),
+        Command::Inspect(args) => inspect_command(args),
+    }
+}
+
+fn run_command(args: RunArgs) -> i32 {
+    let settings = match run_settings(&args) {
+        Ok(settings) => settings,
+        Err(error) => {
+            eprintln!("trialyst: {error}");
+            return EXIT_USAGE;
+        }
+    };
+    if let Some(out_dir) = &args.out_dir {
+        if let Err(error) = std::fs::create_dir_all(out_dir) {
+            eprintln!(
+                "trialyst: cannot create the output folder '{}': {error}",
+                out_dir.display()
+            );
+            return EXIT_USAGE;
+        }
+    }
+    let (workbooks, problems) = collect_workbooks(&args.paths, args.recursive);
+    let request = AnalysisRequest {
+        settings,
+        ..AnalysisRequest::default()
+    };
+    let jobs = args
+        .jobs
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+        .max(1);
+    let outcomes = run_parallel(&workbooks, &request, args.out_dir.as_deref(), !args.no_write, jobs);
+
+    let stdout = std::io::stdout();
+    let mut out = stdout.lock();
+    let mut failed = problems.len();
+    for (path, message) in &problems {
+        if args.json {
+            let _ = writeln!(out, "{}", json_line(path, &RunOutcome::Failed(message.clone())));
+        } else {
+            eprintln!("failed {}: {message}", path.display());
+        }
+    }
+    let mut analysed = 0;
+    for (path, outcome) in workbooks.iter().zip(&outcomes) {
+        match outcome {
+            RunOutcome::Analysed(..) => analysed += 1,
+            RunOutcome::Failed(_) => failed += 1,
+        }
+        if args.json {
+            let _ = writeln!(out, "{}", json_line(path, outcome));
+        } else if matches!(outcome, RunOutcome::Failed(_)) {
+            eprintln!("{}", human_line(path, outcome));
+        } else {
+            let _ = writeln!(out, "{}", human_line(path, outcome));
+        }
+    }
+    eprintln!("trialyst: {analysed} analysed, {failed} failed");
+    if workbooks.is_empty() && problems.is_empty() {
+        eprintln!("trialyst: no workbooks found in the paths given");
+        return EXIT_SOME_FAILED;
+    }
+    if failed > 0 {
+        EXIT_SOME_FAILED
+    } else {
+        EXIT_OK
+    }
+}
+
+/// Analyses workbooks on `jobs` threads; outcomes come back in input order.
+pub fn run_parallel(
+    workbooks: &[PathBuf],
+    request: &AnalysisRequest,
+    out_dir: Option<&Path>,
+    write: bool,
+    jobs: usize,
+) -> Vec<RunOutcome> {
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    let slots: Vec<std::sync::Mutex<Option<RunOutcome>>> =
+        workbooks.iter().map(|_| std::sync::Mutex::new(None)).collect();
+    std::thread::scope(|scope| {
+        for _ in 0..jobs.min(workbooks.len().max(1)) {
+            scope.spawn(|| loop {
+                let index = next.fetch_add(1, std::sync::atomic::Ordering::SeqCst);
+                if index >= workbooks.len() {
+                    break;
+                }
+                let outcome = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+                    run_one(&workbooks[index], request, out_dir, write)
+                }))
+                .unwrap_or_else(|_| RunOutcome::Failed("internal error while analysing; please report it".into()));
+                if let Ok(mut slot) = slots[index].lock() {
+                    *slot = Some(outcome);
+                }
+            });
+        }
+    });
+    slots
+        .into_iter()
+        .map(|slot| {
+            slot.into_inner()
+                .ok()
+                .flatten()
+                .unwrap_or_else(|| RunOutcome::Failed("not analysed".into()))
+        })
+        .collect()
+}
+
+fn inspect_command(args: InspectArgs) -> i32 {
+    let settings = match table_settings(&args.table) {
+        Ok(settings) => settings,
+        Err(error) => {
+            eprintln!("trialyst: {error}");
+            return EXIT_USAGE;
+        }
+    };
+    let request = AnalysisRequest {
+        settings,
+        ..AnalysisRequest::default()
+    };
+    match service::inspect_workbook(&args.file, &request) {
+        Ok(inspection) => {
+            if args.json {
+                println!("{}", serde_json::to_string(&inspection).unwrap_or_default());
+            } else {
+                let table = &inspection.table;
+                println!(
+                    "{} ({}, {} bytes)",
+                    inspection.source.file_name, inspection.source.format, inspection.source.bytes
+                );
+                println!(
+                    "table: sheet '{}', cells {}, {:?} layout, {} records",
+                    table.sheet, table.range, table.layout, table.n_records
+                );
+                for factor in &table.factors {
+                    println!(
+                        "  {} '{}'{}: {} levels: {}",
+                        if factor.is_block { "block" } else { "factor" },
+                        factor.name,
+                        factor
+                            .column
+                            .as_ref()
+                            .map(|column| format!(" (column {column})"))
+                            .unwrap_or_default(),
+                        factor.levels.len(),
+                        factor.levels.join(", ")
+                    );
+                }
+                println!("  responses: {}", table.responses.join(", "));
+                println!("findings: {}", inspection.findings.len());
+                for finding in &inspection.findings {
+                    println!("  {}: {}", finding.place(), finding.message);
+                }
+            }
+            EXIT_OK
+        }
+        Err(error) => {
+            eprintln!("trialyst: {}", error_chain(&error));
+            EXIT_SOME_FAILED
+        }
+    }
+}
