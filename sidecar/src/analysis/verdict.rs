@@ -153,7 +153,7 @@ mod tests {
 
     #[test]
     fn rounds_for_people() {
-        assert_eq!(round_for_text(3.14159, 4), "3.142");
+        assert_eq!(round_for_text(2.46813, 4), "2.468");
         assert_eq!(round_for_text(1234.5678, 4), "1235");
         assert_eq!(round_for_text(0.00012345, 3), "0.000123");
         assert_eq!(round_for_text(2.0, 4), "2");

@@ -11,6 +11,8 @@ pub mod linear_model;
 pub mod normality;
 pub mod ranks;
 pub mod spread;
+pub mod two_level;
+pub mod two_level_analysis;
 
 /// Why a statistical routine refused its input or could not finish.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
