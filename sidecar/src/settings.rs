@@ -120,7 +120,9 @@ pub fn parse_confidence(value: &str) -> Option<f64> {
         None => (text, false),
     };
     let number: f64 = number_text.parse().ok()?;
-    let level = if percent || number > 1.0 {
+    // A bare number above 1 is read as a percentage only where it plausibly is
+    // one (50 to 100); 1.5 is more likely a typing slip than 1.5%.
+    let level = if percent || (50.0..100.0).contains(&number) {
         number / 100.0
     } else {
         number
