@@ -573,3 +573,53 @@ fn model_checks(
         probability_points,
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::analysis::oneway::fit_one_way;
+
+    /// scipy 1.17.1: inverting `scipy.stats.ncf.cdf(F, 2, 12, nc)` at 0.975 and
+    /// 0.025 with `brentq` for F = 7.137827822120864 (f_oneway of the data below)
+    /// gives eta² bounds 0.0564538412352678 and 0.7126585795111261 (nc / (nc + 15)).
+    #[test]
+    fn eta_squared_interval_matches_reference_library() {
+        let names: Vec<String> = ["a", "b", "c"].iter().map(|name| name.to_string()).collect();
+        let values = [
+            24.5, 23.5, 26.4, 27.1, 29.9, 28.4, 34.2, 29.5, 32.2, 30.1, 26.1, 28.3, 24.3, 26.2, 27.8,
+        ];
+        let groups: Vec<u32> = (0..15).map(|index| index / 5).collect();
+        let fit = fit_one_way(&names, &groups, &values, 0.95, &[]).expect("fits");
+        let interval = eta_squared_interval(&fit, 0.95).expect("interval");
+        assert!((interval.low - 0.0564538412352678).abs() < 1e-7, "{interval:?}");
+        assert!((interval.high - 0.7126585795111261).abs() < 1e-7, "{interval:?}");
+    }
+
+    #[test]
+    fn lead_moves_to_unequal_spreads_when_spreads_differ() {
+        // Normal scores (Blom-like positions) scaled to a 1:12 SD ratio, 12 values each: the rule picks Welch.
+        let names: Vec<String> = ["steady", "wild"].iter().map(|name| name.to_string()).collect();
+        let mut values = Vec::new();
+        let mut groups = Vec::new();
+        for index in 0..12 {
+            let offset = dist::normal_quantile((index as f64 + 0.5) / 12.0).expect("valid probability");
+            values.push(10.0 + 0.1 * offset);
+            groups.push(0);
+            values.push(10.5 + 1.2 * offset);
+            groups.push(1);
+        }
+        let fit = fit_one_way(&names, &groups, &values, 0.95, &[]).expect("fits");
+        let group_values = vec![
+            values.iter().step_by(2).copied().collect::<Vec<_>>(),
+            values.iter().skip(1).step_by(2).copied().collect(),
+        ];
+        let records = vec![(0..12).map(|i| 2 * i).collect(), (0..12).map(|i| 2 * i + 1).collect()];
+        let assessment = assess(&fit, &group_values, &records, &AssessmentOptions::default());
+        assert_eq!(
+            assessment.lead,
+            LeadAnalysis::UnequalSpreads,
+            "{}",
+            assessment.lead_reason
+        );
+    }
+}

@@ -685,6 +685,17 @@ mod tests {
         assert!((numerator_check - classic).abs() < 1e-9, "{numerator_check} {classic}");
     }
 
+    /// statsmodels 0.15.0: `statsmodels.stats.oneway.anova_oneway([A, B, C], use_var="unequal")`:
+    /// statistic 6.297840424651883, p 0.024168533812115273, df (2, 7.65043688693415).
+    #[test]
+    fn welch_matches_reference_library() {
+        let fit = fit_of(&[A, B, C]);
+        let welch = welch_anova(&fit.conditions).expect("welch");
+        assert!((welch.f - 6.297840424651883).abs() < 1e-10, "{welch:?}");
+        assert!((welch.df_within - 7.65043688693415).abs() < 1e-9, "{welch:?}");
+        assert!((welch.p - 0.024168533812115273).abs() < 1e-10, "{welch:?}");
+    }
+
     #[test]
     fn best_and_control() {
         let fit = fit_of(&[A, B, C]);
