@@ -1,6 +1,7 @@
 //! Times the studentized range distribution function, upper tail and quantile over
 //! a grid of group counts and degrees of freedom, and a Games-Howell-like sequence
-//! of 190 quantile and upper-tail calls, each at its own df. Run in release:
+//! of 190 quantile and upper-tail calls, each at its own df, and the first calls on a
+//! thread (before the per-thread cache of range distributions is filled). Run in release:
 //! `cargo run --release -p sidecar --example srange_timing`
 
 use std::hint::black_box;
@@ -27,14 +28,20 @@ fn main() {
     let mut worst = [0.0f64; 5];
     for &k in &group_counts {
         for &df in &dfs {
-            let cdf = best_of(20, |i| studentized_range_cdf(2.0 + 0.01 * i as f64, k, df).unwrap_or(0.0));
-            let sf = best_of(20, |i| studentized_range_sf(4.0 + 0.01 * i as f64, k, df).unwrap_or(0.0));
+            let cdf = best_of(20, |i| {
+                studentized_range_cdf(2.0 + 0.01 * i as f64, k, df).unwrap_or(0.0)
+            });
+            let sf = best_of(20, |i| {
+                studentized_range_sf(4.0 + 0.01 * i as f64, k, df).unwrap_or(0.0)
+            });
             let quantile = best_of(20, |i| {
                 studentized_range_quantile(0.95 + 0.0001 * i as f64, k, df).unwrap_or(0.0)
             });
             // Far upper tail: sf near 1e-6 and the 0.999999 quantile.
             let start = studentized_range_quantile(0.999_999, k, df).unwrap_or(10.0);
-            let sf_tail = best_of(20, |i| studentized_range_sf(start + 0.01 * i as f64, k, df).unwrap_or(0.0));
+            let sf_tail = best_of(20, |i| {
+                studentized_range_sf(start + 0.01 * i as f64, k, df).unwrap_or(0.0)
+            });
             let quantile_tail = best_of(20, |i| {
                 studentized_range_quantile(0.999_999 - 1e-8 * i as f64, k, df).unwrap_or(0.0)
             });
@@ -50,6 +57,20 @@ fn main() {
         "largest for finite df: cdf {:.1}, sf {:.1}, quantile {:.1}, sf tail {:.1}, quantile tail {:.1}",
         worst[0], worst[1], worst[2], worst[3], worst[4]
     );
+    // First calls on a fresh thread, whose cache of range tables is empty.
+    for &(k, df) in &[(3usize, 10.0), (20, 10.0), (100, 10.0), (20, 2.0), (20, 1000.0)] {
+        let (cold_quantile, next_sf) = std::thread::spawn(move || {
+            let started = Instant::now();
+            black_box(studentized_range_quantile(0.95, k, df).unwrap_or(0.0));
+            let cold_quantile = started.elapsed().as_secs_f64() * 1e6;
+            let started = Instant::now();
+            black_box(studentized_range_sf(4.5, k, df).unwrap_or(0.0));
+            (cold_quantile, started.elapsed().as_secs_f64() * 1e6)
+        })
+        .join()
+        .unwrap_or((f64::NAN, f64::NAN));
+        println!("fresh thread, k {k}, df {df}: first quantile {cold_quantile:.1} us, then sf {next_sf:.1} us");
+    }
     // Games-Howell-like: 20 conditions, 190 pairs, each with its own df.
     for &(k, low_df, high_df) in &[(20usize, 8.0, 60.0), (20, 500.0, 50_000.0), (7, 3.0, 12.0)] {
         let started = Instant::now();
