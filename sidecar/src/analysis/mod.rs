@@ -2,5 +2,6 @@
 //! contrasts users write. Plain Rust values in, plain Rust values out; no I/O.
 
 pub mod contrast;
+pub mod factorial;
 pub mod oneway;
 pub mod verdict;
