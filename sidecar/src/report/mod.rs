@@ -4,6 +4,8 @@
 //! Sheets: a summary in plain words, condition statistics, the ANOVA table,
 //! pairwise differences, contrasts, data problems, and provenance.
 
+pub mod factorial;
+
 use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
 
 use crate::analysis::oneway::OneWayFit;
@@ -243,6 +245,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
                 values: SheetRange::column(names::CONDITIONS, 2, first_data_row, last_data_row),
                 bar_plus: has_bars.then(|| SheetRange::column(names::CONDITIONS, 10, first_data_row, last_data_row)),
                 bar_minus: has_bars.then(|| SheetRange::column(names::CONDITIONS, 10, first_data_row, last_data_row)),
+                labels: None,
             }],
             anchor: (chart_anchor_row, 1),
             size: (520, 300),
@@ -409,6 +412,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     if any_contrast {
         book.sheets.push(contrasts);
     }
+    factorial::add_factorial_results(results, &mut book);
     book.sheets.push(findings_sheet(&results.findings));
     book.sheets.push(provenance_sheet(results));
     book
