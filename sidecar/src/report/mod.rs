@@ -4,6 +4,7 @@
 //! Sheets: a summary in plain words, condition statistics, the ANOVA table,
 //! pairwise differences, contrasts, data problems, and provenance.
 
+pub mod assessment;
 pub mod factorial;
 
 use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
