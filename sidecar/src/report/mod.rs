@@ -5,6 +5,7 @@
 //! pairwise differences, contrasts, data problems, and provenance.
 
 pub mod assessment;
+pub mod factorial;
 
 use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
 
@@ -247,6 +248,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
                 values: SheetRange::column(names::CONDITIONS, 2, first_data_row, last_data_row),
                 bar_plus: has_bars.then(|| SheetRange::column(names::CONDITIONS, 10, first_data_row, last_data_row)),
                 bar_minus: has_bars.then(|| SheetRange::column(names::CONDITIONS, 10, first_data_row, last_data_row)),
+                labels: None,
             }],
             anchor: (summary_row + 1, 0),
             size: (620, 300),
@@ -413,6 +415,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     if any_contrast {
         book.sheets.push(contrasts);
     }
+    factorial::add_factorial_results(results, &mut book);
     book.sheets.push(findings_sheet(&results.findings));
     book.sheets.push(provenance_sheet(results));
     book

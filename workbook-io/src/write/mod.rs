@@ -9,8 +9,8 @@
 use std::path::{Path, PathBuf};
 
 use rust_xlsxwriter::{
-    Chart, ChartErrorBars, ChartErrorBarsType, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, ChartRange,
-    ChartSolidFill, Color, Format, FormatAlign, FormatBorder, Workbook as XlsxWorkbook, XlsxError,
+    Chart, ChartDataLabel, ChartErrorBars, ChartErrorBarsType, ChartFormat, ChartLine, ChartMarker, ChartMarkerType,
+    ChartRange, ChartSolidFill, Color, Format, FormatAlign, FormatBorder, Workbook as XlsxWorkbook, XlsxError,
 };
 
 /// The longest text a cell may hold in xlsx.
@@ -194,6 +194,8 @@ pub struct Series {
     pub bar_plus: Option<SheetRange>,
     /// Downward half-widths of interval bars, if any.
     pub bar_minus: Option<SheetRange>,
+    /// Text labels shown beside the points, one cell per point, if any.
+    pub labels: Option<SheetRange>,
 }
 
 /// A chart placed on a sheet.
@@ -488,6 +490,18 @@ fn build_chart(spec: &ChartSpec) -> Chart {
             .set_end_cap(true)
             .set_format(ChartLine::new().set_color(colour).set_width(1.25));
             series.set_y_error_bars(&bars);
+        }
+        if let Some(labels) = &series_spec.labels {
+            // One label per point, each taking its text from one cell of the range.
+            let custom: Vec<ChartDataLabel> = (labels.first_row..=labels.last_row)
+                .flat_map(|row| (labels.first_col..=labels.last_col).map(move |col| (row, col)))
+                .map(|(row, col)| {
+                    ChartDataLabel::new()
+                        .set_value((labels.sheet.as_str(), row, col, row, col))
+                        .to_custom()
+                })
+                .collect();
+            series.set_custom_data_labels(&custom);
         }
     }
     chart
