@@ -394,8 +394,8 @@ fn size_answers_with_a_table_and_a_chart() {
     let power = answer["needed"]["power"].as_f64().expect("power");
     assert!((power - 0.953_577_933_622_421_4).abs() < 1e-9, "{power}");
     let file = std::fs::File::open(folder.path().join("power.xlsx")).expect("size workbook");
-    let archive = zip::ZipArchive::new(file).expect("xlsx is a zip");
-    assert!(archive.file_names().any(|name| name == "xl/charts/chart1.xml"));
+    let mut archive = zip::ZipArchive::new(file).expect("xlsx is a zip");
+    assert!(archive.by_name("xl/charts/chart1.xml").is_ok());
 }
 
 #[test]

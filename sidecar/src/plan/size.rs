@@ -405,7 +405,7 @@ pub fn size_answer(request: &SizeRequest) -> Result<SizeAnswer, SizeError> {
             }
             let what = match effect {
                 OneWayEffect::SmallestDifference(delta) => format!(
-                    "a difference of {delta} between any two of {conditions} conditions (two at +-{}, the rest between)",
+                    "a difference of {delta} between any two of {conditions} conditions (the least favourable case: two means {} either side of the centre, the rest at the centre)",
                     delta / 2.0
                 ),
                 OneWayEffect::Means(means) => format!(

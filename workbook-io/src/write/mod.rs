@@ -11,7 +11,7 @@ use std::path::{Path, PathBuf};
 use rust_xlsxwriter::{
     Chart, ChartErrorBars, ChartErrorBarsType, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, ChartRange,
     ChartSolidFill, Color, DataValidation, DataValidationErrorStyle, DataValidationRule, DocProperties, ExcelDateTime,
-    Format, FormatAlign, FormatBorder, Workbook as XlsxWorkbook, XlsxError,
+    Format, FormatAlign, FormatBorder, Formula, Workbook as XlsxWorkbook, XlsxError,
 };
 
 /// The longest text a cell may hold in xlsx.
@@ -438,7 +438,10 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
         }
         for area in &sheet.number_only {
             let validation = DataValidation::new()
-                .allow_decimal_number(DataValidationRule::Between(-1e300, 1e300))
+                .allow_decimal_number_formula(DataValidationRule::Between(
+                    Formula::new("-1E+300"),
+                    Formula::new("1E+300"),
+                ))
                 .ignore_blank(true)
                 .set_input_title(area.title.as_str())?
                 .set_input_message(area.prompt.as_str())?
