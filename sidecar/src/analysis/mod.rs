@@ -1,7 +1,10 @@
 //! Analyses built from the statistics routines: the one-way model, the
 //! contrasts users write, and power and sample size for planning. Plain Rust values in, plain Rust values out; no I/O.
 
+pub mod assessment;
+pub mod comparisons;
 pub mod contrast;
+pub mod letters;
 pub mod oneway;
 pub mod power;
 pub mod verdict;
