@@ -26,12 +26,15 @@
 //! `lambda = N Delta^2 / (4 sigma^2)`, computed exactly as a noncentral F.
 //!
 //! All-pairs intervals: the Tukey-Kramer half-width for equal `n` is
-//! `q(1 - alpha; k, k(n-1)) sigma / sqrt(n)`. The studentized range quantile
-//! is not yet part of the engine, so the half-width is bounded with the
-//! Bonferroni t quantile, `t(1 - alpha / (2m); k(n - 1)) sigma sqrt(2 / n)`
-//! with `m = k(k-1)/2` pairs; that bound is never narrower than
-//! Tukey-Kramer's, so the sample size it gives is enough (and slightly more
-//! than needed).
+//! `q(1 - alpha; k, k(n-1)) sigma / sqrt(n)` with `q` the studentized range
+//! quantile ([`studentized_range_quantile`], within about 1e-13 of mpmath).
+//! The runs needed are bracketed cheaply before the quantile is used: from
+//! below by the infinite-df quantile (the finite-df one is larger), from
+//! above by the Bonferroni t bound
+//! `t(1 - alpha / (2m); k(n - 1)) sigma sqrt(2 / n)`, `m = k(k-1)/2` pairs,
+//! which is never narrower; a bisection between them needs a few quantiles.
+//! The planning SD is taken as known, so the half-width is the one the
+//! trial will show if its pooled SD comes out at the planning value.
 //!
 //! Sample sizes are the smallest whole numbers that reach the target,
 //! found by doubling and then bisection (power grows with `n`).
@@ -39,6 +42,7 @@
 use serde::Serialize;
 
 use crate::stats::dist::{f_test_power, t_isf};
+use crate::stats::studentized_range::studentized_range_quantile;
 use crate::stats::StatsError;
 
 /// The largest runs per condition (or replicates) a search will go to.
@@ -210,22 +214,15 @@ pub fn one_way_runs_needed(
     smallest_meeting(2, |n| Ok(one_way_power(n, n_conditions, effect, sd, alpha)? >= power))
 }
 
-/// How the all-pairs half-width was bounded.
-pub const PAIRS_METHOD: &str = "Bonferroni t bound on the Tukey-Kramer half-width";
+/// How the all-pairs half-width is computed.
+pub const PAIRS_METHOD: &str = "Tukey-Kramer (studentized range)";
 
-/// Half-width of simultaneous intervals for all pairs of `k` conditions
-/// with `n` runs each, at simultaneous confidence `confidence`, using the
-/// planning SD (see the module remarks for the bound used).
-///
-/// # Errors
-///
-/// `InvalidParameter` or `TooFewValues` for unusable input.
-pub fn pairs_half_width(
+fn check_pairs_input(
     n_per_condition: usize,
     n_conditions: usize,
     sd: f64,
     confidence: f64,
-) -> Result<f64, StatsError> {
+) -> Result<(f64, f64), StatsError> {
     let sd = check_positive("SD", sd)?;
     let confidence = check_probability("confidence", confidence)?;
     if n_conditions < 2 || n_per_condition < 2 {
@@ -235,14 +232,50 @@ pub fn pairs_half_width(
             got: n_conditions.min(n_per_condition),
         });
     }
+    Ok((sd, confidence))
+}
+
+/// Half-width of Tukey-Kramer simultaneous intervals for all pairs of `k`
+/// conditions with `n` runs each, at simultaneous confidence `confidence`,
+/// when the pooled SD is `sd`.
+///
+/// # Errors
+///
+/// `InvalidParameter` or `TooFewValues` for unusable input; `NoConvergence`
+/// from the studentized range quantile (not observed).
+pub fn pairs_half_width(
+    n_per_condition: usize,
+    n_conditions: usize,
+    sd: f64,
+    confidence: f64,
+) -> Result<f64, StatsError> {
+    let (sd, confidence) = check_pairs_input(n_per_condition, n_conditions, sd, confidence)?;
+    let df = (n_conditions * (n_per_condition - 1)) as f64;
+    let critical = studentized_range_quantile(confidence, n_conditions, df)?;
+    Ok(critical * sd / (n_per_condition as f64).sqrt())
+}
+
+/// The Bonferroni t bound on the all-pairs half-width (never narrower than
+/// Tukey-Kramer's).
+///
+/// # Errors
+///
+/// As [`pairs_half_width`].
+pub fn bonferroni_pairs_half_width(
+    n_per_condition: usize,
+    n_conditions: usize,
+    sd: f64,
+    confidence: f64,
+) -> Result<f64, StatsError> {
+    let (sd, confidence) = check_pairs_input(n_per_condition, n_conditions, sd, confidence)?;
     let n_pairs = (n_conditions * (n_conditions - 1) / 2) as f64;
     let df = (n_conditions * (n_per_condition - 1)) as f64;
     let critical = t_isf((1.0 - confidence) / (2.0 * n_pairs), df)?;
     Ok(critical * sd * (2.0 / n_per_condition as f64).sqrt())
 }
 
-/// The fewest runs per condition for all-pairs intervals no wider than
-/// `+- half_width`.
+/// The fewest runs per condition for Tukey-Kramer all-pairs intervals no
+/// wider than `+- half_width`.
 ///
 /// # Errors
 ///
@@ -250,9 +283,46 @@ pub fn pairs_half_width(
 /// positive.
 pub fn pairs_runs_needed(n_conditions: usize, sd: f64, confidence: f64, half_width: f64) -> Result<usize, StatsError> {
     let half_width = check_positive("half-width", half_width)?;
-    smallest_meeting(2, |n| {
-        Ok(pairs_half_width(n, n_conditions, sd, confidence)? <= half_width)
-    })
+    let (sd, confidence) = check_pairs_input(2, n_conditions, sd, confidence)?;
+    // Above: the Bonferroni bound is wider, so its n is enough.
+    let mut high = smallest_meeting(2, |n| {
+        Ok(bonferroni_pairs_half_width(n, n_conditions, sd, confidence)? <= half_width)
+    })?;
+    // Below: with infinite df the quantile is smallest.
+    let q_limit = studentized_range_quantile(confidence, n_conditions, f64::INFINITY)?;
+    let low_bound = ((q_limit * sd / half_width).powi(2)).ceil();
+    let mut low = if low_bound.is_finite() {
+        (low_bound as usize).max(2)
+    } else {
+        high
+    };
+    low = low.min(high);
+    let meets =
+        |n: usize| -> Result<bool, StatsError> { Ok(pairs_half_width(n, n_conditions, sd, confidence)? <= half_width) };
+    if meets(low)? {
+        return Ok(low);
+    }
+    while !meets(high)? {
+        // Not expected (Bonferroni is never narrower); widen to be safe.
+        low = high;
+        high *= 2;
+        if high > MAX_SEARCH_N {
+            return Err(StatsError::NoConvergence {
+                what: "all-pairs sample size search",
+                iterations: high,
+            });
+        }
+    }
+    // Now meets(high) and not meets(low).
+    while high - low > 1 {
+        let middle = low + (high - low) / 2;
+        if meets(middle)? {
+            high = middle;
+        } else {
+            low = middle;
+        }
+    }
+    Ok(high)
 }
 
 /// Power of the two-sided level-`alpha` t test of one two-level effect of
@@ -349,10 +419,15 @@ mod tests {
     }
 
     #[test]
-    fn pairs_half_width_bound() {
-        // scipy 1.17.1: stats.t.isf(0.05/(2*3), 27) * 2 * sqrt(2/10).
+    fn pairs_half_width_matches_the_reference_library() {
+        // scipy 1.17.1: stats.studentized_range.ppf(0.95, 3, 27) * 2 / sqrt(10).
         let half = pairs_half_width(10, 3, 2.0, 0.95).expect("half-width");
-        assert!((half - 2.282_988_559_806_782_3).abs() < 1e-9, "{half}");
+        assert!((half - 2.217_658_599_382_727_6).abs() < 1e-9, "{half}");
+        // scipy 1.17.1: stats.studentized_range.ppf(0.95, 4, 24) * 25 / sqrt(7).
+        let half = pairs_half_width(7, 4, 25.0, 0.95).expect("half-width");
+        assert!((half - 36.863_462_756_184_16).abs() < 1e-9, "{half}");
+        let bound = bonferroni_pairs_half_width(7, 4, 25.0, 0.95).expect("bound");
+        assert!(bound > half, "{bound} {half}");
         let needed = pairs_runs_needed(3, 2.0, 0.95, 2.0).expect("n");
         assert!(pairs_half_width(needed, 3, 2.0, 0.95).expect("w") <= 2.0);
         assert!(pairs_half_width(needed - 1, 3, 2.0, 0.95).expect("w") > 2.0);

@@ -30,6 +30,9 @@ pub fn same_setting(planned: &str, found: &str) -> bool {
 /// Factor columns are found by name (without regard to case); a planned
 /// factor missing from the table is itself a finding and is left out of
 /// the comparison.
+// The matching walks records and planned runs by index across several
+// parallel vectors; index loops read plainer here than zipped iterators.
+#[allow(clippy::needless_range_loop)]
 pub fn check_runs(table: &TrialTable, plan: &KeptPlan) -> Vec<Finding> {
     let mut findings = Vec::new();
     let header_row = table.area.first.row;

@@ -374,7 +374,7 @@ pub fn parse_date(text: &str) -> Result<(u16, u8, u8), PlanError> {
     let year: u16 = year.parse().map_err(|_| bad())?;
     let month: u8 = month.parse().map_err(|_| bad())?;
     let day: u8 = day.parse().map_err(|_| bad())?;
-    let leap = (year % 4 == 0 && year % 100 != 0) || year % 400 == 0;
+    let leap = (year.is_multiple_of(4) && !year.is_multiple_of(100)) || year.is_multiple_of(400);
     let days_in_month = match month {
         1 | 3 | 5 | 7 | 8 | 10 | 12 => 31,
         4 | 6 | 9 | 11 => 30,
@@ -621,6 +621,9 @@ impl BlockSearch<'_> {
     }
 }
 
+/// Block generators and the counts of confounded chains by leader length.
+pub type BlockChoice = (Vec<Word>, Vec<usize>);
+
 /// Chooses `n_generators` block generators for a two-level design so that
 /// the effects confounded with blocks are of the highest order possible.
 ///
@@ -644,7 +647,7 @@ impl BlockSearch<'_> {
 pub fn choose_block_generators(
     relation: &DefiningRelation,
     n_generators: usize,
-) -> Result<Option<(Vec<Word>, Vec<usize>)>, StatsError> {
+) -> Result<Option<BlockChoice>, StatsError> {
     let basic = relation.basic_factors();
     let n_basic = basic.len();
     let to_word = |mask: u32| -> Word {
@@ -780,7 +783,7 @@ pub fn make_plan(request: &PlanRequest) -> Result<Plan, PlanError> {
     };
 
     // Blocks: whole replicates, or confounded splits of each replicate.
-    if n_blocks > 1 && n_blocks % replicates != 0 {
+    if n_blocks > 1 && !n_blocks.is_multiple_of(replicates) {
         return Err(PlanError::Blocks {
             blocks: n_blocks,
             reason: format!(

@@ -376,9 +376,9 @@ pub fn size_answer(request: &SizeRequest) -> Result<SizeAnswer, SizeError> {
                 Some(wanted) => {
                     let confidence = 1.0 - alpha;
                     let per_condition = pairs_runs_needed(*conditions, sd, confidence, wanted)?;
-                    notes.push(format!(
-                        "The half-width of the all-pairs intervals uses the {PAIRS_METHOD}: it is never narrower than the Tukey-Kramer half-width, so these runs are enough."
-                    ));
+                    notes.push(
+                        "The all-pairs half-width is the Tukey-Kramer one the trial will show if its pooled SD comes out at the planning SD; a larger SD widens it.".into(),
+                    );
                     Some(HalfWidthAnswer {
                         wanted,
                         per_condition,
