@@ -335,7 +335,10 @@ fn changed_settings_missing_and_out_of_order_runs_are_found() {
     let settings = |row: &Vec<Data>| (format!("{:?}", row[temperature]), format!("{:?}", row[supplier]));
     // With this seed they do (180/South and 180/East); the check below
     // needs them to differ.
-    assert!(settings(&rows[6]) != settings(&rows[7]), "runs 4 and 5 have the same settings");
+    assert!(
+        settings(&rows[6]) != settings(&rows[7]),
+        "runs 4 and 5 have the same settings"
+    );
     rows.swap(6, 7);
     // The last run (row 15) was never made: its row is removed.
     rows.truncate(14);
