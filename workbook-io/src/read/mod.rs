@@ -63,6 +63,10 @@ pub struct ReadLimits {
     pub ratio_check_above_bytes: u64,
     /// Most non-empty cells read from one sheet.
     pub max_cells: u64,
+    /// Largest rows × columns rectangle of one sheet, for the xls format,
+    /// whose parser allocates the whole rectangle (declared or spanned by
+    /// its cells) before handing over any cell.
+    pub max_box_cells: u64,
 }
 
 impl Default for ReadLimits {
@@ -77,6 +81,9 @@ impl Default for ReadLimits {
             max_compression_ratio: 400.0,
             ratio_check_above_bytes: 4 << 20,
             max_cells: 40_000_000,
+            // A full xls sheet: 65,536 rows × 256 columns (IV), the format's
+            // own size, so no conforming file is refused.
+            max_box_cells: 65_536 * 256,
         }
     }
 }

@@ -68,6 +68,8 @@ pub enum Look {
     Verdict,
     /// A key in a key/value list.
     Key,
+    /// Running text, wrapped within the column.
+    Paragraph,
 }
 
 /// A cell's content.
@@ -228,6 +230,8 @@ pub struct Sheet {
     pub charts: Vec<ChartSpec>,
     /// Rows frozen at the top (0 for none).
     pub frozen_rows: u32,
+    /// Row heights in points, by row, for rows of wrapped text.
+    pub heights: Vec<(u32, f64)>,
 }
 
 impl Sheet {
@@ -242,6 +246,21 @@ impl Sheet {
     /// Places a value.
     pub fn put(&mut self, row: u32, col: u16, value: Value, look: Look) {
         self.cells.push(Placed { row, col, value, look });
+    }
+
+    /// Places wrapped text in a column `width` characters wide and sets the
+    /// row's height to fit it (spreadsheet programs do not always refit rows
+    /// of wrapped text on opening).
+    pub fn paragraph(&mut self, row: u32, col: u16, text: impl Into<String>, look: Look, width: f64) {
+        let text = text.into();
+        // About 1.1 characters of body text per unit of column width; 15 points a line.
+        let large = matches!(look, Look::Verdict | Look::Heading | Look::Title);
+        let per_line = (width * if large { 0.85 } else { 1.1 }).max(10.0);
+        let lines = text.chars().count() as f64 / per_line;
+        let scale = if large { 1.2 } else { 1.0 };
+        self.heights.push((row, 15.5 * scale * lines.ceil().max(1.0)));
+        let look = if look == Look::Plain { Look::Paragraph } else { look };
+        self.put(row, col, Value::Text(text), look);
     }
 
     /// Places a table: a header row and rows of values. Returns the first row after it.
@@ -300,6 +319,7 @@ struct Looks {
     caution: Format,
     verdict: Format,
     key: Format,
+    paragraph: Format,
 }
 
 impl Looks {
@@ -316,13 +336,22 @@ impl Looks {
                 .set_align(FormatAlign::VerticalCenter)
                 .set_border_bottom(FormatBorder::Medium)
                 .set_background_color(Color::RGB(0xE8EEF4)),
-            note: Format::new().set_italic().set_font_color(Color::RGB(0x505A64)),
+            note: Format::new()
+                .set_italic()
+                .set_text_wrap()
+                .set_align(FormatAlign::Top)
+                .set_font_color(Color::RGB(0x505A64)),
             caution: Format::new()
                 .set_bold()
                 .set_font_color(Color::RGB(0x8A3B00))
                 .set_text_wrap(),
-            verdict: Format::new().set_bold().set_font_size(12).set_text_wrap(),
+            verdict: Format::new()
+                .set_bold()
+                .set_font_size(12)
+                .set_text_wrap()
+                .set_align(FormatAlign::Top),
             key: Format::new().set_bold(),
+            paragraph: Format::new().set_text_wrap().set_align(FormatAlign::Top),
         }
     }
 
@@ -336,6 +365,7 @@ impl Looks {
             Look::Caution => &self.caution,
             Look::Verdict => &self.verdict,
             Look::Key => &self.key,
+            Look::Paragraph => &self.paragraph,
         }
     }
 }
@@ -360,6 +390,12 @@ fn build(book: &Book) -> Result<XlsxWorkbook, XlsxError> {
         worksheet.set_name(&sheet.name)?;
         for (col, width) in &sheet.widths {
             worksheet.set_column_width(*col, *width)?;
+        }
+        // Printed, every sheet fits the page width, in landscape.
+        worksheet.set_landscape();
+        worksheet.set_print_fit_to_pages(1, 0);
+        for (row, height) in &sheet.heights {
+            worksheet.set_row_height(*row, *height)?;
         }
         if sheet.frozen_rows > 0 {
             worksheet.set_freeze_panes(sheet.frozen_rows, 0)?;
