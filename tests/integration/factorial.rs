@@ -2,7 +2,7 @@
 //! the factorial outcome checked against published examples and statsmodels; the built
 //! binary run on a factorial workbook and its results read back with calamine.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use calamine::{open_workbook_auto, Data, Reader};
 use sidecar::analysis::factorial::FactorialOutcome;
@@ -488,22 +488,6 @@ fn aliased_active_interactions_get_a_fold_over() {
     assert!(follow_up.contains("fold-over"), "{follow_up}");
 }
 
-/// The built `trialyst` binary, built first if it is not there yet.
-fn trialyst_binary() -> PathBuf {
-    let exe = std::env::current_exe().expect("test executable");
-    let profile_dir = exe.parent().and_then(Path::parent).expect("target profile folder");
-    let binary = profile_dir.join(format!("trialyst{}", std::env::consts::EXE_SUFFIX));
-    if !binary.exists() {
-        let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
-        let status = std::process::Command::new(cargo)
-            .args(["build", "-p", "sidecar", "--bin", "trialyst"])
-            .status()
-            .expect("cargo build");
-        assert!(status.success(), "building trialyst failed");
-    }
-    binary
-}
-
 #[test]
 fn binary_writes_factorial_sheets_and_json() {
     let folder = tempfile::tempdir().expect("temp dir");
@@ -515,7 +499,7 @@ fn binary_writes_factorial_sheets_and_json() {
         })
         .collect();
     write_workbook(&path, &["Turns", "Distance", "Gauge", "Sensitivity"], &rows, &[]);
-    let binary = trialyst_binary();
+    let binary = crate::common::trialyst_path();
     let output = std::process::Command::new(&binary)
         .arg("run")
         .arg(&path)
