@@ -45,6 +45,8 @@ pub struct Settings {
     pub value_name: Option<String>,
     /// Confidence level of intervals.
     pub confidence: Option<f64>,
+    /// Family confidence of simultaneous intervals (default: the confidence).
+    pub family_confidence: Option<f64>,
     /// Linear combinations of condition means, in the contrast syntax.
     pub contrasts: Vec<String>,
     /// Which way is better.
@@ -53,6 +55,9 @@ pub struct Settings {
     pub control: Option<String>,
     /// Folder for results files.
     pub out_dir: Option<String>,
+    /// Highest order of interaction in a factorial model (1 = main effects only);
+    /// `None` fits every order the replication allows.
+    pub interaction_order: Option<usize>,
 }
 
 /// A settings value that could not be used.
@@ -93,10 +98,12 @@ pub const KNOWN_KEYS: &[&str] = &[
     "layout",
     "value name",
     "confidence",
+    "family confidence",
     "contrast",
     "direction",
     "control",
     "output folder",
+    "interaction order",
 ];
 
 fn list(value: &str) -> Vec<String> {
@@ -108,6 +115,8 @@ fn list(value: &str) -> Vec<String> {
 }
 
 /// Reads a confidence level given as 0.95, 95 or 95%.
+///
+/// Returns `None` for anything outside (0, 1) after that reading.
 pub fn parse_confidence(value: &str) -> Option<f64> {
     let text = value.trim();
     let (number_text, percent) = match text.strip_suffix('%') {
@@ -115,7 +124,9 @@ pub fn parse_confidence(value: &str) -> Option<f64> {
         None => (text, false),
     };
     let number: f64 = number_text.parse().ok()?;
-    let level = if percent || number > 1.0 {
+    // A bare number above 1 is read as a percentage only where it plausibly is
+    // one (50 to 100); 1.5 is more likely a typing slip than 1.5%.
+    let level = if percent || (50.0..100.0).contains(&number) {
         number / 100.0
     } else {
         number
@@ -137,6 +148,18 @@ pub fn parse_direction(value: &str) -> Option<Direction> {
         }
         _ => None,
     }
+}
+
+/// Reads an interaction order: a whole number of at least 1 (`2` for two-factor
+/// interactions), or `all` / blank for every order the data allow. The outer `None`
+/// means the text could not be read.
+pub fn parse_interaction_order(value: &str) -> Option<Option<usize>> {
+    let text = value.trim().to_lowercase();
+    if text.is_empty() || text == "all" || text == "detect" {
+        return Some(None);
+    }
+    let order: usize = text.parse().ok()?;
+    (order >= 1).then_some(Some(order))
 }
 
 impl Settings {
@@ -192,6 +215,10 @@ impl Settings {
                     Some(level) => settings.confidence = Some(level),
                     None => errors.push(bad("a level between 0 and 1, such as 0.95 or 95%")),
                 },
+                "family confidence" => match parse_confidence(value) {
+                    Some(level) => settings.family_confidence = Some(level),
+                    None => errors.push(bad("a level between 0 and 1, such as 0.95 or 95%")),
+                },
                 "contrast" | "contrasts" => {
                     if !value.is_empty() {
                         settings.contrasts.push(value.to_string());
@@ -203,6 +230,10 @@ impl Settings {
                 },
                 "control" => settings.control = Some(value.to_string()).filter(|text| !text.is_empty()),
                 "output folder" => settings.out_dir = Some(value.to_string()).filter(|text| !text.is_empty()),
+                "interaction order" => match parse_interaction_order(value) {
+                    Some(order) => settings.interaction_order = order,
+                    None => errors.push(bad("a whole number of at least 1, or all")),
+                },
                 _ => errors.push(SettingsError::UnknownKey {
                     place: place.clone(),
                     key,
@@ -235,10 +266,12 @@ impl Settings {
             layout: pick(self.layout, &lower.layout),
             value_name: pick(self.value_name, &lower.value_name),
             confidence: pick(self.confidence, &lower.confidence),
+            family_confidence: pick(self.family_confidence, &lower.family_confidence),
             contrasts: pick_list(self.contrasts, &lower.contrasts),
             direction: pick(self.direction, &lower.direction),
             control: pick(self.control, &lower.control),
             out_dir: pick(self.out_dir, &lower.out_dir),
+            interaction_order: pick(self.interaction_order, &lower.interaction_order),
         }
     }
 
@@ -293,5 +326,12 @@ mod tests {
         assert_eq!(parse_direction("Lower is better"), Some(Direction::LowerIsBetter));
         assert_eq!(parse_confidence("95"), Some(0.95));
         assert_eq!(parse_confidence("0"), None);
+        assert_eq!(parse_interaction_order("2"), Some(Some(2)));
+        assert_eq!(parse_interaction_order("All"), Some(None));
+        assert_eq!(parse_interaction_order("0"), None);
+        let (read, errors) =
+            Settings::from_pairs_lenient(pairs(&[("Interaction order", "1"), ("interaction_order", "x")]));
+        assert_eq!(read.interaction_order, Some(1));
+        assert_eq!(errors.len(), 1);
     }
 }
