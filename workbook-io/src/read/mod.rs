@@ -8,6 +8,7 @@
 //! container; calamine's own panics are caught and become errors.
 
 mod guard;
+mod merged;
 
 use std::collections::HashMap;
 use std::fs::File;
@@ -533,6 +534,7 @@ impl Workbook {
         };
         let mut builder = GridBuilder::new(sheet, window, max_cells);
         let mut merged = Vec::new();
+        let mut skimmed_merged: Option<Vec<CellRect>> = None;
         let outcome = catch_unwind(AssertUnwindSafe(|| -> Result<bool, String> {
             match &mut self.inner {
                 Sheets::Xlsx(xlsx) => {
@@ -544,8 +546,13 @@ impl Workbook {
                         }
                     }
                     drop(reader);
-                    if let Ok(areas) = xlsx.merge_cells_by_sheet_name(sheet) {
-                        merged = areas;
+                    match merged::xlsx_merged_areas(&path, sheet) {
+                        Some(areas) => skimmed_merged = Some(areas),
+                        None => {
+                            if let Ok(areas) = xlsx.merge_cells_by_sheet_name(sheet) {
+                                merged = areas;
+                            }
+                        }
                     }
                 }
                 Sheets::Xlsb(xlsb) => {
@@ -607,6 +614,9 @@ impl Workbook {
                 last: CellPos::new(area.end.0, area.end.1),
             })
             .collect();
+        if let Some(areas) = skimmed_merged {
+            grid.merged = areas;
+        }
         Ok(grid)
     }
 }
