@@ -36,6 +36,16 @@ pub enum Command {
     Run(RunArgs),
     /// Show the table that would be analysed and every data problem, without analysing.
     Inspect(InspectArgs),
+    /// Answer a spreadsheet add-in or editor over JSON-RPC (Language Server Protocol framing) on stdio.
+    Serve(ServeArgs),
+}
+
+/// `trialyst serve`.
+#[derive(Debug, Args)]
+pub struct ServeArgs {
+    /// Serve one connection on a loopback TCP address (127.0.0.1:PORT) instead of stdio.
+    #[arg(long, value_name = "ADDRESS")]
+    pub listen: Option<String>,
 }
 
 /// Options that choose the table and the analysis.
@@ -294,6 +304,16 @@ pub fn main_with(cli: Cli) -> i32 {
     match cli.command {
         Command::Run(args) => run_command(args),
         Command::Inspect(args) => inspect_command(args),
+        Command::Serve(args) => {
+            let served = match &args.listen {
+                Some(address) => crate::lsp::serve_tcp(address),
+                None => crate::lsp::serve_stdio(),
+            };
+            served.unwrap_or_else(|error| {
+                eprintln!("trialyst: {}", error_chain(&error));
+                crate::lsp::EXIT_CANNOT_START
+            })
+        }
     }
 }
 

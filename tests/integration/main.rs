@@ -1,1 +1,3 @@
+//! Integration tests of trialyst, one module per area.
 
+mod lsp;
