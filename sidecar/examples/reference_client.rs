@@ -127,7 +127,10 @@ fn server_binary() -> PathBuf {
 fn show(title: &str, answer: &Value, limit: usize) {
     let text = serde_json::to_string_pretty(answer).unwrap_or_default();
     let shown: String = text.chars().take(limit).collect();
-    println!("== {title}\n{shown}{}\n", if text.len() > limit { "\n  ..." } else { "" });
+    println!(
+        "== {title}\n{shown}{}\n",
+        if text.len() > limit { "\n  ..." } else { "" }
+    );
 }
 
 /// Cell values as an add-in reads them: a header row of 8 conditions and
@@ -206,12 +209,22 @@ fn main() -> std::io::Result<()> {
         })
         .unwrap_or_default();
     show("trialyst/analyseWorkbook (verdicts)", &Value::Array(headline), 1_500);
-    let small = json!([["Old die", "New die"], [12.1, 12.6], [12.0, "#N/A"], [12.3, 12.8], [11.9, 12.7]]);
+    let small = json!([
+        ["Old die", "New die"],
+        [12.1, 12.6],
+        [12.0, "#N/A"],
+        [12.3, 12.8],
+        [11.9, 12.7]
+    ]);
     let cells = client.request(
         "trialyst/analyseCells",
         json!({"cells": small, "origin": "B3", "sheet": "Die trial"}),
     )?;
-    show("trialyst/analyseCells (findings)", &cells["result"]["results"]["findings"], 800);
+    show(
+        "trialyst/analyseCells (findings)",
+        &cells["result"]["results"]["findings"],
+        800,
+    );
     if let Some(first) = cells["result"]["tables"].get(1) {
         show("trialyst/analyseCells (second result table)", first, 1_500);
     }

@@ -39,7 +39,16 @@ fn trialyst_binary() -> PathBuf {
                 Some(other) => other.to_string(),
             };
             let status = Command::new(env!("CARGO"))
-                .args(["build", "--quiet", "-p", "sidecar", "--bin", "trialyst", "--profile", &profile])
+                .args([
+                    "build",
+                    "--quiet",
+                    "-p",
+                    "sidecar",
+                    "--bin",
+                    "trialyst",
+                    "--profile",
+                    &profile,
+                ])
                 .arg("--target-dir")
                 .arg(&target_dir)
                 .current_dir(env!("CARGO_MANIFEST_DIR"))
@@ -145,7 +154,8 @@ impl Session {
             .spawn()
             .expect("trialyst serve starts");
         let stdout = child.stdout.take().expect("piped stdout");
-        let stdin: Option<Box<dyn Write + Send>> = child.stdin.take().map(|stdin| Box::new(stdin) as Box<dyn Write + Send>);
+        let stdin: Option<Box<dyn Write + Send>> =
+            child.stdin.take().map(|stdin| Box::new(stdin) as Box<dyn Write + Send>);
         let writer: SharedWriter = Arc::new(Mutex::new(stdin));
         let inbox = Arc::new(Inbox {
             received: Mutex::new(Received::default()),
@@ -319,7 +329,9 @@ fn a_whole_session_over_stdio() {
     let answer = session.initialize();
     assert_eq!(answer["result"]["serverInfo"]["name"], "trialyst");
     let requests = &answer["result"]["capabilities"]["experimental"]["trialyst"]["requests"];
-    assert!(requests.as_array().is_some_and(|list| list.contains(&json!("trialyst/analyseCells"))));
+    assert!(requests
+        .as_array()
+        .is_some_and(|list| list.contains(&json!("trialyst/analyseCells"))));
 
     let inspected = session.request("trialyst/inspectWorkbook", json!({"path": path_text}));
     assert_eq!(inspected["result"]["findings"][0]["cell"], "B3", "{inspected}");
@@ -330,7 +342,11 @@ fn a_whole_session_over_stdio() {
         json!({"path": path_text, "sheet": "Trial", "range": "A1:C7", "workDoneToken": 99}),
     );
     let results = &analysed["result"];
-    assert_eq!(results["format_version"], sidecar::service::RESULTS_FORMAT_VERSION, "{analysed}");
+    assert_eq!(
+        results["format_version"],
+        sidecar::service::RESULTS_FORMAT_VERSION,
+        "{analysed}"
+    );
     assert_eq!(results["source"]["range"], "A1:C7");
     assert_eq!(results["responses"][0]["status"], "analysed");
     let kinds = session.wait_for(|received| {
@@ -356,11 +372,17 @@ fn a_whole_session_over_stdio() {
     // Block row 2, column 1 (zero-based) from B2: C4.
     assert_eq!(cells["result"]["results"]["findings"][0]["cell"], "C4", "{cells}");
     assert_eq!(cells["result"]["results"]["findings"][0]["kind"], "error-value");
-    assert!(cells["result"]["tables"].as_array().is_some_and(|tables| !tables.is_empty()));
+    assert!(cells["result"]["tables"]
+        .as_array()
+        .is_some_and(|tables| !tables.is_empty()));
 
     let written = session.request("trialyst/writeResults", json!({"path": path_text}));
     let results_file = sidecar::service::results_path_for(&path, None);
-    assert_eq!(written["result"]["resultsFile"], results_file.display().to_string(), "{written}");
+    assert_eq!(
+        written["result"]["resultsFile"],
+        results_file.display().to_string(),
+        "{written}"
+    );
     assert!(results_file.is_file());
 
     let unknown = session.request("trialyst/planTrial", json!({}));
@@ -374,10 +396,16 @@ fn a_whole_session_over_stdio() {
         json!({"textDocument": {"uri": uri, "languageId": "workbook", "version": 1, "text": ""}}),
     );
     let published = session.notification("textDocument/publishDiagnostics", |message| {
-        message["params"]["diagnostics"].as_array().is_some_and(|list| !list.is_empty())
+        message["params"]["diagnostics"]
+            .as_array()
+            .is_some_and(|list| !list.is_empty())
     });
     let diagnostic = &published["params"]["diagnostics"][0];
-    assert_eq!(diagnostic["range"]["start"], json!({"line": 2, "character": 1}), "{published}");
+    assert_eq!(
+        diagnostic["range"]["start"],
+        json!({"line": 2, "character": 1}),
+        "{published}"
+    );
     assert_eq!(diagnostic["data"]["cell"], "B3");
     assert!(diagnostic["message"].as_str().unwrap_or("").starts_with("Trial!B3"));
     write_trial(&path, 3, 6, None);
@@ -431,9 +459,15 @@ fn cancelling_a_long_analysis_stops_it() {
     // LSP 3.17: -32800 request cancelled.
     assert_eq!(error_code(&answer), -32800, "{answer}");
     let stopped = session.notification("window/logMessage", |message| {
-        message["params"]["message"].as_str().unwrap_or("").starts_with("stopped")
+        message["params"]["message"]
+            .as_str()
+            .unwrap_or("")
+            .starts_with("stopped")
     });
-    assert!(stopped["params"]["message"].as_str().unwrap_or("").contains("large.xlsx"));
+    assert!(stopped["params"]["message"]
+        .as_str()
+        .unwrap_or("")
+        .contains("large.xlsx"));
     let end = session.notification("$/progress", |message| message["params"]["value"]["kind"] == "end");
     assert_eq!(end["params"]["value"]["message"], "cancelled");
     // The server is still there.
@@ -483,7 +517,12 @@ fn bad_input_never_crashes_or_hangs_the_server() {
         received
             .unmatched
             .iter()
-            .find(|answer| answer["error"]["message"].as_str().unwrap_or("").contains("larger than the limit"))
+            .find(|answer| {
+                answer["error"]["message"]
+                    .as_str()
+                    .unwrap_or("")
+                    .contains("larger than the limit")
+            })
             .cloned()
     });
     // JSON-RPC 2.0, section 5.1: -32600 invalid request.
@@ -493,9 +532,15 @@ fn bad_input_never_crashes_or_hangs_the_server() {
     let answer = session.request("trialyst/analyseCells", json!({"cells": [[1, 2], {"x": 1}]}));
     assert_eq!(error_code(&answer), -32602, "{answer}");
     assert_eq!(answer["error"]["data"]["field"], "params.cells[1]");
-    let answer = session.request("trialyst/analyseWorkbook", json!({"path": text_file.display().to_string()}));
+    let answer = session.request(
+        "trialyst/analyseWorkbook",
+        json!({"path": text_file.display().to_string()}),
+    );
     assert_eq!(answer["error"]["data"]["kind"], "not-a-workbook", "{answer}");
-    assert!(answer["error"]["message"].as_str().unwrap_or("").contains("minutes.xlsx"));
+    assert!(answer["error"]["message"]
+        .as_str()
+        .unwrap_or("")
+        .contains("minutes.xlsx"));
     assert_eq!(session.finish(), Some(0));
 }
 
@@ -525,15 +570,27 @@ fn listen_takes_loopback_addresses_only() {
     let mut stream = std::net::TcpStream::connect(&address).expect("the server accepts");
     let _ = stream.set_read_timeout(Some(WAIT));
     let initialize = json!({"jsonrpc": "2.0", "id": 1, "method": "initialize", "params": {"capabilities": {}}});
+    let _ = stream.write_all(&frame(initialize.to_string().as_bytes()));
+    // Wait for the answer before going on, as a client does.
+    let mut output = Vec::new();
+    let mut chunk = [0u8; 4096];
+    while !String::from_utf8_lossy(&output).contains("\"serverInfo\"") {
+        match stream.read(&mut chunk) {
+            Ok(0) | Err(_) => break,
+            Ok(read) => output.extend_from_slice(&chunk[..read]),
+        }
+    }
+    let text = String::from_utf8_lossy(&output).into_owned();
+    assert!(text.contains("\"name\":\"trialyst\""), "{text}");
     let shutdown = json!({"jsonrpc": "2.0", "id": 2, "method": "shutdown"});
     let exit = json!({"jsonrpc": "2.0", "method": "exit"});
-    for message in [initialize, shutdown, exit] {
+    for message in [shutdown, exit] {
         let _ = stream.write_all(&frame(message.to_string().as_bytes()));
     }
-    let mut output = Vec::new();
-    let _ = stream.read_to_end(&mut output);
-    let text = String::from_utf8_lossy(&output);
-    assert!(text.contains("\"serverInfo\""), "{text}");
+    let mut rest = Vec::new();
+    let _ = stream.read_to_end(&mut rest);
+    let text = String::from_utf8_lossy(&rest);
+    assert!(text.contains("\"id\":2") && text.contains("\"result\":null"), "{text}");
     let deadline = Instant::now() + WAIT;
     let code = loop {
         match child.try_wait() {

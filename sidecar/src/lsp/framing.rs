@@ -77,7 +77,8 @@ fn find_ignoring_case(haystack: &[u8], needle: &[u8]) -> Option<usize> {
     if needle.len() > haystack.len() {
         return None;
     }
-    (0..=haystack.len() - needle.len()).find(|&start| haystack[start..start + needle.len()].eq_ignore_ascii_case(needle))
+    (0..=haystack.len() - needle.len())
+        .find(|&start| haystack[start..start + needle.len()].eq_ignore_ascii_case(needle))
 }
 
 fn find(haystack: &[u8], needle: &[u8]) -> Option<usize> {
@@ -102,7 +103,10 @@ fn parse_header_block(block: &[u8]) -> Header {
     let mut length = None;
     for line in text.split("\r\n").filter(|line| !line.is_empty()) {
         let Some((name, value)) = line.split_once(':') else {
-            return Header::Bad(format!("the header line '{}' has no ':'", line.chars().take(80).collect::<String>()));
+            return Header::Bad(format!(
+                "the header line '{}' has no ':'",
+                line.chars().take(80).collect::<String>()
+            ));
         };
         let name = name.trim();
         let value = value.trim();
@@ -163,8 +167,12 @@ fn check_body(body: &[u8]) -> Result<(), Vec<u8>> {
 /// Reads messages from `input`, forwards the well-formed ones to `forward`,
 /// and sends error answers for the others to `answers`. Returns at the end of
 /// the input or when the forward side is closed.
-pub async fn guard_input<R, W>(mut input: R, mut forward: W, answers: mpsc::UnboundedSender<Vec<u8>>, options: FramingOptions)
-where
+pub async fn guard_input<R, W>(
+    mut input: R,
+    mut forward: W,
+    answers: mpsc::UnboundedSender<Vec<u8>>,
+    options: FramingOptions,
+) where
     R: AsyncRead + Unpin,
     W: AsyncWrite + Unpin,
 {
@@ -181,7 +189,10 @@ where
                 if start > 0 {
                     let skipped_text = String::from_utf8_lossy(&buffer[..start]);
                     let harmless = skipped_text.trim().is_empty()
-                        || skipped_text.trim_start().to_ascii_lowercase().starts_with("content-type");
+                        || skipped_text
+                            .trim_start()
+                            .to_ascii_lowercase()
+                            .starts_with("content-type");
                     if !harmless && !in_garbage {
                         let _ = answers.send(error_frame(
                             Value::Null,
@@ -428,7 +439,10 @@ mod tests {
         expected.extend_from_slice(&frame(EXIT));
         assert_eq!(forwarded, expected);
         // JSON-RPC 2.0 specification, section 5.1: -32700 parse error, -32600 invalid request.
-        let codes: Vec<i64> = answers.iter().map(|answer| answer["error"]["code"].as_i64().unwrap_or(0)).collect();
+        let codes: Vec<i64> = answers
+            .iter()
+            .map(|answer| answer["error"]["code"].as_i64().unwrap_or(0))
+            .collect();
         assert_eq!(codes, vec![-32700, -32600, -32600, -32700, -32700], "{answers:?}");
         assert_eq!(answers[1]["id"], 7, "a readable id is answered");
         assert!(answers[3]["error"]["message"].as_str().unwrap_or("").contains("twelve"));
@@ -447,7 +461,10 @@ mod tests {
         assert_eq!(forwarded, frame(EXIT));
         assert_eq!(answers.len(), 1);
         assert_eq!(answers[0]["error"]["code"], -32600);
-        assert!(answers[0]["error"]["message"].as_str().unwrap_or("").contains("5000 bytes"));
+        assert!(answers[0]["error"]["message"]
+            .as_str()
+            .unwrap_or("")
+            .contains("5000 bytes"));
     }
 
     #[tokio::test]
@@ -485,7 +502,9 @@ mod tests {
         // Half a message, then a guard answer, then the rest.
         let (head, tail) = message.split_at(10);
         let _ = server_writer.write_all(head).await;
-        let _ = answers_tx.send(frame(br#"{"jsonrpc":"2.0","id":null,"error":{"code":-32700,"message":"x"}}"#));
+        let _ = answers_tx.send(frame(
+            br#"{"jsonrpc":"2.0","id":null,"error":{"code":-32700,"message":"x"}}"#,
+        ));
         tokio::time::sleep(Duration::from_millis(20)).await;
         let _ = server_writer.write_all(tail).await;
         drop(server_writer);

@@ -105,7 +105,10 @@ fn work_done_token(map: &Map<String, Value>) -> Result<Option<ProgressToken>, Pa
         Some(Value::String(text)) => Ok(Some(NumberOrString::String(text.clone()))),
         Some(Value::Number(number)) => match number.as_i64().and_then(|whole| i32::try_from(whole).ok()) {
             Some(whole) => Ok(Some(NumberOrString::Number(whole))),
-            None => Err(error("params.workDoneToken", "a number token must be a whole 32-bit number")),
+            None => Err(error(
+                "params.workDoneToken",
+                "a number token must be a whole 32-bit number",
+            )),
         },
         Some(other) => Err(error(
             "params.workDoneToken",
@@ -142,7 +145,10 @@ pub fn settings(value: Option<&Value>) -> Result<Settings, ParamsError> {
             match item {
                 Value::String(text) => Ok(text.clone()),
                 Value::Number(number) => Ok(number.to_string()),
-                other => Err(error(place, format!("expected text or a number, got {}", describe(other)))),
+                other => Err(error(
+                    place,
+                    format!("expected text or a number, got {}", describe(other)),
+                )),
             }
         };
         match value {
@@ -262,8 +268,21 @@ pub struct CellsParams {
 /// Spreadsheet error values, as a spreadsheet's scripting interface reports
 /// them in cell values.
 const ERROR_TEXTS: &[&str] = &[
-    "#N/A", "#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#NULL!", "#SPILL!", "#CALC!", "#FIELD!", "#BUSY!",
-    "#GETTING_DATA", "#BLOCKED!", "#CONNECT!", "#UNKNOWN!",
+    "#N/A",
+    "#DIV/0!",
+    "#VALUE!",
+    "#REF!",
+    "#NAME?",
+    "#NUM!",
+    "#NULL!",
+    "#SPILL!",
+    "#CALC!",
+    "#FIELD!",
+    "#BUSY!",
+    "#GETTING_DATA",
+    "#BLOCKED!",
+    "#CONNECT!",
+    "#UNKNOWN!",
 ];
 
 /// Reads the params of `trialyst/analyseCells`: `cells` (rows of values),
@@ -295,7 +314,10 @@ pub fn cells_params(params: &Value) -> Result<CellsParams, ParamsError> {
         Some(other) => {
             return Err(error(
                 "params.cells",
-                format!("expected a list of rows, each a list of cell values, got {}", describe(other)),
+                format!(
+                    "expected a list of rows, each a list of cell values, got {}",
+                    describe(other)
+                ),
             ))
         }
         None => return Err(error("params.cells", "missing; give the cell values as a list of rows")),
@@ -406,14 +428,20 @@ mod tests {
         let grid = &read.grid;
         assert_eq!(grid.name, "Week 3");
         // C5 is zero-based row 4, column 2 (A1 notation: common practice).
-        assert_eq!(grid.get(CellPos::new(4, 2)).map(|value| grid.display(value)), Some("Line A".into()));
+        assert_eq!(
+            grid.get(CellPos::new(4, 2)).map(|value| grid.display(value)),
+            Some("Line A".into())
+        );
         assert_eq!(grid.get(CellPos::new(5, 2)), Some(CellValue::Number(1.5)));
         assert!(matches!(grid.get(CellPos::new(5, 3)), Some(CellValue::Error(_))));
         assert_eq!(grid.get(CellPos::new(6, 2)), None, "null is a blank");
         assert_eq!(grid.get(CellPos::new(6, 3)), Some(CellValue::Bool(true)));
         assert_eq!(grid.get(CellPos::new(7, 2)), None, "empty text is a blank");
         assert_eq!(read.n_cells, 6);
-        let sorted = grid.cells.windows(2).all(|pair| (pair[0].0.row, pair[0].0.col) < (pair[1].0.row, pair[1].0.col));
+        let sorted = grid
+            .cells
+            .windows(2)
+            .all(|pair| (pair[0].0.row, pair[0].0.col) < (pair[1].0.row, pair[1].0.col));
         assert!(sorted);
     }
 
@@ -429,9 +457,18 @@ mod tests {
         check(json!({"cells": [[1], 7]}), "params.cells[1]");
         check(json!({"cells": [[1, {"a": 1}]]}), "params.cells[0][1]");
         check(json!({"cells": [[1]], "origin": "not a cell"}), "params.origin");
-        check(json!({"cells": [[1]], "settings": {"confidence": "150%"}}), "params.settings.confidence");
-        check(json!({"cells": [[1]], "settings": {"colour": "blue"}}), "params.settings.colour");
-        check(json!({"cells": [[1]], "settings": {"response": [1, true]}}), "params.settings.response[1]");
+        check(
+            json!({"cells": [[1]], "settings": {"confidence": "150%"}}),
+            "params.settings.confidence",
+        );
+        check(
+            json!({"cells": [[1]], "settings": {"colour": "blue"}}),
+            "params.settings.colour",
+        );
+        check(
+            json!({"cells": [[1]], "settings": {"response": [1, true]}}),
+            "params.settings.response[1]",
+        );
         check(json!({"cells": [[1]], "workDoneToken": [1]}), "params.workDoneToken");
         let workbook = |params: Value| workbook_params(&params).map(|_| ()).unwrap_err_field();
         assert_eq!(workbook(json!({})), "params.path");
@@ -467,7 +504,8 @@ mod tests {
         assert_eq!(read.responses, vec!["Gloss", "Haze"]);
         assert_eq!(read.contrasts.len(), 2);
         assert_eq!(read.value_name.as_deref(), Some("Thickness"));
-        let paths = workbook_params(&json!({"path": "week 3.xlsx", "sheet": "Trial", "range": "B2:D9"})).expect("valid");
+        let paths =
+            workbook_params(&json!({"path": "week 3.xlsx", "sheet": "Trial", "range": "B2:D9"})).expect("valid");
         assert_eq!(paths.path, PathBuf::from("week 3.xlsx"));
         assert_eq!(paths.settings.sheet.as_deref(), Some("Trial"));
         assert_eq!(paths.settings.range.as_deref(), Some("B2:D9"));

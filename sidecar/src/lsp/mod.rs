@@ -178,9 +178,7 @@ pub fn serve_tcp(address: &str) -> Result<i32, ServeError> {
             source,
         })?;
         let (reader, writer) = stream.into_split();
-        Ok::<i32, ServeError>(
-            serve_session(reader, writer, ServerOptions::default(), FramingOptions::default()).await,
-        )
+        Ok::<i32, ServeError>(serve_session(reader, writer, ServerOptions::default(), FramingOptions::default()).await)
     });
     runtime.shutdown_background();
     code

@@ -18,9 +18,8 @@ use tokio::sync::mpsc;
 use tower_lsp_server::jsonrpc::{Error, ErrorCode, Result};
 use tower_lsp_server::ls_types::{
     DidChangeWatchedFilesParams, DidCloseTextDocumentParams, DidOpenTextDocumentParams, FileChangeType,
-    InitializeParams, InitializeResult, InitializedParams, MessageType, NumberOrString, ProgressToken,
-    Registration, ServerCapabilities, ServerInfo, TextDocumentSyncCapability, TextDocumentSyncKind,
-    TextDocumentSyncOptions,
+    InitializeParams, InitializeResult, InitializedParams, MessageType, NumberOrString, ProgressToken, Registration,
+    ServerCapabilities, ServerInfo, TextDocumentSyncCapability, TextDocumentSyncKind, TextDocumentSyncOptions,
 };
 use tower_lsp_server::{Client, LanguageServer, LspService};
 use workbook_io::ReadError;
@@ -260,7 +259,13 @@ impl Shared {
             None => None,
         };
         let ongoing = match token {
-            Some(token) => Some(self.client.progress(token, title).with_message("starting").begin().await),
+            Some(token) => Some(
+                self.client
+                    .progress(token, title)
+                    .with_message("starting")
+                    .begin()
+                    .await,
+            ),
             None => None,
         };
         Progress { ongoing }
@@ -316,7 +321,11 @@ impl Shared {
         let read = from_proto::workbook_params(&params).map_err(params_error)?;
         let what = format!("inspecting '{}'", read.path.display());
         let progress = self
-            .begin_progress(read.work_done_token.clone(), self.is_large_file(&read.path), what.clone())
+            .begin_progress(
+                read.work_done_token.clone(),
+                self.is_large_file(&read.path),
+                what.clone(),
+            )
             .await;
         let request = AnalysisRequest {
             settings: read.settings,
@@ -337,7 +346,11 @@ impl Shared {
         let read = from_proto::workbook_params(&params).map_err(params_error)?;
         let what = format!("analysing '{}'", read.path.display());
         let progress = self
-            .begin_progress(read.work_done_token.clone(), self.is_large_file(&read.path), what.clone())
+            .begin_progress(
+                read.work_done_token.clone(),
+                self.is_large_file(&read.path),
+                what.clone(),
+            )
             .await;
         let request = AnalysisRequest {
             settings: read.settings,
@@ -358,7 +371,9 @@ impl Shared {
         let read = from_proto::cells_params(&params).map_err(params_error)?;
         let what = format!("analysing {} cell values", read.n_cells);
         let large = read.n_cells >= self.options.progress_above_cells;
-        let progress = self.begin_progress(read.work_done_token.clone(), large, what.clone()).await;
+        let progress = self
+            .begin_progress(read.work_done_token.clone(), large, what.clone())
+            .await;
         let outcome = self
             .run_blocking(&progress, move || {
                 let results = service::analyse_grid(&read.grid, &read.settings, &read.source_name, &cancel)?;
@@ -395,6 +410,15 @@ impl Shared {
                 let results = service::analyse_workbook(&path, &request)?;
                 if request.cancel.is_cancelled() {
                     return Err(ServiceError::Cancelled);
+                }
+                // As on the command line, a named output folder is made if missing.
+                if let Some(folder) = &output_folder {
+                    std::fs::create_dir_all(folder).map_err(|source| {
+                        ServiceError::Write(workbook_io::write::WriteError::Io {
+                            path: folder.clone(),
+                            source,
+                        })
+                    })?;
                 }
                 let destination = service::results_path_for(&path, output_folder.as_deref());
                 service::write_results(&results, &destination)?;

@@ -30,9 +30,7 @@ pub fn sheet_table(sheet: &Sheet) -> Json {
         let (row, col) = (placed.row as usize, placed.col as usize);
         let (value, format) = match &placed.value {
             Value::Text(text) => (Json::from(text.as_str()), NumberFormat::General.code()),
-            Value::Number(number, number_format) if number.is_finite() => {
-                (Json::from(*number), number_format.code())
-            }
+            Value::Number(number, number_format) if number.is_finite() => (Json::from(*number), number_format.code()),
             // As in the results workbook, a number that is not finite is shown in words.
             Value::Number(number, _) => {
                 let shown = if number.is_nan() {
