@@ -161,6 +161,8 @@ pub struct ResponseResult {
     pub unit: Option<String>,
     /// What defines a condition: the factor name, or the factors joined by " × ".
     pub condition_factor: String,
+    /// Simultaneous comparisons, model checks and the lead analysis, when analysed.
+    pub assessment: Option<Box<crate::analysis::assessment::Assessment>>,
     /// The plain-language reading, when analysed.
     pub verdict: Option<crate::analysis::verdict::Verdict>,
     /// The outcome.
@@ -420,7 +422,7 @@ fn table_request(settings: &Settings, range: Option<CellRect>) -> TableRequest {
 fn settings_sources(command: &Settings, sheet: &Settings, folder: &Settings) -> Vec<(String, String)> {
     let describe = |settings: &Settings| -> Vec<&'static str> {
         let mut keys = Vec::new();
-        let checks: [(&'static str, bool); 12] = [
+        let checks: [(&'static str, bool); 13] = [
             ("sheet", settings.sheet.is_some()),
             ("range", settings.range.is_some()),
             ("response", !settings.responses.is_empty()),
@@ -429,6 +431,7 @@ fn settings_sources(command: &Settings, sheet: &Settings, folder: &Settings) -> 
             ("layout", settings.layout.is_some()),
             ("value name", settings.value_name.is_some()),
             ("confidence", settings.confidence.is_some()),
+            ("family confidence", settings.family_confidence.is_some()),
             ("contrast", !settings.contrasts.is_empty()),
             ("direction", settings.direction.is_some()),
             ("control", settings.control.is_some()),
@@ -751,17 +754,41 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
                 reason: error.to_string(),
             },
         };
+        let assessment = match &outcome {
+            ResponseOutcome::Analysed { one_way } => {
+                let mut assessment = assess_response(one_way, &groups, &counts, &response.values, &settings);
+                for outlier in &mut assessment.checks.outliers {
+                    let cell = table.value_cell(response_index, outlier.record).a1();
+                    findings.push(Finding {
+                        kind: FindingKind::Analysis,
+                        sheet: table.sheet.clone(),
+                        cell: Some(cell.clone()),
+                        found: format!("{}", outlier.value),
+                        action: "kept in the analysis; flagged for checking".into(),
+                        message: format!(
+                            "the value {} of condition '{}' in '{}' stands out (externally studentized residual {:.2}, Bonferroni p = {:.3}); check it",
+                            outlier.value, outlier.condition, response.name, outlier.studentized, outlier.p_bonferroni
+                        ),
+                    });
+                    outlier.cell = Some(cell);
+                }
+                Some(Box::new(assessment))
+            }
+            ResponseOutcome::NotAnalysed { .. } => None,
+        };
         let unit = unit_of(&response.name);
         let verdict = match &outcome {
             ResponseOutcome::Analysed { one_way } => Some(crate::analysis::verdict::read_fit(
                 &response.name,
                 unit.as_deref(),
                 one_way,
+                assessment.as_deref(),
             )),
             ResponseOutcome::NotAnalysed { .. } => None,
         };
         responses.push(ResponseResult {
             name: response.name.clone(),
+            assessment,
             unit,
             verdict,
             condition_factor: condition_factor.clone(),
@@ -797,6 +824,38 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
         cautions: standard_cautions(),
         timings,
     })
+}
+
+/// Builds the per-condition values (in record order, with their records)
+/// that the comparisons and checks need, and runs them.
+fn assess_response(
+    fit: &OneWayFit,
+    groups: &[u32],
+    counts: &[usize],
+    values: &[f64],
+    settings: &Settings,
+) -> crate::analysis::assessment::Assessment {
+    // The fit keeps conditions with at least one value, in their original order.
+    let kept: Vec<usize> = (0..counts.len()).filter(|&index| counts[index] > 0).collect();
+    let mut position_of = vec![usize::MAX; counts.len()];
+    for (position, &index) in kept.iter().enumerate() {
+        position_of[index] = position;
+    }
+    let mut group_values: Vec<Vec<f64>> = kept.iter().map(|&index| Vec::with_capacity(counts[index])).collect();
+    let mut group_records: Vec<Vec<usize>> = kept.iter().map(|&index| Vec::with_capacity(counts[index])).collect();
+    for (record, (&group, &value)) in groups.iter().zip(values).enumerate() {
+        let position = position_of[group as usize];
+        if value.is_finite() && position != usize::MAX {
+            group_values[position].push(value);
+            group_records[position].push(record);
+        }
+    }
+    let options = crate::analysis::assessment::AssessmentOptions {
+        family_confidence: settings.family_confidence,
+        direction: settings.direction,
+        control: settings.control.clone(),
+    };
+    crate::analysis::assessment::assess(fit, &group_values, &group_records, &options)
 }
 
 /// The current time, RFC 3339 in UTC.

@@ -45,6 +45,8 @@ pub struct Settings {
     pub value_name: Option<String>,
     /// Confidence level of intervals.
     pub confidence: Option<f64>,
+    /// Family confidence of simultaneous intervals (default: the confidence).
+    pub family_confidence: Option<f64>,
     /// Linear combinations of condition means, in the contrast syntax.
     pub contrasts: Vec<String>,
     /// Which way is better.
@@ -93,6 +95,7 @@ pub const KNOWN_KEYS: &[&str] = &[
     "layout",
     "value name",
     "confidence",
+    "family confidence",
     "contrast",
     "direction",
     "control",
@@ -108,6 +111,8 @@ fn list(value: &str) -> Vec<String> {
 }
 
 /// Reads a confidence level given as 0.95, 95 or 95%.
+///
+/// Returns `None` for anything outside (0, 1) after that reading.
 pub fn parse_confidence(value: &str) -> Option<f64> {
     let text = value.trim();
     let (number_text, percent) = match text.strip_suffix('%') {
@@ -115,7 +120,9 @@ pub fn parse_confidence(value: &str) -> Option<f64> {
         None => (text, false),
     };
     let number: f64 = number_text.parse().ok()?;
-    let level = if percent || number > 1.0 {
+    // A bare number above 1 is read as a percentage only where it plausibly is
+    // one (50 to 100); 1.5 is more likely a typing slip than 1.5%.
+    let level = if percent || (50.0..100.0).contains(&number) {
         number / 100.0
     } else {
         number
@@ -192,6 +199,10 @@ impl Settings {
                     Some(level) => settings.confidence = Some(level),
                     None => errors.push(bad("a level between 0 and 1, such as 0.95 or 95%")),
                 },
+                "family confidence" => match parse_confidence(value) {
+                    Some(level) => settings.family_confidence = Some(level),
+                    None => errors.push(bad("a level between 0 and 1, such as 0.95 or 95%")),
+                },
                 "contrast" | "contrasts" => {
                     if !value.is_empty() {
                         settings.contrasts.push(value.to_string());
@@ -235,6 +246,7 @@ impl Settings {
             layout: pick(self.layout, &lower.layout),
             value_name: pick(self.value_name, &lower.value_name),
             confidence: pick(self.confidence, &lower.confidence),
+            family_confidence: pick(self.family_confidence, &lower.family_confidence),
             contrasts: pick_list(self.contrasts, &lower.contrasts),
             direction: pick(self.direction, &lower.direction),
             control: pick(self.control, &lower.control),

@@ -6,6 +6,8 @@
 
 use serde::Serialize;
 
+use crate::analysis::assessment::{Assessment, LeadAnalysis};
+use crate::analysis::comparisons::PairFamily;
 use crate::analysis::oneway::{OneWayFit, PairDifference};
 
 /// The reading of one response.
@@ -60,11 +62,37 @@ fn with_unit(value: f64, unit: Option<&str>) -> String {
     }
 }
 
-/// Reads a fit in plain words.
-pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit) -> Verdict {
+/// The pair family of the lead analysis, when it could be computed.
+pub fn lead_family(assessment: &Assessment) -> Option<&PairFamily> {
+    match assessment.lead {
+        LeadAnalysis::UnequalSpreads => assessment.games_howell.as_ref(),
+        _ => assessment.tukey_kramer.as_ref(),
+    }
+}
+
+/// The lead analysis's p-value for "all conditions alike".
+pub fn lead_p(fit: &OneWayFit, assessment: Option<&Assessment>) -> f64 {
+    match assessment.map(|assessment| (assessment.lead, assessment)) {
+        Some((LeadAnalysis::UnequalSpreads, assessment)) => assessment.welch.as_ref().map_or(f64::NAN, |welch| welch.p),
+        Some((LeadAnalysis::RankBased, assessment)) => assessment.rank_based.as_ref().map_or(f64::NAN, |ranks| ranks.p),
+        _ => fit.between().p.unwrap_or(f64::NAN),
+    }
+}
+
+/// The lead analysis's name, for sentences and tables.
+pub fn lead_name(assessment: Option<&Assessment>) -> &'static str {
+    match assessment.map(|assessment| assessment.lead) {
+        Some(LeadAnalysis::UnequalSpreads) => "Welch's ANOVA with Games-Howell pairs",
+        Some(LeadAnalysis::RankBased) => "Kruskal-Wallis with Dunn's pairs",
+        _ => "one-way ANOVA with Tukey-Kramer pairs",
+    }
+}
+
+/// Reads a fit in plain words, leading with the analysis whose assumptions hold.
+pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment: Option<&Assessment>) -> Verdict {
     let percent = round_for_text(fit.confidence * 100.0, 3);
     let alpha = 1.0 - fit.confidence;
-    let p = fit.between().p.unwrap_or(f64::NAN);
+    let p = lead_p(fit, assessment);
     let conditions_differ = if p.is_nan() { None } else { Some(p < alpha) };
     let headline = match conditions_differ {
         Some(true) => format!(
@@ -80,6 +108,13 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit) -> Verdict 
         ),
     };
     let mut details = Vec::new();
+    if let Some(assessment) = assessment {
+        details.push(format!(
+            "Analysis used: {}. {}",
+            lead_name(Some(assessment)),
+            assessment.lead_reason
+        ));
+    }
     if let (Some(highest), Some(lowest)) = (
         fit.conditions.iter().max_by(|a, b| a.mean.total_cmp(&b.mean)),
         fit.conditions.iter().min_by(|a, b| a.mean.total_cmp(&b.mean)),
@@ -94,27 +129,50 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit) -> Verdict 
             lowest.n
         ));
     }
+    let family = assessment.and_then(lead_family);
+    if let Some(best) = assessment.and_then(|assessment| assessment.best.as_ref()) {
+        let family_percent = round_for_text(best.family_confidence * 100.0, 3);
+        details.push(if best.could_be_best.len() == 1 {
+            format!("Best condition: {} is the best at {family_percent}% family confidence.", best.could_be_best[0])
+        } else {
+            format!(
+                "Best condition: the trial cannot separate {} — any of them could be the best at {family_percent}% family confidence.",
+                best.could_be_best.join(", ")
+            )
+        });
+    }
     if let Some(largest) = largest_difference(fit) {
-        let (first, second, difference, low, high) = if largest.difference >= 0.0 {
-            (
-                &largest.first,
-                &largest.second,
-                largest.difference,
+        let simultaneous = family.and_then(|family| {
+            family
+                .pairs
+                .iter()
+                .find(|pair| pair.first == largest.first && pair.second == largest.second)
+                .map(|pair| (pair.low, pair.high, family))
+        });
+        let (low, high, interval_kind) = match simultaneous {
+            Some((low, high, family)) => (
+                low,
+                high,
+                format!(
+                    "{}% {} interval, allowing for all the pairs",
+                    round_for_text(family.family_confidence * 100.0, 3),
+                    family.method.label()
+                ),
+            ),
+            None => (
                 largest.low,
                 largest.high,
-            )
+                format!("{percent}% interval for this one pair"),
+            ),
+        };
+        let (first, second, difference, low, high) = if largest.difference >= 0.0 {
+            (&largest.first, &largest.second, largest.difference, low, high)
         } else {
-            (
-                &largest.second,
-                &largest.first,
-                -largest.difference,
-                -largest.high,
-                -largest.low,
-            )
+            (&largest.second, &largest.first, -largest.difference, -high, -low)
         };
         let interval = if low.is_finite() && high.is_finite() {
             format!(
-                "; the {percent}% interval for it runs from {} to {} (an interval for this one pair, not adjusted for the other pairs)",
+                " ({interval_kind}: {} to {})",
                 with_unit(low, unit),
                 with_unit(high, unit)
             )
@@ -125,6 +183,23 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit) -> Verdict 
             "Largest difference: {first} minus {second} = {}{interval}.",
             with_unit(difference, unit)
         ));
+    }
+    if let Some(family) = family {
+        let groups: Vec<String> = family
+            .letters
+            .iter()
+            .map(|(name, letters)| format!("{name} [{letters}]"))
+            .collect();
+        details.push(format!(
+            "Grouping ({}): conditions sharing a letter were not found different — {}.",
+            family.method.label(),
+            groups.join(", ")
+        ));
+    }
+    if let Some(assessment) = assessment {
+        for reading in &assessment.checks.readings {
+            details.push(format!("Check — {reading}"));
+        }
     }
     if fit.pooled_sd.is_finite() {
         details.push(format!(
@@ -172,7 +247,7 @@ mod tests {
             &[],
         )
         .expect("fits");
-        let verdict = read_fit("Hardness (HV)", Some("HV"), &fit);
+        let verdict = read_fit("Hardness (HV)", Some("HV"), &fit, None);
         assert_eq!(verdict.conditions_differ, Some(true));
         assert!(
             verdict.headline.starts_with("The conditions differ"),

@@ -4,6 +4,8 @@
 //! Sheets: a summary in plain words, condition statistics, the ANOVA table,
 //! pairwise differences, contrasts, data problems, and provenance.
 
+pub mod assessment;
+
 use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
 
 use crate::analysis::oneway::OneWayFit;

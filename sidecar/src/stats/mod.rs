@@ -7,10 +7,12 @@
 
 pub mod accumulate;
 pub mod dist;
+pub mod dunnett;
 pub mod linear_model;
 pub mod normality;
 pub mod ranks;
 pub mod spread;
+pub mod studentized_range;
 pub mod two_level;
 pub mod two_level_analysis;
 

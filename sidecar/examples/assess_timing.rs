@@ -1,0 +1,89 @@
+//! Times the one-way fit and the full assessment (comparisons, checks,
+//! rank-based analysis) on 1,000,000 values in 20 conditions of unequal
+//! sizes, as the comparisons' benchmark. Run in release:
+//! `cargo run --release -p sidecar --example assess_timing`
+
+use std::time::Instant;
+
+use sidecar::analysis::assessment::{assess, AssessmentOptions};
+use sidecar::analysis::oneway::fit_one_way;
+use sidecar::settings::Direction;
+
+fn main() {
+    let n_conditions = 20usize;
+    let n_values = 1_000_000usize;
+    let names: Vec<String> = (0..n_conditions).map(|index| format!("condition {index}")).collect();
+    let mut state = 2026u64;
+    let mut groups = Vec::with_capacity(n_values);
+    let mut values = Vec::with_capacity(n_values);
+    for index in 0..n_values {
+        state = state
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        // Unequal sizes: condition c gets a share proportional to c + 1.
+        let share = ((state >> 33) as f64 / (1u64 << 31) as f64) * 210.0;
+        let condition = ((((8.0 * share + 1.0).sqrt() - 1.0) / 2.0) as usize).min(n_conditions - 1);
+        let noise = ((state >> 11) % 10_000) as f64 / 1000.0 - 5.0;
+        groups.push(condition as u32);
+        values.push(((50.0 + condition as f64 * 0.01 + noise) * 100.0).round() / 100.0);
+        let _ = index;
+    }
+    let started = Instant::now();
+    let fit = fit_one_way(&names, &groups, &values, 0.95, &[]).expect("fits");
+    let fit_time = started.elapsed();
+    let mut group_values = vec![Vec::new(); n_conditions];
+    let mut group_records = vec![Vec::new(); n_conditions];
+    for (record, (&group, &value)) in groups.iter().zip(&values).enumerate() {
+        group_values[group as usize].push(value);
+        group_records[group as usize].push(record);
+    }
+    {
+        use sidecar::analysis::comparisons::*;
+        let time = |label: &str, run: &dyn Fn()| {
+            let started = Instant::now();
+            run();
+            println!("  {label}: {:.1} ms", started.elapsed().as_secs_f64() * 1e3);
+        };
+        time("tukey-kramer", &|| {
+            drop(pooled_pairs(&fit, PairMethod::TukeyKramer, 0.95))
+        });
+        time("bonferroni", &|| drop(pooled_pairs(&fit, PairMethod::Bonferroni, 0.95)));
+        time("scheffe", &|| drop(pooled_pairs(&fit, PairMethod::Scheffe, 0.95)));
+        time("games-howell", &|| drop(unequal_spread_pairs(&fit, 0.95)));
+        time("welch", &|| drop(welch_anova(&fit.conditions)));
+        time("control", &|| drop(against_control(&fit, "condition 0", None, 0.95)));
+        time("best", &|| drop(with_the_best(&fit, Direction::HigherIsBetter, 0.95)));
+        let slices: Vec<&[f64]> = group_values.iter().map(Vec::as_slice).collect();
+        time("ranks", &|| drop(sidecar::stats::ranks::rank_analysis(&slices)));
+        time("levene median", &|| {
+            drop(sidecar::stats::spread::levene(
+                &slices,
+                sidecar::stats::spread::Centre::Median,
+            ))
+        });
+        time("normality 1M", &|| {
+            drop(sidecar::stats::normality::check_normality(&values))
+        });
+    }
+    for (label, options) in [
+        ("no direction, no control", AssessmentOptions::default()),
+        (
+            "direction and control",
+            AssessmentOptions {
+                direction: Some(Direction::HigherIsBetter),
+                control: Some("condition 0".into()),
+                family_confidence: None,
+            },
+        ),
+    ] {
+        let started = Instant::now();
+        let assessment = assess(&fit, &group_values, &group_records, &options);
+        println!(
+            "fit {:.1} ms; assessment ({label}) {:.1} ms; lead {:?}; notes {:?}",
+            fit_time.as_secs_f64() * 1e3,
+            started.elapsed().as_secs_f64() * 1e3,
+            assessment.lead,
+            assessment.notes
+        );
+    }
+}

@@ -1,0 +1,1230 @@
+//! Probabilities and critical values for comparisons of several treatments with one
+//! control (Dunnett 1955) and for multiple comparisons with the best (Hsu 1981, 1996).
+//!
+//! Both methods rest on the multivariate t distribution whose correlation matrix has the
+//! product form `rho_ij = lambda_i * lambda_j`. Writing the correlated normals as
+//! `Z_i = sqrt(1 - lambda_i^2) W_i - lambda_i Z` with independent standard normals `Z`,
+//! `W_1..W_m`, and dividing by an independent `S = chi_df / sqrt(df)`, the joint
+//! probabilities reduce to a two-fold integral:
+//!
+//! ```text
+//! one-sided  P(all T_i <= c)   = E_S  integral phi(z) prod_i Phi((c S + lambda_i z) / sqrt(1 - lambda_i^2)) dz
+//! two-sided  P(all |T_i| <= c) = E_S  integral phi(z) prod_i [Phi((c S + lambda_i z) / sqrt(1 - lambda_i^2))
+//!                                                           - Phi((-c S + lambda_i z) / sqrt(1 - lambda_i^2))] dz
+//! ```
+//!
+//! This is the reduction used by Dunnett (1989, Applied Statistics algorithm AS 251); the
+//! quadrature here is our own (adaptive Gauss-Kronrod, see [`product_correlation_cdf`]).
+//! Critical values come from [`product_correlation_quantile`]; [`dunnett_lambdas`] and
+//! [`mcb_critical_values`] set up the lambdas of the two methods.
+
+use crate::stats::StatsError;
+use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
+use statrs::function::gamma::ln_gamma;
+use std::f64::consts::{LN_2, PI, SQRT_2};
+
+/// Whether the comparisons are one-sided (`T_i <= c`) or two-sided (`|T_i| <= c`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Sides {
+    /// All statistics below the bound: `P(T_i <= c for every i)`.
+    One,
+    /// All statistics inside the band: `P(|T_i| <= c for every i)`.
+    Two,
+}
+
+/// `1 / sqrt(2 pi)`, the peak of the standard normal density.
+const INVERSE_ROOT_TWO_PI: f64 = 0.398_942_280_401_432_7;
+/// Half width of the integration range of the standard normal variable `z`; the normal
+/// mass outside `[-8.5, 8.5]` is about 1.9e-17.
+const Z_LIMIT: f64 = 8.5;
+/// The chi density (in `u = ln s`) is integrated where its logarithm is within this much
+/// of its peak; the mass left out is below 1e-17.
+const LOG_DENSITY_DROP: f64 = 42.0;
+/// Absolute error allowed in the inner (normal) integral.
+const INNER_TOLERANCE: f64 = 1e-9;
+/// Absolute error allowed in the outer (chi) integral.
+const OUTER_TOLERANCE: f64 = 1e-9;
+/// Largest number of panel halvings in one adaptive integral.
+const MAX_PANELS: usize = 5_000;
+/// A critical value is accepted once its probability is this close to the target.
+const ROOT_PROBABILITY_TOLERANCE: f64 = 1e-13;
+/// Largest number of probability evaluations in a critical-value search.
+const MAX_ROOT_ITERATIONS: usize = 100;
+
+/// Probability that `m` statistics with product correlation stay within the critical
+/// value `c`: `P(T_i <= c, all i)` for [`Sides::One`], `P(|T_i| <= c, all i)` for
+/// [`Sides::Two`].
+///
+/// `T_i = Z_i / S` where the `Z_i` are standard normals with correlations
+/// `lambda_i * lambda_j` and `S^2` is an independent chi-square over `df` divided by `df`;
+/// `df = f64::INFINITY` gives the multivariate normal. For comparisons with a control the
+/// lambdas come from [`dunnett_lambdas`].
+///
+/// # Errors
+///
+/// [`StatsError::InvalidParameter`] when `c` is NaN, a lambda is outside `[0, 1)`, or
+/// `df` is not positive (NaN included); [`StatsError::TooFewValues`] when `lambdas` is
+/// empty; [`StatsError::NoConvergence`] if an adaptive quadrature exhausts its panel budget
+/// (not met in testing).
+///
+/// # Remarks
+///
+/// Algorithm: the product-correlation reduction of Dunnett (1955) and Dunnett (1989,
+/// Applied Statistics algorithm AS 251), written from the formulas, not from code.
+/// Equal lambdas are grouped and their factor raised to a power; lambdas equal to 0 give a
+/// factor that does not depend on `z`. The inner integral over `z` runs over `[-8.5, 8.5]`
+/// (normal mass outside below 2e-17); where a factor is a steep step (step width
+/// `sqrt(1 - lambda^2) / lambda < 0.3`) the range is split beforehand at the step centre
+/// `-c s / lambda` (and `+c s / lambda` when two-sided) and 8 step widths either side, so
+/// lambdas arbitrarily close to 1 are resolved. The outer integral over `S` uses `u = ln s`,
+/// where the chi density `exp(log_peak + df (u - (e^{2u} - 1) / 2))` is smooth and
+/// log-concave, over the range where its logarithm is within 42 of the peak; its
+/// normalising constant uses a Stirling series for `df >= 20` so that very large `df`
+/// keeps full accuracy. Both integrals are globally adaptive 10/21-point Gauss-Kronrod
+/// (panel with the largest `|K21 - G10|` halved until the sum is below 1e-9; the K21 values
+/// are far more accurate than that estimate). The normal distribution function uses our
+/// own `erfc` (relative error about 2e-15). Everything is deterministic.
+///
+/// Accuracy: target 1e-8 absolute; measured errors are about 1e-14 or below against nested
+/// mpmath 1.3.0 quadrature of the same integrals at 20 digits (equal and unequal lambdas,
+/// lambdas 0 and near 1, negative c, one and two sides, several finite df and infinite df),
+/// against Student's t for a single comparison and against `Phi(c)^m` for independent
+/// comparisons. Speed (release build): about 0.1 ms with df infinite, 1 to 5 ms with df
+/// finite for a few groups of lambdas; cost grows with the number of distinct lambdas.
+pub fn product_correlation_cdf(c: f64, lambdas: &[f64], df: f64, sides: Sides) -> Result<f64, StatsError> {
+    if c.is_nan() {
+        return Err(StatsError::InvalidParameter {
+            name: "c",
+            rule: "a number",
+            value: c,
+        });
+    }
+    let groups = lambda_groups(lambdas)?;
+    check_df(df)?;
+    if c == f64::INFINITY {
+        return Ok(1.0);
+    }
+    if c == f64::NEG_INFINITY || (sides == Sides::Two && c <= 0.0) {
+        return Ok(0.0);
+    }
+    let probability = if df == f64::INFINITY {
+        inner_probability(c, &groups, sides)?
+    } else {
+        outer_expectation(c, &groups, df, sides)?
+    };
+    Ok(probability.clamp(0.0, 1.0))
+}
+
+/// Critical value `c` with `product_correlation_cdf(c, lambdas, df, sides) = p`, e.g. the
+/// Dunnett critical value for confidence `p = 0.95`.
+///
+/// # Errors
+///
+/// [`StatsError::InvalidParameter`] when `p` is not strictly between 0 and 1 or the other
+/// arguments are invalid as in [`product_correlation_cdf`];
+/// [`StatsError::NoConvergence`] if the root search fails (not met in testing).
+///
+/// # Remarks
+///
+/// Algorithm: the normal-theory (`df` infinite) root is found first, cheaply, from the
+/// bracket that probability inequalities give: the single-comparison quantile below and the
+/// Sidak (1967) / Kimball (1951) product bound above. For finite `df` that root is scaled by
+/// the ratio of the t and normal quantiles at the Sidak level, which usually lands within
+/// 1% of the answer, and a 2% bracket around it is widened geometrically if it does not
+/// contain the root. Brent's (1973) method (inverse quadratic interpolation with bisection
+/// safeguard) then refines until the bracket is below `1e-11 * max(1, |c|)` or the
+/// probability matches `p` to 1e-13. Typically 6 or 7 evaluations of the finite-df
+/// probability.
+///
+/// Accuracy: agreed with mpmath 1.3.0 roots of the nested integrals to about 1e-13;
+/// a single comparison reproduces scipy 1.17.1's t quantile to about 1e-12; the printed
+/// two-decimal Dunnett (1955, 1964) tables are reproduced. Speed (release build, measured
+/// on a shared, loaded machine): about 0.1 to 0.2 ms for df infinite, about 10 to 40 ms for
+/// finite df with equal sizes, 20 to 100 ms with four unequal sizes.
+pub fn product_correlation_quantile(p: f64, lambdas: &[f64], df: f64, sides: Sides) -> Result<f64, StatsError> {
+    if !(p > 0.0 && p < 1.0) {
+        return Err(StatsError::InvalidParameter {
+            name: "p",
+            rule: "strictly between 0 and 1",
+            value: p,
+        });
+    }
+    let groups = lambda_groups(lambdas)?;
+    check_df(df)?;
+    let n_comparisons = lambdas.len() as f64;
+    // Per-comparison probability of the Sidak / Kimball bound: p^(1/m).
+    let product_level = (p.ln() / n_comparisons).exp();
+    let (single_level, bound_level) = match sides {
+        Sides::One => (p, product_level),
+        Sides::Two => (0.5 * (1.0 + p), 0.5 * (1.0 + product_level)),
+    };
+    // The normal-theory root is cheap (no outer integral); it is solved first.
+    let normal_single = normal_quantile_guess(single_level);
+    let normal_bound = normal_quantile_guess(bound_level);
+    let normal_root = root_in_bracket(
+        p,
+        &groups,
+        f64::INFINITY,
+        sides,
+        normal_single - 0.02 * normal_single.abs() - 0.02,
+        normal_bound + 0.02 * normal_bound.abs() + 0.02,
+    )?;
+    if df == f64::INFINITY {
+        return Ok(normal_root);
+    }
+    // For finite df the normal root is stretched by the t-to-normal quantile ratio at the
+    // Sidak level, usually within 1% of the answer; otherwise the t bounds are used.
+    let t_bound = t_quantile_guess(bound_level, df);
+    let ratio = t_bound / normal_bound;
+    let (low, high) = if normal_root > 0.5 && ratio.is_finite() && ratio >= 1.0 {
+        let guess = normal_root * ratio;
+        (0.98 * guess, 1.02 * guess)
+    } else {
+        let t_single = t_quantile_guess(single_level, df);
+        (
+            t_single - 0.02 * t_single.abs() - 0.02,
+            t_bound + 0.02 * t_bound.abs() + 0.02,
+        )
+    };
+    root_in_bracket(p, &groups, df, sides, low, high)
+}
+
+/// Root of `cdf(c) - p` starting from the bracket `[low, high]`, widened geometrically
+/// until it brackets the root, then refined by Brent's method.
+fn root_in_bracket(
+    p: f64,
+    groups: &[LambdaGroup],
+    df: f64,
+    sides: Sides,
+    mut low: f64,
+    mut high: f64,
+) -> Result<f64, StatsError> {
+    let distance = |c: f64| -> Result<f64, StatsError> {
+        let probability = if sides == Sides::Two && c <= 0.0 {
+            0.0
+        } else if df == f64::INFINITY {
+            inner_probability(c, groups, sides)?
+        } else {
+            outer_expectation(c, groups, df, sides)?
+        };
+        Ok(probability - p)
+    };
+    if sides == Sides::Two {
+        low = low.max(0.0);
+    }
+    let mut f_low = distance(low)?;
+    let mut f_high = distance(high)?;
+    let mut width = (high - low).max(0.01);
+    let mut widenings = 0;
+    while f_low > 0.0 || f_high < 0.0 {
+        widenings += 1;
+        if widenings > 60 {
+            return Err(StatsError::NoConvergence {
+                what: "critical value bracket",
+                iterations: widenings,
+            });
+        }
+        width *= 2.0;
+        if f_low > 0.0 {
+            high = low;
+            f_high = f_low;
+            low -= width;
+            if sides == Sides::Two {
+                low = low.max(0.0);
+            }
+            f_low = distance(low)?;
+        } else {
+            low = high;
+            f_low = f_high;
+            high += width;
+            f_high = distance(high)?;
+        }
+    }
+    brent_root(distance, low, high, f_low, f_high)
+}
+
+/// Correlation factors `lambda_i = sqrt(n_i / (n_i + n_0))` for comparing treatments with
+/// sizes `treatment_ns` against a control of size `control_n`: the correlation between the
+/// comparisons `i` and `j` is `lambda_i * lambda_j`. Sizes may be fractional (e.g.
+/// effective sizes) and unequal.
+///
+/// # Errors
+///
+/// [`StatsError::TooFewValues`] when `treatment_ns` is empty;
+/// [`StatsError::InvalidParameter`] when a size is not a positive finite number.
+pub fn dunnett_lambdas(control_n: f64, treatment_ns: &[f64]) -> Result<Vec<f64>, StatsError> {
+    check_size("control_n", control_n)?;
+    if treatment_ns.is_empty() {
+        return Err(StatsError::TooFewValues {
+            what: "treatment sizes",
+            needed: 1,
+            got: 0,
+        });
+    }
+    treatment_ns
+        .iter()
+        .map(|&treatment_n| {
+            check_size("treatment size", treatment_n)?;
+            Ok((treatment_n / (treatment_n + control_n)).sqrt())
+        })
+        .collect()
+}
+
+/// One-sided critical values `d_i` of Hsu's multiple comparisons with the best, one per
+/// condition: `d_i` is the one-sided product-correlation quantile at `confidence` with
+/// `lambda_j = sqrt(n_j / (n_j + n_i))` over all `j != i` (condition `i` plays the
+/// control). With equal sizes all `d_i` equal the one-sided Dunnett value for `k - 1`
+/// comparisons.
+///
+/// # Errors
+///
+/// [`StatsError::TooFewValues`] when fewer than 2 sizes are given;
+/// [`StatsError::InvalidParameter`] when a size is not positive and finite, `df` is not
+/// positive, or `confidence` is not strictly between 0 and 1;
+/// [`StatsError::NoConvergence`] as in [`product_correlation_quantile`].
+///
+/// # Remarks
+///
+/// Hsu (1981; 1996, *Multiple Comparisons: Theory and Methods*): the intervals for
+/// `mu_i - max_{j != i} mu_j` use `d_i` as defined above. Conditions with equal size share
+/// the same set of lambdas, so each distinct size is solved once. Accuracy as in
+/// [`product_correlation_quantile`]; checked against mpmath 1.3.0 roots of the
+/// nested integrals for unequal sizes (4, 6, 9) with df infinite, and with equal sizes
+/// against the one-sided Dunnett table.
+pub fn mcb_critical_values(ns: &[f64], df: f64, confidence: f64) -> Result<Vec<f64>, StatsError> {
+    if ns.len() < 2 {
+        return Err(StatsError::TooFewValues {
+            what: "condition sizes",
+            needed: 2,
+            got: ns.len(),
+        });
+    }
+    for &n in ns {
+        check_size("condition size", n)?;
+    }
+    let mut solved: Vec<(f64, f64)> = Vec::new();
+    let mut critical_values = Vec::with_capacity(ns.len());
+    for (index, &n_i) in ns.iter().enumerate() {
+        if let Some(&(_, value)) = solved.iter().find(|(size, _)| *size == n_i) {
+            critical_values.push(value);
+            continue;
+        }
+        let lambdas: Vec<f64> = ns
+            .iter()
+            .enumerate()
+            .filter(|(other, _)| *other != index)
+            .map(|(_, &n_j)| (n_j / (n_j + n_i)).sqrt())
+            .collect();
+        let value = product_correlation_quantile(confidence, &lambdas, df, Sides::One)?;
+        solved.push((n_i, value));
+        critical_values.push(value);
+    }
+    Ok(critical_values)
+}
+
+// ---------------------------------------------------------------------------------------
+// Input checks
+
+fn check_size(name: &'static str, n: f64) -> Result<(), StatsError> {
+    if n.is_finite() && n > 0.0 {
+        Ok(())
+    } else {
+        Err(StatsError::InvalidParameter {
+            name,
+            rule: "a positive finite number",
+            value: n,
+        })
+    }
+}
+
+fn check_df(df: f64) -> Result<(), StatsError> {
+    if df > 0.0 {
+        Ok(())
+    } else {
+        Err(StatsError::InvalidParameter {
+            name: "df",
+            rule: "positive (or infinite)",
+            value: df,
+        })
+    }
+}
+
+/// Lambdas sharing one value, with the constants their factor needs.
+#[derive(Debug, Clone, Copy)]
+struct LambdaGroup {
+    /// How many comparisons share this lambda.
+    count: i32,
+    /// `lambda`.
+    lambda: f64,
+    /// `1 / sqrt(1 - lambda^2)`.
+    inverse_width: f64,
+    /// Width of the step of the factor in `z`: `sqrt(1 - lambda^2) / lambda`.
+    step_width: f64,
+}
+
+fn lambda_groups(lambdas: &[f64]) -> Result<Vec<LambdaGroup>, StatsError> {
+    if lambdas.is_empty() {
+        return Err(StatsError::TooFewValues {
+            what: "lambdas",
+            needed: 1,
+            got: 0,
+        });
+    }
+    for &lambda in lambdas {
+        if !(0.0..1.0).contains(&lambda) {
+            return Err(StatsError::InvalidParameter {
+                name: "lambda",
+                rule: "in [0, 1)",
+                value: lambda,
+            });
+        }
+    }
+    let mut sorted = lambdas.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    let mut groups: Vec<LambdaGroup> = Vec::new();
+    for lambda in sorted {
+        match groups.last_mut() {
+            Some(group) if group.lambda == lambda => group.count += 1,
+            _ => {
+                let width = ((1.0 - lambda) * (1.0 + lambda)).sqrt();
+                groups.push(LambdaGroup {
+                    count: 1,
+                    lambda,
+                    inverse_width: 1.0 / width,
+                    step_width: if lambda > 0.0 { width / lambda } else { f64::INFINITY },
+                });
+            }
+        }
+    }
+    Ok(groups)
+}
+
+// ---------------------------------------------------------------------------------------
+// The two integrals
+
+/// Power series in `s = 2 t - 1` of `y(t) = ln(erfc(x) / t) + x^2`, where `t = 2 / (2 + x)`,
+/// `x >= 0`. Obtained from a Chebyshev interpolant at 60 points (terms below 1e-18 dropped)
+/// rewritten in powers of `s`, all with mpmath 1.3.0 at 40 digits by
+/// testdata/erfc_coefficients.py; padded with zeros to a multiple of 4.
+const ERFC_POWER_SERIES: [f64; 32] = [
+    -0.6717940840566923,
+    0.6726432239776567,
+    0.04734330684190441,
+    -0.04689561023118475,
+    -0.009872689366388684,
+    0.00882493855745383,
+    0.001758933557766382,
+    -0.0023458125081223134,
+    -0.0001462468629421063,
+    0.0006736788796142943,
+    -9.373503465815823e-05,
+    -0.0001743035278020314,
+    7.140103219748502e-05,
+    3.1747859436922955e-05,
+    -3.0187948093951486e-05,
+    1.2915164139087769e-07,
+    8.562779099386524e-06,
+    -2.928567024161788e-06,
+    -1.2725805279147717e-06,
+    1.2186833373805656e-06,
+    -1.6817283194044123e-07,
+    -2.1376119174178424e-07,
+    1.5307318366323928e-07,
+    -2.6872987499866794e-08,
+    -3.9024931626661816e-08,
+    2.589763598195963e-08,
+    4.013877704214506e-09,
+    -6.421087129613183e-09,
+    6.7149203936019806e-12,
+    6.249457280991351e-10,
+    0.0,
+    0.0,
+];
+
+/// Complementary error function, relative error below 2e-15 for `-3 < x < 26.5` (checked
+/// against mpmath 1.3.0 at 4000 points; for `x < 0` it is `2 - erfc(-x)`, accurate in
+/// absolute terms). statrs 0.19.1's `erfc` was measured off by up to 1e-10 relative near
+/// `x = 0.5`, which limited the probabilities to about 1e-12, hence this version.
+fn erfc(x: f64) -> f64 {
+    if x.is_nan() {
+        return f64::NAN;
+    }
+    if x < 0.0 {
+        return 2.0 - erfc(-x);
+    }
+    if x > 27.5 {
+        return 0.0;
+    }
+    let t = 2.0 / (2.0 + x);
+    let s = 2.0 * t - 1.0;
+    // Four interleaved Horner chains in s^4 (shorter dependency chains than one Horner),
+    // written out so that unoptimised (debug) builds stay fast too.
+    let c = &ERFC_POWER_SERIES;
+    let s2 = s * s;
+    let s4 = s2 * s2;
+    let chain0 =
+        (((((((c[28]) * s4 + c[24]) * s4 + c[20]) * s4 + c[16]) * s4 + c[12]) * s4 + c[8]) * s4 + c[4]) * s4 + c[0];
+    let chain1 =
+        (((((((c[29]) * s4 + c[25]) * s4 + c[21]) * s4 + c[17]) * s4 + c[13]) * s4 + c[9]) * s4 + c[5]) * s4 + c[1];
+    let chain2 =
+        (((((((c[30]) * s4 + c[26]) * s4 + c[22]) * s4 + c[18]) * s4 + c[14]) * s4 + c[10]) * s4 + c[6]) * s4 + c[2];
+    let chain3 =
+        (((((((c[31]) * s4 + c[27]) * s4 + c[23]) * s4 + c[19]) * s4 + c[15]) * s4 + c[11]) * s4 + c[7]) * s4 + c[3];
+    let y = (chain0 + s * chain1) + s2 * (chain2 + s * chain3);
+    if x > 4.0 {
+        // Split x^2 so that the large part is squared exactly.
+        let x_high = f64::from(x as f32);
+        t * (-x_high * x_high).exp() * (y - (x - x_high) * (x + x_high)).exp()
+    } else {
+        t * (y - x * x).exp()
+    }
+}
+
+/// Standard normal distribution function, accurate in both tails.
+fn normal_cdf(x: f64) -> f64 {
+    0.5 * erfc(-x / SQRT_2)
+}
+
+/// `Phi(b) - Phi(a)` for `a <= b`, computed on the side that avoids cancellation.
+fn normal_interval(a: f64, b: f64) -> f64 {
+    if a > 0.0 {
+        0.5 * (erfc(a / SQRT_2) - erfc(b / SQRT_2))
+    } else if b < 0.0 {
+        0.5 * (erfc(-b / SQRT_2) - erfc(-a / SQRT_2))
+    } else {
+        1.0 - 0.5 * (erfc(b / SQRT_2) + erfc(-a / SQRT_2))
+    }
+}
+
+/// Factor of one comparison given `x = c s` and `z`.
+fn factor(x: f64, z: f64, group: &LambdaGroup, sides: Sides) -> f64 {
+    let shift = group.lambda * z;
+    match sides {
+        Sides::One => normal_cdf((x + shift) * group.inverse_width),
+        Sides::Two => normal_interval((shift - x) * group.inverse_width, (shift + x) * group.inverse_width),
+    }
+}
+
+/// The inner integral over `z` at `x = c s`: the normal-theory probability.
+fn inner_probability(x: f64, groups: &[LambdaGroup], sides: Sides) -> Result<f64, StatsError> {
+    if sides == Sides::Two && x <= 0.0 {
+        return Ok(0.0);
+    }
+    // Lambdas equal to 0 contribute a factor that does not depend on z.
+    let mut constant = 1.0;
+    let mut varying: Vec<LambdaGroup> = Vec::with_capacity(groups.len());
+    for group in groups {
+        if group.lambda == 0.0 {
+            constant *= factor(x, 0.0, group, sides).powi(group.count);
+        } else {
+            varying.push(*group);
+        }
+    }
+    if varying.is_empty() || constant == 0.0 {
+        return Ok(constant);
+    }
+    let mut breakpoints = vec![-Z_LIMIT, 0.0, Z_LIMIT];
+    for group in &varying {
+        if group.step_width < 0.3 {
+            let centre = x / group.lambda;
+            let centres: &[f64] = match sides {
+                Sides::One => &[-centre],
+                Sides::Two => &[-centre, centre],
+            };
+            for &centre in centres {
+                for offset in [-8.0, 0.0, 8.0] {
+                    let point = centre + offset * group.step_width;
+                    if point > -Z_LIMIT && point < Z_LIMIT {
+                        breakpoints.push(point);
+                    }
+                }
+            }
+        }
+    }
+    let integral = integrate_adaptive(
+        |z| {
+            let mut value = (-0.5 * z * z).exp() * INVERSE_ROOT_TWO_PI;
+            let mut index = 0;
+            while index < varying.len() && value != 0.0 {
+                let group = &varying[index];
+                let one = factor(x, z, group, sides);
+                value *= if group.count == 1 { one } else { one.powi(group.count) };
+                index += 1;
+            }
+            Ok(value)
+        },
+        breakpoints,
+        INNER_TOLERANCE,
+        "normal integral",
+    )?;
+    Ok(constant * integral)
+}
+
+/// Logarithm of the density of `u = ln S` at its peak `u = 0`, where `S = chi_df /
+/// sqrt(df)`: `ln 2 + (df/2) ln(df/2) - df/2 - ln Gamma(df/2)`.
+fn log_density_peak(df: f64) -> f64 {
+    let half = 0.5 * df;
+    if half >= 10.0 {
+        // Stirling: ln Gamma(x) = (x - 1/2) ln x - x + ln(2 pi)/2 + series(x); the large
+        // terms cancel analytically.
+        let inverse = 1.0 / half;
+        let inverse_square = inverse * inverse;
+        let series = inverse
+            * (1.0 / 12.0
+                + inverse_square
+                    * (-1.0 / 360.0
+                        + inverse_square
+                            * (1.0 / 1260.0 + inverse_square * (-1.0 / 1680.0 + inverse_square * (1.0 / 1188.0)))));
+        LN_2 + 0.5 * half.ln() - 0.5 * (2.0 * PI).ln() - series
+    } else {
+        LN_2 + half * half.ln() - half - ln_gamma(half)
+    }
+}
+
+/// `df (u - (e^{2u} - 1) / 2)`: the log density of `u = ln S` relative to its peak.
+fn log_density_drop(df: f64, u: f64) -> f64 {
+    df * (u - 0.5 * (2.0 * u).exp_m1())
+}
+
+/// Point `u` on the given side of 0 where the log density has dropped by `drop`.
+fn density_edge(df: f64, drop: f64, direction: f64) -> f64 {
+    let mut inside = 0.0;
+    let mut outside = direction / (2.0 * df).sqrt();
+    while log_density_drop(df, outside) > -drop {
+        inside = outside;
+        outside *= 2.0;
+    }
+    for _ in 0..200 {
+        let middle = 0.5 * (inside + outside);
+        if middle == inside || middle == outside {
+            break;
+        }
+        if log_density_drop(df, middle) > -drop {
+            inside = middle;
+        } else {
+            outside = middle;
+        }
+    }
+    outside
+}
+
+/// Initial panels for the integral over `u = ln S`: the range where the density matters
+/// (log density within `LOG_DENSITY_DROP` of its peak), split at the peak `u = 0`.
+fn outer_breakpoints(df: f64) -> Vec<f64> {
+    let lower = density_edge(df, LOG_DENSITY_DROP, -1.0);
+    let upper = density_edge(df, LOG_DENSITY_DROP, 1.0);
+    vec![lower, 0.0, upper]
+}
+
+/// `E_S[inner(c S)]` for finite `df`, integrated over `u = ln S`.
+fn outer_expectation(c: f64, groups: &[LambdaGroup], df: f64, sides: Sides) -> Result<f64, StatsError> {
+    let log_peak = log_density_peak(df);
+    integrate_adaptive(
+        |u| {
+            let density = (log_peak + log_density_drop(df, u)).exp();
+            if density == 0.0 {
+                return Ok(0.0);
+            }
+            Ok(density * inner_probability(c * u.exp(), groups, sides)?)
+        },
+        outer_breakpoints(df),
+        OUTER_TOLERANCE,
+        "chi integral",
+    )
+}
+
+// ---------------------------------------------------------------------------------------
+// Quadrature and root finding
+
+// The 10-point Gauss-Legendre rule and its 21-point Kronrod extension on [-1, 1]
+// (Kronrod 1965), computed from their definitions with mpmath 1.3.0 at 50 digits by the
+// script testdata/kronrod_rule.py (Stieltjes polynomial roots, weights from exactness on
+// Legendre polynomials, exactness to degree 31 verified). GAUSS_WEIGHTS is 0 at the
+// Kronrod-only nodes.
+const KRONROD_NODES: [f64; 21] = [
+    -0.9956571630258081,
+    -0.9739065285171717,
+    -0.9301574913557082,
+    -0.8650633666889845,
+    -0.7808177265864169,
+    -0.6794095682990244,
+    -0.5627571346686047,
+    -0.4333953941292472,
+    -0.2943928627014602,
+    -0.14887433898163122,
+    0.0,
+    0.14887433898163122,
+    0.2943928627014602,
+    0.4333953941292472,
+    0.5627571346686047,
+    0.6794095682990244,
+    0.7808177265864169,
+    0.8650633666889845,
+    0.9301574913557082,
+    0.9739065285171717,
+    0.9956571630258081,
+];
+const KRONROD_WEIGHTS: [f64; 21] = [
+    0.011694638867371874,
+    0.032558162307964725,
+    0.054755896574351995,
+    0.07503967481091996,
+    0.0931254545836976,
+    0.10938715880229764,
+    0.12349197626206584,
+    0.13470921731147334,
+    0.14277593857706009,
+    0.14773910490133849,
+    0.1494455540029169,
+    0.14773910490133849,
+    0.14277593857706009,
+    0.13470921731147334,
+    0.12349197626206584,
+    0.10938715880229764,
+    0.0931254545836976,
+    0.07503967481091996,
+    0.054755896574351995,
+    0.032558162307964725,
+    0.011694638867371874,
+];
+const GAUSS_WEIGHTS: [f64; 21] = [
+    0.0,
+    0.06667134430868814,
+    0.0,
+    0.1494513491505806,
+    0.0,
+    0.21908636251598204,
+    0.0,
+    0.26926671930999635,
+    0.0,
+    0.29552422471475287,
+    0.0,
+    0.29552422471475287,
+    0.0,
+    0.26926671930999635,
+    0.0,
+    0.21908636251598204,
+    0.0,
+    0.1494513491505806,
+    0.0,
+    0.06667134430868814,
+    0.0,
+];
+
+/// Kronrod and Gauss estimates of the integral over one panel.
+fn kronrod_panel<F>(integrand: &mut F, a: f64, b: f64) -> Result<(f64, f64), StatsError>
+where
+    F: FnMut(f64) -> Result<f64, StatsError>,
+{
+    let middle = 0.5 * (a + b);
+    let half = 0.5 * (b - a);
+    let mut kronrod = 0.0;
+    let mut gauss = 0.0;
+    let mut index = 0;
+    while index < KRONROD_NODES.len() {
+        let value = integrand(middle + half * KRONROD_NODES[index])?;
+        kronrod += KRONROD_WEIGHTS[index] * value;
+        gauss += GAUSS_WEIGHTS[index] * value;
+        index += 1;
+    }
+    Ok((kronrod * half, gauss * half))
+}
+
+/// Globally adaptive Gauss-Kronrod (10/21 points) over the panels between `breakpoints`:
+/// the panel with the largest error estimate `|K21 - G10|` is halved until the estimates
+/// add up to at most `tolerance`.
+fn integrate_adaptive<F>(
+    mut integrand: F,
+    mut breakpoints: Vec<f64>,
+    tolerance: f64,
+    what: &'static str,
+) -> Result<f64, StatsError>
+where
+    F: FnMut(f64) -> Result<f64, StatsError>,
+{
+    breakpoints.sort_by(f64::total_cmp);
+    breakpoints.dedup();
+    // (a, b, kronrod estimate, error estimate)
+    let mut panels: Vec<(f64, f64, f64, f64)> = Vec::with_capacity(64);
+    for pair in breakpoints.windows(2) {
+        let (a, b) = (pair[0], pair[1]);
+        if b > a {
+            let (kronrod, gauss) = kronrod_panel(&mut integrand, a, b)?;
+            panels.push((a, b, kronrod, (kronrod - gauss).abs()));
+        }
+    }
+    let total_length = match (breakpoints.first(), breakpoints.last()) {
+        (Some(&first), Some(&last)) if last > first => last - first,
+        _ => return Ok(0.0),
+    };
+    for _ in 0..MAX_PANELS {
+        let mut total_error = 0.0;
+        let mut worst = 0;
+        let mut worst_error = -1.0;
+        for (index, panel) in panels.iter().enumerate() {
+            total_error += panel.3;
+            // Panels too short to halve are not refined further.
+            if panel.3 > worst_error && (panel.1 - panel.0) > 1e-13 * total_length {
+                worst_error = panel.3;
+                worst = index;
+            }
+        }
+        if total_error <= tolerance || worst_error <= 0.0 {
+            return Ok(panels.iter().map(|panel| panel.2).sum());
+        }
+        let (a, b, _, _) = panels[worst];
+        let middle = 0.5 * (a + b);
+        let (left_kronrod, left_gauss) = kronrod_panel(&mut integrand, a, middle)?;
+        let (right_kronrod, right_gauss) = kronrod_panel(&mut integrand, middle, b)?;
+        panels[worst] = (a, middle, left_kronrod, (left_kronrod - left_gauss).abs());
+        panels.push((middle, b, right_kronrod, (right_kronrod - right_gauss).abs()));
+    }
+    Err(StatsError::NoConvergence {
+        what,
+        iterations: MAX_PANELS,
+    })
+}
+
+/// Starting value for the t quantile at `level` (only used to place the first bracket).
+fn t_quantile_guess(level: f64, df: f64) -> f64 {
+    let normal = normal_quantile_guess(level);
+    let guess = if (0.5..=1e7).contains(&df) {
+        match StudentsT::new(0.0, 1.0, df) {
+            Ok(t) => t.inverse_cdf(level),
+            Err(_) => normal,
+        }
+    } else {
+        normal
+    };
+    if guess.is_finite() {
+        guess.clamp(-1e12, 1e12)
+    } else {
+        normal
+    }
+}
+
+/// Normal quantile at `level`, kept finite (only used to place the first bracket).
+fn normal_quantile_guess(level: f64) -> f64 {
+    let quantile = Normal::standard().inverse_cdf(level.clamp(1e-300, 1.0 - 1e-16));
+    if quantile.is_finite() {
+        quantile.clamp(-40.0, 40.0)
+    } else {
+        0.0
+    }
+}
+
+/// Brent's method for the root of `f` in `[a, b]`, given `f(a) <= 0 <= f(b)`.
+fn brent_root<F>(mut f: F, mut a: f64, mut b: f64, mut f_a: f64, mut f_b: f64) -> Result<f64, StatsError>
+where
+    F: FnMut(f64) -> Result<f64, StatsError>,
+{
+    if f_a == 0.0 {
+        return Ok(a);
+    }
+    if f_b == 0.0 {
+        return Ok(b);
+    }
+    let mut c = a;
+    let mut f_c = f_a;
+    let mut step = b - a;
+    let mut previous_step = step;
+    for _ in 0..MAX_ROOT_ITERATIONS {
+        if f_b.signum() == f_c.signum() {
+            c = a;
+            f_c = f_a;
+            step = b - a;
+            previous_step = step;
+        }
+        if f_c.abs() < f_b.abs() {
+            a = b;
+            b = c;
+            c = a;
+            f_a = f_b;
+            f_b = f_c;
+            f_c = f_a;
+        }
+        let tolerance = 0.5e-11 * b.abs().max(1.0);
+        let half_gap = 0.5 * (c - b);
+        // Stop also when the probability is matched to well below its own accuracy.
+        if half_gap.abs() <= tolerance || f_b.abs() <= ROOT_PROBABILITY_TOLERANCE {
+            return Ok(b);
+        }
+        if previous_step.abs() >= tolerance && f_a.abs() > f_b.abs() {
+            // Secant or inverse quadratic interpolation.
+            let s = f_b / f_a;
+            let (mut numerator, mut denominator) = if a == c {
+                (2.0 * half_gap * s, 1.0 - s)
+            } else {
+                let q = f_a / f_c;
+                let r = f_b / f_c;
+                (
+                    s * (2.0 * half_gap * q * (q - r) - (b - a) * (r - 1.0)),
+                    (q - 1.0) * (r - 1.0) * (s - 1.0),
+                )
+            };
+            if numerator > 0.0 {
+                denominator = -denominator;
+            } else {
+                numerator = -numerator;
+            }
+            if 2.0 * numerator
+                < (3.0 * half_gap * denominator - (tolerance * denominator).abs())
+                    .min((previous_step * denominator).abs())
+            {
+                previous_step = step;
+                step = numerator / denominator;
+            } else {
+                step = half_gap;
+                previous_step = step;
+            }
+        } else {
+            step = half_gap;
+            previous_step = step;
+        }
+        a = b;
+        f_a = f_b;
+        b += if step.abs() > tolerance {
+            step
+        } else {
+            tolerance.copysign(half_gap)
+        };
+        f_b = f(b)?;
+    }
+    Err(StatsError::NoConvergence {
+        what: "critical value search",
+        iterations: MAX_ROOT_ITERATIONS,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const HALF_ROOT: f64 = std::f64::consts::FRAC_1_SQRT_2;
+
+    fn unequal_lambdas() -> Vec<f64> {
+        // Control of 10, treatments of 5, 8, 12 and 20.
+        dunnett_lambdas(10.0, &[5.0, 8.0, 12.0, 20.0]).expect("valid sizes")
+    }
+
+    fn assert_close(actual: f64, expected: f64, tolerance: f64, label: &str) {
+        assert!(
+            (actual - expected).abs() <= tolerance,
+            "{label}: got {actual:.15}, expected {expected:.15}"
+        );
+    }
+
+    #[test]
+    fn dunnett_lambdas_follow_sizes() {
+        // Dunnett (1955): rho_ij = lambda_i lambda_j with lambda_i = sqrt(n_i / (n_i + n_0));
+        // equal sizes give rho = 1/2.
+        let lambdas = dunnett_lambdas(6.0, &[6.0, 3.0]).expect("valid sizes");
+        assert_close(lambdas[0], HALF_ROOT, 1e-15, "equal");
+        assert_close(lambdas[1], (1.0f64 / 3.0).sqrt(), 1e-15, "half size");
+    }
+
+    #[test]
+    fn normal_theory_probability_matches_mpmath() {
+        // mpmath 1.3.0 at 20 digits, nested quadrature of the defining integrals
+        // (script testdata/dunnett_reference.py): cdf(c, lambdas, 'inf', sides).
+        let near_one = vec![0.999, 0.9999, 0.5];
+        let cases: Vec<(f64, Vec<f64>, Sides, f64)> = vec![
+            // cdf(2.0, [sqrt(1/2)]*3, 'inf', 1)
+            (2.0, vec![HALF_ROOT; 3], Sides::One, 0.9425334514945287),
+            // cdf(3.0, [sqrt(1/2)]*9, 'inf', 2)
+            (3.0, vec![HALF_ROOT; 9], Sides::Two, 0.9798727496771622),
+            // cdf(2.1, dunnett_lambdas(10, [5, 8, 12, 20]), 'inf', 1)
+            (2.1, unequal_lambdas(), Sides::One, 0.9424150921931503),
+            // cdf(-0.5, ['0.7', '0.7'], 'inf', 1)
+            (-0.5, vec![0.7, 0.7], Sides::One, 0.16176986960230458),
+            // cdf(2.0, ['0.999', '0.9999', '0.5'], 'inf', 2)
+            (2.0, near_one.clone(), Sides::Two, 0.9153361029537673),
+            // cdf(2.0, ['0.999', '0.9999', '0.5'], 'inf', 1)
+            (2.0, near_one, Sides::One, 0.9576645206738033),
+            // cdf(1.8, [0, '0.6', '0.8'], 'inf', 1)
+            (1.8, vec![0.0, 0.6, 0.8], Sides::One, 0.9017863483651106),
+        ];
+        for (c, lambdas, sides, expected) in cases {
+            let actual = product_correlation_cdf(c, &lambdas, f64::INFINITY, sides).expect("cdf");
+            assert_close(actual, expected, 1e-12, "df infinite");
+        }
+    }
+
+    #[test]
+    fn t_probability_matches_mpmath() {
+        // mpmath 1.3.0 at 20 digits, nested quadrature (testdata/dunnett_reference.py):
+        // cdf(c, lambdas, df, sides).
+        let cases: Vec<(f64, Vec<f64>, f64, Sides, f64)> = vec![
+            // cdf(2.5, [sqrt(1/2)]*4, 10, 2)
+            (2.5, vec![HALF_ROOT; 4], 10.0, Sides::Two, 0.9057912081712964),
+            // cdf(2.3, dunnett_lambdas(10, [5, 8, 12, 20]), 15, 2)
+            (2.3, unequal_lambdas(), 15.0, Sides::Two, 0.8892334941562726),
+            // cdf(2.0, ['0.999', '0.9999', '0.5'], 7, 2)
+            (2.0, vec![0.999, 0.9999, 0.5], 7.0, Sides::Two, 0.8520201370773536),
+            // cdf(2.0, ['0.999', '0.9999', '0.5'], 7, 1)
+            (2.0, vec![0.999, 0.9999, 0.5], 7.0, Sides::One, 0.9255478853726355),
+            // cdf(1.8, [0, '0.6', '0.8'], 5, 1)
+            (1.8, vec![0.0, 0.6, 0.8], 5.0, Sides::One, 0.8371714196794892),
+            // cdf(2.2, [0, 0, 0], 12, 2): independent given S, E[(2 Phi(2.2 S) - 1)^3]
+            (2.2, vec![0.0; 3], 12.0, Sides::Two, 0.8690076436052264),
+        ];
+        for (c, lambdas, df, sides, expected) in cases {
+            let actual = product_correlation_cdf(c, &lambdas, df, sides).expect("cdf");
+            assert_close(actual, expected, 1e-12, "finite df");
+        }
+    }
+
+    #[test]
+    fn single_comparison_probability_is_student_t() {
+        // scipy 1.17.1: stats.t.cdf(2.1, 7) and 2 * stats.t.cdf(1.9, 3) - 1; with one
+        // comparison lambda plays no part.
+        for lambda in [0.3, 0.99] {
+            let one = product_correlation_cdf(2.1, &[lambda], 7.0, Sides::One).expect("cdf");
+            assert_close(one, 0.9630644018935387, 1e-10, "one-sided t");
+            let two = product_correlation_cdf(1.9, &[lambda], 3.0, Sides::Two).expect("cdf");
+            assert_close(two, 0.8463684566940008, 1e-10, "two-sided t");
+        }
+    }
+
+    #[test]
+    fn single_comparison_critical_value_is_t_quantile() {
+        // scipy 1.17.1: stats.t.ppf(0.975, 10), stats.t.ppf(0.9, 4), stats.norm.ppf(0.975)
+        let two = product_correlation_quantile(0.95, &[HALF_ROOT], 10.0, Sides::Two).expect("q");
+        assert_close(two, 2.228138851986274, 1e-9, "t quantile two-sided");
+        let one = product_correlation_quantile(0.9, &[0.4], 4.0, Sides::One).expect("q");
+        assert_close(one, 1.533206274058944, 1e-9, "t quantile one-sided");
+        let normal = product_correlation_quantile(0.95, &[0.2], f64::INFINITY, Sides::Two).expect("q");
+        assert_close(normal, 1.959963984540054, 1e-9, "normal quantile");
+    }
+
+    #[test]
+    fn independent_normal_comparisons_multiply() {
+        // scipy 1.17.1: stats.norm.cdf(1.7)**3 and (2 * stats.norm.cdf(2.2) - 1)**4
+        let one = product_correlation_cdf(1.7, &[0.0; 3], f64::INFINITY, Sides::One).expect("cdf");
+        assert_close(one, 0.8721733425417596, 1e-13, "one-sided product");
+        let two = product_correlation_cdf(2.2, &[0.0; 4], f64::INFINITY, Sides::Two).expect("cdf");
+        assert_close(two, 0.8933263544638163, 1e-13, "two-sided product");
+    }
+
+    #[test]
+    fn lambdas_close_to_one_act_as_one_comparison() {
+        // scipy 1.17.1: 2 * stats.t.cdf(2.0, 6) - 1 and stats.t.cdf(-0.4, 12). With every
+        // lambda at 1 - 1e-12 the comparisons coincide up to sqrt(1 - lambda^2) ~ 1.4e-6.
+        let lambdas = [1.0 - 1e-12; 5];
+        let two = product_correlation_cdf(2.0, &lambdas, 6.0, Sides::Two).expect("cdf");
+        assert_close(two, 0.907573688468325, 1e-5, "two-sided");
+        let one = product_correlation_cdf(-0.4, &lambdas, 12.0, Sides::One).expect("cdf");
+        assert_close(one, 0.3480926526963336, 1e-5, "one-sided");
+    }
+
+    /// Checks that every printed two-decimal critical value `printed` for `m = 2, 3, ...`
+    /// treatments (equal sizes, rho = 1/2) brackets the true value to within 0.005:
+    /// `P(printed - 0.005) < 0.95 < P(printed + 0.005)`.
+    fn check_table_row(row: &[f64], df: f64, sides: Sides) {
+        for (index, &printed) in row.iter().enumerate() {
+            let n_treatments = index + 2;
+            let lambdas = vec![HALF_ROOT; n_treatments];
+            let below = product_correlation_cdf(printed - 0.005, &lambdas, df, sides).expect("cdf");
+            let above = product_correlation_cdf(printed + 0.005, &lambdas, df, sides).expect("cdf");
+            assert!(
+                below < 0.95 && 0.95 < above,
+                "{sides:?} df {df} m {n_treatments}: {below} {above}"
+            );
+        }
+    }
+
+    #[test]
+    #[allow(clippy::approx_constant)] // 3.14 is a table entry, not pi
+    fn two_sided_table_df_10() {
+        // Dunnett (1964) two-sided 95% table, df = 10, m = 2..9, from memory.
+        check_table_row(&[2.57, 2.76, 2.89, 2.99, 3.07, 3.14, 3.19, 3.24], 10.0, Sides::Two);
+    }
+
+    #[test]
+    fn two_sided_table_df_20() {
+        // Dunnett (1964) two-sided 95% table, df = 20, m = 2..9, from memory.
+        check_table_row(&[2.38, 2.54, 2.65, 2.73, 2.80, 2.86, 2.90, 2.95], 20.0, Sides::Two);
+    }
+
+    #[test]
+    fn two_sided_table_df_infinite() {
+        // Dunnett (1964) two-sided 95% table, df = infinity, m = 2..9, from memory.
+        let row = [2.21, 2.35, 2.44, 2.51, 2.57, 2.61, 2.65, 2.69];
+        check_table_row(&row, f64::INFINITY, Sides::Two);
+    }
+
+    #[test]
+    fn one_sided_tables() {
+        // Dunnett (1955) one-sided 95% table, m = 2..9, from memory: df = infinity in full,
+        // df = 10 for m = 2..5.
+        let row = [1.92, 2.06, 2.16, 2.23, 2.29, 2.34, 2.38, 2.42];
+        check_table_row(&row, f64::INFINITY, Sides::One);
+        check_table_row(&[2.15, 2.34, 2.47, 2.56], 10.0, Sides::One);
+    }
+
+    #[test]
+    fn critical_values_match_mpmath() {
+        // mpmath 1.3.0 (18 digits for finite df, 20 for infinite): one secant step on the
+        // nested-quadrature cdf from a start within 1e-9 of the root, script
+        // testdata/dunnett_reference.py, quantile_by_secant(p, lambdas, df, sides, start).
+        let cases: Vec<(f64, Vec<f64>, f64, Sides, f64)> = vec![
+            // quantile_by_secant(0.95, [sqrt(1/2)]*4, 20, 2, '2.651029589573')
+            (0.95, vec![HALF_ROOT; 4], 20.0, Sides::Two, 2.651029589572708),
+            // quantile_by_secant(0.99, [sqrt(1/2)]*9, 'inf', 2, '3.218952828203')
+            (0.99, vec![HALF_ROOT; 9], f64::INFINITY, Sides::Two, 3.2189528282028137),
+        ];
+        for (p, lambdas, df, sides, expected) in cases {
+            let actual = product_correlation_quantile(p, &lambdas, df, sides).expect("quantile");
+            assert_close(actual, expected, 1e-11, "critical value");
+        }
+    }
+
+    #[test]
+    fn mcb_critical_values_match_mpmath() {
+        // mpmath 1.3.0 at 20 digits, as above: sizes 4, 6, 9, 95%, one-sided with
+        // lambda_j = sqrt(n_j / (n_j + n_i)), j != i, df infinite:
+        // infinite_df_secant_cases() in testdata/dunnett_reference.py.
+        let values = mcb_critical_values(&[4.0, 6.0, 9.0], f64::INFINITY, 0.95).expect("mcb");
+        let expected = [1.8905565363407209, 1.9177690480199763, 1.9339573471014975];
+        for (value, reference) in values.iter().zip(expected) {
+            assert_close(*value, reference, 1e-11, "mcb df infinite");
+        }
+    }
+
+    #[test]
+    fn mcb_with_equal_sizes_is_one_sided_dunnett() {
+        // Hsu (1996): with equal sizes every d_i is the one-sided Dunnett value
+        // for k - 1 comparisons with rho = 1/2; Dunnett (1955) prints 2.19 for m = 3,
+        // df = 20, 95% (from memory).
+        let values = mcb_critical_values(&[5.0; 4], 20.0, 0.95).expect("mcb");
+        let dunnett = product_correlation_quantile(0.95, &[HALF_ROOT; 3], 20.0, Sides::One).expect("q");
+        for value in values {
+            assert_eq!(value, dunnett);
+        }
+        assert!((dunnett - 2.19).abs() <= 0.005, "{dunnett}");
+    }
+
+    #[test]
+    fn probabilities_respect_known_inequalities() {
+        // common practice: a distribution function rises with c and two-sided coverage is
+        // below one-sided. With positive correlations the joint coverage is at least the
+        // product of the single-comparison coverages (Sidak 1967; Kimball 1951 for the
+        // shared chi), here from statrs 0.19.1's Student t.
+        let lambdas = unequal_lambdas();
+        for (df, steps) in [(f64::INFINITY, 8), (4.0, 3)] {
+            let single = StudentsT::new(0.0, 1.0, df.min(1e300)).expect("t");
+            let mut previous = 0.0;
+            for step in 0..steps {
+                let c = 0.7 + 3.0 * f64::from(step) / f64::from(steps);
+                let two = product_correlation_cdf(c, &lambdas, df, Sides::Two).expect("cdf");
+                let one = product_correlation_cdf(c, &lambdas, df, Sides::One).expect("cdf");
+                assert!(two > previous && two < one, "c {c}: {two} {one}");
+                previous = two;
+                let marginal = if df.is_finite() {
+                    2.0 * single.cdf(c) - 1.0
+                } else {
+                    2.0 * Normal::standard().cdf(c) - 1.0
+                };
+                let product = marginal.powi(lambdas.len() as i32);
+                assert!(two >= product - 1e-9, "c {c}: {two} < {product}");
+            }
+        }
+    }
+
+    #[test]
+    fn invalid_input_is_refused() {
+        let invalid = |result: Result<f64, StatsError>| matches!(result, Err(StatsError::InvalidParameter { .. }));
+        assert!(invalid(product_correlation_cdf(f64::NAN, &[0.5], 5.0, Sides::One)));
+        assert!(invalid(product_correlation_cdf(2.0, &[1.0], 5.0, Sides::One)));
+        assert!(invalid(product_correlation_cdf(2.0, &[-0.1], 5.0, Sides::One)));
+        assert!(invalid(product_correlation_cdf(2.0, &[f64::NAN], 5.0, Sides::One)));
+        assert!(invalid(product_correlation_cdf(2.0, &[0.5], 0.0, Sides::One)));
+        assert!(invalid(product_correlation_cdf(2.0, &[0.5], f64::NAN, Sides::Two)));
+        assert!(invalid(product_correlation_quantile(1.0, &[0.5], 5.0, Sides::Two)));
+        assert!(invalid(product_correlation_quantile(0.0, &[0.5], 5.0, Sides::Two)));
+        assert!(invalid(product_correlation_quantile(f64::NAN, &[0.5], 5.0, Sides::Two)));
+        assert!(matches!(
+            product_correlation_cdf(2.0, &[], 5.0, Sides::One),
+            Err(StatsError::TooFewValues { .. })
+        ));
+        assert!(matches!(
+            dunnett_lambdas(0.0, &[3.0]),
+            Err(StatsError::InvalidParameter { .. })
+        ));
+        assert!(matches!(
+            dunnett_lambdas(3.0, &[]),
+            Err(StatsError::TooFewValues { .. })
+        ));
+        assert!(matches!(
+            mcb_critical_values(&[4.0], 10.0, 0.95),
+            Err(StatsError::TooFewValues { .. })
+        ));
+        assert!(matches!(
+            mcb_critical_values(&[4.0, f64::INFINITY], 10.0, 0.95),
+            Err(StatsError::InvalidParameter { .. })
+        ));
+        // common practice: limits of a distribution function.
+        assert_eq!(product_correlation_cdf(f64::INFINITY, &[0.5], 3.0, Sides::Two), Ok(1.0));
+        assert_eq!(product_correlation_cdf(-1.0, &[0.5], 3.0, Sides::Two), Ok(0.0));
+    }
+
+    #[test]
+    fn kronrod_rule_integrates_polynomials_exactly() {
+        // common practice: the Gauss 10-point rule is exact to degree 19, its Kronrod
+        // extension to degree 31.
+        for degree in 0..32 {
+            let exact = if degree % 2 == 1 {
+                0.0
+            } else {
+                2.0 / (degree as f64 + 1.0)
+            };
+            let (kronrod, gauss) = kronrod_panel(&mut |x: f64| Ok(x.powi(degree)), -1.0, 1.0).expect("rule");
+            assert!((kronrod - exact).abs() < 1e-14, "degree {degree}: {kronrod}");
+            if degree < 20 {
+                assert!((gauss - exact).abs() < 1e-14, "degree {degree}: {gauss}");
+            }
+        }
+    }
+
+    #[test]
+    fn erfc_matches_mpmath() {
+        // mpmath 1.3.0 at 30 digits: mpmath.erfc(x).
+        let cases = [
+            (-1.5, 1.9661051464753108),
+            (0.3, 0.6713732405408726),
+            (0.7, 0.3221988061625815),
+            (2.5, 0.0004069520174449589),
+            (6.0, 2.1519736712498913e-17),
+            (12.0, 1.3562611692059042e-64),
+            (26.0, 5.663192408856143e-296),
+        ];
+        for (x, expected) in cases {
+            let relative = (erfc(x) - expected).abs() / expected;
+            assert!(relative < 4e-15, "erfc({x}): {} vs {expected}", erfc(x));
+        }
+    }
+
+    #[test]
+    fn chi_density_in_log_form_integrates_to_one() {
+        // common practice: a probability density integrates to 1.
+        for df in [0.7, 1.0, 3.0, 19.9, 20.1, 150.0, 1e5, 1e9] {
+            let log_peak = log_density_peak(df);
+            let mass = integrate_adaptive(
+                |u| Ok((log_peak + log_density_drop(df, u)).exp()),
+                outer_breakpoints(df),
+                OUTER_TOLERANCE,
+                "test",
+            )
+            .expect("density integral");
+            assert!((mass - 1.0).abs() < 1e-12, "df {df}: {mass}");
+        }
+    }
+
+    #[test]
+    fn stirling_branch_meets_log_gamma_branch() {
+        // common practice: both formulas for ln Gamma agree where they meet (df/2 = 10).
+        let half = 10.0_f64;
+        let direct = LN_2 + half * half.ln() - half - ln_gamma(half);
+        assert!((log_density_peak(20.0) - direct).abs() < 1e-13);
+    }
+}
