@@ -40,6 +40,16 @@ pub enum Command {
     Plan(PlanArgs),
     /// Power and sample size for the next trial.
     Size(SizeArgs),
+    /// Answer a spreadsheet add-in or editor over JSON-RPC (Language Server Protocol framing) on stdio.
+    Serve(ServeArgs),
+}
+
+/// `trialyst serve`.
+#[derive(Debug, Args)]
+pub struct ServeArgs {
+    /// Serve one connection on a loopback TCP address (127.0.0.1:PORT) instead of stdio.
+    #[arg(long, value_name = "ADDRESS")]
+    pub listen: Option<String>,
 }
 
 /// `trialyst plan`.
@@ -394,6 +404,16 @@ pub fn main_with(cli: Cli) -> i32 {
         Command::Inspect(args) => inspect_command(args),
         Command::Plan(args) => plan_command(args),
         Command::Size(args) => size_command(args),
+        Command::Serve(args) => {
+            let served = match &args.listen {
+                Some(address) => crate::lsp::serve_tcp(address),
+                None => crate::lsp::serve_stdio(),
+            };
+            served.unwrap_or_else(|error| {
+                eprintln!("trialyst: {}", error_chain(&error));
+                crate::lsp::EXIT_CANNOT_START
+            })
+        }
     }
 }
 

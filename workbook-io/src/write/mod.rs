@@ -35,7 +35,8 @@ pub enum NumberFormat {
 }
 
 impl NumberFormat {
-    fn code(self) -> String {
+    /// The format code a spreadsheet understands, such as `0.000` or `#,##0`.
+    pub fn code(self) -> String {
         match self {
             NumberFormat::General => "General".into(),
             NumberFormat::Integer => "#,##0".into(),
