@@ -542,6 +542,8 @@ fn load(path: &Path, request: &AnalysisRequest) -> Result<Loaded, ServiceError> 
         });
     };
     findings.append(&mut table.findings);
+    // A plan workbook's runs are checked against the plan it carries.
+    findings.extend(crate::plan::plan_findings(&mut workbook, &settings, &table));
     let source = SourceInfo {
         path: path.display().to_string(),
         file_name: path

@@ -58,6 +58,14 @@ pub struct Settings {
     /// Highest order of interaction in a factorial model (1 = main effects only);
     /// `None` fits every order the replication allows.
     pub interaction_order: Option<usize>,
+    /// The identifier of the trial plan the workbook was written from; when
+    /// set, the runs are checked against the plan kept in the workbook.
+    pub plan_id: Option<String>,
+    /// The seed the plan's run order was drawn from (a record for people;
+    /// the check reads the plan itself).
+    pub plan_seed: Option<u64>,
+    /// The number of runs in the plan.
+    pub plan_runs: Option<usize>,
 }
 
 /// A settings value that could not be used.
@@ -104,6 +112,9 @@ pub const KNOWN_KEYS: &[&str] = &[
     "control",
     "output folder",
     "interaction order",
+    "plan id",
+    "plan seed",
+    "plan runs",
 ];
 
 fn list(value: &str) -> Vec<String> {
@@ -234,6 +245,15 @@ impl Settings {
                     Some(order) => settings.interaction_order = order,
                     None => errors.push(bad("a whole number of at least 1, or all")),
                 },
+                "plan id" => settings.plan_id = Some(value.to_string()).filter(|text| !text.is_empty()),
+                "plan seed" => match value.parse::<u64>() {
+                    Ok(seed) => settings.plan_seed = Some(seed),
+                    Err(_) => errors.push(bad("a whole number from 0 to 18446744073709551615")),
+                },
+                "plan runs" => match value.parse::<usize>() {
+                    Ok(runs) if runs > 0 => settings.plan_runs = Some(runs),
+                    _ => errors.push(bad("a whole number of runs, at least 1")),
+                },
                 _ => errors.push(SettingsError::UnknownKey {
                     place: place.clone(),
                     key,
@@ -272,6 +292,9 @@ impl Settings {
             control: pick(self.control, &lower.control),
             out_dir: pick(self.out_dir, &lower.out_dir),
             interaction_order: pick(self.interaction_order, &lower.interaction_order),
+            plan_id: pick(self.plan_id, &lower.plan_id),
+            plan_seed: pick(self.plan_seed, &lower.plan_seed),
+            plan_runs: pick(self.plan_runs, &lower.plan_runs),
         }
     }
 

@@ -488,20 +488,9 @@ fn aliased_active_interactions_get_a_fold_over() {
     assert!(follow_up.contains("fold-over"), "{follow_up}");
 }
 
-/// The built `trialyst` binary, built first if it is not there yet.
+/// The built `trialyst` binary (this package's copy; see tests/Cargo.toml).
 fn trialyst_binary() -> PathBuf {
-    let exe = std::env::current_exe().expect("test executable");
-    let profile_dir = exe.parent().and_then(Path::parent).expect("target profile folder");
-    let binary = profile_dir.join(format!("trialyst{}", std::env::consts::EXE_SUFFIX));
-    if !binary.exists() {
-        let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
-        let status = std::process::Command::new(cargo)
-            .args(["build", "-p", "sidecar", "--bin", "trialyst"])
-            .status()
-            .expect("cargo build");
-        assert!(status.success(), "building trialyst failed");
-    }
-    binary
+    crate::common::trialyst_path()
 }
 
 #[test]

@@ -1,5 +1,5 @@
-//! Analyses built from the statistics routines: the one-way model and the
-//! contrasts users write. Plain Rust values in, plain Rust values out; no I/O.
+//! Analyses built from the statistics routines: the one-way model, the
+//! contrasts users write, and power and sample size for planning. Plain Rust values in, plain Rust values out; no I/O.
 
 pub mod assessment;
 pub mod comparisons;
@@ -7,4 +7,5 @@ pub mod contrast;
 pub mod factorial;
 pub mod letters;
 pub mod oneway;
+pub mod power;
 pub mod verdict;
