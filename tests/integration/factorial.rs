@@ -2,7 +2,7 @@
 //! the factorial outcome checked against published examples and statsmodels; the built
 //! binary run on a factorial workbook and its results read back with calamine.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use calamine::{open_workbook_auto, Data, Reader};
 use sidecar::analysis::factorial::FactorialOutcome;
@@ -488,11 +488,6 @@ fn aliased_active_interactions_get_a_fold_over() {
     assert!(follow_up.contains("fold-over"), "{follow_up}");
 }
 
-/// The built `trialyst` binary (this package's copy; see tests/Cargo.toml).
-fn trialyst_binary() -> PathBuf {
-    crate::common::trialyst_path()
-}
-
 #[test]
 fn binary_writes_factorial_sheets_and_json() {
     let folder = tempfile::tempdir().expect("temp dir");
@@ -504,7 +499,7 @@ fn binary_writes_factorial_sheets_and_json() {
         })
         .collect();
     write_workbook(&path, &["Turns", "Distance", "Gauge", "Sensitivity"], &rows, &[]);
-    let binary = trialyst_binary();
+    let binary = crate::common::trialyst_path();
     let output = std::process::Command::new(&binary)
         .arg("run")
         .arg(&path)

@@ -47,6 +47,9 @@ pub const RESIDUAL_CHECK_MAX: usize = 5000;
 /// At most this many two-factor tables of model means are kept (largest interactions first).
 pub const MAX_TWO_WAY_TABLES: usize = 6;
 
+/// Up to this many combinations of levels, cell sums are accumulated in one pass.
+const DIRECT_GRID_MAX: usize = 4096;
+
 /// At most this many combinations of levels are searched for the best settings.
 pub const MAX_SETTINGS_SEARCHED: usize = 100_000;
 
@@ -923,6 +926,11 @@ fn two_level_coding(table: &TrialTable, treatments: &[usize], usable: &[usize]) 
     if treatments.len() < 2 || treatments.len() > FACTOR_LETTERS.len() {
         return None;
     }
+    if treatments.iter().any(|&factor| table.factors[factor].levels.len() > 3) {
+        // Levels without usable values are rare; a factor with more than three labels
+        // is not treated as two-level.
+        return None;
+    }
     let mut coded = Vec::with_capacity(treatments.len());
     let mut info = Vec::with_capacity(treatments.len());
     for &factor in treatments {
@@ -964,26 +972,49 @@ fn summarise(
             *slot = *slot * (*radix as u32) + level as u32;
         }
     }
+    // Small grids accumulate straight into one group per combination (one pass);
+    // large ones number the present combinations first.
+    let direct = n_possible <= DIRECT_GRID_MAX;
     let mut compact: Vec<u32> = vec![u32::MAX; n_possible];
     let mut present: Vec<u32> = Vec::new();
-    for &index in &grid_index {
-        if compact[index as usize] == u32::MAX {
+    let mut accumulator = if direct {
+        let mut accumulator = GroupAccumulator::new(n_possible);
+        for (&index, &record) in grid_index.iter().zip(records) {
+            accumulator.push(index as usize, values[record]).ok()?;
             compact[index as usize] = 0;
-            present.push(index);
         }
-    }
-    present.sort_unstable();
+        present.extend((0..n_possible as u32).filter(|&index| compact[index as usize] == 0));
+        accumulator
+    } else {
+        for &index in &grid_index {
+            if compact[index as usize] == u32::MAX {
+                compact[index as usize] = 0;
+                present.push(index);
+            }
+        }
+        present.sort_unstable();
+        GroupAccumulator::new(present.len())
+    };
     for (position, &index) in present.iter().enumerate() {
         compact[index as usize] = position as u32;
     }
-    let mut accumulator = GroupAccumulator::new(present.len());
-    let mut cell_of_record = Vec::with_capacity(records.len());
-    for (&index, &record) in grid_index.iter().zip(records) {
-        let cell = compact[index as usize];
-        cell_of_record.push(cell);
-        accumulator.push(cell as usize, values[record]).ok()?;
+    if !direct {
+        for (&index, &record) in grid_index.iter().zip(records) {
+            accumulator
+                .push(compact[index as usize] as usize, values[record])
+                .ok()?;
+        }
     }
-    let stats = accumulator.finish();
+    let all_stats = accumulator.finish();
+    let stats: Vec<_> = if direct {
+        present.iter().map(|&index| all_stats[index as usize].clone()).collect()
+    } else {
+        all_stats
+    };
+    let mut cell_of_record = grid_index;
+    for slot in &mut cell_of_record {
+        *slot = compact[*slot as usize];
+    }
     let radix: Vec<usize> = used.iter().map(|factor| factor.level_names.len()).collect();
     let cells = present
         .iter()
@@ -2227,13 +2258,13 @@ fn prediction(
 
 fn residual_check(input: &ReducedInput<'_>, fitted_cells: &[f64], sigma: Option<f64>) -> Option<ResidualCheck> {
     let values = &input.table.responses[input.response_index].values;
-    let residuals: Vec<f64> = input
-        .model_records
-        .iter()
-        .zip(input.cell_of_record)
-        .map(|(&record, &cell)| values[record] - fitted_cells[cell as usize])
-        .collect();
-    residual_check_of(input, &residuals, input.model_records, sigma)
+    residual_check_with(input, input.model_records.len(), sigma, |position| {
+        let record = input.model_records[position];
+        (
+            values[record] - fitted_cells[input.cell_of_record[position] as usize],
+            record,
+        )
+    })
 }
 
 fn residual_check_of(
@@ -2242,23 +2273,41 @@ fn residual_check_of(
     records: &[usize],
     sigma: Option<f64>,
 ) -> Option<ResidualCheck> {
-    if residuals.is_empty() {
+    residual_check_with(input, residuals.len(), sigma, |position| {
+        (residuals[position], records[position])
+    })
+}
+
+/// The residual check over `n_residuals` residuals given one at a time (residual and
+/// its record), without holding them all: an even spread of at most
+/// [`RESIDUAL_CHECK_MAX`] goes to the normality tests, and the largest is kept.
+fn residual_check_with(
+    input: &ReducedInput<'_>,
+    n_residuals: usize,
+    sigma: Option<f64>,
+    residual_at: impl Fn(usize) -> (f64, usize),
+) -> Option<ResidualCheck> {
+    if n_residuals == 0 {
         return None;
     }
-    let checked: Vec<f64> = if residuals.len() > RESIDUAL_CHECK_MAX {
-        (0..RESIDUAL_CHECK_MAX)
-            .map(|i| residuals[i * residuals.len() / RESIDUAL_CHECK_MAX])
-            .collect()
-    } else {
-        residuals.to_vec()
-    };
-    let largest = sigma.filter(|s| *s > 0.0).and_then(|s| {
-        let (position, value) = residuals
-            .iter()
-            .enumerate()
-            .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))?;
-        Some((value / s, place(input.table, input.response_index, records[position])))
-    });
+    let n_checked = n_residuals.min(RESIDUAL_CHECK_MAX);
+    let mut checked = Vec::with_capacity(n_checked);
+    let mut next_sample = 0usize;
+    let mut largest: Option<(f64, usize)> = None;
+    for position in 0..n_residuals {
+        let (residual, record) = residual_at(position);
+        if checked.len() < n_checked && position == next_sample {
+            checked.push(residual);
+            next_sample = (checked.len() * n_residuals) / n_checked;
+        }
+        if largest.is_none_or(|(size, _)| residual.abs() > size.abs()) {
+            largest = Some((residual, record));
+        }
+    }
+    let largest = sigma
+        .filter(|s| *s > 0.0)
+        .zip(largest)
+        .map(|(s, (residual, record))| (residual / s, place(input.table, input.response_index, record)));
     let (shapiro_wilk, anderson_darling, reading) = match check_normality(&checked) {
         Ok(check) => {
             let p = check.preferred_p_value();
@@ -2285,7 +2334,7 @@ fn residual_check_of(
     };
     Some(ResidualCheck {
         n_checked: checked.len(),
-        n_residuals: residuals.len(),
+        n_residuals,
         shapiro_wilk,
         anderson_darling,
         largest,
