@@ -5,42 +5,12 @@
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
-use std::sync::OnceLock;
 
 use calamine::{open_workbook_auto, Data, Reader};
 
-/// The built `trialyst` binary, built once if the test run has not built it.
+/// The built `trialyst` binary (this package's copy; see tests/Cargo.toml).
 fn trialyst() -> PathBuf {
-    static BINARY: OnceLock<PathBuf> = OnceLock::new();
-    BINARY
-        .get_or_init(|| {
-            let test_exe = std::env::current_exe().expect("test executable path");
-            // <target>/<profile>/deps/integration-<hash>
-            let profile_dir = test_exe
-                .parent()
-                .and_then(Path::parent)
-                .expect("profile folder")
-                .to_path_buf();
-            let binary = profile_dir.join(format!("trialyst{}", std::env::consts::EXE_SUFFIX));
-            let target_dir = profile_dir.parent().expect("target folder").to_path_buf();
-            let profile = profile_dir
-                .file_name()
-                .and_then(|name| name.to_str())
-                .unwrap_or("debug");
-            let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
-            let mut build = Command::new(cargo);
-            build
-                .args(["build", "--quiet", "-p", "sidecar", "--bin", "trialyst", "--target-dir"])
-                .arg(&target_dir)
-                .current_dir(env!("CARGO_MANIFEST_DIR"));
-            if profile == "release" {
-                build.arg("--release");
-            }
-            let status = build.status().expect("cargo runs");
-            assert!(status.success(), "building trialyst failed");
-            binary
-        })
-        .clone()
+    crate::common::trialyst_path()
 }
 
 fn run_in(folder: &Path, args: &[&str]) -> Output {

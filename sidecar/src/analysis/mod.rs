@@ -4,6 +4,7 @@
 pub mod assessment;
 pub mod comparisons;
 pub mod contrast;
+pub mod factorial;
 pub mod letters;
 pub mod oneway;
 pub mod power;

@@ -590,6 +590,7 @@ pub fn size_book(answer: &SizeAnswer) -> Book {
                 values: SheetRange::column(SIZE_SHEET, 3, header_row + 1, end - 1),
                 bar_plus: None,
                 bar_minus: None,
+                labels: None,
             }],
             anchor: (header_row, 5),
             size: (520, 320),

@@ -9,9 +9,9 @@
 use std::path::{Path, PathBuf};
 
 use rust_xlsxwriter::{
-    Chart, ChartErrorBars, ChartErrorBarsType, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, ChartRange,
-    ChartSolidFill, Color, DataValidation, DataValidationErrorStyle, DataValidationRule, DocProperties, ExcelDateTime,
-    Format, FormatAlign, FormatBorder, Formula, Workbook as XlsxWorkbook, XlsxError,
+    Chart, ChartDataLabel, ChartErrorBars, ChartErrorBarsType, ChartFormat, ChartLine, ChartMarker, ChartMarkerType,
+    ChartRange, ChartSolidFill, Color, DataValidation, DataValidationErrorStyle, DataValidationRule, DocProperties,
+    ExcelDateTime, Format, FormatAlign, FormatBorder, Formula, Workbook as XlsxWorkbook, XlsxError,
 };
 
 /// The longest text a cell may hold in xlsx.
@@ -69,6 +69,8 @@ pub enum Look {
     Verdict,
     /// A key in a key/value list.
     Key,
+    /// Running text, wrapped within the column.
+    Paragraph,
 }
 
 /// A cell's content.
@@ -193,6 +195,8 @@ pub struct Series {
     pub bar_plus: Option<SheetRange>,
     /// Downward half-widths of interval bars, if any.
     pub bar_minus: Option<SheetRange>,
+    /// Text labels shown beside the points, one cell per point, if any.
+    pub labels: Option<SheetRange>,
 }
 
 /// A chart placed on a sheet.
@@ -227,6 +231,8 @@ pub struct Sheet {
     pub charts: Vec<ChartSpec>,
     /// Rows frozen at the top (0 for none).
     pub frozen_rows: u32,
+    /// Row heights in points, by row, for rows of wrapped text.
+    pub heights: Vec<(u32, f64)>,
     /// Areas where typing is limited to numbers.
     pub number_only: Vec<NumberOnly>,
 }
@@ -281,6 +287,21 @@ impl Sheet {
     /// Places a value.
     pub fn put(&mut self, row: u32, col: u16, value: Value, look: Look) {
         self.cells.push(Placed { row, col, value, look });
+    }
+
+    /// Places wrapped text in a column `width` characters wide and sets the
+    /// row's height to fit it (spreadsheet programs do not always refit rows
+    /// of wrapped text on opening).
+    pub fn paragraph(&mut self, row: u32, col: u16, text: impl Into<String>, look: Look, width: f64) {
+        let text = text.into();
+        // About 1.1 characters of body text per unit of column width; 15 points a line.
+        let large = matches!(look, Look::Verdict | Look::Heading | Look::Title);
+        let per_line = (width * if large { 0.85 } else { 1.1 }).max(10.0);
+        let lines = text.chars().count() as f64 / per_line;
+        let scale = if large { 1.2 } else { 1.0 };
+        self.heights.push((row, 15.5 * scale * lines.ceil().max(1.0)));
+        let look = if look == Look::Plain { Look::Paragraph } else { look };
+        self.put(row, col, Value::Text(text), look);
     }
 
     /// Places a table: a header row and rows of values. Returns the first row after it.
@@ -339,6 +360,7 @@ struct Looks {
     caution: Format,
     verdict: Format,
     key: Format,
+    paragraph: Format,
 }
 
 impl Looks {
@@ -355,13 +377,22 @@ impl Looks {
                 .set_align(FormatAlign::VerticalCenter)
                 .set_border_bottom(FormatBorder::Medium)
                 .set_background_color(Color::RGB(0xE8EEF4)),
-            note: Format::new().set_italic().set_font_color(Color::RGB(0x505A64)),
+            note: Format::new()
+                .set_italic()
+                .set_text_wrap()
+                .set_align(FormatAlign::Top)
+                .set_font_color(Color::RGB(0x505A64)),
             caution: Format::new()
                 .set_bold()
                 .set_font_color(Color::RGB(0x8A3B00))
                 .set_text_wrap(),
-            verdict: Format::new().set_bold().set_font_size(12).set_text_wrap(),
+            verdict: Format::new()
+                .set_bold()
+                .set_font_size(12)
+                .set_text_wrap()
+                .set_align(FormatAlign::Top),
             key: Format::new().set_bold(),
+            paragraph: Format::new().set_text_wrap().set_align(FormatAlign::Top),
         }
     }
 
@@ -375,6 +406,7 @@ impl Looks {
             Look::Caution => &self.caution,
             Look::Verdict => &self.verdict,
             Look::Key => &self.key,
+            Look::Paragraph => &self.paragraph,
         }
     }
 }
@@ -403,6 +435,12 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
         worksheet.set_name(&sheet.name)?;
         for (col, width) in &sheet.widths {
             worksheet.set_column_width(*col, *width)?;
+        }
+        // Printed, every sheet fits the page width, in landscape.
+        worksheet.set_landscape();
+        worksheet.set_print_fit_to_pages(1, 0);
+        for (row, height) in &sheet.heights {
+            worksheet.set_row_height(*row, *height)?;
         }
         if sheet.frozen_rows > 0 {
             worksheet.set_freeze_panes(sheet.frozen_rows, 0)?;
@@ -517,6 +555,18 @@ fn build_chart(spec: &ChartSpec) -> Chart {
             .set_end_cap(true)
             .set_format(ChartLine::new().set_color(colour).set_width(1.25));
             series.set_y_error_bars(&bars);
+        }
+        if let Some(labels) = &series_spec.labels {
+            // One label per point, each taking its text from one cell of the range.
+            let custom: Vec<ChartDataLabel> = (labels.first_row..=labels.last_row)
+                .flat_map(|row| (labels.first_col..=labels.last_col).map(move |col| (row, col)))
+                .map(|(row, col)| {
+                    ChartDataLabel::new()
+                        .set_value((labels.sheet.as_str(), row, col, row, col))
+                        .to_custom()
+                })
+                .collect();
+            series.set_custom_data_labels(&custom);
         }
     }
     chart
