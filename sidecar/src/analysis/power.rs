@@ -28,11 +28,11 @@
 //! All-pairs intervals: the Tukey-Kramer half-width for equal `n` is
 //! `q(1 - alpha; k, k(n-1)) sigma / sqrt(n)` with `q` the studentized range
 //! quantile ([`studentized_range_quantile`], within about 1e-13 of mpmath).
-//! The runs needed are bracketed cheaply before the quantile is used: from
-//! below by the infinite-df quantile (the finite-df one is larger), from
-//! above by the Bonferroni t bound
-//! `t(1 - alpha / (2m); k(n - 1)) sigma sqrt(2 / n)`, `m = k(k-1)/2` pairs,
-//! which is never narrower; a bisection between them needs a few quantiles.
+//! The runs needed start from the bound the infinite-df quantile gives (the
+//! finite-df quantile is larger) and gallop upward, each step one
+//! evaluation of the studentized range distribution function. The
+//! Bonferroni t bound `t(1 - alpha / (2m); k(n - 1)) sigma sqrt(2 / n)`,
+//! `m = k(k-1)/2` pairs, is kept as a check: it is never narrower.
 //! The planning SD is taken as known, so the half-width is the one the
 //! trial will show if its pooled SD comes out at the planning value.
 //!
@@ -42,7 +42,7 @@
 use serde::Serialize;
 
 use crate::stats::dist::{f_test_power, t_isf};
-use crate::stats::studentized_range::studentized_range_quantile;
+use crate::stats::studentized_range::{studentized_range_cdf, studentized_range_quantile};
 use crate::stats::StatsError;
 
 /// The largest runs per condition (or replicates) a search will go to.
@@ -282,38 +282,103 @@ pub fn bonferroni_pairs_half_width(
 /// As [`pairs_half_width`]; `InvalidParameter` for a half-width that is not
 /// positive.
 pub fn pairs_runs_needed(n_conditions: usize, sd: f64, confidence: f64, half_width: f64) -> Result<usize, StatsError> {
+    Ok(pairs_plan(n_conditions, sd, confidence, half_width)?.0)
+}
+
+/// The fewest runs per condition for Tukey-Kramer all-pairs intervals no
+/// wider than `+- half_width`, with the half-width they reach.
+///
+/// # Errors
+///
+/// As [`pairs_runs_needed`].
+///
+/// # Remarks
+///
+/// The reached half-width needs the studentized range quantile at the
+/// answer's df. Its bracket is already known (the infinite-df quantile below,
+/// `W sqrt(n) / sd` above), so it is solved there by the Illinois variant of
+/// regula falsi on the distribution function (Dowell and Jarratt 1971, BIT
+/// 11), to 1e-10 relative: a few distribution-function evaluations, cheaper
+/// than a quantile from scratch.
+pub fn pairs_plan(n_conditions: usize, sd: f64, confidence: f64, half_width: f64) -> Result<(usize, f64), StatsError> {
     let half_width = check_positive("half-width", half_width)?;
     let (sd, confidence) = check_pairs_input(2, n_conditions, sd, confidence)?;
-    // Above: the Bonferroni bound is wider, so its n is enough.
-    let mut high = smallest_meeting(2, |n| {
-        Ok(bonferroni_pairs_half_width(n, n_conditions, sd, confidence)? <= half_width)
-    })?;
-    // Below: with infinite df the quantile is smallest.
     let q_limit = studentized_range_quantile(confidence, n_conditions, f64::INFINITY)?;
-    let low_bound = ((q_limit * sd / half_width).powi(2)).ceil();
-    let mut low = if low_bound.is_finite() {
-        (low_bound as usize).max(2)
-    } else {
-        high
+    let n = pairs_n_needed(n_conditions, sd, confidence, half_width, q_limit)?;
+    let df = (n_conditions * (n - 1)) as f64;
+    let gap = |q: f64| -> Result<f64, StatsError> { Ok(studentized_range_cdf(q, n_conditions, df)? - confidence) };
+    let (mut low, mut high) = (q_limit, half_width * (n as f64).sqrt() / sd);
+    let (mut gap_low, mut gap_high) = (gap(low)?, gap(high)?);
+    let mut side = 0i8;
+    for _ in 0..60 {
+        if gap_high == 0.0 || (high - low).abs() <= 1e-10 * high || gap_low >= 0.0 {
+            break;
+        }
+        let next = (low * gap_high - high * gap_low) / (gap_high - gap_low);
+        let gap_next = gap(next)?;
+        if gap_next >= 0.0 {
+            high = next;
+            gap_high = gap_next;
+            if side == 1 {
+                gap_low /= 2.0;
+            }
+            side = 1;
+        } else {
+            low = next;
+            gap_low = gap_next;
+            if side == -1 {
+                gap_high /= 2.0;
+            }
+            side = -1;
+        }
+    }
+    let critical = if gap_low >= 0.0 { low } else { high };
+    Ok((n, critical * sd / (n as f64).sqrt()))
+}
+
+fn pairs_n_needed(
+    n_conditions: usize,
+    sd: f64,
+    confidence: f64,
+    half_width: f64,
+    q_limit: f64,
+) -> Result<usize, StatsError> {
+    // The half-width at n is at most W exactly when the studentized range
+    // stays below W sqrt(n) / sd with probability at least the confidence:
+    // one distribution function per step instead of a quantile (several).
+    let meets = |n: usize| -> Result<bool, StatsError> {
+        let df = (n_conditions * (n - 1)) as f64;
+        let scaled = half_width * (n as f64).sqrt() / sd;
+        Ok(studentized_range_cdf(scaled, n_conditions, df)? >= confidence)
     };
-    low = low.min(high);
-    let meets =
-        |n: usize| -> Result<bool, StatsError> { Ok(pairs_half_width(n, n_conditions, sd, confidence)? <= half_width) };
+    // Below: with infinite df the quantile is smallest, so no n under
+    // (q_inf sd / W)^2 can do. The answer is usually that n or the next, so
+    // gallop upward from it, then bisect.
+    let low_bound = (q_limit * sd / half_width).powi(2).ceil();
+    if !low_bound.is_finite() || low_bound > MAX_SEARCH_N as f64 {
+        return Err(StatsError::NoConvergence {
+            what: "all-pairs sample size search (more than a million runs per condition needed)",
+            iterations: 0,
+        });
+    }
+    let mut low = (low_bound as usize).max(2);
     if meets(low)? {
         return Ok(low);
     }
+    let mut step = 1;
+    let mut high = low + step;
     while !meets(high)? {
-        // Not expected (Bonferroni is never narrower); widen to be safe.
         low = high;
-        high *= 2;
+        step *= 2;
+        high = low + step;
         if high > MAX_SEARCH_N {
             return Err(StatsError::NoConvergence {
-                what: "all-pairs sample size search",
+                what: "all-pairs sample size search (more than a million runs per condition needed)",
                 iterations: high,
             });
         }
     }
-    // Now meets(high) and not meets(low).
+    // Now meets(high) holds and meets(low) does not.
     while high - low > 1 {
         let middle = low + (high - low) / 2;
         if meets(middle)? {
@@ -473,6 +538,11 @@ mod tests {
         let bound = bonferroni_pairs_half_width(7, 4, 25.0, 0.95).expect("bound");
         assert!(bound > half, "{bound} {half}");
         let needed = pairs_runs_needed(3, 2.0, 0.95, 2.0).expect("n");
+        // The bracketed solve for the reached half-width agrees with the quantile.
+        let (same, reached) = pairs_plan(3, 2.0, 0.95, 2.0).expect("plan");
+        let direct = pairs_half_width(same, 3, 2.0, 0.95).expect("w");
+        assert_eq!(same, needed);
+        assert!((reached - direct).abs() <= 1e-9 * direct, "{reached} {direct}");
         assert!(pairs_half_width(needed, 3, 2.0, 0.95).expect("w") <= 2.0);
         assert!(pairs_half_width(needed - 1, 3, 2.0, 0.95).expect("w") > 2.0);
     }

@@ -12,8 +12,7 @@ use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series,
 use workbook_io::{open_workbook, CellValue, ReadError, ReadLimits, SheetGrid};
 
 use crate::analysis::power::{
-    check_one_way, one_way_power, one_way_runs_needed, pairs_half_width, pairs_runs_needed, two_level_effect_power,
-    OneWayEffect, PAIRS_METHOD,
+    check_one_way, one_way_power, one_way_runs_needed, pairs_plan, two_level_effect_power, OneWayEffect, PAIRS_METHOD,
 };
 use crate::report::names;
 use crate::stats::two_level::{minimum_aberration_design, DefiningRelation, DEFAULT_SEARCH_BUDGET};
@@ -375,7 +374,7 @@ pub fn size_answer(request: &SizeRequest) -> Result<SizeAnswer, SizeError> {
             let half_width = match request.half_width {
                 Some(wanted) => {
                     let confidence = 1.0 - alpha;
-                    let per_condition = pairs_runs_needed(*conditions, sd, confidence, wanted)?;
+                    let (per_condition, reached) = pairs_plan(*conditions, sd, confidence, wanted)?;
                     notes.push(
                         "The all-pairs half-width is the Tukey-Kramer one the trial will show if its pooled SD comes out at the planning SD; a larger SD widens it.".into(),
                     );
@@ -383,7 +382,7 @@ pub fn size_answer(request: &SizeRequest) -> Result<SizeAnswer, SizeError> {
                         wanted,
                         per_condition,
                         total_runs: per_condition * conditions,
-                        reached: pairs_half_width(per_condition, *conditions, sd, confidence)?,
+                        reached,
                         method: PAIRS_METHOD.into(),
                     })
                 }
