@@ -1,19 +1,15 @@
 //! `trialyst serve` end to end: the built binary, spoken to over its real
 //! stdio (and once over a loopback socket), as an add-in would.
 //!
-//! Finding the binary: this test crate depends on `sidecar` as a library,
-//! so cargo does not build the `trialyst` binary for it and
-//! `CARGO_BIN_EXE_trialyst` is not set here. [`trialyst_binary`] takes the
-//! test executable's own place (`target/<profile>/deps/integration-...`),
-//! runs `cargo build -p sidecar --bin trialyst` for that target folder and
-//! profile once per run (a no-op when it is up to date), and uses
-//! `target/<profile>/trialyst`.
+//! The binary is the real program built as this package's
+//! `trialyst-under-test` (see tests/Cargo.toml), so these tests always run
+//! against the current source.
 
 use std::collections::HashMap;
 use std::io::{BufRead, BufReader, Read, Write};
 use std::path::{Path, PathBuf};
 use std::process::{Child, Command, Stdio};
-use std::sync::{Arc, Condvar, Mutex, OnceLock};
+use std::sync::{Arc, Condvar, Mutex};
 use std::time::{Duration, Instant};
 
 use serde_json::{json, Value};
@@ -21,47 +17,9 @@ use serde_json::{json, Value};
 /// How long any one wait may take.
 const WAIT: Duration = Duration::from_secs(30);
 
-/// The `trialyst` binary next to this test executable, built if needed.
+/// The program under test.
 fn trialyst_binary() -> PathBuf {
-    static BINARY: OnceLock<PathBuf> = OnceLock::new();
-    BINARY
-        .get_or_init(|| {
-            let exe = std::env::current_exe().expect("the test executable's path");
-            // target/<profile>/deps/integration-<hash>
-            let profile_dir = exe
-                .parent()
-                .and_then(Path::parent)
-                .expect("the test executable lies in target/<profile>/deps")
-                .to_path_buf();
-            let target_dir = profile_dir.parent().expect("a target folder").to_path_buf();
-            let profile = match profile_dir.file_name().and_then(|name| name.to_str()) {
-                Some("debug") | None => "dev".to_string(),
-                Some(other) => other.to_string(),
-            };
-            let status = Command::new(env!("CARGO"))
-                .args([
-                    "build",
-                    "--quiet",
-                    "-p",
-                    "sidecar",
-                    "--bin",
-                    "trialyst",
-                    "--profile",
-                    &profile,
-                ])
-                .arg("--target-dir")
-                .arg(&target_dir)
-                .current_dir(env!("CARGO_MANIFEST_DIR"))
-                .status();
-            let binary = profile_dir.join(format!("trialyst{}", std::env::consts::EXE_SUFFIX));
-            assert!(
-                binary.is_file(),
-                "the trialyst binary is not at {} (cargo build: {status:?})",
-                binary.display()
-            );
-            binary
-        })
-        .clone()
+    PathBuf::from(env!("CARGO_BIN_EXE_trialyst-under-test"))
 }
 
 #[derive(Default)]
