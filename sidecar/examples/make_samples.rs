@@ -79,14 +79,13 @@ fn moulding(path: &Path) -> Result<(), XlsxError> {
         ("Tool M-7", 1.55, 18.22),
     ];
     let mut draws = Draws(7_331);
-    let mut row = 3;
-    for shot in 0..36 {
-        let (tool, shrink, weight) = tools[shot % 3];
+    for shot in 0..36u32 {
+        let row = shot + 3;
+        let (tool, shrink, weight) = tools[shot as usize % 3];
         sheet.write_number(row, 0, (shot + 1) as f64)?;
         sheet.write_string(row, 1, tool)?;
         sheet.write_number(row, 2, round_to(draws.normal(shrink, 0.05), 3))?;
         sheet.write_number(row, 3, round_to(draws.normal(weight, 0.08), 2))?;
-        row += 1;
     }
     // The settings sheet tells the analysis what to compare.
     let settings = workbook.add_worksheet().set_name("trialyst settings")?;

@@ -36,6 +36,114 @@ pub enum Command {
     Run(RunArgs),
     /// Show the table that would be analysed and every data problem, without analysing.
     Inspect(InspectArgs),
+    /// Write a trial-plan workbook: runs in a randomized order, blank result columns.
+    Plan(PlanArgs),
+    /// Power and sample size for the next trial.
+    Size(SizeArgs),
+    /// Answer a spreadsheet add-in or editor over JSON-RPC (Language Server Protocol framing) on stdio.
+    Serve(ServeArgs),
+}
+
+/// `trialyst serve`.
+#[derive(Debug, Args)]
+pub struct ServeArgs {
+    /// Serve one connection on a loopback TCP address (127.0.0.1:PORT) instead of stdio.
+    #[arg(long, value_name = "ADDRESS")]
+    pub listen: Option<String>,
+}
+
+/// `trialyst plan`.
+#[derive(Debug, Args)]
+pub struct PlanArgs {
+    /// A factor and its levels, e.g. "Temperature=160,180"; repeat for each factor.
+    #[arg(long)]
+    pub factor: Vec<String>,
+    /// A response column to fill in, e.g. "Yield (%)"; repeatable.
+    #[arg(long)]
+    pub response: Vec<String>,
+    /// Read the plan from a TOML file (options given here win over it).
+    #[arg(long)]
+    pub from: Option<PathBuf>,
+    /// Copies of the whole design (one-factor plans: runs per condition).
+    #[arg(long)]
+    pub replicates: Option<usize>,
+    /// Centre runs in each block (two-level plans with numeric factors).
+    #[arg(long)]
+    pub centre_points: Option<usize>,
+    /// Number of blocks: one per replicate, or each replicate split in 2, 4, 8 ...
+    #[arg(long)]
+    pub blocks: Option<usize>,
+    /// Runs of one replicate of a two-level fraction (a power of two).
+    #[arg(long)]
+    pub runs: Option<usize>,
+    /// A generator of a two-level fraction, e.g. "E=ABC"; repeatable (default: searched).
+    #[arg(long)]
+    pub generator: Vec<String>,
+    /// Seed of the run order (default: drawn from the clock and recorded).
+    #[arg(long)]
+    pub seed: Option<u64>,
+    /// The plan's date, YYYY-MM-DD (recorded as the file's creation date).
+    #[arg(long)]
+    pub date: Option<String>,
+    /// The plan workbook to write (default: trial-plan-<plan id>.xlsx here).
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Print the plan summary as JSON.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// `trialyst size`.
+#[derive(Debug, Args)]
+pub struct SizeArgs {
+    /// One-way trial: number of conditions.
+    #[arg(long)]
+    pub conditions: Option<usize>,
+    /// One-way trial: smallest difference between two conditions worth detecting.
+    #[arg(long)]
+    pub difference: Option<f64>,
+    /// One-way trial: supposed means of the conditions, e.g. "10,12,13".
+    #[arg(long, value_delimiter = ',')]
+    pub means: Vec<f64>,
+    /// One-way trial: wanted half-width of all-pairs intervals.
+    #[arg(long)]
+    pub half_width: Option<f64>,
+    /// Two-level trial: number of factors.
+    #[arg(long)]
+    pub factors: Option<usize>,
+    /// Two-level trial: effect worth detecting (difference of averages, high minus low).
+    #[arg(long)]
+    pub effect: Option<f64>,
+    /// Two-level trial: runs of one replicate of a fraction (default: the full factorial).
+    #[arg(long)]
+    pub runs: Option<usize>,
+    /// Two-level trial: centre runs added.
+    #[arg(long, default_value_t = 0)]
+    pub centre_points: usize,
+    /// Two-level trial: plan a model of main effects only (default: with two-factor interactions).
+    #[arg(long)]
+    pub main_effects_only: bool,
+    /// The SD of a single run.
+    #[arg(long)]
+    pub sd: Option<f64>,
+    /// Take the SD from the results workbook of the last trial.
+    #[arg(long)]
+    pub from_results: Option<PathBuf>,
+    /// The response whose SD to take from the results workbook.
+    #[arg(long)]
+    pub response: Option<String>,
+    /// Level of the test.
+    #[arg(long, default_value_t = 0.05)]
+    pub alpha: f64,
+    /// Power wanted.
+    #[arg(long, default_value_t = 0.8)]
+    pub power: f64,
+    /// Write the table of runs against power, with a chart, to this workbook.
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Print the answer as JSON.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// Options that choose the table and the analysis.
@@ -294,6 +402,18 @@ pub fn main_with(cli: Cli) -> i32 {
     match cli.command {
         Command::Run(args) => run_command(args),
         Command::Inspect(args) => inspect_command(args),
+        Command::Plan(args) => plan_command(args),
+        Command::Size(args) => size_command(args),
+        Command::Serve(args) => {
+            let served = match &args.listen {
+                Some(address) => crate::lsp::serve_tcp(address),
+                None => crate::lsp::serve_stdio(),
+            };
+            served.unwrap_or_else(|error| {
+                eprintln!("trialyst: {}", error_chain(&error));
+                crate::lsp::EXIT_CANNOT_START
+            })
+        }
     }
 }
 
@@ -453,4 +573,230 @@ fn inspect_command(args: InspectArgs) -> i32 {
             EXIT_SOME_FAILED
         }
     }
+}
+
+/// Reads `Name=level1,level2,...`.
+fn parse_factor_arg(text: &str) -> Result<crate::plan::FactorSpec, UsageError> {
+    let Some((name, levels)) = text.split_once('=') else {
+        return Err(UsageError(format!(
+            "--factor '{text}': write the name, '=' and the levels separated by commas, e.g. \"Temperature=160,180\""
+        )));
+    };
+    let levels: Vec<&str> = levels.split(',').map(str::trim).collect();
+    Ok(crate::plan::FactorSpec::new(name, &levels))
+}
+
+fn plan_request(args: &PlanArgs) -> Result<crate::plan::PlanRequest, String> {
+    let mut request = match &args.from {
+        Some(path) => {
+            let text =
+                std::fs::read_to_string(path).map_err(|error| format!("cannot read '{}': {error}", path.display()))?;
+            crate::plan::file::parse_plan_file(&text, &path.display().to_string()).map_err(|error| error.to_string())?
+        }
+        None => crate::plan::PlanRequest::default(),
+    };
+    if !args.factor.is_empty() {
+        request.factors = args
+            .factor
+            .iter()
+            .map(|text| parse_factor_arg(text))
+            .collect::<Result<_, _>>()
+            .map_err(|error| error.to_string())?;
+    }
+    if !args.response.is_empty() {
+        request.responses = args.response.clone();
+    }
+    if !args.generator.is_empty() {
+        request.generators = args.generator.clone();
+    }
+    request.replicates = args.replicates.unwrap_or(request.replicates);
+    request.centre_points = args.centre_points.unwrap_or(request.centre_points);
+    request.blocks = args.blocks.unwrap_or(request.blocks);
+    request.fraction_runs = args.runs.or(request.fraction_runs);
+    request.seed = args.seed.or(request.seed);
+    request.date = args.date.clone().or(request.date);
+    Ok(request)
+}
+
+fn plan_command(args: PlanArgs) -> i32 {
+    let request = match plan_request(&args) {
+        Ok(request) => request,
+        Err(message) => {
+            eprintln!("trialyst: {message}");
+            return EXIT_USAGE;
+        }
+    };
+    let plan = match crate::plan::make_plan(&request) {
+        Ok(plan) => plan,
+        Err(error) => {
+            eprintln!("trialyst: {}", error_chain(&error));
+            return EXIT_USAGE;
+        }
+    };
+    let destination = args
+        .out
+        .clone()
+        .unwrap_or_else(|| PathBuf::from(format!("trial-plan-{}.xlsx", plan.id)));
+    if let Err(error) = crate::plan::write_plan(&plan, &destination) {
+        eprintln!("trialyst: {}", error_chain(&error));
+        return EXIT_SOME_FAILED;
+    }
+    let summary = crate::plan::summarise(&plan, Some(&destination));
+    if args.json {
+        println!("{}", serde_json::to_string(&summary).unwrap_or_default());
+    } else {
+        println!(
+            "plan {}: {} with {} runs{} -> {}",
+            summary.id,
+            summary.kind,
+            summary.runs,
+            if summary.blocks > 1 {
+                format!(" in {} blocks", summary.blocks)
+            } else {
+                String::new()
+            },
+            destination.display()
+        );
+        if !summary.generators.is_empty() {
+            println!(
+                "  generators {} (resolution {})",
+                summary.generators.join(", "),
+                summary.resolution
+            );
+        }
+        println!(
+            "  seed {}{}",
+            summary.seed,
+            if summary.seed_from_clock {
+                " (drawn from the clock; give --seed to make the same plan again)"
+            } else {
+                ""
+            }
+        );
+    }
+    EXIT_OK
+}
+
+fn size_request(args: &SizeArgs) -> Result<crate::plan::SizeRequest, String> {
+    use crate::analysis::power::OneWayEffect;
+    use crate::plan::size::{SdSource, SizeDesign};
+    let sd = match (args.sd, &args.from_results) {
+        (Some(sd), None) => SdSource::Given(sd),
+        (None, Some(path)) => SdSource::LastTrial {
+            path: path.clone(),
+            response: args.response.clone(),
+        },
+        (Some(_), Some(_)) => return Err("give either --sd or --from-results, not both".into()),
+        (None, None) => {
+            return Err(
+                "give the SD of a run with --sd, or --from-results with the last trial's results workbook".into(),
+            )
+        }
+    };
+    let design = if args.factors.is_some() || args.effect.is_some() {
+        let factors = args.factors.ok_or("a two-level trial needs --factors")?;
+        let effect = args
+            .effect
+            .ok_or("a two-level trial needs --effect, the effect worth detecting")?;
+        SizeDesign::TwoLevel {
+            factors,
+            runs_per_replicate: args.runs,
+            centre_points: args.centre_points,
+            interactions: !args.main_effects_only,
+            effect,
+        }
+    } else {
+        let effect = match (args.difference, args.means.is_empty()) {
+            (Some(delta), true) => OneWayEffect::SmallestDifference(delta),
+            (None, false) => OneWayEffect::Means(args.means.clone()),
+            (Some(_), false) => return Err("give either --difference or --means, not both".into()),
+            (None, true) => {
+                return Err("give --difference (smallest difference worth detecting) or --means, or --factors and --effect for a two-level trial".into())
+            }
+        };
+        let conditions = match (args.conditions, &effect) {
+            (Some(count), _) => count,
+            (None, OneWayEffect::Means(means)) => means.len(),
+            (None, _) => return Err("give the number of conditions with --conditions".into()),
+        };
+        SizeDesign::OneWay { conditions, effect }
+    };
+    Ok(crate::plan::SizeRequest {
+        design,
+        sd,
+        alpha: args.alpha,
+        power: args.power,
+        half_width: args.half_width,
+    })
+}
+
+fn size_command(args: SizeArgs) -> i32 {
+    let request = match size_request(&args) {
+        Ok(request) => request,
+        Err(message) => {
+            eprintln!("trialyst: {message}");
+            return EXIT_USAGE;
+        }
+    };
+    let answer = match crate::plan::size_answer(&request) {
+        Ok(answer) => answer,
+        Err(error) => {
+            eprintln!("trialyst: {}", error_chain(&error));
+            return EXIT_SOME_FAILED;
+        }
+    };
+    if let Some(out) = &args.out {
+        if let Err(error) = crate::plan::write_size(&answer, out) {
+            eprintln!("trialyst: {}", error_chain(&error));
+            return EXIT_SOME_FAILED;
+        }
+    }
+    if args.json {
+        println!("{}", serde_json::to_string(&answer).unwrap_or_default());
+        return EXIT_OK;
+    }
+    let stdout = std::io::stdout();
+    let mut out = stdout.lock();
+    let _ = writeln!(out, "{}", answer.question);
+    let _ = writeln!(
+        out,
+        "SD {} ({}), alpha {}, power wanted {}",
+        answer.sd, answer.sd_from, answer.alpha, answer.target_power
+    );
+    let _ = writeln!(
+        out,
+        "needed: {} {} ({} runs in all), power {:.3}",
+        answer.needed.count, answer.count_means, answer.needed.total_runs, answer.needed.power
+    );
+    if let Some(half) = &answer.half_width {
+        let _ = writeln!(
+            out,
+            "all-pairs intervals of +-{}: {} runs per condition ({} in all), half-width {:.4}",
+            half.wanted, half.per_condition, half.total_runs, half.reached
+        );
+    }
+    let _ = writeln!(
+        out,
+        "{:>20} {:>12} {:>12} {:>8}",
+        answer.count_means, "runs in all", "residual df", "power"
+    );
+    for row in &answer.table {
+        let power = if row.power.is_nan() {
+            "-".to_string()
+        } else {
+            format!("{:.3}", row.power)
+        };
+        let _ = writeln!(
+            out,
+            "{:>20} {:>12} {:>12} {:>8}",
+            row.count, row.total_runs, row.residual_df, power
+        );
+    }
+    for note in &answer.notes {
+        let _ = writeln!(out, "note: {note}");
+    }
+    if let Some(path) = &args.out {
+        let _ = writeln!(out, "table written to {}", path.display());
+    }
+    EXIT_OK
 }

@@ -1,10 +1,13 @@
 //! trialyst's engine: the statistics ([`stats`], [`analysis`]), the results
-//! report ([`report`]), the settings ([`settings`]) and the one service API
-//! that every front end calls ([`service`]). The command line ([`cli`]) is
-//! glue over the service.
+//! report ([`report`]), the settings ([`settings`]), trial planning
+//! ([`plan`]) and the one service API that every front end calls
+//! ([`service`]). The command line ([`cli`]) and the protocol server
+//! ([`lsp`]) are glue over the service.
 
 pub mod analysis;
 pub mod cli;
+pub mod lsp;
+pub mod plan;
 pub mod report;
 pub mod service;
 pub mod settings;

@@ -165,6 +165,8 @@ pub struct ResponseResult {
     pub assessment: Option<Box<crate::analysis::assessment::Assessment>>,
     /// The plain-language reading, when analysed.
     pub verdict: Option<crate::analysis::verdict::Verdict>,
+    /// The factorial analysis, when the table has two or more treatment factors (or blocks).
+    pub factorial: Option<crate::analysis::factorial::FactorialOutcome>,
     /// The outcome.
     #[serde(flatten)]
     pub outcome: ResponseOutcome,
@@ -540,6 +542,8 @@ fn load(path: &Path, request: &AnalysisRequest) -> Result<Loaded, ServiceError> 
         });
     };
     findings.append(&mut table.findings);
+    // A plan workbook's runs are checked against the plan it carries.
+    findings.extend(crate::plan::plan_findings(&mut workbook, &settings, &table));
     let source = SourceInfo {
         path: path.display().to_string(),
         file_name: path
@@ -786,11 +790,13 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             )),
             ResponseOutcome::NotAnalysed { .. } => None,
         };
+        let factorial = crate::analysis::factorial::analyse_factorial(&table, response_index, &settings);
         responses.push(ResponseResult {
             name: response.name.clone(),
             assessment,
             unit,
             verdict,
+            factorial,
             condition_factor: condition_factor.clone(),
             outcome,
         });

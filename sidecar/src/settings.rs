@@ -55,6 +55,17 @@ pub struct Settings {
     pub control: Option<String>,
     /// Folder for results files.
     pub out_dir: Option<String>,
+    /// Highest order of interaction in a factorial model (1 = main effects only);
+    /// `None` fits every order the replication allows.
+    pub interaction_order: Option<usize>,
+    /// The identifier of the trial plan the workbook was written from; when
+    /// set, the runs are checked against the plan kept in the workbook.
+    pub plan_id: Option<String>,
+    /// The seed the plan's run order was drawn from (a record for people;
+    /// the check reads the plan itself).
+    pub plan_seed: Option<u64>,
+    /// The number of runs in the plan.
+    pub plan_runs: Option<usize>,
 }
 
 /// A settings value that could not be used.
@@ -100,6 +111,10 @@ pub const KNOWN_KEYS: &[&str] = &[
     "direction",
     "control",
     "output folder",
+    "interaction order",
+    "plan id",
+    "plan seed",
+    "plan runs",
 ];
 
 fn list(value: &str) -> Vec<String> {
@@ -144,6 +159,18 @@ pub fn parse_direction(value: &str) -> Option<Direction> {
         }
         _ => None,
     }
+}
+
+/// Reads an interaction order: a whole number of at least 1 (`2` for two-factor
+/// interactions), or `all` / blank for every order the data allow. The outer `None`
+/// means the text could not be read.
+pub fn parse_interaction_order(value: &str) -> Option<Option<usize>> {
+    let text = value.trim().to_lowercase();
+    if text.is_empty() || text == "all" || text == "detect" {
+        return Some(None);
+    }
+    let order: usize = text.parse().ok()?;
+    (order >= 1).then_some(Some(order))
 }
 
 impl Settings {
@@ -214,6 +241,19 @@ impl Settings {
                 },
                 "control" => settings.control = Some(value.to_string()).filter(|text| !text.is_empty()),
                 "output folder" => settings.out_dir = Some(value.to_string()).filter(|text| !text.is_empty()),
+                "interaction order" => match parse_interaction_order(value) {
+                    Some(order) => settings.interaction_order = order,
+                    None => errors.push(bad("a whole number of at least 1, or all")),
+                },
+                "plan id" => settings.plan_id = Some(value.to_string()).filter(|text| !text.is_empty()),
+                "plan seed" => match value.parse::<u64>() {
+                    Ok(seed) => settings.plan_seed = Some(seed),
+                    Err(_) => errors.push(bad("a whole number from 0 to 18446744073709551615")),
+                },
+                "plan runs" => match value.parse::<usize>() {
+                    Ok(runs) if runs > 0 => settings.plan_runs = Some(runs),
+                    _ => errors.push(bad("a whole number of runs, at least 1")),
+                },
                 _ => errors.push(SettingsError::UnknownKey {
                     place: place.clone(),
                     key,
@@ -251,6 +291,10 @@ impl Settings {
             direction: pick(self.direction, &lower.direction),
             control: pick(self.control, &lower.control),
             out_dir: pick(self.out_dir, &lower.out_dir),
+            interaction_order: pick(self.interaction_order, &lower.interaction_order),
+            plan_id: pick(self.plan_id, &lower.plan_id),
+            plan_seed: pick(self.plan_seed, &lower.plan_seed),
+            plan_runs: pick(self.plan_runs, &lower.plan_runs),
         }
     }
 
@@ -305,5 +349,12 @@ mod tests {
         assert_eq!(parse_direction("Lower is better"), Some(Direction::LowerIsBetter));
         assert_eq!(parse_confidence("95"), Some(0.95));
         assert_eq!(parse_confidence("0"), None);
+        assert_eq!(parse_interaction_order("2"), Some(Some(2)));
+        assert_eq!(parse_interaction_order("All"), Some(None));
+        assert_eq!(parse_interaction_order("0"), None);
+        let (read, errors) =
+            Settings::from_pairs_lenient(pairs(&[("Interaction order", "1"), ("interaction_order", "x")]));
+        assert_eq!(read.interaction_order, Some(1));
+        assert_eq!(errors.len(), 1);
     }
 }

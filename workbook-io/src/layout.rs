@@ -70,6 +70,9 @@ pub enum FindingKind {
     MoreFindings,
     /// A remark from the analysis (degenerate data and the like).
     Analysis,
+    /// A run that departs from the workbook's trial plan: missing, added,
+    /// with changed settings, or out of the planned order.
+    PlanDeparture,
 }
 
 /// One data problem, at one place.

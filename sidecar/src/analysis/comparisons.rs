@@ -285,7 +285,7 @@ pub fn unequal_spread_pairs(fit: &OneWayFit, confidence: f64) -> Result<PairFami
     if fit
         .conditions
         .iter()
-        .any(|condition| condition.n < 2 || !(condition.sd > 0.0))
+        .any(|condition| condition.n < 2 || condition.sd.is_nan() || condition.sd <= 0.0)
     {
         return Err(StatsError::TooFewValues {
             what: "Games-Howell needs two or more varying values per condition",
@@ -506,7 +506,7 @@ pub fn adjusted_contrasts(fit: &OneWayFit, confidence: f64) -> Result<Vec<Adjust
         return Ok(Vec::new());
     }
     let k = fit.conditions.len() as f64;
-    if !(fit.pooled_df > 0.0) {
+    if fit.pooled_df.is_nan() || fit.pooled_df <= 0.0 {
         return Err(StatsError::TooFewValues {
             what: "adjusted contrasts need within-condition df",
             needed: 1,
@@ -547,7 +547,7 @@ pub fn welch_anova(conditions: &[ConditionSummary]) -> Result<WelchAnova, StatsE
     if conditions.len() < 2
         || conditions
             .iter()
-            .any(|condition| condition.n < 2 || !(condition.sd > 0.0))
+            .any(|condition| condition.n < 2 || condition.sd.is_nan() || condition.sd <= 0.0)
     {
         return Err(StatsError::TooFewValues {
             what: "Welch's ANOVA needs two or more varying values per condition",

@@ -143,7 +143,7 @@ mod tests {
                     state = state
                         .wrapping_mul(6364136223846793005)
                         .wrapping_add(1442695040888963407);
-                    if (state >> 33) % 3 == 0 {
+                    if (state >> 33).is_multiple_of(3) {
                         pairs.push((a, b));
                     }
                 }

@@ -1,9 +1,11 @@
-//! Analyses built from the statistics routines: the one-way model and the
-//! contrasts users write. Plain Rust values in, plain Rust values out; no I/O.
+//! Analyses built from the statistics routines: the one-way model, the
+//! contrasts users write, and power and sample size for planning. Plain Rust values in, plain Rust values out; no I/O.
 
 pub mod assessment;
 pub mod comparisons;
 pub mod contrast;
+pub mod factorial;
 pub mod letters;
 pub mod oneway;
+pub mod power;
 pub mod verdict;

@@ -5,6 +5,7 @@
 //! pairwise differences, contrasts, data problems, and provenance.
 
 pub mod assessment;
+pub mod factorial;
 
 use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
 
@@ -68,7 +69,8 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     let mut pairs = Sheet::new(names::PAIRS);
     let mut contrasts = Sheet::new(names::CONTRASTS);
 
-    summary.widths = vec![(0, 96.0)];
+    const SUMMARY_WIDTH: f64 = 100.0;
+    summary.widths = vec![(0, SUMMARY_WIDTH)];
     summary.put(
         0,
         0,
@@ -153,26 +155,27 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
                 continue;
             }
         };
-        let chart_anchor_row = summary_row;
         if let Some(verdict) = &response.verdict {
-            summary.put(summary_row, 0, Value::text(&verdict.headline), Look::Verdict);
+            summary.paragraph(summary_row, 0, verdict.headline.clone(), Look::Verdict, SUMMARY_WIDTH);
             summary_row += 1;
             for line in &verdict.details {
-                summary.put(summary_row, 0, Value::text(line), Look::Plain);
+                summary.paragraph(summary_row, 0, line.clone(), Look::Plain, SUMMARY_WIDTH);
                 summary_row += 1;
             }
         }
-        summary.put(
+        summary.paragraph(
             summary_row,
             0,
-            Value::text(format!(
-                "Details: sheets '{}', '{}' and '{}'. Intervals are at {} confidence.",
+            format!(
+                "Details: sheets '{}', '{}', '{}' and '{}'. Intervals are at {} confidence.",
                 names::CONDITIONS,
                 names::ANOVA,
-                names::PAIRS,
+                assessment::names::SIMULTANEOUS,
+                assessment::names::CHECKS,
                 percent_text(fit.confidence)
-            )),
+            ),
             Look::Note,
+            SUMMARY_WIDTH,
         );
         summary_row += 1;
         let places = decimals_for(fit);
@@ -245,11 +248,12 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
                 values: SheetRange::column(names::CONDITIONS, 2, first_data_row, last_data_row),
                 bar_plus: has_bars.then(|| SheetRange::column(names::CONDITIONS, 10, first_data_row, last_data_row)),
                 bar_minus: has_bars.then(|| SheetRange::column(names::CONDITIONS, 10, first_data_row, last_data_row)),
+                labels: None,
             }],
-            anchor: (chart_anchor_row, 1),
-            size: (520, 300),
+            anchor: (summary_row + 1, 0),
+            size: (620, 300),
         });
-        summary_row = summary_row.max(chart_anchor_row + 16) + 1;
+        summary_row += 17;
 
         // ANOVA table.
         anova.put(anova_row, 0, Value::text(response.name.clone()), Look::Heading);
@@ -389,7 +393,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     summary.put(summary_row, 0, Value::text("Cautions"), Look::Heading);
     summary_row += 1;
     for caution in &results.cautions {
-        summary.put(summary_row, 0, Value::text(caution.clone()), Look::Caution);
+        summary.paragraph(summary_row, 0, caution.clone(), Look::Caution, SUMMARY_WIDTH);
         summary_row += 1;
     }
     if !results.findings.is_empty() {
@@ -411,6 +415,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     if any_contrast {
         book.sheets.push(contrasts);
     }
+    factorial::add_factorial_results(results, &mut book);
     book.sheets.push(findings_sheet(&results.findings));
     book.sheets.push(provenance_sheet(results));
     book

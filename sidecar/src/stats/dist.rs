@@ -22,8 +22,16 @@
 //! binomial probabilities"), `sqrt(a b / (2 pi n)) exp(e(n) - e(a) - e(b) -
 //! bd0(a, n x) - bd0(b, n y))`, where `e` is the Stirling-series remainder and
 //! `bd0` is evaluated from the exactly known difference `a y - b x`, so that no
-//! huge logarithms cancel. The `statrs` crate is used only for `erfc` near the
-//! centre of the normal distribution and `ln_gamma` at small arguments.
+//! huge logarithms cancel. Where the continued fraction is ill-conditioned
+//! (first parameter large, second moderate, `x` near 1: the t distribution
+//! at large df, F with large d2) the expansion in incomplete gamma functions
+//! behind DiDonato & Morris (1992, ACM TOMS 708, BGRAT) is used instead.
+//!
+//! Nothing here calls `statrs`: its t and F inverses fail at large df
+//! (`StudentsT::inverse_cdf(0.975)` at df = 1e7 returns 1.83 and hangs at
+//! infinite df) and its `erfc` and `ln_gamma` are good to only about 1e-11
+//! and 1e-14, short of the targets here. The normal distribution uses
+//! series / continued fractions of its own.
 //!
 //! Quantiles use a closed form start (Wichura's AS 241 for the normal,
 //! Cornish-Fisher / tail expansions for t, Paulson's approximation for F,
@@ -40,6 +48,9 @@ const FRAC_1_SQRT_2PI: f64 = 0.398_942_280_401_432_7;
 const DF_LIMIT: f64 = 1e100;
 /// Relative truncation target of the Poisson mixtures.
 const MIXTURE_TOLERANCE: f64 = 1e-16;
+/// Absolute truncation floor of the Poisson mixtures: a tail below this is
+/// summed only to this absolute accuracy.
+const MIXTURE_FLOOR: f64 = 1e-100;
 
 // ---------------------------------------------------------------------------
 // Input validation
@@ -133,12 +144,17 @@ fn u_minus_ln1p(u: f64) -> f64 {
     }
 }
 
-/// Stirling-series remainder `ln Γ(z + 1) - (z + 1/2) ln z + z - ln sqrt(2 pi)`.
+/// Stirling-series remainder `e(z) = ln Γ(z + 1) - (z + 1/2) ln z + z - ln sqrt(2 pi)`.
+///
+/// For `z >= 10` the asymptotic series (A&S 6.1.40) through `z^-13`, error
+/// below 3e-17; below 10 the exact recurrence
+/// `e(z) = e(z + 1) + (z + 1/2) ln(1 + 1/z) - 1`, whose terms carry only
+/// absolute rounding errors of about 1e-16.
 fn stirling_remainder(z: f64) -> f64 {
     if z >= 10.0 {
         let inv = 1.0 / z;
         let inv2 = inv * inv;
-        // Coefficients B_{2k} / (2k (2k - 1)), Abramowitz & Stegun 6.1.40.
+        // Coefficients B_{2k} / (2k (2k - 1)).
         let series = 1.0 / 12.0
             - inv2
                 * (1.0 / 360.0
@@ -148,17 +164,20 @@ fn stirling_remainder(z: f64) -> f64 {
                                 * (1.0 / 1680.0 - inv2 * (1.0 / 1188.0 - inv2 * (691.0 / 360_360.0 - inv2 / 156.0)))));
         series * inv
     } else {
-        statrs::function::gamma::ln_gamma(z + 1.0) - (z + 0.5) * z.ln() + z - LN_SQRT_2PI
+        let mut shift = 0.0;
+        let mut total = 0.0;
+        while z + shift < 10.0 {
+            let w = z + shift;
+            total += (w + 0.5) * (1.0 / w).ln_1p() - 1.0;
+            shift += 1.0;
+        }
+        total + stirling_remainder(z + shift)
     }
 }
 
 /// Natural logarithm of the gamma function for `z > 0`.
 fn ln_gamma(z: f64) -> f64 {
-    if z >= 10.0 {
-        (z - 0.5) * z.ln() - z + LN_SQRT_2PI + stirling_remainder(z)
-    } else {
-        statrs::function::gamma::ln_gamma(z)
-    }
+    (z - 0.5) * z.ln() - z + LN_SQRT_2PI + stirling_remainder(z)
 }
 
 /// Natural logarithm of the beta function.
@@ -643,7 +662,7 @@ fn half_gauss(x: f64) -> f64 {
 /// Mills ratio `P(Z > x) / φ(x)` for `x >= 1.25` by Laplace's continued fraction
 /// `1 / (x + 1 / (x + 2 / (x + 3 / ...)))`, evaluated from the tail.
 fn mills_ratio(x: f64) -> f64 {
-    let terms = (10.0 + 600.0 / (x * x)).min(200.0) as usize;
+    let terms = (10.0 + 600.0 / (x * x)).min(400.0) as usize;
     let mut tail = x;
     for k in (1..=terms).rev() {
         tail = x + k as f64 / tail;
@@ -722,6 +741,8 @@ fn polynomial(coefficients: &[f64], r: f64) -> f64 {
 }
 
 /// Wichura's PPND16 for `p` in (0, 1).
+// The coefficients are kept digit for digit as published.
+#[allow(clippy::excessive_precision)]
 fn wichura_quantile(p: f64) -> f64 {
     // Coefficients from Wichura (1988), Algorithm AS 241, Applied Statistics 37, 477-484.
     const A: [f64; 8] = [
@@ -905,12 +926,16 @@ fn solve_positive(
         if newton && step.abs() <= 1e-11 {
             return Ok(proposal);
         }
-        if proposal == v || !(proposal.is_finite() && proposal > 0.0) {
-            return if proposal.is_finite() && proposal > 0.0 {
-                Ok(v)
-            } else {
-                Ok(v.max(f64::MIN_POSITIVE))
-            };
+        if proposal == f64::INFINITY {
+            // the root lies beyond the largest finite number
+            return Ok(f64::INFINITY);
+        }
+        if proposal <= 0.0 {
+            // the root lies below the smallest positive number
+            return Ok(0.0);
+        }
+        if proposal == v || proposal.is_nan() {
+            return Ok(v);
         }
         v = proposal;
     }
@@ -989,26 +1014,31 @@ pub fn t_sf(t: f64, df: f64) -> Result<f64, StatsError> {
     t_upper(t, df)
 }
 
-/// Start for the t quantile with upper tail `q < 0.5`.
+/// Start for the t quantile with upper tail `q < 0.5`: the Cornish-Fisher
+/// expansion (A&S 26.7.5) while its terms decrease, else the tail form.
 fn t_start(q: f64, df: f64) -> f64 {
-    let z = wichura_quantile(1.0 - q).max(-wichura_quantile(q));
-    if df > 2.0 * z * z + 4.0 {
-        // Cornish-Fisher expansion, A&S 26.7.5.
-        let z2 = z * z;
-        let g1 = (z2 + 1.0) * z / 4.0;
-        let g2 = ((5.0 * z2 + 16.0) * z2 + 3.0) * z / 96.0;
-        let g3 = (((3.0 * z2 + 19.0) * z2 + 17.0) * z2 - 15.0) * z / 384.0;
-        let g4 = ((((79.0 * z2 + 776.0) * z2 + 1482.0) * z2 - 1920.0) * z2 - 945.0) * z / 92160.0;
-        z + (g1 + (g2 + (g3 + g4 / df) / df) / df) / df
+    let z = -wichura_quantile(q);
+    let z2 = z * z;
+    let terms = [
+        (z2 + 1.0) * z / 4.0 / df,
+        ((5.0 * z2 + 16.0) * z2 + 3.0) * z / 96.0 / (df * df),
+        (((3.0 * z2 + 19.0) * z2 + 17.0) * z2 - 15.0) * z / 384.0 / (df * df * df),
+        ((((79.0 * z2 + 776.0) * z2 + 1482.0) * z2 - 1920.0) * z2 - 945.0) * z / 92160.0 / (df * df * df * df),
+    ];
+    let decreasing = terms.windows(2).all(|pair| pair[1].abs() <= 0.5 * pair[0].abs());
+    let cornish_fisher = z + terms.iter().sum::<f64>();
+    if decreasing && terms[3].abs() <= 0.01 * cornish_fisher {
+        return cornish_fisher;
+    }
+    // Tail: P(T > t) ≈ df^((df-1)/2) t^(-df) / B(df/2, 1/2).
+    let ln_t = (0.5 * (df - 1.0) * df.ln() - q.ln() - ln_beta(0.5 * df, 0.5)) / df;
+    let tail_start = ln_t.exp();
+    if tail_start.is_finite() && tail_start > 0.0 {
+        tail_start.max(z)
+    } else if cornish_fisher.is_finite() && cornish_fisher > 0.0 {
+        cornish_fisher
     } else {
-        // Tail: P(T > t) ≈ df^((df-1)/2) t^(-df) / B(df/2, 1/2).
-        let ln_t = (0.5 * (df - 1.0) * df.ln() - q.ln() - ln_beta(0.5 * df, 0.5)) / df;
-        let tail_start = ln_t.exp();
-        if z > 0.0 && tail_start.is_finite() {
-            tail_start.max(z)
-        } else {
-            1.0
-        }
+        1.0
     }
 }
 
@@ -1438,7 +1468,8 @@ fn poisson_pmf(k: f64, mean: f64) -> f64 {
 /// The starting values at the Poisson mode `j0` are given. Summation runs
 /// outward from `j0` in both directions and stops when the rigorous bound on
 /// the neglected terms (Poisson tail mass times the monotone bound on `L` or
-/// `U`) is below `MIXTURE_TOLERANCE` times the partial sum.
+/// `U`) is below `MIXTURE_TOLERANCE` times the partial sum, or below
+/// `MIXTURE_FLOOR` (absolute) for a side that is itself that small.
 fn poisson_mixture(
     mean: f64,
     mode: f64,
@@ -1451,7 +1482,6 @@ fn poisson_mixture(
     let w_mode = poisson_pmf(mode, mean);
     let mut sum_lower = w_mode * lower_at_mode;
     let mut sum_upper = w_mode * upper_at_mode;
-    let tiny = f64::MIN_POSITIVE;
 
     // Upward: L decreases, U increases.
     let (mut j, mut w, mut lower, mut upper, mut step) = (mode, w_mode, lower_at_mode, upper_at_mode, step_at_mode);
@@ -1469,8 +1499,9 @@ fn poisson_mixture(
         let tail_mass = w_next / (1.0 - mean / (j + 2.0));
         let bound_lower = lower * tail_mass;
         let bound_upper = tail_mass;
-        if bound_lower <= (MIXTURE_TOLERANCE * sum_lower).max(tiny)
-            && bound_upper <= (MIXTURE_TOLERANCE * sum_upper).max(tiny)
+        let floor = MIXTURE_FLOOR * (sum_lower + sum_upper);
+        if bound_lower <= (MIXTURE_TOLERANCE * sum_lower).max(floor)
+            && bound_upper <= (MIXTURE_TOLERANCE * sum_upper).max(floor)
         {
             break;
         }
@@ -1501,8 +1532,9 @@ fn poisson_mixture(
         let tail_mass = w_previous / (1.0 - (j - 1.0) / mean);
         let bound_lower = tail_mass;
         let bound_upper = upper * tail_mass;
-        if bound_lower <= (MIXTURE_TOLERANCE * sum_lower).max(tiny)
-            && bound_upper <= (MIXTURE_TOLERANCE * sum_upper).max(tiny)
+        let floor = MIXTURE_FLOOR * (sum_lower + sum_upper);
+        if bound_lower <= (MIXTURE_TOLERANCE * sum_lower).max(floor)
+            && bound_upper <= (MIXTURE_TOLERANCE * sum_upper).max(floor)
         {
             break;
         }
@@ -1574,7 +1606,8 @@ fn noncentral_f_pair(f: f64, d1: f64, d2: f64, lambda: f64) -> Result<(f64, f64)
 /// the Poisson mode in both directions with the incomplete beta recurrences,
 /// starting from one direct incomplete beta evaluation at the mode, so
 /// `exp(-lambda/2)` never underflows (unlike AS 226 / AS R84). Summation stops
-/// on a rigorous truncation bound of 1e-16 relative to the partial sum;
+/// on a rigorous truncation bound of 1e-16 relative to the partial sum (1e-100
+/// absolute for a tail smaller than that);
 /// rounding keeps the total error near 1e-14 relative (far below the 1e-12
 /// absolute target). lambda = 0 is the central F exactly. Checked against an
 /// independent mpmath 1.3.0 mixture at 30 digits and scipy 1.17.1 `ncf` for
@@ -1664,4 +1697,1102 @@ pub fn f_test_power(alpha: f64, d1: f64, d2: f64, lambda: f64) -> Result<f64, St
     let lambda = check_noncentrality(lambda)?;
     let critical = f_quantile_sided(alpha, true, d1, d2)?;
     Ok(noncentral_f_pair(critical, d1, d2, lambda)?.1)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn relative_error(got: f64, want: f64) -> f64 {
+        if got == want {
+            0.0
+        } else if want == 0.0 {
+            got.abs()
+        } else {
+            ((got - want) / want).abs()
+        }
+    }
+
+    fn assert_close(got: f64, want: f64, tolerance: f64, what: &str) {
+        let error = relative_error(got, want);
+        assert!(
+            error <= tolerance,
+            "{what}: got {got:e}, want {want:e}, relative error {error:e}"
+        );
+    }
+
+    // (x, Phi(x)): mpmath 1.3.0, mp.dps = 40: mpmath.ncdf(x)
+    const NORMAL_CDF: &[(f64, f64)] = &[
+        (-37.5, 4.605353009581955e-308), // ncdf(-37.5)
+        (-37.0, 5.725571222524577e-300), // ncdf(-37.0)
+        (-30.0, 4.906713927148187e-198), // ncdf(-30.0)
+        (-20.0, 2.7536241186062337e-89), // ncdf(-20.0)
+        (-10.0, 7.619853024160525e-24),  // ncdf(-10.0)
+        (-5.0, 2.866515718791939e-07),   // ncdf(-5.0)
+        (-3.0, 0.0013498980316300946),   // ncdf(-3.0)
+        (-1.5, 0.06680720126885807),     // ncdf(-1.5)
+        (-1.25, 0.10564977366685525),    // ncdf(-1.25)
+        (-1.0, 0.15865525393145705),     // ncdf(-1.0)
+        (-0.5, 0.3085375387259869),      // ncdf(-0.5)
+        (-1e-10, 0.49999999996010575),   // ncdf(-1e-10)
+        (0.0, 0.5),                      // ncdf(0.0)
+        (0.3, 0.6179114221889527),       // ncdf(0.3)
+        (1.0, 0.8413447460685429),       // ncdf(1.0)
+        (1.25, 0.8943502263331448),      // ncdf(1.25)
+        (2.0, 0.9772498680518208),       // ncdf(2.0)
+        (4.0, 0.9999683287581669),       // ncdf(4.0)
+        (8.0, 0.9999999999999993),       // ncdf(8.0)
+    ];
+
+    // (p, x): mpmath 1.3.0, mp.dps = 40: root of mpmath.ncdf(x) = p
+    // (upper tail ncdf(-x) = 1 - p for p > 0.5; 1 - p is exact in binary)
+    const NORMAL_QUANTILE: &[(f64, f64)] = &[
+        (1e-300, -37.0470962993612),          // findroot(ncdf(x) = 1e-300)
+        (1e-100, -21.273453560965326),        // findroot(ncdf(x) = 1e-100)
+        (1e-20, -9.262340089798407),          // findroot(ncdf(x) = 1e-20)
+        (1e-10, -6.361340902404057),          // findroot(ncdf(x) = 1e-10)
+        (1e-05, -4.264890793922825),          // findroot(ncdf(x) = 1e-05)
+        (0.001, -3.0902323061678136),         // findroot(ncdf(x) = 0.001)
+        (0.025, -1.9599639845400543),         // findroot(ncdf(x) = 0.025)
+        (0.3, -0.5244005127080408),           // findroot(ncdf(x) = 0.3)
+        (0.4999999, -2.5066282747031063e-07), // findroot(ncdf(x) = 0.4999999)
+        (0.5, 0.0),                           // findroot(ncdf(-x) = 1 - 0.5)
+        (0.6, 0.2533471031357997),            // findroot(ncdf(-x) = 1 - 0.6)
+        (0.975, 1.9599639845400538),          // findroot(ncdf(-x) = 1 - 0.975)
+        (0.999999, 4.753424308817087),        // findroot(ncdf(-x) = 1 - 0.999999)
+    ];
+
+    // (t, df, cdf, sf): mpmath 1.3.0, mp.dps = 40. With s = t^2/df, w = 1/(1+s):
+    // sf = I_w(df/2, 1/2) / 2 for t > 0, 1/2 + I_{1-w}(1/2, df/2) / 2 for t < 0, cdf(t) = sf(-t);
+    // I by the positive-term series x^a y^b / (a B(a,b)) * mpmath.hyp2f1(a+b, 1, a+1, x) on the side
+    // below the mean (mpmath.quad of the logit-scale density when that series is long);
+    // df = inf: mpmath.ncdf.
+    const T_CDF_SF: &[(f64, f64, f64, f64)] = &[
+        (-50.0, 0.5, 0.04535260640296638, 0.9546473935970337), // t_cdf(-50.0, 0.5), t_sf(-50.0, 0.5)
+        (-2.0, 0.5, 0.22275744509156561, 0.7772425549084344),  // t_cdf(-2.0, 0.5), t_sf(-2.0, 0.5)
+        (-0.3, 0.5, 0.4224295760652454, 0.5775704239347546),   // t_cdf(-0.3, 0.5), t_sf(-0.3, 0.5)
+        (0.01, 0.5, 0.5026966281819477, 0.49730337181805223),  // t_cdf(0.01, 0.5), t_sf(0.01, 0.5)
+        (1.0, 0.5, 0.698878389158678, 0.3011216108413221),     // t_cdf(1.0, 0.5), t_sf(1.0, 0.5)
+        (1.96, 0.5, 0.7751385111308104, 0.22486148886918958),  // t_cdf(1.96, 0.5), t_sf(1.96, 0.5)
+        (4.0, 0.5, 0.8403899585056642, 0.15961004149433577),   // t_cdf(4.0, 0.5), t_sf(4.0, 0.5)
+        (10.0, 0.5, 0.8986613236143344, 0.10133867638566557),  // t_cdf(10.0, 0.5), t_sf(10.0, 0.5)
+        (40.0, 0.5, 0.9492951000352529, 0.050704899964747176), // t_cdf(40.0, 0.5), t_sf(40.0, 0.5)
+        (-50.0, 1.0, 0.006365349100972796, 0.9936346508990272), // t_cdf(-50.0, 1.0), t_sf(-50.0, 1.0)
+        (-2.0, 1.0, 0.14758361765043326, 0.8524163823495667),  // t_cdf(-2.0, 1.0), t_sf(-2.0, 1.0)
+        (-0.3, 1.0, 0.40722642092225764, 0.5927735790777423),  // t_cdf(-0.3, 1.0), t_sf(-0.3, 1.0)
+        (0.01, 1.0, 0.5031829927649083, 0.49681700723509176),  // t_cdf(0.01, 1.0), t_sf(0.01, 1.0)
+        (1.0, 1.0, 0.75, 0.25),                                // t_cdf(1.0, 1.0), t_sf(1.0, 1.0)
+        (1.96, 1.0, 0.8498285541119834, 0.15017144588801656),  // t_cdf(1.96, 1.0), t_sf(1.96, 1.0)
+        (4.0, 1.0, 0.9220208696226306, 0.07797913037736932),   // t_cdf(4.0, 1.0), t_sf(4.0, 1.0)
+        (10.0, 1.0, 0.9682744825694465, 0.03172551743055357),  // t_cdf(10.0, 1.0), t_sf(10.0, 1.0)
+        (40.0, 1.0, 0.9920439100879742, 0.007956089912025814), // t_cdf(40.0, 1.0), t_sf(40.0, 1.0)
+        (-50.0, 1.5, 0.0010662154551444333, 0.9989337845448556), // t_cdf(-50.0, 1.5), t_sf(-50.0, 1.5)
+        (-2.0, 1.5, 0.11209416517802553, 0.8879058348219745),  // t_cdf(-2.0, 1.5), t_sf(-2.0, 1.5)
+        (-0.3, 1.5, 0.4002360984017924, 0.5997639015982076),   // t_cdf(-0.3, 1.5), t_sf(-0.3, 1.5)
+        (0.01, 1.5, 0.50340725516854, 0.49659274483146),       // t_cdf(0.01, 1.5), t_sf(0.01, 1.5)
+        (1.0, 1.5, 0.7744323163616449, 0.22556768363835517),   // t_cdf(1.0, 1.5), t_sf(1.0, 1.5)
+        (1.96, 1.5, 0.8851700513266428, 0.11482994867335712),  // t_cdf(1.96, 1.5), t_sf(1.96, 1.5)
+        (4.0, 1.5, 0.9550837365228358, 0.044916263477164126),  // t_cdf(4.0, 1.5), t_sf(4.0, 1.5)
+        (10.0, 1.5, 0.9881703224431893, 0.011829677556810778), // t_cdf(10.0, 1.5), t_sf(10.0, 1.5)
+        (40.0, 1.5, 0.9985101878045344, 0.0014898121954656227), // t_cdf(40.0, 1.5), t_sf(40.0, 1.5)
+        (-50.0, 2.0, 0.00019988007994404028, 0.9998001199200559), // t_cdf(-50.0, 2.0), t_sf(-50.0, 2.0)
+        (-2.0, 2.0, 0.09175170953613698, 0.908248290463863),   // t_cdf(-2.0, 2.0), t_sf(-2.0, 2.0)
+        (-0.3, 2.0, 0.3962428304200888, 0.6037571695799112),   // t_cdf(-0.3, 2.0), t_sf(-0.3, 2.0)
+        (0.01, 2.0, 0.5035354455208995, 0.4964645544791005),   // t_cdf(0.01, 2.0), t_sf(0.01, 2.0)
+        (1.0, 2.0, 0.7886751345948129, 0.2113248654051871),    // t_cdf(1.0, 2.0), t_sf(1.0, 2.0)
+        (1.96, 2.0, 0.9054713451991339, 0.09452865480086614),  // t_cdf(1.96, 2.0), t_sf(1.96, 2.0)
+        (4.0, 2.0, 0.9714045207910317, 0.02859547920896832),   // t_cdf(4.0, 2.0), t_sf(4.0, 2.0)
+        (10.0, 2.0, 0.9950737714883372, 0.004926228511662845), // t_cdf(10.0, 2.0), t_sf(10.0, 2.0)
+        (40.0, 2.0, 0.9996877926639076, 0.0003122073360923703), // t_cdf(40.0, 2.0), t_sf(40.0, 2.0)
+        (-50.0, 3.0, 8.808576020635988e-06, 0.9999911914239794), // t_cdf(-50.0, 3.0), t_sf(-50.0, 3.0)
+        (-2.0, 3.0, 0.0696629842794216, 0.9303370157205784),   // t_cdf(-2.0, 3.0), t_sf(-2.0, 3.0)
+        (-0.3, 3.0, 0.3918816460199595, 0.6081183539800404),   // t_cdf(-0.3, 3.0), t_sf(-0.3, 3.0)
+        (0.01, 3.0, 0.503675444293574, 0.496324555706426),     // t_cdf(0.01, 3.0), t_sf(0.01, 3.0)
+        (1.0, 3.0, 0.8044988905221147, 0.19550110947788532),   // t_cdf(1.0, 3.0), t_sf(1.0, 3.0)
+        (1.96, 3.0, 0.9275738957175732, 0.07242610428242682),  // t_cdf(1.96, 3.0), t_sf(1.96, 3.0)
+        (4.0, 3.0, 0.9859957719949269, 0.014004228005073083),  // t_cdf(4.0, 3.0), t_sf(4.0, 3.0)
+        (10.0, 3.0, 0.9989358004707929, 0.0010641995292070751), // t_cdf(10.0, 3.0), t_sf(10.0, 3.0)
+        (40.0, 3.0, 0.9999828096596054, 1.7190340394579263e-05), // t_cdf(40.0, 3.0), t_sf(40.0, 3.0)
+        (-50.0, 10.0, 1.23715516465134e-13, 0.9999999999998763), // t_cdf(-50.0, 10.0), t_sf(-50.0, 10.0)
+        (-2.0, 10.0, 0.03669401738537018, 0.9633059826146299), // t_cdf(-2.0, 10.0), t_sf(-2.0, 10.0)
+        (-0.3, 10.0, 0.3851603037828993, 0.6148396962171007),  // t_cdf(-0.3, 10.0), t_sf(-0.3, 10.0)
+        (0.01, 10.0, 0.5038910125045143, 0.4961089874954857),  // t_cdf(0.01, 10.0), t_sf(0.01, 10.0)
+        (1.0, 10.0, 0.8295534338489701, 0.17044656615102993),  // t_cdf(1.0, 10.0), t_sf(1.0, 10.0)
+        (1.96, 10.0, 0.9607818798761502, 0.039218120123849856), // t_cdf(1.96, 10.0), t_sf(1.96, 10.0)
+        (4.0, 10.0, 0.9987408336876317, 0.0012591663123683462), // t_cdf(4.0, 10.0), t_sf(4.0, 10.0)
+        (10.0, 10.0, 0.9999992052234122, 7.947765877982059e-07), // t_cdf(10.0, 10.0), t_sf(10.0, 10.0)
+        (40.0, 10.0, 0.9999999999988596, 1.1404288715428774e-12), // t_cdf(40.0, 10.0), t_sf(40.0, 10.0)
+        (-50.0, 30.0, 9.357708829611357e-31, 1.0),             // t_cdf(-50.0, 30.0), t_sf(-50.0, 30.0)
+        (-2.0, 30.0, 0.02731252248149155, 0.9726874775185085), // t_cdf(-2.0, 30.0), t_sf(-2.0, 30.0)
+        (-0.3, 30.0, 0.3831230526421764, 0.6168769473578236),  // t_cdf(-0.3, 30.0), t_sf(-0.3, 30.0)
+        (0.01, 30.0, 0.5039562537134111, 0.49604374628658887), // t_cdf(0.01, 30.0), t_sf(0.01, 30.0)
+        (1.0, 30.0, 0.8373456922869851, 0.16265430771301495),  // t_cdf(1.0, 30.0), t_sf(1.0, 30.0)
+        (1.96, 30.0, 0.9703288435519748, 0.02967115644802524), // t_cdf(1.96, 30.0), t_sf(1.96, 30.0)
+        (4.0, 30.0, 0.9998090771819581, 0.00019092281804187843), // t_cdf(4.0, 30.0), t_sf(4.0, 30.0)
+        (10.0, 30.0, 0.9999999999771237, 2.2876257041148064e-11), // t_cdf(10.0, 30.0), t_sf(10.0, 30.0)
+        (40.0, 30.0, 1.0, 6.863022597203201e-28),              // t_cdf(40.0, 30.0), t_sf(40.0, 30.0)
+        (-50.0, 100.0, 7.236081839880695e-73, 1.0),            // t_cdf(-50.0, 100.0), t_sf(-50.0, 100.0)
+        (-2.0, 100.0, 0.02410608936556684, 0.9758939106344332), // t_cdf(-2.0, 100.0), t_sf(-2.0, 100.0)
+        (-0.3, 100.0, 0.3823999401501517, 0.6176000598498482), // t_cdf(-0.3, 100.0), t_sf(-0.3, 100.0)
+        (0.01, 100.0, 0.5039793948827858, 0.49602060511721424), // t_cdf(0.01, 100.0), t_sf(0.01, 100.0)
+        (1.0, 100.0, 0.8401379221079384, 0.1598620778920617),  // t_cdf(1.0, 100.0), t_sf(1.0, 100.0)
+        (1.96, 100.0, 0.9736105493168852, 0.026389450683114834), // t_cdf(1.96, 100.0), t_sf(1.96, 100.0)
+        (4.0, 100.0, 0.9999392381778496, 6.076182215038084e-05), // t_cdf(4.0, 100.0), t_sf(4.0, 100.0)
+        (10.0, 100.0, 1.0, 4.9508444922970696e-17),            // t_cdf(10.0, 100.0), t_sf(10.0, 100.0)
+        (40.0, 100.0, 1.0, 1.2310538010700354e-63),            // t_cdf(40.0, 100.0), t_sf(40.0, 100.0)
+        (-50.0, 10000.0, 0.0, 1.0),                            // t_cdf(-50.0, 10000.0), t_sf(-50.0, 10000.0)
+        (-2.0, 10000.0, 0.02276363033071772, 0.9772363696692823), // t_cdf(-2.0, 10000.0), t_sf(-2.0, 10000.0)
+        (-0.3, 10000.0, 0.38209169561466616, 0.6179083043853338), // t_cdf(-0.3, 10000.0), t_sf(-0.3, 10000.0)
+        (0.01, 10000.0, 0.5039892565753221, 0.4960107434246779), // t_cdf(0.01, 10000.0), t_sf(0.01, 10000.0)
+        (1.0, 10000.0, 0.8413326478347855, 0.15866735216521458), // t_cdf(1.0, 10000.0), t_sf(1.0, 10000.0)
+        (1.96, 10000.0, 0.9749882398840835, 0.025011760115916524), // t_cdf(1.96, 10000.0), t_sf(1.96, 10000.0)
+        (4.0, 10000.0, 0.9999681006655884, 3.1899334411569814e-05), // t_cdf(4.0, 10000.0), t_sf(4.0, 10000.0)
+        (10.0, 10000.0, 1.0, 9.816403714331914e-24),           // t_cdf(10.0, 10000.0), t_sf(10.0, 10000.0)
+        (-50.0, 10000000.0, 0.0, 1.0),                         // t_cdf(-50.0, 10000000.0), t_sf(-50.0, 10000000.0)
+        (-2.0, 10000000.0, 0.022750145445921476, 0.9772498545540785), // t_cdf(-2.0, 10000000.0), t_sf(-2.0, 10000000.0)
+        (-0.3, 10000000.0, 0.3820885809288927, 0.6179114190711072), // t_cdf(-0.3, 10000000.0), t_sf(-0.3, 10000000.0)
+        (0.01, 10000000.0, 0.503989356214891, 0.49601064378510895), // t_cdf(0.01, 10000000.0), t_sf(0.01, 10000000.0)
+        (1.0, 10000000.0, 0.841344733970007, 0.15865526602999297), // t_cdf(1.0, 10000000.0), t_sf(1.0, 10000000.0)
+        (1.96, 10000000.0, 0.9750020909873429, 0.024997909012657096), // t_cdf(1.96, 10000000.0), t_sf(1.96, 10000000.0)
+        (4.0, 10000000.0, 0.9999683285306549, 3.167146934508438e-05), // t_cdf(4.0, 10000000.0), t_sf(4.0, 10000000.0)
+        (10.0, 10000000.0, 1.0, 7.621796145136878e-24),        // t_cdf(10.0, 10000000.0), t_sf(10.0, 10000000.0)
+        (-50.0, 10000000000.0, 0.0, 1.0), // t_cdf(-50.0, 10000000000.0), t_sf(-50.0, 10000000000.0)
+        (-2.0, 10000000000.0, 0.02275013196167695, 0.977249868038323), // t_cdf(-2.0, 10000000000.0), t_sf(-2.0, 10000000000.0)
+        (-0.3, 10000000000.0, 0.3820885778141652, 0.6179114221858348), // t_cdf(-0.3, 10000000000.0), t_sf(-0.3, 10000000000.0)
+        (0.01, 10000000000.0, 0.5039893563145319, 0.49601064368546816), // t_cdf(0.01, 10000000000.0), t_sf(0.01, 10000000000.0)
+        (1.0, 10000000000.0, 0.8413447460564444, 0.1586552539435556), // t_cdf(1.0, 10000000000.0), t_sf(1.0, 10000000000.0)
+        (1.96, 10000000000.0, 0.9750021048379152, 0.024997895162084872), // t_cdf(1.96, 10000000000.0), t_sf(1.96, 10000000000.0)
+        (4.0, 10000000000.0, 0.9999683287579394, 3.167124206063131e-05), // t_cdf(4.0, 10000000000.0), t_sf(4.0, 10000000000.0)
+        (10.0, 10000000000.0, 1.0, 7.619854967046914e-24), // t_cdf(10.0, 10000000000.0), t_sf(10.0, 10000000000.0)
+        (-2.0, f64::INFINITY, 0.02275013194817921, 0.9772498680518208), // t_cdf(-2.0, inf), t_sf(-2.0, inf)
+        (-0.3, f64::INFINITY, 0.3820885778110474, 0.6179114221889527), // t_cdf(-0.3, inf), t_sf(-0.3, inf)
+        (0.01, f64::INFINITY, 0.5039893563146316, 0.4960106436853684), // t_cdf(0.01, inf), t_sf(0.01, inf)
+        (1.0, f64::INFINITY, 0.8413447460685429, 0.15865525393145705), // t_cdf(1.0, inf), t_sf(1.0, inf)
+        (1.96, f64::INFINITY, 0.9750021048517795, 0.024997895148220435), // t_cdf(1.96, inf), t_sf(1.96, inf)
+        (4.0, f64::INFINITY, 0.9999683287581669, 3.1671241833119924e-05), // t_cdf(4.0, inf), t_sf(4.0, inf)
+        (10.0, f64::INFINITY, 1.0, 7.619853024160525e-24), // t_cdf(10.0, inf), t_sf(10.0, inf)
+        (1e+100, 3.0, 1.0, 1.1026577908435841e-300),       // t_cdf(1e+100, 3.0), t_sf(1e+100, 3.0)
+        (1e+30, 10.0, 1.0, 1.2304687499999997e-296),       // t_cdf(1e+30, 10.0), t_sf(1e+30, 10.0)
+        (1000.0, 100.0, 1.0, 3.959809303973926e-202),      // t_cdf(1000.0, 100.0), t_sf(1000.0, 100.0)
+        (36.0, 10000.0, 1.0, 2.800954910858097e-267),      // t_cdf(36.0, 10000.0), t_sf(36.0, 10000.0)
+        (37.0, 10000000.0, 1.0, 6.00060616131917e-300),    // t_cdf(37.0, 10000000.0), t_sf(37.0, 10000000.0)
+    ];
+
+    // (p, df, t): mpmath 1.3.0, mp.dps = 40: root (mpmath.findroot in ln|t|) of the smaller
+    // tail of T_CDF_SF's reference function equal to p (or 1 - p, exact in binary).
+    const T_QUANTILE: &[(f64, f64, f64)] = &[
+        (1e-300, 1.0, -3.1830988618379066e+299),      // findroot(t_cdf(x, 1.0) = 1e-300)
+        (1e-10, 1.0, -3183098861.837907),             // findroot(t_cdf(x, 1.0) = 1e-10)
+        (0.001, 1.0, -318.30883898555044),            // findroot(t_cdf(x, 1.0) = 0.001)
+        (0.025, 1.0, -12.706204736174705),            // findroot(t_cdf(x, 1.0) = 0.025)
+        (0.3, 1.0, -0.7265425280053609),              // findroot(t_cdf(x, 1.0) = 0.3)
+        (0.4999, 1.0, -0.0003141592756943707),        // findroot(t_cdf(x, 1.0) = 0.4999)
+        (0.6, 1.0, 0.32491969623290623),              // findroot(t_cdf(x, 1.0) = 0.6)
+        (0.975, 1.0, 12.706204736174694),             // findroot(t_cdf(x, 1.0) = 0.975)
+        (0.995, 1.0, 63.656741162871526),             // findroot(t_cdf(x, 1.0) = 0.995)
+        (1e-300, 1.5, -5.219469427344636e+199),       // findroot(t_cdf(x, 1.5) = 1e-300)
+        (1e-10, 1.5, -2422663.101134394),             // findroot(t_cdf(x, 1.5) = 1e-10)
+        (0.001, 1.5, -52.18443000899265),             // findroot(t_cdf(x, 1.5) = 0.001)
+        (0.025, 1.5, -6.0166631044279315),            // findroot(t_cdf(x, 1.5) = 0.025)
+        (0.3, 1.5, -0.6517954826023571),              // findroot(t_cdf(x, 1.5) = 0.3)
+        (0.4999, 1.5, -0.000293483228561816),         // findroot(t_cdf(x, 1.5) = 0.4999)
+        (0.6, 1.5, 0.3007453925697954),               // findroot(t_cdf(x, 1.5) = 0.6)
+        (0.975, 1.5, 6.016663104427928),              // findroot(t_cdf(x, 1.5) = 0.975)
+        (0.995, 1.5, 17.820310514462797),             // findroot(t_cdf(x, 1.5) = 0.995)
+        (1e-300, 2.0, -7.071067811865475e+149),       // findroot(t_cdf(x, 2.0) = 1e-300)
+        (1e-10, 2.0, -70710.67810804815),             // findroot(t_cdf(x, 2.0) = 1e-10)
+        (0.001, 2.0, -22.327124770119877),            // findroot(t_cdf(x, 2.0) = 0.001)
+        (0.025, 2.0, -4.302652729749464),             // findroot(t_cdf(x, 2.0) = 0.025)
+        (0.3, 2.0, -0.6172133998483676),              // findroot(t_cdf(x, 2.0) = 0.3)
+        (0.4999, 2.0, -0.0002828427181314423),        // findroot(t_cdf(x, 2.0) = 0.4999)
+        (0.6, 2.0, 0.2886751345948128),               // findroot(t_cdf(x, 2.0) = 0.6)
+        (0.975, 2.0, 4.302652729749462),              // findroot(t_cdf(x, 2.0) = 0.975)
+        (0.995, 2.0, 9.92484320091829),               // findroot(t_cdf(x, 2.0) = 0.995)
+        (1e-300, 3.0, -1.033110836044653e+100),       // findroot(t_cdf(x, 3.0) = 1e-300)
+        (1e-10, 3.0, -2225.7692846830932),            // findroot(t_cdf(x, 3.0) = 1e-10)
+        (0.001, 3.0, -10.214531852407386),            // findroot(t_cdf(x, 3.0) = 0.001)
+        (0.025, 3.0, -3.1824463052837095),            // findroot(t_cdf(x, 3.0) = 0.025)
+        (0.3, 3.0, -0.5843897274398187),              // findroot(t_cdf(x, 3.0) = 0.3)
+        (0.4999, 3.0, -0.00027206990911047337),       // findroot(t_cdf(x, 3.0) = 0.4999)
+        (0.6, 3.0, 0.27667066233268983),              // findroot(t_cdf(x, 3.0) = 0.6)
+        (0.975, 3.0, 3.1824463052837086),             // findroot(t_cdf(x, 3.0) = 0.975)
+        (0.995, 3.0, 5.840909309733355),              // findroot(t_cdf(x, 3.0) = 0.995)
+        (1e-300, 5.0, -1.5683925590993378e+60),       // findroot(t_cdf(x, 5.0) = 1e-300)
+        (1e-10, 5.0, -156.8255927088943),             // findroot(t_cdf(x, 5.0) = 1e-10)
+        (0.001, 5.0, -5.89342953135601),              // findroot(t_cdf(x, 5.0) = 0.001)
+        (0.025, 5.0, -2.5705818356363155),            // findroot(t_cdf(x, 5.0) = 0.025)
+        (0.3, 5.0, -0.5594296444693608),              // findroot(t_cdf(x, 5.0) = 0.3)
+        (0.4999, 5.0, -0.0002634305560701855),        // findroot(t_cdf(x, 5.0) = 0.4999)
+        (0.6, 5.0, 0.26718086570414507),              // findroot(t_cdf(x, 5.0) = 0.6)
+        (0.975, 5.0, 2.5705818356363146),             // findroot(t_cdf(x, 5.0) = 0.975)
+        (0.995, 5.0, 4.032142983555227),              // findroot(t_cdf(x, 5.0) = 0.995)
+        (1e-300, 10.0, -2.564525718948198e+30),       // findroot(t_cdf(x, 10.0) = 1e-300)
+        (1e-10, 10.0, -25.466008021697725),           // findroot(t_cdf(x, 10.0) = 1e-10)
+        (0.001, 10.0, -4.143700494046589),            // findroot(t_cdf(x, 10.0) = 0.001)
+        (0.025, 10.0, -2.228138851986275),            // findroot(t_cdf(x, 10.0) = 0.025)
+        (0.3, 10.0, -0.5415280387550157),             // findroot(t_cdf(x, 10.0) = 0.3)
+        (0.4999, 10.0, -0.00025699780660494995),      // findroot(t_cdf(x, 10.0) = 0.4999)
+        (0.6, 10.0, 0.26018482949208016),             // findroot(t_cdf(x, 10.0) = 0.6)
+        (0.975, 10.0, 2.2281388519862744),            // findroot(t_cdf(x, 10.0) = 0.975)
+        (0.995, 10.0, 3.169272672616951),             // findroot(t_cdf(x, 10.0) = 0.995)
+        (1e-300, 30.0, -50178575360.50508),           // findroot(t_cdf(x, 30.0) = 1e-300)
+        (1e-10, 30.0, -9.377489780407144),            // findroot(t_cdf(x, 30.0) = 1e-10)
+        (0.001, 30.0, -3.385184866829305),            // findroot(t_cdf(x, 30.0) = 0.001)
+        (0.025, 30.0, -2.042272456301238),            // findroot(t_cdf(x, 30.0) = 0.025)
+        (0.3, 30.0, -0.5300190039065045),             // findroot(t_cdf(x, 30.0) = 0.3)
+        (0.4999, 30.0, -0.00025276002539339365),      // findroot(t_cdf(x, 30.0) = 0.4999)
+        (0.6, 30.0, 0.2556053649519127),              // findroot(t_cdf(x, 30.0) = 0.6)
+        (0.975, 30.0, 2.0422724563012378),            // findroot(t_cdf(x, 30.0) = 0.975)
+        (0.995, 30.0, 2.749995653567225),             // findroot(t_cdf(x, 30.0) = 0.995)
+        (1e-10, 10000.0, -6.367941351482803),         // findroot(t_cdf(x, 10000.0) = 1e-10)
+        (0.001, 10000.0, -3.091047516030612),         // findroot(t_cdf(x, 10000.0) = 0.001)
+        (0.025, 10000.0, -1.9602012398906263),        // findroot(t_cdf(x, 10000.0) = 0.025)
+        (0.3, 10000.0, -0.5244172283454668),          // findroot(t_cdf(x, 10000.0) = 0.3)
+        (0.4999, 10000.0, -0.0002506690967374758),    // findroot(t_cdf(x, 10000.0) = 0.4999)
+        (0.6, 10000.0, 0.2533538434457268),           // findroot(t_cdf(x, 10000.0) = 0.6)
+        (0.975, 10000.0, 1.960201239890626),          // findroot(t_cdf(x, 10000.0) = 0.975)
+        (0.995, 10000.0, 2.5763210466685287),         // findroot(t_cdf(x, 10000.0) = 0.995)
+        (1e-10, 10000000.0, -6.361347496998616),      // findroot(t_cdf(x, 10000000.0) = 1e-10)
+        (0.001, 10000000.0, -3.090233121180912),      // findroot(t_cdf(x, 10000000.0) = 0.001)
+        (0.025, 10000000.0, -1.9599642217672055),     // findroot(t_cdf(x, 10000000.0) = 0.025)
+        (0.3, 10000000.0, -0.5244005294232538),       // findroot(t_cdf(x, 10000000.0) = 0.3)
+        (0.4999, 10000000.0, -0.0002506628363545787), // findroot(t_cdf(x, 10000000.0) = 0.4999)
+        (0.6, 10000000.0, 0.25334710987600295),       // findroot(t_cdf(x, 10000000.0) = 0.6)
+        (0.975, 10000000.0, 1.959964221767205),       // findroot(t_cdf(x, 10000000.0) = 0.975)
+        (0.995, 10000000.0, 2.5758297952037488),      // findroot(t_cdf(x, 10000000.0) = 0.995)
+        (1e-10, 10000000000.0, -6.361340908998645),   // findroot(t_cdf(x, 10000000000.0) = 1e-10)
+        (0.001, 10000000000.0, -3.0902323069828266),  // findroot(t_cdf(x, 10000000000.0) = 0.001)
+        (0.025, 10000000000.0, -1.9599639847772814),  // findroot(t_cdf(x, 10000000000.0) = 0.025)
+        (0.3, 10000000000.0, -0.5244005127247561),    // findroot(t_cdf(x, 10000000000.0) = 0.3)
+        (0.4999, 10000000000.0, -0.00025066283009427405), // findroot(t_cdf(x, 10000000000.0) = 0.4999)
+        (0.6, 10000000000.0, 0.25334710314253994),    // findroot(t_cdf(x, 10000000000.0) = 0.6)
+        (0.975, 10000000000.0, 1.959963984777281),    // findroot(t_cdf(x, 10000000000.0) = 0.975)
+        (0.995, 10000000000.0, 2.575829304040555),    // findroot(t_cdf(x, 10000000000.0) = 0.995)
+        (1e-10, f64::INFINITY, -6.361340902404057),   // findroot(t_cdf(x, inf) = 1e-10)
+        (0.001, f64::INFINITY, -3.0902323061678136),  // findroot(t_cdf(x, inf) = 0.001)
+        (0.025, f64::INFINITY, -1.9599639845400543),  // findroot(t_cdf(x, inf) = 0.025)
+        (0.3, f64::INFINITY, -0.5244005127080408),    // findroot(t_cdf(x, inf) = 0.3)
+        (0.4999, f64::INFINITY, -0.00025066283008800747), // findroot(t_cdf(x, inf) = 0.4999)
+        (0.6, f64::INFINITY, 0.2533471031357997),     // findroot(t_cdf(x, inf) = 0.6)
+        (0.975, f64::INFINITY, 1.9599639845400538),   // findroot(t_cdf(x, inf) = 0.975)
+        (0.995, f64::INFINITY, 2.5758293035489004),   // findroot(t_cdf(x, inf) = 0.995)
+    ];
+    const F_CDF_SF: &[(f64, f64, f64, f64, f64)] = &[];
+    const F_QUANTILE: &[(f64, f64, f64, f64)] = &[];
+    const F_ISF: &[(f64, f64, f64, f64)] = &[];
+    const CHI2_CDF_SF: &[(f64, f64, f64, f64)] = &[];
+    const CHI2_QUANTILE: &[(f64, f64, f64)] = &[];
+    // (f, d1, d2, lambda, cdf, sf): Poisson(lambda/2) mixture of central F (d2 = inf: chi-square)
+    // probabilities, summed over the mode +- 13 standard deviations, mpmath 1.3.0:
+    // lambda <= 50 ('direct'): each term its own incomplete beta at mp.dps = 30, I_x(d1/2 + j, d2/2)
+    // by the positive-term mpmath.hyp2f1 series or mpmath.quad (as for T_CDF_SF), d2 = inf by
+    // mpmath.gammainc(d1/2 + j, d1 f/2, ...); lambda >= 1000 ('recurrence'): one such incomplete
+    // beta at the mode, then the recurrences A&S 26.5.16 / 6.5.21 at mp.dps = 50.
+    // Each row's comment gives scipy 1.17.1 ncf.sf(f, d1, d2, lambda) (ncx2.sf(d1 f, d1, lambda)
+    // for d2 = inf) as a second opinion. Values below 1e-30 are only checked absolutely.
+    const NONCENTRAL_F: &[(f64, f64, f64, f64, f64, f64)] = &[
+        (1.75, 1.0, 10.0, 1.0, 0.5955925766188119, 0.4044074233811881), // direct; scipy sf 0.4044074233811881
+        (2.5, 1.0, 10.0, 1.0, 0.6872328205777912, 0.31276717942220883), // direct; scipy sf 0.31276717942220883
+        (3.25, 1.0, 10.0, 1.0, 0.7541425879633512, 0.24585741203664874), // direct; scipy sf 0.2458574120366486
+        (
+            4.964602743730711,
+            1.0,
+            10.0,
+            1.0,
+            0.851842371147489,
+            0.14815762885251105,
+        ), // direct; scipy sf 0.14815762885251096
+        (
+            4.964602743730711,
+            1.0,
+            10.0,
+            50.0,
+            7.232950355787504e-06,
+            0.9999927670496442,
+        ), // direct; scipy sf 0.9999927670496442
+        (44.625, 1.0, 10.0, 50.0, 0.37017032845267206, 0.6298296715473279), // direct; scipy sf 0.6298296715473277
+        (63.75, 1.0, 10.0, 50.0, 0.6290102969027229, 0.3709897030972771), // direct; scipy sf 0.37098970309727725
+        (82.875, 1.0, 10.0, 50.0, 0.7861286845603391, 0.21387131543966087), // direct; scipy sf 0.21387131543966076
+        (4.964602743730711, 1.0, 10.0, 1000.0, 0.0, 1.0),               // recurrence; scipy sf 1.0
+        (875.875, 1.0, 10.0, 1000.0, 0.3279482888793881, 0.6720517111206119), // recurrence; scipy sf 0.6720517111206121
+        (1251.25, 1.0, 10.0, 1000.0, 0.6288369715611996, 0.37116302843880045), // recurrence; scipy sf 0.3711630284387994
+        (1626.625, 1.0, 10.0, 1000.0, 0.801208754208805, 0.19879124579119495), // recurrence; scipy sf 0.1987912457911942
+        (4.964602743730711, 1.0, 10.0, 10000.0, 0.0, 1.0),                     // recurrence; scipy sf 1.0
+        (8750.875, 1.0, 10.0, 10000.0, 0.32540359771633987, 0.6745964022836601), // recurrence; scipy sf 0.6745964022836609
+        (12501.25, 1.0, 10.0, 10000.0, 0.6288369352172688, 0.37116306478273114), // recurrence; scipy sf 0.3711630647827303
+        (16251.625, 1.0, 10.0, 10000.0, 0.8020786221711895, 0.19792137782881053), // recurrence; scipy sf 0.1979213778288101
+        (
+            1.037037037037037,
+            3.0,
+            20.0,
+            1.0,
+            0.4721705163984551,
+            0.5278294836015449,
+        ), // direct; scipy sf 0.5278294836015447
+        (
+            1.4814814814814814,
+            3.0,
+            20.0,
+            1.0,
+            0.6274749001329207,
+            0.3725250998670792,
+        ), // direct; scipy sf 0.3725250998670788
+        (
+            1.9259259259259258,
+            3.0,
+            20.0,
+            1.0,
+            0.7387715727085021,
+            0.26122842729149787,
+        ), // direct; scipy sf 0.26122842729149764
+        (
+            3.098391212140781,
+            3.0,
+            20.0,
+            1.0,
+            0.8964775434496517,
+            0.1035224565503483,
+        ), // direct; scipy sf 0.10352245655034817
+        (
+            3.098391212140781,
+            3.0,
+            20.0,
+            50.0,
+            7.114700763318597e-05,
+            0.9999288529923668,
+        ), // direct; scipy sf 0.9999288529923667
+        (
+            13.740740740740742,
+            3.0,
+            20.0,
+            50.0,
+            0.26682327406692896,
+            0.733176725933071,
+        ), // direct; scipy sf 0.7331767259330704
+        (
+            19.629629629629633,
+            3.0,
+            20.0,
+            50.0,
+            0.5881543159037067,
+            0.4118456840962933,
+        ), // direct; scipy sf 0.4118456840962929
+        (
+            25.518518518518523,
+            3.0,
+            20.0,
+            50.0,
+            0.799111129962625,
+            0.200888870037375,
+        ), // direct; scipy sf 0.20088887003737485
+        (3.098391212140781, 3.0, 20.0, 1000.0, 0.0, 1.0),                         // recurrence; scipy sf 1.0
+        (
+            260.037037037037,
+            3.0,
+            20.0,
+            1000.0,
+            0.18213577508116782,
+            0.8178642249188322,
+        ), // recurrence; scipy sf 0.8178642249188325
+        (
+            371.48148148148147,
+            3.0,
+            20.0,
+            1000.0,
+            0.5874085216903998,
+            0.41259147830960025,
+        ), // recurrence; scipy sf 0.41259147830959925
+        (
+            482.9259259259259,
+            3.0,
+            20.0,
+            1000.0,
+            0.8354227763872558,
+            0.1645772236127442,
+        ), // recurrence; scipy sf 0.16457722361274368
+        (3.098391212140781, 3.0, 20.0, 10000.0, 0.0, 1.0),                        // recurrence; scipy sf 1.0
+        (
+            2593.3703703703704,
+            3.0,
+            20.0,
+            10000.0,
+            0.17613939492545616,
+            0.8238606050745438,
+        ), // recurrence; scipy sf 0.823860605074547
+        (
+            3704.8148148148152,
+            3.0,
+            20.0,
+            10000.0,
+            0.5874082446285119,
+            0.412591755371488,
+        ), // recurrence; scipy sf 0.41259175537148646
+        (
+            4816.25925925926,
+            3.0,
+            20.0,
+            10000.0,
+            0.8379253424478647,
+            0.16207465755213538,
+        ), // recurrence; scipy sf 0.1620746575521358
+        (
+            0.8751750350070013,
+            4.0,
+            10000.0,
+            1.0,
+            0.40248099610598337,
+            0.5975190038940167,
+        ), // direct; scipy sf 0.5975190038940169
+        (
+            1.250250050010002,
+            4.0,
+            10000.0,
+            1.0,
+            0.5905014869202838,
+            0.4094985130797162,
+        ), // direct; scipy sf 0.40949851307966667
+        (
+            1.6253250650130027,
+            4.0,
+            10000.0,
+            1.0,
+            0.731836365566854,
+            0.26816363443314595,
+        ), // direct; scipy sf 0.26816363443314295
+        (
+            2.3728204636737833,
+            4.0,
+            10000.0,
+            1.0,
+            0.89454459710539,
+            0.10545540289460999,
+        ), // direct; scipy sf 0.10545540289461958
+        (
+            2.3728204636737833,
+            4.0,
+            10000.0,
+            50.0,
+            8.362604005168523e-06,
+            0.9999916373959948,
+        ), // direct; scipy sf 0.9999916373959946
+        (
+            9.451890378075614,
+            4.0,
+            10000.0,
+            50.0,
+            0.12516773637696707,
+            0.8748322636230329,
+        ), // direct; scipy sf 0.874832263623033
+        (
+            13.502700540108021,
+            4.0,
+            10000.0,
+            50.0,
+            0.527555400568505,
+            0.47244459943149497,
+        ), // direct; scipy sf 0.47244459943149514
+        (
+            17.55351070214043,
+            4.0,
+            10000.0,
+            50.0,
+            0.8667063512825551,
+            0.13329364871744487,
+        ), // direct; scipy sf 0.1332936487174447
+        (2.3728204636737833, 4.0, 10000.0, 1000.0, 0.0, 1.0),                     // recurrence; scipy sf 1.0
+        (
+            175.73514702940585,
+            4.0,
+            10000.0,
+            1000.0,
+            1.953597630088726e-07,
+            0.999999804640237,
+        ), // recurrence; scipy sf 0.9999998046402382
+        (
+            251.0502100420084,
+            4.0,
+            10000.0,
+            1000.0,
+            0.507066121390278,
+            0.4929338786097221,
+        ), // recurrence; scipy sf 0.4929338786097205
+        (
+            326.3652730546109,
+            4.0,
+            10000.0,
+            1000.0,
+            0.9999923522821437,
+            7.64771785631207e-06,
+        ), // recurrence; scipy sf 7.647717856312059e-06
+        (2.3728204636737833, 4.0, 10000.0, 10000.0, 0.0, 1.0),                    // recurrence; scipy sf 1.0
+        (1751.050210042008, 4.0, 10000.0, 10000.0, 5.826055534509517e-45, 1.0),   // recurrence; scipy sf 1.0
+        (
+            2501.500300060012,
+            4.0,
+            10000.0,
+            10000.0,
+            0.5039813743189193,
+            0.4960186256810806,
+        ), // recurrence; scipy sf 0.49601862568108684
+        (3251.9503900780155, 4.0, 10000.0, 10000.0, 1.0, 2.9897769817077745e-28), // recurrence; scipy sf 2.9897769817081543e-28
+        (
+            1.2833333333333334,
+            10.0,
+            5.0,
+            1.0,
+            0.5407539390562008,
+            0.45924606094379916,
+        ), // direct; scipy sf 0.4592460609437991
+        (
+            1.8333333333333335,
+            10.0,
+            5.0,
+            1.0,
+            0.7016932607717825,
+            0.29830673922821754,
+        ), // direct; scipy sf 0.2983067392282176
+        (
+            2.3833333333333337,
+            10.0,
+            5.0,
+            1.0,
+            0.7964635862601873,
+            0.20353641373981268,
+        ), // direct; scipy sf 0.20353641373981274
+        (
+            4.73506306969342,
+            10.0,
+            5.0,
+            1.0,
+            0.9396714604713127,
+            0.06032853952868735,
+        ), // direct; scipy sf 0.06032853952868735
+        (
+            4.73506306969342,
+            10.0,
+            5.0,
+            50.0,
+            0.30162707587735577,
+            0.6983729241226442,
+        ), // direct; scipy sf 0.6983729241226443
+        (7.0, 10.0, 5.0, 50.0, 0.519871174005679, 0.480128825994321),             // direct; scipy sf 0.4801288259943214
+        (10.0, 10.0, 5.0, 50.0, 0.7000285839165109, 0.29997141608348904),         // direct; scipy sf 0.2999714160834888
+        (13.0, 10.0, 5.0, 50.0, 0.8017661690711146, 0.19823383092888536), // direct; scipy sf 0.19823383092888508
+        (4.73506306969342, 10.0, 5.0, 1000.0, 2.480207796323897e-19, 1.0), // recurrence; scipy sf 1.0
+        (
+            117.83333333333333,
+            10.0,
+            5.0,
+            1000.0,
+            0.5098026407078856,
+            0.4901973592921144,
+        ), // recurrence; scipy sf 0.4901973592921141
+        (
+            168.33333333333334,
+            10.0,
+            5.0,
+            1000.0,
+            0.6999858473703444,
+            0.3000141526296556,
+        ), // recurrence; scipy sf 0.3000141526296552
+        (
+            218.83333333333334,
+            10.0,
+            5.0,
+            1000.0,
+            0.8049058199291104,
+            0.19509418007088963,
+        ), // recurrence; scipy sf 0.1950941800708892
+        (4.73506306969342, 10.0, 5.0, 10000.0, 0.0, 1.0),                 // recurrence; scipy sf 1.0
+        (
+            1167.8333333333333,
+            10.0,
+            5.0,
+            10000.0,
+            0.5091312795524501,
+            0.4908687204475499,
+        ), // recurrence; scipy sf 0.49086872044754964
+        (
+            1668.3333333333335,
+            10.0,
+            5.0,
+            10000.0,
+            0.6999858358905987,
+            0.30001416410940124,
+        ), // recurrence; scipy sf 0.30001416410940035
+        (
+            2168.8333333333335,
+            10.0,
+            5.0,
+            10000.0,
+            0.8051129710017768,
+            0.19488702899822313,
+        ), // recurrence; scipy sf 0.194887028998223
+        (
+            1.0499999999999998,
+            2.0,
+            f64::INFINITY,
+            1.0,
+            0.48708425200746824,
+            0.5129157479925317,
+        ), // direct; scipy sf 0.5129157479925318
+        (1.5, 2.0, f64::INFINITY, 1.0, 0.6206436532195436, 0.3793563467804564), // direct; scipy sf 0.37935634678045643
+        (
+            1.9500000000000002,
+            2.0,
+            f64::INFINITY,
+            1.0,
+            0.7214781761625183,
+            0.2785218238374817,
+        ), // direct; scipy sf 0.2785218238374817
+        (
+            2.9957322735539913,
+            2.0,
+            f64::INFINITY,
+            1.0,
+            0.8672899857674834,
+            0.13271001423251663,
+        ), // direct; scipy sf 0.13271001423251663
+        (
+            2.9957322735539913,
+            2.0,
+            f64::INFINITY,
+            50.0,
+            1.072326476888129e-06,
+            0.9999989276735232,
+        ), // direct; scipy sf 0.999998927673523
+        (18.2, 2.0, f64::INFINITY, 50.0, 0.1325096792662721, 0.8674903207337279), // direct; scipy sf 0.8674903207337279
+        (26.0, 2.0, f64::INFINITY, 50.0, 0.5278173568878766, 0.47218264311212343), // direct; scipy sf 0.4721826431121232
+        (
+            33.800000000000004,
+            2.0,
+            f64::INFINITY,
+            50.0,
+            0.8610734852277214,
+            0.13892651477227858,
+        ), // direct; scipy sf 0.13892651477227874
+        (2.9957322735539913, 2.0, f64::INFINITY, 1000.0, 0.0, 1.0),                // recurrence; scipy sf 1.0
+        (
+            350.7,
+            2.0,
+            f64::INFINITY,
+            1000.0,
+            1.260882855034722e-07,
+            0.9999998739117145,
+        ), // recurrence; scipy sf 0.9999998739117153
+        (
+            501.0,
+            2.0,
+            f64::INFINITY,
+            1000.0,
+            0.5063033675594192,
+            0.49369663244058076,
+        ), // recurrence; scipy sf 0.49369663244058154
+        (
+            651.3000000000001,
+            2.0,
+            f64::INFINITY,
+            1000.0,
+            0.9999957853937069,
+            4.214606293081606e-06,
+        ), // recurrence; scipy sf 4.214606293081615e-06
+        (2.9957322735539913, 2.0, f64::INFINITY, 10000.0, 0.0, 1.0),               // recurrence; scipy sf 1.0
+        (3500.7, 2.0, f64::INFINITY, 10000.0, 2.965743207646353e-60, 1.0),         // recurrence; scipy sf 1.0
+        (
+            5001.0,
+            2.0,
+            f64::INFINITY,
+            10000.0,
+            0.501994570123568,
+            0.4980054298764321,
+        ), // recurrence; scipy sf 0.498005429876433
+        (6501.3, 2.0, f64::INFINITY, 10000.0, 1.0, 5.53770838176071e-45), // recurrence; scipy sf 5.537708381802803e-45
+    ];
+
+    // ---------------------------------------------------------------- tables
+
+    #[test]
+    fn normal_cdf_and_sf_match_mpmath() -> Result<(), StatsError> {
+        for &(x, want) in NORMAL_CDF {
+            assert_close(normal_cdf(x)?, want, 1e-14, &format!("normal_cdf({x})"));
+            assert_close(normal_sf(-x)?, want, 1e-14, &format!("normal_sf({})", -x));
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn normal_quantile_matches_mpmath() -> Result<(), StatsError> {
+        for &(p, want) in NORMAL_QUANTILE {
+            assert_close(normal_quantile(p)?, want, 1e-14, &format!("normal_quantile({p})"));
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn t_cdf_and_sf_match_mpmath() -> Result<(), StatsError> {
+        for &(t, df, cdf, sf) in T_CDF_SF {
+            assert_close(t_cdf(t, df)?, cdf, 1e-12, &format!("t_cdf({t}, {df})"));
+            assert_close(t_sf(t, df)?, sf, 1e-12, &format!("t_sf({t}, {df})"));
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn t_quantile_matches_mpmath() -> Result<(), StatsError> {
+        for &(p, df, want) in T_QUANTILE {
+            assert_close(t_quantile(p, df)?, want, 1e-12, &format!("t_quantile({p}, {df})"));
+            assert_close(t_isf(p, df)?, -want, 1e-12, &format!("t_isf({p}, {df})"));
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn f_cdf_and_sf_match_mpmath() -> Result<(), StatsError> {
+        for &(f, d1, d2, cdf, sf) in F_CDF_SF {
+            assert_close(f_cdf(f, d1, d2)?, cdf, 1e-12, &format!("f_cdf({f}, {d1}, {d2})"));
+            assert_close(f_sf(f, d1, d2)?, sf, 1e-12, &format!("f_sf({f}, {d1}, {d2})"));
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn f_quantile_and_isf_match_mpmath() -> Result<(), StatsError> {
+        for &(p, d1, d2, want) in F_QUANTILE {
+            assert_close(
+                f_quantile(p, d1, d2)?,
+                want,
+                1e-12,
+                &format!("f_quantile({p}, {d1}, {d2})"),
+            );
+        }
+        for &(q, d1, d2, want) in F_ISF {
+            assert_close(f_isf(q, d1, d2)?, want, 1e-12, &format!("f_isf({q}, {d1}, {d2})"));
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn chi2_cdf_and_sf_match_mpmath() -> Result<(), StatsError> {
+        for &(x, df, cdf, sf) in CHI2_CDF_SF {
+            assert_close(chi2_cdf(x, df)?, cdf, 1e-12, &format!("chi2_cdf({x}, {df})"));
+            assert_close(chi2_sf(x, df)?, sf, 1e-12, &format!("chi2_sf({x}, {df})"));
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn chi2_quantile_matches_mpmath() -> Result<(), StatsError> {
+        for &(p, df, want) in CHI2_QUANTILE {
+            let got = if p < 0.0 {
+                chi2_isf(-p, df)?
+            } else {
+                chi2_quantile(p, df)?
+            };
+            assert_close(got, want, 1e-12, &format!("chi2 quantile ({p}, {df})"));
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn noncentral_f_matches_mpmath_mixture() -> Result<(), StatsError> {
+        for &(f, d1, d2, lambda, cdf, sf) in NONCENTRAL_F {
+            let got_cdf = noncentral_f_cdf(f, d1, d2, lambda)?;
+            let got_sf = noncentral_f_sf(f, d1, d2, lambda)?;
+            for (got, want, side) in [(got_cdf, cdf, "cdf"), (got_sf, sf, "sf")] {
+                let absolute = (got - want).abs();
+                assert!(
+                    absolute <= 1e-13,
+                    "noncentral {side}({f}, {d1}, {d2}, {lambda}): {got:e} vs {want:e}"
+                );
+                if want > 1e-30 {
+                    assert_close(
+                        got,
+                        want,
+                        1e-11,
+                        &format!("noncentral {side}({f}, {d1}, {d2}, {lambda})"),
+                    );
+                }
+            }
+        }
+        Ok(())
+    }
+
+    // ------------------------------------------------- known statrs failures
+
+    #[test]
+    fn t_quantile_at_large_and_infinite_df() -> Result<(), StatsError> {
+        // statrs 0.19.1 StudentsT::inverse_cdf(0.975) at df = 1e7 returns 1.8265563836258383
+        // (measured) and does not return at df = inf.
+        // mpmath 1.3.0 (dps 40): findroot of t_sf(x, 1e7) = 0.025 (see T_QUANTILE)
+        assert_close(
+            t_quantile(0.975, 1e7)?,
+            1.959_964_221_767_205,
+            1e-12,
+            "t 0.975 at df 1e7",
+        );
+        // mpmath 1.3.0: sqrt(2) * erfinv(0.95)
+        assert_close(
+            t_quantile(0.975, f64::INFINITY)?,
+            1.959_963_984_540_054,
+            1e-15,
+            "t 0.975 at df inf",
+        );
+        assert_eq!(t_quantile(0.975, f64::INFINITY)?, normal_quantile(0.975)?);
+        Ok(())
+    }
+
+    // ------------------------------------------------- published power value
+
+    #[test]
+    fn anova_power_matches_cohen_sample_size_table() -> Result<(), StatsError> {
+        // Cohen (1988), Statistical Power Analysis for the Behavioral Sciences, 2nd ed.,
+        // Table 8.4.4 (alpha = .05, u = 3): effect size f = .25 needs n = 45 per group for
+        // power .80 (from memory). Four groups, lambda = f^2 N, d2 = N - 4.
+        // scipy 1.17.1: ncf.sf(f.isf(0.05, 3, 176), 3, 176, 11.25) = 0.8039869128651759
+        // scipy 1.17.1: ncf.sf(f.isf(0.05, 3, 172), 3, 172, 11.0) = 0.7939151029057582
+        let power_45 = f_test_power(0.05, 3.0, 176.0, 0.0625 * 180.0)?;
+        let power_44 = f_test_power(0.05, 3.0, 172.0, 0.0625 * 176.0)?;
+        assert!(
+            power_45 >= 0.80 && power_44 < 0.80,
+            "n = 45: {power_45}, n = 44: {power_44}"
+        );
+        assert_close(power_45, 0.803_986_912_865_175_9, 1e-11, "power at n = 45");
+        assert_close(power_44, 0.793_915_102_905_758_2, 1e-11, "power at n = 44");
+        Ok(())
+    }
+
+    // ------------------------------------------------------ property tests
+
+    #[test]
+    fn cdf_plus_sf_is_one() -> Result<(), StatsError> {
+        for &x in &[-30.0, -3.0, -0.7, 0.0, 0.2, 1.9, 6.0] {
+            assert!((normal_cdf(x)? + normal_sf(x)? - 1.0).abs() <= 2e-16);
+            for &df in &[0.7, 1.0, 4.0, 25.0, 1e6, 1e12, f64::INFINITY] {
+                let total = t_cdf(x, df)? + t_sf(x, df)?;
+                assert!((total - 1.0).abs() <= 4e-16, "t at ({x}, {df}): {total}");
+            }
+        }
+        for &f in &[1e-8, 0.3, 1.0, 2.7, 40.0] {
+            for &(d1, d2) in &[
+                (1.0, 1.0),
+                (2.0, 9.0),
+                (7.5, 1e5),
+                (3.0, f64::INFINITY),
+                (f64::INFINITY, 12.0),
+            ] {
+                let total = f_cdf(f, d1, d2)? + f_sf(f, d1, d2)?;
+                assert!((total - 1.0).abs() <= 4e-16, "F at ({f}, {d1}, {d2}): {total}");
+                if d1.is_finite() {
+                    for &lambda in &[0.5, 30.0, 3000.0] {
+                        let total = noncentral_f_cdf(f, d1, d2, lambda)? + noncentral_f_sf(f, d1, d2, lambda)?;
+                        assert!(
+                            (total - 1.0).abs() <= 1e-14,
+                            "noncentral F at ({f}, {d1}, {d2}, {lambda}): {total}"
+                        );
+                    }
+                }
+            }
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn quantiles_invert_their_distribution_functions() -> Result<(), StatsError> {
+        let probabilities = [1e-280, 1e-40, 1e-9, 0.003, 0.04, 0.31, 0.5, 0.77, 0.99, 0.999_999_9];
+        for &p in &probabilities {
+            let (lower, upper) = if p <= 0.5 { (p, false) } else { (1.0 - p, true) };
+            let check = |got: f64, what: String| assert_close(got, lower, 1e-12, &what);
+            for &df in &[0.6, 1.0, 2.0, 3.0, 7.0, 45.0, 3e3, 1e6, 1e9] {
+                let t = t_quantile(p, df)?;
+                if p < 1e-200 && df < 1.0 {
+                    // the quantile, about -p^(-1/df), is beyond the double range
+                    assert_eq!(t, f64::NEG_INFINITY);
+                    continue;
+                }
+                let tail = if upper { t_sf(t, df)? } else { t_cdf(t, df)? };
+                check(tail, format!("t round trip p = {p}, df = {df}"));
+            }
+            for &(d1, d2) in &[(1.0, 3.0), (2.0, 2.0), (5.0, 17.0), (40.0, 1e3), (3.0, 1e8), (1e3, 1e3)] {
+                let f = f_quantile(p, d1, d2)?;
+                if f == 0.0 {
+                    // below the smallest positive double (p ~ f^(d1/2))
+                    assert!(p < 1e-200 && d1 < 3.0, "F quantile 0 at p = {p}, df = ({d1}, {d2})");
+                    continue;
+                }
+                let tail = if upper { f_sf(f, d1, d2)? } else { f_cdf(f, d1, d2)? };
+                check(tail, format!("F round trip p = {p}, df = ({d1}, {d2})"));
+                let f_upper = f_isf(p, d1, d2)?;
+                check(
+                    if upper {
+                        f_cdf(f_upper, d1, d2)?
+                    } else {
+                        f_sf(f_upper, d1, d2)?
+                    },
+                    format!("F isf round trip q = {p}"),
+                );
+            }
+            for &df in &[0.4, 1.0, 6.0, 80.0, 1e5] {
+                let x = chi2_quantile(p, df)?;
+                if x == 0.0 {
+                    // below the smallest positive double (p ~ x^(df/2))
+                    assert!(p < 1e-200 && df < 2.0, "chi2 quantile 0 at p = {p}, df = {df}");
+                    continue;
+                }
+                let tail = if upper { chi2_sf(x, df)? } else { chi2_cdf(x, df)? };
+                check(tail, format!("chi2 round trip p = {p}, df = {df}"));
+            }
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn quantiles_increase_with_probability() -> Result<(), StatsError> {
+        let mut previous = (f64::NEG_INFINITY, 0.0, 0.0);
+        for k in 1..200 {
+            let p = k as f64 / 200.0;
+            let current = (t_quantile(p, 4.5)?, f_quantile(p, 3.0, 11.0)?, chi2_quantile(p, 2.5)?);
+            assert!(
+                current.0 > previous.0 && current.1 > previous.1 && current.2 > previous.2,
+                "at p = {p}"
+            );
+            previous = current;
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn limits_in_the_degrees_of_freedom() -> Result<(), StatsError> {
+        for &x in &[-5.0, -1.0, 0.4, 2.0, 8.0] {
+            // infinite df is the normal distribution exactly
+            assert_eq!(t_cdf(x, f64::INFINITY)?, normal_cdf(x)?);
+            // the t tail differs from the normal by about (x^3 + x) phi(x) / (4 df), common practice
+            let difference = (t_sf(x, 1e14)? - normal_sf(x)?).abs();
+            assert!(
+                difference <= 1e-16 + 1e-13 * normal_sf(x)?,
+                "t vs normal at {x}: {difference:e}"
+            );
+            let d1 = 3.0;
+            let f = x.abs();
+            assert_eq!(f_sf(f, d1, f64::INFINITY)?, chi2_sf(d1 * f, d1)?);
+            // relative gap F(3, d2) vs chi2(3)/3 is of order (d1 f)^2 / d2, common practice
+            let close = (f_sf(f, d1, 1e18)? - chi2_sf(d1 * f, d1)?).abs();
+            assert!(close <= 1e-13 * chi2_sf(d1 * f, d1)?, "F(3, 1e18) vs chi2/3 at {f}");
+        }
+        assert_eq!(t_quantile(0.3, f64::INFINITY)?, normal_quantile(0.3)?);
+        assert_eq!(f_quantile(0.9, 4.0, f64::INFINITY)?, chi2_quantile(0.9, 4.0)? / 4.0);
+        assert_eq!(f_quantile(0.9, f64::INFINITY, f64::INFINITY)?, 1.0);
+        Ok(())
+    }
+
+    #[test]
+    fn t_is_symmetric() -> Result<(), StatsError> {
+        for &t in &[0.1, 1.3, 5.0, 60.0] {
+            for &df in &[0.8, 3.0, 1e5] {
+                assert_eq!(t_cdf(-t, df)?, t_sf(t, df)?);
+                // 0.25 and 0.75 are exact in binary, so 1 - 0.75 = 0.25 exactly
+                assert_eq!(t_quantile(0.25, df)?, -t_quantile(0.75, df)?);
+            }
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn zero_noncentrality_is_the_central_distribution() -> Result<(), StatsError> {
+        for &f in &[0.01, 0.8, 3.3, 90.0] {
+            for &(d1, d2) in &[(1.0, 5.0), (4.0, 36.0), (2.0, f64::INFINITY)] {
+                assert_eq!(noncentral_f_cdf(f, d1, d2, 0.0)?, f_cdf(f, d1, d2)?);
+                assert_eq!(noncentral_f_sf(f, d1, d2, 0.0)?, f_sf(f, d1, d2)?);
+                // tiny noncentrality is continuous with the central case
+                let near = noncentral_f_sf(f, d1, d2, 1e-12)?;
+                assert!((near - f_sf(f, d1, d2)?).abs() <= 1e-12, "lambda 1e-12 at {f}");
+            }
+            assert_eq!(noncentral_chi2_sf(f, 3.0, 0.0)?, chi2_sf(f, 3.0)?);
+        }
+        for &alpha in &[1e-8, 0.01, 0.05, 0.2] {
+            assert_close(f_test_power(alpha, 3.0, 20.0, 0.0)?, alpha, 1e-13, "power at lambda 0");
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn power_grows_with_noncentrality() -> Result<(), StatsError> {
+        let mut previous = 0.0;
+        for &lambda in &[0.0, 0.5, 2.0, 8.0, 30.0, 100.0, 400.0] {
+            let power = f_test_power(0.05, 2.0, 27.0, lambda)?;
+            assert!(power > previous, "power {power} at lambda {lambda}");
+            previous = power;
+        }
+        assert!(previous > 1.0 - 1e-12);
+        Ok(())
+    }
+
+    #[test]
+    fn noncentral_chi2_is_the_infinite_denominator_limit() -> Result<(), StatsError> {
+        for &f in &[0.5, 2.0, 7.0] {
+            let limit = noncentral_f_sf(f, 4.0, f64::INFINITY, 12.0)?;
+            assert_eq!(limit, noncentral_chi2_sf(4.0 * f, 4.0, 12.0)?);
+            let near = noncentral_f_sf(f, 4.0, 1e12, 12.0)?;
+            assert!((near - limit).abs() <= 1e-10, "d2 = 1e12 vs inf at {f}");
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn endpoints_of_the_quantiles() -> Result<(), StatsError> {
+        assert_eq!(normal_quantile(0.0)?, f64::NEG_INFINITY);
+        assert_eq!(normal_quantile(1.0)?, f64::INFINITY);
+        assert_eq!(t_quantile(0.0, 3.0)?, f64::NEG_INFINITY);
+        assert_eq!(t_quantile(1.0, 3.0)?, f64::INFINITY);
+        assert_eq!(t_quantile(0.5, 3.0)?, 0.0);
+        assert_eq!(f_quantile(0.0, 3.0, 4.0)?, 0.0);
+        assert_eq!(f_quantile(1.0, 3.0, 4.0)?, f64::INFINITY);
+        assert_eq!(f_isf(0.0, 3.0, 4.0)?, f64::INFINITY);
+        assert_eq!(chi2_quantile(0.0, 3.0)?, 0.0);
+        assert_eq!(chi2_isf(1.0, 3.0)?, 0.0);
+        assert_eq!(f_test_power(1.0, 3.0, 20.0, 5.0)?, 1.0);
+        assert_eq!(f_test_power(0.0, 3.0, 20.0, 5.0)?, 0.0);
+        Ok(())
+    }
+
+    #[test]
+    fn incomplete_functions_at_simple_points() -> Result<(), StatsError> {
+        // I_x(1, 1) = x and I_x(a, 1) = x^a, 1 - I_x(1, b) = (1 - x)^b: closed forms, common practice
+        for &x in &[1e-9, 0.25, 0.5, 0.9] {
+            assert_close(beta_reg(1.0, 1.0, x)?, x, 1e-14, "I_x(1,1)");
+            assert_close(beta_reg(3.5, 1.0, x)?, x.powf(3.5), 1e-13, "I_x(3.5,1)");
+            assert_close(
+                beta_reg_complement(1.0, 2.5, x)?,
+                (1.0 - x).powf(2.5),
+                1e-14,
+                "1 - I_x(1,2.5)",
+            );
+            // P(1, x) = 1 - e^-x, common practice
+            assert_close(gamma_reg_lower(1.0, x)?, -(-x).exp_m1(), 1e-15, "P(1,x)");
+            assert_close(gamma_reg_upper(1.0, 40.0 * x)?, (-40.0 * x).exp(), 1e-14, "Q(1,x)");
+        }
+        Ok(())
+    }
+
+    #[test]
+    fn invalid_input_is_refused() {
+        let invalid = |r: Result<f64, StatsError>| matches!(r, Err(StatsError::InvalidParameter { .. }));
+        assert!(invalid(normal_cdf(f64::NAN)));
+        assert!(invalid(normal_quantile(1.5)));
+        assert!(invalid(normal_quantile(f64::NAN)));
+        assert!(invalid(t_cdf(1.0, 0.0)));
+        assert!(invalid(t_cdf(1.0, -2.0)));
+        assert!(invalid(t_cdf(1.0, f64::NAN)));
+        assert!(invalid(t_quantile(-0.1, 3.0)));
+        assert!(invalid(f_sf(1.0, 3.0, 0.0)));
+        assert!(invalid(f_quantile(0.5, f64::NAN, 3.0)));
+        assert!(invalid(chi2_cdf(1.0, f64::INFINITY)));
+        assert!(invalid(chi2_quantile(2.0, 3.0)));
+        assert!(invalid(noncentral_f_sf(1.0, 3.0, 10.0, -1.0)));
+        assert!(invalid(noncentral_f_sf(1.0, 3.0, 10.0, f64::INFINITY)));
+        assert!(invalid(noncentral_f_cdf(1.0, f64::INFINITY, 10.0, 1.0)));
+        assert!(invalid(f_test_power(1.2, 3.0, 10.0, 1.0)));
+        assert!(invalid(beta_reg(0.0, 1.0, 0.5)));
+        assert!(invalid(beta_reg(1.0, 1.0, 1.5)));
+        assert!(invalid(gamma_reg_lower(1.0, -1.0)));
+    }
 }

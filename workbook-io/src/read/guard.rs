@@ -51,7 +51,7 @@ pub(crate) fn inspect(path: &Path, limits: &ReadLimits) -> Result<Container, Rea
     if head.starts_with(b"PK\x03\x04") || head.starts_with(b"PK\x05\x06") {
         inspect_zip(path, limits)
     } else if head.starts_with(&[0xD0, 0xCF, 0x11, 0xE0, 0xA1, 0xB1, 0x1A, 0xE1]) {
-        inspect_compound(path)
+        inspect_compound(path, limits)
     } else {
         let detail = if read == 0 {
             "the file is empty".to_string()
@@ -79,7 +79,7 @@ fn read_up_to(file: &mut File, buffer: &mut [u8]) -> std::io::Result<usize> {
 
 /// A compound-document file is an xls workbook, or an encrypted
 /// (password-protected) xlsx, which is stored as a compound document too.
-fn inspect_compound(path: &Path) -> Result<Container, ReadError> {
+fn inspect_compound(path: &Path, limits: &ReadLimits) -> Result<Container, ReadError> {
     let bytes = std::fs::read(path).map_err(|source| ReadError::Io {
         path: path.to_path_buf(),
         source,
@@ -95,7 +95,174 @@ fn inspect_compound(path: &Path) -> Result<Container, ReadError> {
             path: path.to_path_buf(),
         });
     }
+    check_xls_sheet_sizes(path, &bytes, limits)?;
     Ok(Container { format: Format::Xls })
+}
+
+/// The xls parser reserves room for a sheet's whole DIMENSIONS rectangle and
+/// then builds a dense grid over the rectangle its cells span, both before
+/// any cell is handed to us. A hostile file can claim 2^32 rows or place
+/// cells at column 65,535 and make those requests ask for terabytes, which
+/// aborts the process. So the Workbook stream is walked here, record by
+/// record, exactly as the parser will walk it (MS-XLS 2.1.4: a 2-byte type, a
+/// 2-byte length, the body), and a sheet whose rectangle exceeds
+/// [`ReadLimits::max_box_cells`] is refused.
+fn check_xls_sheet_sizes(path: &Path, bytes: &[u8], limits: &ReadLimits) -> Result<(), ReadError> {
+    let corrupt = |detail: String| ReadError::Corrupt {
+        path: path.to_path_buf(),
+        detail,
+    };
+    let mut compound = cfb::CompoundFile::open(std::io::Cursor::new(bytes))
+        .map_err(|error| corrupt(format!("the compound container cannot be read ({error})")))?;
+    let stream_name = ["/Workbook", "/Book"]
+        .into_iter()
+        .find(|name| compound.is_stream(name))
+        .ok_or_else(|| corrupt("the compound container has no Workbook stream".into()))?;
+    let mut stream = Vec::new();
+    compound
+        .open_stream(stream_name)
+        .and_then(|reader| reader.take(bytes.len() as u64).read_to_end(&mut stream))
+        .map_err(|error| corrupt(format!("the Workbook stream cannot be read ({error})")))?;
+
+    // Globals: BoundSheet8 records (0x0085) give each sheet's stream offset
+    // and name, up to the first EOF (0x000A).
+    let mut sheets: Vec<(usize, String)> = Vec::new();
+    for (record_type, body) in biff_records(&stream, 0) {
+        match record_type {
+            0x0085 if body.len() >= 8 => {
+                let offset = u32::from_le_bytes([body[0], body[1], body[2], body[3]]) as usize;
+                sheets.push((offset, bound_sheet_name(body, sheets.len())));
+            }
+            0x000A => break,
+            _ => {}
+        }
+    }
+    let limit = limits.max_box_cells;
+    for (offset, name) in sheets {
+        let too_large = |what: String| ReadError::TooLarge {
+            path: path.to_path_buf(),
+            what: format!("sheet '{name}' {what}"),
+            limit: format!("{limit} cells in a sheet's rectangle"),
+        };
+        let mut seen_sheet_bof = false;
+        let mut depth = 0usize;
+        let mut span: Option<(u32, u32, u32, u32)> = None;
+        for (record_type, body) in biff_records(&stream, offset) {
+            // Nested substreams (charts) are skipped by the parser; so here.
+            if depth > 0 {
+                match record_type {
+                    0x0809 => depth += 1,
+                    0x000A => depth -= 1,
+                    _ => {}
+                }
+                continue;
+            }
+            let u16_at = |at: usize| {
+                body.get(at..at + 2)
+                    .map(|two| u16::from_le_bytes([two[0], two[1]]) as u32)
+            };
+            let u32_at = |at: usize| {
+                body.get(at..at + 4)
+                    .map(|four| u32::from_le_bytes([four[0], four[1], four[2], four[3]]))
+            };
+            match record_type {
+                0x0809 if seen_sheet_bof => depth += 1,
+                0x0809 => seen_sheet_bof = true,
+                0x000A => break,
+                // DIMENSIONS (MS-XLS 2.4.90), measured as the parser measures
+                // it, wrapping arithmetic included.
+                0x0200 => {
+                    let fields = match body.len() {
+                        10 => u16_at(0).zip(u16_at(2)).zip(u16_at(4)).zip(u16_at(6)),
+                        14 | 16 => u32_at(0).zip(u32_at(4)).zip(u16_at(8)).zip(u16_at(10)),
+                        _ => None,
+                    };
+                    if let Some((((first_row, end_row), mut first_col), end_col)) = fields {
+                        if first_col > 0xFF || end_col < first_col {
+                            first_col = 0;
+                        }
+                        let (rows, cols) = if end_row >= 1 && end_col >= 1 {
+                            (
+                                (end_row - 1).wrapping_sub(first_row).wrapping_add(1) as u64,
+                                (end_col - 1).wrapping_sub(first_col).wrapping_add(1) as u64,
+                            )
+                        } else {
+                            (1, 1)
+                        };
+                        if rows.saturating_mul(cols) > limit {
+                            return Err(too_large(format!("declares {rows} rows × {cols} columns")));
+                        }
+                    }
+                }
+                // Cell records: row and column lead the body (MS-XLS 2.4.180
+                // Number, 2.4.148 Label, 2.4.181 RString, 2.4.24 BoolErr,
+                // 2.4.220 RK, 2.4.149 LabelSst, 2.4.127 Formula); MulRk
+                // (2.4.175) ends with its last column.
+                0x0203 | 0x0204 | 0x00D6 | 0x0205 | 0x027E | 0x00FD | 0x0006 | 0x00BD => {
+                    let (Some(row), Some(first_col)) = (u16_at(0), u16_at(2)) else {
+                        continue;
+                    };
+                    let last_col = if record_type == 0x00BD && body.len() >= 6 {
+                        u16_at(body.len() - 2).unwrap_or(first_col).max(first_col)
+                    } else {
+                        first_col
+                    };
+                    let (top, bottom, left, right) = span.unwrap_or((row, row, first_col, last_col));
+                    let grown = (top.min(row), bottom.max(row), left.min(first_col), right.max(last_col));
+                    let rows = (grown.1 - grown.0 + 1) as u64;
+                    let cols = (grown.3 - grown.2 + 1) as u64;
+                    if rows * cols > limit {
+                        return Err(too_large(format!("has cells spanning {rows} rows × {cols} columns")));
+                    }
+                    span = Some(grown);
+                }
+                _ => {}
+            }
+        }
+    }
+    Ok(())
+}
+
+/// The records of a BIFF stream from `offset`: (type, body), stopping at the
+/// first record that runs past the end. Continuation records (0x003C) belong
+/// to the record before them and are passed over.
+fn biff_records(stream: &[u8], offset: usize) -> impl Iterator<Item = (u16, &[u8])> {
+    let mut position = offset;
+    std::iter::from_fn(move || loop {
+        let header = stream.get(position..position.checked_add(4)?)?;
+        let record_type = u16::from_le_bytes([header[0], header[1]]);
+        let length = u16::from_le_bytes([header[2], header[3]]) as usize;
+        let body = stream.get(position + 4..position + 4 + length)?;
+        position += 4 + length;
+        if record_type != 0x003C {
+            return Some((record_type, body));
+        }
+    })
+}
+
+/// The sheet name of a BoundSheet8 body (MS-XLS 2.4.28): an offset, two
+/// flag bytes, then a short string (a count, a flag byte, the characters).
+fn bound_sheet_name(body: &[u8], index: usize) -> String {
+    let fallback = || format!("number {}", index + 1);
+    let (Some(&count), Some(&flags)) = (body.get(6), body.get(7)) else {
+        return fallback();
+    };
+    let count = count as usize;
+    if flags & 1 == 0 {
+        body.get(8..8 + count)
+            .map(|chars| chars.iter().map(|&byte| byte as char).collect())
+            .unwrap_or_else(fallback)
+    } else {
+        body.get(8..8 + 2 * count)
+            .map(|units| {
+                let units: Vec<u16> = units
+                    .chunks_exact(2)
+                    .map(|pair| u16::from_le_bytes([pair[0], pair[1]]))
+                    .collect();
+                String::from_utf16_lossy(&units)
+            })
+            .unwrap_or_else(fallback)
+    }
 }
 
 fn inspect_zip(path: &Path, limits: &ReadLimits) -> Result<Container, ReadError> {

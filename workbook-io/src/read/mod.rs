@@ -8,6 +8,7 @@
 //! container; calamine's own panics are caught and become errors.
 
 mod guard;
+mod merged;
 
 use std::collections::HashMap;
 use std::fs::File;
@@ -63,6 +64,10 @@ pub struct ReadLimits {
     pub ratio_check_above_bytes: u64,
     /// Most non-empty cells read from one sheet.
     pub max_cells: u64,
+    /// Largest rows × columns rectangle of one sheet, for the xls format,
+    /// whose parser allocates the whole rectangle (declared or spanned by
+    /// its cells) before handing over any cell.
+    pub max_box_cells: u64,
 }
 
 impl Default for ReadLimits {
@@ -77,6 +82,9 @@ impl Default for ReadLimits {
             max_compression_ratio: 400.0,
             ratio_check_above_bytes: 4 << 20,
             max_cells: 40_000_000,
+            // A full xls sheet: 65,536 rows × 256 columns (IV), the format's
+            // own size, so no conforming file is refused.
+            max_box_cells: 65_536 * 256,
         }
     }
 }
@@ -526,6 +534,7 @@ impl Workbook {
         };
         let mut builder = GridBuilder::new(sheet, window, max_cells);
         let mut merged = Vec::new();
+        let mut skimmed_merged: Option<Vec<CellRect>> = None;
         let outcome = catch_unwind(AssertUnwindSafe(|| -> Result<bool, String> {
             match &mut self.inner {
                 Sheets::Xlsx(xlsx) => {
@@ -537,8 +546,13 @@ impl Workbook {
                         }
                     }
                     drop(reader);
-                    if let Ok(areas) = xlsx.merge_cells_by_sheet_name(sheet) {
-                        merged = areas;
+                    match merged::xlsx_merged_areas(&path, sheet) {
+                        Some(areas) => skimmed_merged = Some(areas),
+                        None => {
+                            if let Ok(areas) = xlsx.merge_cells_by_sheet_name(sheet) {
+                                merged = areas;
+                            }
+                        }
                     }
                 }
                 Sheets::Xlsb(xlsb) => {
@@ -600,6 +614,9 @@ impl Workbook {
                 last: CellPos::new(area.end.0, area.end.1),
             })
             .collect();
+        if let Some(areas) = skimmed_merged {
+            grid.merged = areas;
+        }
         Ok(grid)
     }
 }

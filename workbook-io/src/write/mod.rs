@@ -9,8 +9,9 @@
 use std::path::{Path, PathBuf};
 
 use rust_xlsxwriter::{
-    Chart, ChartErrorBars, ChartErrorBarsType, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, ChartRange,
-    ChartSolidFill, Color, Format, FormatAlign, FormatBorder, Workbook as XlsxWorkbook, XlsxError,
+    Chart, ChartDataLabel, ChartErrorBars, ChartErrorBarsType, ChartFormat, ChartLine, ChartMarker, ChartMarkerType,
+    ChartRange, ChartSolidFill, Color, DataValidation, DataValidationErrorStyle, DataValidationRule, DocProperties,
+    ExcelDateTime, Format, FormatAlign, FormatBorder, Formula, Workbook as XlsxWorkbook, XlsxError,
 };
 
 /// The longest text a cell may hold in xlsx.
@@ -34,7 +35,8 @@ pub enum NumberFormat {
 }
 
 impl NumberFormat {
-    fn code(self) -> String {
+    /// The format code a spreadsheet understands, such as `0.000` or `#,##0`.
+    pub fn code(self) -> String {
         match self {
             NumberFormat::General => "General".into(),
             NumberFormat::Integer => "#,##0".into(),
@@ -68,6 +70,8 @@ pub enum Look {
     Verdict,
     /// A key in a key/value list.
     Key,
+    /// Running text, wrapped within the column.
+    Paragraph,
 }
 
 /// A cell's content.
@@ -192,6 +196,8 @@ pub struct Series {
     pub bar_plus: Option<SheetRange>,
     /// Downward half-widths of interval bars, if any.
     pub bar_minus: Option<SheetRange>,
+    /// Text labels shown beside the points, one cell per point, if any.
+    pub labels: Option<SheetRange>,
 }
 
 /// A chart placed on a sheet.
@@ -226,6 +232,48 @@ pub struct Sheet {
     pub charts: Vec<ChartSpec>,
     /// Rows frozen at the top (0 for none).
     pub frozen_rows: u32,
+    /// Row heights in points, by row, for rows of wrapped text.
+    pub heights: Vec<(u32, f64)>,
+    /// Areas where typing is limited to numbers.
+    pub number_only: Vec<NumberOnly>,
+}
+
+/// An area of a sheet where the spreadsheet accepts only numbers (any
+/// decimal number; blanks allowed), with a message shown on entry and on a
+/// refused value.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NumberOnly {
+    /// First row, zero-based.
+    pub first_row: u32,
+    /// First column.
+    pub first_col: u16,
+    /// Last row.
+    pub last_row: u32,
+    /// Last column.
+    pub last_col: u16,
+    /// Short title of the messages (at most 32 characters).
+    pub title: String,
+    /// The message shown when a cell of the area is selected (at most 255 characters).
+    pub prompt: String,
+}
+
+/// A calendar date for the document's creation property, at midnight UTC.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct CreationDate {
+    /// The year, 1900 to 9999.
+    pub year: u16,
+    /// The month, 1 to 12.
+    pub month: u8,
+    /// The day of the month.
+    pub day: u8,
+}
+
+/// Choices for writing a book beyond its content.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct WriteOptions {
+    /// A fixed creation date written into the document properties instead of
+    /// the current time, so that the same book gives the same bytes.
+    pub created: Option<CreationDate>,
 }
 
 impl Sheet {
@@ -240,6 +288,21 @@ impl Sheet {
     /// Places a value.
     pub fn put(&mut self, row: u32, col: u16, value: Value, look: Look) {
         self.cells.push(Placed { row, col, value, look });
+    }
+
+    /// Places wrapped text in a column `width` characters wide and sets the
+    /// row's height to fit it (spreadsheet programs do not always refit rows
+    /// of wrapped text on opening).
+    pub fn paragraph(&mut self, row: u32, col: u16, text: impl Into<String>, look: Look, width: f64) {
+        let text = text.into();
+        // About 1.1 characters of body text per unit of column width; 15 points a line.
+        let large = matches!(look, Look::Verdict | Look::Heading | Look::Title);
+        let per_line = (width * if large { 0.85 } else { 1.1 }).max(10.0);
+        let lines = text.chars().count() as f64 / per_line;
+        let scale = if large { 1.2 } else { 1.0 };
+        self.heights.push((row, 15.5 * scale * lines.ceil().max(1.0)));
+        let look = if look == Look::Plain { Look::Paragraph } else { look };
+        self.put(row, col, Value::Text(text), look);
     }
 
     /// Places a table: a header row and rows of values. Returns the first row after it.
@@ -298,6 +361,7 @@ struct Looks {
     caution: Format,
     verdict: Format,
     key: Format,
+    paragraph: Format,
 }
 
 impl Looks {
@@ -314,13 +378,22 @@ impl Looks {
                 .set_align(FormatAlign::VerticalCenter)
                 .set_border_bottom(FormatBorder::Medium)
                 .set_background_color(Color::RGB(0xE8EEF4)),
-            note: Format::new().set_italic().set_font_color(Color::RGB(0x505A64)),
+            note: Format::new()
+                .set_italic()
+                .set_text_wrap()
+                .set_align(FormatAlign::Top)
+                .set_font_color(Color::RGB(0x505A64)),
             caution: Format::new()
                 .set_bold()
                 .set_font_color(Color::RGB(0x8A3B00))
                 .set_text_wrap(),
-            verdict: Format::new().set_bold().set_font_size(12).set_text_wrap(),
+            verdict: Format::new()
+                .set_bold()
+                .set_font_size(12)
+                .set_text_wrap()
+                .set_align(FormatAlign::Top),
             key: Format::new().set_bold(),
+            paragraph: Format::new().set_text_wrap().set_align(FormatAlign::Top),
         }
     }
 
@@ -334,6 +407,7 @@ impl Looks {
             Look::Caution => &self.caution,
             Look::Verdict => &self.verdict,
             Look::Key => &self.key,
+            Look::Paragraph => &self.paragraph,
         }
     }
 }
@@ -349,15 +423,25 @@ fn clip_text(text: &str) -> &str {
     &text[..end]
 }
 
-fn build(book: &Book) -> Result<XlsxWorkbook, XlsxError> {
+fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError> {
     let looks = Looks::new();
     let mut workbook = XlsxWorkbook::new();
+    if let Some(date) = options.created {
+        let created = ExcelDateTime::from_ymd(date.year, date.month, date.day)?;
+        workbook.set_properties(&DocProperties::new().set_creation_datetime(&created));
+    }
     let mut number_formats: std::collections::HashMap<(NumberFormat, Look), Format> = std::collections::HashMap::new();
     for sheet in &book.sheets {
         let worksheet = workbook.add_worksheet();
         worksheet.set_name(&sheet.name)?;
         for (col, width) in &sheet.widths {
             worksheet.set_column_width(*col, *width)?;
+        }
+        // Printed, every sheet fits the page width, in landscape.
+        worksheet.set_landscape();
+        worksheet.set_print_fit_to_pages(1, 0);
+        for (row, height) in &sheet.heights {
+            worksheet.set_row_height(*row, *height)?;
         }
         if sheet.frozen_rows > 0 {
             worksheet.set_freeze_panes(sheet.frozen_rows, 0)?;
@@ -390,6 +474,26 @@ fn build(book: &Book) -> Result<XlsxWorkbook, XlsxError> {
                 }
                 Value::Blank => {}
             }
+        }
+        for area in &sheet.number_only {
+            let validation = DataValidation::new()
+                .allow_decimal_number_formula(DataValidationRule::Between(
+                    Formula::new("-1E+300"),
+                    Formula::new("1E+300"),
+                ))
+                .ignore_blank(true)
+                .set_input_title(area.title.as_str())?
+                .set_input_message(area.prompt.as_str())?
+                .set_error_title(area.title.as_str())?
+                .set_error_message("Only a number can go in this cell.")?
+                .set_error_style(DataValidationErrorStyle::Stop);
+            worksheet.add_data_validation(
+                area.first_row,
+                area.first_col,
+                area.last_row,
+                area.last_col,
+                &validation,
+            )?;
         }
         for spec in &sheet.charts {
             let chart = build_chart(spec);
@@ -453,6 +557,18 @@ fn build_chart(spec: &ChartSpec) -> Chart {
             .set_format(ChartLine::new().set_color(colour).set_width(1.25));
             series.set_y_error_bars(&bars);
         }
+        if let Some(labels) = &series_spec.labels {
+            // One label per point, each taking its text from one cell of the range.
+            let custom: Vec<ChartDataLabel> = (labels.first_row..=labels.last_row)
+                .flat_map(|row| (labels.first_col..=labels.last_col).map(move |col| (row, col)))
+                .map(|(row, col)| {
+                    ChartDataLabel::new()
+                        .set_value((labels.sheet.as_str(), row, col, row, col))
+                        .to_custom()
+                })
+                .collect();
+            series.set_custom_data_labels(&custom);
+        }
     }
     chart
 }
@@ -479,7 +595,18 @@ pub fn temporary_name(destination: &Path) -> PathBuf {
 ///
 /// [`WriteError::Build`] when the writer refuses the content.
 pub fn to_bytes(book: &Book, destination: &Path) -> Result<Vec<u8>, WriteError> {
-    let mut workbook = build(book).map_err(|source| WriteError::Build {
+    to_bytes_with(book, &WriteOptions::default(), destination)
+}
+
+/// Builds the workbook in memory as xlsx bytes, with the given options.
+/// With a fixed [`WriteOptions::created`] date the bytes depend on the book
+/// alone (the archive's entry times are fixed by the writer).
+///
+/// # Errors
+///
+/// [`WriteError::Build`] when the writer refuses the content or the date.
+pub fn to_bytes_with(book: &Book, options: &WriteOptions, destination: &Path) -> Result<Vec<u8>, WriteError> {
+    let mut workbook = build(book, options).map_err(|source| WriteError::Build {
         path: destination.to_path_buf(),
         source,
     })?;
@@ -497,7 +624,16 @@ pub fn to_bytes(book: &Book, destination: &Path) -> Result<Vec<u8>, WriteError> 
 ///
 /// [`WriteError::Build`] or [`WriteError::Io`].
 pub fn write_book(book: &Book, destination: &Path) -> Result<(), WriteError> {
-    let bytes = to_bytes(book, destination)?;
+    write_book_with(book, &WriteOptions::default(), destination)
+}
+
+/// Writes a book atomically, as [`write_book`], with the given options.
+///
+/// # Errors
+///
+/// [`WriteError::Build`] or [`WriteError::Io`].
+pub fn write_book_with(book: &Book, options: &WriteOptions, destination: &Path) -> Result<(), WriteError> {
+    let bytes = to_bytes_with(book, options, destination)?;
     write_atomically(&bytes, destination)
 }
 
@@ -528,4 +664,54 @@ pub fn write_atomically(bytes: &[u8], destination: &Path) -> Result<(), WriteErr
         return Err(io_error(error));
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn entry_text(bytes: &[u8], name: &str) -> String {
+        use std::io::Read;
+        let mut archive = zip::ZipArchive::new(std::io::Cursor::new(bytes)).expect("a zip archive");
+        let mut entry = archive.by_name(name).expect("entry present");
+        let mut text = String::new();
+        entry.read_to_string(&mut text).expect("utf-8 entry");
+        text
+    }
+
+    fn sample_book() -> Book {
+        let mut sheet = Sheet::new("Runs");
+        sheet.put(0, 0, Value::text("Yield"), Look::ColumnHeader);
+        sheet.number_only.push(NumberOnly {
+            first_row: 1,
+            first_col: 0,
+            last_row: 8,
+            last_col: 0,
+            title: "Result".into(),
+            prompt: "Type the measured value.".into(),
+        });
+        Book { sheets: vec![sheet] }
+    }
+
+    #[test]
+    fn fixed_date_gives_the_same_bytes_and_number_only_is_written() {
+        let options = WriteOptions {
+            created: Some(CreationDate {
+                year: 2026,
+                month: 3,
+                day: 9,
+            }),
+        };
+        let destination = Path::new("plan.xlsx");
+        let first = to_bytes_with(&sample_book(), &options, destination).expect("built");
+        let second = to_bytes_with(&sample_book(), &options, destination).expect("built");
+        assert_eq!(first, second);
+        let core = entry_text(&first, "docProps/core.xml");
+        assert!(core.contains("2026-03-09T00:00:00Z"), "{core}");
+        let sheet = entry_text(&first, "xl/worksheets/sheet1.xml");
+        // The element and attribute names are those of the Office Open XML
+        // standard (ECMA-376 Part 1, 18.3.1.32 dataValidation).
+        assert!(sheet.contains("<dataValidation type=\"decimal\""), "{sheet}");
+        assert!(sheet.contains("sqref=\"A2:A9\""), "{sheet}");
+    }
 }

@@ -1,0 +1,261 @@
+//! Helpers shared by the integration tests: temporary folders, workbooks
+//! written for a test, running the built `trialyst` binary with a full
+//! account on failure, reading results workbooks back, and the tolerances.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+use calamine::{Data, Reader};
+use sha2::{Digest, Sha256};
+
+/// Relative tolerance for numbers printed by the engine and compared with a
+/// reference library run (the engine's own arithmetic is far better; this
+/// leaves room for the reference's float rounding).
+pub const REFERENCE_RELATIVE: f64 = 1e-12;
+
+/// Least acceptable log relative error (correct digits) for NIST StRD
+/// certified values (statrs and the NIST pages use the same measure).
+pub const NIST_MIN_DIGITS: f64 = 13.0;
+
+/// A fresh temporary folder, removed when dropped.
+pub fn temp_folder() -> tempfile::TempDir {
+    tempfile::Builder::new()
+        .prefix("trialyst-test-")
+        .tempdir()
+        .expect("a temporary folder can be made")
+}
+
+/// The `trialyst` program under test: `sidecar/src/main.rs`, built by cargo
+/// as this package's `trialyst-under-test` binary before these tests run.
+pub fn trialyst_path() -> PathBuf {
+    PathBuf::from(env!("CARGO_BIN_EXE_trialyst-under-test"))
+}
+
+/// The outcome of one run of the binary, with what is needed to explain a failure.
+pub struct Run {
+    /// The command line, for messages.
+    pub command: String,
+    /// The folder it ran in.
+    pub folder: PathBuf,
+    /// What the process returned.
+    pub output: Output,
+}
+
+impl Run {
+    /// Exit code (-1 when killed by a signal).
+    pub fn code(&self) -> i32 {
+        self.output.status.code().unwrap_or(-1)
+    }
+
+    /// Standard output as text.
+    pub fn stdout(&self) -> String {
+        String::from_utf8_lossy(&self.output.stdout).into_owned()
+    }
+
+    /// Standard error as text.
+    pub fn stderr(&self) -> String {
+        String::from_utf8_lossy(&self.output.stderr).into_owned()
+    }
+
+    /// Everything about the run, for an assertion message.
+    pub fn report(&self) -> String {
+        let mut listing: Vec<String> = std::fs::read_dir(&self.folder)
+            .map(|entries| {
+                entries
+                    .filter_map(Result::ok)
+                    .map(|entry| entry.file_name().to_string_lossy().into_owned())
+                    .collect()
+            })
+            .unwrap_or_default();
+        listing.sort();
+        format!(
+            "\ncommand: {}\nfolder: {}\nfiles: {:?}\nstatus: {}\n--- stdout\n{}\n--- stderr\n{}\n",
+            self.command,
+            self.folder.display(),
+            listing,
+            self.output.status,
+            self.stdout(),
+            self.stderr()
+        )
+    }
+
+    /// Asserts the exit code, printing the whole run when it differs.
+    pub fn expect_code(&self, expected: i32) -> &Self {
+        assert_eq!(self.code(), expected, "unexpected exit code{}", self.report());
+        self
+    }
+}
+
+/// Runs `trialyst` with the arguments in `folder`.
+pub fn trialyst(folder: &Path, args: &[&str]) -> Run {
+    let binary = trialyst_path();
+    assert!(
+        binary.is_file(),
+        "the program under test is missing at {}; `cargo test -p tests` builds it",
+        binary.display()
+    );
+    let output = Command::new(&binary)
+        .args(args)
+        .current_dir(folder)
+        .output()
+        .expect("the trialyst binary can be started");
+    Run {
+        command: format!("trialyst {}", args.join(" ")),
+        folder: folder.to_path_buf(),
+        output,
+    }
+}
+
+/// SHA-256 of a file's bytes, hex.
+pub fn sha256_of(path: &Path) -> String {
+    let bytes = std::fs::read(path).expect("the file can be read");
+    Sha256::digest(&bytes)
+        .iter()
+        .map(|byte| format!("{byte:02x}"))
+        .collect()
+}
+
+/// One cell to write into a test workbook.
+#[derive(Debug, Clone)]
+pub enum Put {
+    /// Text.
+    Text(&'static str),
+    /// An owned text.
+    Owned(String),
+    /// A number.
+    Number(f64),
+    /// Nothing.
+    Blank,
+}
+
+/// Writes a workbook with one sheet from rows of cells, the first row being the header.
+pub fn write_rows(path: &Path, sheet_name: &str, rows: &[Vec<Put>]) {
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let sheet = book.add_worksheet();
+    sheet.set_name(sheet_name).expect("valid sheet name");
+    put_rows(sheet, rows);
+    book.save(path).expect("the test workbook can be saved");
+}
+
+/// Writes rows of cells into a worksheet from A1.
+pub fn put_rows(sheet: &mut rust_xlsxwriter::Worksheet, rows: &[Vec<Put>]) {
+    for (row_index, row) in rows.iter().enumerate() {
+        for (col_index, cell) in row.iter().enumerate() {
+            let (row_number, col_number) = (row_index as u32, col_index as u16);
+            match cell {
+                Put::Text(text) => {
+                    sheet.write_string(row_number, col_number, *text).expect("writable");
+                }
+                Put::Owned(text) => {
+                    sheet.write_string(row_number, col_number, text).expect("writable");
+                }
+                Put::Number(number) => {
+                    sheet.write_number(row_number, col_number, *number).expect("writable");
+                }
+                Put::Blank => {}
+            }
+        }
+    }
+}
+
+/// A long-layout table: header row, then one row per value.
+pub fn long_rows(factor: &'static str, response: &'static str, groups: &[(&'static str, &[f64])]) -> Vec<Vec<Put>> {
+    let mut rows = vec![vec![Put::Text(factor), Put::Text(response)]];
+    for (label, values) in groups {
+        for value in *values {
+            rows.push(vec![Put::Text(label), Put::Number(*value)]);
+        }
+    }
+    rows
+}
+
+/// Every sheet of a workbook read with calamine, as ranges.
+pub fn read_all_sheets(path: &Path) -> Vec<(String, calamine::Range<Data>)> {
+    let mut book = calamine::open_workbook_auto(path).expect("the results workbook opens");
+    let names = book.sheet_names().to_vec();
+    names
+        .into_iter()
+        .map(|name| {
+            let range = book.worksheet_range(&name).expect("the sheet reads");
+            (name, range)
+        })
+        .collect()
+}
+
+/// The row of a sheet whose first cell is `label`, below the row that starts with `after`.
+pub fn row_after<'r>(range: &'r calamine::Range<Data>, after: &str, label: &str) -> Option<Vec<&'r Data>> {
+    let mut seen_after = false;
+    for row in range.rows() {
+        let first = row.first().map(|cell| cell.to_string()).unwrap_or_default();
+        if first == after {
+            seen_after = true;
+        }
+        if seen_after && first == label {
+            return Some(row.iter().collect());
+        }
+    }
+    None
+}
+
+/// A cell as a number, or a test failure naming it.
+pub fn as_number(data: &Data, what: &str) -> f64 {
+    match data {
+        Data::Float(number) => *number,
+        Data::Int(number) => *number as f64,
+        other => panic!("{what}: expected a number, found {other:?}"),
+    }
+}
+
+/// Relative difference, with the reference as the scale.
+pub fn relative_error(value: f64, reference: f64) -> f64 {
+    if reference == 0.0 {
+        value.abs()
+    } else {
+        ((value - reference) / reference).abs()
+    }
+}
+
+/// Asserts that `value` agrees with `reference` to `tolerance` relatively.
+pub fn assert_close(value: f64, reference: f64, tolerance: f64, what: &str) {
+    assert!(
+        relative_error(value, reference) <= tolerance,
+        "{what}: got {value:e}, reference {reference:e} (relative error {:e} > {tolerance:e})",
+        relative_error(value, reference)
+    );
+}
+
+/// Log relative error: the number of correct significant digits, capped at 15
+/// as the NIST StRD pages do.
+pub fn correct_digits(value: f64, certified: f64) -> f64 {
+    if value == certified {
+        return 15.0;
+    }
+    let error = relative_error(value, certified);
+    if error == 0.0 {
+        15.0
+    } else {
+        (-error.log10()).min(15.0)
+    }
+}
+
+/// The text of a zip entry of an xlsx file.
+pub fn zip_entry_text(path: &Path, name: &str) -> String {
+    use std::io::Read;
+    let file = std::fs::File::open(path).expect("the workbook opens");
+    let mut archive = zip::ZipArchive::new(file).expect("a zip archive");
+    let mut entry = archive.by_name(name).expect("the entry exists");
+    let mut text = String::new();
+    entry.read_to_string(&mut text).expect("the entry is text");
+    text
+}
+
+/// Zip entry names of an xlsx file.
+pub fn zip_entry_names(path: &Path) -> Vec<String> {
+    let file = std::fs::File::open(path).expect("the workbook opens");
+    let archive = zip::ZipArchive::new(file).expect("a zip archive");
+    archive
+        .file_names()
+        .filter_map(Result::ok)
+        .map(|name| name.into_owned())
+        .collect()
+}

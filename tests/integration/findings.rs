@@ -1,0 +1,411 @@
+//! Every kind of data finding, with the cell it names and the words it says,
+//! on small workbooks written for each case; and text that looks like a
+//! formula coming back as text in the results workbook.
+//!
+//! The expected addresses follow from where each test writes its cells
+//! (common practice: A1 addresses, row 1 the header).
+
+use std::path::Path;
+
+use rust_xlsxwriter::{ExcelDateTime, Format, Formula, Workbook};
+use sidecar::service::{analyse_workbook, inspect_workbook, AnalysisRequest};
+use workbook_io::layout::{Finding, FindingKind};
+
+use crate::common::{
+    put_rows, read_all_sheets, temp_folder, trialyst, write_rows, zip_entry_names, zip_entry_text, Put,
+};
+
+/// A long table with two conditions of four values each, below a header.
+fn base_rows() -> Vec<Vec<Put>> {
+    let mut rows = vec![vec![Put::Text("Condition"), Put::Text("Weight (g)")]];
+    for (label, values) in [("old", [10.1, 10.4, 9.9, 10.2]), ("new", [10.8, 11.0, 10.7, 11.1])] {
+        for value in values {
+            rows.push(vec![Put::Text(label), Put::Number(value)]);
+        }
+    }
+    rows
+}
+
+fn findings_of(path: &Path) -> Vec<Finding> {
+    match analyse_workbook(path, &AnalysisRequest::default()) {
+        Ok(results) => results.findings,
+        Err(error) => panic!("the workbook was not analysed: {error}"),
+    }
+}
+
+/// The one finding of a kind, failing with the full list when there is not exactly one.
+fn only(findings: &[Finding], kind: FindingKind) -> Finding {
+    let matching: Vec<&Finding> = findings.iter().filter(|finding| finding.kind == kind).collect();
+    assert_eq!(matching.len(), 1, "exactly one {kind:?} finding in {findings:#?}");
+    matching[0].clone()
+}
+
+fn check(finding: &Finding, sheet: &str, cell: &str, message_parts: &[&str]) {
+    assert_eq!(finding.sheet, sheet, "{finding:#?}");
+    assert_eq!(finding.cell.as_deref(), Some(cell), "{finding:#?}");
+    for part in message_parts {
+        assert!(finding.message.contains(part), "message lacks '{part}': {finding:#?}");
+    }
+    assert!(!finding.action.is_empty(), "{finding:#?}");
+}
+
+fn analysed(rows: &[Vec<Put>]) -> Vec<Finding> {
+    let folder = temp_folder();
+    let path = folder.path().join("trial.xlsx");
+    write_rows(&path, "Trial", rows);
+    findings_of(&path)
+}
+
+#[test]
+fn a_clean_table_has_no_findings() {
+    assert_eq!(analysed(&base_rows()), Vec::new());
+}
+
+#[test]
+fn text_in_numbers() {
+    let mut rows = base_rows();
+    rows[3][1] = Put::Text("about 10");
+    let finding = only(&analysed(&rows), FindingKind::TextInNumbers);
+    check(
+        &finding,
+        "Trial",
+        "B4",
+        &["text 'about 10'", "'Weight (g)'", "left out"],
+    );
+    assert_eq!(finding.found, "about 10");
+}
+
+/// Writes the base table with a formula whose cached result is an error value at B3.
+fn with_error_formula(result: &str) -> Vec<Finding> {
+    let folder = temp_folder();
+    let path = folder.path().join("trial.xlsx");
+    let mut book = Workbook::new();
+    let sheet = book.add_worksheet();
+    sheet.set_name("Trial").expect("valid");
+    let mut rows = base_rows();
+    rows[2][1] = Put::Blank;
+    put_rows(sheet, &rows);
+    sheet
+        .write_formula(2, 1, Formula::new("=1/0").set_result(result))
+        .expect("writable");
+    book.save(&path).expect("saved");
+    findings_of(&path)
+}
+
+#[test]
+fn not_available_error_value() {
+    let finding = only(&with_error_formula("#N/A"), FindingKind::ErrorValue);
+    check(&finding, "Trial", "B3", &["an error value '#N/A'", "left out"]);
+}
+
+#[test]
+fn division_by_zero_error_value() {
+    let finding = only(&with_error_formula("#DIV/0!"), FindingKind::ErrorValue);
+    check(&finding, "Trial", "B3", &["an error value '#DIV/0!'"]);
+}
+
+#[test]
+fn blank_value_in_a_long_table() {
+    let mut rows = base_rows();
+    rows[4][1] = Put::Blank;
+    let finding = only(&analysed(&rows), FindingKind::BlankValue);
+    check(&finding, "Trial", "B5", &["no value for 'Weight (g)'"]);
+}
+
+#[test]
+fn blank_value_between_values_in_a_wide_table() {
+    let rows = vec![
+        vec![Put::Text("old"), Put::Text("new")],
+        vec![Put::Number(10.1), Put::Number(10.8)],
+        vec![Put::Blank, Put::Number(11.0)],
+        vec![Put::Number(9.9), Put::Number(10.7)],
+        vec![Put::Number(10.2), Put::Number(11.1)],
+    ];
+    let finding = only(&analysed(&rows), FindingKind::BlankValue);
+    check(&finding, "Trial", "A3", &["a blank between values of 'old'"]);
+}
+
+#[test]
+fn blank_label() {
+    let mut rows = base_rows();
+    rows[6][0] = Put::Blank;
+    let finding = only(&analysed(&rows), FindingKind::BlankLabel);
+    check(
+        &finding,
+        "Trial",
+        "A7",
+        &["'Condition' label is blank", "row was left out"],
+    );
+}
+
+#[test]
+fn duplicated_header() {
+    let mut rows = base_rows();
+    rows[0].push(Put::Text("weight (g)"));
+    for (index, row) in rows.iter_mut().enumerate().skip(1) {
+        row.push(Put::Number(20.0 + index as f64 * 0.37 % 1.0));
+    }
+    let finding = only(&analysed(&rows), FindingKind::DuplicateHeader);
+    check(
+        &finding,
+        "Trial",
+        "C1",
+        &["'weight (g)' is used by an earlier column", "'weight (g) (2)'"],
+    );
+}
+
+#[test]
+fn blank_header_over_data() {
+    let mut rows = base_rows();
+    rows[0].push(Put::Blank);
+    rows[0].push(Put::Text("Length (mm)"));
+    for (index, row) in rows.iter_mut().enumerate().skip(1) {
+        row.push(Put::Number(5.0 + (index % 3) as f64));
+        row.push(Put::Number(50.0 + (index % 4) as f64));
+    }
+    let finding = only(&analysed(&rows), FindingKind::BlankHeader);
+    check(&finding, "Trial", "C1", &["header cell is blank", "'column C'"]);
+}
+
+/// Writes the base table with one special response cell written by `put` at B4.
+fn with_special_cell(put: impl FnOnce(&mut rust_xlsxwriter::Worksheet)) -> Vec<Finding> {
+    let folder = temp_folder();
+    let path = folder.path().join("trial.xlsx");
+    let mut book = Workbook::new();
+    let sheet = book.add_worksheet();
+    sheet.set_name("Trial").expect("valid");
+    let mut rows = base_rows();
+    rows[3][1] = Put::Blank;
+    put_rows(sheet, &rows);
+    put(sheet);
+    book.save(&path).expect("saved");
+    findings_of(&path)
+}
+
+#[test]
+fn date_in_a_response_column() {
+    let findings = with_special_cell(|sheet| {
+        let date = ExcelDateTime::from_ymd(2024, 3, 15).expect("valid date");
+        let format = Format::new().set_num_format("yyyy-mm-dd");
+        sheet
+            .write_datetime_with_format(3, 1, &date, &format)
+            .expect("writable");
+    });
+    let finding = only(&findings, FindingKind::DateInNumbers);
+    check(&finding, "Trial", "B4", &["found a date", "'Weight (g)'"]);
+}
+
+#[test]
+fn boolean_in_a_response_column() {
+    let findings = with_special_cell(|sheet| {
+        sheet.write_boolean(3, 1, true).expect("writable");
+    });
+    let finding = only(&findings, FindingKind::BooleanInNumbers);
+    check(&finding, "Trial", "B4", &["found TRUE/FALSE 'TRUE'"]);
+}
+
+#[test]
+fn condition_with_fewer_than_two_values() {
+    let mut rows = base_rows();
+    rows.push(vec![Put::Text("trial"), Put::Number(10.5)]);
+    let finding = only(&analysed(&rows), FindingKind::TooFewValues);
+    check(
+        &finding,
+        "Trial",
+        "B10",
+        &["condition 'trial' has only one value", "'Weight (g)'"],
+    );
+}
+
+#[test]
+fn all_blank_column() {
+    let mut rows = base_rows();
+    rows[0].push(Put::Text("Humidity (%)"));
+    let finding = only(&analysed(&rows), FindingKind::EmptyColumn);
+    check(
+        &finding,
+        "Trial",
+        "C1",
+        &["'Humidity (%)' has no values below its header"],
+    );
+}
+
+#[test]
+fn merged_header_cells() {
+    let folder = temp_folder();
+    let path = folder.path().join("trial.xlsx");
+    let mut book = Workbook::new();
+    let sheet = book.add_worksheet();
+    sheet.set_name("Trial").expect("valid");
+    let mut rows = base_rows();
+    for (index, row) in rows.iter_mut().enumerate().skip(1) {
+        row.push(Put::Number(10.0 + (index % 3) as f64 * 0.5));
+    }
+    put_rows(sheet, &rows);
+    sheet
+        .merge_range(0, 1, 0, 2, "Weight (g)", &Format::new())
+        .expect("mergeable");
+    book.save(&path).expect("saved");
+    let results = analyse_workbook(&path, &AnalysisRequest::default()).expect("analysed");
+    let finding = only(&results.findings, FindingKind::MergedHeader);
+    check(
+        &finding,
+        "Trial",
+        "B1:C1",
+        &["header cells B1:C1 are merged", "'Weight (g) 1'"],
+    );
+    assert_eq!(results.table.responses, ["Weight (g) 1", "Weight (g) 2"]);
+}
+
+#[test]
+fn similar_labels() {
+    let mut rows = base_rows();
+    rows[5][0] = Put::Text("New");
+    rows[6][0] = Put::Text("New");
+    let finding = only(&analysed(&rows), FindingKind::SimilarLabels);
+    // A labels finding names the column, not one cell.
+    check(
+        &finding,
+        "Trial",
+        "A",
+        &["'New', 'new'", "differ only in case or spacing"],
+    );
+}
+
+#[test]
+fn identifier_notes_and_run_number_columns() {
+    let mut rows = vec![vec![
+        Put::Text("Sample"),
+        Put::Text("Condition"),
+        Put::Text("Remarks"),
+        Put::Text("Run"),
+        Put::Text("Weight (g)"),
+    ]];
+    let weights = [10.1, 10.4, 9.9, 10.2, 10.8, 11.0, 10.7, 11.1, 10.3, 10.9];
+    for (index, weight) in weights.iter().enumerate() {
+        rows.push(vec![
+            Put::Owned(format!("S-{:03}", 100 + index * 7)),
+            Put::Text(if index % 2 == 0 { "old" } else { "new" }),
+            if index == 3 {
+                Put::Text("die changed")
+            } else {
+                Put::Blank
+            },
+            Put::Number(index as f64 + 1.0),
+            Put::Number(*weight),
+        ]);
+    }
+    let findings = analysed(&rows);
+    let identifiers: Vec<&Finding> = findings
+        .iter()
+        .filter(|finding| finding.kind == FindingKind::IdentifierColumn)
+        .collect();
+    assert_eq!(identifiers.len(), 3, "{findings:#?}");
+    check(
+        identifiers[0],
+        "Trial",
+        "A1",
+        &["'Sample' has a different label on almost every row", "identifier"],
+    );
+    check(
+        identifiers[1],
+        "Trial",
+        "C1",
+        &["'Remarks' is filled on fewer than half of the rows", "notes"],
+    );
+    check(identifiers[2], "Trial", "D1", &["'Run' counts up by one", "run number"]);
+}
+
+#[test]
+fn wrong_extension() {
+    let folder = temp_folder();
+    let path = folder.path().join("trial.xls");
+    write_rows(&path, "Trial", &base_rows());
+    let finding = only(&findings_of(&path), FindingKind::Workbook);
+    assert_eq!(finding.cell, None);
+    assert_eq!(finding.found, ".xls");
+    assert!(
+        finding
+            .message
+            .contains("named .xls but its contents are a Xlsx workbook"),
+        "{finding:#?}"
+    );
+}
+
+#[test]
+fn macro_enabled_workbook() {
+    let folder = temp_folder();
+    let path = folder.path().join("trial.xlsm");
+    // A stand-in macro project: the reader only notes that one is present and never runs it.
+    let project = folder.path().join("vbaProject.bin");
+    std::fs::write(&project, [0xD0, 0xCF, 0x11, 0xE0, 0xA1, 0xB1, 0x1A, 0xE1]).expect("written");
+    let mut book = Workbook::new();
+    book.add_vba_project(&project).expect("a project file");
+    let sheet = book.add_worksheet();
+    sheet.set_name("Trial").expect("valid");
+    put_rows(sheet, &base_rows());
+    book.save(&path).expect("saved");
+    assert!(zip_entry_names(&path).iter().any(|name| name == "xl/vbaProject.bin"));
+    let finding = only(&findings_of(&path), FindingKind::Workbook);
+    assert!(
+        finding.message.contains("carries macros") && finding.message.contains("no macro was run"),
+        "{finding:#?}"
+    );
+}
+
+#[test]
+fn findings_are_listed_by_inspect_too() {
+    let mut rows = base_rows();
+    rows[2][1] = Put::Text("x");
+    let folder = temp_folder();
+    let path = folder.path().join("trial.xlsx");
+    write_rows(&path, "Trial", &rows);
+    let inspection = inspect_workbook(&path, &AnalysisRequest::default()).expect("inspected");
+    let finding = only(&inspection.findings, FindingKind::TextInNumbers);
+    check(&finding, "Trial", "B3", &["text 'x'"]);
+}
+
+/// Labels that a spreadsheet would take as formulas must come back as text.
+#[test]
+fn formula_like_labels_come_back_as_text() {
+    let labels = ["=SUM(A1:A9)", "+cmd|' /C calc'!A0", "-2+3", "@SUM(1)"];
+    let mut rows = vec![vec![Put::Text("Condition"), Put::Text("Weight (g)")]];
+    for (index, label) in labels.iter().enumerate() {
+        for offset in 0..3 {
+            rows.push(vec![
+                Put::Text(label),
+                Put::Number(10.0 + index as f64 + offset as f64 * 0.3),
+            ]);
+        }
+    }
+    let folder = temp_folder();
+    write_rows(&folder.path().join("trial.xlsx"), "Trial", &rows);
+    trialyst(folder.path(), &["run", "trial.xlsx"]).expect_code(0);
+    let results = folder.path().join("trial.results.xlsx");
+
+    let sheets = read_all_sheets(&results);
+    let conditions = &sheets
+        .iter()
+        .find(|(name, _)| name == sidecar::report::names::CONDITIONS)
+        .expect("a conditions sheet")
+        .1;
+    let first_column: Vec<&calamine::Data> = conditions.rows().map(|row| &row[0]).collect();
+    for label in labels {
+        // Found only as a string cell: a formula, number or error would not match.
+        assert!(
+            first_column
+                .iter()
+                .any(|cell| matches!(cell, calamine::Data::String(text) if text == label)),
+            "label {label} is not a text cell of the conditions sheet: {first_column:?}"
+        );
+    }
+    let mut sheet_parts = 0;
+    for name in zip_entry_names(&results) {
+        if name.starts_with("xl/worksheets/sheet") {
+            sheet_parts += 1;
+            let xml = zip_entry_text(&results, &name);
+            assert!(!xml.contains("<f>") && !xml.contains("<f "), "{name} stores a formula");
+        }
+    }
+    assert!(sheet_parts >= 5, "worksheet parts found: {sheet_parts}");
+}

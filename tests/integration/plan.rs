@@ -1,0 +1,407 @@
+//! Trial plans end to end: `trialyst plan` writes a plan workbook, the test
+//! fills it in as an engineer would, and `trialyst run` analyses it and
+//! checks the runs against the plan; `trialyst size` answers power and
+//! sample size questions.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+use calamine::{open_workbook_auto, Data, Reader};
+
+/// The built `trialyst` binary (this package's copy; see tests/Cargo.toml).
+fn trialyst() -> PathBuf {
+    crate::common::trialyst_path()
+}
+
+fn run_in(folder: &Path, args: &[&str]) -> Output {
+    let output = Command::new(trialyst())
+        .args(args)
+        .current_dir(folder)
+        .output()
+        .expect("trialyst runs");
+    if !output.status.success() {
+        let listing: Vec<String> = std::fs::read_dir(folder)
+            .map(|entries| {
+                entries
+                    .filter_map(Result::ok)
+                    .map(|entry| entry.file_name().to_string_lossy().into_owned())
+                    .collect()
+            })
+            .unwrap_or_default();
+        panic!(
+            "trialyst {args:?} in {} failed with {}\nfiles: {listing:?}\nstdout:\n{}\nstderr:\n{}",
+            folder.display(),
+            output.status,
+            String::from_utf8_lossy(&output.stdout),
+            String::from_utf8_lossy(&output.stderr)
+        );
+    }
+    output
+}
+
+fn json_of(output: &Output) -> serde_json::Value {
+    let text = String::from_utf8_lossy(&output.stdout);
+    let line = text.lines().find(|line| line.starts_with('{')).expect("a JSON line");
+    serde_json::from_str(line).expect("valid JSON")
+}
+
+const PLAN_ARGS: &[&str] = &[
+    "plan",
+    "--factor",
+    "Temperature=160,180",
+    "--factor",
+    "Supplier=North,South,East",
+    "--response",
+    "Yield (%)",
+    "--replicates",
+    "2",
+    "--seed",
+    "20260309",
+];
+
+/// Every sheet of a workbook as (name, cells), for copying.
+type Sheets = Vec<(String, Vec<Vec<Data>>)>;
+
+fn read_all(path: &Path) -> Sheets {
+    let mut workbook = open_workbook_auto(path).expect("plan workbook opens");
+    let names = workbook.sheet_names().to_vec();
+    names
+        .into_iter()
+        .map(|name| {
+            let range = workbook.worksheet_range(&name).expect("sheet reads");
+            let (first_row, first_col) = range.start().unwrap_or((0, 0));
+            let mut rows: Vec<Vec<Data>> = vec![Vec::new(); first_row as usize];
+            for row in range.rows() {
+                let mut cells = vec![Data::Empty; first_col as usize];
+                cells.extend(row.iter().cloned());
+                rows.push(cells);
+            }
+            (name, rows)
+        })
+        .collect()
+}
+
+fn write_all(sheets: &Sheets, path: &Path) {
+    let mut workbook = rust_xlsxwriter::Workbook::new();
+    for (name, rows) in sheets {
+        let sheet = workbook.add_worksheet();
+        sheet.set_name(name).expect("sheet name");
+        for (row, cells) in rows.iter().enumerate() {
+            for (col, cell) in cells.iter().enumerate() {
+                let (row, col) = (row as u32, col as u16);
+                match cell {
+                    Data::Float(number) => {
+                        sheet.write_number(row, col, *number).expect("number");
+                    }
+                    Data::Int(number) => {
+                        sheet.write_number(row, col, *number as f64).expect("number");
+                    }
+                    Data::String(text) => {
+                        sheet.write_string(row, col, text).expect("text");
+                    }
+                    Data::Empty => {}
+                    other => panic!("unexpected cell {other:?} in a plan workbook"),
+                }
+            }
+        }
+    }
+    workbook.save(path).expect("filled workbook saved");
+}
+
+fn runs_sheet(sheets: &mut Sheets) -> &mut Vec<Vec<Data>> {
+    &mut sheets
+        .iter_mut()
+        .find(|(name, _)| name == "Runs")
+        .expect("a Runs sheet")
+        .1
+}
+
+fn column_of(rows: &[Vec<Data>], header: &str) -> usize {
+    // The header row is the third row of the runs sheet.
+    rows[2]
+        .iter()
+        .position(|cell| matches!(cell, Data::String(text) if text == header))
+        .unwrap_or_else(|| panic!("no column '{header}'"))
+}
+
+/// Fills the result column with invented yields that depend on the settings.
+fn fill_results(rows: &mut [Vec<Data>]) {
+    let temperature = column_of(rows, "Temperature");
+    let supplier = column_of(rows, "Supplier");
+    let result = column_of(rows, "Yield (%)");
+    for (index, row) in rows.iter_mut().enumerate().skip(3) {
+        let heat = match &row[temperature] {
+            Data::Float(value) => *value,
+            other => panic!("temperature {other:?}"),
+        };
+        let offset = match &row[supplier] {
+            Data::String(text) if text == "North" => 0.0,
+            Data::String(text) if text == "South" => 1.5,
+            _ => -1.0,
+        };
+        let value = 60.0 + (heat - 160.0) * 0.2 + offset + (index % 3) as f64 * 0.3;
+        while row.len() <= result {
+            row.push(Data::Empty);
+        }
+        row[result] = Data::Float(value);
+    }
+}
+
+fn plan_departures(results: &serde_json::Value) -> Vec<(String, String)> {
+    results["findings"]
+        .as_array()
+        .expect("findings")
+        .iter()
+        .filter(|finding| finding["kind"] == "plan-departure")
+        .map(|finding| {
+            (
+                format!(
+                    "{}!{}",
+                    finding["sheet"].as_str().unwrap_or_default(),
+                    finding["cell"].as_str().unwrap_or_default()
+                ),
+                finding["message"].as_str().unwrap_or_default().to_string(),
+            )
+        })
+        .collect()
+}
+
+#[test]
+fn plans_regenerate_byte_for_byte_from_their_seed() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    let mut first_args = PLAN_ARGS.to_vec();
+    first_args.extend(["--out", "first.xlsx"]);
+    run_in(folder.path(), &first_args);
+    // A second run a moment later must give the very same bytes: nothing
+    // in the file depends on the clock.
+    let mut second_args = PLAN_ARGS.to_vec();
+    second_args.extend(["--out", "second.xlsx"]);
+    run_in(folder.path(), &second_args);
+    let first = std::fs::read(folder.path().join("first.xlsx")).expect("first plan");
+    let second = std::fs::read(folder.path().join("second.xlsx")).expect("second plan");
+    assert!(first == second, "the same seed gave different bytes");
+    let mut other_args: Vec<&str> = PLAN_ARGS.to_vec();
+    let seed_position = other_args.iter().position(|arg| *arg == "20260309").expect("seed");
+    other_args[seed_position] = "20260310";
+    other_args.extend(["--out", "other.xlsx"]);
+    run_in(folder.path(), &other_args);
+    let other = std::fs::read(folder.path().join("other.xlsx")).expect("other plan");
+    assert!(first != other, "another seed gave the same bytes");
+}
+
+#[test]
+fn fraction_plan_records_its_design() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    let output = run_in(
+        folder.path(),
+        &[
+            "plan",
+            "--factor",
+            "A=1,2",
+            "--factor",
+            "B=1,2",
+            "--factor",
+            "C=1,2",
+            "--factor",
+            "D=1,2",
+            "--factor",
+            "E=1,2",
+            "--factor",
+            "F=1,2",
+            "--factor",
+            "G=1,2",
+            "--runs",
+            "8",
+            "--response",
+            "Strength",
+            "--seed",
+            "1",
+            "--json",
+            "--out",
+            "fraction.xlsx",
+        ],
+    );
+    let summary = json_of(&output);
+    // The 2^(7-4) fraction of 8 runs is saturated and of resolution III
+    // (Box, Hunter and Hunter, Statistics for Experimenters, 2nd ed.,
+    // table 6.14; from memory).
+    assert_eq!(summary["runs"], 8);
+    assert_eq!(summary["resolution"], "III");
+    assert_eq!(summary["generators"].as_array().map(Vec::len), Some(4));
+    let sheets = read_all(&folder.path().join("fraction.xlsx"));
+    let design = &sheets
+        .iter()
+        .find(|(name, _)| name == "Design")
+        .expect("design sheet")
+        .1;
+    let text: Vec<String> = design
+        .iter()
+        .flatten()
+        .filter_map(|cell| match cell {
+            Data::String(text) => Some(text.clone()),
+            _ => None,
+        })
+        .collect();
+    assert!(text.iter().any(|cell| cell.starts_with("I = ")), "{text:?}");
+    // In a resolution III design a main effect's chain holds two-factor
+    // interactions: the alias table lists A with some of them.
+    assert!(
+        text.iter()
+            .any(|cell| cell.starts_with("A + ") || cell.starts_with("A - ")),
+        "{text:?}"
+    );
+}
+
+#[test]
+fn filled_plan_round_trips_into_the_right_analysis() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    let mut args = PLAN_ARGS.to_vec();
+    args.extend(["--out", "plan.xlsx"]);
+    run_in(folder.path(), &args);
+    let mut sheets = read_all(&folder.path().join("plan.xlsx"));
+    fill_results(runs_sheet(&mut sheets));
+    write_all(&sheets, &folder.path().join("filled.xlsx"));
+    let output = run_in(folder.path(), &["run", "--json", "--no-write", "filled.xlsx"]);
+    let results = json_of(&output);
+    assert_eq!(results["status"], "analysed");
+    let table = &results["table"];
+    assert_eq!(table["sheet"], "Runs");
+    // 2 temperatures x 3 suppliers x 2 replicates, by construction of the plan.
+    assert_eq!(table["n_records"], 12);
+    assert_eq!(table["responses"], serde_json::json!(["Yield (%)"]));
+    let factors: Vec<&str> = table["factors"]
+        .as_array()
+        .expect("factors")
+        .iter()
+        .filter_map(|factor| factor["name"].as_str())
+        .collect();
+    assert_eq!(factors, vec!["Temperature", "Supplier"]);
+    assert_eq!(
+        results["settings"]["plan_id"].as_str().map(|id| id.starts_with("TP-")),
+        Some(true)
+    );
+    let departures = plan_departures(&results);
+    assert!(departures.is_empty(), "{departures:#?}");
+}
+
+#[test]
+fn changed_settings_missing_and_out_of_order_runs_are_found() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    let mut args = PLAN_ARGS.to_vec();
+    args.extend(["--out", "plan.xlsx"]);
+    run_in(folder.path(), &args);
+    let mut sheets = read_all(&folder.path().join("plan.xlsx"));
+    let rows = runs_sheet(&mut sheets);
+    fill_results(rows);
+    let temperature = column_of(rows, "Temperature");
+    let supplier = column_of(rows, "Supplier");
+    // Run 1 (sheet row 4) was made 5 degrees hotter than planned.
+    let planned = match rows[3][temperature] {
+        Data::Float(value) => value,
+        _ => panic!("numeric temperature"),
+    };
+    rows[3][temperature] = Data::Float(planned + 5.0);
+    // Runs 4 and 5 (rows 7 and 8) were swapped, when their settings differ.
+    let settings = |row: &Vec<Data>| (format!("{:?}", row[temperature]), format!("{:?}", row[supplier]));
+    // With this seed they do (180/South and 180/East); the check below
+    // needs them to differ.
+    assert!(
+        settings(&rows[6]) != settings(&rows[7]),
+        "runs 4 and 5 have the same settings"
+    );
+    rows.swap(6, 7);
+    // The last run (row 15) was never made: its row is removed.
+    rows.truncate(14);
+    write_all(&sheets, &folder.path().join("filled.xlsx"));
+    let output = run_in(folder.path(), &["run", "--json", "--no-write", "filled.xlsx"]);
+    let results = json_of(&output);
+    let departures = plan_departures(&results);
+    let column_letter = (b'A' + temperature as u8) as char;
+    let changed = format!("Runs!{column_letter}4");
+    assert!(
+        departures
+            .iter()
+            .any(|(place, message)| *place == changed && message.contains("planned with Temperature")),
+        "{departures:#?}"
+    );
+    assert!(
+        departures
+            .iter()
+            .any(|(place, message)| place.starts_with("Plan (do not edit)!") && message.contains("planned run 12")),
+        "{departures:#?}"
+    );
+    let out_of_order: Vec<&(String, String)> = departures
+        .iter()
+        .filter(|(_, message)| message.contains("run order was not followed"))
+        .collect();
+    assert_eq!(out_of_order.len(), 2, "{departures:#?}");
+    // Nothing else: one changed cell, one missing run, two runs out of order.
+    assert_eq!(departures.len(), 4, "{departures:#?}");
+}
+
+#[test]
+fn size_answers_with_a_table_and_a_chart() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    let output = run_in(
+        folder.path(),
+        &[
+            "size",
+            "--conditions",
+            "4",
+            "--difference",
+            "75",
+            "--sd",
+            "25",
+            "--power",
+            "0.9",
+            "--json",
+            "--out",
+            "power.xlsx",
+        ],
+    );
+    let answer = json_of(&output);
+    // statsmodels 0.15.0: FTestAnovaPower().solve_power(effect_size =
+    // sqrt(75^2/(2*4*25^2)), alpha=0.05, power=0.9, k_groups=4) = 17.11
+    // runs in all, so 5 per condition; power() at nobs=20 is 0.95358.
+    assert_eq!(answer["needed"]["count"], 5);
+    let power = answer["needed"]["power"].as_f64().expect("power");
+    assert!((power - 0.953_577_933_622_421_4).abs() < 1e-9, "{power}");
+    let file = std::fs::File::open(folder.path().join("power.xlsx")).expect("size workbook");
+    let mut archive = zip::ZipArchive::new(file).expect("xlsx is a zip");
+    assert!(archive.by_name("xl/charts/chart1.xml").is_ok());
+}
+
+#[test]
+fn size_reads_the_sd_of_the_last_trial() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    let mut args = PLAN_ARGS.to_vec();
+    args.extend(["--out", "plan.xlsx"]);
+    run_in(folder.path(), &args);
+    let mut sheets = read_all(&folder.path().join("plan.xlsx"));
+    fill_results(runs_sheet(&mut sheets));
+    write_all(&sheets, &folder.path().join("filled.xlsx"));
+    let output = run_in(folder.path(), &["run", "--json", "filled.xlsx"]);
+    let results = json_of(&output);
+    let pooled_sd = results["responses"][0]["one_way"]["pooled_sd"]
+        .as_f64()
+        .expect("pooled SD");
+    let output = run_in(
+        folder.path(),
+        &[
+            "size",
+            "--conditions",
+            "3",
+            "--difference",
+            "2",
+            "--from-results",
+            "filled.results.xlsx",
+            "--json",
+        ],
+    );
+    let answer = json_of(&output);
+    let sd = answer["sd"].as_f64().expect("sd");
+    // The results workbook shows the pooled SD rounded to its display
+    // decimals, but the cell holds the full number the analysis computed.
+    assert!((sd - pooled_sd).abs() <= 1e-12 * pooled_sd, "{sd} vs {pooled_sd}");
+    assert_eq!(answer["sd_df"], results["responses"][0]["one_way"]["pooled_df"]);
+}
