@@ -19,7 +19,7 @@ use crate::analysis::comparisons::{
 };
 use crate::analysis::oneway::OneWayFit;
 use crate::settings::Direction;
-use crate::stats::normality::check_normality;
+use crate::stats::normality::check_normality_thinned;
 use crate::stats::ranks::{rank_analysis, RankOutcome};
 use crate::stats::spread::{bartlett, levene, sd_ratio, Centre};
 use crate::stats::{dist, StatsError};
@@ -470,7 +470,7 @@ fn model_checks(
         }
     }
     let mut probability_points = Vec::new();
-    let normality = match check_normality(&residuals) {
+    let normality = match check_normality_thinned(&residuals, MAX_CHART_POINTS) {
         Ok(check) => {
             probability_points = thin(
                 &check

@@ -110,8 +110,7 @@ pub fn mid_ranks(values: &[f64]) -> Result<MidRanks, StatsError> {
         });
     }
     let n = values.len();
-    let mut order: Vec<usize> = (0..n).collect();
-    order.sort_unstable_by(|&a, &b| values[a].total_cmp(&values[b]));
+    let order = crate::stats::sort::sorted_order(values);
     let mut ranks = vec![0.0; n];
     let mut tie_sum = 0.0;
     let mut n_tied_values = 0;

@@ -105,13 +105,17 @@ fn variance(values: &[f64]) -> f64 {
 }
 
 fn median(values: &[f64]) -> f64 {
-    let mut sorted = values.to_vec();
-    sorted.sort_unstable_by(f64::total_cmp);
-    let n = sorted.len();
+    // Selection instead of a full sort (common practice): the upper middle value by
+    // select_nth_unstable, the lower one as the largest value below it.
+    let mut copy = values.to_vec();
+    let n = copy.len();
+    let (below, upper, _) = copy.select_nth_unstable_by(n / 2, f64::total_cmp);
+    let upper = *upper;
     if n % 2 == 1 {
-        sorted[n / 2]
+        upper
     } else {
-        0.5 * (sorted[n / 2 - 1] + sorted[n / 2])
+        let lower = below.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        0.5 * (lower + upper)
     }
 }
 
