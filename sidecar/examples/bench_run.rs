@@ -16,6 +16,13 @@
 //! CPU time can be missed). On a shared machine the CPU-time ratio is the
 //! steadier one. The targets: run ≤ 1.5 × the streaming read, peak ≤ 300 MB.
 //!
+//! With `--comparisons` the workbook instead has 20 conditions of unequal sizes
+//! (condition c gets a share proportional to c + 1) and one response, and a
+//! settings sheet asks for comparisons with a control and with the best
+//! (direction higher): everything the comparisons and checks can do. The run's
+//! `assessment_ms` against the rest of its wall time is then the cost the
+//! comparisons add to the skeleton (target ≤ 20%).
+//!
 //! Build and run (release, so the binary is there too):
 //!
 //! ```text
@@ -52,6 +59,7 @@ fn main() {
     }
     let mut rows: u32 = 1_000_000;
     let mut keep: Option<PathBuf> = None;
+    let mut comparisons = false;
     let mut index = 1;
     while index < args.len() {
         match args[index].as_str() {
@@ -65,12 +73,16 @@ fn main() {
                     });
                 index += 2;
             }
+            "--comparisons" => {
+                comparisons = true;
+                index += 1;
+            }
             "--keep" => {
                 keep = args.get(index + 1).map(PathBuf::from);
                 index += 2;
             }
             other => {
-                eprintln!("unknown argument '{other}'; use --rows N or --keep FOLDER");
+                eprintln!("unknown argument '{other}'; use --rows N, --comparisons or --keep FOLDER");
                 std::process::exit(2);
             }
         }
@@ -84,13 +96,18 @@ fn main() {
     let path = folder.join("bench-long.xlsx");
 
     let started = Instant::now();
-    if let Err(error) = generate(&path, rows) {
+    let generated = if comparisons {
+        generate_comparisons(&path, rows)
+    } else {
+        generate(&path, rows)
+    };
+    if let Err(error) = generated {
         eprintln!("cannot write the workbook: {error}");
         std::process::exit(1);
     }
     let bytes = std::fs::metadata(&path).map(|metadata| metadata.len()).unwrap_or(0);
     println!(
-        "generated {} rows × 3 columns: {:.1} MB in {:.2} s",
+        "generated {} rows: {:.1} MB in {:.2} s",
         rows,
         bytes as f64 / 1e6,
         started.elapsed().as_secs_f64()
@@ -124,6 +141,7 @@ fn main() {
     if let Some(line) = run.stdout.lines().next() {
         if let Ok(value) = serde_json::from_str::<serde_json::Value>(line) {
             let timing = |key: &str| value["timings"][key].as_f64().unwrap_or(f64::NAN) / 1e3;
+            let assessment = timing("assessment_ms");
             let (hash, read, layout, analysis) = (
                 timing("hash_ms"),
                 timing("read_ms"),
@@ -136,6 +154,10 @@ fn main() {
                 run.wall.as_secs_f64() - hash - read - layout - analysis
             );
             println!("  records {}, status {}", value["table"]["n_records"], value["status"]);
+            println!(
+                "  comparisons and checks {assessment:.3} s: {:.1}% added to the rest of the run (target ≤ 20% with --comparisons)",
+                100.0 * assessment / (run.wall.as_secs_f64() - assessment)
+            );
         }
     }
     let ratio = run.wall.as_secs_f64() / stream.wall.as_secs_f64();
@@ -181,6 +203,39 @@ fn generate(path: &Path, rows: u32) -> Result<(), rust_xlsxwriter::XlsxError> {
         sheet.write_number(row, 1, (thickness * 1000.0).round() / 1000.0)?;
         sheet.write_number(row, 2, (weight * 1000.0).round() / 1000.0)?;
     }
+    book.save(path)
+}
+
+/// Writes the comparisons benchmark workbook: 20 conditions of unequal sizes, one
+/// response, and a settings sheet asking for a control and a direction.
+fn generate_comparisons(path: &Path, rows: u32) -> Result<(), rust_xlsxwriter::XlsxError> {
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let sheet = book.add_worksheet_with_constant_memory()?;
+    sheet.set_name("Trial")?;
+    sheet.write_string(0, 0, "Oven setting")?;
+    sheet.write_string(0, 1, "Hardness (HV)")?;
+    let mut state: u64 = 0x2545_F491_4F6C_DD1D;
+    for row in 1..=rows {
+        state = state
+            .wrapping_mul(6_364_136_223_846_793_005)
+            .wrapping_add(1_442_695_040_888_963_407);
+        // Condition c with probability (c + 1) / 210: invert the triangular numbers.
+        let share = ((state >> 33) as f64 / (1u64 << 31) as f64) * 210.0;
+        let condition = ((((8.0 * share + 1.0).sqrt() - 1.0) / 2.0) as usize).min(19);
+        let noise = ((state >> 11) % 10_000) as f64 / 1000.0 - 5.0;
+        sheet.write_string(row, 0, format!("setting {:02}", condition + 1))?;
+        sheet.write_number(
+            row,
+            1,
+            ((200.0 + 0.02 * condition as f64 + noise) * 100.0).round() / 100.0,
+        )?;
+    }
+    let settings = book.add_worksheet();
+    settings.set_name("trialyst settings")?;
+    settings.write_string(0, 0, "direction")?;
+    settings.write_string(0, 1, "higher")?;
+    settings.write_string(1, 0, "control")?;
+    settings.write_string(1, 1, "setting 01")?;
     book.save(path)
 }
 

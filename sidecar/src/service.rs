@@ -191,8 +191,11 @@ pub struct Timings {
     pub read_ms: f64,
     /// Table detection.
     pub layout_ms: f64,
-    /// Statistics.
+    /// Statistics (the one-way fits and everything after them).
     pub analysis_ms: f64,
+    /// Of `analysis_ms`, the comparisons and model checks beyond the one-way fit
+    /// (multiple comparisons, spreads, normality, outliers, rank-based analysis).
+    pub assessment_ms: f64,
 }
 
 /// Everything found for one workbook.
@@ -760,7 +763,9 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
         };
         let assessment = match &outcome {
             ResponseOutcome::Analysed { one_way } => {
+                let assessment_started = Instant::now();
                 let mut assessment = assess_response(one_way, &groups, &counts, &response.values, &settings);
+                timings.assessment_ms += assessment_started.elapsed().as_secs_f64() * 1e3;
                 for outlier in &mut assessment.checks.outliers {
                     let cell = table.value_cell(response_index, outlier.record).a1();
                     findings.push(Finding {

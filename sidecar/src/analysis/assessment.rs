@@ -34,6 +34,9 @@ pub const UNEQUAL_SPREAD_P: f64 = 0.05;
 pub const UNEQUAL_SPREAD_RATIO: f64 = 1.5;
 /// Family error rate used to flag outliers (Bonferroni over all values).
 pub const OUTLIER_FAMILY_ALPHA: f64 = 0.05;
+/// Samples at least this large run the rank-based analysis and model checks on a second
+/// thread beside the comparisons.
+const PARALLEL_MIN_VALUES: u64 = 50_000;
 /// Points kept for residual charts.
 pub const MAX_CHART_POINTS: usize = 2_000;
 
@@ -297,89 +300,72 @@ pub fn assess(
             ((1.0 - family_confidence) * 1000.0).round() / 10.0
         )
     };
-    let tukey_kramer = note(
-        &mut notes,
-        "Tukey-Kramer",
-        pooled_pairs(fit, PairMethod::TukeyKramer, family_confidence),
-    );
-    let bonferroni = note(
-        &mut notes,
-        "Bonferroni",
-        pooled_pairs(fit, PairMethod::Bonferroni, family_confidence),
-    );
-    let scheffe = note(
-        &mut notes,
-        "Scheffé",
-        pooled_pairs(fit, PairMethod::Scheffe, family_confidence),
-    );
-    let games_howell = note(&mut notes, "Games-Howell", unequal_spread_pairs(fit, family_confidence));
-    let welch = note(&mut notes, "Welch's ANOVA", welch_anova(&fit.conditions));
-    let control = options.control.as_ref().and_then(|control| {
-        note(
-            &mut notes,
-            "comparisons with the control",
-            against_control(fit, control, options.direction, family_confidence),
+    let comparisons = |notes: &mut Vec<String>| {
+        let tukey_kramer = note(
+            notes,
+            "Tukey-Kramer",
+            pooled_pairs(fit, PairMethod::TukeyKramer, family_confidence),
+        );
+        let bonferroni = note(
+            notes,
+            "Bonferroni",
+            pooled_pairs(fit, PairMethod::Bonferroni, family_confidence),
+        );
+        let scheffe = note(
+            notes,
+            "Scheffé",
+            pooled_pairs(fit, PairMethod::Scheffe, family_confidence),
+        );
+        let games_howell = note(notes, "Games-Howell", unequal_spread_pairs(fit, family_confidence));
+        let welch = note(notes, "Welch's ANOVA", welch_anova(&fit.conditions));
+        let control = options.control.as_ref().and_then(|control| {
+            note(
+                notes,
+                "comparisons with the control",
+                against_control(fit, control, options.direction, family_confidence),
+            )
+        });
+        let best = match options.direction {
+            Some(direction @ (Direction::HigherIsBetter | Direction::LowerIsBetter)) => note(
+                notes,
+                "comparisons with the best",
+                with_the_best(fit, direction, family_confidence),
+            ),
+            _ => None,
+        };
+        let contrasts =
+            note(notes, "adjusted contrasts", adjusted_contrasts(fit, family_confidence)).unwrap_or_default();
+        let eta_squared = note(notes, "interval for eta²", eta_squared_interval(fit, fit.confidence));
+        (
+            tukey_kramer,
+            bonferroni,
+            scheffe,
+            games_howell,
+            welch,
+            control,
+            best,
+            contrasts,
+            eta_squared,
         )
-    });
-    let best = match options.direction {
-        Some(direction @ (Direction::HigherIsBetter | Direction::LowerIsBetter)) => note(
-            &mut notes,
-            "comparisons with the best",
-            with_the_best(fit, direction, family_confidence),
-        ),
-        _ => None,
     };
-    let contrasts = note(
-        &mut notes,
-        "adjusted contrasts",
-        adjusted_contrasts(fit, family_confidence),
-    )
-    .unwrap_or_default();
-    let eta_squared = note(
-        &mut notes,
-        "interval for eta²",
-        eta_squared_interval(fit, fit.confidence),
-    );
-
-    let slices: Vec<&[f64]> = group_values.iter().map(Vec::as_slice).collect();
-    let rank_based = match rank_analysis(&slices) {
-        Ok(RankOutcome::Tested(analysis)) => {
-            let names: Vec<String> = fit.conditions.iter().map(|condition| condition.name.clone()).collect();
-            Some(RankSummary {
-                h: analysis.kruskal_wallis.h,
-                df: analysis.kruskal_wallis.df,
-                p: analysis.kruskal_wallis.p_value,
-                mean_ranks: names
-                    .iter()
-                    .cloned()
-                    .zip(analysis.kruskal_wallis.mean_ranks.iter().copied())
-                    .collect(),
-                pairs: analysis
-                    .comparisons
-                    .iter()
-                    .map(|pair| RankPair {
-                        first: names.get(pair.group_a).cloned().unwrap_or_default(),
-                        second: names.get(pair.group_b).cloned().unwrap_or_default(),
-                        z: pair.z,
-                        p: pair.p_value,
-                        p_holm: pair.p_holm,
-                    })
-                    .collect(),
-            })
-        }
-        Ok(RankOutcome::AllValuesEqual { n_values }) => {
-            notes.push(format!(
-                "rank-based analysis: all {n_values} values are equal, so ranks cannot tell conditions apart"
-            ));
-            None
-        }
-        Err(error) => {
-            notes.push(format!("rank-based analysis: {error}"));
-            None
-        }
+    // The rank-based analysis and the model checks (sorts of all values) run beside the
+    // comparisons on a second thread when the sample is large; notes keep their order.
+    let (comparison_results, (rank_based, checks, later_notes)) = if fit.n_total >= PARALLEL_MIN_VALUES {
+        std::thread::scope(|scope| {
+            let checks = scope.spawn(|| ranks_and_checks(fit, group_values, group_records));
+            let results = comparisons(&mut notes);
+            let checked = checks
+                .join()
+                .unwrap_or_else(|payload| std::panic::resume_unwind(payload));
+            (results, checked)
+        })
+    } else {
+        let results = comparisons(&mut notes);
+        (results, ranks_and_checks(fit, group_values, group_records))
     };
-
-    let checks = model_checks(fit, group_values, group_records, &slices, &mut notes);
+    notes.extend(later_notes);
+    let (tukey_kramer, bonferroni, scheffe, games_howell, welch, control, best, contrasts, eta_squared) =
+        comparison_results;
 
     // Which analysis leads.
     let smallest_n = fit.conditions.iter().map(|condition| condition.n).min().unwrap_or(0);
@@ -433,6 +419,55 @@ pub fn assess(
         checks,
         notes,
     }
+}
+
+/// The rank-based analysis and the model checks, with their notes.
+fn ranks_and_checks(
+    fit: &OneWayFit,
+    group_values: &[Vec<f64>],
+    group_records: &[Vec<usize>],
+) -> (Option<RankSummary>, ModelChecks, Vec<String>) {
+    let mut notes = Vec::new();
+    let slices: Vec<&[f64]> = group_values.iter().map(Vec::as_slice).collect();
+    let rank_based = match rank_analysis(&slices) {
+        Ok(RankOutcome::Tested(analysis)) => {
+            let names: Vec<String> = fit.conditions.iter().map(|condition| condition.name.clone()).collect();
+            Some(RankSummary {
+                h: analysis.kruskal_wallis.h,
+                df: analysis.kruskal_wallis.df,
+                p: analysis.kruskal_wallis.p_value,
+                mean_ranks: names
+                    .iter()
+                    .cloned()
+                    .zip(analysis.kruskal_wallis.mean_ranks.iter().copied())
+                    .collect(),
+                pairs: analysis
+                    .comparisons
+                    .iter()
+                    .map(|pair| RankPair {
+                        first: names.get(pair.group_a).cloned().unwrap_or_default(),
+                        second: names.get(pair.group_b).cloned().unwrap_or_default(),
+                        z: pair.z,
+                        p: pair.p_value,
+                        p_holm: pair.p_holm,
+                    })
+                    .collect(),
+            })
+        }
+        Ok(RankOutcome::AllValuesEqual { n_values }) => {
+            notes.push(format!(
+                "rank-based analysis: all {n_values} values are equal, so ranks cannot tell conditions apart"
+            ));
+            None
+        }
+        Err(error) => {
+            notes.push(format!("rank-based analysis: {error}"));
+            None
+        }
+    };
+
+    let checks = model_checks(fit, group_values, group_records, &slices, &mut notes);
+    (rank_based, checks, notes)
 }
 
 fn model_checks(

@@ -236,6 +236,14 @@ impl ProductCorrelation {
         let normal_bound = normal_quantile_guess(bound_level);
         let normal_low = normal_single - 0.02 * normal_single.abs() - 0.02;
         let normal_high = normal_bound + 0.02 * normal_bound.abs() + 0.02;
+        // With positive product correlations the root lies at or below the product bound
+        // and usually near it: a first bracket just below the bound touches fewer table
+        // panels (widening covers a miss; the single-comparison value is a lower bound).
+        let (normal_low, normal_high) = if normal_bound > 1.0 {
+            (normal_low.max(0.93 * normal_bound), normal_high)
+        } else {
+            (normal_low, normal_high)
+        };
         if df == f64::INFINITY {
             return root_in_bracket(
                 p,
@@ -255,7 +263,10 @@ impl ProductCorrelation {
         let ratio = t_bound / normal_bound;
         let (low, high) = if normal_root > 0.5 && ratio.is_finite() && ratio >= 1.0 {
             let guess = normal_root * ratio;
-            (0.98 * guess, 1.02 * guess)
+            // The stretch is a good guess when df is large (ratio near 1): bracket tightly
+            // then, so the search touches few table panels; widening covers a miss.
+            let relative = (0.5 * (ratio - 1.0)).clamp(1e-4, 0.02);
+            ((1.0 - relative) * guess, (1.0 + relative) * guess)
         } else {
             let t_single = t_quantile_guess(single_level, df);
             (
