@@ -21,6 +21,12 @@ use serde::{Deserialize, Serialize};
 use crate::cli::{analysis_settings, AnalyseOneArgs, AnalysisArgs};
 use crate::service::{self, AnalysisRequest, FailureReport, Problem};
 
+/// Test hook: the worker first allocates this many MiB (an allocation abort
+/// under the memory limit, as a hostile file could cause).
+pub const TEST_ALLOCATE_MIB: &str = "TRIALYST_TEST_WORKER_ALLOCATE_MIB";
+/// Test hook: the worker pauses this many milliseconds before writing results.
+pub const TEST_PAUSE_MS: &str = "TRIALYST_TEST_WORKER_PAUSE_MS";
+
 /// One line from the worker.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "status", rename_all = "kebab-case")]
@@ -57,6 +63,12 @@ fn emit(message: &WorkerMessage) {
 /// `trialyst __analyse-one`: the child side. Always exits 0 after printing
 /// its outcome; anything else (a signal, an abort) is a crash to the parent.
 pub fn analyse_one_command(args: AnalyseOneArgs) -> i32 {
+    // Fault injection for the tests of the isolation (see DEVELOPERS.md):
+    // an allocation of this many MiB, as a hostile file could cause.
+    if let Some(mib) = std::env::var(TEST_ALLOCATE_MIB).ok().and_then(|text| text.parse::<usize>().ok()) {
+        let block = vec![1u8; mib << 20];
+        std::hint::black_box(&block);
+    }
     let problems_of = |settings: &crate::settings::Settings| {
         let folder = service::output_folder_for(&args.file, args.out_dir.as_deref(), settings);
         service::problems_path_for(&args.file, folder.as_deref())
@@ -128,6 +140,10 @@ pub fn analyse_one_command(args: AnalyseOneArgs) -> i32 {
     emit(&WorkerMessage::Writing {
         results_file: destination.display().to_string(),
     });
+    // Fault injection for the tests of stopping mid-analysis.
+    if let Some(pause) = std::env::var(TEST_PAUSE_MS).ok().and_then(|text| text.parse::<u64>().ok()) {
+        std::thread::sleep(Duration::from_millis(pause));
+    }
     if let Err(error) = service::write_results(&results, &destination) {
         emit(&WorkerMessage::Failed {
             report: service::describe_failure(&error),
