@@ -181,7 +181,7 @@ pub fn relative_link(from: &Path, to: &Path) -> String {
     let from = normal(&from);
     let to = normal(&to);
     let common = from.iter().zip(&to).take_while(|(a, b)| a == b).count();
-    let mut parts: Vec<String> = std::iter::repeat("..".to_string()).take(from.len() - common).collect();
+    let mut parts: Vec<String> = std::iter::repeat_n("..".to_string(), from.len() - common).collect();
     parts.extend(to[common..].iter().cloned());
     parts.join("/")
 }

@@ -5,7 +5,9 @@ use std::path::Path;
 
 use calamine::Data;
 
-use crate::common::{long_rows, read_all_sheets, temp_folder, trialyst, write_rows, zip_entry_names, zip_entry_text, Put};
+use crate::common::{
+    long_rows, read_all_sheets, temp_folder, trialyst, write_rows, zip_entry_names, zip_entry_text, Put,
+};
 
 fn good_workbook(path: &Path, shift: f64) {
     let a = [20.1, 20.4, 19.9, 20.2, 20.0];
@@ -14,7 +16,11 @@ fn good_workbook(path: &Path, shift: f64) {
     write_rows(
         path,
         "Runs",
-        &long_rows("Supplier", "Tensile (MPa)", &[("North", &a), ("South", &b), ("East", &c)]),
+        &long_rows(
+            "Supplier",
+            "Tensile (MPa)",
+            &[("North", &a), ("South", &b), ("East", &c)],
+        ),
     );
 }
 
@@ -38,7 +44,10 @@ fn a_mixed_batch_gives_exit_code_summary_and_roll_up() {
         "Notes",
         &[vec![Put::Text("Remember to book the oven")]],
     );
-    let run = trialyst(folder.path(), &["run", "week", "--jobs", "2", "--rollup", "week.rollup.xlsx"]);
+    let run = trialyst(
+        folder.path(),
+        &["run", "week", "--jobs", "2", "--rollup", "week.rollup.xlsx"],
+    );
     run.expect_code(1);
     let stderr = run.stderr();
     let summary = stderr
@@ -50,7 +59,11 @@ fn a_mixed_batch_gives_exit_code_summary_and_roll_up() {
         summary.contains("workbooks/s") && summary.contains("roll-up week.rollup.xlsx"),
         "{summary}"
     );
-    assert!(!stderr.contains('\u{1b}'), "a progress bar was drawn off a terminal{}", run.report());
+    assert!(
+        !stderr.contains('\u{1b}'),
+        "a progress bar was drawn off a terminal{}",
+        run.report()
+    );
 
     let rollup = folder.path().join("week.rollup.xlsx");
     let sheets = read_all_sheets(&rollup);
@@ -72,10 +85,17 @@ fn a_mixed_batch_gives_exit_code_summary_and_roll_up() {
         "Findings",
         "Results file",
     ] {
-        assert!(header.iter().any(|cell| cell == wanted), "{wanted} missing from {header:?}");
+        assert!(
+            header.iter().any(|cell| cell == wanted),
+            "{wanted} missing from {header:?}"
+        );
     }
     let column = |title: &str| header.iter().position(|cell| cell == title).expect("a column");
-    let body: Vec<Vec<String>> = rows.rows().skip(1).map(|row| row.iter().map(cell_text).collect()).collect();
+    let body: Vec<Vec<String>> = rows
+        .rows()
+        .skip(1)
+        .map(|row| row.iter().map(cell_text).collect())
+        .collect();
     assert_eq!(body.len(), 4, "{body:?}");
     let row_of = |stem: &str| body.iter().find(|row| row[0].contains(stem)).expect("a row");
     let clear = row_of("a clear difference");
@@ -103,11 +123,22 @@ fn a_mixed_batch_gives_exit_code_summary_and_roll_up() {
         .map(|row| (cell_text(&row[0]), cell_text(&row[1])))
         .collect();
     assert!(counts.contains(&("conditions differ".into(), "1".into())), "{counts:?}");
-    assert!(counts.contains(&("no clear difference".into(), "1".into())), "{counts:?}");
-    assert!(counts.contains(&("workbook not analysed".into(), "2".into())), "{counts:?}");
-    assert!(zip_entry_names(&rollup).iter().any(|entry| entry.starts_with("xl/charts/chart")));
+    assert!(
+        counts.contains(&("no clear difference".into(), "1".into())),
+        "{counts:?}"
+    );
+    assert!(
+        counts.contains(&("workbook not analysed".into(), "2".into())),
+        "{counts:?}"
+    );
+    assert!(zip_entry_names(&rollup)
+        .iter()
+        .any(|entry| entry.starts_with("xl/charts/chart")));
     let links = zip_entry_text(&rollup, "xl/worksheets/_rels/sheet1.xml.rels");
-    assert!(links.contains("a%20clear%20difference.results.xlsx") || links.contains("a clear difference.results.xlsx"), "{links}");
+    assert!(
+        links.contains("a%20clear%20difference.results.xlsx") || links.contains("a clear difference.results.xlsx"),
+        "{links}"
+    );
     // The results files linked to exist.
     assert!(week.join("a clear difference.results.xlsx").is_file());
 }
@@ -122,14 +153,22 @@ fn folder_settings_sit_between_the_settings_sheet_and_the_defaults() {
     runs.set_name("Runs").expect("named");
     crate::common::put_rows(
         runs,
-        &long_rows("Supplier", "Tensile (MPa)", &[("North", &[1.0, 1.2, 1.1]), ("South", &[1.5, 1.6, 1.4])]),
+        &long_rows(
+            "Supplier",
+            "Tensile (MPa)",
+            &[("North", &[1.0, 1.2, 1.1]), ("South", &[1.5, 1.6, 1.4])],
+        ),
     );
     let settings = book.add_worksheet();
     settings.set_name("trialyst settings").expect("named");
     settings.write_string(0, 0, "confidence").expect("writable");
     settings.write_string(0, 1, "80%").expect("writable");
     book.save(folder.path().join("own.xlsx")).expect("saved");
-    std::fs::write(folder.path().join("trialyst.toml"), "confidence = 0.9\ndirection = \"higher\"\n").expect("written");
+    std::fs::write(
+        folder.path().join("trialyst.toml"),
+        "confidence = 0.9\ndirection = \"higher\"\n",
+    )
+    .expect("written");
 
     let run = trialyst(folder.path(), &["run", ".", "--json", "--no-write"]);
     run.expect_code(0);
@@ -161,7 +200,10 @@ fn folder_settings_sit_between_the_settings_sheet_and_the_defaults() {
     assert_eq!(own["settings"]["confidence"], 0.8);
     assert_eq!(source_of(own, "confidence"), "workbook settings sheet");
     // The command line wins over both.
-    let run = trialyst(folder.path(), &["run", ".", "--json", "--no-write", "--confidence", "99%"]);
+    let run = trialyst(
+        folder.path(),
+        &["run", ".", "--json", "--no-write", "--confidence", "99%"],
+    );
     run.expect_code(0);
     for line in run.stdout().lines() {
         let value: serde_json::Value = serde_json::from_str(line).expect("JSON");
@@ -178,7 +220,11 @@ fn the_output_folder_setting_places_results_and_a_bad_file_stops_the_batch() {
     assert!(folder.path().join("out").join("w.results.xlsx").is_file());
     assert!(!folder.path().join("w.results.xlsx").exists());
 
-    std::fs::write(folder.path().join("trialyst.toml"), "# week 12\nconfidence = 0.9\nmethods = \"all\"\n").expect("written");
+    std::fs::write(
+        folder.path().join("trialyst.toml"),
+        "# week 12\nconfidence = 0.9\nmethods = \"all\"\n",
+    )
+    .expect("written");
     let run = trialyst(folder.path(), &["run", "."]);
     run.expect_code(2);
     let stderr = run.stderr();

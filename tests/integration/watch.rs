@@ -49,7 +49,11 @@ impl Watching {
     fn wait_for_log(&self, needle: &str, count: usize) {
         let log = self.log.clone();
         wait_until(&format!("{count} log line(s) with '{needle}'"), || {
-            std::fs::read_to_string(&log).unwrap_or_default().matches(needle).count() >= count
+            std::fs::read_to_string(&log)
+                .unwrap_or_default()
+                .matches(needle)
+                .count()
+                >= count
         })
         .unwrap_or_else(|message| panic!("{message}\n--- log\n{}", self.log_text()));
     }
@@ -202,8 +206,16 @@ fn a_workbook_written_slowly_is_analysed_once_when_closed() {
         file.flush().expect("flushed");
         std::thread::sleep(Duration::from_millis(250));
         // While the file is open nothing is written beside it.
-        assert!(!setup.folder.join("slow.problems.xlsx").exists(), "{}", watching.log_text());
-        assert!(!setup.folder.join("slow.results.xlsx").exists(), "{}", watching.log_text());
+        assert!(
+            !setup.folder.join("slow.problems.xlsx").exists(),
+            "{}",
+            watching.log_text()
+        );
+        assert!(
+            !setup.folder.join("slow.results.xlsx").exists(),
+            "{}",
+            watching.log_text()
+        );
     }
     drop(file);
     wait_for_file(&setup.folder.join("slow.results.xlsx"), &watching);
@@ -230,7 +242,12 @@ fn a_copy_under_a_temporary_name_is_taken_up_when_renamed() {
     assert!(!log.contains(".tmp") && !log.contains("crdownload"), "{log}");
     assert_eq!(
         files_in(&setup.folder),
-        vec![".trialyst", "moulding.results.xlsx", "moulding.xlsx", "moulding.xlsx.crdownload"]
+        vec![
+            ".trialyst",
+            "moulding.results.xlsx",
+            "moulding.xlsx",
+            "moulding.xlsx.crdownload"
+        ]
     );
 }
 
@@ -246,7 +263,10 @@ fn lock_files_and_our_own_outputs_are_ignored() {
     wait_for_file(&setup.folder.join("cure.results.xlsx"), &watching);
     watching.wait_for_log("analysed cure.xlsx", 1);
     let log = watching.log_text();
-    assert!(!log.contains("~$") && !log.contains("lock") && !log.contains("other"), "{log}");
+    assert!(
+        !log.contains("~$") && !log.contains("lock") && !log.contains("other"),
+        "{log}"
+    );
     // Our own results file, written just now, is not taken up either.
     assert_eq!(log.matches("received").count(), 1, "{log}");
 }
@@ -263,7 +283,10 @@ fn a_corrupt_workbook_gets_a_problems_workbook_in_plain_words() {
     watching.wait_for_log("problem cut.xlsx", 1);
     let text = sheet_text(&problems);
     assert!(text.contains("cut.xlsx could not be analysed"), "{text}");
-    assert!(text.contains("How to fix it") && text.contains("Copy the file again"), "{text}");
+    assert!(
+        text.contains("How to fix it") && text.contains("Copy the file again"),
+        "{text}"
+    );
     assert!(!setup.folder.join("cut.results.xlsx").exists());
     // Fixing the file (a full copy) replaces the problems workbook by results.
     let fixed_source = setup.staging.join("cut.xlsx");
@@ -418,7 +441,8 @@ fn two_watchers_on_one_folder_analyse_each_workbook_once() {
         let both = format!("{}{}", first.log_text(), second.log_text());
         (0..count).all(|index| {
             let name = format!("shared {index:02}.xlsx");
-            both.matches(&format!("analysed {name}")).count() + both.matches(&format!("skipped {name}: unchanged")).count()
+            both.matches(&format!("analysed {name}")).count()
+                + both.matches(&format!("skipped {name}: unchanged")).count()
                 >= 2
         })
     })
@@ -462,7 +486,11 @@ fn folder_settings_apply_and_a_bad_file_is_refused_with_key_and_line() {
     assert!(text.contains("90%") && text.contains("folder settings file"), "{text}");
     drop(watching);
 
-    std::fs::write(setup.folder.join("trialyst.toml"), "confidence = 0.9\n\ncolour = \"red\"\n").expect("written");
+    std::fs::write(
+        setup.folder.join("trialyst.toml"),
+        "confidence = 0.9\n\ncolour = \"red\"\n",
+    )
+    .expect("written");
     let output = Command::new(trialyst_path())
         .arg("watch")
         .arg(&setup.folder)

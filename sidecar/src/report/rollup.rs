@@ -105,7 +105,7 @@ fn response_row(entry: &RollupEntry<'_>, response: &ResponseResult, findings: us
             crate::service::ResponseOutcome::Analysed { .. } => String::new(),
         };
         let mut row = vec![Value::text(entry.file.clone()), Value::text(response.name.clone())];
-        row.extend(std::iter::repeat(Value::Blank).take(9));
+        row.extend(std::iter::repeat_n(Value::Blank, 9));
         row.push(Value::text(clip(format!("not analysed: {reason}"), 500)));
         row.push(Value::integer(findings as f64));
         row.push(link);
@@ -207,7 +207,7 @@ pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book 
             RollupOutcome::Failed(reason) => {
                 tally[4] += 1;
                 let mut row = vec![Value::text(entry.file.clone())];
-                row.extend(std::iter::repeat(Value::Blank).take(10));
+                row.extend(std::iter::repeat_n(Value::Blank, 10));
                 row.push(Value::text(clip(format!("not analysed: {reason}"), 500)));
                 row.push(Value::Blank);
                 row.push(match &entry.results_link {

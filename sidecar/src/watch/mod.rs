@@ -66,7 +66,11 @@ pub fn watch_command(args: WatchArgs) -> i32 {
             return EXIT_USAGE;
         }
     }
-    if !(args.time_limit.is_finite() && args.time_limit > 0.0) || !(args.claim_expiry.is_finite() && args.claim_expiry >= 0.0) {
+    let limits_usable = args.time_limit.is_finite()
+        && args.time_limit > 0.0
+        && args.claim_expiry.is_finite()
+        && args.claim_expiry >= 0.0;
+    if !limits_usable {
         eprintln!("trialyst: --time-limit and --claim-expiry take positive numbers");
         return EXIT_USAGE;
     }
@@ -467,7 +471,9 @@ impl Watcher {
                 previous = Some(current);
             }
             self.process_due();
-            let wait = next.saturating_duration_since(Instant::now()).min(Duration::from_millis(50));
+            let wait = next
+                .saturating_duration_since(Instant::now())
+                .min(Duration::from_millis(50));
             std::thread::sleep(wait);
         }
         Ok(())
@@ -488,7 +494,9 @@ impl Watcher {
             else {
                 return;
             };
-            let Some(pending) = self.pending.remove(&path) else { return };
+            let Some(pending) = self.pending.remove(&path) else {
+                return;
+            };
             self.process(&path, pending.attempts);
         }
     }
@@ -515,7 +523,8 @@ impl Watcher {
             Ok(found) => found,
             Err(error) => {
                 if path.exists() && attempts < MAX_ATTEMPTS {
-                    self.log.event("retrying", &relative, &format!("cannot read it yet ({error})"));
+                    self.log
+                        .event("retrying", &relative, &format!("cannot read it yet ({error})"));
                     self.retry(path, attempts, Duration::from_millis(500));
                 }
                 return;
@@ -525,7 +534,12 @@ impl Watcher {
             self.retry(path, attempts.saturating_sub(1), Duration::from_millis(300));
             return;
         }
-        if self.state.files.get(&relative).is_some_and(|entry| entry.sha256 == sha256) {
+        if self
+            .state
+            .files
+            .get(&relative)
+            .is_some_and(|entry| entry.sha256 == sha256)
+        {
             self.log.event("skipped", &relative, "unchanged since it was analysed");
             return;
         }
@@ -540,24 +554,40 @@ impl Watcher {
         let claim = match try_claim(self.store.folder(), &relative, self.claim_expiry) {
             Ok(ClaimAttempt::Mine(claim)) => claim,
             Ok(ClaimAttempt::Held(holder)) => {
-                self.log.event("skipped", &relative, &format!("being analysed by {holder}"));
+                self.log
+                    .event("skipped", &relative, &format!("being analysed by {holder}"));
                 self.retry(path, attempts.saturating_sub(1), HELD_RECHECK);
                 return;
             }
             Err(error) => {
-                self.log.event("problem", &relative, &format!("cannot claim it: {error}"));
+                self.log
+                    .event("problem", &relative, &format!("cannot claim it: {error}"));
                 self.retry(path, attempts, Duration::from_secs(5));
                 return;
             }
         };
         // Another watcher may have finished it while we looked.
         self.state = self.store.load();
-        if self.state.files.get(&relative).is_some_and(|entry| entry.sha256 == sha256) {
+        if self
+            .state
+            .files
+            .get(&relative)
+            .is_some_and(|entry| entry.sha256 == sha256)
+        {
             self.log.event("skipped", &relative, "unchanged since it was analysed");
             return;
         }
-        let folder_settings = self.folder_file.current().is_some().then(|| self.folder_file.path.clone());
-        let args = worker_arguments(path, self.out_dir.as_deref(), folder_settings.as_deref(), &self.analysis);
+        let folder_settings = self
+            .folder_file
+            .current()
+            .is_some()
+            .then(|| self.folder_file.path.clone());
+        let args = worker_arguments(
+            path,
+            self.out_dir.as_deref(),
+            folder_settings.as_deref(),
+            &self.analysis,
+        );
         let outcome = run_worker(&self.program, &args, self.limits, &self.stop);
         let record = |outcome: &str, output: &Path| Entry {
             sha256: sha256.clone(),
@@ -593,7 +623,7 @@ impl Watcher {
                     .and_then(|meta| meta.modified())
                     .ok()
                     .and_then(|modified| SystemTime::now().duration_since(modified).ok())
-                    .map_or(true, |age| age < SETTLE);
+                    .is_none_or(|age| age < SETTLE);
                 let changed = stamp_of(path) != Some(before);
                 if report.maybe_incomplete && (young || changed) && attempts < MAX_ATTEMPTS {
                     self.log.event(
@@ -602,7 +632,15 @@ impl Watcher {
                         &format!("not readable yet, perhaps still being copied: {}", report.message),
                     );
                     drop(claim);
-                    self.retry(path, attempts, if changed { Duration::from_millis(300) } else { SETTLE / 2 });
+                    self.retry(
+                        path,
+                        attempts,
+                        if changed {
+                            Duration::from_millis(300)
+                        } else {
+                            SETTLE / 2
+                        },
+                    );
                     return;
                 }
                 self.write_problems(path, &relative, &report, Path::new(&problems_file), record);
@@ -646,7 +684,11 @@ impl Watcher {
             Ok(state) => self.state = state,
             Err(error) => {
                 self.state.files.insert(relative.to_string(), entry);
-                self.log.event("problem", STATE_FOLDER, &format!("cannot save the watcher's state: {error}"));
+                self.log.event(
+                    "problem",
+                    STATE_FOLDER,
+                    &format!("cannot save the watcher's state: {error}"),
+                );
             }
         }
     }

@@ -65,7 +65,10 @@ fn emit(message: &WorkerMessage) {
 pub fn analyse_one_command(args: AnalyseOneArgs) -> i32 {
     // Fault injection for the tests of the isolation (see DEVELOPERS.md):
     // an allocation of this many MiB, as a hostile file could cause.
-    if let Some(mib) = std::env::var(TEST_ALLOCATE_MIB).ok().and_then(|text| text.parse::<usize>().ok()) {
+    if let Some(mib) = std::env::var(TEST_ALLOCATE_MIB)
+        .ok()
+        .and_then(|text| text.parse::<usize>().ok())
+    {
         let block = vec![1u8; mib << 20];
         std::hint::black_box(&block);
     }
@@ -141,7 +144,10 @@ pub fn analyse_one_command(args: AnalyseOneArgs) -> i32 {
         results_file: destination.display().to_string(),
     });
     // Fault injection for the tests of stopping mid-analysis.
-    if let Some(pause) = std::env::var(TEST_PAUSE_MS).ok().and_then(|text| text.parse::<u64>().ok()) {
+    if let Some(pause) = std::env::var(TEST_PAUSE_MS)
+        .ok()
+        .and_then(|text| text.parse::<u64>().ok())
+    {
         std::thread::sleep(Duration::from_millis(pause));
     }
     if let Err(error) = service::write_results(&results, &destination) {
