@@ -24,7 +24,7 @@ use serde::Serialize;
 use crate::analysis::letters::grouping_letters;
 use crate::analysis::oneway::{ConditionSummary, OneWayFit};
 use crate::settings::Direction;
-use crate::stats::dunnett::{mcb_critical_values, product_correlation_cdf, product_correlation_quantile, Sides};
+use crate::stats::dunnett::{mcb_critical_values, ProductCorrelation, Sides};
 use crate::stats::ranks::holm_adjust;
 use crate::stats::studentized_range::{studentized_range_quantile, studentized_range_sf};
 use crate::stats::{dist, StatsError};
@@ -376,7 +376,8 @@ pub fn against_control(
         Some(Direction::LowerIsBetter) => (Sides::One, -1.0, "lower"),
         _ => (Sides::Two, 1.0, "two-sided"),
     };
-    let critical = product_correlation_quantile(confidence, &lambdas, fit.pooled_df, sides)?;
+    let family = ProductCorrelation::new(&lambdas, fit.pooled_df, sides)?;
+    let critical = family.quantile(confidence)?;
     let mut rows = Vec::new();
     for treatment in &others {
         let difference = treatment.mean - control_summary.mean;
@@ -387,7 +388,7 @@ pub fn against_control(
             Sides::One => sign * t,
         };
         // Adjusted p: the chance that the largest statistic of the family reaches this one.
-        let p_adjusted = (1.0 - product_correlation_cdf(statistic, &lambdas, fit.pooled_df, sides)?).clamp(0.0, 1.0);
+        let p_adjusted = (1.0 - family.cdf(statistic)?).clamp(0.0, 1.0);
         let (low, high) = match (sides, sign > 0.0) {
             (Sides::Two, _) => (difference - critical * se, difference + critical * se),
             (Sides::One, true) => (difference - critical * se, f64::INFINITY),

@@ -21,6 +21,7 @@
 use crate::stats::StatsError;
 use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
 use statrs::function::gamma::ln_gamma;
+use std::cell::RefCell;
 use std::f64::consts::{LN_2, PI, SQRT_2};
 
 /// Whether the comparisons are one-sided (`T_i <= c`) or two-sided (`|T_i| <= c`).
@@ -44,6 +45,8 @@ const LOG_DENSITY_DROP: f64 = 42.0;
 const INNER_TOLERANCE: f64 = 1e-9;
 /// Absolute error allowed in the outer (chi) integral.
 const OUTER_TOLERANCE: f64 = 1e-9;
+/// Widest initial panel, in step widths, across a steep factor of the inner integral.
+const STEP_PANEL_WIDTHS: f64 = 4.0;
 /// Largest number of panel halvings in one adaptive integral.
 const MAX_PANELS: usize = 5_000;
 /// A critical value is accepted once its probability is this close to the target.
@@ -74,9 +77,10 @@ const MAX_ROOT_ITERATIONS: usize = 100;
 /// Equal lambdas are grouped and their factor raised to a power; lambdas equal to 0 give a
 /// factor that does not depend on `z`. The inner integral over `z` runs over `[-8.5, 8.5]`
 /// (normal mass outside below 2e-17); where a factor is a steep step (step width
-/// `sqrt(1 - lambda^2) / lambda < 0.3`) the range is split beforehand at the step centre
-/// `-c s / lambda` (and `+c s / lambda` when two-sided) and 8 step widths either side, so
-/// lambdas arbitrarily close to 1 are resolved. The outer integral over `S` uses `u = ln s`,
+/// `sqrt(1 - lambda^2) / lambda < 0.3`) the stretch of 8 step widths either side of the step
+/// centre `-c s / lambda` (and `+c s / lambda` when two-sided) is covered beforehand by
+/// panels at most 4 step widths wide (overlapping stretches merged), so lambdas arbitrarily
+/// close to 1 are resolved. The outer integral over `S` uses `u = ln s`,
 /// where the chi density `exp(log_peak + df (u - (e^{2u} - 1) / 2))` is smooth and
 /// log-concave, over the range where its logarithm is within 42 of the peak; its
 /// normalising constant uses a Stirling series for `df >= 20` so that very large `df`
@@ -89,30 +93,13 @@ const MAX_ROOT_ITERATIONS: usize = 100;
 /// mpmath 1.3.0 quadrature of the same integrals at 20 digits (equal and unequal lambdas,
 /// lambdas 0 and near 1, negative c, one and two sides, several finite df and infinite df),
 /// against Student's t for a single comparison and against `Phi(c)^m` for independent
-/// comparisons. Speed (release build): about 0.1 ms with df infinite, 1 to 5 ms with df
-/// finite for a few groups of lambdas; cost grows with the number of distinct lambdas.
+/// comparisons. With finite df the normal-theory probability is interpolated from a table
+/// (see [`ProductCorrelation::cdf`]). Speed (release build, `examples/dunnett_timing.rs`,
+/// 19 distinct lambdas): 0.1 ms (one side) to 0.25 ms (two sides) with df infinite; with
+/// finite df a single call costs 2 to 50 ms, mostly building the table, and later calls
+/// on the same [`ProductCorrelation`] a fraction of that.
 pub fn product_correlation_cdf(c: f64, lambdas: &[f64], df: f64, sides: Sides) -> Result<f64, StatsError> {
-    if c.is_nan() {
-        return Err(StatsError::InvalidParameter {
-            name: "c",
-            rule: "a number",
-            value: c,
-        });
-    }
-    let groups = lambda_groups(lambdas)?;
-    check_df(df)?;
-    if c == f64::INFINITY {
-        return Ok(1.0);
-    }
-    if c == f64::NEG_INFINITY || (sides == Sides::Two && c <= 0.0) {
-        return Ok(0.0);
-    }
-    let probability = if df == f64::INFINITY {
-        inner_probability(c, &groups, sides)?
-    } else {
-        outer_expectation(c, &groups, df, sides)?
-    };
-    Ok(probability.clamp(0.0, 1.0))
+    ProductCorrelation::new(lambdas, df, sides)?.cdf(c)
 }
 
 /// Critical value `c` with `product_correlation_cdf(c, lambdas, df, sides) = p`, e.g. the
@@ -138,76 +125,163 @@ pub fn product_correlation_cdf(c: f64, lambdas: &[f64], df: f64, sides: Sides) -
 ///
 /// Accuracy: agreed with mpmath 1.3.0 roots of the nested integrals to about 1e-13;
 /// a single comparison reproduces scipy 1.17.1's t quantile to about 1e-12; the printed
-/// two-decimal Dunnett (1955, 1964) tables are reproduced. Speed (release build, measured
-/// on a shared, loaded machine): about 0.1 to 0.2 ms for df infinite, about 10 to 40 ms for
-/// finite df with equal sizes, 20 to 100 ms with four unequal sizes.
+/// two-decimal Dunnett (1955, 1964) tables are reproduced. With finite df the normal-theory
+/// root is found on the interpolation table, which the finite-df search then reuses.
+/// Speed (release build, loaded machine, 19 distinct lambdas): about 1 to 2.5 ms for df
+/// infinite, 4 to 55 ms for finite df (large df fastest).
 pub fn product_correlation_quantile(p: f64, lambdas: &[f64], df: f64, sides: Sides) -> Result<f64, StatsError> {
-    if !(p > 0.0 && p < 1.0) {
-        return Err(StatsError::InvalidParameter {
-            name: "p",
-            rule: "strictly between 0 and 1",
-            value: p,
-        });
-    }
-    let groups = lambda_groups(lambdas)?;
-    check_df(df)?;
-    let n_comparisons = lambdas.len() as f64;
-    // Per-comparison probability of the Sidak / Kimball bound: p^(1/m).
-    let product_level = (p.ln() / n_comparisons).exp();
-    let (single_level, bound_level) = match sides {
-        Sides::One => (p, product_level),
-        Sides::Two => (0.5 * (1.0 + p), 0.5 * (1.0 + product_level)),
-    };
-    // The normal-theory root is cheap (no outer integral); it is solved first.
-    let normal_single = normal_quantile_guess(single_level);
-    let normal_bound = normal_quantile_guess(bound_level);
-    let normal_root = root_in_bracket(
-        p,
-        &groups,
-        f64::INFINITY,
-        sides,
-        normal_single - 0.02 * normal_single.abs() - 0.02,
-        normal_bound + 0.02 * normal_bound.abs() + 0.02,
-    )?;
-    if df == f64::INFINITY {
-        return Ok(normal_root);
-    }
-    // For finite df the normal root is stretched by the t-to-normal quantile ratio at the
-    // Sidak level, usually within 1% of the answer; otherwise the t bounds are used.
-    let t_bound = t_quantile_guess(bound_level, df);
-    let ratio = t_bound / normal_bound;
-    let (low, high) = if normal_root > 0.5 && ratio.is_finite() && ratio >= 1.0 {
-        let guess = normal_root * ratio;
-        (0.98 * guess, 1.02 * guess)
-    } else {
-        let t_single = t_quantile_guess(single_level, df);
-        (
-            t_single - 0.02 * t_single.abs() - 0.02,
-            t_bound + 0.02 * t_bound.abs() + 0.02,
-        )
-    };
-    root_in_bracket(p, &groups, df, sides, low, high)
+    ProductCorrelation::new(lambdas, df, sides)?.quantile(p)
 }
 
-/// Root of `cdf(c) - p` starting from the bracket `[low, high]`, widened geometrically
-/// until it brackets the root, then refined by Brent's method.
-fn root_in_bracket(
-    p: f64,
-    groups: &[LambdaGroup],
+/// One family of statistics with product correlation (fixed lambdas, `df` and sides), for
+/// several probabilities or critical values: [`product_correlation_cdf`] and
+/// [`product_correlation_quantile`] without repeating the set-up. With finite `df` it keeps
+/// the normal-theory probability as an interpolation table built as it is needed (see
+/// [`ProductCorrelation::cdf`]), so the second and later calls cost a small fraction of
+/// the first.
+#[derive(Debug)]
+pub struct ProductCorrelation {
+    groups: Vec<LambdaGroup>,
     df: f64,
     sides: Sides,
-    mut low: f64,
-    mut high: f64,
-) -> Result<f64, StatsError> {
-    let distance = |c: f64| -> Result<f64, StatsError> {
-        let probability = if sides == Sides::Two && c <= 0.0 {
-            0.0
-        } else if df == f64::INFINITY {
-            inner_probability(c, groups, sides)?
+    table: RefCell<InnerTable>,
+}
+
+impl ProductCorrelation {
+    /// Sets up the family.
+    ///
+    /// # Errors
+    ///
+    /// As [`product_correlation_cdf`] for `lambdas` and `df`.
+    pub fn new(lambdas: &[f64], df: f64, sides: Sides) -> Result<Self, StatsError> {
+        let groups = lambda_groups(lambdas)?;
+        check_df(df)?;
+        let n_comparisons: f64 = groups.iter().map(|group| f64::from(group.count)).sum();
+        Ok(Self {
+            table: RefCell::new(InnerTable::new(n_comparisons, sides)),
+            groups,
+            df,
+            sides,
+        })
+    }
+
+    /// `P(T_i <= c, all i)` or `P(|T_i| <= c, all i)`, as [`product_correlation_cdf`].
+    ///
+    /// # Errors
+    ///
+    /// [`StatsError::InvalidParameter`] when `c` is NaN; [`StatsError::NoConvergence`] as
+    /// in [`product_correlation_cdf`].
+    ///
+    /// # Remarks
+    ///
+    /// With `df` infinite the normal-theory integral is evaluated directly. With finite
+    /// `df` the outer integral over `S` needs the normal-theory probability `G(x)` at many
+    /// `x = c s`; `G` is smooth (a distribution function of a maximum of normals), so it is
+    /// replaced by a piecewise Chebyshev interpolant: panels of width
+    /// `TABLE_PANEL_WIDTH` over the range where `G` is neither 0 nor 1 to 1e-17, each
+    /// interpolating `G` at `TABLE_NODES` Chebyshev points, built the first time a panel is
+    /// needed and kept for later calls. Measured against direct evaluation the interpolant
+    /// agrees to about 1e-14 (unit test `table_matches_direct_evaluation`).
+    pub fn cdf(&self, c: f64) -> Result<f64, StatsError> {
+        if c.is_nan() {
+            return Err(StatsError::InvalidParameter {
+                name: "c",
+                rule: "a number",
+                value: c,
+            });
+        }
+        if c == f64::INFINITY {
+            return Ok(1.0);
+        }
+        if c == f64::NEG_INFINITY || (self.sides == Sides::Two && c <= 0.0) {
+            return Ok(0.0);
+        }
+        let probability = if self.df == f64::INFINITY {
+            inner_probability(c, &self.groups, self.sides)?
         } else {
-            outer_expectation(c, groups, df, sides)?
+            let mut table = self.table.borrow_mut();
+            outer_expectation(c, self.df, |x| table.value(x, &self.groups, self.sides))?
         };
-        Ok(probability - p)
+        Ok(probability.clamp(0.0, 1.0))
+    }
+
+    /// Critical value `c` with `cdf(c) = p`, as [`product_correlation_quantile`].
+    ///
+    /// # Errors
+    ///
+    /// [`StatsError::InvalidParameter`] when `p` is not strictly between 0 and 1;
+    /// [`StatsError::NoConvergence`] if the root search fails (not met in testing).
+    pub fn quantile(&self, p: f64) -> Result<f64, StatsError> {
+        if !(p > 0.0 && p < 1.0) {
+            return Err(StatsError::InvalidParameter {
+                name: "p",
+                rule: "strictly between 0 and 1",
+                value: p,
+            });
+        }
+        let (groups, df, sides) = (&self.groups, self.df, self.sides);
+        let n_comparisons: f64 = groups.iter().map(|group| f64::from(group.count)).sum();
+        // Per-comparison probability of the Sidak / Kimball bound: p^(1/m).
+        let product_level = (p.ln() / n_comparisons).exp();
+        let (single_level, bound_level) = match sides {
+            Sides::One => (p, product_level),
+            Sides::Two => (0.5 * (1.0 + p), 0.5 * (1.0 + product_level)),
+        };
+        // The normal-theory root is cheap (no outer integral); it is solved first.
+        let normal_single = normal_quantile_guess(single_level);
+        let normal_bound = normal_quantile_guess(bound_level);
+        let normal_low = normal_single - 0.02 * normal_single.abs() - 0.02;
+        let normal_high = normal_bound + 0.02 * normal_bound.abs() + 0.02;
+        if df == f64::INFINITY {
+            return root_in_bracket(
+                p,
+                sides,
+                |c| inner_probability(c, groups, sides),
+                normal_low,
+                normal_high,
+            );
+        }
+        let mut table = self.table.borrow_mut();
+        // With finite df the table is needed anyway and serves the normal-theory root too
+        // (to the table's accuracy, ample for a starting point).
+        let normal_root = root_in_bracket(p, sides, |c| table.value(c, groups, sides), normal_low, normal_high)?;
+        // For finite df the normal root is stretched by the t-to-normal quantile ratio at the
+        // Sidak level, usually within 1% of the answer; otherwise the t bounds are used.
+        let t_bound = t_quantile_guess(bound_level, df);
+        let ratio = t_bound / normal_bound;
+        let (low, high) = if normal_root > 0.5 && ratio.is_finite() && ratio >= 1.0 {
+            let guess = normal_root * ratio;
+            (0.98 * guess, 1.02 * guess)
+        } else {
+            let t_single = t_quantile_guess(single_level, df);
+            (
+                t_single - 0.02 * t_single.abs() - 0.02,
+                t_bound + 0.02 * t_bound.abs() + 0.02,
+            )
+        };
+        root_in_bracket(
+            p,
+            sides,
+            |c| outer_expectation(c, df, |x| table.value(x, groups, sides)),
+            low,
+            high,
+        )
+    }
+}
+
+/// Root of `probability(c) - p` starting from the bracket `[low, high]`, widened
+/// geometrically until it brackets the root, then refined by Brent's method.
+fn root_in_bracket<F>(p: f64, sides: Sides, mut probability: F, mut low: f64, mut high: f64) -> Result<f64, StatsError>
+where
+    F: FnMut(f64) -> Result<f64, StatsError>,
+{
+    let mut distance = |c: f64| -> Result<f64, StatsError> {
+        let value = if sides == Sides::Two && c <= 0.0 {
+            0.0
+        } else {
+            probability(c)?
+        };
+        Ok(value - p)
     };
     if sides == Sides::Two {
         low = low.max(0.0);
@@ -523,24 +597,7 @@ fn inner_probability(x: f64, groups: &[LambdaGroup], sides: Sides) -> Result<f64
     if varying.is_empty() || constant == 0.0 {
         return Ok(constant);
     }
-    let mut breakpoints = vec![-Z_LIMIT, 0.0, Z_LIMIT];
-    for group in &varying {
-        if group.step_width < 0.3 {
-            let centre = x / group.lambda;
-            let centres: &[f64] = match sides {
-                Sides::One => &[-centre],
-                Sides::Two => &[-centre, centre],
-            };
-            for &centre in centres {
-                for offset in [-8.0, 0.0, 8.0] {
-                    let point = centre + offset * group.step_width;
-                    if point > -Z_LIMIT && point < Z_LIMIT {
-                        breakpoints.push(point);
-                    }
-                }
-            }
-        }
-    }
+    let breakpoints = inner_breakpoints(x, &varying, sides);
     let integral = integrate_adaptive(
         |z| {
             let mut value = (-0.5 * z * z).exp() * INVERSE_ROOT_TWO_PI;
@@ -558,6 +615,51 @@ fn inner_probability(x: f64, groups: &[LambdaGroup], sides: Sides) -> Result<f64
         "normal integral",
     )?;
     Ok(constant * integral)
+}
+
+/// Initial panels of the integral over `z` at `x = c s`. A factor whose step in `z` is
+/// steep (width `w = sqrt(1 - lambda^2) / lambda < 0.3`) changes from 0 to 1 over a few
+/// widths around `-x / lambda` (and `+x / lambda` when two-sided); such a step could fall
+/// between the nodes of a wide panel, so the stretch `centre +- 8 w` is covered by panels
+/// at most `STEP_PANEL_WIDTHS * w` wide. Overlapping stretches of several lambdas are
+/// merged and spaced by the steepest step among them, so many distinct lambdas with nearby
+/// steps cost little more than one.
+fn inner_breakpoints(x: f64, varying: &[LambdaGroup], sides: Sides) -> Vec<f64> {
+    let mut stretches: Vec<(f64, f64, f64)> = Vec::new();
+    for group in varying {
+        if group.step_width < 0.3 {
+            let centre = x / group.lambda;
+            let centres: &[f64] = match sides {
+                Sides::One => &[-centre],
+                Sides::Two => &[-centre, centre],
+            };
+            for &centre in centres {
+                let reach = 8.0 * group.step_width;
+                let (low, high) = ((centre - reach).max(-Z_LIMIT), (centre + reach).min(Z_LIMIT));
+                if high > low {
+                    stretches.push((low, high, group.step_width));
+                }
+            }
+        }
+    }
+    stretches.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let mut merged: Vec<(f64, f64, f64)> = Vec::new();
+    for stretch in stretches {
+        match merged.last_mut() {
+            Some(last) if stretch.0 <= last.1 => {
+                last.1 = last.1.max(stretch.1);
+                last.2 = last.2.min(stretch.2);
+            }
+            _ => merged.push(stretch),
+        }
+    }
+    let mut breakpoints = vec![-Z_LIMIT, 0.0, Z_LIMIT];
+    for (low, high, width) in merged {
+        let panels = ((high - low) / (STEP_PANEL_WIDTHS * width)).ceil().clamp(1.0, 4096.0) as usize;
+        let spacing = (high - low) / panels as f64;
+        breakpoints.extend((0..=panels).map(|index| low + spacing * index as f64));
+    }
+    breakpoints
 }
 
 /// Logarithm of the density of `u = ln S` at its peak `u = 0`, where `S = chi_df /
@@ -617,7 +719,10 @@ fn outer_breakpoints(df: f64) -> Vec<f64> {
 }
 
 /// `E_S[inner(c S)]` for finite `df`, integrated over `u = ln S`.
-fn outer_expectation(c: f64, groups: &[LambdaGroup], df: f64, sides: Sides) -> Result<f64, StatsError> {
+fn outer_expectation<G>(c: f64, df: f64, mut inner: G) -> Result<f64, StatsError>
+where
+    G: FnMut(f64) -> Result<f64, StatsError>,
+{
     let log_peak = log_density_peak(df);
     integrate_adaptive(
         |u| {
@@ -625,12 +730,169 @@ fn outer_expectation(c: f64, groups: &[LambdaGroup], df: f64, sides: Sides) -> R
             if density == 0.0 {
                 return Ok(0.0);
             }
-            Ok(density * inner_probability(c * u.exp(), groups, sides)?)
+            Ok(density * inner(c * u.exp())?)
         },
         outer_breakpoints(df),
         OUTER_TOLERANCE,
         "chi integral",
     )
+}
+
+/// Width of one panel of the interpolation table of the normal-theory probability.
+const TABLE_PANEL_WIDTH: f64 = 1.0;
+/// Chebyshev points per piece of the interpolation table.
+const TABLE_NODES: usize = 20;
+/// Below this `x` the one-sided normal-theory probability is under `Phi(-8.75)`, 1e-18.
+const TABLE_FLOOR: f64 = -8.75;
+/// A piece of the table is accepted when it matches direct evaluation this closely at two
+/// points between its nodes; otherwise it is halved.
+const TABLE_CHECK: f64 = 1e-13;
+/// Largest number of halvings of a table panel (pieces down to 0.5 / 2^12 wide).
+const TABLE_MAX_DEPTH: u32 = 12;
+
+/// One accepted piece of the table: `[low, low + 2 half]` and its Chebyshev coefficients.
+#[derive(Debug, Clone, Copy)]
+struct TablePiece {
+    low: f64,
+    half: f64,
+    coefficients: [f64; TABLE_NODES],
+}
+
+/// The normal-theory probability `G(x)` of one family as a piecewise Chebyshev
+/// interpolant, panels built on first use (see [`ProductCorrelation::cdf`]).
+#[derive(Debug)]
+struct InnerTable {
+    /// Where the first panel starts: 0 for two sides, `TABLE_FLOOR` for one.
+    start: f64,
+    /// Beyond this `x`, `1 - G(x)` is below 1e-17 (Bonferroni bound on the comparisons).
+    ceiling: f64,
+    /// The pieces of each panel, in order of `x`, once built. A panel is usually one piece;
+    /// where `G` changes quickly (two sides near 0 with lambdas near 1) it is several.
+    panels: Vec<Option<Vec<TablePiece>>>,
+}
+
+impl InnerTable {
+    fn new(n_comparisons: f64, sides: Sides) -> Self {
+        let start = match sides {
+            Sides::One => TABLE_FLOOR,
+            Sides::Two => 0.0,
+        };
+        // 1 - G(x) <= m P(|Z| > x) (two sides) or m P(Z > x) (one side); stop where that
+        // bound is below 1e-17.
+        let mut ceiling = 8.0;
+        while n_comparisons * erfc(ceiling / SQRT_2) >= 1e-17 && ceiling < 40.0 {
+            ceiling += TABLE_PANEL_WIDTH;
+        }
+        let n_panels = ((ceiling - start) / TABLE_PANEL_WIDTH).ceil() as usize;
+        Self {
+            start,
+            ceiling: start + n_panels as f64 * TABLE_PANEL_WIDTH,
+            panels: vec![None; n_panels],
+        }
+    }
+
+    fn value(&mut self, x: f64, groups: &[LambdaGroup], sides: Sides) -> Result<f64, StatsError> {
+        if x <= self.start {
+            // Two sides: no coverage at x <= 0; one side: G(x) <= Phi(x) < 1e-18.
+            return Ok(0.0);
+        }
+        if x >= self.ceiling {
+            return Ok(1.0);
+        }
+        let index = (((x - self.start) / TABLE_PANEL_WIDTH) as usize).min(self.panels.len() - 1);
+        if self.panels[index].is_none() {
+            let low = self.start + index as f64 * TABLE_PANEL_WIDTH;
+            let mut pieces = Vec::with_capacity(1);
+            build_pieces(low, 0.5 * TABLE_PANEL_WIDTH, 0, groups, sides, &mut pieces)?;
+            self.panels[index] = Some(pieces);
+        }
+        let pieces = self.panels[index].as_deref().unwrap_or_default();
+        let position = pieces.partition_point(|piece| piece.low + 2.0 * piece.half <= x);
+        let Some(piece) = pieces.get(position.min(pieces.len().saturating_sub(1))) else {
+            return inner_probability(x, groups, sides);
+        };
+        let middle = piece.low + piece.half;
+        Ok(clenshaw(
+            &piece.coefficients,
+            ((x - middle) / piece.half).clamp(-1.0, 1.0),
+        ))
+    }
+}
+
+/// Interpolates `G` on `[low, low + 2 half]`, checks the interpolant between its nodes and
+/// halves the piece until the check passes (or `TABLE_MAX_DEPTH`), appending the accepted
+/// pieces in order.
+fn build_pieces(
+    low: f64,
+    half: f64,
+    depth: u32,
+    groups: &[LambdaGroup],
+    sides: Sides,
+    pieces: &mut Vec<TablePiece>,
+) -> Result<(), StatsError> {
+    let middle = low + half;
+    let coefficients = chebyshev_coefficients(middle, half, |point| inner_probability(point, groups, sides))?;
+    let mut accepted = depth >= TABLE_MAX_DEPTH;
+    if !accepted {
+        accepted = true;
+        // Two points away from the nodes and from the ends.
+        for t in [-0.613, 0.387] {
+            let direct = inner_probability(middle + half * t, groups, sides)?;
+            if (clenshaw(&coefficients, t) - direct).abs() > TABLE_CHECK {
+                accepted = false;
+                break;
+            }
+        }
+    }
+    if accepted {
+        pieces.push(TablePiece {
+            low,
+            half,
+            coefficients,
+        });
+        Ok(())
+    } else {
+        build_pieces(low, 0.5 * half, depth + 1, groups, sides, pieces)?;
+        build_pieces(middle, 0.5 * half, depth + 1, groups, sides, pieces)
+    }
+}
+
+/// Chebyshev coefficients of the interpolant of `f` at the `TABLE_NODES` Chebyshev points
+/// (first kind) of `[middle - half, middle + half]`, with the first coefficient halved so
+/// that [`clenshaw`] sums them directly.
+fn chebyshev_coefficients<F>(middle: f64, half: f64, mut f: F) -> Result<[f64; TABLE_NODES], StatsError>
+where
+    F: FnMut(f64) -> Result<f64, StatsError>,
+{
+    let n = TABLE_NODES as f64;
+    let mut values = [0.0; TABLE_NODES];
+    for (j, value) in values.iter_mut().enumerate() {
+        let angle = PI * (j as f64 + 0.5) / n;
+        *value = f(middle + half * angle.cos())?;
+    }
+    let mut coefficients = [0.0; TABLE_NODES];
+    for (k, coefficient) in coefficients.iter_mut().enumerate() {
+        let sum: f64 = values
+            .iter()
+            .enumerate()
+            .map(|(j, value)| value * (PI * k as f64 * (j as f64 + 0.5) / n).cos())
+            .sum();
+        *coefficient = 2.0 * sum / n;
+    }
+    coefficients[0] *= 0.5;
+    Ok(coefficients)
+}
+
+/// `sum_k coefficients[k] T_k(t)` by Clenshaw's recurrence.
+fn clenshaw(coefficients: &[f64; TABLE_NODES], t: f64) -> f64 {
+    let mut next = 0.0;
+    let mut after = 0.0;
+    for &coefficient in coefficients.iter().skip(1).rev() {
+        let current = 2.0 * t * next - after + coefficient;
+        after = next;
+        next = current;
+    }
+    coefficients[0] + t * next - after
 }
 
 // ---------------------------------------------------------------------------------------
@@ -1226,5 +1488,63 @@ mod tests {
         let half = 10.0_f64;
         let direct = LN_2 + half * half.ln() - half - ln_gamma(half);
         assert!((log_density_peak(20.0) - direct).abs() < 1e-13);
+    }
+
+    #[test]
+    fn table_matches_direct_evaluation() {
+        // The interpolation table must reproduce the directly integrated normal-theory
+        // probability (itself checked against mpmath above) to well below the 1e-12 of the
+        // probability tests, including lambdas near 1 (fast change near x = 0 with two
+        // sides), many independent comparisons, and the benchmark's 19 unequal lambdas.
+        let benchmark_sizes: Vec<f64> = (1..20).map(|c| 4_760.0 * (f64::from(c) + 1.0)).collect();
+        let families: Vec<(Vec<f64>, Sides)> = vec![
+            (vec![0.999, 0.9999, 0.5], Sides::Two),
+            (vec![0.999, 0.9999, 0.5], Sides::One),
+            (vec![0.0; 99], Sides::Two),
+            (vec![0.0; 99], Sides::One),
+            (dunnett_lambdas(4_760.0, &benchmark_sizes).expect("sizes"), Sides::Two),
+            (vec![HALF_ROOT; 4], Sides::Two),
+        ];
+        for (lambdas, sides) in families {
+            let groups = lambda_groups(&lambdas).expect("lambdas");
+            let mut table = InnerTable::new(lambdas.len() as f64, sides);
+            for step in 0..500 {
+                let x = -9.0 + 20.0 * f64::from(step) / 500.0 + 0.001_23;
+                let direct = if sides == Sides::Two && x <= 0.0 {
+                    0.0
+                } else {
+                    inner_probability(x, &groups, sides).expect("direct")
+                };
+                let tabled = table.value(x, &groups, sides).expect("table");
+                assert!(
+                    (direct - tabled).abs() < 2e-13,
+                    "{} lambdas, {sides:?}, x {x}: table {tabled:e}, direct {direct:e}",
+                    lambdas.len()
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn one_family_gives_the_same_answers_as_single_calls() {
+        // Reusing the table across calls must not change any value beyond its accuracy.
+        let lambdas = unequal_lambdas();
+        let family = ProductCorrelation::new(&lambdas, 12.0, Sides::Two).expect("family");
+        let critical = family.quantile(0.95).expect("quantile");
+        assert_close(
+            critical,
+            product_correlation_quantile(0.95, &lambdas, 12.0, Sides::Two).expect("q"),
+            1e-11,
+            "quantile",
+        );
+        assert_close(family.cdf(critical).expect("cdf"), 0.95, 1e-12, "round trip");
+        for c in [0.3, 1.1, 2.0, 3.7, 9.0] {
+            assert_close(
+                family.cdf(c).expect("cdf"),
+                product_correlation_cdf(c, &lambdas, 12.0, Sides::Two).expect("cdf"),
+                1e-13,
+                "cdf",
+            );
+        }
     }
 }
