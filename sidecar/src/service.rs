@@ -1020,9 +1020,8 @@ pub fn describe_failure(error: &ServiceError) -> FailureReport {
             _ => (vec![whole(message.clone(), "Open the workbook and save a fresh copy.")], false),
         },
         ServiceError::NoTable { reasons, .. } => (
-            reasons
-                .split("; ")
-                .filter(|reason| !reason.is_empty())
+            sheet_reasons(reasons)
+                .into_iter()
                 .map(|reason| {
                     let place = reason
                         .strip_prefix("sheet '")
@@ -1031,7 +1030,7 @@ pub fn describe_failure(error: &ServiceError) -> FailureReport {
                         .unwrap_or_default();
                     Problem {
                         place,
-                        what: reason.to_string(),
+                        what: reason,
                         fix: "Put the trial table on one sheet with a single header row: a column naming the condition of each run and at least one column of measured numbers (or one column per condition). To point at it, add a 'trialyst settings' sheet with 'sheet' or 'range'.".into(),
                     }
                 })
@@ -1039,15 +1038,11 @@ pub fn describe_failure(error: &ServiceError) -> FailureReport {
             false,
         ),
         ServiceError::NothingAnalysable { reasons, findings, .. } => {
-            let mut problems: Vec<Problem> = reasons
-                .split("; ")
-                .filter(|reason| !reason.is_empty())
-                .map(|reason| Problem {
-                    place: String::new(),
-                    what: reason.to_string(),
-                    fix: "Each response needs numbers for at least two conditions, with at least one condition holding two or more values.".into(),
-                })
-                .collect();
+            let mut problems = vec![Problem {
+                place: String::new(),
+                what: reasons.clone(),
+                fix: "Each response needs numbers for at least two conditions, with at least one condition holding two or more values.".into(),
+            }];
             problems.extend(findings.iter().map(|finding| Problem {
                 place: finding.place(),
                 what: finding.message.clone(),
@@ -1070,6 +1065,22 @@ pub fn describe_failure(error: &ServiceError) -> FailureReport {
         problems,
         maybe_incomplete,
     }
+}
+
+/// Splits the joined reasons of a failed table search into one per sheet
+/// (a sheet's own reason may hold "; " too).
+fn sheet_reasons(reasons: &str) -> Vec<String> {
+    let mut out: Vec<String> = Vec::new();
+    for piece in reasons.split("; ").filter(|piece| !piece.is_empty()) {
+        match out.last_mut() {
+            Some(last) if !piece.starts_with("sheet '") => {
+                last.push_str("; ");
+                last.push_str(piece);
+            }
+            _ => out.push(piece.to_string()),
+        }
+    }
+    out
 }
 
 /// Where the problems workbook for `source` goes: beside it, or in `out_dir`.
@@ -1101,6 +1112,35 @@ pub fn output_folder_for(source: &Path, command_line: Option<&Path>, settings: &
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn failures_are_described_with_their_places() {
+        let error = ServiceError::NoTable {
+            path: PathBuf::from("w.xlsx"),
+            reasons: "sheet 'Notes': no trial table found; looked for a header row; sheet 'Runs': no column headed 'Gloss' in the header row 1 (headers: Oven, Haze)".into(),
+        };
+        let report = describe_failure(&error);
+        assert_eq!(report.problems.len(), 2, "{report:?}");
+        assert_eq!(report.problems[0].place, "Notes");
+        assert!(report.problems[0].what.ends_with("looked for a header row"));
+        assert_eq!(report.problems[1].place, "Runs");
+        assert!(!report.maybe_incomplete);
+        let error = ServiceError::NothingAnalysable {
+            path: PathBuf::from("w.xlsx"),
+            reasons: "only 1 condition(s) have values for 'Gloss'; at least two are needed".into(),
+            findings: vec![Finding {
+                kind: FindingKind::TextInNumbers,
+                sheet: "Runs".into(),
+                cell: Some("B3".into()),
+                found: "n/a".into(),
+                action: "left out".into(),
+                message: "the cell holds text where a number belongs".into(),
+            }],
+        };
+        let report = describe_failure(&error);
+        assert_eq!(report.problems.len(), 2);
+        assert_eq!(report.problems[1].place, "Runs!B3");
+    }
 
     #[test]
     fn units_and_names() {
