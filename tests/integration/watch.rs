@@ -353,6 +353,11 @@ fn the_same_content_is_analysed_once_and_changed_content_again() {
     assert_eq!(log.matches("analysed line 3.xlsx").count(), 2, "{log}");
     let state = std::fs::read_to_string(setup.folder.join(".trialyst/state.json")).expect("a state file");
     assert!(state.contains(&sha256_of(&changed)), "{state}");
+    // Deleting the results file and dropping the same content again asks for a new analysis.
+    std::fs::remove_file(setup.folder.join("line 3.results.xlsx")).expect("removed");
+    std::fs::copy(&changed, &dropped).expect("the same content again");
+    watching.wait_for_log("analysed line 3.xlsx", 3);
+    assert!(setup.folder.join("line 3.results.xlsx").is_file());
 }
 
 #[test]

@@ -538,7 +538,7 @@ impl Watcher {
             .state
             .files
             .get(&relative)
-            .is_some_and(|entry| entry.sha256 == sha256)
+            .is_some_and(|entry| self.done(entry, &sha256))
         {
             self.log.event("skipped", &relative, "unchanged since it was analysed");
             return;
@@ -572,7 +572,7 @@ impl Watcher {
             .state
             .files
             .get(&relative)
-            .is_some_and(|entry| entry.sha256 == sha256)
+            .is_some_and(|entry| self.done(entry, &sha256))
         {
             self.log.event("skipped", &relative, "unchanged since it was analysed");
             return;
@@ -589,13 +589,19 @@ impl Watcher {
             &self.analysis,
         );
         let outcome = run_worker(&self.program, &args, self.limits, &self.stop);
+        let folder = self.folder.clone();
         let record = |outcome: &str, output: &Path| Entry {
             sha256: sha256.clone(),
             bytes,
             modified_ns: before.1,
             outcome: outcome.to_string(),
             at: service::now_rfc3339(),
-            output: output.display().to_string(),
+            // Relative to the watched folder when inside it, so that watchers
+            // that mount the share at different places agree.
+            output: output
+                .strip_prefix(&folder)
+                .map(|inside| inside.to_string_lossy().replace('\\', "/"))
+                .unwrap_or_else(|_| output.display().to_string()),
         };
         match outcome {
             WorkerOutcome::Answered(WorkerMessage::Analysed {
@@ -671,6 +677,12 @@ impl Watcher {
             }
         }
         drop(claim);
+    }
+
+    /// True when `entry` records this content as handled and its output is still there
+    /// (a deleted results or problems file asks for the workbook to be analysed again).
+    fn done(&self, entry: &Entry, sha256: &str) -> bool {
+        entry.sha256 == sha256 && (entry.output.is_empty() || self.folder.join(&entry.output).exists())
     }
 
     fn shown(&self, path: &Path) -> String {
