@@ -10,7 +10,7 @@ use std::path::{Path, PathBuf};
 use clap::{Args, Parser, Subcommand};
 use workbook_io::layout::Layout;
 
-use crate::service::{self, AnalysisRequest, WorkbookResults};
+use crate::service::{self, AnalysisRequest};
 use crate::settings::{parse_confidence, parse_direction, Settings};
 
 /// Exit code when every workbook was analysed.
@@ -40,6 +40,11 @@ pub enum Command {
     Plan(PlanArgs),
     /// Power and sample size for the next trial.
     Size(SizeArgs),
+    /// Watch a folder: analyse each workbook dropped into it, once per content.
+    Watch(WatchArgs),
+    /// The watcher's isolated worker (not for direct use).
+    #[command(name = "__analyse-one", hide = true)]
+    AnalyseOne(AnalyseOneArgs),
     /// Answer a spreadsheet add-in or editor over JSON-RPC (Language Server Protocol framing) on stdio.
     Serve(ServeArgs),
 }
@@ -199,9 +204,76 @@ pub struct RunArgs {
     /// Workbooks analysed at once (default: the number of cores).
     #[arg(long)]
     pub jobs: Option<usize>,
+    /// Write a roll-up workbook: one row per workbook and response, and a chart of the verdicts.
+    #[arg(long, value_name = "FILE")]
+    pub rollup: Option<PathBuf>,
     /// Table options.
     #[command(flatten)]
     pub table: TableArgs,
+}
+
+/// `trialyst watch`.
+#[derive(Debug, Args, Clone)]
+pub struct WatchArgs {
+    /// The folder to watch.
+    pub folder: PathBuf,
+    /// Watch sub-folders too.
+    #[arg(long)]
+    pub recursive: bool,
+    /// Look for changes every SECONDS instead of listening for them (network shares).
+    #[arg(long, value_name = "SECONDS")]
+    pub poll: Option<f64>,
+    /// Append the log lines to this file too.
+    #[arg(long, value_name = "FILE")]
+    pub log: Option<PathBuf>,
+    /// Folder for the results workbooks (default: the output folder setting, or beside each original).
+    #[arg(long)]
+    pub out_dir: Option<PathBuf>,
+    /// Memory a workbook's reader may use, in MiB.
+    #[arg(long, value_name = "MIB", default_value_t = 2048)]
+    pub memory_limit: u64,
+    /// Time a workbook's analysis may take, in seconds.
+    #[arg(long, value_name = "SECONDS", default_value_t = 120.0)]
+    pub time_limit: f64,
+    /// Minutes after which another watcher's claim on a workbook counts as abandoned.
+    #[arg(long, value_name = "MINUTES", default_value_t = 10.0)]
+    pub claim_expiry: f64,
+    /// Analysis options passed to every workbook.
+    #[command(flatten)]
+    pub analysis: AnalysisArgs,
+}
+
+/// Analysis options shared by `watch` and its worker.
+#[derive(Debug, Args, Clone, Default)]
+pub struct AnalysisArgs {
+    /// Confidence level for intervals and tests: 0.95, 95 or 95%.
+    #[arg(long)]
+    pub confidence: Option<String>,
+    /// A linear combination of condition means; repeatable.
+    #[arg(long)]
+    pub contrast: Vec<String>,
+    /// Which way the response is better: higher, lower, or "target 12.5".
+    #[arg(long)]
+    pub direction: Option<String>,
+    /// Table options.
+    #[command(flatten)]
+    pub table: TableArgs,
+}
+
+/// The watcher's worker: analyses one workbook in a child process.
+#[derive(Debug, Args)]
+pub struct AnalyseOneArgs {
+    /// The workbook.
+    pub file: PathBuf,
+    /// Folder for the results workbook given on the watcher's command line.
+    #[arg(long)]
+    pub out_dir: Option<PathBuf>,
+    /// The folder settings file to apply.
+    #[arg(long)]
+    pub folder_settings: Option<PathBuf>,
+    /// Analysis options.
+    #[command(flatten)]
+    pub analysis: AnalysisArgs,
 }
 
 /// `trialyst inspect`.
@@ -245,6 +317,20 @@ fn table_settings(table: &TableArgs) -> Result<Settings, UsageError> {
 }
 
 fn run_settings(args: &RunArgs) -> Result<Settings, UsageError> {
+    analysis_settings(&AnalysisArgs {
+        confidence: args.confidence.clone(),
+        contrast: args.contrast.clone(),
+        direction: args.direction.clone(),
+        table: args.table.clone(),
+    })
+}
+
+/// The settings given by analysis options on the command line.
+///
+/// # Errors
+///
+/// [`UsageError`] naming the option.
+pub fn analysis_settings(args: &AnalysisArgs) -> Result<Settings, UsageError> {
     let mut settings = table_settings(&args.table)?;
     if let Some(text) = &args.confidence {
         settings.confidence = Some(parse_confidence(text).ok_or_else(|| {
@@ -306,29 +392,7 @@ fn scan_folder(folder: &Path, recursive: bool, found: &mut Vec<PathBuf>, problem
     }
 }
 
-/// The outcome of one workbook in a run.
-pub enum RunOutcome {
-    /// Analysed; results written to the path, if writing was asked for.
-    Analysed(Box<WorkbookResults>, Option<PathBuf>),
-    /// Failed, with the cause chain on one line.
-    Failed(String),
-}
-
-/// Analyses one workbook and writes its results workbook.
-pub fn run_one(path: &Path, request: &AnalysisRequest, out_dir: Option<&Path>, write: bool) -> RunOutcome {
-    let results = match service::analyse_workbook(path, request) {
-        Ok(results) => results,
-        Err(error) => return RunOutcome::Failed(error_chain(&error)),
-    };
-    if !write {
-        return RunOutcome::Analysed(Box::new(results), None);
-    }
-    let destination = service::results_path_for(path, out_dir);
-    match service::write_results(&results, &destination) {
-        Ok(()) => RunOutcome::Analysed(Box::new(results), Some(destination)),
-        Err(error) => RunOutcome::Failed(error_chain(&error)),
-    }
-}
+pub use crate::batch::{run_one, run_parallel, RunOutcome};
 
 /// An error and all its sources on one line, joined by ": ".
 pub fn error_chain(error: &dyn std::error::Error) -> String {
@@ -345,7 +409,7 @@ pub fn error_chain(error: &dyn std::error::Error) -> String {
     text
 }
 
-fn json_line(path: &Path, outcome: &RunOutcome) -> String {
+pub(crate) fn json_line(path: &Path, outcome: &RunOutcome) -> String {
     let value = match outcome {
         RunOutcome::Analysed(results, written) => {
             let mut value = serde_json::to_value(results.as_ref()).unwrap_or(serde_json::Value::Null);
@@ -371,7 +435,7 @@ fn json_line(path: &Path, outcome: &RunOutcome) -> String {
     serde_json::to_string(&value).unwrap_or_default()
 }
 
-fn human_line(path: &Path, outcome: &RunOutcome) -> String {
+pub(crate) fn human_line(path: &Path, outcome: &RunOutcome) -> String {
     match outcome {
         RunOutcome::Analysed(results, written) => {
             let verdicts: Vec<String> = results
@@ -402,6 +466,8 @@ pub fn main_with(cli: Cli) -> i32 {
     match cli.command {
         Command::Run(args) => run_command(args),
         Command::Inspect(args) => inspect_command(args),
+        Command::Watch(args) => crate::watch::watch_command(args),
+        Command::AnalyseOne(args) => crate::watch::worker::analyse_one_command(args),
         Command::Plan(args) => plan_command(args),
         Command::Size(args) => size_command(args),
         Command::Serve(args) => {
@@ -434,90 +500,19 @@ fn run_command(args: RunArgs) -> i32 {
             return EXIT_USAGE;
         }
     }
-    let (workbooks, problems) = collect_workbooks(&args.paths, args.recursive);
-    let request = AnalysisRequest {
-        settings,
-        ..AnalysisRequest::default()
-    };
     let jobs = args
         .jobs
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
         .max(1);
-    let outcomes = run_parallel(&workbooks, &request, args.out_dir.as_deref(), !args.no_write, jobs);
-
-    let stdout = std::io::stdout();
-    let mut out = stdout.lock();
-    let mut failed = problems.len();
-    for (path, message) in &problems {
-        if args.json {
-            let _ = writeln!(out, "{}", json_line(path, &RunOutcome::Failed(message.clone())));
-        } else {
-            eprintln!("failed {}: {message}", path.display());
-        }
-    }
-    let mut analysed = 0;
-    for (path, outcome) in workbooks.iter().zip(&outcomes) {
-        match outcome {
-            RunOutcome::Analysed(..) => analysed += 1,
-            RunOutcome::Failed(_) => failed += 1,
-        }
-        if args.json {
-            let _ = writeln!(out, "{}", json_line(path, outcome));
-        } else if matches!(outcome, RunOutcome::Failed(_)) {
-            eprintln!("{}", human_line(path, outcome));
-        } else {
-            let _ = writeln!(out, "{}", human_line(path, outcome));
-        }
-    }
-    eprintln!("trialyst: {analysed} analysed, {failed} failed");
-    if workbooks.is_empty() && problems.is_empty() {
-        eprintln!("trialyst: no workbooks found in the paths given");
-        return EXIT_SOME_FAILED;
-    }
-    if failed > 0 {
-        EXIT_SOME_FAILED
-    } else {
-        EXIT_OK
-    }
-}
-
-/// Analyses workbooks on `jobs` threads; outcomes come back in input order.
-pub fn run_parallel(
-    workbooks: &[PathBuf],
-    request: &AnalysisRequest,
-    out_dir: Option<&Path>,
-    write: bool,
-    jobs: usize,
-) -> Vec<RunOutcome> {
-    let next = std::sync::atomic::AtomicUsize::new(0);
-    let slots: Vec<std::sync::Mutex<Option<RunOutcome>>> =
-        workbooks.iter().map(|_| std::sync::Mutex::new(None)).collect();
-    std::thread::scope(|scope| {
-        for _ in 0..jobs.min(workbooks.len().max(1)) {
-            scope.spawn(|| loop {
-                let index = next.fetch_add(1, std::sync::atomic::Ordering::SeqCst);
-                if index >= workbooks.len() {
-                    break;
-                }
-                let outcome = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-                    run_one(&workbooks[index], request, out_dir, write)
-                }))
-                .unwrap_or_else(|_| RunOutcome::Failed("internal error while analysing; please report it".into()));
-                if let Ok(mut slot) = slots[index].lock() {
-                    *slot = Some(outcome);
-                }
-            });
-        }
-    });
-    slots
-        .into_iter()
-        .map(|slot| {
-            slot.into_inner()
-                .ok()
-                .flatten()
-                .unwrap_or_else(|| RunOutcome::Failed("not analysed".into()))
-        })
-        .collect()
+    let options = crate::batch::BatchOptions {
+        settings,
+        out_dir: args.out_dir.as_deref(),
+        write: !args.no_write,
+        jobs,
+        json: args.json,
+        rollup: args.rollup.as_deref(),
+    };
+    crate::batch::run_batch(&args.paths, args.recursive, &options)
 }
 
 fn inspect_command(args: InspectArgs) -> i32 {

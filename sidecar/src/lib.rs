@@ -5,10 +5,13 @@
 //! ([`lsp`]) are glue over the service.
 
 pub mod analysis;
+pub mod batch;
 pub mod cli;
+pub mod folder_settings;
 pub mod lsp;
 pub mod plan;
 pub mod report;
 pub mod service;
 pub mod settings;
 pub mod stats;
+pub mod watch;

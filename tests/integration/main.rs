@@ -4,6 +4,7 @@
 //! command-line tests run the real program, built from `sidecar/src/main.rs`
 //! as this package's `trialyst-under-test` binary (see tests/Cargo.toml for why).
 
+mod batch;
 mod cli;
 mod common;
 mod factorial;
@@ -12,3 +13,4 @@ mod hostile;
 mod lsp;
 mod nist;
 mod plan;
+mod watch;

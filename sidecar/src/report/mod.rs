@@ -6,6 +6,8 @@
 
 pub mod assessment;
 pub mod factorial;
+pub mod problems;
+pub mod rollup;
 
 use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
 

@@ -1,0 +1,229 @@
+//! The folder settings file, `trialyst.toml`, in a watched or batch folder.
+//!
+//! It holds defaults for every workbook of the folder, with the same keys as
+//! a workbook's settings sheet ([`crate::settings::KNOWN_KEYS`]); in TOML a
+//! key with a space is quoted or written with `_` or `-`:
+//!
+//! ```toml
+//! confidence = 0.90            # or "90%"
+//! direction = "lower"          # higher, lower, "target 12.5"
+//! family_confidence = "95%"
+//! control = "Current recipe"
+//! contrast = ["new vs old: (A + B)/2 - C"]
+//! output_folder = "results"    # relative to each workbook's folder
+//! ```
+//!
+//! Precedence: the command line, then the workbook's settings sheet, then
+//! this file, then the built-in defaults. A bad file is an error naming the
+//! file, the key and the line; nothing is analysed with a half-read file.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+use toml::Spanned;
+
+use crate::settings::{Settings, SettingsError};
+
+/// The file name looked for in a folder.
+pub const FOLDER_SETTINGS_FILE: &str = "trialyst.toml";
+
+/// Why a folder settings file could not be used.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum FolderSettingsError {
+    /// The file exists but cannot be read.
+    #[error("cannot read the folder settings file '{file}': {message}")]
+    Unreadable {
+        /// The file.
+        file: String,
+        /// The system's message.
+        message: String,
+    },
+    /// Not valid TOML.
+    #[error("the folder settings file {file} is not valid TOML: {message}")]
+    Syntax {
+        /// The file.
+        file: String,
+        /// The parser's message, with the line.
+        message: String,
+    },
+    /// A key or value that is not one of ours.
+    #[error("the folder settings file {0}")]
+    Setting(SettingsError),
+    /// A value of a kind the key cannot take.
+    #[error("the folder settings file {file}, line {line}: '{key}' {rule}")]
+    BadKind {
+        /// The file.
+        file: String,
+        /// The line, from 1.
+        line: usize,
+        /// The key.
+        key: String,
+        /// What is accepted.
+        rule: String,
+    },
+}
+
+fn line_of(text: &str, offset: usize) -> usize {
+    text[..offset.min(text.len())]
+        .bytes()
+        .filter(|byte| *byte == b'\n')
+        .count()
+        + 1
+}
+
+fn scalar_text(value: &toml::Value) -> Option<String> {
+    match value {
+        toml::Value::String(text) => Some(text.clone()),
+        toml::Value::Integer(number) => Some(number.to_string()),
+        toml::Value::Float(number) if number.is_finite() => Some(format!("{number}")),
+        _ => None,
+    }
+}
+
+/// Keys whose value is a list (an array joins into the comma-separated form).
+const LIST_KEYS: &[&str] = &["response", "responses", "factor", "factors", "block", "blocks"];
+
+/// Reads folder settings from TOML text; `file` names it in messages.
+///
+/// # Errors
+///
+/// [`FolderSettingsError`] naming the key and line of the first problem.
+pub fn parse_folder_settings(text: &str, file: &str) -> Result<Settings, FolderSettingsError> {
+    let raw: BTreeMap<Spanned<String>, Spanned<toml::Value>> =
+        toml::from_str(text).map_err(|error| FolderSettingsError::Syntax {
+            file: file.to_string(),
+            message: match error.span() {
+                Some(span) => format!("line {}: {}", line_of(text, span.start), error.message().trim()),
+                None => error.message().trim().to_string(),
+            },
+        })?;
+    // Keys in the order written, so that the first problem reported is the first in the file.
+    let mut entries: Vec<(&Spanned<String>, &Spanned<toml::Value>)> = raw.iter().collect();
+    entries.sort_by_key(|(key, _)| key.span().start);
+    let mut pairs: Vec<(String, String, String)> = Vec::new();
+    for (key, value) in entries {
+        let line = line_of(text, key.span().start);
+        let normal = key.get_ref().trim().to_lowercase().replace(['_', '-'], " ");
+        let bad = |rule: &str| FolderSettingsError::BadKind {
+            file: file.to_string(),
+            line,
+            key: key.get_ref().clone(),
+            rule: rule.to_string(),
+        };
+        let place = format!("{file}, line {line}");
+        match value.get_ref() {
+            toml::Value::Array(items) => {
+                let mut texts = Vec::new();
+                for item in items {
+                    texts.push(scalar_text(item).ok_or_else(|| bad("must hold text or numbers"))?);
+                }
+                if normal == "contrast" || normal == "contrasts" {
+                    for item in texts {
+                        pairs.push((key.get_ref().clone(), item, place.clone()));
+                    }
+                } else if LIST_KEYS.contains(&normal.as_str()) {
+                    pairs.push((key.get_ref().clone(), texts.join(", "), place));
+                } else if crate::settings::KNOWN_KEYS.contains(&normal.as_str()) {
+                    return Err(bad("takes one value, not a list"));
+                } else {
+                    pairs.push((key.get_ref().clone(), String::new(), place));
+                }
+            }
+            toml::Value::Table(_) => return Err(bad("must be a value, not a table of keys")),
+            toml::Value::Boolean(_) | toml::Value::Datetime(_) => {
+                if crate::settings::KNOWN_KEYS.contains(&normal.as_str()) {
+                    return Err(bad("must be text or a number"));
+                }
+                pairs.push((key.get_ref().clone(), String::new(), place));
+            }
+            other => {
+                let text = scalar_text(other).ok_or_else(|| bad("must be a finite number or text"))?;
+                pairs.push((key.get_ref().clone(), text, place));
+            }
+        }
+    }
+    Settings::from_pairs(
+        pairs
+            .iter()
+            .map(|(key, value, place)| (key.as_str(), value.as_str(), place.clone())),
+    )
+    .map_err(FolderSettingsError::Setting)
+}
+
+/// The settings file of a folder, if there is one.
+pub fn settings_file_in(folder: &Path) -> Option<PathBuf> {
+    let path = folder.join(FOLDER_SETTINGS_FILE);
+    path.is_file().then_some(path)
+}
+
+/// Reads the settings file of `folder`: `Ok(None)` when it has none.
+///
+/// # Errors
+///
+/// [`FolderSettingsError`] when the file exists but cannot be used.
+pub fn read_folder_settings(folder: &Path) -> Result<Option<Settings>, FolderSettingsError> {
+    let Some(path) = settings_file_in(folder) else {
+        return Ok(None);
+    };
+    let text = std::fs::read_to_string(&path).map_err(|error| FolderSettingsError::Unreadable {
+        file: path.display().to_string(),
+        message: error.to_string(),
+    })?;
+    parse_folder_settings(&text, &path.display().to_string()).map(Some)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::settings::Direction;
+
+    #[test]
+    fn reads_every_kind_of_value() {
+        let text = r#"
+# defaults for the coating line
+confidence = 0.9
+"family confidence" = "99%"
+direction = "lower"
+control = "Current"
+contrast = ["new vs old: A - B", "C - B"]
+response = ["Gloss", "Haze"]
+output_folder = "results"
+interaction-order = 2
+"#;
+        let settings = parse_folder_settings(text, "trialyst.toml").expect("a good file");
+        assert_eq!(settings.confidence, Some(0.9));
+        assert_eq!(settings.family_confidence, Some(0.99));
+        assert_eq!(settings.direction, Some(Direction::LowerIsBetter));
+        assert_eq!(settings.control.as_deref(), Some("Current"));
+        assert_eq!(settings.contrasts, vec!["new vs old: A - B", "C - B"]);
+        assert_eq!(settings.responses, vec!["Gloss", "Haze"]);
+        assert_eq!(settings.out_dir.as_deref(), Some("results"));
+        assert_eq!(settings.interaction_order, Some(2));
+    }
+
+    #[test]
+    fn errors_name_key_and_line() {
+        let unknown = parse_folder_settings("confidence = 0.9\n\ncolour = \"blue\"\n", "f.toml").unwrap_err();
+        let text = unknown.to_string();
+        assert!(text.contains("line 3") && text.contains("colour"), "{text}");
+
+        let bad_value = parse_folder_settings("direction = \"sideways\"\n", "f.toml").unwrap_err();
+        let text = bad_value.to_string();
+        assert!(
+            text.contains("line 1") && text.contains("direction") && text.contains("sideways"),
+            "{text}"
+        );
+
+        let bad_kind = parse_folder_settings("\nconfidence = true\n", "f.toml").unwrap_err();
+        let text = bad_kind.to_string();
+        assert!(text.contains("line 2") && text.contains("confidence"), "{text}");
+
+        let list = parse_folder_settings("control = [\"A\", \"B\"]\n", "f.toml").unwrap_err();
+        assert!(list.to_string().contains("one value"), "{list}");
+
+        let syntax = parse_folder_settings("confidence = \n", "f.toml").unwrap_err();
+        let text = syntax.to_string();
+        assert!(text.contains("line 1") && text.contains("f.toml"), "{text}");
+    }
+}
