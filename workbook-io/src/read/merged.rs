@@ -86,7 +86,7 @@ fn part_text<R: Read + Seek>(archive: &mut zip::ZipArchive<R>, name: &str) -> Op
 }
 
 /// The zip path of the worksheet named `sheet`, from the workbook part and its relationships.
-fn sheet_part_path<R: Read + Seek>(archive: &mut zip::ZipArchive<R>, sheet: &str) -> Option<String> {
+pub(crate) fn sheet_part_path<R: Read + Seek>(archive: &mut zip::ZipArchive<R>, sheet: &str) -> Option<String> {
     let workbook = part_text(archive, "xl/workbook.xml")?;
     let mut relationship_id = None;
     scan_tags(workbook.as_bytes(), b"sheet", |tag| {

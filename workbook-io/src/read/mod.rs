@@ -9,6 +9,9 @@
 
 mod guard;
 mod merged;
+mod sheet_xml;
+#[cfg(test)]
+mod sheet_xml_tests;
 
 use std::collections::HashMap;
 use std::fs::File;
@@ -237,6 +240,12 @@ impl GridBuilder {
             max_cells,
             sorted: true,
         }
+    }
+
+    /// Room for `cells` more cells (a hint; the cell cap still applies).
+    fn reserve(&mut self, cells: u64) {
+        let cells = cells.min(self.max_cells.saturating_add(1)).min(1 << 26);
+        self.grid.cells.reserve(cells as usize);
     }
 
     fn intern(&mut self, text: &str) -> u32 {
@@ -525,7 +534,14 @@ impl Workbook {
     /// [`ReadError::SheetNotFound`], [`ReadError::TooManyCells`],
     /// [`ReadError::Corrupt`] when the sheet's part is damaged.
     pub fn read_sheet(&mut self, sheet: &str, window: Option<CellRect>) -> Result<SheetGrid, ReadError> {
+        self.read_sheet_by(sheet, window, true)
+    }
+
+    /// [`Workbook::read_sheet`], with the direct xlsx reader ([`sheet_xml`])
+    /// tried first when `direct` is set, else calamine's reader only.
+    fn read_sheet_by(&mut self, sheet: &str, window: Option<CellRect>, direct: bool) -> Result<SheetGrid, ReadError> {
         self.check_sheet(sheet)?;
+        let max_entry_bytes = self.limits.max_entry_bytes;
         let path = self.path.clone();
         let max_cells = self.limits.max_cells;
         let corrupt = |detail: String| ReadError::Corrupt {
@@ -538,6 +554,16 @@ impl Workbook {
         let outcome = catch_unwind(AssertUnwindSafe(|| -> Result<bool, String> {
             match &mut self.inner {
                 Sheets::Xlsx(xlsx) => {
+                    if direct {
+                        match sheet_xml::read_sheet(&path, sheet, max_entry_bytes, &mut builder) {
+                            Ok(fast) => {
+                                skimmed_merged = Some(fast.merged);
+                                return Ok(true);
+                            }
+                            Err(sheet_xml::Stop::TooManyCells) => return Ok(false),
+                            Err(sheet_xml::Stop::Decline) => builder = GridBuilder::new(sheet, window, max_cells),
+                        }
+                    }
                     let mut reader = xlsx.worksheet_cells_reader(sheet).map_err(|error| error.to_string())?;
                     while let Some(cell) = reader.next_cell().map_err(|error| error.to_string())? {
                         let (row, col) = cell.get_position();
