@@ -422,6 +422,9 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
         })
         .collect();
     let mut label_sets: Vec<HashMap<String, ()>> = vec![HashMap::new(); columns.len()];
+    // Text indices whose label is already in each column's set: a label is
+    // trimmed, copied and hashed once per distinct text, not once per cell.
+    let mut counted: Vec<Vec<bool>> = vec![Vec::new(); columns.len()];
     for (pos, value) in data_cells {
         let Some(&index) = col_index.get(&pos.col) else {
             continue;
@@ -438,8 +441,17 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
             }
             CellValue::Text(text_index) => {
                 counts.texts += 1;
-                if label_sets[index].len() <= 10_000 {
+                let seen = &mut counted[index];
+                if seen.is_empty() {
+                    seen.resize(grid.strings.len(), false);
+                }
+                let slot = *text_index as usize;
+                let known = seen.get(slot).copied().unwrap_or(false);
+                if !known && label_sets[index].len() <= 10_000 {
                     label_sets[index].insert(grid.text(*text_index).trim().to_string(), ());
+                    if let Some(flag) = seen.get_mut(slot) {
+                        *flag = true;
+                    }
                 }
             }
             CellValue::Bool(_) => counts.booleans += 1,
@@ -759,6 +771,11 @@ fn build_long(
         })
         .collect();
     let mut level_maps: Vec<HashMap<String, u32>> = vec![HashMap::new(); factors.len()];
+    // Each factor's level by text index, found once per distinct text
+    // (`NO_LEVEL`: not looked up yet, `BLANK`: the text is blank).
+    const NO_LEVEL: u32 = u32::MAX;
+    const BLANK: u32 = u32::MAX - 1;
+    let mut level_of_text: Vec<Vec<u32>> = vec![vec![NO_LEVEL; grid.strings.len()]; factors.len()];
     let mut responses: Vec<Response> = response_columns
         .iter()
         .map(|&index| Response {
@@ -790,11 +807,32 @@ fn build_long(
             continue;
         }
         // Every factor needs a label.
-        let mut labels = Vec::with_capacity(factor_cols.len());
+        // A label is a known level, or a text whose level is settled once the
+        // whole row is known to be kept.
+        let mut labels: Vec<(Option<u32>, Option<String>)> = Vec::with_capacity(factor_cols.len());
         let mut blank_label = None;
         for (index, slot) in row_labels.iter().enumerate() {
-            match slot.and_then(|value| label_text(grid, value)) {
-                Some(text) => labels.push(text),
+            let cached = match slot {
+                Some(CellValue::Text(text_index)) => level_of_text[index].get(*text_index as usize).copied(),
+                _ => None,
+            };
+            let label = match cached {
+                Some(BLANK) => None,
+                Some(level) if level != NO_LEVEL => Some((Some(level), None)),
+                _ => match slot.and_then(|value| label_text(grid, value)) {
+                    Some(text) => Some((None, Some(text))),
+                    None => {
+                        if let Some(CellValue::Text(text_index)) = slot {
+                            if let Some(entry) = level_of_text[index].get_mut(*text_index as usize) {
+                                *entry = BLANK;
+                            }
+                        }
+                        None
+                    }
+                },
+            };
+            match label {
+                Some(label) => labels.push(label),
                 None => {
                     blank_label = Some((index, *slot));
                     break;
@@ -824,12 +862,24 @@ fn build_long(
             }
             continue;
         }
-        for (index, text) in labels.into_iter().enumerate() {
-            let next = level_maps[index].len() as u32;
-            let level = *level_maps[index].entry(text.clone()).or_insert_with(|| {
-                factors[index].levels.push(text);
-                next
-            });
+        for (index, (known, text)) in labels.into_iter().enumerate() {
+            let level = match (known, text) {
+                (Some(level), _) => level,
+                (None, text) => {
+                    let text = text.unwrap_or_default();
+                    let next = level_maps[index].len() as u32;
+                    let level = *level_maps[index].entry(text.clone()).or_insert_with(|| {
+                        factors[index].levels.push(text);
+                        next
+                    });
+                    if let Some(CellValue::Text(text_index)) = row_labels[index] {
+                        if let Some(entry) = level_of_text[index].get_mut(text_index as usize) {
+                            *entry = level;
+                        }
+                    }
+                    level
+                }
+            };
             factors[index].level_of_record.push(level);
         }
         for (index, slot) in row_values.iter().enumerate() {
