@@ -54,7 +54,9 @@ const CONDITIONS: [&str; 8] = [
 
 fn main() {
     let args: Vec<String> = std::env::args().collect();
-    if let Some(mode @ ("--stream-only" | "--inflate-only" | "--scan-only")) = args.get(1).map(String::as_str) {
+    if let Some(mode @ ("--stream-only" | "--inflate-only" | "--scan-only" | "--read-only")) =
+        args.get(1).map(String::as_str)
+    {
         let Some(path) = args.get(2) else {
             eprintln!("bench_run {mode} FILE");
             std::process::exit(2);
@@ -63,6 +65,7 @@ fn main() {
         std::process::exit(match mode {
             "--stream-only" => stream_only(path),
             "--inflate-only" => inflate_only(path, false),
+            "--read-only" => read_only(path),
             _ => inflate_only(path, true),
         });
     }
@@ -129,6 +132,8 @@ fn main() {
     println!("{}", scan.line("scan (inflate + one pass counting '<c ')"));
     let stream = measure(Command::new(&exe).arg("--stream-only").arg(&path));
     println!("{}", stream.line("streaming read (calamine cells reader)"));
+    let read = measure(Command::new(&exe).arg("--read-only").arg(&path));
+    println!("{}", read.line("our read (open the workbook, read the sheet into its grid)"));
 
     let profile_dir = exe
         .parent()
@@ -294,6 +299,32 @@ fn stream_only(path: &Path) -> i32 {
     }
     println!("{cells} cells");
     0
+}
+
+/// Opens the workbook and reads its first sheet as the run does, nothing else.
+fn read_only(path: &Path) -> i32 {
+    let limits = workbook_io::ReadLimits::default();
+    let mut workbook = match workbook_io::open_workbook(path, &limits) {
+        Ok(workbook) => workbook,
+        Err(error) => {
+            eprintln!("{error}");
+            return 1;
+        }
+    };
+    let Some(sheet) = workbook.sheets().first().map(|info| info.name.clone()) else {
+        eprintln!("no sheet");
+        return 1;
+    };
+    match workbook.read_sheet(&sheet, None) {
+        Ok(grid) => {
+            println!("{} cells", grid.cells.len());
+            0
+        }
+        Err(error) => {
+            eprintln!("{error}");
+            1
+        }
+    }
 }
 
 /// Inflates the first worksheet's XML entry into a sink, nothing else; with

@@ -470,11 +470,40 @@ fn settings_sources(command: &Settings, sheet: &Settings, folder: &Settings) -> 
 }
 
 fn load(path: &Path, request: &AnalysisRequest) -> Result<Loaded, ServiceError> {
-    let mut timings = Timings::default();
-    let started = Instant::now();
-    let (sha256, bytes) = sha256_file(path)?;
-    timings.hash_ms = started.elapsed().as_secs_f64() * 1e3;
+    // The file is hashed on a second thread while it is read; a hashing
+    // error is still the one reported, as when the hash came first.
+    std::thread::scope(|scope| {
+        let hashing = scope.spawn(|| {
+            let started = Instant::now();
+            sha256_file(path).map(|hashed| (hashed, started.elapsed().as_secs_f64() * 1e3))
+        });
+        load_hashed(path, request, || {
+            hashing
+                .join()
+                .unwrap_or_else(|payload| std::panic::resume_unwind(payload))
+        })
+    })
+}
 
+/// [`load`] with the hash still being computed: `hash` waits for it.
+fn load_hashed(
+    path: &Path,
+    request: &AnalysisRequest,
+    hash: impl FnOnce() -> Result<((String, u64), f64), ReadError>,
+) -> Result<Loaded, ServiceError> {
+    let mut timings = Timings::default();
+    let body = load_body(path, request, &mut timings);
+    let ((sha256, bytes), hash_ms) = hash()?;
+    let mut loaded = body?;
+    timings.hash_ms = hash_ms;
+    loaded.source.sha256 = sha256;
+    loaded.source.bytes = bytes;
+    loaded.timings = timings;
+    Ok(loaded)
+}
+
+fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> Result<Loaded, ServiceError> {
+    let (sha256, bytes) = (String::new(), 0u64);
     let started = Instant::now();
     let mut workbook = open_workbook(path, &request.limits)?;
     let mut findings = workbook_findings(&workbook);
@@ -568,7 +597,7 @@ fn load(path: &Path, request: &AnalysisRequest) -> Result<Loaded, ServiceError> 
         settings,
         settings_sources: sources,
         findings,
-        timings,
+        timings: Timings::default(),
     })
 }
 

@@ -407,11 +407,11 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
     }
 
     // Count what each column holds.
-    let col_index: HashMap<u32, usize> = headers
-        .iter()
-        .enumerate()
-        .map(|(index, (col, _))| (*col, index))
-        .collect();
+    // Column number to header index, by direct lookup (columns are below 16,384).
+    let mut col_index: Vec<Option<usize>> = vec![None; headers.iter().map(|(col, _)| *col as usize + 1).max().unwrap_or(0)];
+    for (index, (col, _)) in headers.iter().enumerate() {
+        col_index[*col as usize] = Some(index);
+    }
     let mut columns: Vec<HeaderColumn> = headers
         .iter()
         .map(|(col, name)| HeaderColumn {
@@ -426,7 +426,7 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
     // trimmed, copied and hashed once per distinct text, not once per cell.
     let mut counted: Vec<Vec<bool>> = vec![Vec::new(); columns.len()];
     for (pos, value) in data_cells {
-        let Some(&index) = col_index.get(&pos.col) else {
+        let Some(&Some(index)) = col_index.get(pos.col as usize) else {
             continue;
         };
         let counts = &mut columns[index].counts;

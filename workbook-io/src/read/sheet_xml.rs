@@ -139,7 +139,7 @@ impl<R: Read> Scanner<R> {
         if rest.len() < 3 || &rest[..3] != b"<v>" {
             return None;
         }
-        let text_len = memchr::memchr(b'<', &rest[3..])?;
+        let text_len = rest[3..].iter().take(64).position(|byte| *byte == b'<')?;
         let after = &rest[3 + text_len..];
         if after.len() < 8 || &after[..8] != b"</v></c>" {
             return None;
@@ -153,8 +153,9 @@ impl<R: Read> Scanner<R> {
         &self.buf[range.0..range.1]
     }
 
+    #[inline]
     fn name_is(&self, range: (usize, usize), name: &[u8]) -> bool {
-        self.bytes(range) == name
+        same(self.bytes(range), name)
     }
 
     fn next(&mut self) -> Outcome<Token> {
@@ -167,7 +168,16 @@ impl<R: Read> Scanner<R> {
             }
             let start = self.pos;
             if self.buf[start] != b'<' {
-                match memchr::memchr(b'<', &self.buf[start..self.len]) {
+                let window = &self.buf[start..self.len];
+                let near = window.iter().take(32).position(|byte| *byte == b'<');
+                let found = near.or_else(|| {
+                    if window.len() > 32 {
+                        memchr::memchr(b'<', &window[32..]).map(|offset| offset + 32)
+                    } else {
+                        None
+                    }
+                });
+                match found {
                     Some(offset) => {
                         self.pos = start + offset;
                         return Ok(Token::Text((start, start + offset)));
@@ -255,27 +265,36 @@ impl<R: Read> Scanner<R> {
     }
 
     /// The name of a tag without its namespace prefix, as calamine compares names.
+    #[inline]
     fn local_name(&self, from: usize, to: usize) -> (usize, usize) {
         let end = self.name_end(from, to);
-        match memchr::memrchr(b':', &self.buf[from..end]) {
+        match self.buf[from..end].iter().rposition(|byte| *byte == b':') {
             Some(colon) => (from + colon + 1, end),
             None => (from, end),
         }
     }
 
     /// Index of the '>' closing a tag whose body starts at `from`, quotes respected.
+    /// Tags are short, so a plain loop beats a vectorised search here.
+    #[inline]
     fn tag_end(&self, from: usize) -> Option<usize> {
+        let bytes = &self.buf[..self.len];
         let mut at = from;
-        loop {
-            let offset = memchr::memchr3(b'>', b'"', b'\'', &self.buf[at..self.len])?;
-            let found = at + offset;
-            let byte = self.buf[found];
-            if byte == b'>' {
-                return Some(found);
+        let mut quote = 0u8;
+        while at < bytes.len() {
+            let byte = bytes[at];
+            if quote != 0 {
+                if byte == quote {
+                    quote = 0;
+                }
+            } else if byte == b'>' {
+                return Some(at);
+            } else if byte == b'"' || byte == b'\'' {
+                quote = byte;
             }
-            let close = memchr::memchr(byte, &self.buf[found + 1..self.len])?;
-            at = found + 1 + close + 1;
+            at += 1;
         }
+        None
     }
 
     fn name_end(&self, from: usize, to: usize) -> usize {
@@ -324,7 +343,6 @@ impl<R: Read> Scanner<R> {
     fn read_string_item(&mut self, closing: &[u8], out: &mut String) -> Outcome<()> {
         let closing = closing.to_vec();
         let mut phonetic = false;
-        let mut piece = String::new();
         loop {
             match self.next()? {
                 Token::Start { name, attrs, .. } => {
@@ -333,18 +351,22 @@ impl<R: Read> Scanner<R> {
                         phonetic = true;
                     } else if name_bytes == b"t" && !phonetic {
                         let preserve = attribute(self.bytes(attrs), b"xml:space") == Some(b"preserve".as_slice());
-                        piece.clear();
-                        self.read_text_content(b"t", &mut piece)?;
-                        let kept = if preserve {
-                            piece.as_str()
-                        } else {
-                            piece.trim_matches([' ', '\t', '\r', '\n'])
-                        };
-                        if kept.contains("_x") {
+                        let start = out.len();
+                        self.read_text_content(b"t", out)?;
+                        if !preserve {
+                            const SPACE: [char; 4] = [' ', '\t', '\r', '\n'];
+                            let piece = &out[start..];
+                            let lead = piece.len() - piece.trim_start_matches(SPACE).len();
+                            let keep = piece.trim_matches(SPACE).len();
+                            if lead > 0 {
+                                out.replace_range(start..start + lead, "");
+                            }
+                            out.truncate(start + keep);
+                        }
+                        if out[start..].contains("_x") {
                             // The _xHHHH_ escapes of the format are left to calamine.
                             return Err(Stop::Decline);
                         }
-                        out.push_str(kept);
                     }
                 }
                 Token::End { name } => {
@@ -361,6 +383,12 @@ impl<R: Read> Scanner<R> {
             }
         }
     }
+}
+
+/// Byte-wise equality, inlined for the short names compared per tag.
+#[inline]
+fn same(a: &[u8], b: &[u8]) -> bool {
+    a.len() == b.len() && a.iter().zip(b).all(|(x, y)| x == y)
 }
 
 fn bytes_str(bytes: &[u8]) -> Outcome<&str> {
@@ -726,11 +754,110 @@ pub(crate) fn read_sheet(
     let entry = archive.by_name(&part).map_err(|_| Stop::Decline)?;
     // The smallest cell, `<c><v>1</v></c>`, takes 15 bytes of XML.
     let most_cells = entry.size() / 15;
-    let limited = LimitedReader {
-        inner: entry,
-        left: max_entry_bytes,
-    };
-    read_cells(Scanner::new(limited), &parts, most_cells, builder)
+    if entry.size() < THREAD_ABOVE_BYTES {
+        let limited = LimitedReader {
+            inner: entry,
+            left: max_entry_bytes,
+        };
+        return read_cells(Scanner::new(limited), &parts, most_cells, builder);
+    }
+    drop(entry);
+    // A large part is inflated on a second thread while this one parses.
+    std::thread::scope(|scope| {
+        let (full_sender, full_receiver) = std::sync::mpsc::sync_channel::<std::io::Result<Vec<u8>>>(PIPELINE_CHUNKS);
+        let (empty_sender, empty_receiver) = std::sync::mpsc::channel::<Vec<u8>>();
+        let inflater = scope.spawn(move || {
+            let Ok(entry) = archive.by_name(&part) else {
+                let _ = full_sender.send(Err(std::io::Error::other("the part went missing")));
+                return;
+            };
+            let mut limited = LimitedReader {
+                inner: entry,
+                left: max_entry_bytes,
+            };
+            loop {
+                let mut chunk = empty_receiver.try_recv().unwrap_or_else(|_| vec![0; CHUNK_BYTES]);
+                chunk.resize(CHUNK_BYTES, 0);
+                let mut filled = 0;
+                let outcome = loop {
+                    match limited.read(&mut chunk[filled..]) {
+                        Ok(0) => break Ok(()),
+                        Ok(read) => {
+                            filled += read;
+                            if filled == chunk.len() {
+                                break Ok(());
+                            }
+                        }
+                        Err(error) if error.kind() == std::io::ErrorKind::Interrupted => {}
+                        Err(error) => break Err(error),
+                    }
+                };
+                chunk.truncate(filled);
+                let done = filled == 0;
+                let sent = match outcome {
+                    Ok(()) => full_sender.send(Ok(chunk)),
+                    Err(error) => full_sender.send(Err(error)),
+                };
+                // A parser that stopped early hangs up; so does the end of the part.
+                if sent.is_err() || done {
+                    return;
+                }
+            }
+        });
+        let reader = ChunkReader {
+            chunks: full_receiver,
+            spent: empty_sender,
+            current: Vec::new(),
+            at: 0,
+            ended: false,
+        };
+        let outcome = read_cells(Scanner::new(reader), &parts, most_cells, builder);
+        if inflater.join().is_err() {
+            return Err(Stop::Decline);
+        }
+        outcome
+    })
+}
+
+/// Parts at least this large are inflated on a thread of their own.
+const THREAD_ABOVE_BYTES: u64 = 8 << 20;
+
+/// Inflated chunks in flight between the two threads.
+const PIPELINE_CHUNKS: usize = 8;
+
+/// Reads the chunks the inflating thread sends, handing spent ones back.
+struct ChunkReader {
+    chunks: std::sync::mpsc::Receiver<std::io::Result<Vec<u8>>>,
+    spent: std::sync::mpsc::Sender<Vec<u8>>,
+    current: Vec<u8>,
+    at: usize,
+    ended: bool,
+}
+
+impl Read for ChunkReader {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        while self.at == self.current.len() {
+            if self.ended {
+                return Ok(0);
+            }
+            let next = self
+                .chunks
+                .recv()
+                .map_err(|_| std::io::Error::other("the inflating thread stopped"))??;
+            if next.is_empty() {
+                self.ended = true;
+            }
+            let spent = std::mem::replace(&mut self.current, next);
+            if spent.capacity() > 0 {
+                let _ = self.spent.send(spent);
+            }
+            self.at = 0;
+        }
+        let count = buf.len().min(self.current.len() - self.at);
+        buf[..count].copy_from_slice(&self.current[self.at..self.at + count]);
+        self.at += count;
+        Ok(count)
+    }
 }
 
 /// A reader that fails (so the fast reader declines) past a byte budget.
@@ -757,6 +884,8 @@ enum Value {
     Date(f64),
     Shared(usize),
     Text(String),
+    /// Inline text, held in the reader's text buffer.
+    Inline,
     Bool(bool),
     Error(String),
 }
@@ -871,17 +1000,17 @@ fn read_cells<R: Read>(
                     match scanner.next()? {
                         Token::Start { name, empty, .. } => {
                             let child = scanner.bytes(name);
-                            if child == b"v" {
+                            if same(child, b"v") {
                                 value = read_v(&mut scanner, kind, date_style, parts, &mut text)?;
-                            } else if child == b"is" {
+                            } else if same(child, b"is") {
                                 text.clear();
                                 if empty {
                                     scanner.next()?;
                                 } else {
                                     scanner.read_string_item(b"is", &mut text)?;
                                 }
-                                value = Value::Text(text.clone());
-                            } else if child == b"f" {
+                                value = Value::Inline;
+                            } else if same(child, b"f") {
                                 if empty {
                                     scanner.next()?;
                                 } else {
@@ -914,6 +1043,12 @@ fn read_cells<R: Read>(
                         CellValue::Text(shared_index[index])
                     }
                     Value::Text(text) => {
+                        if text.is_empty() {
+                            continue;
+                        }
+                        CellValue::Text(builder.intern(&text))
+                    }
+                    Value::Inline => {
                         if text.is_empty() {
                             continue;
                         }
@@ -978,7 +1113,7 @@ fn read_v<R: Read>(
             if text.contains("_x") {
                 return Err(Stop::Decline);
             }
-            Ok(Value::Text(text.clone()))
+            Ok(Value::Inline)
         }
         Kind::IsoDate => {
             text.clear();
