@@ -149,6 +149,38 @@ impl<R: Read> Scanner<R> {
         Some((start, start + text_len))
     }
 
+    /// The common inline-string body `<is><t>text</t></is></c>`, when it is
+    /// wholly in the buffer: the text decoded and trimmed into `out`, the
+    /// scanner moved past the cell's end. Otherwise false, nothing moved.
+    #[inline]
+    fn plain_inline_element(&mut self, out: &mut String) -> Outcome<bool> {
+        const OPEN: &[u8] = b"<is><t>";
+        const CLOSE: &[u8] = b"</t></is></c>";
+        if self.pending_end.is_some() {
+            return Ok(false);
+        }
+        let rest = &self.buf[self.pos..self.len];
+        if rest.len() < OPEN.len() || !same(&rest[..OPEN.len()], OPEN) {
+            return Ok(false);
+        }
+        let Some(text_len) = rest[OPEN.len()..].iter().take(1024).position(|byte| *byte == b'<') else {
+            return Ok(false);
+        };
+        let after = &rest[OPEN.len() + text_len..];
+        if after.len() < CLOSE.len() || !same(&after[..CLOSE.len()], CLOSE) {
+            return Ok(false);
+        }
+        out.clear();
+        decode_text(&rest[OPEN.len()..OPEN.len() + text_len], out)?;
+        trim_from(out, 0);
+        if out.contains("_x") {
+            // The _xHHHH_ escapes of the format are left to calamine.
+            return Err(Stop::Decline);
+        }
+        self.pos += OPEN.len() + text_len + CLOSE.len();
+        Ok(true)
+    }
+
     fn bytes(&self, range: (usize, usize)) -> &[u8] {
         &self.buf[range.0..range.1]
     }
@@ -354,14 +386,7 @@ impl<R: Read> Scanner<R> {
                         let start = out.len();
                         self.read_text_content(b"t", out)?;
                         if !preserve {
-                            const SPACE: [char; 4] = [' ', '\t', '\r', '\n'];
-                            let piece = &out[start..];
-                            let lead = piece.len() - piece.trim_start_matches(SPACE).len();
-                            let keep = piece.trim_matches(SPACE).len();
-                            if lead > 0 {
-                                out.replace_range(start..start + lead, "");
-                            }
-                            out.truncate(start + keep);
+                            trim_from(out, start);
                         }
                         if out[start..].contains("_x") {
                             // The _xHHHH_ escapes of the format are left to calamine.
@@ -383,6 +408,20 @@ impl<R: Read> Scanner<R> {
             }
         }
     }
+}
+
+/// Trims XML white space (space, tab, CR, LF; not other Unicode spaces)
+/// from both ends of `out[start..]`, as calamine trims a `<t>` without
+/// `xml:space="preserve"`.
+fn trim_from(out: &mut String, start: usize) {
+    const SPACE: [char; 4] = [' ', '\t', '\r', '\n'];
+    let piece = &out[start..];
+    let lead = piece.len() - piece.trim_start_matches(SPACE).len();
+    let keep = piece.trim_matches(SPACE).len();
+    if lead > 0 {
+        out.replace_range(start..start + lead, "");
+    }
+    out.truncate(start + keep);
 }
 
 /// Byte-wise equality, inlined for the short names compared per tag.
@@ -995,6 +1034,9 @@ fn read_cells<R: Read>(
                         value = plain_value(scanner.bytes(range), kind, date_style, parts)?;
                         quick = true;
                     }
+                } else if kind == Kind::Inline && scanner.plain_inline_element(&mut text)? {
+                    value = Value::Inline;
+                    quick = true;
                 }
                 while !quick {
                     match scanner.next()? {
