@@ -408,7 +408,8 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
 
     // Count what each column holds.
     // Column number to header index, by direct lookup (columns are below 16,384).
-    let mut col_index: Vec<Option<usize>> = vec![None; headers.iter().map(|(col, _)| *col as usize + 1).max().unwrap_or(0)];
+    let mut col_index: Vec<Option<usize>> =
+        vec![None; headers.iter().map(|(col, _)| *col as usize + 1).max().unwrap_or(0)];
     for (index, (col, _)) in headers.iter().enumerate() {
         col_index[*col as usize] = Some(index);
     }

@@ -296,7 +296,8 @@ pub fn fit_one_way(
     for &index in &kept {
         let group = &stats[index];
         let mut sorted = std::mem::take(&mut raw[index]);
-        sorted.sort_by(|a, b| a.total_cmp(b));
+        // Radix sort in `f64::total_cmp` order, as `sort_by(f64::total_cmp)` gives.
+        crate::stats::sort::sort_floats(&mut sorted);
         let n = group.n as f64;
         let sd = if group.n > 1 {
             (group.centred_ss / (n - 1.0)).sqrt()

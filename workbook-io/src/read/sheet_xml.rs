@@ -522,7 +522,10 @@ fn attribute<'a>(attrs: &'a [u8], name: &[u8]) -> Option<&'a [u8]> {
 }
 
 /// The three attributes of a cell tag, in one pass.
-fn cell_attributes(attrs: &[u8]) -> Outcome<(Option<&[u8]>, Option<&[u8]>, Option<&[u8]>)> {
+/// A cell's `r`, `s` and `t` attribute values, where present.
+type CellAttributes<'a> = (Option<&'a [u8]>, Option<&'a [u8]>, Option<&'a [u8]>);
+
+fn cell_attributes(attrs: &[u8]) -> Outcome<CellAttributes<'_>> {
     let (mut r, mut s, mut t) = (None, None, None);
     let mut at = 0;
     loop {
@@ -1038,34 +1041,36 @@ fn read_cells<R: Read>(
                     value = Value::Inline;
                     quick = true;
                 }
-                while !quick {
-                    match scanner.next()? {
-                        Token::Start { name, empty, .. } => {
-                            let child = scanner.bytes(name);
-                            if same(child, b"v") {
-                                value = read_v(&mut scanner, kind, date_style, parts, &mut text)?;
-                            } else if same(child, b"is") {
-                                text.clear();
-                                if empty {
-                                    scanner.next()?;
+                if !quick {
+                    loop {
+                        match scanner.next()? {
+                            Token::Start { name, empty, .. } => {
+                                let child = scanner.bytes(name);
+                                if same(child, b"v") {
+                                    value = read_v(&mut scanner, kind, date_style, parts, &mut text)?;
+                                } else if same(child, b"is") {
+                                    text.clear();
+                                    if empty {
+                                        scanner.next()?;
+                                    } else {
+                                        scanner.read_string_item(b"is", &mut text)?;
+                                    }
+                                    value = Value::Inline;
+                                } else if same(child, b"f") {
+                                    if empty {
+                                        scanner.next()?;
+                                    } else {
+                                        scanner.skip_element(b"f")?;
+                                    }
+                                    value = Value::Empty;
                                 } else {
-                                    scanner.read_string_item(b"is", &mut text)?;
+                                    return Err(Stop::Decline);
                                 }
-                                value = Value::Inline;
-                            } else if same(child, b"f") {
-                                if empty {
-                                    scanner.next()?;
-                                } else {
-                                    scanner.skip_element(b"f")?;
-                                }
-                                value = Value::Empty;
-                            } else {
-                                return Err(Stop::Decline);
                             }
+                            Token::End { name } if scanner.name_is(name, b"c") => break,
+                            Token::Eof => return Err(Stop::Decline),
+                            _ => {}
                         }
-                        Token::End { name } if scanner.name_is(name, b"c") => break,
-                        Token::Eof => return Err(Stop::Decline),
-                        _ => {}
                     }
                 }
                 col_index = col_index.wrapping_add(1);
@@ -1280,7 +1285,7 @@ mod tests {
         let mut scanner = Scanner::new(Trickle(xml));
         let mut seen = Vec::new();
         loop {
-            let token = scanner.next().ok().expect("well formed");
+            let token = scanner.next().expect("well formed");
             let text = match token {
                 Token::Start { name, attrs, empty } => format!(
                     "S:{}:{}:{empty}",
