@@ -33,7 +33,7 @@ pub mod names {
     pub const PROVENANCE: &str = "Provenance";
 }
 
-fn decimals_for(fit: &OneWayFit) -> u8 {
+pub(crate) fn decimals_for(fit: &OneWayFit) -> u8 {
     // Enough decimals to show the pooled SD to three significant digits.
     let scale = if fit.pooled_sd.is_finite() && fit.pooled_sd > 0.0 {
         fit.pooled_sd
