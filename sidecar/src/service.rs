@@ -32,6 +32,13 @@ pub const TOOL_NAME: &str = "trialyst";
 /// The tool's version.
 pub const TOOL_VERSION: &str = env!("CARGO_PKG_VERSION");
 
+/// Most conditions compared in one response. Every pair of conditions is
+/// compared, so the work and the tables grow with the square of the count:
+/// 200 conditions are 19,900 pairs. A table with more is almost always a
+/// sheet read in the wrong layout (a row of thousands of headers), and
+/// comparing it would exhaust the machine.
+pub const MAX_CONDITIONS: usize = 200;
+
 /// A flag a front end sets to stop a computation that is under way.
 #[derive(Debug, Clone, Default)]
 pub struct CancelFlag(Arc<AtomicBool>);
@@ -746,17 +753,29 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
                 });
             }
         }
-        let outcome = match fit_one_way(&condition_names, &groups, &response.values, confidence, &contrasts) {
-            Ok(fit) => ResponseOutcome::Analysed { one_way: Box::new(fit) },
-            Err(OneWayError::TooFewConditions { found }) => ResponseOutcome::NotAnalysed {
+        let with_values = counts.iter().filter(|&&count| count > 0).count();
+        let outcome = if with_values > MAX_CONDITIONS {
+            ResponseOutcome::NotAnalysed {
                 reason: format!(
-                    "only {found} condition(s) have values for '{}'; at least two are needed",
-                    response.name
+                    "'{}' has {with_values} conditions with values in sheet '{}' ({}), more than the {MAX_CONDITIONS} that are compared pair by pair; check that the table was read in the right layout or choose the columns to use",
+                    response.name,
+                    table.sheet,
+                    table.area.a1()
                 ),
-            },
-            Err(error) => ResponseOutcome::NotAnalysed {
-                reason: error.to_string(),
-            },
+            }
+        } else {
+            match fit_one_way(&condition_names, &groups, &response.values, confidence, &contrasts) {
+                Ok(fit) => ResponseOutcome::Analysed { one_way: Box::new(fit) },
+                Err(OneWayError::TooFewConditions { found }) => ResponseOutcome::NotAnalysed {
+                    reason: format!(
+                        "only {found} condition(s) have values for '{}'; at least two are needed",
+                        response.name
+                    ),
+                },
+                Err(error) => ResponseOutcome::NotAnalysed {
+                    reason: error.to_string(),
+                },
+            }
         };
         let assessment = match &outcome {
             ResponseOutcome::Analysed { one_way } => {

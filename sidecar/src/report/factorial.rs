@@ -206,7 +206,10 @@ fn anova_rows(lines: &[AnovaLine]) -> Vec<Vec<Value>> {
                 Value::text(line.source.replace(':', " × ")),
                 Value::integer(line.df as f64),
                 Value::Number(line.sum_sq, super::significant_format(line.sum_sq)),
-                optional(line.mean_sq, line.mean_sq.map_or(NumberFormat::General, super::significant_format)),
+                optional(
+                    line.mean_sq,
+                    line.mean_sq.map_or(NumberFormat::General, super::significant_format),
+                ),
                 optional(line.f_value, NumberFormat::Decimals(4)),
                 optional(line.p_value, NumberFormat::PValue),
             ]

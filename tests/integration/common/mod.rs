@@ -109,7 +109,13 @@ pub fn keep_output(path: &Path) {
         .name()
         .unwrap_or("test")
         .chars()
-        .map(|c| if c.is_ascii_alphanumeric() || c == '-' || c == '_' { c } else { '_' })
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
         .collect();
     let file_name = path
         .file_name()

@@ -334,7 +334,8 @@ fn inspect_zip(path: &Path, limits: &ReadLimits) -> Result<Container, ReadError>
     match format {
         Format::Xlsx => check_shared_strings_xml(path, &mut archive)?,
         Format::Xlsb => check_xlsb_workbook(path, &mut archive)?,
-        _ => {}
+        Format::Ods => check_ods_sheet_sizes(path, &mut archive, limits)?,
+        Format::Xls => {}
     }
     Ok(Container { format })
 }
@@ -448,6 +449,208 @@ fn check_xlsb_workbook<R: Read + std::io::Seek>(
     Ok(())
 }
 
+/// The ods parser builds each sheet as one dense rectangle, and a row or
+/// cell may say it repeats (`table:number-rows-repeated`,
+/// `table:number-columns-repeated`) any number of times: a few hundred
+/// bytes can ask for billions of cells and abort the process. So
+/// `content.xml` is streamed here once, tag by tag, and each sheet's
+/// rectangle is measured as the parser will build it, up to its last
+/// non-empty cell (the empty rows and cells that fill out every saved sheet
+/// cost nothing). A sheet beyond [`ReadLimits::max_box_cells`] is refused.
+fn check_ods_sheet_sizes<R: Read + std::io::Seek>(
+    path: &Path,
+    archive: &mut zip::ZipArchive<R>,
+    limits: &ReadLimits,
+) -> Result<(), ReadError> {
+    let Ok(entry) = archive.by_name("content.xml") else {
+        return Ok(());
+    };
+    let mut measure = OdsMeasure::default();
+    let outcome = scan_xml_tags(entry, |tag| measure.tag(tag));
+    if let Err(error) = outcome {
+        return Err(ReadError::Corrupt {
+            path: path.to_path_buf(),
+            detail: format!("the content part cannot be inflated ({error})"),
+        });
+    }
+    measure.end_sheet();
+    match measure.largest {
+        Some((name, rows, cols)) if rows.saturating_mul(cols) > limits.max_box_cells => Err(ReadError::TooLarge {
+            path: path.to_path_buf(),
+            what: format!("sheet '{name}' spans {rows} rows × {cols} columns through its repeated rows and cells"),
+            limit: format!("{} cells in a sheet's rectangle", limits.max_box_cells),
+        }),
+        _ => Ok(()),
+    }
+}
+
+/// The running measure of the ods sheets seen so far.
+#[derive(Default)]
+struct OdsMeasure {
+    /// Sheet name, rows and columns up to the last non-empty cell.
+    sheet: Option<(String, u64, u64)>,
+    /// The next row's index in the current sheet.
+    row: u64,
+    /// How many times the current row repeats.
+    row_repeat: u64,
+    /// Columns so far in the current row, and the extent up to its last non-empty cell.
+    col: u64,
+    row_extent: u64,
+    /// An open (not self-closing) cell: its first column and repeat count,
+    /// and whether anything was found inside it.
+    open_cell: Option<(u64, u64, bool)>,
+    /// The sheet with the largest rectangle so far.
+    largest: Option<(String, u64, u64)>,
+}
+
+impl OdsMeasure {
+    fn tag(&mut self, tag: &[u8]) {
+        let closing = tag.first() == Some(&b'/');
+        let body = if closing { &tag[1..] } else { tag };
+        let name_end = body
+            .iter()
+            .position(|byte| byte.is_ascii_whitespace() || *byte == b'/')
+            .unwrap_or(body.len());
+        let name = &body[..name_end];
+        let self_closing = tag.last() == Some(&b'/');
+        let text = String::from_utf8_lossy(body);
+        let repeat = |attribute: &str| {
+            attribute_value(&text, attribute)
+                .and_then(|value| value.trim().parse::<u64>().ok())
+                .unwrap_or(1)
+                .max(1)
+        };
+        match (name, closing) {
+            (b"table:table", false) => {
+                self.end_sheet();
+                let sheet_name = attribute_value(&text, "table:name").unwrap_or("").to_string();
+                self.sheet = Some((sheet_name, 0, 0));
+                self.row = 0;
+            }
+            (b"table:table", true) => self.end_sheet(),
+            (b"table:table-row", false) => {
+                self.row_repeat = repeat("table:number-rows-repeated");
+                self.col = 0;
+                self.row_extent = 0;
+                if self_closing {
+                    self.end_row();
+                }
+            }
+            (b"table:table-row", true) => self.end_row(),
+            (b"table:table-cell" | b"table:covered-table-cell", false) => {
+                let cols = repeat("table:number-columns-repeated");
+                let has_value = attribute_value(&text, "office:value-type").is_some();
+                if self_closing {
+                    self.end_cell(cols, has_value);
+                } else {
+                    self.open_cell = Some((self.col, cols, has_value));
+                }
+            }
+            (b"table:table-cell" | b"table:covered-table-cell", true) => {
+                if let Some((_, cols, filled)) = self.open_cell.take() {
+                    self.end_cell(cols, filled);
+                }
+            }
+            (_, false) => {
+                // Any element inside a cell (a paragraph of text) fills it.
+                if let Some(open) = &mut self.open_cell {
+                    open.2 = true;
+                }
+            }
+            _ => {}
+        }
+    }
+
+    fn end_cell(&mut self, cols: u64, filled: bool) {
+        self.col = self.col.saturating_add(cols);
+        if filled {
+            self.row_extent = self.col;
+        }
+    }
+
+    fn end_row(&mut self) {
+        if let Some(open) = self.open_cell.take() {
+            self.end_cell(open.1, open.2);
+        }
+        let next_row = self.row.saturating_add(self.row_repeat);
+        if self.row_extent > 0 {
+            if let Some((_, rows, cols)) = &mut self.sheet {
+                *rows = next_row;
+                *cols = (*cols).max(self.row_extent);
+            }
+        }
+        self.row = next_row;
+        self.row_repeat = 1;
+        self.row_extent = 0;
+        self.col = 0;
+    }
+
+    fn end_sheet(&mut self) {
+        if let Some((name, rows, cols)) = self.sheet.take() {
+            let larger = match &self.largest {
+                None => true,
+                Some((_, old_rows, old_cols)) => rows.saturating_mul(cols) > old_rows.saturating_mul(*old_cols),
+            };
+            if larger {
+                self.largest = Some((name, rows, cols));
+            }
+        }
+    }
+}
+
+/// Longest tag kept whole; the rest of a longer one is passed over (the
+/// attributes looked for come first in the tags written by spreadsheet
+/// programs, and a tag this long is not one of them anyway).
+const MAX_KEPT_TAG_BYTES: usize = 16 << 10;
+
+/// Streams XML and calls `found` with each tag's text between `<` and `>`
+/// (comments, processing instructions and declarations are passed over).
+/// Memory stays bounded whatever the input.
+fn scan_xml_tags<R: Read>(mut reader: R, mut found: impl FnMut(&[u8])) -> std::io::Result<()> {
+    let mut chunk = vec![0u8; 1 << 16];
+    let mut tag: Vec<u8> = Vec::with_capacity(256);
+    let mut in_tag = false;
+    loop {
+        let read = match reader.read(&mut chunk) {
+            Ok(0) => break,
+            Ok(read) => read,
+            Err(error) if error.kind() == std::io::ErrorKind::Interrupted => continue,
+            Err(error) => return Err(error),
+        };
+        let mut rest = &chunk[..read];
+        while !rest.is_empty() {
+            if in_tag {
+                match memchr::memchr(b'>', rest) {
+                    Some(end) => {
+                        let room = MAX_KEPT_TAG_BYTES.saturating_sub(tag.len());
+                        tag.extend_from_slice(&rest[..end.min(room)]);
+                        if !matches!(tag.first(), Some(b'!' | b'?')) {
+                            found(&tag);
+                        }
+                        tag.clear();
+                        in_tag = false;
+                        rest = &rest[end + 1..];
+                    }
+                    None => {
+                        let room = MAX_KEPT_TAG_BYTES.saturating_sub(tag.len());
+                        tag.extend_from_slice(&rest[..rest.len().min(room)]);
+                        rest = &[];
+                    }
+                }
+            } else {
+                match memchr::memchr(b'<', rest) {
+                    Some(start) => {
+                        in_tag = true;
+                        rest = &rest[start + 1..];
+                    }
+                    None => rest = &[],
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
 fn read_varint(bytes: &[u8], start: usize, max_bytes: usize) -> Option<(u32, usize)> {
     let mut value: u32 = 0;
     for offset in 0..max_bytes {
@@ -462,7 +665,35 @@ fn read_varint(bytes: &[u8], start: usize, max_bytes: usize) -> Option<(u32, usi
 
 #[cfg(test)]
 mod tests {
-    use super::attribute_value;
+    use super::{attribute_value, scan_xml_tags, OdsMeasure};
+
+    fn measure(xml: &str) -> Option<(String, u64, u64)> {
+        let mut measure = OdsMeasure::default();
+        scan_xml_tags(xml.as_bytes(), |tag| measure.tag(tag)).expect("in memory");
+        measure.end_sheet();
+        measure.largest
+    }
+
+    #[test]
+    fn ods_rectangles_count_repeats_up_to_the_last_filled_cell() {
+        // Two filled rows of three columns, then the empty filler rows and
+        // cells every saved sheet ends with (OpenDocument 1.2, part 1, 9.1.3
+        // and 9.1.4: the repeat attributes).
+        let xml = r#"<office:spreadsheet><table:table table:name="Trial">
+            <table:table-row><table:table-cell office:value-type="string"><text:p>a</text:p></table:table-cell><table:table-cell table:number-columns-repeated="2" office:value-type="float" office:value="1"/></table:table-row>
+            <table:table-row table:number-rows-repeated="2"><table:table-cell/><table:table-cell><text:p>b</text:p></table:table-cell><table:table-cell table:number-columns-repeated="1000"/></table:table-row>
+            <table:table-row table:number-rows-repeated="1048573"><table:table-cell table:number-columns-repeated="1024"/></table:table-row>
+            </table:table></office:spreadsheet>"#;
+        assert_eq!(measure(xml), Some(("Trial".to_string(), 3, 3)));
+        // A repeated filled cell in a repeated row is the bomb.
+        let bomb = r#"<table:table table:name="Big"><table:table-row table:number-rows-repeated="1000000"><table:table-cell table:number-columns-repeated="99" office:value-type="float" office:value="1"/></table:table-row></table:table>"#;
+        assert_eq!(measure(bomb), Some(("Big".to_string(), 1_000_000, 99)));
+        // The largest of several sheets is kept.
+        let two = format!(
+            r#"{bomb}<table:table table:name="Small"><table:table-row><table:table-cell office:value-type="float" office:value="1"/></table:table-row></table:table>"#
+        );
+        assert_eq!(measure(&two).map(|(name, _, _)| name), Some("Big".to_string()));
+    }
 
     #[test]
     fn finds_attributes() {

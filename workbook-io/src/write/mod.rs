@@ -440,7 +440,8 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
         let created = ExcelDateTime::from_ymd(date.year, date.month, date.day)?;
         workbook.set_properties(&DocProperties::new().set_creation_datetime(&created));
     }
-    let mut number_formats: std::collections::HashMap<(NumberFormat, Look, bool), Format> = std::collections::HashMap::new();
+    let mut number_formats: std::collections::HashMap<(NumberFormat, Look, bool), Format> =
+        std::collections::HashMap::new();
     for sheet in &book.sheets {
         let worksheet = workbook.add_worksheet();
         worksheet.set_name(&sheet.name)?;
