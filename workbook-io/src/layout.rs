@@ -73,6 +73,8 @@ pub enum FindingKind {
     /// A run that departs from the workbook's trial plan: missing, added,
     /// with changed settings, or out of the planned order.
     PlanDeparture,
+    /// Rows or columns of the table that are hidden in the sheet.
+    HiddenCells,
 }
 
 /// One data problem, at one place.
@@ -293,6 +295,97 @@ struct HeaderColumn {
 /// [`LayoutError::NoTable`] when the sheet holds nothing analysable,
 /// [`LayoutError::UnknownColumn`] when a requested column is missing.
 pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTable, LayoutError> {
+    let mut table = detect_table_cells(grid, request)?;
+    table.findings.extend(hidden_findings(grid, &table));
+    Ok(table)
+}
+
+/// Rows and columns of the table that the sheet hides: their values are
+/// used like any other, which the person who hid them may not expect.
+fn hidden_findings(grid: &SheetGrid, table: &TrialTable) -> Vec<Finding> {
+    let area = table.area;
+    let mut findings = Vec::new();
+    let rows: Vec<u32> = grid
+        .hidden_rows
+        .iter()
+        .copied()
+        .filter(|row| (area.first.row..=area.last.row).contains(row))
+        .collect();
+    if let Some(&first) = rows.first() {
+        findings.push(Finding {
+            kind: FindingKind::HiddenCells,
+            sheet: table.sheet.clone(),
+            cell: Some(
+                CellRect {
+                    first: CellPos::new(first, area.first.col),
+                    last: CellPos::new(first, area.last.col),
+                }
+                .a1(),
+            ),
+            found: format!("{} hidden row(s)", rows.len()),
+            action: "their values were used like any other".into(),
+            message: format!(
+                "row(s) {} of the table are hidden in the sheet; their values were used like any other; unhide them to check, and delete the runs that should not count",
+                number_list(&rows)
+            ),
+        });
+    }
+    let cols: Vec<u32> = grid
+        .hidden_cols
+        .iter()
+        .copied()
+        .filter(|col| (area.first.col..=area.last.col).contains(col))
+        .collect();
+    if let Some(&first) = cols.first() {
+        let letters: Vec<String> = cols.iter().take(20).map(|&col| column_letters(col)).collect();
+        findings.push(Finding {
+            kind: FindingKind::HiddenCells,
+            sheet: table.sheet.clone(),
+            cell: Some(
+                CellRect {
+                    first: CellPos::new(area.first.row, first),
+                    last: CellPos::new(area.last.row, first),
+                }
+                .a1(),
+            ),
+            found: format!("{} hidden column(s)", cols.len()),
+            action: "their values were used like any other".into(),
+            message: format!(
+                "column(s) {}{} of the table are hidden in the sheet; their values were used like any other; unhide them to check",
+                letters.join(", "),
+                if cols.len() > 20 { ", ..." } else { "" }
+            ),
+        });
+    }
+    findings
+}
+
+/// Zero-based rows as sheet row numbers, runs shortened (`5, 7-9`), at most 20 items.
+fn number_list(rows: &[u32]) -> String {
+    let mut items: Vec<String> = Vec::new();
+    let mut index = 0;
+    while index < rows.len() {
+        let start = rows[index];
+        let mut end = start;
+        while index + 1 < rows.len() && rows[index + 1] == end + 1 {
+            index += 1;
+            end += 1;
+        }
+        items.push(if end > start {
+            format!("{}-{}", start + 1, end + 1)
+        } else {
+            format!("{}", start + 1)
+        });
+        index += 1;
+    }
+    if items.len() > 20 {
+        items.truncate(20);
+        items.push("...".into());
+    }
+    items.join(", ")
+}
+
+fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTable, LayoutError> {
     let sheet = grid.name.clone();
     let cells: Vec<(CellPos, CellValue)> = match request.range {
         Some(rect) => grid

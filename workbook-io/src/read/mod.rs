@@ -175,6 +175,10 @@ pub struct SheetGrid {
     pub strings: Vec<String>,
     /// Merged areas of the sheet, where the format reports them.
     pub merged: Vec<CellRect>,
+    /// Rows (zero-based) hidden in the sheet, in order, where the format reports them (xlsx).
+    pub hidden_rows: Vec<u32>,
+    /// Columns (zero-based) hidden in the sheet, in order, where the format reports them (xlsx).
+    pub hidden_cols: Vec<u32>,
 }
 
 impl SheetGrid {
@@ -535,6 +539,7 @@ impl Workbook {
         let mut builder = GridBuilder::new(sheet, window, max_cells);
         let mut merged = Vec::new();
         let mut skimmed_merged: Option<Vec<CellRect>> = None;
+        let mut hidden = merged::Hidden::default();
         let outcome = catch_unwind(AssertUnwindSafe(|| -> Result<bool, String> {
             match &mut self.inner {
                 Sheets::Xlsx(xlsx) => {
@@ -547,7 +552,10 @@ impl Workbook {
                     }
                     drop(reader);
                     match merged::xlsx_merged_areas(&path, sheet) {
-                        Some(areas) => skimmed_merged = Some(areas),
+                        Some((areas, hidden_found)) => {
+                            skimmed_merged = Some(areas);
+                            hidden = hidden_found;
+                        }
                         None => {
                             if let Ok(areas) = xlsx.merge_cells_by_sheet_name(sheet) {
                                 merged = areas;
@@ -617,6 +625,8 @@ impl Workbook {
         if let Some(areas) = skimmed_merged {
             grid.merged = areas;
         }
+        grid.hidden_rows = hidden.rows;
+        grid.hidden_cols = hidden.cols;
         Ok(grid)
     }
 }
