@@ -319,8 +319,8 @@ fn workbook_findings(workbook: &Workbook) -> Vec<Finding> {
             found: format!(".{extension}"),
             action: format!("read as {:?} from its contents", workbook.format()).to_lowercase(),
             message: format!(
-                "the file is named .{extension} but its contents are a {:?} workbook; it was read by its contents",
-                workbook.format()
+                "the file is named .{extension} but its contents are an .{} workbook; it was read by its contents (rename it to match)",
+                workbook.format().extensions()[0]
             ),
         });
     }
