@@ -39,6 +39,11 @@ pub const TOOL_VERSION: &str = env!("CARGO_PKG_VERSION");
 /// comparing it would exhaust the machine.
 pub const MAX_CONDITIONS: usize = 200;
 
+/// Most responses analysed from one table; the rest are left out with a
+/// finding. Each response gets its own section, chart and tables, and a
+/// sheet of thousands of numeric columns is rarely one trial.
+pub const MAX_RESPONSES: usize = 250;
+
 /// A flag a front end sets to stop a computation that is under way.
 #[derive(Debug, Clone, Default)]
 pub struct CancelFlag(Arc<AtomicBool>);
@@ -691,7 +696,7 @@ pub fn conditions_of(table: &TrialTable) -> (String, Vec<String>, Vec<u32>) {
 fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<WorkbookResults, ServiceError> {
     let Loaded {
         source,
-        table,
+        mut table,
         settings,
         settings_sources,
         mut findings,
@@ -699,6 +704,24 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
         ..
     } = loaded;
     let started = Instant::now();
+    if table.responses.len() > MAX_RESPONSES {
+        let first_left_out = &table.responses[MAX_RESPONSES];
+        findings.push(Finding {
+            kind: FindingKind::Analysis,
+            sheet: table.sheet.clone(),
+            cell: first_left_out
+                .column
+                .map(|col| workbook_io::CellPos::new(table.area.first.row, col).a1()),
+            found: format!("{} response columns", table.responses.len()),
+            action: format!("the first {MAX_RESPONSES} were analysed, the rest left out"),
+            message: format!(
+                "the table has {} response columns; the first {MAX_RESPONSES} were analysed and the rest, from '{}' on, were left out; name the responses to analyse",
+                table.responses.len(),
+                first_left_out.name
+            ),
+        });
+        table.responses.truncate(MAX_RESPONSES);
+    }
     let (condition_factor, condition_names, groups) = conditions_of(&table);
     let confidence = settings.confidence_level();
     let mut contrasts = Vec::new();

@@ -955,6 +955,44 @@ fn a_row_of_16384_condition_columns_is_refused_with_the_reason() {
 }
 
 #[test]
+fn a_table_of_16383_response_columns_is_analysed_for_its_first_ones() {
+    let folder = temp_folder();
+    let mut rows = String::new();
+    for row in 1..=9u32 {
+        rows.push_str(&format!(r#"<row r="{row}">"#));
+        for col in 0..16_384u32 {
+            let letters = workbook_io::column_letters(col);
+            match (row, col) {
+                (1, 0) => rows.push_str(r#"<c r="A1" t="inlineStr"><is><t>Line</t></is></c>"#),
+                (1, _) => rows.push_str(&format!(
+                    r#"<c r="{letters}1" t="inlineStr"><is><t>R{col}</t></is></c>"#
+                )),
+                (_, 0) => rows.push_str(&format!(
+                    r#"<c r="A{row}" t="inlineStr"><is><t>{}</t></is></c>"#,
+                    if row % 2 == 0 { "a" } else { "b" }
+                )),
+                _ => rows.push_str(&format!(r#"<c r="{letters}{row}"><v>{}</v></c>"#, (col * 7 + row * row) % 13)),
+            }
+        }
+        rows.push_str("</row>");
+    }
+    write_xlsx_parts(
+        &folder.path().join("broad.xlsx"),
+        &sheet_xml(&rows),
+        EMPTY_SHARED_STRINGS,
+    );
+    // Column IR (zero-based 251) holds R251, the first response left out.
+    let line = expect_finding(
+        folder.path(),
+        "broad.xlsx",
+        "analysis",
+        "Trial!IR1",
+        &["16383 response columns", "first 250", "'R251'"],
+    );
+    assert_eq!(line["responses"].as_array().map(Vec::len), Some(250));
+}
+
+#[test]
 fn a_long_table_of_thousands_of_factor_combinations_is_refused_with_the_reason() {
     let folder = temp_folder();
     let mut rows = vec![vec![Put::Text("Mould"), Put::Text("Press"), Put::Text("Weight")]];

@@ -463,6 +463,8 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
             let mut breaks: Vec<u32> = sheet.page_breaks.iter().copied().filter(|&row| row > 0).collect();
             breaks.sort_unstable();
             breaks.dedup();
+            // The file format holds at most 1,023 manual breaks a sheet.
+            breaks.truncate(1_023);
             worksheet.set_page_breaks(&breaks)?;
         }
         // Rows given a height hold paragraphs: their notes wrap; elsewhere a
