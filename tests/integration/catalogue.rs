@@ -174,6 +174,11 @@ fn write_ods(path: &Path, sheet_name: &str, rows_xml: &str) {
     let content = format!(
         r#"<?xml version="1.0" encoding="UTF-8"?><office:document-content xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0" xmlns:table="urn:oasis:names:tc:opendocument:xmlns:table:1.0" xmlns:text="urn:oasis:names:tc:opendocument:xmlns:text:1.0" office:version="1.2"><office:body><office:spreadsheet><table:table table:name="{sheet_name}">{rows_xml}</table:table></office:spreadsheet></office:body></office:document-content>"#
     );
+    write_ods_content(path, &content);
+}
+
+/// An OpenDocument spreadsheet container around the given `content.xml`.
+fn write_ods_content(path: &Path, content: &str) {
     let manifest = r#"<?xml version="1.0" encoding="UTF-8"?><manifest:manifest xmlns:manifest="urn:oasis:names:tc:opendocument:xmlns:manifest:1.0" manifest:version="1.2"><manifest:file-entry manifest:full-path="/" manifest:media-type="application/vnd.oasis.opendocument.spreadsheet"/><manifest:file-entry manifest:full-path="content.xml" manifest:media-type="text/xml"/></manifest:manifest>"#;
     let file = std::fs::File::create(path).expect("created");
     let mut zip = zip::ZipWriter::new(file);
@@ -257,6 +262,48 @@ fn xls_with_a_password_record_is_refused_as_password_protected() {
         error.contains("password") || error.contains("damaged"),
         "an encrypted xls is named as such or as unreadable: {error}"
     );
+}
+
+#[test]
+fn xls_sheet_said_to_start_beyond_its_stream_is_refused() {
+    // Found by the read_xls fuzz target: the parser sliced the stream at the
+    // BoundSheet8 offset unchecked and panicked.
+    let folder = temp_folder();
+    let mut stream = xls_workbook_stream(&[xls_number(1, 1, 1.0)]);
+    // The globals' BOF record is 20 bytes; BoundSheet8's body (MS-XLS 2.4.28)
+    // starts 4 bytes later with the sheet's stream position.
+    stream[24..28].copy_from_slice(&33_554_473u32.to_le_bytes());
+    write_compound(&folder.path().join("adrift.xls"), &[("Workbook", &stream)]);
+    let error = expect_refused(
+        folder.path(),
+        "adrift.xls",
+        "sheet 'Trial' is said to start at byte 33554473",
+    );
+    assert!(error.contains("damaged"), "{error}");
+}
+
+#[test]
+fn xlsb_sheet_entry_claiming_more_text_than_it_holds_is_refused() {
+    // Found by the read_xlsb fuzz target: the parser sliced the BrtBundleSh
+    // record (MS-XLSB 2.4.304) by its own counts and panicked.
+    let folder = temp_folder();
+    let mut body = 0u32.to_le_bytes().to_vec(); // hsState: visible
+    body.extend(1u32.to_le_bytes()); // iTabID
+    body.extend(1_000u32.to_le_bytes()); // the relationship id claims 1,000 characters
+    body.extend("rId1".encode_utf16().flat_map(u16::to_le_bytes));
+    // Record type 0x9C and size as base-128 numbers (MS-XLSB 2.1.4).
+    let mut record = vec![0x9C, 0x01, body.len() as u8];
+    record.extend(&body);
+    let mut part = vec![0x83, 0x01, 0x00]; // BrtBeginBook
+    part.extend(&record);
+    write_zip(
+        &folder.path().join("overdrawn.xlsb"),
+        &[
+            ("[Content_Types].xml", CONTENT_TYPES.as_bytes()),
+            ("xl/workbook.bin", &part),
+        ],
+    );
+    expect_refused(folder.path(), "overdrawn.xlsb", "claims more text than it holds");
 }
 
 #[test]
@@ -971,7 +1018,10 @@ fn a_table_of_16383_response_columns_is_analysed_for_its_first_ones() {
                     r#"<c r="A{row}" t="inlineStr"><is><t>{}</t></is></c>"#,
                     if row % 2 == 0 { "a" } else { "b" }
                 )),
-                _ => rows.push_str(&format!(r#"<c r="{letters}{row}"><v>{}</v></c>"#, (col * 7 + row * row) % 13)),
+                _ => rows.push_str(&format!(
+                    r#"<c r="{letters}{row}"><v>{}</v></c>"#,
+                    (col * 7 + row * row) % 13
+                )),
             }
         }
         rows.push_str("</row>");
@@ -1066,6 +1116,19 @@ fn ods_cell_repeated_across_sixteen_million_columns_is_refused() {
     let rows = format!("{}<table:table-row>{cell}</table:table-row>", ods_plain_rows());
     write_ods(&folder.path().join("broad.ods"), "Trial", &rows);
     expect_refused(folder.path(), "broad.ods", "16000000 columns");
+}
+
+#[test]
+fn ods_content_ending_inside_a_sheet_is_refused_at_once() {
+    // Found by the read_ods fuzz target: the parser waited for ever for the
+    // end tag of a sheet whose content part stops short.
+    let folder = temp_folder();
+    let content = format!(
+        r#"<?xml version="1.0" encoding="UTF-8"?><office:document-content xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0" xmlns:table="urn:oasis:names:tc:opendocument:xmlns:table:1.0" xmlns:text="urn:oasis:names:tc:opendocument:xmlns:text:1.0"><office:body><office:spreadsheet><table:table table:name="Trial">{}<!-- </table:table> -->"#,
+        ods_plain_rows()
+    );
+    write_ods_content(&folder.path().join("stops short.ods"), &content);
+    expect_refused(folder.path(), "stops short.ods", "ends inside sheet 'Trial'");
 }
 
 #[test]

@@ -138,6 +138,14 @@ fn check_xls_sheet_sizes(path: &Path, bytes: &[u8], limits: &ReadLimits) -> Resu
         }
     }
     let limit = limits.max_box_cells;
+    for (offset, name) in &sheets {
+        if *offset >= stream.len() {
+            return Err(corrupt(format!(
+                "sheet '{name}' is said to start at byte {offset} of the Workbook stream, which holds {} bytes",
+                stream.len()
+            )));
+        }
+    }
     for (offset, name) in sheets {
         let too_large = |what: String| ReadError::TooLarge {
             path: path.to_path_buf(),
@@ -432,6 +440,34 @@ fn check_xlsb_workbook<R: Read + std::io::Seek>(
         if body_end > bytes.len() {
             break;
         }
+        // BrtBundleSh (0x009C, MS-XLSB 2.4.304): hsState and iTabID (4 bytes
+        // each), then the relationship id and the sheet name as wide strings
+        // (a 4-byte count of UTF-16 units, then the units). The parser slices
+        // the body by those counts without checking them.
+        if record_type == 0x009C {
+            let body = &bytes[after_len..body_end];
+            let count_at = |at: usize| {
+                body.get(at..at + 4)
+                    .map(|four| u32::from_le_bytes([four[0], four[1], four[2], four[3]]) as u64)
+            };
+            let fits = match count_at(8) {
+                Some(0xFFFF_FFFF) => true,
+                Some(units) => {
+                    let name_at = 12 + 2 * units;
+                    match usize::try_from(name_at).ok().and_then(count_at) {
+                        Some(name_units) => name_at + 4 + 2 * name_units <= body.len() as u64,
+                        None => false,
+                    }
+                }
+                None => false,
+            };
+            if !fits {
+                return Err(ReadError::Corrupt {
+                    path: path.to_path_buf(),
+                    detail: "a sheet entry of the binary workbook part claims more text than it holds".into(),
+                });
+            }
+        }
         // BrtExternSheet (0x016A): cXti (4 bytes), then cXti entries of 12 bytes.
         if record_type == 0x016A && record_len >= 4 {
             let count_bytes = &bytes[after_len..after_len + 4];
@@ -473,6 +509,13 @@ fn check_ods_sheet_sizes<R: Read + std::io::Seek>(
             detail: format!("the content part cannot be inflated ({error})"),
         });
     }
+    if let Some(name) = &measure.unclosed_table {
+        // The parser reads a sheet until its end tag and would wait for it for ever.
+        return Err(ReadError::Corrupt {
+            path: path.to_path_buf(),
+            detail: format!("the content part ends inside sheet '{name}'; the file may be truncated"),
+        });
+    }
     measure.end_sheet();
     match measure.largest {
         Some((name, rows, cols)) if rows.saturating_mul(cols) > limits.max_box_cells => Err(ReadError::TooLarge {
@@ -501,6 +544,8 @@ struct OdsMeasure {
     open_cell: Option<(u64, u64, bool)>,
     /// The sheet with the largest rectangle so far.
     largest: Option<(String, u64, u64)>,
+    /// A sheet whose start tag has been seen and its end tag not yet.
+    unclosed_table: Option<String>,
 }
 
 impl OdsMeasure {
@@ -524,10 +569,16 @@ impl OdsMeasure {
             (b"table:table", false) => {
                 self.end_sheet();
                 let sheet_name = attribute_value(&text, "table:name").unwrap_or("").to_string();
+                if !self_closing {
+                    self.unclosed_table = Some(sheet_name.clone());
+                }
                 self.sheet = Some((sheet_name, 0, 0));
                 self.row = 0;
             }
-            (b"table:table", true) => self.end_sheet(),
+            (b"table:table", true) => {
+                self.unclosed_table = None;
+                self.end_sheet();
+            }
             (b"table:table-row", false) => {
                 self.row_repeat = repeat("table:number-rows-repeated");
                 self.col = 0;
@@ -603,13 +654,28 @@ impl OdsMeasure {
 /// programs, and a tag this long is not one of them anyway).
 const MAX_KEPT_TAG_BYTES: usize = 16 << 10;
 
-/// Streams XML and calls `found` with each tag's text between `<` and `>`
-/// (comments, processing instructions and declarations are passed over).
-/// Memory stays bounded whatever the input.
+/// Streams XML and calls `found` with each tag's text between `<` and `>`,
+/// `>` inside quoted attribute values included. Comments, CDATA sections,
+/// processing instructions and declarations are passed over whole, as an
+/// XML parser passes over them. Memory stays bounded whatever the input.
 fn scan_xml_tags<R: Read>(mut reader: R, mut found: impl FnMut(&[u8])) -> std::io::Result<()> {
+    #[derive(Clone, Copy, PartialEq)]
+    enum State {
+        Text,
+        /// Just after `<`.
+        Open,
+        Tag,
+        Quoted(u8),
+        /// Inside `<!...`, not yet known to be a comment or CDATA.
+        Bang,
+        /// Inside a comment, CDATA section or processing instruction, until the terminator.
+        Skip(&'static [u8]),
+    }
     let mut chunk = vec![0u8; 1 << 16];
     let mut tag: Vec<u8> = Vec::with_capacity(256);
-    let mut in_tag = false;
+    let mut state = State::Text;
+    // The last bytes seen while skipping, to find a terminator split across reads.
+    let mut recent: Vec<u8> = Vec::with_capacity(16);
     loop {
         let read = match reader.read(&mut chunk) {
             Ok(0) => break,
@@ -617,33 +683,85 @@ fn scan_xml_tags<R: Read>(mut reader: R, mut found: impl FnMut(&[u8])) -> std::i
             Err(error) if error.kind() == std::io::ErrorKind::Interrupted => continue,
             Err(error) => return Err(error),
         };
-        let mut rest = &chunk[..read];
-        while !rest.is_empty() {
-            if in_tag {
-                match memchr::memchr(b'>', rest) {
-                    Some(end) => {
-                        let room = MAX_KEPT_TAG_BYTES.saturating_sub(tag.len());
-                        tag.extend_from_slice(&rest[..end.min(room)]);
-                        if !matches!(tag.first(), Some(b'!' | b'?')) {
-                            found(&tag);
-                        }
-                        tag.clear();
-                        in_tag = false;
-                        rest = &rest[end + 1..];
+        let mut index = 0;
+        while index < read {
+            match state {
+                State::Text => match memchr::memchr(b'<', &chunk[index..read]) {
+                    Some(offset) => {
+                        index += offset + 1;
+                        state = State::Open;
                     }
-                    None => {
-                        let room = MAX_KEPT_TAG_BYTES.saturating_sub(tag.len());
-                        tag.extend_from_slice(&rest[..rest.len().min(room)]);
-                        rest = &[];
+                    None => index = read,
+                },
+                State::Open => {
+                    let byte = chunk[index];
+                    index += 1;
+                    tag.clear();
+                    recent.clear();
+                    state = match byte {
+                        b'!' => State::Bang,
+                        b'?' => State::Skip(b"?>"),
+                        _ => {
+                            tag.push(byte);
+                            State::Tag
+                        }
+                    };
+                }
+                State::Bang => {
+                    recent.push(chunk[index]);
+                    index += 1;
+                    if recent.as_slice() == b"--" {
+                        recent.clear();
+                        state = State::Skip(b"-->");
+                    } else if recent.as_slice() == b"[CDATA[" {
+                        recent.clear();
+                        state = State::Skip(b"]]>");
+                    } else if !b"--".starts_with(&recent) && !b"[CDATA[".starts_with(&recent) {
+                        // A declaration such as <!DOCTYPE ...>: up to its `>`.
+                        state = if recent.last() == Some(&b'>') {
+                            State::Text
+                        } else {
+                            State::Skip(b">")
+                        };
+                        recent.clear();
                     }
                 }
-            } else {
-                match memchr::memchr(b'<', rest) {
-                    Some(start) => {
-                        in_tag = true;
-                        rest = &rest[start + 1..];
+                State::Skip(terminator) => {
+                    let byte = chunk[index];
+                    index += 1;
+                    recent.push(byte);
+                    if recent.len() > terminator.len() {
+                        recent.remove(0);
                     }
-                    None => rest = &[],
+                    if recent.as_slice() == terminator {
+                        recent.clear();
+                        state = State::Text;
+                    }
+                }
+                State::Tag => {
+                    let byte = chunk[index];
+                    index += 1;
+                    match byte {
+                        b'>' => {
+                            found(&tag);
+                            state = State::Text;
+                        }
+                        b'"' | b'\'' => state = State::Quoted(byte),
+                        _ => {}
+                    }
+                    if byte != b'>' && tag.len() < MAX_KEPT_TAG_BYTES {
+                        tag.push(byte);
+                    }
+                }
+                State::Quoted(quote) => {
+                    let byte = chunk[index];
+                    index += 1;
+                    if byte == quote {
+                        state = State::Tag;
+                    }
+                    if tag.len() < MAX_KEPT_TAG_BYTES {
+                        tag.push(byte);
+                    }
                 }
             }
         }
@@ -693,6 +811,27 @@ mod tests {
             r#"{bomb}<table:table table:name="Small"><table:table-row><table:table-cell office:value-type="float" office:value="1"/></table:table-row></table:table>"#
         );
         assert_eq!(measure(&two).map(|(name, _, _)| name), Some("Big".to_string()));
+    }
+
+    #[test]
+    fn the_tag_scanner_passes_over_comments_cdata_and_quoted_brackets() {
+        let xml = r#"<?xml version="1.0"?><!DOCTYPE x><a b="1 > 0"><!-- <c> --><![CDATA[ <d> ]]><e/></a>"#;
+        let mut tags = Vec::new();
+        scan_xml_tags(xml.as_bytes(), |tag| {
+            tags.push(String::from_utf8_lossy(tag).into_owned())
+        })
+        .expect("in memory");
+        assert_eq!(tags, [r#"a b="1 > 0""#, "e/", "/a"]);
+    }
+
+    #[test]
+    fn a_sheet_without_its_end_tag_is_found() {
+        // Found by the read_ods fuzz target: the parser loops for ever at the
+        // end of a content part that ends inside a sheet.
+        let mut measure = OdsMeasure::default();
+        let xml = r#"<table:table table:name="Trial"><table:table-row><table:table-cell/></table:table-row><!-- </table:table> -->"#;
+        scan_xml_tags(xml.as_bytes(), |tag| measure.tag(tag)).expect("in memory");
+        assert_eq!(measure.unclosed_table.as_deref(), Some("Trial"));
     }
 
     #[test]

@@ -204,26 +204,30 @@ fn scan_tags_and_hidden<R: Read>(reader: R, local_name: &[u8], mut found: impl F
         inner: reader,
         on_chunk: |chunk: &[u8]| {
             tail.extend_from_slice(chunk);
+            let mut waiting = false;
             while let Some(offset) = hidden_finder.find(&tail[searched..]) {
                 let at = searched + offset;
                 let open = memchr::memrchr(b'<', &tail[..at]);
                 let close = memchr::memchr(b'>', &tail[at..]).map(|offset| at + offset);
                 match (open, close) {
                     (Some(open), Some(close)) => {
-                        if close - open <= MAX_TAG_BYTES {
+                        if close - open <= MAX_TAG_BYTES && hidden_tags.len() < 2 * MAX_HIDDEN_LISTED {
                             hidden_tags.push(String::from_utf8_lossy(&tail[open + 1..close]).into_owned());
                         }
                         searched = close;
                     }
                     // Not closed yet: try again with the next chunk, unless
                     // it is already longer than any tag looked for.
-                    (_, None) if tail.len() - at <= MAX_TAG_BYTES && !chunk.is_empty() => break,
+                    (_, None) if tail.len() - at <= MAX_TAG_BYTES && !chunk.is_empty() => {
+                        waiting = true;
+                        break;
+                    }
                     _ => searched = at + 1,
                 }
             }
-            let no_hit_before = tail.len().saturating_sub(NEEDLE.len() - 1);
-            if hidden_finder.find(&tail[searched..]).is_none() {
-                searched = searched.max(no_hit_before);
+            if !waiting {
+                // No hit starts before the last few bytes, which may hold the needle's start.
+                searched = searched.max(tail.len().saturating_sub(NEEDLE.len() - 1));
             }
             let keep_from = searched.saturating_sub(MAX_TAG_BYTES);
             tail.drain(..keep_from);

@@ -352,14 +352,41 @@ impl std::fmt::Debug for Workbook {
     }
 }
 
+thread_local! {
+    /// True while this thread runs the parser inside [`parse_guarded`].
+    static IN_PARSER: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
+}
+
+/// Runs the parser with its panics caught. A panic there is malformed input
+/// the parser did not expect; it becomes an error for the caller, so the
+/// panic hook (installed once, chained to the one before it) stays silent
+/// for it instead of printing a panic message to the user. Panics anywhere
+/// else still reach the previous hook.
+fn parse_guarded<T>(parse: impl FnOnce() -> T) -> std::thread::Result<T> {
+    static INSTALL: std::sync::Once = std::sync::Once::new();
+    INSTALL.call_once(|| {
+        let previous = std::panic::take_hook();
+        std::panic::set_hook(Box::new(move |info| {
+            if !IN_PARSER.with(std::cell::Cell::get) {
+                previous(info);
+            }
+        }));
+    });
+    IN_PARSER.with(|flag| flag.set(true));
+    let outcome = catch_unwind(AssertUnwindSafe(parse));
+    IN_PARSER.with(|flag| flag.set(false));
+    outcome
+}
+
 fn panic_text(payload: Box<dyn std::any::Any + Send>) -> String {
-    if let Some(text) = payload.downcast_ref::<&str>() {
+    let detail = if let Some(text) = payload.downcast_ref::<&str>() {
         (*text).to_string()
     } else if let Some(text) = payload.downcast_ref::<String>() {
         text.clone()
     } else {
-        "the parser stopped unexpectedly".to_string()
-    }
+        "no detail".to_string()
+    };
+    format!("the parser stopped on data it could not make sense of ({detail})")
 }
 
 /// Opens a workbook for reading, after checking its container.
@@ -382,14 +409,14 @@ pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadE
         path: path.to_path_buf(),
         detail,
     };
-    let opened = catch_unwind(AssertUnwindSafe(|| -> Result<Sheets<BufReader<File>>, String> {
+    let opened = parse_guarded(|| -> Result<Sheets<BufReader<File>>, String> {
         Ok(match container.format {
             Format::Xlsx => Sheets::Xlsx(Xlsx::new(reader).map_err(|error| error.to_string())?),
             Format::Xlsb => Sheets::Xlsb(Xlsb::new(reader).map_err(|error| error.to_string())?),
             Format::Xls => Sheets::Xls(Xls::new(reader).map_err(|error| error.to_string())?),
             Format::Ods => Sheets::Ods(Ods::new(reader).map_err(|error| error.to_string())?),
         })
-    }));
+    });
     let inner = match opened {
         Ok(Ok(inner)) => inner,
         Ok(Err(detail)) if detail.to_lowercase().contains("password") => {
@@ -540,7 +567,7 @@ impl Workbook {
         let mut merged = Vec::new();
         let mut skimmed_merged: Option<Vec<CellRect>> = None;
         let mut hidden = merged::Hidden::default();
-        let outcome = catch_unwind(AssertUnwindSafe(|| -> Result<bool, String> {
+        let outcome = parse_guarded(|| -> Result<bool, String> {
             match &mut self.inner {
                 Sheets::Xlsx(xlsx) => {
                     let mut reader = xlsx.worksheet_cells_reader(sheet).map_err(|error| error.to_string())?;
@@ -601,7 +628,7 @@ impl Workbook {
                 }
             }
             Ok(true)
-        }));
+        });
         match outcome {
             Ok(Ok(true)) => {}
             Ok(Ok(false)) => {
