@@ -1124,7 +1124,7 @@ fn ods_content_ending_inside_a_sheet_is_refused_at_once() {
     // end tag of a sheet whose content part stops short.
     let folder = temp_folder();
     let content = format!(
-        r#"<?xml version="1.0" encoding="UTF-8"?><office:document-content xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0" xmlns:table="urn:oasis:names:tc:opendocument:xmlns:table:1.0" xmlns:text="urn:oasis:names:tc:opendocument:xmlns:text:1.0"><office:body><office:spreadsheet><table:table table:name="Trial">{}<!-- </table:table> -->"#,
+        r#"<?xml version="1.0" encoding="UTF-8"?><office:document-content xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0" xmlns:table="urn:oasis:names:tc:opendocument:xmlns:table:1.0" xmlns:text="urn:oasis:names:tc:opendocument:xmlns:text:1.0"><office:body><office:spreadsheet><table:table table:name="Trial">{}<!-- </table:table> --></table:table/cell>"#,
         ods_plain_rows()
     );
     write_ods_content(&folder.path().join("stops short.ods"), &content);

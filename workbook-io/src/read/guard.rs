@@ -550,14 +550,27 @@ struct OdsMeasure {
 
 impl OdsMeasure {
     fn tag(&mut self, tag: &[u8]) {
+        // Names are read as the XML parser behind the ods reader reads them:
+        // an end tag's name is all of it (trailing spaces aside), a start
+        // tag's runs to the first space, after any closing `/` is taken off.
         let closing = tag.first() == Some(&b'/');
-        let body = if closing { &tag[1..] } else { tag };
-        let name_end = body
-            .iter()
-            .position(|byte| byte.is_ascii_whitespace() || *byte == b'/')
-            .unwrap_or(body.len());
-        let name = &body[..name_end];
-        let self_closing = tag.last() == Some(&b'/');
+        let self_closing = !closing && tag.last() == Some(&b'/');
+        let body = if closing {
+            &tag[1..]
+        } else if self_closing {
+            &tag[..tag.len() - 1]
+        } else {
+            tag
+        };
+        let name = if closing {
+            body.trim_ascii_end()
+        } else {
+            let name_end = body
+                .iter()
+                .position(|byte| byte.is_ascii_whitespace())
+                .unwrap_or(body.len());
+            &body[..name_end]
+        };
         let text = String::from_utf8_lossy(body);
         let repeat = |attribute: &str| {
             attribute_value(&text, attribute)
@@ -829,9 +842,15 @@ mod tests {
         // Found by the read_ods fuzz target: the parser loops for ever at the
         // end of a content part that ends inside a sheet.
         let mut measure = OdsMeasure::default();
-        let xml = r#"<table:table table:name="Trial"><table:table-row><table:table-cell/></table:table-row><!-- </table:table> -->"#;
+        let xml = r#"<table:table table:name="Trial"><table:table-row><table:table-cell/></table:table-row><!-- </table:table> --></table:table/cell></table:table x>"#;
         scan_xml_tags(xml.as_bytes(), |tag| measure.tag(tag)).expect("in memory");
         assert_eq!(measure.unclosed_table.as_deref(), Some("Trial"));
+        let mut measure = OdsMeasure::default();
+        scan_xml_tags(&b"<table:table table:name='T'></table:table >"[..], |tag| {
+            measure.tag(tag)
+        })
+        .expect("in memory");
+        assert_eq!(measure.unclosed_table, None);
     }
 
     #[test]
