@@ -739,6 +739,29 @@ fn merged_header_cells_are_named() {
 }
 
 #[test]
+fn a_header_merged_across_every_column_is_named_quickly() {
+    // Found by the read_xls fuzz target: a merged area across thousands of
+    // columns cost the square of their number in table detection.
+    let folder = temp_folder();
+    let path = folder.path().join("banner.xlsx");
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let sheet = book.add_worksheet();
+    sheet.set_name("Trial").expect("name");
+    crate::common::put_rows(sheet, &plain_rows());
+    sheet
+        .merge_range(0, 1, 0, 16_383, "Weight", &rust_xlsxwriter::Format::new())
+        .expect("merged");
+    book.save(&path).expect("saved");
+    expect_finding(
+        folder.path(),
+        "banner.xlsx",
+        "merged-header",
+        "Trial!B1:XFD1",
+        &["merged", "unmerge"],
+    );
+}
+
+#[test]
 fn hidden_rows_and_columns_of_the_table_are_named() {
     let folder = temp_folder();
     let path = folder.path().join("hidden.xlsx");

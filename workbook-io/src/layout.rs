@@ -438,13 +438,14 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
                         area.a1()
                     ),
                 });
-                for (offset, col) in (area.first.col..=area.last.col).enumerate() {
-                    let name = format!("{base} {}", offset + 1);
-                    match headers.iter_mut().find(|(existing, _)| *existing == col) {
-                        Some(entry) => entry.1 = name,
-                        None => headers.push((col, name)),
-                    }
+                // By column, so that a merged area across thousands of
+                // columns costs their number, not its square.
+                let mut by_col: std::collections::BTreeMap<u32, String> = headers.drain(..).collect();
+                let last_col = area.last.col.min(crate::cell::MAX_COLS - 1);
+                for (offset, col) in (area.first.col..=last_col).enumerate() {
+                    by_col.insert(col, format!("{base} {}", offset + 1));
                 }
+                headers = by_col.into_iter().collect();
             }
         }
     }
@@ -458,7 +459,9 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
         let mut unnamed: Vec<u32> = data_cells
             .iter()
             .map(|(pos, _)| pos.col)
-            .filter(|col| *col > first_col && *col < last_col && !headers.iter().any(|(named, _)| named == col))
+            .filter(|col| {
+                *col > first_col && *col < last_col && headers.binary_search_by_key(col, |(named, _)| *named).is_err()
+            })
             .collect();
         unnamed.sort_unstable();
         unnamed.dedup();
@@ -745,6 +748,39 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
     }
 }
 
+/// The position of each column in a list of columns, looked up in constant
+/// time (a table may have thousands of columns and a million rows).
+struct ColumnIndex {
+    slots: Vec<u32>,
+}
+
+impl ColumnIndex {
+    fn new(columns: &[u32]) -> Self {
+        // Grids hold columns of a sheet only (below MAX_COLS).
+        let size = columns
+            .iter()
+            .map(|&col| col as usize + 1)
+            .max()
+            .unwrap_or(0)
+            .min(crate::cell::MAX_COLS as usize);
+        let mut slots = vec![u32::MAX; size];
+        // The first listing of a column wins, as a search from the front would find it.
+        for (index, &col) in columns.iter().enumerate().rev() {
+            if let Some(slot) = slots.get_mut(col as usize) {
+                *slot = index as u32;
+            }
+        }
+        Self { slots }
+    }
+
+    fn index(&self, col: u32) -> Option<usize> {
+        match self.slots.get(col as usize) {
+            Some(&slot) if slot != u32::MAX => Some(slot as usize),
+            _ => None,
+        }
+    }
+}
+
 /// Start and end indices of each row's cells.
 fn row_spans(cells: &[(CellPos, CellValue)]) -> Vec<(usize, usize)> {
     let mut spans = Vec::new();
@@ -863,6 +899,8 @@ fn build_long(
     let factor_cols: Vec<u32> = factors.iter().filter_map(|factor| factor.column).collect();
     let response_cols: Vec<u32> = responses.iter().filter_map(|response| response.column).collect();
     let mut record_rows = Vec::new();
+    let factor_of_col = ColumnIndex::new(&factor_cols);
+    let response_of_col = ColumnIndex::new(&response_cols);
 
     let rows = row_spans(data_cells);
     let mut row_labels: Vec<Option<CellValue>> = vec![None; factor_cols.len()];
@@ -872,10 +910,10 @@ fn build_long(
         row_labels.iter_mut().for_each(|slot| *slot = None);
         row_values.iter_mut().for_each(|slot| *slot = None);
         for (pos, value) in &data_cells[span.0..span.1] {
-            if let Some(index) = factor_cols.iter().position(|col| *col == pos.col) {
+            if let Some(index) = factor_of_col.index(pos.col) {
                 row_labels[index] = Some(*value);
             }
-            if let Some(index) = response_cols.iter().position(|col| *col == pos.col) {
+            if let Some(index) = response_of_col.index(pos.col) {
                 row_values[index] = Some(*value);
             }
         }
@@ -1022,8 +1060,9 @@ fn build_wide(
     // Blanks below a column's last value are its natural end; blanks between
     // values are gaps worth reporting.
     let mut previous_row: Vec<u32> = vec![header_row; level_columns.len()];
+    let level_of_col = ColumnIndex::new(&level_columns);
     for (pos, value) in data_cells {
-        let Some(level) = level_columns.iter().position(|col| *col == pos.col) else {
+        let Some(level) = level_of_col.index(pos.col) else {
             continue;
         };
         for gap_row in previous_row[level] + 1..pos.row {
