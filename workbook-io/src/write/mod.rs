@@ -62,7 +62,9 @@ pub enum Look {
     Heading,
     /// A table's column header.
     ColumnHeader,
-    /// An explanatory note in italics.
+    /// An explanatory note in italics. Placed with [`Sheet::put`] it is one
+    /// line that runs on across the empty cells to its right; placed with
+    /// [`Sheet::paragraph`] it wraps within its column.
     Note,
     /// The caution about acting on results.
     Caution,
@@ -236,6 +238,12 @@ pub struct Sheet {
     pub heights: Vec<(u32, f64)>,
     /// Areas where typing is limited to numbers.
     pub number_only: Vec<NumberOnly>,
+    /// Printed in portrait rather than landscape (still fitted to the page width).
+    pub portrait: bool,
+    /// Rows, zero-based, that start a new printed page. A sheet with breaks
+    /// is printed at 100% rather than fitted to the page width, so its
+    /// columns must fit the page by themselves.
+    pub page_breaks: Vec<u32>,
 }
 
 /// An area of a sheet where the spreadsheet accepts only numbers (any
@@ -358,6 +366,7 @@ struct Looks {
     heading: Format,
     column_header: Format,
     note: Format,
+    note_line: Format,
     caution: Format,
     verdict: Format,
     key: Format,
@@ -383,6 +392,7 @@ impl Looks {
                 .set_text_wrap()
                 .set_align(FormatAlign::Top)
                 .set_font_color(Color::RGB(0x505A64)),
+            note_line: Format::new().set_italic().set_font_color(Color::RGB(0x505A64)),
             caution: Format::new()
                 .set_bold()
                 .set_font_color(Color::RGB(0x8A3B00))
@@ -430,16 +440,37 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
         let created = ExcelDateTime::from_ymd(date.year, date.month, date.day)?;
         workbook.set_properties(&DocProperties::new().set_creation_datetime(&created));
     }
-    let mut number_formats: std::collections::HashMap<(NumberFormat, Look), Format> = std::collections::HashMap::new();
+    let mut number_formats: std::collections::HashMap<(NumberFormat, Look, bool), Format> =
+        std::collections::HashMap::new();
     for sheet in &book.sheets {
         let worksheet = workbook.add_worksheet();
         worksheet.set_name(&sheet.name)?;
         for (col, width) in &sheet.widths {
             worksheet.set_column_width(*col, *width)?;
         }
-        // Printed, every sheet fits the page width, in landscape.
-        worksheet.set_landscape();
-        worksheet.set_print_fit_to_pages(1, 0);
+        // Printed, every sheet fits the page width, in landscape unless asked otherwise.
+        if sheet.portrait {
+            worksheet.set_portrait();
+        } else {
+            worksheet.set_landscape();
+        }
+        // Spreadsheet programs ignore manual page breaks on a sheet scaled to
+        // fit, so a sheet with breaks is printed at its own size (its columns
+        // are chosen to fit the page).
+        if sheet.page_breaks.is_empty() {
+            worksheet.set_print_fit_to_pages(1, 0);
+        } else {
+            let mut breaks: Vec<u32> = sheet.page_breaks.iter().copied().filter(|&row| row > 0).collect();
+            breaks.sort_unstable();
+            breaks.dedup();
+            // The file format holds at most 1,023 manual breaks a sheet.
+            breaks.truncate(1_023);
+            worksheet.set_page_breaks(&breaks)?;
+        }
+        // Rows given a height hold paragraphs: their notes wrap; elsewhere a
+        // note is one line (a wrapped note in a narrow table column would be
+        // cut off at the row's height).
+        let paragraph_rows: std::collections::HashSet<u32> = sheet.heights.iter().map(|(row, _)| *row).collect();
         for (row, height) in &sheet.heights {
             worksheet.set_row_height(*row, *height)?;
         }
@@ -447,14 +478,18 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
             worksheet.set_freeze_panes(sheet.frozen_rows, 0)?;
         }
         for placed in &sheet.cells {
-            let format = looks.get(placed.look);
+            let format = if placed.look == Look::Note && !paragraph_rows.contains(&placed.row) {
+                &looks.note_line
+            } else {
+                looks.get(placed.look)
+            };
             match &placed.value {
                 Value::Text(text) => {
                     worksheet.write_string_with_format(placed.row, placed.col, clip_text(text), format)?;
                 }
                 Value::Number(number, number_format) if number.is_finite() => {
                     let with_number = number_formats
-                        .entry((*number_format, placed.look))
+                        .entry((*number_format, placed.look, paragraph_rows.contains(&placed.row)))
                         .or_insert_with(|| format.clone().set_num_format(number_format.code()));
                     worksheet.write_number_with_format(placed.row, placed.col, *number, &*with_number)?;
                 }
