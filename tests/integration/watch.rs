@@ -149,6 +149,10 @@ fn staged(setup: &Setup, name: &str, shift: f64) -> PathBuf {
 fn wait_for_file(path: &Path, watching: &Watching) {
     wait_until(&format!("{}", path.display()), || path.is_file())
         .unwrap_or_else(|message| panic!("{message}\n--- log\n{}", watching.log_text()));
+    // Results and problems workbooks go to the office check too (when it asks).
+    if path.extension().is_some_and(|extension| extension == "xlsx") {
+        crate::common::keep_output(path);
+    }
 }
 
 fn files_in(folder: &Path) -> Vec<String> {

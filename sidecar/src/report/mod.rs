@@ -77,7 +77,7 @@ pub(crate) fn significant_format(value: f64) -> NumberFormat {
 
 /// An RFC 3339 time such as `2026-03-09T14:05:31.123456Z` as a person reads
 /// it, `2026-03-09 14:05 UTC`; anything else is shown as it is.
-fn readable_time(rfc3339: &str) -> String {
+pub(crate) fn readable_time(rfc3339: &str) -> String {
     let bytes = rfc3339.as_bytes();
     let looks_right = bytes.len() >= 17
         && rfc3339.is_char_boundary(16)

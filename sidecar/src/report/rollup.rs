@@ -39,48 +39,6 @@ const ROW_WIDTHS: [f64; 14] = [
     24.0, 18.0, 22.0, 7.0, 18.0, 10.0, 16.0, 20.0, 10.0, 10.0, 10.0, 44.0, 8.0, 24.0,
 ];
 
-/// The rows sheet's table: text cells wrap within their column and each row is made tall
-/// enough for its longest wrapped text (spreadsheet programs do not always refit rows of
-/// wrapped text on opening).
-fn put_wrapped_table(sheet: &mut Sheet, rows: Vec<Vec<Value>>) {
-    for (col, header) in HEADERS.iter().enumerate() {
-        sheet.put(0, col as u16, Value::text(*header), Look::ColumnHeader);
-    }
-    sheet.heights.push((0, 31.0));
-    for (index, values) in rows.into_iter().enumerate() {
-        let row = index as u32 + 1;
-        let mut lines = 1.0_f64;
-        for (col, value) in values.into_iter().enumerate() {
-            let width = ROW_WIDTHS.get(col).copied().unwrap_or(12.0);
-            let length = match &value {
-                Value::Text(text) => text.chars().count(),
-                Value::Link { text, .. } => text.chars().count(),
-                _ => 0,
-            };
-            // About 1.1 characters of body text per unit of column width.
-            lines = lines.max((length as f64 / (width * 1.1)).ceil());
-            // Every cell top-aligned (wrapped text and numbers line up).
-            let look = if matches!(value, Value::Link { .. }) {
-                Look::Plain
-            } else {
-                Look::Paragraph
-            };
-            sheet.put(row, col as u16, value, look);
-        }
-        sheet.heights.push((row, 15.5 * lines.min(12.0)));
-    }
-}
-
-/// `2026-12-02T06:56:45.97Z` as `2026-12-02 06:56 UTC`; other text unchanged.
-fn readable_time(rfc3339: &str) -> String {
-    let bytes = rfc3339.as_bytes();
-    if rfc3339.len() >= 16 && rfc3339.is_char_boundary(16) && bytes[10] == b'T' && rfc3339.ends_with('Z') {
-        format!("{} {} UTC", &rfc3339[..10], &rfc3339[11..16])
-    } else {
-        rfc3339.to_string()
-    }
-}
-
 /// The kinds of verdict tallied, in the order shown.
 pub const VERDICT_KINDS: &[&str] = &[
     "conditions differ",
@@ -260,7 +218,7 @@ pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book 
             }
         }
     }
-    put_wrapped_table(&mut rows_sheet, rows);
+    rows_sheet.wrapped_table(0, 0, HEADERS, rows, &ROW_WIDTHS);
 
     let mut verdicts = Sheet::new(names::VERDICTS);
     verdicts.widths = vec![(0, 30.0), (1, 12.0)];
@@ -271,7 +229,7 @@ pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book 
         format!(
             "{} workbook(s), made {}. One count per workbook and response; a workbook that could not be read counts once.",
             entries.len(),
-            readable_time(created_at)
+            super::readable_time(created_at)
         ),
         Look::Note,
         30.0,

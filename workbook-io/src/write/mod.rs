@@ -313,6 +313,49 @@ impl Sheet {
         self.put(row, col, Value::Text(text), look);
     }
 
+    /// Places a table whose cells wrap within their columns, every cell top-aligned, each
+    /// row made tall enough for its longest text (estimated from `widths`, the columns'
+    /// widths in characters; spreadsheet programs do not always refit rows of wrapped text
+    /// on opening). Links keep their own look. Returns the first row after the table.
+    pub fn wrapped_table(
+        &mut self,
+        row: u32,
+        col: u16,
+        headers: &[&str],
+        rows: Vec<Vec<Value>>,
+        widths: &[f64],
+    ) -> u32 {
+        let width_of = |offset: usize| widths.get(offset).copied().unwrap_or(12.0).max(1.0);
+        let mut header_lines = 1.0_f64;
+        for (offset, header) in headers.iter().enumerate() {
+            header_lines = header_lines.max((header.chars().count() as f64 / (width_of(offset) * 1.1)).ceil());
+            self.put(row, col + offset as u16, Value::text(*header), Look::ColumnHeader);
+        }
+        self.heights.push((row, 15.5 * header_lines.min(4.0)));
+        let mut next = row + 1;
+        for values in rows {
+            let mut lines = 1.0_f64;
+            for (offset, value) in values.into_iter().enumerate() {
+                let length = match &value {
+                    Value::Text(text) => text.chars().count(),
+                    Value::Link { text, .. } => text.chars().count(),
+                    _ => 0,
+                };
+                // About 1.1 characters of body text per unit of column width.
+                lines = lines.max((length as f64 / (width_of(offset) * 1.1)).ceil());
+                let look = if matches!(value, Value::Link { .. }) {
+                    Look::Plain
+                } else {
+                    Look::Paragraph
+                };
+                self.put(next, col + offset as u16, value, look);
+            }
+            self.heights.push((next, 15.5 * lines.min(24.0)));
+            next += 1;
+        }
+        next
+    }
+
     /// Places a table: a header row and rows of values. Returns the first row after it.
     pub fn table(&mut self, row: u32, col: u16, headers: &[&str], rows: Vec<Vec<Value>>) -> u32 {
         for (offset, header) in headers.iter().enumerate() {
