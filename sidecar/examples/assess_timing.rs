@@ -10,8 +10,14 @@ use sidecar::analysis::oneway::fit_one_way;
 use sidecar::settings::Direction;
 
 fn main() {
-    let n_conditions = 20usize;
-    let n_values = 1_000_000usize;
+    let arg = |index: usize, default: usize| {
+        std::env::args()
+            .nth(index)
+            .and_then(|text| text.parse().ok())
+            .unwrap_or(default)
+    };
+    let n_conditions: usize = arg(1, 20);
+    let n_values: usize = arg(2, 1_000_000);
     let names: Vec<String> = (0..n_conditions).map(|index| format!("condition {index}")).collect();
     let mut state = 2026u64;
     let mut groups = Vec::with_capacity(n_values);
@@ -21,7 +27,8 @@ fn main() {
             .wrapping_mul(6364136223846793005)
             .wrapping_add(1442695040888963407);
         // Unequal sizes: condition c gets a share proportional to c + 1.
-        let share = ((state >> 33) as f64 / (1u64 << 31) as f64) * 210.0;
+        let triangle = (n_conditions * (n_conditions + 1) / 2) as f64;
+        let share = ((state >> 33) as f64 / (1u64 << 31) as f64) * triangle;
         let condition = ((((8.0 * share + 1.0).sqrt() - 1.0) / 2.0) as usize).min(n_conditions - 1);
         let noise = ((state >> 11) % 10_000) as f64 / 1000.0 - 5.0;
         groups.push(condition as u32);
@@ -64,6 +71,36 @@ fn main() {
         time("normality 1M", &|| {
             drop(sidecar::stats::normality::check_normality_thinned(&values, 2_000))
         });
+    }
+    for round in 0..3 {
+        let started = Instant::now();
+        drop(assess(
+            &fit,
+            &group_values,
+            &group_records,
+            &AssessmentOptions::default(),
+        ));
+        println!(
+            "repeat {round}: assessment {:.2} ms",
+            started.elapsed().as_secs_f64() * 1e3
+        );
+    }
+    for round in 0..3 {
+        let started = Instant::now();
+        std::thread::scope(|scope| {
+            scope.spawn(|| {
+                drop(assess(
+                    &fit,
+                    &group_values,
+                    &group_records,
+                    &AssessmentOptions::default(),
+                ))
+            });
+        });
+        println!(
+            "fresh thread {round}: assessment {:.2} ms",
+            started.elapsed().as_secs_f64() * 1e3
+        );
     }
     for (label, options) in [
         ("no direction, no control", AssessmentOptions::default()),

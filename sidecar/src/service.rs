@@ -32,6 +32,18 @@ pub const TOOL_NAME: &str = "trialyst";
 /// The tool's version.
 pub const TOOL_VERSION: &str = env!("CARGO_PKG_VERSION");
 
+/// Most conditions compared in one response. Every pair of conditions is
+/// compared, so the work and the tables grow with the square of the count:
+/// 200 conditions are 19,900 pairs. A table with more is almost always a
+/// sheet read in the wrong layout (a row of thousands of headers), and
+/// comparing it would exhaust the machine.
+pub const MAX_CONDITIONS: usize = 200;
+
+/// Most responses analysed from one table; the rest are left out with a
+/// finding. Each response gets its own section, chart and tables, and a
+/// sheet of thousands of numeric columns is rarely one trial.
+pub const MAX_RESPONSES: usize = 250;
+
 /// A flag a front end sets to stop a computation that is under way.
 #[derive(Debug, Clone, Default)]
 pub struct CancelFlag(Arc<AtomicBool>);
@@ -317,8 +329,8 @@ fn workbook_findings(workbook: &Workbook) -> Vec<Finding> {
             found: format!(".{extension}"),
             action: format!("read as {:?} from its contents", workbook.format()).to_lowercase(),
             message: format!(
-                "the file is named .{extension} but its contents are a {:?} workbook; it was read by its contents",
-                workbook.format()
+                "the file is named .{extension} but its contents are an .{} workbook; it was read by its contents (rename it to match)",
+                workbook.format().extensions()[0]
             ),
         });
     }
@@ -718,7 +730,7 @@ pub fn conditions_of(table: &TrialTable) -> (String, Vec<String>, Vec<u32>) {
 fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<WorkbookResults, ServiceError> {
     let Loaded {
         source,
-        table,
+        mut table,
         settings,
         settings_sources,
         mut findings,
@@ -726,6 +738,24 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
         ..
     } = loaded;
     let started = Instant::now();
+    if table.responses.len() > MAX_RESPONSES {
+        let first_left_out = &table.responses[MAX_RESPONSES];
+        findings.push(Finding {
+            kind: FindingKind::Analysis,
+            sheet: table.sheet.clone(),
+            cell: first_left_out
+                .column
+                .map(|col| workbook_io::CellPos::new(table.area.first.row, col).a1()),
+            found: format!("{} response columns", table.responses.len()),
+            action: format!("the first {MAX_RESPONSES} were analysed, the rest left out"),
+            message: format!(
+                "the table has {} response columns; the first {MAX_RESPONSES} were analysed and the rest, from '{}' on, were left out; name the responses to analyse",
+                table.responses.len(),
+                first_left_out.name
+            ),
+        });
+        table.responses.truncate(MAX_RESPONSES);
+    }
     let (condition_factor, condition_names, groups) = conditions_of(&table);
     let confidence = settings.confidence_level();
     let mut contrasts = Vec::new();
@@ -780,17 +810,29 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
                 });
             }
         }
-        let outcome = match fit_one_way(&condition_names, &groups, &response.values, confidence, &contrasts) {
-            Ok(fit) => ResponseOutcome::Analysed { one_way: Box::new(fit) },
-            Err(OneWayError::TooFewConditions { found }) => ResponseOutcome::NotAnalysed {
+        let with_values = counts.iter().filter(|&&count| count > 0).count();
+        let outcome = if with_values > MAX_CONDITIONS {
+            ResponseOutcome::NotAnalysed {
                 reason: format!(
-                    "only {found} condition(s) have values for '{}'; at least two are needed",
-                    response.name
+                    "'{}' has {with_values} conditions with values in sheet '{}' ({}), more than the {MAX_CONDITIONS} that are compared pair by pair; check that the table was read in the right layout or choose the columns to use",
+                    response.name,
+                    table.sheet,
+                    table.area.a1()
                 ),
-            },
-            Err(error) => ResponseOutcome::NotAnalysed {
-                reason: error.to_string(),
-            },
+            }
+        } else {
+            match fit_one_way(&condition_names, &groups, &response.values, confidence, &contrasts) {
+                Ok(fit) => ResponseOutcome::Analysed { one_way: Box::new(fit) },
+                Err(OneWayError::TooFewConditions { found }) => ResponseOutcome::NotAnalysed {
+                    reason: format!(
+                        "only {found} condition(s) have values for '{}'; at least two are needed",
+                        response.name
+                    ),
+                },
+                Err(error) => ResponseOutcome::NotAnalysed {
+                    reason: error.to_string(),
+                },
+            }
         };
         let assessment = match &outcome {
             ResponseOutcome::Analysed { one_way } => {

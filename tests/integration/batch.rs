@@ -66,6 +66,7 @@ fn a_mixed_batch_gives_exit_code_summary_and_roll_up() {
     );
 
     let rollup = folder.path().join("week.rollup.xlsx");
+    crate::common::keep_output(&rollup);
     let sheets = read_all_sheets(&rollup);
     let (name, rows) = &sheets[0];
     assert_eq!(name, "Week's trials");

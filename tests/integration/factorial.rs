@@ -532,6 +532,7 @@ fn binary_writes_factorial_sheets_and_json() {
     assert!(close(first["effect"].as_f64().unwrap_or(f64::NAN), 3.1025, 1e-12));
     // The results workbook, read back with calamine.
     let results_path = folder.path().join("eddy.results.xlsx");
+    crate::common::keep_output(&results_path);
     let mut workbook = open_workbook_auto(&results_path).expect(&context);
     let sheets = workbook.sheet_names();
     for wanted in [

@@ -327,7 +327,7 @@ fn wrong_extension() {
     assert!(
         finding
             .message
-            .contains("named .xls but its contents are a Xlsx workbook"),
+            .contains("named .xls but its contents are an .xlsx workbook"),
         "{finding:#?}"
     );
 }

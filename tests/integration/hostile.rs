@@ -13,15 +13,15 @@ use crate::common::{sha256_of, temp_folder, trialyst, trialyst_path, write_rows,
 
 /// Address space allowed to the binary in these tests. A parser that sizes
 /// a buffer from a hostile count asks for far more and fails at once.
-const ADDRESS_SPACE_CAP_KIB: u64 = 1_536 * 1024;
+pub(crate) const ADDRESS_SPACE_CAP_KIB: u64 = 1_536 * 1024;
 
 /// A run that takes longer than this has been stalled by the file; the
 /// honest work on these tiny files takes milliseconds (this is a hang
 /// detector, not a speed target).
-const STALL_LIMIT: Duration = Duration::from_secs(30);
+pub(crate) const STALL_LIMIT: Duration = Duration::from_secs(30);
 
 /// Runs `trialyst run --json --no-write --jobs 1 <file>` under the address-space cap.
-fn run_capped(folder: &Path, file_name: &str) -> (Run, Duration) {
+pub(crate) fn run_capped(folder: &Path, file_name: &str) -> (Run, Duration) {
     let started = Instant::now();
     let run = if cfg!(target_os = "linux") && Path::new("/bin/sh").exists() {
         let binary = trialyst_path();
@@ -48,7 +48,7 @@ fn run_capped(folder: &Path, file_name: &str) -> (Run, Duration) {
 /// Runs the binary on a file that must be refused: exit 1 (not a signal),
 /// one JSON line saying failed, an error naming the file and containing
 /// `expected`, the file unchanged, and no stall. Returns the error text.
-fn expect_refused(folder: &Path, file_name: &str, expected: &str) -> String {
+pub(crate) fn expect_refused(folder: &Path, file_name: &str, expected: &str) -> String {
     let path = folder.join(file_name);
     let hash_before = sha256_of(&path);
     let (run, elapsed) = run_capped(folder, file_name);
@@ -65,17 +65,17 @@ fn expect_refused(folder: &Path, file_name: &str, expected: &str) -> String {
     error
 }
 
-const CONTENT_TYPES: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
+pub(crate) const CONTENT_TYPES: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
 <Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types"><Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/><Default Extension="xml" ContentType="application/xml"/><Override PartName="/xl/workbook.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/><Override PartName="/xl/worksheets/sheet1.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/><Override PartName="/xl/sharedStrings.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sharedStrings+xml"/></Types>"#;
-const ROOT_RELS: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
+pub(crate) const ROOT_RELS: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
 <Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships"><Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/officeDocument" Target="xl/workbook.xml"/></Relationships>"#;
-const WORKBOOK: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
+pub(crate) const WORKBOOK: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
 <workbook xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships"><sheets><sheet name="Trial" sheetId="1" r:id="rId1"/></sheets></workbook>"#;
-const WORKBOOK_RELS: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
+pub(crate) const WORKBOOK_RELS: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
 <Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships"><Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/worksheet" Target="worksheets/sheet1.xml"/><Relationship Id="rId2" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/sharedStrings" Target="sharedStrings.xml"/></Relationships>"#;
 
 /// Sheet XML from `<row>` elements.
-fn sheet_xml(rows: &str) -> String {
+pub(crate) fn sheet_xml(rows: &str) -> String {
     format!(
         r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
 <worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData>{rows}</sheetData></worksheet>"#
@@ -83,7 +83,7 @@ fn sheet_xml(rows: &str) -> String {
 }
 
 /// A small long table in inline strings and numbers, rows 1 to 9 of columns A and B.
-fn small_table_rows() -> String {
+pub(crate) fn small_table_rows() -> String {
     let mut rows = String::from(
         r#"<row r="1"><c r="A1" t="inlineStr"><is><t>Condition</t></is></c><c r="B1" t="inlineStr"><is><t>Weight</t></is></c></row>"#,
     );
@@ -99,7 +99,7 @@ fn small_table_rows() -> String {
 }
 
 /// Writes a zip container from (name, bytes) entries, deflated.
-fn write_zip(path: &Path, entries: &[(&str, &[u8])]) {
+pub(crate) fn write_zip(path: &Path, entries: &[(&str, &[u8])]) {
     let file = std::fs::File::create(path).expect("created");
     let mut zip = zip::ZipWriter::new(file);
     let options = zip::write::SimpleFileOptions::default().compression_method(zip::CompressionMethod::Deflated);
@@ -111,7 +111,7 @@ fn write_zip(path: &Path, entries: &[(&str, &[u8])]) {
 }
 
 /// The parts of a minimal xlsx around the given sheet and shared-strings XML.
-fn write_xlsx_parts(path: &Path, sheet: &str, shared_strings: &str) {
+pub(crate) fn write_xlsx_parts(path: &Path, sheet: &str, shared_strings: &str) {
     write_zip(
         path,
         &[
@@ -125,7 +125,7 @@ fn write_xlsx_parts(path: &Path, sheet: &str, shared_strings: &str) {
     );
 }
 
-const EMPTY_SHARED_STRINGS: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
+pub(crate) const EMPTY_SHARED_STRINGS: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
 <sst xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" count="0" uniqueCount="0"></sst>"#;
 
 #[test]
@@ -220,7 +220,7 @@ fn truncated_file_is_refused() {
 }
 
 /// A compound file with the given streams.
-fn write_compound(path: &Path, streams: &[(&str, &[u8])]) {
+pub(crate) fn write_compound(path: &Path, streams: &[(&str, &[u8])]) {
     let mut compound = cfb::create(path).expect("a compound file");
     for (name, bytes) in streams {
         let mut stream = compound.create_stream(name).expect("a stream");
@@ -304,7 +304,7 @@ fn xlsb_external_sheet_count_bomb_is_refused() {
 }
 
 /// One BIFF8 record: type, length, body (MS-XLS 2.1.4).
-fn biff_record(record_type: u16, body: &[u8]) -> Vec<u8> {
+pub(crate) fn biff_record(record_type: u16, body: &[u8]) -> Vec<u8> {
     let mut bytes = record_type.to_le_bytes().to_vec();
     bytes.extend((body.len() as u16).to_le_bytes());
     bytes.extend(body);
@@ -312,7 +312,7 @@ fn biff_record(record_type: u16, body: &[u8]) -> Vec<u8> {
 }
 
 /// A BIFF8 Workbook stream with one worksheet whose substream holds `sheet_records`.
-fn xls_workbook_stream(sheet_records: &[Vec<u8>]) -> Vec<u8> {
+pub(crate) fn xls_workbook_stream(sheet_records: &[Vec<u8>]) -> Vec<u8> {
     // BOF (MS-XLS 2.4.21): version 0x0600 (BIFF8), dt 0x0005 globals / 0x0010 worksheet.
     let bof = |dt: u16| {
         let mut body = 0x0600u16.to_le_bytes().to_vec();
@@ -340,7 +340,7 @@ fn xls_workbook_stream(sheet_records: &[Vec<u8>]) -> Vec<u8> {
 }
 
 /// Number (MS-XLS 2.4.180): row, column, format index, IEEE double.
-fn xls_number(row: u16, col: u16, value: f64) -> Vec<u8> {
+pub(crate) fn xls_number(row: u16, col: u16, value: f64) -> Vec<u8> {
     let mut body = row.to_le_bytes().to_vec();
     body.extend(col.to_le_bytes());
     body.extend(0u16.to_le_bytes());

@@ -1,10 +1,11 @@
 //! trialyst's integration tests, one module per area: the command line end
 //! to end, NIST accuracy through the read path, data findings, hostile
-//! files, factorial trials, trial plans and the protocol server. The
+//! files and a catalogue of broken and hostile inputs, factorial trials, trial plans and the protocol server. The
 //! command-line tests run the real program, built from `sidecar/src/main.rs`
 //! as this package's `trialyst-under-test` binary (see tests/Cargo.toml for why).
 
 mod batch;
+mod catalogue;
 mod cli;
 mod common;
 mod factorial;

@@ -14,11 +14,13 @@ fn trialyst() -> PathBuf {
 }
 
 fn run_in(folder: &Path, args: &[&str]) -> Output {
+    let before = crate::common::workbook_snapshot(folder);
     let output = Command::new(trialyst())
         .args(args)
         .current_dir(folder)
         .output()
         .expect("trialyst runs");
+    crate::common::keep_new_outputs(folder, &before);
     if !output.status.success() {
         let listing: Vec<String> = std::fs::read_dir(folder)
             .map(|entries| {

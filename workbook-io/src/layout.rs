@@ -73,6 +73,8 @@ pub enum FindingKind {
     /// A run that departs from the workbook's trial plan: missing, added,
     /// with changed settings, or out of the planned order.
     PlanDeparture,
+    /// Rows or columns of the table that are hidden in the sheet.
+    HiddenCells,
 }
 
 /// One data problem, at one place.
@@ -293,6 +295,97 @@ struct HeaderColumn {
 /// [`LayoutError::NoTable`] when the sheet holds nothing analysable,
 /// [`LayoutError::UnknownColumn`] when a requested column is missing.
 pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTable, LayoutError> {
+    let mut table = detect_table_cells(grid, request)?;
+    table.findings.extend(hidden_findings(grid, &table));
+    Ok(table)
+}
+
+/// Rows and columns of the table that the sheet hides: their values are
+/// used like any other, which the person who hid them may not expect.
+fn hidden_findings(grid: &SheetGrid, table: &TrialTable) -> Vec<Finding> {
+    let area = table.area;
+    let mut findings = Vec::new();
+    let rows: Vec<u32> = grid
+        .hidden_rows
+        .iter()
+        .copied()
+        .filter(|row| (area.first.row..=area.last.row).contains(row))
+        .collect();
+    if let Some(&first) = rows.first() {
+        findings.push(Finding {
+            kind: FindingKind::HiddenCells,
+            sheet: table.sheet.clone(),
+            cell: Some(
+                CellRect {
+                    first: CellPos::new(first, area.first.col),
+                    last: CellPos::new(first, area.last.col),
+                }
+                .a1(),
+            ),
+            found: format!("{} hidden row(s)", rows.len()),
+            action: "their values were used like any other".into(),
+            message: format!(
+                "row(s) {} of the table are hidden in the sheet; their values were used like any other; unhide them to check, and delete the runs that should not count",
+                number_list(&rows)
+            ),
+        });
+    }
+    let cols: Vec<u32> = grid
+        .hidden_cols
+        .iter()
+        .copied()
+        .filter(|col| (area.first.col..=area.last.col).contains(col))
+        .collect();
+    if let Some(&first) = cols.first() {
+        let letters: Vec<String> = cols.iter().take(20).map(|&col| column_letters(col)).collect();
+        findings.push(Finding {
+            kind: FindingKind::HiddenCells,
+            sheet: table.sheet.clone(),
+            cell: Some(
+                CellRect {
+                    first: CellPos::new(area.first.row, first),
+                    last: CellPos::new(area.last.row, first),
+                }
+                .a1(),
+            ),
+            found: format!("{} hidden column(s)", cols.len()),
+            action: "their values were used like any other".into(),
+            message: format!(
+                "column(s) {}{} of the table are hidden in the sheet; their values were used like any other; unhide them to check",
+                letters.join(", "),
+                if cols.len() > 20 { ", ..." } else { "" }
+            ),
+        });
+    }
+    findings
+}
+
+/// Zero-based rows as sheet row numbers, runs shortened (`5, 7-9`), at most 20 items.
+fn number_list(rows: &[u32]) -> String {
+    let mut items: Vec<String> = Vec::new();
+    let mut index = 0;
+    while index < rows.len() {
+        let start = rows[index];
+        let mut end = start;
+        while index + 1 < rows.len() && rows[index + 1] == end + 1 {
+            index += 1;
+            end += 1;
+        }
+        items.push(if end > start {
+            format!("{}-{}", start + 1, end + 1)
+        } else {
+            format!("{}", start + 1)
+        });
+        index += 1;
+    }
+    if items.len() > 20 {
+        items.truncate(20);
+        items.push("...".into());
+    }
+    items.join(", ")
+}
+
+fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTable, LayoutError> {
     let sheet = grid.name.clone();
     let cells: Vec<(CellPos, CellValue)> = match request.range {
         Some(rect) => grid
@@ -345,13 +438,14 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
                         area.a1()
                     ),
                 });
-                for (offset, col) in (area.first.col..=area.last.col).enumerate() {
-                    let name = format!("{base} {}", offset + 1);
-                    match headers.iter_mut().find(|(existing, _)| *existing == col) {
-                        Some(entry) => entry.1 = name,
-                        None => headers.push((col, name)),
-                    }
+                // By column, so that a merged area across thousands of
+                // columns costs their number, not its square.
+                let mut by_col: std::collections::BTreeMap<u32, String> = headers.drain(..).collect();
+                let last_col = area.last.col.min(crate::cell::MAX_COLS - 1);
+                for (offset, col) in (area.first.col..=last_col).enumerate() {
+                    by_col.insert(col, format!("{base} {}", offset + 1));
                 }
+                headers = by_col.into_iter().collect();
             }
         }
     }
@@ -365,7 +459,9 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
         let mut unnamed: Vec<u32> = data_cells
             .iter()
             .map(|(pos, _)| pos.col)
-            .filter(|col| *col > first_col && *col < last_col && !headers.iter().any(|(named, _)| named == col))
+            .filter(|col| {
+                *col > first_col && *col < last_col && headers.binary_search_by_key(col, |(named, _)| *named).is_err()
+            })
             .collect();
         unnamed.sort_unstable();
         unnamed.dedup();
@@ -665,6 +761,39 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
     }
 }
 
+/// The position of each column in a list of columns, looked up in constant
+/// time (a table may have thousands of columns and a million rows).
+struct ColumnIndex {
+    slots: Vec<u32>,
+}
+
+impl ColumnIndex {
+    fn new(columns: &[u32]) -> Self {
+        // Grids hold columns of a sheet only (below MAX_COLS).
+        let size = columns
+            .iter()
+            .map(|&col| col as usize + 1)
+            .max()
+            .unwrap_or(0)
+            .min(crate::cell::MAX_COLS as usize);
+        let mut slots = vec![u32::MAX; size];
+        // The first listing of a column wins, as a search from the front would find it.
+        for (index, &col) in columns.iter().enumerate().rev() {
+            if let Some(slot) = slots.get_mut(col as usize) {
+                *slot = index as u32;
+            }
+        }
+        Self { slots }
+    }
+
+    fn index(&self, col: u32) -> Option<usize> {
+        match self.slots.get(col as usize) {
+            Some(&slot) if slot != u32::MAX => Some(slot as usize),
+            _ => None,
+        }
+    }
+}
+
 /// Start and end indices of each row's cells.
 fn row_spans(cells: &[(CellPos, CellValue)]) -> Vec<(usize, usize)> {
     let mut spans = Vec::new();
@@ -788,6 +917,8 @@ fn build_long(
     let factor_cols: Vec<u32> = factors.iter().filter_map(|factor| factor.column).collect();
     let response_cols: Vec<u32> = responses.iter().filter_map(|response| response.column).collect();
     let mut record_rows = Vec::new();
+    let factor_of_col = ColumnIndex::new(&factor_cols);
+    let response_of_col = ColumnIndex::new(&response_cols);
 
     let rows = row_spans(data_cells);
     let mut row_labels: Vec<Option<CellValue>> = vec![None; factor_cols.len()];
@@ -797,10 +928,10 @@ fn build_long(
         row_labels.iter_mut().for_each(|slot| *slot = None);
         row_values.iter_mut().for_each(|slot| *slot = None);
         for (pos, value) in &data_cells[span.0..span.1] {
-            if let Some(index) = factor_cols.iter().position(|col| *col == pos.col) {
+            if let Some(index) = factor_of_col.index(pos.col) {
                 row_labels[index] = Some(*value);
             }
-            if let Some(index) = response_cols.iter().position(|col| *col == pos.col) {
+            if let Some(index) = response_of_col.index(pos.col) {
                 row_values[index] = Some(*value);
             }
         }
@@ -980,8 +1111,9 @@ fn build_wide(
     // Blanks below a column's last value are its natural end; blanks between
     // values are gaps worth reporting.
     let mut previous_row: Vec<u32> = vec![header_row; level_columns.len()];
+    let level_of_col = ColumnIndex::new(&level_columns);
     for (pos, value) in data_cells {
-        let Some(level) = level_columns.iter().position(|col| *col == pos.col) else {
+        let Some(level) = level_of_col.index(pos.col) else {
             continue;
         };
         for gap_row in previous_row[level] + 1..pos.row {

@@ -134,15 +134,35 @@ fn parse_header_block(block: &[u8]) -> Header {
     }
 }
 
+/// A message as the library reads it: the same types, in the same order.
+#[derive(serde::Deserialize)]
+#[serde(untagged)]
+enum Incoming {
+    // The variants are only tried, never read.
+    #[allow(dead_code)]
+    Response(Response),
+    #[allow(dead_code)]
+    Request(Request),
+}
+
 /// Checks a complete body: it must be JSON and a JSON-RPC request,
 /// notification or response. Returns the error answer when it is not.
 fn check_body(body: &[u8]) -> Result<(), Vec<u8>> {
-    // One parse in the common case: a well-formed request or notification.
-    // The library reads the same types, so what passes here it accepts.
-    if serde_json::from_slice::<Request>(body).is_ok() || serde_json::from_slice::<Response>(body).is_ok() {
+    // The library reads a body as UTF-8 text, then as an untagged choice of
+    // response or request (which buffers the whole message and so checks
+    // every string, unknown fields' included); a body it cannot read stops
+    // its reader for good. So the same two steps are taken here.
+    let Ok(text) = std::str::from_utf8(body) else {
+        return Err(error_frame(
+            Value::Null,
+            PARSE_ERROR,
+            "the message is not UTF-8 text".into(),
+        ));
+    };
+    if serde_json::from_str::<Incoming>(text).is_ok() {
         return Ok(());
     }
-    let value: Value = match serde_json::from_slice(body) {
+    let value: Value = match serde_json::from_str(text) {
         Ok(value) => value,
         Err(error) => {
             return Err(error_frame(
@@ -447,6 +467,26 @@ mod tests {
         assert_eq!(codes, vec![-32700, -32600, -32600, -32700, -32700], "{answers:?}");
         assert_eq!(answers[1]["id"], 7, "a readable id is answered");
         assert!(answers[3]["error"]["message"].as_str().unwrap_or("").contains("twelve"));
+    }
+
+    #[tokio::test]
+    async fn bodies_the_library_cannot_read_are_answered_not_forwarded() {
+        // Found by the framing fuzz target: invalid UTF-8, and a lone
+        // surrogate escape, in a field the request type ignores, passed the
+        // check and would have stopped the library's reader for good.
+        let mut input = Vec::new();
+        input.extend_from_slice(&frame(
+            b"{\"jsonrpc\":\"2.0\",\"method\":\"exit\",\"junk\":\"\x97\x85\"}",
+        ));
+        input.extend_from_slice(&frame(br#"{"jsonrpc":"2.0","method":"exit","junk":"\udc00"}"#));
+        input.extend_from_slice(&frame(EXIT));
+        let (forwarded, answers) = run(input, FramingOptions::default()).await;
+        assert_eq!(forwarded, frame(EXIT));
+        assert_eq!(answers.len(), 2, "{answers:?}");
+        assert!(answers[0]["error"]["message"]
+            .as_str()
+            .unwrap_or("")
+            .contains("not UTF-8"));
     }
 
     #[tokio::test]

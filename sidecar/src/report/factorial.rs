@@ -172,9 +172,28 @@ fn insert_before_cautions(summary: &mut Sheet, lines: &[(String, Look)]) {
             chart.anchor.0 += shift;
         }
     }
+    // Row heights and page breaks belong to the rows that moved.
+    for (row, _) in &mut summary.heights {
+        if *row >= at {
+            *row += shift;
+        }
+    }
+    for row in &mut summary.page_breaks {
+        if *row >= at {
+            *row += shift;
+        }
+    }
+    // The factorial reading starts on a page of its own, wrapped like the
+    // rest of the summary.
+    summary.page_breaks.push(at);
+    let width = summary
+        .widths
+        .iter()
+        .find(|(col, _)| *col == 0)
+        .map_or(72.0, |(_, width)| *width);
     for (offset, (text, look)) in lines.iter().enumerate() {
         if !text.is_empty() {
-            summary.put(at + offset as u32, 0, Value::text(text.clone()), *look);
+            summary.paragraph(at + offset as u32, 0, text.clone(), *look, width);
         }
     }
 }
@@ -186,8 +205,11 @@ fn anova_rows(lines: &[AnovaLine]) -> Vec<Vec<Value>> {
             vec![
                 Value::text(line.source.replace(':', " × ")),
                 Value::integer(line.df as f64),
-                Value::Number(line.sum_sq, NumberFormat::Scientific(6)),
-                optional(line.mean_sq, NumberFormat::Scientific(6)),
+                Value::Number(line.sum_sq, super::significant_format(line.sum_sq)),
+                optional(
+                    line.mean_sq,
+                    line.mean_sq.map_or(NumberFormat::General, super::significant_format),
+                ),
                 optional(line.f_value, NumberFormat::Decimals(4)),
                 optional(line.p_value, NumberFormat::PValue),
             ]

@@ -33,7 +33,7 @@ pub mod names {
     pub const PROVENANCE: &str = "Provenance";
 }
 
-fn decimals_for(fit: &OneWayFit) -> u8 {
+pub(crate) fn decimals_for(fit: &OneWayFit) -> u8 {
     // Enough decimals to show the pooled SD to three significant digits.
     let scale = if fit.pooled_sd.is_finite() && fit.pooled_sd > 0.0 {
         fit.pooled_sd
@@ -59,6 +59,38 @@ fn optional(value: Option<f64>, format: NumberFormat) -> Value {
     }
 }
 
+/// A display format showing about seven significant digits: fixed decimals
+/// for magnitudes from 1e-4 to 1e9, scientific notation outside them (sums
+/// of squares span any range; a fixed number of decimals would hide small
+/// ones, and the general format prints fifteen digits).
+pub(crate) fn significant_format(value: f64) -> NumberFormat {
+    let magnitude = value.abs();
+    if magnitude == 0.0 || !magnitude.is_finite() {
+        return NumberFormat::General;
+    }
+    if !(1e-4..1e9).contains(&magnitude) {
+        return NumberFormat::Scientific(6);
+    }
+    let leading = magnitude.log10().floor() as i32;
+    NumberFormat::Decimals((6 - leading).clamp(0, 10) as u8)
+}
+
+/// An RFC 3339 time such as `2026-03-09T14:05:31.123456Z` as a person reads
+/// it, `2026-03-09 14:05 UTC`; anything else is shown as it is.
+pub(crate) fn readable_time(rfc3339: &str) -> String {
+    let bytes = rfc3339.as_bytes();
+    let looks_right = bytes.len() >= 17
+        && rfc3339.is_char_boundary(16)
+        && bytes[10] == b'T'
+        && bytes[13] == b':'
+        && rfc3339.ends_with('Z');
+    if looks_right {
+        format!("{} {} UTC", &rfc3339[..10], &rfc3339[11..16])
+    } else {
+        rfc3339.to_string()
+    }
+}
+
 fn percent_text(confidence: f64) -> String {
     format!("{}%", round_for_text(confidence * 100.0, 3))
 }
@@ -71,27 +103,32 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     let mut pairs = Sheet::new(names::PAIRS);
     let mut contrasts = Sheet::new(names::CONTRASTS);
 
-    const SUMMARY_WIDTH: f64 = 100.0;
+    // About 6.5 inches in the usual fonts: the text width of an upright A4
+    // or Letter page (the summary is printed at 100%, one page per response).
+    const SUMMARY_WIDTH: f64 = 72.0;
     summary.widths = vec![(0, SUMMARY_WIDTH)];
+    // Printed, each response's section and its chart stand on one upright page.
+    summary.portrait = true;
     summary.put(
         0,
         0,
         Value::text(format!("Trial results: {}", results.source.file_name)),
         Look::Title,
     );
-    summary.put(
+    summary.paragraph(
         1,
         0,
-        Value::text(format!(
+        format!(
             "Sheet '{}', cells {}, {} records; analysed {} by {} {}.",
             results.source.sheet,
             results.source.range,
             results.table.n_records,
-            results.created_at,
+            readable_time(&results.created_at),
             results.tool,
             results.tool_version
-        )),
+        ),
         Look::Note,
+        SUMMARY_WIDTH,
     );
     let mut summary_row = 3;
 
@@ -108,7 +145,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
         (9, 14.0),
         (10, 14.0),
     ];
-    anova.widths = vec![(0, 24.0), (1, 8.0), (2, 18.0), (3, 16.0), (4, 12.0), (5, 12.0)];
+    anova.widths = vec![(0, 40.0), (1, 8.0), (2, 18.0), (3, 16.0), (4, 12.0), (5, 12.0)];
     pairs.widths = vec![
         (0, 22.0),
         (1, 22.0),
@@ -136,7 +173,10 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     let mut contrasts_row = 0;
     let mut any_contrast = false;
 
-    for response in &results.responses {
+    for (response_index, response) in results.responses.iter().enumerate() {
+        if response_index > 0 {
+            summary.page_breaks.push(summary_row);
+        }
         summary.put(
             summary_row,
             0,
@@ -253,7 +293,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
                 labels: None,
             }],
             anchor: (summary_row + 1, 0),
-            size: (620, 300),
+            size: (500, 290),
         });
         summary_row += 17;
 
@@ -267,8 +307,8 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
                 vec![
                     Value::text(line.source.clone()),
                     Value::integer(line.df),
-                    Value::Number(line.ss, NumberFormat::Scientific(6)),
-                    optional(line.ms, NumberFormat::Scientific(6)),
+                    Value::Number(line.ss, significant_format(line.ss)),
+                    optional(line.ms, line.ms.map_or(NumberFormat::General, significant_format)),
                     optional(line.f, NumberFormat::Decimals(4)),
                     optional(line.p, NumberFormat::PValue),
                 ]
@@ -515,4 +555,29 @@ fn provenance_sheet(results: &WorkbookResults) -> Sheet {
         Look::Note,
     );
     sheet
+}
+
+#[cfg(test)]
+mod tests {
+    use super::{readable_time, significant_format};
+    use workbook_io::write::NumberFormat;
+
+    #[test]
+    fn sums_of_squares_show_seven_significant_digits() {
+        assert_eq!(significant_format(0.179238166666667), NumberFormat::Decimals(7));
+        assert_eq!(significant_format(1234.5678), NumberFormat::Decimals(3));
+        assert_eq!(significant_format(-12.5), NumberFormat::Decimals(5));
+        assert_eq!(significant_format(2.5e12), NumberFormat::Scientific(6));
+        assert_eq!(significant_format(3e-9), NumberFormat::Scientific(6));
+        assert_eq!(significant_format(0.0), NumberFormat::General);
+    }
+
+    #[test]
+    fn times_are_shown_to_the_minute() {
+        assert_eq!(readable_time("2026-03-09T14:05:31.123456789Z"), "2026-03-09 14:05 UTC");
+        assert_eq!(readable_time("2026-03-09T14:05:31Z"), "2026-03-09 14:05 UTC");
+        // Not the expected shape: shown unchanged.
+        assert_eq!(readable_time("yesterday"), "yesterday");
+        assert_eq!(readable_time("2026-03-09T14:05:31+01:00"), "2026-03-09T14:05:31+01:00");
+    }
 }

@@ -6,25 +6,41 @@ use workbook_io::write::{Book, Look, Sheet, Value};
 
 use crate::service::{standard_cautions, Problem};
 
+/// Column widths in characters: where, what is wrong, how to fix it (wrapped, so that the
+/// sheet prints legibly on one page width).
+const WIDTHS: [f64; 3] = [22.0, 55.0, 55.0];
+
 /// The problems workbook's sheet name.
 pub const SHEET: &str = "What to fix";
 
 /// Builds the problems workbook for `file_name`.
 pub fn build_problems_book(file_name: &str, created_at: &str, problems: &[Problem]) -> Book {
     let mut sheet = Sheet::new(SHEET);
-    sheet.widths = vec![(0, 22.0), (1, 60.0), (2, 60.0)];
+    sheet.widths = WIDTHS
+        .iter()
+        .enumerate()
+        .map(|(col, &width)| (col as u16, width))
+        .collect();
     sheet.put(
         0,
         0,
         Value::text(format!("{file_name} could not be analysed")),
         Look::Title,
     );
+    // Two short note lines (each overflows across the empty cells to its right).
     sheet.put(
         1,
         0,
         Value::text(format!(
-            "Checked {created_at}. Fix what is listed below and save the workbook again; it will be analysed anew. The workbook itself was not changed."
+            "Checked {}. The workbook itself was not changed.",
+            super::readable_time(created_at)
         )),
+        Look::Note,
+    );
+    sheet.put(
+        2,
+        0,
+        Value::text("Fix what is listed below and save the workbook again; it will be analysed anew."),
         Look::Note,
     );
     let rows: Vec<Vec<Value>> = problems
@@ -41,10 +57,10 @@ pub fn build_problems_book(file_name: &str, created_at: &str, problems: &[Proble
             ]
         })
         .collect();
-    let mut row = sheet.table(3, 0, &["Where", "What is wrong", "How to fix it"], rows);
+    let mut row = sheet.wrapped_table(4, 0, &["Where", "What is wrong", "How to fix it"], rows, &WIDTHS);
     row += 1;
     for caution in standard_cautions() {
-        sheet.paragraph(row, 1, caution, Look::Caution, 60.0);
+        sheet.paragraph(row, 1, caution, Look::Caution, WIDTHS[1]);
         row += 1;
     }
     Book { sheets: vec![sheet] }

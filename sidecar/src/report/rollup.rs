@@ -33,6 +33,12 @@ pub const HEADERS: &[&str] = &[
     "Results file",
 ];
 
+/// Column widths (characters) of the rows sheet, narrow enough that a printed page in
+/// landscape stays legible; longer text wraps within its cell.
+const ROW_WIDTHS: [f64; 14] = [
+    24.0, 18.0, 22.0, 7.0, 18.0, 10.0, 16.0, 20.0, 10.0, 10.0, 10.0, 44.0, 8.0, 24.0,
+];
+
 /// The kinds of verdict tallied, in the order shown.
 pub const VERDICT_KINDS: &[&str] = &[
     "conditions differ",
@@ -141,12 +147,14 @@ fn response_row(entry: &RollupEntry<'_>, response: &ResponseResult, findings: us
             .filter(|pair| pair.difference.is_finite())
             .max_by(|a, b| a.difference.abs().total_cmp(&b.difference.abs()))
     });
+    // As many decimals as the results workbook shows for this response.
+    let places = super::decimals_for(fit);
     let (pair_text, difference, low, high) = match largest {
         Some(pair) => (
             Value::text(format!("{} minus {}", pair.first, pair.second)),
-            Value::Number(pair.difference, NumberFormat::General),
-            Value::Number(pair.low, NumberFormat::General),
-            Value::Number(pair.high, NumberFormat::General),
+            Value::Number(pair.difference, NumberFormat::Decimals(places)),
+            Value::Number(pair.low, NumberFormat::Decimals(places)),
+            Value::Number(pair.high, NumberFormat::Decimals(places)),
         ),
         None => (Value::Blank, Value::Blank, Value::Blank, Value::Blank),
     };
@@ -177,22 +185,11 @@ fn response_row(entry: &RollupEntry<'_>, response: &ResponseResult, findings: us
 /// Builds the roll-up workbook of a batch.
 pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book {
     let mut rows_sheet = Sheet::new(names::ROWS);
-    rows_sheet.widths = vec![
-        (0, 28.0),
-        (1, 20.0),
-        (2, 28.0),
-        (3, 9.0),
-        (4, 30.0),
-        (5, 12.0),
-        (6, 20.0),
-        (7, 26.0),
-        (8, 12.0),
-        (9, 12.0),
-        (10, 12.0),
-        (11, 70.0),
-        (12, 9.0),
-        (13, 36.0),
-    ];
+    rows_sheet.widths = ROW_WIDTHS
+        .iter()
+        .enumerate()
+        .map(|(col, &width)| (col as u16, width))
+        .collect();
     rows_sheet.frozen_rows = 1;
     let mut tally = [0usize; 5];
     let mut rows = Vec::new();
@@ -221,19 +218,21 @@ pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book 
             }
         }
     }
-    rows_sheet.table(0, 0, HEADERS, rows);
+    rows_sheet.wrapped_table(0, 0, HEADERS, rows, &ROW_WIDTHS);
 
     let mut verdicts = Sheet::new(names::VERDICTS);
-    verdicts.widths = vec![(0, 26.0), (1, 12.0)];
+    verdicts.widths = vec![(0, 30.0), (1, 12.0)];
     verdicts.put(0, 0, Value::text("Verdicts of the batch"), Look::Title);
-    verdicts.put(
+    verdicts.paragraph(
         1,
         0,
-        Value::text(format!(
-            "{} workbook(s), made {created_at}. One count per workbook and response; a workbook that could not be read counts once.",
-            entries.len()
-        )),
+        format!(
+            "{} workbook(s), made {}. One count per workbook and response; a workbook that could not be read counts once.",
+            entries.len(),
+            super::readable_time(created_at)
+        ),
         Look::Note,
+        30.0,
     );
     let tally_rows: Vec<Vec<Value>> = VERDICT_KINDS
         .iter()

@@ -786,12 +786,12 @@ fn chi_average(q: f64, df: f64, table: &mut RangeTable, layout: &PanelLayout) ->
     let direct_lower = q < switch;
     let search_lo = -2.0 * LOG_DROP / scale.half_df.min(1.0) - 10.0;
     let search_hi = 0.5 * (1.0 + 2.0 * LOG_DROP / scale.half_df).ln() + 1.0;
-    let (peak, lo, hi, curvature) = if direct_lower {
+    let (peak, lo, hi, curvature, closed_form_at_lo) = if direct_lower {
         let peak = concave_peak(search_lo, search_hi, lower_bound_slope);
         let level = log_lower_bound(peak) - LOG_DROP;
         let lo = crossing(search_lo, peak, level, true, log_lower_bound);
         let hi = crossing(peak, search_hi, level, false, log_lower_bound);
-        (peak, lo, hi, 4.0 * scale.half_df * (2.0 * peak).exp())
+        (peak, lo, hi, 4.0 * scale.half_df * (2.0 * peak).exp(), false)
     } else {
         let peak = concave_peak(search_lo, search_hi, upper_bound_slope);
         let level = log_upper_bound(peak) - LOG_DROP;
@@ -799,11 +799,15 @@ fn chi_average(q: f64, df: f64, table: &mut RangeTable, layout: &PanelLayout) ->
         let hi = crossing(peak, search_hi, level, false, log_upper_bound);
         // Far left, 1 - W is 1 and the integral is P(s < e^lo) in closed form, once
         // g W is negligible against the peak of the upper-tail integrand.
+        // If instead the upper-tail integrand itself has died away first (lo_upper to
+        // the right of that point), 1 - W is not 1 at lo and the part beyond lo is
+        // negligible rather than P(s < e^lo): no closed form then.
         let lower_peak = concave_peak(search_lo, search_hi, lower_bound_slope);
-        let lo = if log_lower_bound(lower_peak) > level {
-            crossing(search_lo, lower_peak, level, true, log_lower_bound).max(lo_upper)
+        let (lo, closed_form) = if log_lower_bound(lower_peak) > level {
+            let lower_crossing = crossing(search_lo, lower_peak, level, true, log_lower_bound);
+            (lower_crossing.max(lo_upper), lower_crossing >= lo_upper)
         } else {
-            lo_upper
+            (lo_upper, true)
         };
         let x = (ln_q + peak).exp();
         (
@@ -811,6 +815,7 @@ fn chi_average(q: f64, df: f64, table: &mut RangeTable, layout: &PanelLayout) ->
             lo.min(peak),
             hi,
             (4.0 * scale.half_df + x * x) * (2.0 * peak).exp(),
+            closed_form,
         )
     };
     let (peak, curvature) = actual_peak(q, &scale, table, direct_lower, (lo, hi), (peak, curvature));
@@ -857,6 +862,7 @@ fn chi_average(q: f64, df: f64, table: &mut RangeTable, layout: &PanelLayout) ->
     // Where the closed form for the far left takes over (upper tail only).
     let mut far_left = None;
     for direction in [-1.0, 1.0] {
+        let mut left_closed_form = false;
         let mut near = peak;
         let mut step = width;
         let limit = if direction < 0.0 { lo } else { hi };
@@ -915,10 +921,13 @@ fn chi_average(q: f64, df: f64, table: &mut RangeTable, layout: &PanelLayout) ->
                 && negligible(panel_sums[1], sums[1])
             {
                 // Far left 1 - W is 1 to working precision: the rest is P(s < e^near).
+                left_closed_form = true;
                 break;
             }
         }
-        if direction < 0.0 && near < -0.05 {
+        // Reaching lo itself allows the closed form only where lo was chosen for it.
+        let reached_lo = near == lo && closed_form_at_lo;
+        if direction < 0.0 && near < -0.05 && (left_closed_form || reached_lo) {
             far_left = Some(near);
         }
     }
@@ -1110,7 +1119,40 @@ pub fn studentized_range_cdf(q: f64, n_groups: usize, df: f64) -> Result<f64, St
 /// cancellation, and the part of the chi distribution far below its peak is added in
 /// closed form (series of the incomplete gamma function).
 pub fn studentized_range_sf(q: f64, n_groups: usize, df: f64) -> Result<f64, StatsError> {
+    // Far in the tail the answer underflows to 0 whatever the integration does; a cheap
+    // bound finds those cases first (pairs of conditions that differ by hundreds of
+    // standard errors are common in large trials).
+    if q.is_finite() && q > 0.0 && n_groups >= 2 && df > 0.0 && log_pair_bound(q, n_groups, df) < UNDERFLOW_LOG {
+        return Ok(0.0);
+    }
     Ok(evaluate(q, n_groups, df)?.upper)
+}
+
+/// Below this natural logarithm a probability is 0 in double precision (the smallest
+/// subnormal is e^-744.4), with room for the bound's own rounding.
+const UNDERFLOW_LOG: f64 = -760.0;
+
+/// Natural logarithm of an upper bound on `P(Q > q)`: the range exceeds `q s` only if
+/// some pair of the `k` normals does, and each pair's difference over `s sqrt 2` is
+/// Student's t with `df` degrees of freedom (Bonferroni over the `k (k - 1) / 2` pairs).
+/// The t tail uses `I_z(a, 1/2) <= z^a (1 - z)^(-1/2) / (a B(a, 1/2))` with `a = df / 2`,
+/// `z = df / (df + x^2)`, `x = q / sqrt 2` (from `(1 - t)^(-1/2) <= (1 - z)^(-1/2)` under
+/// the integral); with df infinite the Mills-ratio bound `2 phi(x) / x`.
+fn log_pair_bound(q: f64, n_groups: usize, df: f64) -> f64 {
+    let k = n_groups as f64;
+    let log_pairs = (0.5 * k * (k - 1.0)).ln();
+    let x = q * std::f64::consts::FRAC_1_SQRT_2;
+    let square = x * x;
+    let log_tail = if df.is_finite() && df < 1e12 {
+        let a = 0.5 * df;
+        let log_z = -(square / df).ln_1p();
+        let log_one_less_z = square.ln() - (df + square).ln();
+        let log_beta = ln_gamma(a) + 0.5 * std::f64::consts::PI.ln() - ln_gamma(a + 0.5);
+        a * log_z - 0.5 * log_one_less_z - a.ln() - log_beta
+    } else {
+        std::f64::consts::LN_2 - 0.5 * square - x.ln() - LN_SQRT_2PI
+    };
+    log_pairs + log_tail
 }
 
 /// Density of the studentized range at `q`.
@@ -1528,6 +1570,12 @@ mod tests {
             (3.0e5, 2.0, 2.222_222_222_148_148e-11),
             (100.0, 2.0, 0.000_199_940_019_993_002_52),
             (1.0e4, 2.0, 1.999_999_940_000_002e-8),
+            // Far tails at large df, where a closed form for small chi once overstated the
+            // tail (1e-36 for 1e-97): scipy 1.17.1, 2 * stats.t.sf(q / sqrt(2), df).
+            (30.0, 9_992.0, 1.00957009113832e-97),
+            (12.0, 9_992.0, 2.4572353903454745e-17),
+            (30.0, 200.0, 4.379717693408334e-53),
+            (20.0, 50_000.0, 2.554610138780409e-45),
         ];
         for (q, df, expected) in cases {
             let got = studentized_range_sf(q, 2, df).expect("valid case");
@@ -1707,6 +1755,30 @@ mod tests {
                     best_cdf * 1e6,
                     best_quantile * 1e6
                 );
+            }
+        }
+    }
+
+    #[test]
+    fn far_tail_shortcut_agrees_with_the_integral() {
+        // The pair bound must lie above the upper tail wherever both are representable
+        // (common practice: Bonferroni's inequality), and where it sends the answer to 0
+        // the full integral must give 0 too.
+        for &(k, df) in &[(2usize, 3.0), (3, 10.0), (8, 9_992.0), (20, 40.0), (5, f64::INFINITY)] {
+            for &q in &[2.0, 5.0, 12.0, 30.0] {
+                let upper = evaluate(q, k, df).expect("valid").upper;
+                if upper > 0.0 {
+                    assert!(log_pair_bound(q, k, df) >= upper.ln() - 1e-9, "k {k} df {df} q {q}");
+                }
+            }
+            // With few df the tail is polynomial and underflow needs absurd q: stop at 1e4.
+            let mut q = 5.0;
+            while log_pair_bound(q, k, df) >= UNDERFLOW_LOG && q < 1e4 {
+                q *= 1.1;
+            }
+            if q < 1e4 {
+                assert_eq!(evaluate(q, k, df).expect("valid").upper, 0.0, "k {k} df {df} q {q}");
+                assert_eq!(studentized_range_sf(q, k, df).expect("valid"), 0.0);
             }
         }
     }

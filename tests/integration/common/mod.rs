@@ -86,6 +86,87 @@ impl Run {
     }
 }
 
+/// The environment variable naming a folder that collects every workbook
+/// the program writes during the tests (results, plans, problems, roll-ups),
+/// for checking them in a spreadsheet application (tests/render/check-in-office.sh).
+pub const KEEP_OUTPUTS_VAR: &str = "TRIALYST_KEEP_OUTPUTS";
+
+/// Copies a workbook the program wrote into the folder named by
+/// [`KEEP_OUTPUTS_VAR`], under a name made unique by the test's name and a
+/// counter. Does nothing when the variable is unset or the file is missing.
+pub fn keep_output(path: &Path) {
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    static COUNTER: AtomicUsize = AtomicUsize::new(0);
+    let Some(folder) = std::env::var_os(KEEP_OUTPUTS_VAR).filter(|value| !value.is_empty()) else {
+        return;
+    };
+    if !path.is_file() {
+        return;
+    }
+    let folder = PathBuf::from(folder);
+    std::fs::create_dir_all(&folder).expect("the keep-outputs folder can be made");
+    let test_name: String = std::thread::current()
+        .name()
+        .unwrap_or("test")
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect();
+    let file_name = path
+        .file_name()
+        .map(|name| name.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let number = COUNTER.fetch_add(1, Ordering::Relaxed);
+    let target = folder.join(format!("{test_name}-{}-{number:03}-{file_name}", std::process::id()));
+    std::fs::copy(path, &target).expect("a kept output can be copied");
+}
+
+/// The workbooks in a folder with their modification times, taken before a
+/// run so that [`keep_new_outputs`] can tell what the run wrote.
+pub fn workbook_snapshot(folder: &Path) -> Vec<(PathBuf, Option<std::time::SystemTime>)> {
+    if std::env::var_os(KEEP_OUTPUTS_VAR).is_none() {
+        return Vec::new();
+    }
+    std::fs::read_dir(folder)
+        .map(|entries| {
+            entries
+                .filter_map(Result::ok)
+                .map(|entry| entry.path())
+                .filter(|path| path.extension().is_some_and(|ext| ext.eq_ignore_ascii_case("xlsx")))
+                .map(|path| {
+                    let modified = std::fs::metadata(&path).and_then(|meta| meta.modified()).ok();
+                    (path, modified)
+                })
+                .collect()
+        })
+        .unwrap_or_default()
+}
+
+/// Keeps (see [`keep_output`]) every workbook in `folder` that is new or
+/// changed since `before`: the program never writes its input, so these are
+/// the workbooks it produced.
+pub fn keep_new_outputs(folder: &Path, before: &[(PathBuf, Option<std::time::SystemTime>)]) {
+    if std::env::var_os(KEEP_OUTPUTS_VAR).is_none() {
+        return;
+    }
+    for (path, modified) in workbook_snapshot(folder) {
+        let unchanged = before
+            .iter()
+            .any(|(old_path, old_modified)| *old_path == path && *old_modified == modified);
+        let is_lock_or_temp = path
+            .file_name()
+            .is_some_and(|name| name.to_string_lossy().starts_with(['~', '.']));
+        if !unchanged && !is_lock_or_temp {
+            keep_output(&path);
+        }
+    }
+}
+
 /// Runs `trialyst` with the arguments in `folder`.
 pub fn trialyst(folder: &Path, args: &[&str]) -> Run {
     let binary = trialyst_path();
@@ -94,11 +175,13 @@ pub fn trialyst(folder: &Path, args: &[&str]) -> Run {
         "the program under test is missing at {}; `cargo test -p tests` builds it",
         binary.display()
     );
+    let before = workbook_snapshot(folder);
     let output = Command::new(&binary)
         .args(args)
         .current_dir(folder)
         .output()
         .expect("the trialyst binary can be started");
+    keep_new_outputs(folder, &before);
     Run {
         command: format!("trialyst {}", args.join(" ")),
         folder: folder.to_path_buf(),

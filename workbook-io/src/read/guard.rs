@@ -138,6 +138,14 @@ fn check_xls_sheet_sizes(path: &Path, bytes: &[u8], limits: &ReadLimits) -> Resu
         }
     }
     let limit = limits.max_box_cells;
+    for (offset, name) in &sheets {
+        if *offset >= stream.len() {
+            return Err(corrupt(format!(
+                "sheet '{name}' is said to start at byte {offset} of the Workbook stream, which holds {} bytes",
+                stream.len()
+            )));
+        }
+    }
     for (offset, name) in sheets {
         let too_large = |what: String| ReadError::TooLarge {
             path: path.to_path_buf(),
@@ -334,7 +342,8 @@ fn inspect_zip(path: &Path, limits: &ReadLimits) -> Result<Container, ReadError>
     match format {
         Format::Xlsx => check_shared_strings_xml(path, &mut archive)?,
         Format::Xlsb => check_xlsb_workbook(path, &mut archive)?,
-        _ => {}
+        Format::Ods => check_ods_sheet_sizes(path, &mut archive, limits)?,
+        Format::Xls => {}
     }
     Ok(Container { format })
 }
@@ -431,6 +440,34 @@ fn check_xlsb_workbook<R: Read + std::io::Seek>(
         if body_end > bytes.len() {
             break;
         }
+        // BrtBundleSh (0x009C, MS-XLSB 2.4.304): hsState and iTabID (4 bytes
+        // each), then the relationship id and the sheet name as wide strings
+        // (a 4-byte count of UTF-16 units, then the units). The parser slices
+        // the body by those counts without checking them.
+        if record_type == 0x009C {
+            let body = &bytes[after_len..body_end];
+            let count_at = |at: usize| {
+                body.get(at..at + 4)
+                    .map(|four| u32::from_le_bytes([four[0], four[1], four[2], four[3]]) as u64)
+            };
+            let fits = match count_at(8) {
+                Some(0xFFFF_FFFF) => true,
+                Some(units) => {
+                    let name_at = 12 + 2 * units;
+                    match usize::try_from(name_at).ok().and_then(count_at) {
+                        Some(name_units) => name_at + 4 + 2 * name_units <= body.len() as u64,
+                        None => false,
+                    }
+                }
+                None => false,
+            };
+            if !fits {
+                return Err(ReadError::Corrupt {
+                    path: path.to_path_buf(),
+                    detail: "a sheet entry of the binary workbook part claims more text than it holds".into(),
+                });
+            }
+        }
         // BrtExternSheet (0x016A): cXti (4 bytes), then cXti entries of 12 bytes.
         if record_type == 0x016A && record_len >= 4 {
             let count_bytes = &bytes[after_len..after_len + 4];
@@ -444,6 +481,303 @@ fn check_xlsb_workbook<R: Read + std::io::Seek>(
             }
         }
         position = body_end;
+    }
+    Ok(())
+}
+
+/// The ods parser builds each sheet as one dense rectangle, and a row or
+/// cell may say it repeats (`table:number-rows-repeated`,
+/// `table:number-columns-repeated`) any number of times: a few hundred
+/// bytes can ask for billions of cells and abort the process. So
+/// `content.xml` is streamed here once, tag by tag, and each sheet's
+/// rectangle is measured as the parser will build it, up to its last
+/// non-empty cell (the empty rows and cells that fill out every saved sheet
+/// cost nothing). A sheet beyond [`ReadLimits::max_box_cells`] is refused.
+fn check_ods_sheet_sizes<R: Read + std::io::Seek>(
+    path: &Path,
+    archive: &mut zip::ZipArchive<R>,
+    limits: &ReadLimits,
+) -> Result<(), ReadError> {
+    let Ok(entry) = archive.by_name("content.xml") else {
+        return Ok(());
+    };
+    let mut measure = OdsMeasure::default();
+    let outcome = scan_xml_tags(entry, |tag| measure.tag(tag));
+    if let Err(error) = outcome {
+        return Err(ReadError::Corrupt {
+            path: path.to_path_buf(),
+            detail: format!("the content part cannot be inflated ({error})"),
+        });
+    }
+    if let Some(name) = &measure.unclosed_table {
+        // The parser reads a sheet until its end tag and would wait for it for ever.
+        return Err(ReadError::Corrupt {
+            path: path.to_path_buf(),
+            detail: format!("the content part ends inside sheet '{name}'; the file may be truncated"),
+        });
+    }
+    measure.end_sheet();
+    match measure.largest {
+        Some((name, rows, cols)) if rows.saturating_mul(cols) > limits.max_box_cells => Err(ReadError::TooLarge {
+            path: path.to_path_buf(),
+            what: format!("sheet '{name}' spans {rows} rows × {cols} columns through its repeated rows and cells"),
+            limit: format!("{} cells in a sheet's rectangle", limits.max_box_cells),
+        }),
+        _ => Ok(()),
+    }
+}
+
+/// The running measure of the ods sheets seen so far.
+#[derive(Default)]
+struct OdsMeasure {
+    /// Sheet name, rows and columns up to the last non-empty cell.
+    sheet: Option<(String, u64, u64)>,
+    /// The next row's index in the current sheet.
+    row: u64,
+    /// How many times the current row repeats.
+    row_repeat: u64,
+    /// Columns so far in the current row, and the extent up to its last non-empty cell.
+    col: u64,
+    row_extent: u64,
+    /// An open (not self-closing) cell: its first column and repeat count,
+    /// and whether anything was found inside it.
+    open_cell: Option<(u64, u64, bool)>,
+    /// The sheet with the largest rectangle so far.
+    largest: Option<(String, u64, u64)>,
+    /// A sheet whose start tag has been seen and its end tag not yet.
+    unclosed_table: Option<String>,
+}
+
+impl OdsMeasure {
+    fn tag(&mut self, tag: &[u8]) {
+        // Names are read as the XML parser behind the ods reader reads them:
+        // an end tag's name is all of it (trailing spaces aside), a start
+        // tag's runs to the first space, after any closing `/` is taken off.
+        let closing = tag.first() == Some(&b'/');
+        let self_closing = !closing && tag.last() == Some(&b'/');
+        let body = if closing {
+            &tag[1..]
+        } else if self_closing {
+            &tag[..tag.len() - 1]
+        } else {
+            tag
+        };
+        let name = if closing {
+            body.trim_ascii_end()
+        } else {
+            let name_end = body
+                .iter()
+                .position(|byte| byte.is_ascii_whitespace())
+                .unwrap_or(body.len());
+            &body[..name_end]
+        };
+        let text = String::from_utf8_lossy(body);
+        let repeat = |attribute: &str| {
+            attribute_value(&text, attribute)
+                .and_then(|value| value.trim().parse::<u64>().ok())
+                .unwrap_or(1)
+                .max(1)
+        };
+        match (name, closing) {
+            (b"table:table", false) => {
+                self.end_sheet();
+                let sheet_name = attribute_value(&text, "table:name").unwrap_or("").to_string();
+                if !self_closing {
+                    self.unclosed_table = Some(sheet_name.clone());
+                }
+                self.sheet = Some((sheet_name, 0, 0));
+                self.row = 0;
+            }
+            (b"table:table", true) => {
+                self.unclosed_table = None;
+                self.end_sheet();
+            }
+            (b"table:table-row", false) => {
+                self.row_repeat = repeat("table:number-rows-repeated");
+                self.col = 0;
+                self.row_extent = 0;
+                if self_closing {
+                    self.end_row();
+                }
+            }
+            (b"table:table-row", true) => self.end_row(),
+            (b"table:table-cell" | b"table:covered-table-cell", false) => {
+                let cols = repeat("table:number-columns-repeated");
+                let has_value = attribute_value(&text, "office:value-type").is_some();
+                if self_closing {
+                    self.end_cell(cols, has_value);
+                } else {
+                    self.open_cell = Some((self.col, cols, has_value));
+                }
+            }
+            (b"table:table-cell" | b"table:covered-table-cell", true) => {
+                if let Some((_, cols, filled)) = self.open_cell.take() {
+                    self.end_cell(cols, filled);
+                }
+            }
+            (_, false) => {
+                // Any element inside a cell (a paragraph of text) fills it.
+                if let Some(open) = &mut self.open_cell {
+                    open.2 = true;
+                }
+            }
+            _ => {}
+        }
+    }
+
+    fn end_cell(&mut self, cols: u64, filled: bool) {
+        self.col = self.col.saturating_add(cols);
+        if filled {
+            self.row_extent = self.col;
+        }
+    }
+
+    fn end_row(&mut self) {
+        if let Some(open) = self.open_cell.take() {
+            self.end_cell(open.1, open.2);
+        }
+        let next_row = self.row.saturating_add(self.row_repeat);
+        if self.row_extent > 0 {
+            if let Some((_, rows, cols)) = &mut self.sheet {
+                *rows = next_row;
+                *cols = (*cols).max(self.row_extent);
+            }
+        }
+        self.row = next_row;
+        self.row_repeat = 1;
+        self.row_extent = 0;
+        self.col = 0;
+    }
+
+    fn end_sheet(&mut self) {
+        if let Some((name, rows, cols)) = self.sheet.take() {
+            let larger = match &self.largest {
+                None => true,
+                Some((_, old_rows, old_cols)) => rows.saturating_mul(cols) > old_rows.saturating_mul(*old_cols),
+            };
+            if larger {
+                self.largest = Some((name, rows, cols));
+            }
+        }
+    }
+}
+
+/// Longest tag kept whole; the rest of a longer one is passed over (the
+/// attributes looked for come first in the tags written by spreadsheet
+/// programs, and a tag this long is not one of them anyway).
+const MAX_KEPT_TAG_BYTES: usize = 16 << 10;
+
+/// Streams XML and calls `found` with each tag's text between `<` and `>`,
+/// `>` inside quoted attribute values included. Comments, CDATA sections,
+/// processing instructions and declarations are passed over whole, as an
+/// XML parser passes over them. Memory stays bounded whatever the input.
+fn scan_xml_tags<R: Read>(mut reader: R, mut found: impl FnMut(&[u8])) -> std::io::Result<()> {
+    #[derive(Clone, Copy, PartialEq)]
+    enum State {
+        Text,
+        /// Just after `<`.
+        Open,
+        Tag,
+        Quoted(u8),
+        /// Inside `<!...`, not yet known to be a comment or CDATA.
+        Bang,
+        /// Inside a comment, CDATA section or processing instruction, until the terminator.
+        Skip(&'static [u8]),
+    }
+    let mut chunk = vec![0u8; 1 << 16];
+    let mut tag: Vec<u8> = Vec::with_capacity(256);
+    let mut state = State::Text;
+    // The last bytes seen while skipping, to find a terminator split across reads.
+    let mut recent: Vec<u8> = Vec::with_capacity(16);
+    loop {
+        let read = match reader.read(&mut chunk) {
+            Ok(0) => break,
+            Ok(read) => read,
+            Err(error) if error.kind() == std::io::ErrorKind::Interrupted => continue,
+            Err(error) => return Err(error),
+        };
+        let mut index = 0;
+        while index < read {
+            match state {
+                State::Text => match memchr::memchr(b'<', &chunk[index..read]) {
+                    Some(offset) => {
+                        index += offset + 1;
+                        state = State::Open;
+                    }
+                    None => index = read,
+                },
+                State::Open => {
+                    let byte = chunk[index];
+                    index += 1;
+                    tag.clear();
+                    recent.clear();
+                    state = match byte {
+                        b'!' => State::Bang,
+                        b'?' => State::Skip(b"?>"),
+                        _ => {
+                            tag.push(byte);
+                            State::Tag
+                        }
+                    };
+                }
+                State::Bang => {
+                    recent.push(chunk[index]);
+                    index += 1;
+                    if recent.as_slice() == b"--" {
+                        recent.clear();
+                        state = State::Skip(b"-->");
+                    } else if recent.as_slice() == b"[CDATA[" {
+                        recent.clear();
+                        state = State::Skip(b"]]>");
+                    } else if !b"--".starts_with(&recent) && !b"[CDATA[".starts_with(&recent) {
+                        // A declaration such as <!DOCTYPE ...>: up to its `>`.
+                        state = if recent.last() == Some(&b'>') {
+                            State::Text
+                        } else {
+                            State::Skip(b">")
+                        };
+                        recent.clear();
+                    }
+                }
+                State::Skip(terminator) => {
+                    let byte = chunk[index];
+                    index += 1;
+                    recent.push(byte);
+                    if recent.len() > terminator.len() {
+                        recent.remove(0);
+                    }
+                    if recent.as_slice() == terminator {
+                        recent.clear();
+                        state = State::Text;
+                    }
+                }
+                State::Tag => {
+                    let byte = chunk[index];
+                    index += 1;
+                    match byte {
+                        b'>' => {
+                            found(&tag);
+                            state = State::Text;
+                        }
+                        b'"' | b'\'' => state = State::Quoted(byte),
+                        _ => {}
+                    }
+                    if byte != b'>' && tag.len() < MAX_KEPT_TAG_BYTES {
+                        tag.push(byte);
+                    }
+                }
+                State::Quoted(quote) => {
+                    let byte = chunk[index];
+                    index += 1;
+                    if byte == quote {
+                        state = State::Tag;
+                    }
+                    if tag.len() < MAX_KEPT_TAG_BYTES {
+                        tag.push(byte);
+                    }
+                }
+            }
+        }
     }
     Ok(())
 }
@@ -462,7 +796,62 @@ fn read_varint(bytes: &[u8], start: usize, max_bytes: usize) -> Option<(u32, usi
 
 #[cfg(test)]
 mod tests {
-    use super::attribute_value;
+    use super::{attribute_value, scan_xml_tags, OdsMeasure};
+
+    fn measure(xml: &str) -> Option<(String, u64, u64)> {
+        let mut measure = OdsMeasure::default();
+        scan_xml_tags(xml.as_bytes(), |tag| measure.tag(tag)).expect("in memory");
+        measure.end_sheet();
+        measure.largest
+    }
+
+    #[test]
+    fn ods_rectangles_count_repeats_up_to_the_last_filled_cell() {
+        // Two filled rows of three columns, then the empty filler rows and
+        // cells every saved sheet ends with (OpenDocument 1.2, part 1, 9.1.3
+        // and 9.1.4: the repeat attributes).
+        let xml = r#"<office:spreadsheet><table:table table:name="Trial">
+            <table:table-row><table:table-cell office:value-type="string"><text:p>a</text:p></table:table-cell><table:table-cell table:number-columns-repeated="2" office:value-type="float" office:value="1"/></table:table-row>
+            <table:table-row table:number-rows-repeated="2"><table:table-cell/><table:table-cell><text:p>b</text:p></table:table-cell><table:table-cell table:number-columns-repeated="1000"/></table:table-row>
+            <table:table-row table:number-rows-repeated="1048573"><table:table-cell table:number-columns-repeated="1024"/></table:table-row>
+            </table:table></office:spreadsheet>"#;
+        assert_eq!(measure(xml), Some(("Trial".to_string(), 3, 3)));
+        // A repeated filled cell in a repeated row is the bomb.
+        let bomb = r#"<table:table table:name="Big"><table:table-row table:number-rows-repeated="1000000"><table:table-cell table:number-columns-repeated="99" office:value-type="float" office:value="1"/></table:table-row></table:table>"#;
+        assert_eq!(measure(bomb), Some(("Big".to_string(), 1_000_000, 99)));
+        // The largest of several sheets is kept.
+        let two = format!(
+            r#"{bomb}<table:table table:name="Small"><table:table-row><table:table-cell office:value-type="float" office:value="1"/></table:table-row></table:table>"#
+        );
+        assert_eq!(measure(&two).map(|(name, _, _)| name), Some("Big".to_string()));
+    }
+
+    #[test]
+    fn the_tag_scanner_passes_over_comments_cdata_and_quoted_brackets() {
+        let xml = r#"<?xml version="1.0"?><!DOCTYPE x><a b="1 > 0"><!-- <c> --><![CDATA[ <d> ]]><e/></a>"#;
+        let mut tags = Vec::new();
+        scan_xml_tags(xml.as_bytes(), |tag| {
+            tags.push(String::from_utf8_lossy(tag).into_owned())
+        })
+        .expect("in memory");
+        assert_eq!(tags, [r#"a b="1 > 0""#, "e/", "/a"]);
+    }
+
+    #[test]
+    fn a_sheet_without_its_end_tag_is_found() {
+        // Found by the read_ods fuzz target: the parser loops for ever at the
+        // end of a content part that ends inside a sheet.
+        let mut measure = OdsMeasure::default();
+        let xml = r#"<table:table table:name="Trial"><table:table-row><table:table-cell/></table:table-row><!-- </table:table> --></table:table/cell></table:table x>"#;
+        scan_xml_tags(xml.as_bytes(), |tag| measure.tag(tag)).expect("in memory");
+        assert_eq!(measure.unclosed_table.as_deref(), Some("Trial"));
+        let mut measure = OdsMeasure::default();
+        scan_xml_tags(&b"<table:table table:name='T'></table:table >"[..], |tag| {
+            measure.tag(tag)
+        })
+        .expect("in memory");
+        assert_eq!(measure.unclosed_table, None);
+    }
 
     #[test]
     fn finds_attributes() {

@@ -1,5 +1,6 @@
-//! Merged areas of an xlsx worksheet, found by scanning its part for
-//! `<mergeCell ref="…"/>` tags.
+//! Merged areas and hidden rows and columns of an xlsx worksheet, found by
+//! scanning its part for `<mergeCell ref="…"/>` tags and `hidden`
+//! attributes of `<row>` and `<col>` tags, in one pass.
 //!
 //! calamine's own lookup parses the whole sheet XML a second time after the
 //! cells were streamed, which doubles the cost of reading a large sheet. The
@@ -112,9 +113,55 @@ pub(crate) fn sheet_part_path<R: Read + Seek>(archive: &mut zip::ZipArchive<R>, 
     archive.index_for_name(&path).map(|_| path)
 }
 
-/// The merged areas of an xlsx worksheet, or `None` when its part cannot be
-/// located or read this way (the caller then asks calamine).
-pub(crate) fn xlsx_merged_areas(path: &std::path::Path, sheet: &str) -> Option<Vec<CellRect>> {
+/// Rows and columns (zero-based) hidden in a sheet, each sorted and without repeats.
+#[derive(Debug, Default, Clone, PartialEq)]
+pub(crate) struct Hidden {
+    pub rows: Vec<u32>,
+    pub cols: Vec<u32>,
+}
+
+/// Most hidden rows or columns listed; a sheet hiding more is reported by its first ones.
+const MAX_HIDDEN_LISTED: usize = 100_000;
+
+/// Reads the `hidden` flag of a `row` or `col` tag (ECMA-376 Part 1,
+/// 18.3.1.73 row: `r`, `hidden`; 18.3.1.13 col: `min`, `max`, `hidden`).
+pub(crate) fn note_hidden(tag: &str, hidden: &mut Hidden) {
+    let name_end = tag
+        .find(|c: char| c.is_ascii_whitespace() || c == '/' || c == '>')
+        .unwrap_or(tag.len());
+    let name = tag[..name_end].rsplit(':').next().unwrap_or("");
+    let flag = attribute_value(tag, "hidden").map(str::trim);
+    if !matches!(flag, Some("1" | "true")) {
+        return;
+    }
+    let number = |attribute: &str| attribute_value(tag, attribute).and_then(|value| value.trim().parse::<u32>().ok());
+    match name {
+        "row" => {
+            if let Some(row) = number("r").filter(|row| *row >= 1) {
+                if hidden.rows.len() < MAX_HIDDEN_LISTED {
+                    hidden.rows.push(row - 1);
+                }
+            }
+        }
+        "col" => {
+            if let (Some(min), Some(max)) = (number("min"), number("max")) {
+                let max = max.min(crate::cell::MAX_COLS);
+                for col in min.max(1)..=max {
+                    if hidden.cols.len() >= MAX_HIDDEN_LISTED {
+                        break;
+                    }
+                    hidden.cols.push(col - 1);
+                }
+            }
+        }
+        _ => {}
+    }
+}
+
+/// The merged areas and hidden rows and columns of an xlsx worksheet, or
+/// `None` when its part cannot be located or read this way (the caller then
+/// asks calamine for the merged areas).
+pub(crate) fn xlsx_merged_areas(path: &std::path::Path, sheet: &str) -> Option<(Vec<CellRect>, Hidden)> {
     // Names with markup characters are stored escaped; leave those to calamine.
     if sheet.contains(['&', '<', '>', '"', '\'']) {
         return None;
@@ -124,13 +171,88 @@ pub(crate) fn xlsx_merged_areas(path: &std::path::Path, sheet: &str) -> Option<V
     let part = sheet_part_path(&mut archive, sheet)?;
     let entry = archive.by_name(&part).ok()?;
     let mut areas = Vec::new();
-    scan_tags(entry, b"mergeCell", |tag| {
-        if let Some(area) = attribute_value(tag, "ref").and_then(parse_a1_range) {
-            areas.push(area);
+    let mut hidden = Hidden::default();
+    scan_tags_and_hidden(entry, b"mergeCell", |tag| {
+        if tag.starts_with("mergeCell") {
+            if let Some(area) = attribute_value(tag, "ref").and_then(parse_a1_range) {
+                areas.push(area);
+            }
+        } else {
+            note_hidden(tag, &mut hidden);
         }
     })
     .ok()?;
-    Some(areas)
+    hidden.rows.sort_unstable();
+    hidden.rows.dedup();
+    hidden.cols.sort_unstable();
+    hidden.cols.dedup();
+    Some((areas, hidden))
+}
+
+/// [`scan_tags`] for `local_name`, and in the same pass every tag holding a
+/// `hidden=` attribute (rare: only hidden rows and columns carry it), which
+/// is found by the attribute and widened back to its tag's `<`.
+fn scan_tags_and_hidden<R: Read>(reader: R, local_name: &[u8], mut found: impl FnMut(&str)) -> std::io::Result<()> {
+    const NEEDLE: &[u8] = b" hidden=";
+    let hidden_finder = memchr::memmem::Finder::new(NEEDLE);
+    // `tail` keeps the bytes still needed: those not yet searched, and up to
+    // a tag's length before them so that a hit can be widened back to its `<`.
+    let mut tail: Vec<u8> = Vec::new();
+    let mut searched = 0usize;
+    let mut hidden_tags: Vec<String> = Vec::new();
+    let tee = TeeReader {
+        inner: reader,
+        on_chunk: |chunk: &[u8]| {
+            tail.extend_from_slice(chunk);
+            let mut waiting = false;
+            while let Some(offset) = hidden_finder.find(&tail[searched..]) {
+                let at = searched + offset;
+                let open = memchr::memrchr(b'<', &tail[..at]);
+                let close = memchr::memchr(b'>', &tail[at..]).map(|offset| at + offset);
+                match (open, close) {
+                    (Some(open), Some(close)) => {
+                        if close - open <= MAX_TAG_BYTES && hidden_tags.len() < 2 * MAX_HIDDEN_LISTED {
+                            hidden_tags.push(String::from_utf8_lossy(&tail[open + 1..close]).into_owned());
+                        }
+                        searched = close;
+                    }
+                    // Not closed yet: try again with the next chunk, unless
+                    // it is already longer than any tag looked for.
+                    (_, None) if tail.len() - at <= MAX_TAG_BYTES && !chunk.is_empty() => {
+                        waiting = true;
+                        break;
+                    }
+                    _ => searched = at + 1,
+                }
+            }
+            if !waiting {
+                // No hit starts before the last few bytes, which may hold the needle's start.
+                searched = searched.max(tail.len().saturating_sub(NEEDLE.len() - 1));
+            }
+            let keep_from = searched.saturating_sub(MAX_TAG_BYTES);
+            tail.drain(..keep_from);
+            searched -= keep_from;
+        },
+    };
+    scan_tags(tee, local_name, &mut found)?;
+    for tag in hidden_tags {
+        found(&tag);
+    }
+    Ok(())
+}
+
+/// Passes every chunk read through `on_chunk` on its way.
+struct TeeReader<R, F> {
+    inner: R,
+    on_chunk: F,
+}
+
+impl<R: Read, F: FnMut(&[u8])> Read for TeeReader<R, F> {
+    fn read(&mut self, buffer: &mut [u8]) -> std::io::Result<usize> {
+        let read = self.inner.read(buffer)?;
+        (self.on_chunk)(&buffer[..read]);
+        Ok(read)
+    }
 }
 
 #[cfg(test)]
@@ -148,6 +270,34 @@ mod tests {
         // Tag shapes from ECMA-376 Part 1, 18.3.1.55 (mergeCell) and 18.3.1.56 (mergeCells).
         let xml = r#"<worksheet><sheetData><row r="1"><c r="A1" t="inlineStr"><is><t>mergeCell ref="Z9:Z10"</t></is></c></row></sheetData><mergeCells count="2"><mergeCell ref="B1:C1"/><x:mergeCell ref="D1:E1" /></mergeCells></worksheet>"#;
         assert_eq!(refs(xml), [r#"mergeCell ref="B1:C1"/"#, r#"mergeCell ref="D1:E1" /"#]);
+    }
+
+    #[test]
+    fn finds_hidden_rows_and_columns_in_the_same_pass() {
+        use super::{note_hidden, scan_tags_and_hidden, Hidden};
+        // Attribute names from ECMA-376 Part 1, 18.3.1.73 (row) and 18.3.1.13 (col).
+        let mut xml = String::from(
+            r#"<worksheet><cols><col min="2" max="3" width="9" hidden="1"/><col min="5" max="5" hidden="0"/></cols><sheetData>"#,
+        );
+        for row in 1..=3000 {
+            let flag = if row == 7 || row == 2999 { r#" hidden="1""# } else { "" };
+            xml.push_str(&format!(r#"<row r="{row}"{flag}><c r="A{row}"><v>{row}</v></c></row>"#));
+        }
+        xml.push_str(r#"<row r="3001"><c r="A3001" t="inlineStr"><is><t>it was hidden="1" here</t></is></c></row>"#);
+        xml.push_str(r#"</sheetData><mergeCells count="1"><mergeCell ref="B1:C1"/></mergeCells></worksheet>"#);
+        let mut merged = Vec::new();
+        let mut hidden = Hidden::default();
+        scan_tags_and_hidden(xml.as_bytes(), b"mergeCell", |tag| {
+            if tag.starts_with("mergeCell") {
+                merged.push(tag.to_string());
+            } else {
+                note_hidden(tag, &mut hidden);
+            }
+        })
+        .expect("in memory");
+        assert_eq!(merged, [r#"mergeCell ref="B1:C1"/"#]);
+        assert_eq!(hidden.rows, [6, 2998]);
+        assert_eq!(hidden.cols, [1, 2]);
     }
 
     #[test]

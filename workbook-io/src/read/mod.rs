@@ -178,6 +178,10 @@ pub struct SheetGrid {
     pub strings: Vec<String>,
     /// Merged areas of the sheet, where the format reports them.
     pub merged: Vec<CellRect>,
+    /// Rows (zero-based) hidden in the sheet, in order, where the format reports them (xlsx).
+    pub hidden_rows: Vec<u32>,
+    /// Columns (zero-based) hidden in the sheet, in order, where the format reports them (xlsx).
+    pub hidden_cols: Vec<u32>,
 }
 
 impl SheetGrid {
@@ -357,14 +361,41 @@ impl std::fmt::Debug for Workbook {
     }
 }
 
+thread_local! {
+    /// True while this thread runs the parser inside [`parse_guarded`].
+    static IN_PARSER: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
+}
+
+/// Runs the parser with its panics caught. A panic there is malformed input
+/// the parser did not expect; it becomes an error for the caller, so the
+/// panic hook (installed once, chained to the one before it) stays silent
+/// for it instead of printing a panic message to the user. Panics anywhere
+/// else still reach the previous hook.
+fn parse_guarded<T>(parse: impl FnOnce() -> T) -> std::thread::Result<T> {
+    static INSTALL: std::sync::Once = std::sync::Once::new();
+    INSTALL.call_once(|| {
+        let previous = std::panic::take_hook();
+        std::panic::set_hook(Box::new(move |info| {
+            if !IN_PARSER.with(std::cell::Cell::get) {
+                previous(info);
+            }
+        }));
+    });
+    IN_PARSER.with(|flag| flag.set(true));
+    let outcome = catch_unwind(AssertUnwindSafe(parse));
+    IN_PARSER.with(|flag| flag.set(false));
+    outcome
+}
+
 fn panic_text(payload: Box<dyn std::any::Any + Send>) -> String {
-    if let Some(text) = payload.downcast_ref::<&str>() {
+    let detail = if let Some(text) = payload.downcast_ref::<&str>() {
         (*text).to_string()
     } else if let Some(text) = payload.downcast_ref::<String>() {
         text.clone()
     } else {
-        "the parser stopped unexpectedly".to_string()
-    }
+        "no detail".to_string()
+    };
+    format!("the parser stopped on data it could not make sense of ({detail})")
 }
 
 /// Opens a workbook for reading, after checking its container.
@@ -387,14 +418,14 @@ pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadE
         path: path.to_path_buf(),
         detail,
     };
-    let opened = catch_unwind(AssertUnwindSafe(|| -> Result<Sheets<BufReader<File>>, String> {
+    let opened = parse_guarded(|| -> Result<Sheets<BufReader<File>>, String> {
         Ok(match container.format {
             Format::Xlsx => Sheets::Xlsx(Xlsx::new(reader).map_err(|error| error.to_string())?),
             Format::Xlsb => Sheets::Xlsb(Xlsb::new(reader).map_err(|error| error.to_string())?),
             Format::Xls => Sheets::Xls(Xls::new(reader).map_err(|error| error.to_string())?),
             Format::Ods => Sheets::Ods(Ods::new(reader).map_err(|error| error.to_string())?),
         })
-    }));
+    });
     let inner = match opened {
         Ok(Ok(inner)) => inner,
         Ok(Err(detail)) if detail.to_lowercase().contains("password") => {
@@ -551,13 +582,15 @@ impl Workbook {
         let mut builder = GridBuilder::new(sheet, window, max_cells);
         let mut merged = Vec::new();
         let mut skimmed_merged: Option<Vec<CellRect>> = None;
-        let outcome = catch_unwind(AssertUnwindSafe(|| -> Result<bool, String> {
+        let mut hidden = merged::Hidden::default();
+        let outcome = parse_guarded(|| -> Result<bool, String> {
             match &mut self.inner {
                 Sheets::Xlsx(xlsx) => {
                     if direct {
                         match sheet_xml::read_sheet(&path, sheet, max_entry_bytes, &mut builder) {
                             Ok(fast) => {
                                 skimmed_merged = Some(fast.merged);
+                                hidden = fast.hidden;
                                 return Ok(true);
                             }
                             Err(sheet_xml::Stop::TooManyCells) => return Ok(false),
@@ -573,7 +606,10 @@ impl Workbook {
                     }
                     drop(reader);
                     match merged::xlsx_merged_areas(&path, sheet) {
-                        Some(areas) => skimmed_merged = Some(areas),
+                        Some((areas, hidden_found)) => {
+                            skimmed_merged = Some(areas);
+                            hidden = hidden_found;
+                        }
                         None => {
                             if let Ok(areas) = xlsx.merge_cells_by_sheet_name(sheet) {
                                 merged = areas;
@@ -619,7 +655,7 @@ impl Workbook {
                 }
             }
             Ok(true)
-        }));
+        });
         match outcome {
             Ok(Ok(true)) => {}
             Ok(Ok(false)) => {
@@ -643,6 +679,8 @@ impl Workbook {
         if let Some(areas) = skimmed_merged {
             grid.merged = areas;
         }
+        grid.hidden_rows = hidden.rows;
+        grid.hidden_cols = hidden.cols;
         Ok(grid)
     }
 }

@@ -45,9 +45,23 @@ pub(crate) enum Stop {
 
 type Outcome<T> = Result<T, Stop>;
 
-/// What a sheet read gave: merged areas found after the cells.
+/// What a sheet read gave beside the cells: merged areas, and hidden rows
+/// and columns, found as `merged.rs` finds them (a tag with ` hidden=`).
 pub(crate) struct FastSheet {
     pub(crate) merged: Vec<CellRect>,
+    pub(crate) hidden: super::merged::Hidden,
+}
+
+/// The attribute `merged.rs` looks for to find hidden rows and columns.
+const HIDDEN_NEEDLE: &[u8] = b" hidden=";
+
+/// Notes a tag's hidden row or columns when it carries the `hidden` attribute.
+#[inline]
+fn note_if_hidden(buf: &[u8], name: (usize, usize), attrs: (usize, usize), hidden: &mut super::merged::Hidden) {
+    let attributes = &buf[attrs.0..attrs.1];
+    if attributes.len() >= HIDDEN_NEEDLE.len() && memchr::memmem::find(attributes, HIDDEN_NEEDLE).is_some() {
+        super::merged::note_hidden(&String::from_utf8_lossy(&buf[name.0..attrs.1]), hidden);
+    }
 }
 
 /// One token of the XML stream; ranges index the scanner's buffer and are
@@ -969,6 +983,7 @@ fn read_cells<R: Read>(
     most_cells: u64,
     builder: &mut GridBuilder,
 ) -> Outcome<FastSheet> {
+    let mut hidden = super::merged::Hidden::default();
     // Up to the sheet data; a declared dimension must be well formed, as calamine requires.
     loop {
         match scanner.next()? {
@@ -991,7 +1006,7 @@ fn read_cells<R: Read>(
                     builder.reserve(declared.min(most_cells));
                 }
                 b"sheetData" => break,
-                _ => {}
+                _ => note_if_hidden(&scanner.buf, name, attrs, &mut hidden),
             },
             Token::Eof => return Err(Stop::Decline),
             _ => {}
@@ -1004,6 +1019,7 @@ fn read_cells<R: Read>(
     loop {
         match scanner.next()? {
             Token::Start { name, attrs, .. } if scanner.name_is(name, b"row") => {
+                note_if_hidden(&scanner.buf, name, attrs, &mut hidden);
                 if let Some(reference) = attribute(scanner.bytes(attrs), b"r") {
                     row_index = parse_reference(reference)?.0;
                 }
@@ -1122,11 +1138,16 @@ fn read_cells<R: Read>(
                     merged.push(area);
                 }
             }
+            Token::Start { name, attrs, .. } => note_if_hidden(&scanner.buf, name, attrs, &mut hidden),
             Token::Eof => break,
             _ => {}
         }
     }
-    Ok(FastSheet { merged })
+    hidden.rows.sort_unstable();
+    hidden.rows.dedup();
+    hidden.cols.sort_unstable();
+    hidden.cols.dedup();
+    Ok(FastSheet { merged, hidden })
 }
 
 /// Reads a `<v>` element (just opened) as calamine reads it for the cell's type.

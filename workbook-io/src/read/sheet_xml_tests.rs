@@ -52,6 +52,8 @@ fn assert_same(fast: &SheetGrid, slow: &SheetGrid, what: &str) {
     }
     assert_eq!(fast.strings, slow.strings, "{what}: string pool");
     assert_eq!(fast.merged, slow.merged, "{what}: merged areas");
+    assert_eq!(fast.hidden_rows, slow.hidden_rows, "{what}: hidden rows");
+    assert_eq!(fast.hidden_cols, slow.hidden_cols, "{what}: hidden columns");
 }
 
 #[test]
@@ -163,12 +165,12 @@ end</t></si></sst>"#;
 #[test]
 fn handmade_cell_forms_read_the_same() {
     let sheet = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
-<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><dimension ref="A1:H9"/><sheetViews><sheetView workbookViewId="0"/></sheetViews><sheetData>
+<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><dimension ref="A1:H9"/><sheetViews><sheetView workbookViewId="0"/></sheetViews><cols><col min="2" max="3" width="9" hidden="1"/><col min="5" max="5" width="9" hidden="0"/></cols><sheetData>
 <row r="1"><c r="A1" t="s"><v>0</v></c><c r="B1" t="s"><v>1</v></c><c r="C1" t="s"><v>2</v></c><c r="D1" t="s"><v>3</v></c><c r="E1" t="s"><v>4</v></c><c r="F1" t="s"><v>5</v></c><c r="G1" t="s"><v>6</v></c><c r="H1" t="s"><v>7</v></c></row>
 <row r="2"><c t="n"><v>1.5</v></c><c><v>-2E3</v></c><c s="1"><v>45000</v></c><c s="2"><v>3</v></c><c s="3"><v>45000.25</v></c><c s="4"><v>7</v></c><c s="5"><v>1.5</v></c><c s="9"><v>8</v></c></row>
 <row><c r="B3" t="b"><v>1</v></c><c t="b"><v>0</v></c><c t="e"><v>#N/A</v></c><c t="e"><v>#DIV/0!</v></c><c t="d"><v>2024-05-01T10:00:00</v></c><c t="str"><f>A1&amp;"x"</f><v>formula &amp; text</v></c></row>
 <row r="5" spans="1:8"><c r="A5" t="inlineStr"><is><t>inline</t></is></c><c r="B5" t="inlineStr"><is><r><t>in</t></r><r><t xml:space="preserve"> runs</t></r></is></c><c r="C5"/><c r="D5" s="1"/><c r="E5"><v></v></c><c r="F5"><v>not a number</v></c><c r="G5"><f>1+1</f><v>2</v></c><c r="H5" t="s"><v></v></c></row>
-<row r="6"/>
+<row r="6" hidden="1"/>
 <row><c><v>10</v></c><!-- a comment <c r="Z1"><v>9</v></c> --><c><v>11</v></c></row>
 <row r="9"><c r="H9"><v>   </v></c><c r="A9"><v>1</v></c></row>
 <x:row r="12" xmlns:x="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><x:c r="C12" t="s"><x:v>0</x:v></x:c></x:row>
@@ -187,6 +189,8 @@ fn handmade_cell_forms_read_the_same() {
     assert_eq!(at("A7"), Some(CellValue::Number(10.0)));
     assert_eq!(at("B7"), Some(CellValue::Number(11.0)));
     assert_eq!(grid.merged.len(), 2);
+    assert_eq!(grid.hidden_rows, [5]);
+    assert_eq!(grid.hidden_cols, [1, 2]);
 }
 
 #[test]

@@ -62,7 +62,9 @@ pub enum Look {
     Heading,
     /// A table's column header.
     ColumnHeader,
-    /// An explanatory note in italics.
+    /// An explanatory note in italics. Placed with [`Sheet::put`] it is one
+    /// line that runs on across the empty cells to its right; placed with
+    /// [`Sheet::paragraph`] it wraps within its column.
     Note,
     /// The caution about acting on results.
     Caution,
@@ -236,6 +238,12 @@ pub struct Sheet {
     pub heights: Vec<(u32, f64)>,
     /// Areas where typing is limited to numbers.
     pub number_only: Vec<NumberOnly>,
+    /// Printed in portrait rather than landscape (still fitted to the page width).
+    pub portrait: bool,
+    /// Rows, zero-based, that start a new printed page. A sheet with breaks
+    /// is printed at 100% rather than fitted to the page width, so its
+    /// columns must fit the page by themselves.
+    pub page_breaks: Vec<u32>,
 }
 
 /// An area of a sheet where the spreadsheet accepts only numbers (any
@@ -305,6 +313,49 @@ impl Sheet {
         self.put(row, col, Value::Text(text), look);
     }
 
+    /// Places a table whose cells wrap within their columns, every cell top-aligned, each
+    /// row made tall enough for its longest text (estimated from `widths`, the columns'
+    /// widths in characters; spreadsheet programs do not always refit rows of wrapped text
+    /// on opening). Links keep their own look. Returns the first row after the table.
+    pub fn wrapped_table(
+        &mut self,
+        row: u32,
+        col: u16,
+        headers: &[&str],
+        rows: Vec<Vec<Value>>,
+        widths: &[f64],
+    ) -> u32 {
+        let width_of = |offset: usize| widths.get(offset).copied().unwrap_or(12.0).max(1.0);
+        let mut header_lines = 1.0_f64;
+        for (offset, header) in headers.iter().enumerate() {
+            header_lines = header_lines.max((header.chars().count() as f64 / (width_of(offset) * 1.1)).ceil());
+            self.put(row, col + offset as u16, Value::text(*header), Look::ColumnHeader);
+        }
+        self.heights.push((row, 15.5 * header_lines.min(4.0)));
+        let mut next = row + 1;
+        for values in rows {
+            let mut lines = 1.0_f64;
+            for (offset, value) in values.into_iter().enumerate() {
+                let length = match &value {
+                    Value::Text(text) => text.chars().count(),
+                    Value::Link { text, .. } => text.chars().count(),
+                    _ => 0,
+                };
+                // About 1.1 characters of body text per unit of column width.
+                lines = lines.max((length as f64 / (width_of(offset) * 1.1)).ceil());
+                let look = if matches!(value, Value::Link { .. }) {
+                    Look::Plain
+                } else {
+                    Look::Paragraph
+                };
+                self.put(next, col + offset as u16, value, look);
+            }
+            self.heights.push((next, 15.5 * lines.min(24.0)));
+            next += 1;
+        }
+        next
+    }
+
     /// Places a table: a header row and rows of values. Returns the first row after it.
     pub fn table(&mut self, row: u32, col: u16, headers: &[&str], rows: Vec<Vec<Value>>) -> u32 {
         for (offset, header) in headers.iter().enumerate() {
@@ -358,6 +409,7 @@ struct Looks {
     heading: Format,
     column_header: Format,
     note: Format,
+    note_line: Format,
     caution: Format,
     verdict: Format,
     key: Format,
@@ -383,6 +435,7 @@ impl Looks {
                 .set_text_wrap()
                 .set_align(FormatAlign::Top)
                 .set_font_color(Color::RGB(0x505A64)),
+            note_line: Format::new().set_italic().set_font_color(Color::RGB(0x505A64)),
             caution: Format::new()
                 .set_bold()
                 .set_font_color(Color::RGB(0x8A3B00))
@@ -430,16 +483,37 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
         let created = ExcelDateTime::from_ymd(date.year, date.month, date.day)?;
         workbook.set_properties(&DocProperties::new().set_creation_datetime(&created));
     }
-    let mut number_formats: std::collections::HashMap<(NumberFormat, Look), Format> = std::collections::HashMap::new();
+    let mut number_formats: std::collections::HashMap<(NumberFormat, Look, bool), Format> =
+        std::collections::HashMap::new();
     for sheet in &book.sheets {
         let worksheet = workbook.add_worksheet();
         worksheet.set_name(&sheet.name)?;
         for (col, width) in &sheet.widths {
             worksheet.set_column_width(*col, *width)?;
         }
-        // Printed, every sheet fits the page width, in landscape.
-        worksheet.set_landscape();
-        worksheet.set_print_fit_to_pages(1, 0);
+        // Printed, every sheet fits the page width, in landscape unless asked otherwise.
+        if sheet.portrait {
+            worksheet.set_portrait();
+        } else {
+            worksheet.set_landscape();
+        }
+        // Spreadsheet programs ignore manual page breaks on a sheet scaled to
+        // fit, so a sheet with breaks is printed at its own size (its columns
+        // are chosen to fit the page).
+        if sheet.page_breaks.is_empty() {
+            worksheet.set_print_fit_to_pages(1, 0);
+        } else {
+            let mut breaks: Vec<u32> = sheet.page_breaks.iter().copied().filter(|&row| row > 0).collect();
+            breaks.sort_unstable();
+            breaks.dedup();
+            // The file format holds at most 1,023 manual breaks a sheet.
+            breaks.truncate(1_023);
+            worksheet.set_page_breaks(&breaks)?;
+        }
+        // Rows given a height hold paragraphs: their notes wrap; elsewhere a
+        // note is one line (a wrapped note in a narrow table column would be
+        // cut off at the row's height).
+        let paragraph_rows: std::collections::HashSet<u32> = sheet.heights.iter().map(|(row, _)| *row).collect();
         for (row, height) in &sheet.heights {
             worksheet.set_row_height(*row, *height)?;
         }
@@ -447,14 +521,18 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
             worksheet.set_freeze_panes(sheet.frozen_rows, 0)?;
         }
         for placed in &sheet.cells {
-            let format = looks.get(placed.look);
+            let format = if placed.look == Look::Note && !paragraph_rows.contains(&placed.row) {
+                &looks.note_line
+            } else {
+                looks.get(placed.look)
+            };
             match &placed.value {
                 Value::Text(text) => {
                     worksheet.write_string_with_format(placed.row, placed.col, clip_text(text), format)?;
                 }
                 Value::Number(number, number_format) if number.is_finite() => {
                     let with_number = number_formats
-                        .entry((*number_format, placed.look))
+                        .entry((*number_format, placed.look, paragraph_rows.contains(&placed.row)))
                         .or_insert_with(|| format.clone().set_num_format(number_format.code()));
                     worksheet.write_number_with_format(placed.row, placed.col, *number, &*with_number)?;
                 }
