@@ -248,7 +248,8 @@ impl GridBuilder {
 
     /// Room for `cells` more cells (a hint; the cell cap still applies).
     fn reserve(&mut self, cells: u64) {
-        let cells = cells.min(self.max_cells.saturating_add(1)).min(1 << 26);
+        // At most 8 Mi cells (192 MB) up front; a larger sheet grows the vector as before.
+        let cells = cells.min(self.max_cells.saturating_add(1)).min(1 << 23);
         self.grid.cells.reserve(cells as usize);
     }
 
