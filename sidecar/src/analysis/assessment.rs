@@ -429,7 +429,25 @@ fn ranks_and_checks(
 ) -> (Option<RankSummary>, ModelChecks, Vec<String>) {
     let mut notes = Vec::new();
     let slices: Vec<&[f64]> = group_values.iter().map(Vec::as_slice).collect();
-    let rank_based = match rank_analysis(&slices) {
+    // For a large sample the rank analysis (a sort of all values) runs on a thread of its
+    // own beside the model checks (another sort, of the residuals).
+    let (ranked, checks, mut check_notes) = if fit.n_total >= PARALLEL_MIN_VALUES {
+        std::thread::scope(|scope| {
+            let ranked = scope.spawn(|| rank_analysis(&slices));
+            let mut check_notes = Vec::new();
+            let checks = model_checks(fit, group_values, group_records, &slices, &mut check_notes);
+            let ranked = ranked
+                .join()
+                .unwrap_or_else(|payload| std::panic::resume_unwind(payload));
+            (ranked, checks, check_notes)
+        })
+    } else {
+        let ranked = rank_analysis(&slices);
+        let mut check_notes = Vec::new();
+        let checks = model_checks(fit, group_values, group_records, &slices, &mut check_notes);
+        (ranked, checks, check_notes)
+    };
+    let rank_based = match ranked {
         Ok(RankOutcome::Tested(analysis)) => {
             let names: Vec<String> = fit.conditions.iter().map(|condition| condition.name.clone()).collect();
             Some(RankSummary {
@@ -466,7 +484,7 @@ fn ranks_and_checks(
         }
     };
 
-    let checks = model_checks(fit, group_values, group_records, &slices, &mut notes);
+    notes.append(&mut check_notes);
     (rank_based, checks, notes)
 }
 
