@@ -527,7 +527,15 @@ pub const SIZE_SHEET: &str = "Power and runs";
 pub fn size_book(answer: &SizeAnswer) -> Book {
     let mut sheet = Sheet::new(SIZE_SHEET);
     sheet.widths = vec![(0, 30.0), (1, 16.0), (2, 16.0), (3, 12.0)];
-    sheet.put(0, 0, Value::text(answer.question.clone()), Look::Title);
+    // The question's bracketed detail goes on a note line of its own, so that the title
+    // does not run far past the table and shrink the printed page.
+    match answer.question.split_once(" (") {
+        Some((head, detail)) => {
+            sheet.put(0, 0, Value::text(head), Look::Title);
+            sheet.put(1, 0, Value::text(format!("({detail}")), Look::Note);
+        }
+        None => sheet.put(0, 0, Value::text(answer.question.clone()), Look::Title),
+    }
     let mut rows = vec![
         vec![Value::text("SD used"), Value::number(answer.sd)],
         vec![Value::text("SD from"), Value::text(answer.sd_from.clone())],
@@ -592,7 +600,7 @@ pub fn size_book(answer: &SizeAnswer) -> Book {
                 bar_minus: None,
                 labels: None,
             }],
-            anchor: (header_row, 5),
+            anchor: (header_row, 4),
             size: (520, 320),
         });
     }
