@@ -186,15 +186,6 @@ pub struct RunArgs {
     /// Print results as JSON Lines (one object per workbook) on stdout.
     #[arg(long)]
     pub json: bool,
-    /// Confidence level for intervals and tests: 0.95, 95 or 95%.
-    #[arg(long)]
-    pub confidence: Option<String>,
-    /// A linear combination of condition means, e.g. "new vs old: (A + B)/2 - C"; repeatable.
-    #[arg(long)]
-    pub contrast: Vec<String>,
-    /// Which way the response is better: higher, lower, or "target 12.5".
-    #[arg(long)]
-    pub direction: Option<String>,
     /// Folder for the results workbooks (default: beside each original).
     #[arg(long)]
     pub out_dir: Option<PathBuf>,
@@ -207,9 +198,9 @@ pub struct RunArgs {
     /// Write a roll-up workbook: one row per workbook and response, and a chart of the verdicts.
     #[arg(long, value_name = "FILE")]
     pub rollup: Option<PathBuf>,
-    /// Table options.
+    /// Analysis and table options.
     #[command(flatten)]
-    pub table: TableArgs,
+    pub analysis: AnalysisArgs,
 }
 
 /// `trialyst watch`.
@@ -243,13 +234,13 @@ pub struct WatchArgs {
     pub analysis: AnalysisArgs,
 }
 
-/// Analysis options shared by `watch` and its worker.
+/// Analysis options shared by `run`, `watch` and the watcher's worker.
 #[derive(Debug, Args, Clone, Default)]
 pub struct AnalysisArgs {
     /// Confidence level for intervals and tests: 0.95, 95 or 95%.
     #[arg(long)]
     pub confidence: Option<String>,
-    /// A linear combination of condition means; repeatable.
+    /// A linear combination of condition means, e.g. "new vs old: (A + B)/2 - C"; repeatable.
     #[arg(long)]
     pub contrast: Vec<String>,
     /// Which way the response is better: higher, lower, or "target 12.5".
@@ -313,15 +304,6 @@ fn table_settings(table: &TableArgs) -> Result<Settings, UsageError> {
         blocks: table.block.clone(),
         layout,
         ..Settings::default()
-    })
-}
-
-fn run_settings(args: &RunArgs) -> Result<Settings, UsageError> {
-    analysis_settings(&AnalysisArgs {
-        confidence: args.confidence.clone(),
-        contrast: args.contrast.clone(),
-        direction: args.direction.clone(),
-        table: args.table.clone(),
     })
 }
 
@@ -484,7 +466,7 @@ pub fn main_with(cli: Cli) -> i32 {
 }
 
 fn run_command(args: RunArgs) -> i32 {
-    let settings = match run_settings(&args) {
+    let settings = match analysis_settings(&args.analysis) {
         Ok(settings) => settings,
         Err(error) => {
             eprintln!("trialyst: {error}");

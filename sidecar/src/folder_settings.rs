@@ -22,6 +22,7 @@ use std::path::{Path, PathBuf};
 
 use toml::Spanned;
 
+use crate::plan::file::line_of;
 use crate::settings::{Settings, SettingsError};
 
 /// The file name looked for in a folder.
@@ -62,14 +63,6 @@ pub enum FolderSettingsError {
         /// What is accepted.
         rule: String,
     },
-}
-
-fn line_of(text: &str, offset: usize) -> usize {
-    text[..offset.min(text.len())]
-        .bytes()
-        .filter(|byte| *byte == b'\n')
-        .count()
-        + 1
 }
 
 fn scalar_text(value: &toml::Value) -> Option<String> {

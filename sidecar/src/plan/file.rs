@@ -85,7 +85,8 @@ struct RawPlanFile {
     date: Option<Spanned<String>>,
 }
 
-fn line_of(text: &str, offset: usize) -> usize {
+/// The 1-based line of byte `offset` in `text`.
+pub(crate) fn line_of(text: &str, offset: usize) -> usize {
     text[..offset.min(text.len())]
         .bytes()
         .filter(|byte| *byte == b'\n')

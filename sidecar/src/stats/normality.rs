@@ -456,19 +456,18 @@ pub fn normal_plot_positions_sorted(sorted: &[f64]) -> Result<Vec<NormalPlotPoin
         });
     }
     check_sorted(sorted)?;
-    let n_f = sorted.len() as f64;
-    Ok(sorted
-        .iter()
-        .enumerate()
-        .map(|(i, &value)| {
-            let probability = (i as f64 + 1.0 - 0.375) / (n_f + 0.25);
-            NormalPlotPoint {
-                value,
-                probability,
-                normal_quantile: normal_quantile(probability),
-            }
-        })
-        .collect())
+    Ok((0..sorted.len()).map(|i| plot_point(sorted, i)).collect())
+}
+
+/// The plot point of the `i`-th smallest of `sorted`: Blom's position (i + 1 - 3/8) /
+/// (n + 1/4) and its normal quantile.
+fn plot_point(sorted: &[f64], i: usize) -> NormalPlotPoint {
+    let probability = (i as f64 + 1.0 - 0.375) / (sorted.len() as f64 + 0.25);
+    NormalPlotPoint {
+        value: sorted[i],
+        probability,
+        normal_quantile: normal_quantile(probability),
+    }
 }
 
 /// Runs Shapiro-Wilk (when n <= 5000), Anderson-Darling and the plot positions from one
@@ -498,18 +497,9 @@ pub fn check_normality_thinned(values: &[f64], max_plot_points: usize) -> Result
     let plot_points = if sorted.len() <= max_plot_points {
         normal_plot_positions_sorted(&sorted)?
     } else {
-        let n_f = sorted.len() as f64;
-        let step = n_f / max_plot_points as f64;
+        let step = sorted.len() as f64 / max_plot_points as f64;
         (0..max_plot_points)
-            .map(|j| {
-                let i = (j as f64 * step) as usize;
-                let probability = (i as f64 + 1.0 - 0.375) / (n_f + 0.25);
-                NormalPlotPoint {
-                    value: sorted[i],
-                    probability,
-                    normal_quantile: normal_quantile(probability),
-                }
-            })
+            .map(|j| plot_point(&sorted, (j as f64 * step) as usize))
             .collect()
     };
     Ok(NormalityCheck {

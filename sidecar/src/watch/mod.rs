@@ -534,13 +534,7 @@ impl Watcher {
             self.retry(path, attempts.saturating_sub(1), Duration::from_millis(300));
             return;
         }
-        if self
-            .state
-            .files
-            .get(&relative)
-            .is_some_and(|entry| self.done(entry, &sha256))
-        {
-            self.log.event("skipped", &relative, "unchanged since it was analysed");
+        if self.skip_if_done(&relative, &sha256) {
             return;
         }
         if let Err(message) = self.folder_file.check() {
@@ -568,13 +562,7 @@ impl Watcher {
         };
         // Another watcher may have finished it while we looked.
         self.state = self.store.load();
-        if self
-            .state
-            .files
-            .get(&relative)
-            .is_some_and(|entry| self.done(entry, &sha256))
-        {
-            self.log.event("skipped", &relative, "unchanged since it was analysed");
+        if self.skip_if_done(&relative, &sha256) {
             return;
         }
         let folder_settings = self
@@ -681,6 +669,19 @@ impl Watcher {
 
     /// True when `entry` records this content as handled and its output is still there
     /// (a deleted results or problems file asks for the workbook to be analysed again).
+    /// Whether `relative` with this content was analysed already (logged as skipped).
+    fn skip_if_done(&self, relative: &str, sha256: &str) -> bool {
+        let done = self
+            .state
+            .files
+            .get(relative)
+            .is_some_and(|entry| self.done(entry, sha256));
+        if done {
+            self.log.event("skipped", relative, "unchanged since it was analysed");
+        }
+        done
+    }
+
     fn done(&self, entry: &Entry, sha256: &str) -> bool {
         entry.sha256 == sha256 && (entry.output.is_empty() || self.folder.join(&entry.output).exists())
     }
