@@ -5,9 +5,9 @@
 
 use std::time::Instant;
 
-use sidecar::analysis::assessment::{assess, AssessmentOptions};
-use sidecar::analysis::oneway::fit_one_way;
-use sidecar::settings::Direction;
+use engine::analysis::assessment::{assess, AssessmentOptions};
+use engine::analysis::oneway::fit_one_way;
+use service::settings::Direction;
 
 fn main() {
     let arg = |index: usize, default: usize| {
@@ -45,7 +45,7 @@ fn main() {
         group_records[group as usize].push(record);
     }
     {
-        use sidecar::analysis::comparisons::*;
+        use engine::analysis::comparisons::*;
         let time = |label: &str, run: &dyn Fn()| {
             let started = Instant::now();
             run();
@@ -61,15 +61,15 @@ fn main() {
         time("control", &|| drop(against_control(&fit, "condition 0", None, 0.95)));
         time("best", &|| drop(with_the_best(&fit, Direction::HigherIsBetter, 0.95)));
         let slices: Vec<&[f64]> = group_values.iter().map(Vec::as_slice).collect();
-        time("ranks", &|| drop(sidecar::stats::ranks::rank_analysis(&slices)));
+        time("ranks", &|| drop(engine::stats::ranks::rank_analysis(&slices)));
         time("levene median", &|| {
-            drop(sidecar::stats::spread::levene(
+            drop(engine::stats::spread::levene(
                 &slices,
-                sidecar::stats::spread::Centre::Median,
+                engine::stats::spread::Centre::Median,
             ))
         });
         time("normality 1M", &|| {
-            drop(sidecar::stats::normality::check_normality_thinned(&values, 2_000))
+            drop(engine::stats::normality::check_normality_thinned(&values, 2_000))
         });
     }
     for round in 0..3 {

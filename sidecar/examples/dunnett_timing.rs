@@ -5,7 +5,7 @@
 
 use std::time::Instant;
 
-use sidecar::stats::dunnett::{
+use engine::stats::dunnett::{
     dunnett_lambdas, mcb_critical_values, product_correlation_cdf, product_correlation_quantile, Sides,
 };
 

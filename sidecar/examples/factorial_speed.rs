@@ -6,12 +6,9 @@
 
 use std::time::Instant;
 
-use sidecar::analysis::factorial::analyse_factorial;
-use sidecar::settings::Settings;
-use sidecar::stats::accumulate::GroupAccumulator;
-use sidecar::stats::two_level_analysis::{analyse_two_level, AnalysisOptions};
-use workbook_io::layout::{Factor, Layout, Response, TrialTable};
-use workbook_io::{CellPos, CellRect};
+use engine::analysis::factorial::{analyse_factorial, FactorData, FactorialData, FactorialOptions};
+use engine::stats::accumulate::GroupAccumulator;
+use engine::stats::two_level_analysis::{analyse_two_level, AnalysisOptions};
 
 /// A small deterministic generator (xorshift64*).
 struct Draws(u64);
@@ -28,35 +25,46 @@ impl Draws {
     }
 }
 
+struct Factor {
+    name: String,
+    levels: Vec<String>,
+    level_of_record: Vec<u32>,
+}
+
 fn factor(name: &str, levels: Vec<String>, level_of_record: Vec<u32>) -> Factor {
     Factor {
         name: name.into(),
-        column: None,
         levels,
         level_of_record,
-        is_block: false,
     }
 }
 
-fn table(factors: Vec<Factor>, values: Vec<f64>) -> TrialTable {
-    let n_records = values.len() as u32;
-    TrialTable {
-        sheet: "Trial".into(),
-        area: CellRect {
-            first: CellPos::new(0, 0),
-            last: CellPos::new(n_records, factors.len() as u32),
-        },
-        layout: Layout::Long,
-        responses: vec![Response {
-            name: "Yield".into(),
-            column: Some(factors.len() as u32),
-            values,
-        }],
-        factors,
-        record_rows: (1..=n_records).collect(),
-        level_columns: Vec::new(),
-        findings: Vec::new(),
+struct Table {
+    factors: Vec<Factor>,
+    values: Vec<f64>,
+}
+
+impl Table {
+    fn data(&self) -> FactorialData<'_> {
+        FactorialData {
+            factors: self
+                .factors
+                .iter()
+                .map(|factor| FactorData {
+                    name: &factor.name,
+                    levels: &factor.levels,
+                    level_of_record: &factor.level_of_record,
+                    is_block: false,
+                })
+                .collect(),
+            response_name: "Yield",
+            values: &self.values,
+        }
     }
+}
+
+fn table(factors: Vec<Factor>, values: Vec<f64>) -> Table {
+    Table { factors, values }
 }
 
 fn best_of<T>(repeats: usize, mut work: impl FnMut() -> T) -> (f64, T) {
@@ -111,8 +119,8 @@ fn main() {
     });
     println!("cell sums alone (exact decimal accumulator, 60 cells): {sums_ms:.1} ms");
     let big = table(factors, values);
-    let settings = Settings::default();
-    let (milliseconds, outcome) = best_of(5, || analyse_factorial(&big, 0, &settings));
+    let settings = FactorialOptions::default();
+    let (milliseconds, outcome) = best_of(5, || analyse_factorial(&big.data(), &settings));
     let outcome = outcome.expect("outcome");
     println!(
         "4 x 3 x 5 trial, {n_records} records: factorial analysis {milliseconds:.1} ms (best of 5); {} cells, residual df {}",
@@ -148,7 +156,7 @@ fn main() {
         })
         .collect();
     let screening = table(screening_factors, responses.clone());
-    let (full_ms, outcome) = best_of(20, || analyse_factorial(&screening, 0, &settings));
+    let (full_ms, outcome) = best_of(20, || analyse_factorial(&screening.data(), &settings));
     let outcome = outcome.expect("outcome");
     println!(
         "2^(8-3) screening, whole factorial analysis (k-way model, two-level, reduced model, text): {full_ms:.2} ms (best of 20); design {}",

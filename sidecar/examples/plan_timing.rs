@@ -6,10 +6,10 @@
 
 use std::time::Instant;
 
-use sidecar::analysis::power::OneWayEffect;
-use sidecar::plan::size::{SdSource, SizeDesign};
-use sidecar::plan::{make_plan, size_answer, FactorSpec, PlanRequest, SizeRequest};
-use sidecar::stats::two_level::{minimum_aberration_design, DEFAULT_SEARCH_BUDGET};
+use engine::analysis::power::OneWayEffect;
+use engine::stats::two_level::{minimum_aberration_design, DEFAULT_SEARCH_BUDGET};
+use service::plan::size::{SdSource, SizeDesign};
+use service::plan::{make_plan, size_answer, FactorSpec, PlanRequest, SizeRequest};
 
 /// Runs `work` `repeats` times and returns the slowest and median times in ms.
 fn time_ms(repeats: usize, mut work: impl FnMut()) -> (f64, f64) {

@@ -7,7 +7,7 @@
 use std::hint::black_box;
 use std::time::Instant;
 
-use sidecar::stats::studentized_range::{studentized_range_cdf, studentized_range_quantile, studentized_range_sf};
+use engine::stats::studentized_range::{studentized_range_cdf, studentized_range_quantile, studentized_range_sf};
 
 /// Best time in microseconds of `repeats` runs of `run`, the run index passed in.
 fn best_of(repeats: usize, mut run: impl FnMut(usize) -> f64) -> f64 {

@@ -1,4 +1,4 @@
-//! The command line: argument parsing and glue over [`crate::service`].
+//! The command line: argument parsing and output over the `service` crate.
 //!
 //! Exit codes: 0 when every workbook was analysed, 1 when at least one
 //! failed (each failure is printed on one line and the run goes on), 2 for a
@@ -6,12 +6,15 @@
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
 use clap::{Args, Parser, Subcommand};
 use workbook_io::layout::Layout;
 
-use crate::service::{self, AnalysisRequest};
-use crate::settings::{parse_confidence, parse_direction, Settings};
+use service::settings::{parse_confidence, parse_direction, Settings};
+use service::AnalysisRequest;
 
 /// Exit code when every workbook was analysed.
 pub const EXIT_OK: i32 = 0;
@@ -254,17 +257,8 @@ pub struct AnalysisArgs {
 /// The watcher's worker: analyses one workbook in a child process.
 #[derive(Debug, Args)]
 pub struct AnalyseOneArgs {
-    /// The workbook.
-    pub file: PathBuf,
-    /// Folder for the results workbook given on the watcher's command line.
-    #[arg(long)]
-    pub out_dir: Option<PathBuf>,
-    /// The folder settings file to apply.
-    #[arg(long)]
-    pub folder_settings: Option<PathBuf>,
-    /// Analysis options.
-    #[command(flatten)]
-    pub analysis: AnalysisArgs,
+    /// The request, as JSON (see `watch::worker::WorkerRequest`).
+    pub request: String,
 }
 
 /// `trialyst inspect`.
@@ -332,64 +326,8 @@ pub fn analysis_settings(args: &AnalysisArgs) -> Result<Settings, UsageError> {
     Ok(settings)
 }
 
-/// Expands files and folders into the workbooks to analyse, sorted, skipping
-/// lock files, temporary files and our own outputs.
-pub fn collect_workbooks(paths: &[PathBuf], recursive: bool) -> (Vec<PathBuf>, Vec<(PathBuf, String)>) {
-    let mut found = Vec::new();
-    let mut problems = Vec::new();
-    for path in paths {
-        if path.is_dir() {
-            scan_folder(path, recursive, &mut found, &mut problems);
-        } else if path.exists() {
-            found.push(path.clone());
-        } else {
-            problems.push((path.clone(), "no such file or folder".to_string()));
-        }
-    }
-    (found, problems)
-}
-
-fn scan_folder(folder: &Path, recursive: bool, found: &mut Vec<PathBuf>, problems: &mut Vec<(PathBuf, String)>) {
-    let entries = match std::fs::read_dir(folder) {
-        Ok(entries) => entries,
-        Err(error) => {
-            problems.push((folder.to_path_buf(), format!("cannot list the folder: {error}")));
-            return;
-        }
-    };
-    let mut paths: Vec<PathBuf> = entries.filter_map(Result::ok).map(|entry| entry.path()).collect();
-    paths.sort();
-    for path in paths {
-        let name = path
-            .file_name()
-            .map(|name| name.to_string_lossy().into_owned())
-            .unwrap_or_default();
-        if path.is_dir() {
-            if recursive && !name.starts_with('.') {
-                scan_folder(&path, recursive, found, problems);
-            }
-        } else if service::has_workbook_extension(&name) && !service::is_ignored_file_name(&name) {
-            found.push(path);
-        }
-    }
-}
-
-pub use crate::batch::{run_one, run_parallel, RunOutcome};
-
-/// An error and all its sources on one line, joined by ": ".
-pub fn error_chain(error: &dyn std::error::Error) -> String {
-    let mut text = error.to_string();
-    let mut source = error.source();
-    while let Some(cause) = source {
-        let cause_text = cause.to_string();
-        if !text.contains(&cause_text) {
-            text.push_str(": ");
-            text.push_str(&cause_text);
-        }
-        source = cause.source();
-    }
-    text
-}
+pub use service::batch::{run_one, run_parallel, RunOutcome};
+pub use service::{collect_workbooks, error_chain};
 
 pub(crate) fn json_line(path: &Path, outcome: &RunOutcome) -> String {
     let value = match outcome {
@@ -443,23 +381,190 @@ pub(crate) fn human_line(path: &Path, outcome: &RunOutcome) -> String {
     }
 }
 
+/// What a batch needs beyond the workbooks.
+struct BatchOptions<'a> {
+    /// The settings from the command line.
+    pub settings: Settings,
+    /// The folder for results given on the command line.
+    pub out_dir: Option<&'a Path>,
+    /// Whether to write results workbooks.
+    pub write: bool,
+    /// Threads.
+    pub jobs: usize,
+    /// JSON lines on stdout.
+    pub json: bool,
+    /// The roll-up workbook to write.
+    pub rollup: Option<&'a Path>,
+}
+
+/// Runs a batch over `paths`; returns the process exit code.
+fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> i32 {
+    let started = Instant::now();
+    let (workbooks, problems) = collect_workbooks(paths, recursive);
+    let roots: Vec<PathBuf> = paths.iter().filter(|path| path.is_dir()).cloned().collect();
+    let (folder_settings, chosen) = match service::batch::folder_settings_for(&workbooks, &roots) {
+        Ok(found) => found,
+        Err(message) => {
+            eprintln!("trialyst: {message}");
+            return EXIT_USAGE;
+        }
+    };
+    let base = AnalysisRequest {
+        settings: options.settings.clone(),
+        ..AnalysisRequest::default()
+    };
+    let progress = ProgressBar::with_draw_target(Some(workbooks.len() as u64), ProgressDrawTarget::stderr());
+    if let Ok(style) = ProgressStyle::with_template("{bar:40} {pos}/{len} workbooks, {per_sec}, about {eta} left") {
+        progress.set_style(style);
+    }
+    let request_of = |index: usize| -> AnalysisRequest {
+        AnalysisRequest {
+            folder_settings: chosen[index].map(|which| folder_settings[which].clone()),
+            ..base.clone()
+        }
+    };
+    let outcomes = service::batch::run_parallel_with(
+        &workbooks,
+        &request_of,
+        options.out_dir,
+        options.write,
+        options.jobs,
+        &|| progress.inc(1),
+    );
+    progress.finish_and_clear();
+
+    let stdout = std::io::stdout();
+    let mut out = stdout.lock();
+    let mut failed = problems.len();
+    for (path, message) in &problems {
+        if options.json {
+            let _ = writeln!(out, "{}", json_line(path, &RunOutcome::Failed(message.clone())));
+        } else {
+            eprintln!("failed {}: {message}", path.display());
+        }
+    }
+    let mut analysed = 0;
+    for (path, outcome) in workbooks.iter().zip(&outcomes) {
+        match outcome {
+            RunOutcome::Analysed(..) => analysed += 1,
+            RunOutcome::Failed(_) => failed += 1,
+        }
+        if options.json {
+            let _ = writeln!(out, "{}", json_line(path, outcome));
+        } else if matches!(outcome, RunOutcome::Failed(_)) {
+            eprintln!("{}", human_line(path, outcome));
+        } else {
+            let _ = writeln!(out, "{}", human_line(path, outcome));
+        }
+    }
+    let _ = out.flush();
+    let mut rollup_note = String::new();
+    if let Some(rollup) = options.rollup {
+        match service::batch::write_rollup(rollup, &workbooks, &outcomes, &problems) {
+            Ok(()) => rollup_note = format!("; roll-up {}", rollup.display()),
+            Err(message) => {
+                eprintln!("trialyst: {message}");
+                failed += 1;
+            }
+        }
+    }
+    let seconds = started.elapsed().as_secs_f64();
+    let rate = if seconds > 0.0 {
+        (analysed + failed) as f64 / seconds
+    } else {
+        0.0
+    };
+    eprintln!("trialyst: {analysed} analysed, {failed} failed in {seconds:.1} s ({rate:.0} workbooks/s){rollup_note}");
+    if workbooks.is_empty() && problems.is_empty() {
+        eprintln!("trialyst: no workbooks found in the paths given");
+        return EXIT_SOME_FAILED;
+    }
+    if failed > 0 {
+        EXIT_SOME_FAILED
+    } else {
+        EXIT_OK
+    }
+}
+
+/// `trialyst watch`: the options checked, then the watcher until it is asked to stop.
+fn watch_command(args: WatchArgs) -> i32 {
+    let settings = match analysis_settings(&args.analysis) {
+        Ok(settings) => settings,
+        Err(error) => {
+            eprintln!("trialyst: {error}");
+            return EXIT_USAGE;
+        }
+    };
+    let poll = match args.poll {
+        Some(seconds) if seconds.is_finite() && seconds > 0.0 => Some(std::time::Duration::from_secs_f64(seconds)),
+        Some(seconds) => {
+            eprintln!("trialyst: --poll takes a number of seconds above 0, not {seconds}");
+            return EXIT_USAGE;
+        }
+        None => None,
+    };
+    let limits_usable = args.time_limit.is_finite()
+        && args.time_limit > 0.0
+        && args.claim_expiry.is_finite()
+        && args.claim_expiry >= 0.0;
+    if !limits_usable {
+        eprintln!("trialyst: --time-limit and --claim-expiry take positive numbers");
+        return EXIT_USAGE;
+    }
+    let program = match std::env::current_exe() {
+        Ok(program) => program,
+        Err(error) => {
+            eprintln!("trialyst: cannot find the program itself to start workers: {error}");
+            return EXIT_USAGE;
+        }
+    };
+    let options = watch::WatchOptions {
+        folder: args.folder,
+        recursive: args.recursive,
+        poll,
+        log: args.log,
+        out_dir: args.out_dir,
+        limits: watch::WorkerLimits {
+            memory_bytes: args.memory_limit.saturating_mul(1024 * 1024),
+            time: std::time::Duration::from_secs_f64(args.time_limit),
+        },
+        claim_expiry: std::time::Duration::from_secs_f64(args.claim_expiry * 60.0),
+        settings,
+        program,
+    };
+    match watch::watch(options) {
+        Ok(()) => EXIT_OK,
+        Err(watch::WatchError::CannotStart(message)) => {
+            eprintln!("trialyst: {message}");
+            EXIT_USAGE
+        }
+        Err(error) => {
+            eprintln!("trialyst: {error}");
+            EXIT_SOME_FAILED
+        }
+    }
+}
+
 /// Runs the command line; returns the process exit code.
 pub fn main_with(cli: Cli) -> i32 {
     match cli.command {
         Command::Run(args) => run_command(args),
         Command::Inspect(args) => inspect_command(args),
-        Command::Watch(args) => crate::watch::watch_command(args),
-        Command::AnalyseOne(args) => crate::watch::worker::analyse_one_command(args),
+        Command::Watch(args) => watch_command(args),
+        Command::AnalyseOne(args) => {
+            watch::worker::analyse_one(&args.request);
+            EXIT_OK
+        }
         Command::Plan(args) => plan_command(args),
         Command::Size(args) => size_command(args),
         Command::Serve(args) => {
             let served = match &args.listen {
-                Some(address) => crate::lsp::serve_tcp(address),
-                None => crate::lsp::serve_stdio(),
+                Some(address) => server::serve_tcp(address),
+                None => server::serve_stdio(),
             };
             served.unwrap_or_else(|error| {
                 eprintln!("trialyst: {}", error_chain(&error));
-                crate::lsp::EXIT_CANNOT_START
+                server::EXIT_CANNOT_START
             })
         }
     }
@@ -486,7 +591,7 @@ fn run_command(args: RunArgs) -> i32 {
         .jobs
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
         .max(1);
-    let options = crate::batch::BatchOptions {
+    let options = BatchOptions {
         settings,
         out_dir: args.out_dir.as_deref(),
         write: !args.no_write,
@@ -494,7 +599,7 @@ fn run_command(args: RunArgs) -> i32 {
         json: args.json,
         rollup: args.rollup.as_deref(),
     };
-    crate::batch::run_batch(&args.paths, args.recursive, &options)
+    run_batch(&args.paths, args.recursive, &options)
 }
 
 fn inspect_command(args: InspectArgs) -> i32 {
@@ -553,24 +658,25 @@ fn inspect_command(args: InspectArgs) -> i32 {
 }
 
 /// Reads `Name=level1,level2,...`.
-fn parse_factor_arg(text: &str) -> Result<crate::plan::FactorSpec, UsageError> {
+fn parse_factor_arg(text: &str) -> Result<service::plan::FactorSpec, UsageError> {
     let Some((name, levels)) = text.split_once('=') else {
         return Err(UsageError(format!(
             "--factor '{text}': write the name, '=' and the levels separated by commas, e.g. \"Temperature=160,180\""
         )));
     };
     let levels: Vec<&str> = levels.split(',').map(str::trim).collect();
-    Ok(crate::plan::FactorSpec::new(name, &levels))
+    Ok(service::plan::FactorSpec::new(name, &levels))
 }
 
-fn plan_request(args: &PlanArgs) -> Result<crate::plan::PlanRequest, String> {
+fn plan_request(args: &PlanArgs) -> Result<service::plan::PlanRequest, String> {
     let mut request = match &args.from {
         Some(path) => {
             let text =
                 std::fs::read_to_string(path).map_err(|error| format!("cannot read '{}': {error}", path.display()))?;
-            crate::plan::file::parse_plan_file(&text, &path.display().to_string()).map_err(|error| error.to_string())?
+            service::plan::file::parse_plan_file(&text, &path.display().to_string())
+                .map_err(|error| error.to_string())?
         }
-        None => crate::plan::PlanRequest::default(),
+        None => service::plan::PlanRequest::default(),
     };
     if !args.factor.is_empty() {
         request.factors = args
@@ -603,7 +709,7 @@ fn plan_command(args: PlanArgs) -> i32 {
             return EXIT_USAGE;
         }
     };
-    let plan = match crate::plan::make_plan(&request) {
+    let plan = match service::plan::make_plan(&request) {
         Ok(plan) => plan,
         Err(error) => {
             eprintln!("trialyst: {}", error_chain(&error));
@@ -614,11 +720,11 @@ fn plan_command(args: PlanArgs) -> i32 {
         .out
         .clone()
         .unwrap_or_else(|| PathBuf::from(format!("trial-plan-{}.xlsx", plan.id)));
-    if let Err(error) = crate::plan::write_plan(&plan, &destination) {
+    if let Err(error) = service::plan::write_plan(&plan, &destination) {
         eprintln!("trialyst: {}", error_chain(&error));
         return EXIT_SOME_FAILED;
     }
-    let summary = crate::plan::summarise(&plan, Some(&destination));
+    let summary = service::plan::summarise(&plan, Some(&destination));
     if args.json {
         println!("{}", serde_json::to_string(&summary).unwrap_or_default());
     } else {
@@ -654,9 +760,9 @@ fn plan_command(args: PlanArgs) -> i32 {
     EXIT_OK
 }
 
-fn size_request(args: &SizeArgs) -> Result<crate::plan::SizeRequest, String> {
-    use crate::analysis::power::OneWayEffect;
-    use crate::plan::size::{SdSource, SizeDesign};
+fn size_request(args: &SizeArgs) -> Result<service::plan::SizeRequest, String> {
+    use engine::analysis::power::OneWayEffect;
+    use service::plan::size::{SdSource, SizeDesign};
     let sd = match (args.sd, &args.from_results) {
         (Some(sd), None) => SdSource::Given(sd),
         (None, Some(path)) => SdSource::LastTrial {
@@ -698,7 +804,7 @@ fn size_request(args: &SizeArgs) -> Result<crate::plan::SizeRequest, String> {
         };
         SizeDesign::OneWay { conditions, effect }
     };
-    Ok(crate::plan::SizeRequest {
+    Ok(service::plan::SizeRequest {
         design,
         sd,
         alpha: args.alpha,
@@ -715,7 +821,7 @@ fn size_command(args: SizeArgs) -> i32 {
             return EXIT_USAGE;
         }
     };
-    let answer = match crate::plan::size_answer(&request) {
+    let answer = match service::plan::size_answer(&request) {
         Ok(answer) => answer,
         Err(error) => {
             eprintln!("trialyst: {}", error_chain(&error));
@@ -723,7 +829,7 @@ fn size_command(args: SizeArgs) -> i32 {
         }
     };
     if let Some(out) = &args.out {
-        if let Err(error) = crate::plan::write_size(&answer, out) {
+        if let Err(error) = service::plan::write_size(&answer, out) {
             eprintln!("trialyst: {}", error_chain(&error));
             return EXIT_SOME_FAILED;
         }

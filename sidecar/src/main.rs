@@ -1,8 +1,11 @@
 //! The `trialyst` binary: parses the command line and hands over to the library.
 
+use std::process::ExitCode;
+
 use clap::Parser;
 
-fn main() {
+fn main() -> ExitCode {
     let cli = sidecar::cli::Cli::parse();
-    std::process::exit(sidecar::cli::main_with(cli));
+    let code = sidecar::cli::main_with(cli);
+    ExitCode::from(u8::try_from(code).unwrap_or(1))
 }

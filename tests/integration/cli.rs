@@ -4,8 +4,8 @@
 //! engine (the service called in-process on the same file) and against an
 //! outside reference (scipy).
 
-use sidecar::report::names;
-use sidecar::service::{analyse_workbook, AnalysisRequest};
+use service::report::names;
+use service::{analyse_workbook, AnalysisRequest};
 
 use crate::common::{
     as_number, assert_close, long_rows, read_all_sheets, row_after, sha256_of, temp_folder, trialyst, write_rows, Put,
@@ -176,7 +176,7 @@ fn json_lines_one_object_per_workbook_with_documented_fields() {
     assert_eq!(lines.len(), 3, "one object per workbook{}", run.report());
     for (line, name) in lines.iter().zip(["a.xlsx", "b.xlsx"]) {
         assert_eq!(line["status"], "analysed");
-        assert_eq!(line["format_version"], sidecar::service::RESULTS_FORMAT_VERSION);
+        assert_eq!(line["format_version"], service::RESULTS_FORMAT_VERSION);
         assert_eq!(line["tool"], "trialyst");
         assert_eq!(line["source"]["file_name"], name);
         assert_eq!(line["source"]["sha256"], sha256_of(&folder.path().join(name)));

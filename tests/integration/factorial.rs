@@ -5,9 +5,9 @@
 use std::path::Path;
 
 use calamine::{open_workbook_auto, Data, Reader};
-use sidecar::analysis::factorial::FactorialOutcome;
-use sidecar::service::{analyse_workbook, AnalysisRequest};
-use sidecar::settings::Settings;
+use engine::analysis::factorial::FactorialOutcome;
+use service::settings::Settings;
+use service::{analyse_workbook, AnalysisRequest};
 
 /// A cell of a test workbook.
 #[derive(Clone)]
@@ -228,9 +228,9 @@ fn filtration_rate_lenth_screening_and_reduced_model() {
 }
 
 fn row_of<'a>(
-    lines: &'a [sidecar::analysis::factorial::AnovaLine],
+    lines: &'a [engine::analysis::factorial::AnovaLine],
     source: &str,
-) -> &'a sidecar::analysis::factorial::AnovaLine {
+) -> &'a engine::analysis::factorial::AnovaLine {
     lines.iter().find(|line| line.source == source).expect(source)
 }
 
@@ -446,7 +446,7 @@ fn alias_structure_of_standard_fractions() {
     assert!(two.effects.iter().any(|e| e.name == "A" && e.active));
 }
 
-fn chain_of(two: &sidecar::analysis::factorial::TwoLevelOutcome, name: &str) -> String {
+fn chain_of(two: &engine::analysis::factorial::TwoLevelOutcome, name: &str) -> String {
     two.effects.iter().find(|e| e.name == name).expect(name).aliases.clone()
 }
 

@@ -8,7 +8,7 @@
 use std::path::Path;
 
 use rust_xlsxwriter::{ExcelDateTime, Format, Formula, Workbook};
-use sidecar::service::{analyse_workbook, inspect_workbook, AnalysisRequest};
+use service::{analyse_workbook, inspect_workbook, AnalysisRequest};
 use workbook_io::layout::{Finding, FindingKind};
 
 use crate::common::{
@@ -386,7 +386,7 @@ fn formula_like_labels_come_back_as_text() {
     let sheets = read_all_sheets(&results);
     let conditions = &sheets
         .iter()
-        .find(|(name, _)| name == sidecar::report::names::CONDITIONS)
+        .find(|(name, _)| name == service::report::names::CONDITIONS)
         .expect("a conditions sheet")
         .1;
     let first_column: Vec<&calamine::Data> = conditions.rows().map(|row| &row[0]).collect();

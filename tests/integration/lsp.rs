@@ -300,11 +300,7 @@ fn a_whole_session_over_stdio() {
         json!({"path": path_text, "sheet": "Trial", "range": "A1:C7", "workDoneToken": 99}),
     );
     let results = &analysed["result"];
-    assert_eq!(
-        results["format_version"],
-        sidecar::service::RESULTS_FORMAT_VERSION,
-        "{analysed}"
-    );
+    assert_eq!(results["format_version"], service::RESULTS_FORMAT_VERSION, "{analysed}");
     assert_eq!(results["source"]["range"], "A1:C7");
     assert_eq!(results["responses"][0]["status"], "analysed");
     let kinds = session.wait_for(|received| {
@@ -335,7 +331,7 @@ fn a_whole_session_over_stdio() {
         .is_some_and(|tables| !tables.is_empty()));
 
     let written = session.request("trialyst/writeResults", json!({"path": path_text}));
-    let results_file = sidecar::service::results_path_for(&path, None);
+    let results_file = service::results_path_for(&path, None);
     assert_eq!(
         written["result"]["resultsFile"],
         results_file.display().to_string(),

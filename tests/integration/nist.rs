@@ -8,7 +8,7 @@
 //! (NIST Information Technology Laboratory, Statistical Reference Datasets,
 //! analysis of variance; Simon and Lesage 1989 for the SmLs series).
 
-use sidecar::service::{analyse_workbook, AnalysisRequest};
+use service::{analyse_workbook, AnalysisRequest};
 
 use crate::common::{correct_digits, temp_folder, NIST_MIN_DIGITS};
 
@@ -143,7 +143,7 @@ fn check(name: &str, text: &str, n_observations: usize) {
 fn nist_atmwtag() {
     check(
         "AtmWtAg",
-        include_str!("../../sidecar/src/stats/testdata/AtmWtAg.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/AtmWtAg.dat"),
         48,
     );
 }
@@ -152,7 +152,7 @@ fn nist_atmwtag() {
 fn nist_sirstv() {
     check(
         "SiRstv",
-        include_str!("../../sidecar/src/stats/testdata/SiRstv.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/SiRstv.dat"),
         25,
     );
 }
@@ -161,7 +161,7 @@ fn nist_sirstv() {
 fn nist_smls01() {
     check(
         "SmLs01",
-        include_str!("../../sidecar/src/stats/testdata/SmLs01.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/SmLs01.dat"),
         189,
     );
 }
@@ -170,7 +170,7 @@ fn nist_smls01() {
 fn nist_smls02() {
     check(
         "SmLs02",
-        include_str!("../../sidecar/src/stats/testdata/SmLs02.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/SmLs02.dat"),
         1809,
     );
 }
@@ -179,7 +179,7 @@ fn nist_smls02() {
 fn nist_smls03() {
     check(
         "SmLs03",
-        include_str!("../../sidecar/src/stats/testdata/SmLs03.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/SmLs03.dat"),
         18009,
     );
 }
@@ -188,7 +188,7 @@ fn nist_smls03() {
 fn nist_smls04() {
     check(
         "SmLs04",
-        include_str!("../../sidecar/src/stats/testdata/SmLs04.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/SmLs04.dat"),
         189,
     );
 }
@@ -197,7 +197,7 @@ fn nist_smls04() {
 fn nist_smls05() {
     check(
         "SmLs05",
-        include_str!("../../sidecar/src/stats/testdata/SmLs05.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/SmLs05.dat"),
         1809,
     );
 }
@@ -206,7 +206,7 @@ fn nist_smls05() {
 fn nist_smls06() {
     check(
         "SmLs06",
-        include_str!("../../sidecar/src/stats/testdata/SmLs06.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/SmLs06.dat"),
         18009,
     );
 }
@@ -215,7 +215,7 @@ fn nist_smls06() {
 fn nist_smls07() {
     check(
         "SmLs07",
-        include_str!("../../sidecar/src/stats/testdata/SmLs07.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/SmLs07.dat"),
         189,
     );
 }
@@ -224,7 +224,7 @@ fn nist_smls07() {
 fn nist_smls08() {
     check(
         "SmLs08",
-        include_str!("../../sidecar/src/stats/testdata/SmLs08.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/SmLs08.dat"),
         1809,
     );
 }
@@ -233,7 +233,7 @@ fn nist_smls08() {
 fn nist_smls09() {
     check(
         "SmLs09",
-        include_str!("../../sidecar/src/stats/testdata/SmLs09.dat"),
+        include_str!("../../sidecar/engine/src/stats/testdata/SmLs09.dat"),
         18009,
     );
 }

@@ -22,7 +22,7 @@ use crate::read::SheetGrid;
 pub const MAX_LISTED_FINDINGS: usize = 2_000;
 
 /// The two table shapes.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Layout {
     /// Label columns and response columns, one record per row.

@@ -1,0 +1,583 @@
+//! The protocol handlers: the standard lifecycle, workbook diagnostics, and
+//! our own requests, each a thin caller of [`service`].
+//!
+//! Every handler body runs in a task of its own, so that a panic in one
+//! request becomes an `InternalError` answer instead of ending the server.
+//! Analyses run on blocking threads with a [`CancelFlag`]; when the client
+//! cancels a request the library drops the handler's future, and the flag,
+//! raised on drop, stops the computation itself.
+
+use std::future::Future;
+use std::path::Path;
+use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
+use std::sync::{Arc, OnceLock};
+use std::time::{Duration, Instant};
+
+use serde_json::{json, Value as Json};
+use tokio::sync::mpsc;
+use tower_lsp_server::jsonrpc::{Error, ErrorCode, Result};
+use tower_lsp_server::ls_types::{
+    DidChangeWatchedFilesParams, DidCloseTextDocumentParams, DidOpenTextDocumentParams, FileChangeType,
+    InitializeParams, InitializeResult, InitializedParams, MessageType, NumberOrString, ProgressToken, Registration,
+    ServerCapabilities, ServerInfo, TextDocumentSyncCapability, TextDocumentSyncKind, TextDocumentSyncOptions,
+};
+use tower_lsp_server::{Client, LanguageServer, LspService};
+use workbook_io::ReadError;
+
+use super::documents::{self, DocumentEvent};
+use super::from_proto::{self, ParamsError};
+use super::to_proto;
+use service::{self, AnalysisRequest, CancelFlag, ServiceError};
+
+/// Our request methods, as announced under `experimental` in the
+/// capabilities and documented in `sidecar/docs/protocol.md`.
+pub mod methods {
+    /// Detected tables and findings of a workbook, no analysis.
+    pub const INSPECT_WORKBOOK: &str = "trialyst/inspectWorkbook";
+    /// The results document of a workbook.
+    pub const ANALYSE_WORKBOOK: &str = "trialyst/analyseWorkbook";
+    /// The results document and result tables of cell values sent by the client.
+    pub const ANALYSE_CELLS: &str = "trialyst/analyseCells";
+    /// Writes the results workbook beside the workbook or in a folder.
+    pub const WRITE_RESULTS: &str = "trialyst/writeResults";
+    /// Every one of them.
+    pub const ALL: [&str; 4] = [INSPECT_WORKBOOK, ANALYSE_WORKBOOK, ANALYSE_CELLS, WRITE_RESULTS];
+}
+
+/// The LSP code for a request that was well-formed but failed (LSP 3.17).
+const REQUEST_FAILED: i64 = -32803;
+
+/// Tunables of the server.
+#[derive(Debug, Clone)]
+pub struct ServerOptions {
+    /// Workbooks at least this large (bytes) get server-started progress.
+    pub progress_above_bytes: u64,
+    /// Cell blocks with at least this many values get server-started progress.
+    pub progress_above_cells: usize,
+    /// How often progress is reported while work goes on.
+    pub progress_interval: Duration,
+    /// The largest message accepted, announced to the client.
+    pub max_message_bytes: usize,
+    /// Registers a panicking request, for tests of the panic guard.
+    #[cfg(test)]
+    pub with_panic_method: bool,
+}
+
+impl Default for ServerOptions {
+    fn default() -> Self {
+        Self {
+            progress_above_bytes: 1 << 20,
+            progress_above_cells: 200_000,
+            progress_interval: Duration::from_millis(250),
+            max_message_bytes: super::framing::DEFAULT_MAX_MESSAGE_BYTES,
+            #[cfg(test)]
+            with_panic_method: false,
+        }
+    }
+}
+
+/// What the client said it supports, recorded at initialize.
+#[derive(Debug, Default, Clone, Copy)]
+struct ClientFeatures {
+    work_done_progress: bool,
+    watched_files_registration: bool,
+}
+
+struct Shared {
+    client: Client,
+    options: ServerOptions,
+    features: OnceLock<ClientFeatures>,
+    shutdown_received: Arc<AtomicBool>,
+    documents: mpsc::UnboundedSender<DocumentEvent>,
+    next_token: AtomicU64,
+}
+
+/// The language server: a handle on the shared parts.
+#[derive(Clone)]
+pub struct Backend {
+    shared: Arc<Shared>,
+}
+
+/// Builds the service; `shutdown_received` is set when the client sends
+/// `shutdown`, so the caller can choose the exit code.
+pub fn build_service(
+    options: ServerOptions,
+    shutdown_received: Arc<AtomicBool>,
+) -> (LspService<Backend>, tower_lsp_server::ClientSocket) {
+    #[cfg(test)]
+    let with_panic_method = options.with_panic_method;
+    let builder = LspService::build(move |client| Backend {
+        shared: Arc::new(Shared {
+            documents: documents::start(client.clone()),
+            client,
+            options,
+            features: OnceLock::new(),
+            shutdown_received,
+            next_token: AtomicU64::new(1),
+        }),
+    })
+    .custom_method(methods::INSPECT_WORKBOOK, Backend::inspect_workbook)
+    .custom_method(methods::ANALYSE_WORKBOOK, Backend::analyse_workbook)
+    .custom_method(methods::ANALYSE_CELLS, Backend::analyse_cells)
+    .custom_method(methods::WRITE_RESULTS, Backend::write_results);
+    #[cfg(test)]
+    let builder = if with_panic_method {
+        builder.custom_method("test/panic", Backend::panic_for_test)
+    } else {
+        builder
+    };
+    builder.finish()
+}
+
+/// Raises the cancel flag when the request's future is dropped, which is
+/// what the library does on `$/cancelRequest`.
+struct CancelOnDrop(CancelFlag);
+
+impl Drop for CancelOnDrop {
+    fn drop(&mut self) {
+        self.0.cancel();
+    }
+}
+
+fn internal_error(message: &str) -> Error {
+    Error {
+        code: ErrorCode::InternalError,
+        message: message.to_string().into(),
+        data: None,
+    }
+}
+
+fn params_error(error: ParamsError) -> Error {
+    Error {
+        code: ErrorCode::InvalidParams,
+        message: error.to_string().into(),
+        data: Some(json!({ "field": error.field })),
+    }
+}
+
+/// A short name for the kind of failure, sent in error `data` and diagnostic codes.
+pub fn error_kind(error: &ServiceError) -> &'static str {
+    error.kind()
+}
+
+/// A service failure as a JSON-RPC error.
+fn service_error(error: &ServiceError) -> Error {
+    let message = service::error_chain(error);
+    let kind = error_kind(error);
+    let field = match error {
+        ServiceError::Read(ReadError::SheetNotFound { .. }) => Some("params.sheet"),
+        ServiceError::Read(ReadError::BadReference { .. }) => Some("params.range"),
+        ServiceError::Settings(_) => Some("params.settings"),
+        _ => None,
+    };
+    match (error, field) {
+        (ServiceError::Cancelled, _) => Error::request_cancelled(),
+        (_, Some(field)) => Error {
+            code: ErrorCode::InvalidParams,
+            message: format!("{field}: {message}").into(),
+            data: Some(json!({ "field": field, "kind": kind })),
+        },
+        _ => Error {
+            code: ErrorCode::ServerError(REQUEST_FAILED),
+            message: message.into(),
+            data: Some(json!({ "kind": kind })),
+        },
+    }
+}
+
+/// Runs a handler body in a task of its own, turning a panic into an
+/// `InternalError` answer. The body gets a cancel flag that is raised if
+/// the request is cancelled (its future dropped).
+async fn guarded<F, Fut>(body: F) -> Result<Json>
+where
+    F: FnOnce(CancelFlag) -> Fut,
+    Fut: Future<Output = Result<Json>> + Send + 'static,
+{
+    let cancel = CancelFlag::new();
+    let _raise_on_drop = CancelOnDrop(cancel.clone());
+    match tokio::spawn(body(cancel)).await {
+        Ok(answer) => answer,
+        Err(_) => Err(internal_error(
+            "internal error while answering this request; the server goes on; please report it",
+        )),
+    }
+}
+
+/// Work-done progress for one request, when there is a token for it.
+struct Progress {
+    ongoing: Option<tower_lsp_server::OngoingProgress<tower_lsp_server::Unbounded, tower_lsp_server::NotCancellable>>,
+}
+
+impl Progress {
+    async fn report(&self, message: String) {
+        if let Some(ongoing) = &self.ongoing {
+            ongoing.report(message).await;
+        }
+    }
+
+    async fn finish(self, message: String) {
+        if let Some(ongoing) = self.ongoing {
+            ongoing.finish_with_message(message).await;
+        }
+    }
+}
+
+impl Shared {
+    fn features(&self) -> ClientFeatures {
+        self.features.get().copied().unwrap_or_default()
+    }
+
+    /// Begins progress on the client's token, or on one of ours for large
+    /// work when the client supports it.
+    async fn begin_progress(&self, token: Option<ProgressToken>, large: bool, title: String) -> Progress {
+        let token = match token {
+            Some(token) => Some(token),
+            None if large && self.features().work_done_progress => {
+                let number = self.next_token.fetch_add(1, Ordering::SeqCst);
+                let token = NumberOrString::String(format!("trialyst/work/{number}"));
+                match self.client.create_work_done_progress(token.clone()).await {
+                    Ok(()) => Some(token),
+                    Err(_) => None,
+                }
+            }
+            None => None,
+        };
+        let ongoing = match token {
+            Some(token) => Some(
+                self.client
+                    .progress(token, title)
+                    .with_message("starting")
+                    .begin()
+                    .await,
+            ),
+            None => None,
+        };
+        Progress { ongoing }
+    }
+
+    /// Runs `work` on a blocking thread, reporting progress while it runs.
+    async fn run_blocking<T, W>(&self, progress: &Progress, work: W) -> Result<T>
+    where
+        T: Send + 'static,
+        W: FnOnce() -> T + Send + 'static,
+    {
+        let started = Instant::now();
+        let mut handle = tokio::task::spawn_blocking(work);
+        let mut ticker = tokio::time::interval(self.options.progress_interval);
+        ticker.tick().await;
+        loop {
+            tokio::select! {
+                joined = &mut handle => {
+                    return joined.map_err(|_| internal_error(
+                        "internal error during the analysis; the server goes on; please report it",
+                    ));
+                }
+                _ = ticker.tick(), if progress.ongoing.is_some() => {
+                    progress.report(format!("working, {:.1} s", started.elapsed().as_secs_f64())).await;
+                }
+            }
+        }
+    }
+
+    /// Ends progress with the outcome and tells the client when work stopped
+    /// because it was cancelled.
+    async fn finish<T>(&self, progress: Progress, what: &str, outcome: &std::result::Result<T, ServiceError>) {
+        let message = match outcome {
+            Ok(_) => "done".to_string(),
+            Err(ServiceError::Cancelled) => "cancelled".to_string(),
+            Err(error) => format!("failed: {}", service::error_chain(error)),
+        };
+        if matches!(outcome, Err(ServiceError::Cancelled)) {
+            self.client
+                .log_message(MessageType::INFO, format!("stopped {what}: the request was cancelled"))
+                .await;
+        }
+        progress.finish(message).await;
+    }
+
+    fn is_large_file(&self, path: &Path) -> bool {
+        std::fs::metadata(path)
+            .map(|metadata| metadata.len() >= self.options.progress_above_bytes)
+            .unwrap_or(false)
+    }
+
+    async fn inspect(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
+        let read = from_proto::workbook_params(&params).map_err(params_error)?;
+        let what = format!("inspecting '{}'", read.path.display());
+        let progress = self
+            .begin_progress(
+                read.work_done_token.clone(),
+                self.is_large_file(&read.path),
+                what.clone(),
+            )
+            .await;
+        let request = AnalysisRequest {
+            settings: read.settings,
+            cancel,
+            ..AnalysisRequest::default()
+        };
+        let path = read.path;
+        let outcome = self
+            .run_blocking(&progress, move || service::inspect_workbook(&path, &request))
+            .await?;
+        progress.report("inspected; preparing the answer".into()).await;
+        self.finish(progress, &what, &outcome).await;
+        let inspection = outcome.map_err(|error| service_error(&error))?;
+        serde_json::to_value(&inspection).map_err(|_| internal_error("the inspection could not be encoded"))
+    }
+
+    async fn analyse(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
+        let read = from_proto::workbook_params(&params).map_err(params_error)?;
+        let what = format!("analysing '{}'", read.path.display());
+        let progress = self
+            .begin_progress(
+                read.work_done_token.clone(),
+                self.is_large_file(&read.path),
+                what.clone(),
+            )
+            .await;
+        let request = AnalysisRequest {
+            settings: read.settings,
+            cancel,
+            ..AnalysisRequest::default()
+        };
+        let path = read.path;
+        let outcome = self
+            .run_blocking(&progress, move || service::analyse_workbook(&path, &request))
+            .await?;
+        progress.report("analysed; preparing the answer".into()).await;
+        self.finish(progress, &what, &outcome).await;
+        let results = outcome.map_err(|error| service_error(&error))?;
+        serde_json::to_value(&results).map_err(|_| internal_error("the results could not be encoded"))
+    }
+
+    async fn analyse_cells(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
+        let read = from_proto::cells_params(&params).map_err(params_error)?;
+        let what = format!("analysing {} cell values", read.n_cells);
+        let large = read.n_cells >= self.options.progress_above_cells;
+        let progress = self
+            .begin_progress(read.work_done_token.clone(), large, what.clone())
+            .await;
+        let outcome = self
+            .run_blocking(&progress, move || {
+                let results = service::analyse_grid(&read.grid, &read.settings, &read.source_name, &cancel)?;
+                // The tables come from the report model, the one place that lays them out.
+                let tables = to_proto::book_tables(&service::report::build_results_book(&results));
+                let results = serde_json::to_value(&results).unwrap_or(Json::Null);
+                Ok::<Json, ServiceError>(json!({ "results": results, "tables": tables }))
+            })
+            .await?;
+        progress.report("analysed; preparing the answer".into()).await;
+        self.finish(progress, &what, &outcome).await;
+        outcome.map_err(|error| service_error(&error))
+    }
+
+    async fn write(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
+        let read = from_proto::write_params(&params).map_err(params_error)?;
+        let what = format!("writing the results of '{}'", read.workbook.path.display());
+        let progress = self
+            .begin_progress(
+                read.workbook.work_done_token.clone(),
+                self.is_large_file(&read.workbook.path),
+                what.clone(),
+            )
+            .await;
+        let request = AnalysisRequest {
+            settings: read.workbook.settings,
+            cancel,
+            ..AnalysisRequest::default()
+        };
+        let path = read.workbook.path;
+        let output_folder = read.output_folder;
+        let outcome = self
+            .run_blocking(&progress, move || {
+                let results = service::analyse_workbook(&path, &request)?;
+                if request.cancel.is_cancelled() {
+                    return Err(ServiceError::Cancelled);
+                }
+                // As on the command line, a named output folder is made if missing.
+                if let Some(folder) = &output_folder {
+                    std::fs::create_dir_all(folder).map_err(|source| {
+                        ServiceError::Write(workbook_io::write::WriteError::Io {
+                            path: folder.clone(),
+                            source,
+                        })
+                    })?;
+                }
+                let destination = service::results_path_for(&path, output_folder.as_deref());
+                service::write_results(&results, &destination)?;
+                Ok(json!({
+                    "resultsFile": destination.display().to_string(),
+                    "source": path.display().to_string(),
+                    "analysed": results
+                        .responses
+                        .iter()
+                        .filter(|response| response.fit().is_some())
+                        .map(|response| response.name.clone())
+                        .collect::<Vec<_>>(),
+                    "findings": results.findings.len(),
+                }))
+            })
+            .await?;
+        progress.report("written".into()).await;
+        self.finish(progress, &what, &outcome).await;
+        outcome.map_err(|error| service_error(&error))
+    }
+}
+
+impl Backend {
+    async fn inspect_workbook(&self, params: Json) -> Result<Json> {
+        let shared = self.shared.clone();
+        guarded(move |cancel| async move { shared.inspect(params, cancel).await }).await
+    }
+
+    async fn analyse_workbook(&self, params: Json) -> Result<Json> {
+        let shared = self.shared.clone();
+        guarded(move |cancel| async move { shared.analyse(params, cancel).await }).await
+    }
+
+    async fn analyse_cells(&self, params: Json) -> Result<Json> {
+        let shared = self.shared.clone();
+        guarded(move |cancel| async move { shared.analyse_cells(params, cancel).await }).await
+    }
+
+    async fn write_results(&self, params: Json) -> Result<Json> {
+        let shared = self.shared.clone();
+        guarded(move |cancel| async move { shared.write(params, cancel).await }).await
+    }
+
+    #[cfg(test)]
+    async fn panic_for_test(&self, params: Json) -> Result<Json> {
+        guarded(move |_| async move {
+            if params.is_object() {
+                panic!("a deliberate panic to test the guard");
+            }
+            Ok(Json::Null)
+        })
+        .await
+    }
+
+    fn send(&self, event: DocumentEvent) {
+        let _ = self.shared.documents.send(event);
+    }
+}
+
+/// Whether a path names a workbook we check (not a lock file or one of our outputs).
+fn is_checked_workbook(path: &Path) -> bool {
+    let name = path
+        .file_name()
+        .map(|name| name.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    service::has_workbook_extension(&name) && !service::is_ignored_file_name(&name)
+}
+
+impl LanguageServer for Backend {
+    async fn initialize(&self, params: InitializeParams) -> Result<InitializeResult> {
+        let capabilities = &params.capabilities;
+        let features = ClientFeatures {
+            work_done_progress: capabilities
+                .window
+                .as_ref()
+                .and_then(|window| window.work_done_progress)
+                .unwrap_or(false),
+            watched_files_registration: capabilities
+                .workspace
+                .as_ref()
+                .and_then(|workspace| workspace.did_change_watched_files.as_ref())
+                .and_then(|watched| watched.dynamic_registration)
+                .unwrap_or(false),
+        };
+        let _ = self.shared.features.set(features);
+        Ok(InitializeResult {
+            server_info: Some(ServerInfo {
+                name: service::TOOL_NAME.into(),
+                version: Some(service::TOOL_VERSION.into()),
+            }),
+            capabilities: ServerCapabilities {
+                text_document_sync: Some(TextDocumentSyncCapability::Options(TextDocumentSyncOptions {
+                    open_close: Some(true),
+                    change: Some(TextDocumentSyncKind::NONE),
+                    ..TextDocumentSyncOptions::default()
+                })),
+                experimental: Some(json!({
+                    "trialyst": {
+                        "requests": methods::ALL,
+                        "resultsFormatVersion": service::RESULTS_FORMAT_VERSION,
+                        "workbookDiagnostics": true,
+                        "workDoneProgress": true,
+                        "maxMessageBytes": self.shared.options.max_message_bytes,
+                    }
+                })),
+                ..ServerCapabilities::default()
+            },
+            ..InitializeResult::default()
+        })
+    }
+
+    async fn initialized(&self, _: InitializedParams) {
+        if !self.shared.features().watched_files_registration {
+            return;
+        }
+        // Registering waits for the client's answer; do it aside so that a
+        // slow client holds up nothing.
+        let client = self.shared.client.clone();
+        tokio::spawn(async move {
+            let registration = Registration {
+                id: "trialyst-workbooks".into(),
+                method: "workspace/didChangeWatchedFiles".into(),
+                register_options: Some(json!({
+                    "watchers": [{ "globPattern": "**/*.{xlsx,xlsm,xlsb,xls,ods}" }]
+                })),
+            };
+            if let Err(error) = client.register_capability(vec![registration]).await {
+                client
+                    .log_message(MessageType::WARNING, format!("could not watch workbooks: {error}"))
+                    .await;
+            }
+        });
+    }
+
+    async fn shutdown(&self) -> Result<()> {
+        self.shared.shutdown_received.store(true, Ordering::SeqCst);
+        self.send(DocumentEvent::Shutdown);
+        Ok(())
+    }
+
+    async fn did_open(&self, params: DidOpenTextDocumentParams) {
+        let uri = params.text_document.uri;
+        match from_proto::file_path_of(&uri) {
+            Some(path) if is_checked_workbook(&path) => self.send(DocumentEvent::Opened { uri, path }),
+            _ => {
+                self.shared
+                    .client
+                    .log_message(
+                        MessageType::WARNING,
+                        format!("'{}' is not a workbook file; it is not checked", uri.as_str()),
+                    )
+                    .await;
+            }
+        }
+    }
+
+    async fn did_close(&self, params: DidCloseTextDocumentParams) {
+        self.send(DocumentEvent::Closed {
+            uri: params.text_document.uri,
+        });
+    }
+
+    async fn did_change_watched_files(&self, params: DidChangeWatchedFilesParams) {
+        for change in params.changes {
+            let Some(path) = from_proto::file_path_of(&change.uri) else {
+                continue;
+            };
+            if !is_checked_workbook(&path) {
+                continue;
+            }
+            self.send(DocumentEvent::ChangedOnDisk {
+                uri: change.uri,
+                path,
+                deleted: change.typ == FileChangeType::DELETED,
+            });
+        }
+    }
+}

@@ -1,0 +1,193 @@
+//! The service's results into protocol values, by hand.
+//!
+//! Result tables: the report model ([`service::report::build_results_book`])
+//! is the one place that decides what the results tables hold; here each of
+//! its sheets is laid out as a 2-D array of values with a matching 2-D array
+//! of number formats, ready for an add-in to paste into a new sheet. Charts
+//! are left to the add-in.
+//!
+//! Diagnostics: each data finding becomes a diagnostic at its cell (row and
+//! column as the position), with the sheet and A1 address in its message and
+//! in its `data`.
+
+use serde_json::{json, Value as Json};
+use tower_lsp_server::ls_types::{Diagnostic, DiagnosticSeverity, NumberOrString, Position, Range};
+use workbook_io::cell::{parse_a1, parse_a1_range};
+use workbook_io::layout::{Finding, FindingKind};
+use workbook_io::write::{Book, Look, NumberFormat, Sheet, Value};
+
+/// The name under which diagnostics are published.
+pub const DIAGNOSTIC_SOURCE: &str = "trialyst";
+
+/// One results sheet as rows of values and rows of number formats.
+pub fn sheet_table(sheet: &Sheet) -> Json {
+    let n_rows = sheet.cells.iter().map(|placed| placed.row + 1).max().unwrap_or(0) as usize;
+    let n_cols = sheet.cells.iter().map(|placed| placed.col + 1).max().unwrap_or(0) as usize;
+    let mut values = vec![vec![Json::Null; n_cols]; n_rows];
+    let mut formats = vec![vec![Json::from(NumberFormat::General.code()); n_cols]; n_rows];
+    let mut header_rows: Vec<u32> = Vec::new();
+    for placed in &sheet.cells {
+        let (row, col) = (placed.row as usize, placed.col as usize);
+        let (value, format) = match &placed.value {
+            Value::Text(text) => (Json::from(text.as_str()), NumberFormat::General.code()),
+            Value::Number(number, number_format) if number.is_finite() => (Json::from(*number), number_format.code()),
+            // As in the results workbook, a number that is not finite is shown in words.
+            Value::Number(number, _) => {
+                let shown = if number.is_nan() {
+                    "not defined"
+                } else if *number > 0.0 {
+                    "+infinity"
+                } else {
+                    "-infinity"
+                };
+                (Json::from(shown), NumberFormat::General.code())
+            }
+            Value::Link { text, .. } => (Json::from(text.as_str()), NumberFormat::General.code()),
+            Value::Blank => (Json::Null, NumberFormat::General.code()),
+        };
+        values[row][col] = value;
+        formats[row][col] = Json::from(format);
+        if placed.look == Look::ColumnHeader && header_rows.last() != Some(&placed.row) {
+            header_rows.push(placed.row);
+        }
+    }
+    json!({
+        "name": sheet.name,
+        "values": values,
+        "numberFormats": formats,
+        "headerRows": header_rows,
+        "columnWidths": sheet.widths.iter().map(|(col, width)| json!([col, width])).collect::<Vec<_>>(),
+        "frozenRows": sheet.frozen_rows,
+    })
+}
+
+/// Every sheet of a results book as a table.
+pub fn book_tables(book: &Book) -> Json {
+    Json::Array(book.sheets.iter().map(sheet_table).collect())
+}
+
+fn kind_name(kind: FindingKind) -> String {
+    serde_json::to_value(kind)
+        .ok()
+        .and_then(|value| value.as_str().map(str::to_string))
+        .unwrap_or_default()
+}
+
+/// The range a finding's cell or area covers; the top-left cell when there is none.
+fn finding_range(finding: &Finding) -> Range {
+    let start_of_sheet = Range::new(Position::new(0, 0), Position::new(0, 1));
+    let Some(cell) = &finding.cell else {
+        return start_of_sheet;
+    };
+    if cell.contains(':') {
+        if let Some(rect) = parse_a1_range(cell) {
+            return Range::new(
+                Position::new(rect.first.row, rect.first.col),
+                Position::new(rect.last.row, rect.last.col + 1),
+            );
+        }
+    }
+    match parse_a1(cell) {
+        Some(pos) => Range::new(Position::new(pos.row, pos.col), Position::new(pos.row, pos.col + 1)),
+        None => start_of_sheet,
+    }
+}
+
+/// A finding as a diagnostic at its cell.
+pub fn finding_diagnostic(finding: &Finding) -> Diagnostic {
+    let severity = match finding.kind {
+        FindingKind::Workbook | FindingKind::MoreFindings => DiagnosticSeverity::INFORMATION,
+        _ => DiagnosticSeverity::WARNING,
+    };
+    let place = finding.place();
+    let message = if place.is_empty() {
+        finding.message.clone()
+    } else {
+        format!("{place}: {}", finding.message)
+    };
+    let kind = kind_name(finding.kind);
+    Diagnostic {
+        range: finding_range(finding),
+        severity: Some(severity),
+        code: Some(NumberOrString::String(kind.clone())),
+        source: Some(DIAGNOSTIC_SOURCE.into()),
+        message,
+        data: Some(json!({
+            "sheet": finding.sheet,
+            "cell": finding.cell,
+            "place": place,
+            "kind": kind,
+            "found": finding.found,
+            "action": finding.action,
+        })),
+        ..Diagnostic::default()
+    }
+}
+
+/// A diagnostic for a workbook that could not be checked at all.
+pub fn failure_diagnostic(message: &str, kind: &str) -> Diagnostic {
+    Diagnostic {
+        range: Range::new(Position::new(0, 0), Position::new(0, 1)),
+        severity: Some(DiagnosticSeverity::ERROR),
+        code: Some(NumberOrString::String(kind.into())),
+        source: Some(DIAGNOSTIC_SOURCE.into()),
+        message: message.to_string(),
+        data: Some(json!({ "kind": kind })),
+        ..Diagnostic::default()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sheet_cells_land_at_their_rows_and_columns() {
+        let mut sheet = Sheet::new("Conditions");
+        sheet.table(
+            0,
+            0,
+            &["condition", "mean"],
+            vec![
+                vec![Value::text("A"), Value::decimals(1.25, 3)],
+                vec![Value::text("B"), Value::Number(f64::NAN, NumberFormat::Decimals(3))],
+            ],
+        );
+        sheet.put(4, 3, Value::p_value(0.01), Look::Plain);
+        let table = sheet_table(&sheet);
+        assert_eq!(table["values"].as_array().map(Vec::len), Some(5));
+        assert_eq!(table["values"][0][1], "mean");
+        assert_eq!(table["values"][1][1], 1.25);
+        assert_eq!(table["numberFormats"][1][1], "0.000");
+        assert_eq!(table["values"][2][1], "not defined");
+        assert_eq!(table["values"][4][3], 0.01);
+        assert_eq!(table["values"][3][0], Json::Null);
+        assert_eq!(table["headerRows"], json!([0]));
+    }
+
+    #[test]
+    fn findings_become_diagnostics_at_their_cells() {
+        let finding = Finding {
+            kind: FindingKind::TextInNumbers,
+            sheet: "Trial".into(),
+            cell: Some("C17".into()),
+            found: "n/a".into(),
+            action: "the value was left out".into(),
+            message: "found text 'n/a' in the numbers of 'Gloss'; the value was left out".into(),
+        };
+        let diagnostic = finding_diagnostic(&finding);
+        // C17: zero-based row 16, column 2 (A1 notation: common practice).
+        assert_eq!(diagnostic.range.start, Position::new(16, 2));
+        assert!(diagnostic.message.starts_with("Trial!C17: "));
+        let data = diagnostic.data.unwrap_or_default();
+        assert_eq!(data["sheet"], "Trial");
+        assert_eq!(data["cell"], "C17");
+        assert_eq!(data["kind"], "text-in-numbers");
+        let area = Finding {
+            cell: Some("B2:D2".into()),
+            ..finding
+        };
+        let range = finding_diagnostic(&area).range;
+        assert_eq!((range.start, range.end), (Position::new(1, 1), Position::new(1, 4)));
+    }
+}

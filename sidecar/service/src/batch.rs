@@ -1,0 +1,250 @@
+//! `trialyst run` as the weekly batch: workbooks analysed in parallel on
+//! threads (a panic costs one workbook), a progress bar on a terminal only,
+//! a closing summary line, and an optional roll-up workbook.
+//!
+//! Folder settings: each workbook takes the `trialyst.toml` nearest to it,
+//! looking from its own folder up to the folder named on the command line
+//! (a file named on the command line: its own folder only).
+
+use std::collections::HashMap;
+use std::path::{Component, Path, PathBuf};
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::Mutex;
+
+use crate::folder_settings::{read_folder_settings, FOLDER_SETTINGS_FILE};
+use crate::report::rollup::{build_rollup_book, RollupEntry, RollupOutcome};
+use crate::settings::Settings;
+use crate::{AnalysisRequest, WorkbookResults};
+
+/// The outcome of one workbook in a run.
+pub enum RunOutcome {
+    /// Analysed; results written to the path, if writing was asked for.
+    Analysed(Box<WorkbookResults>, Option<PathBuf>),
+    /// Failed, with the cause chain on one line.
+    Failed(String),
+}
+
+/// Analyses one workbook and writes its results workbook: into `out_dir`
+/// when given, else into the `output folder` setting in force, else beside
+/// the original.
+pub fn run_one(path: &Path, request: &AnalysisRequest, out_dir: Option<&Path>, write: bool) -> RunOutcome {
+    let results = match crate::analyse_workbook(path, request) {
+        Ok(results) => results,
+        Err(error) => return RunOutcome::Failed(crate::error_chain(&error)),
+    };
+    if !write {
+        return RunOutcome::Analysed(Box::new(results), None);
+    }
+    let folder = crate::output_folder_for(path, out_dir, &results.settings);
+    if let Some(folder) = &folder {
+        if let Err(error) = std::fs::create_dir_all(folder) {
+            return RunOutcome::Failed(format!(
+                "cannot create the output folder '{}': {error}",
+                folder.display()
+            ));
+        }
+    }
+    let destination = crate::results_path_for(path, folder.as_deref());
+    match crate::write_results(&results, &destination) {
+        Ok(()) => RunOutcome::Analysed(Box::new(results), Some(destination)),
+        Err(error) => RunOutcome::Failed(crate::error_chain(&error)),
+    }
+}
+
+/// Analyses workbooks on `jobs` threads; outcomes come back in input order.
+/// `request_of(i)` gives the request of workbook `i`; `done` is called after each.
+pub fn run_parallel_with(
+    workbooks: &[PathBuf],
+    request_of: &(dyn Fn(usize) -> AnalysisRequest + Sync),
+    out_dir: Option<&Path>,
+    write: bool,
+    jobs: usize,
+    done: &(dyn Fn() + Sync),
+) -> Vec<RunOutcome> {
+    let next = AtomicUsize::new(0);
+    let slots: Vec<Mutex<Option<RunOutcome>>> = workbooks.iter().map(|_| Mutex::new(None)).collect();
+    std::thread::scope(|scope| {
+        for _ in 0..jobs.min(workbooks.len()).max(1) {
+            scope.spawn(|| loop {
+                let index = next.fetch_add(1, Ordering::SeqCst);
+                if index >= workbooks.len() {
+                    break;
+                }
+                let outcome = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+                    run_one(&workbooks[index], &request_of(index), out_dir, write)
+                }))
+                .unwrap_or_else(|_| RunOutcome::Failed("internal error while analysing; please report it".into()));
+                if let Ok(mut slot) = slots[index].lock() {
+                    *slot = Some(outcome);
+                }
+                done();
+            });
+        }
+    });
+    slots
+        .into_iter()
+        .map(|slot| {
+            slot.into_inner()
+                .ok()
+                .flatten()
+                .unwrap_or_else(|| RunOutcome::Failed("not analysed".into()))
+        })
+        .collect()
+}
+
+/// Analyses workbooks with one request on `jobs` threads; outcomes in input order.
+pub fn run_parallel(
+    workbooks: &[PathBuf],
+    request: &AnalysisRequest,
+    out_dir: Option<&Path>,
+    write: bool,
+    jobs: usize,
+) -> Vec<RunOutcome> {
+    run_parallel_with(workbooks, &|_| request.clone(), out_dir, write, jobs, &|| {})
+}
+
+/// The folder settings of each workbook: the nearest `trialyst.toml` from
+/// its folder up to the root it was found under. Returns, per workbook, an
+/// index into the list of distinct settings (`None` when no file applies).
+///
+/// # Errors
+///
+/// The first bad settings file, naming the file, key and line.
+pub fn folder_settings_for(
+    workbooks: &[PathBuf],
+    roots: &[PathBuf],
+) -> Result<(Vec<Settings>, Vec<Option<usize>>), String> {
+    let roots: Vec<PathBuf> = roots
+        .iter()
+        .map(|root| std::path::absolute(root).unwrap_or_else(|_| root.clone()))
+        .collect();
+    let mut by_folder: HashMap<PathBuf, Option<usize>> = HashMap::new();
+    let mut distinct = Vec::new();
+    let mut chosen = Vec::with_capacity(workbooks.len());
+    for workbook in workbooks {
+        let absolute = std::path::absolute(workbook).unwrap_or_else(|_| workbook.clone());
+        let start = absolute.parent().map(Path::to_path_buf).unwrap_or_default();
+        let root = roots
+            .iter()
+            .filter(|root| start.starts_with(root))
+            .max_by_key(|root| root.components().count())
+            .cloned()
+            .unwrap_or_else(|| start.clone());
+        let mut folder = start.clone();
+        let mut found = None;
+        loop {
+            if let Some(known) = by_folder.get(&folder) {
+                found = *known;
+                if found.is_some() {
+                    break;
+                }
+            } else if folder.join(FOLDER_SETTINGS_FILE).is_file() {
+                let settings = read_folder_settings(&folder).map_err(|error| error.to_string())?;
+                if let Some(settings) = settings {
+                    distinct.push(settings);
+                    found = Some(distinct.len() - 1);
+                    by_folder.insert(folder.clone(), found);
+                    break;
+                }
+            }
+            if folder == root || !folder.pop() || !folder.starts_with(&root) {
+                break;
+            }
+        }
+        by_folder.entry(start).or_insert(found);
+        chosen.push(found);
+    }
+    Ok((distinct, chosen))
+}
+
+/// `to` relative to the folder `from`, with `/` separators (for links).
+pub fn relative_link(from: &Path, to: &Path) -> String {
+    let from = std::path::absolute(from).unwrap_or_else(|_| from.to_path_buf());
+    let to = std::path::absolute(to).unwrap_or_else(|_| to.to_path_buf());
+    let normal = |path: &Path| -> Vec<String> {
+        let mut parts: Vec<String> = Vec::new();
+        for component in path.components() {
+            match component {
+                Component::ParentDir => {
+                    parts.pop();
+                }
+                Component::CurDir => {}
+                other => parts.push(other.as_os_str().to_string_lossy().into_owned()),
+            }
+        }
+        parts
+    };
+    let from = normal(&from);
+    let to = normal(&to);
+    let common = from.iter().zip(&to).take_while(|(a, b)| a == b).count();
+    let mut parts: Vec<String> = std::iter::repeat_n("..".to_string(), from.len() - common).collect();
+    parts.extend(to[common..].iter().cloned());
+    parts.join("/")
+}
+
+/// Writes the roll-up workbook of a batch: one row per workbook and response,
+/// failures included, with links relative to the roll-up's folder.
+///
+/// # Errors
+///
+/// A sentence naming the folder or file that could not be written.
+pub fn write_rollup(
+    rollup: &Path,
+    workbooks: &[PathBuf],
+    outcomes: &[RunOutcome],
+    problems: &[(PathBuf, String)],
+) -> Result<(), String> {
+    let folder = rollup
+        .parent()
+        .filter(|parent| !parent.as_os_str().is_empty())
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|| PathBuf::from("."));
+    if let Err(error) = std::fs::create_dir_all(&folder) {
+        return Err(format!(
+            "cannot create the folder of the roll-up '{}': {error}",
+            folder.display()
+        ));
+    }
+    let mut entries = Vec::new();
+    for (path, message) in problems {
+        entries.push(RollupEntry {
+            file: path.display().to_string(),
+            results_link: None,
+            outcome: RollupOutcome::Failed(message),
+        });
+    }
+    for (path, outcome) in workbooks.iter().zip(outcomes) {
+        entries.push(match outcome {
+            RunOutcome::Analysed(results, written) => RollupEntry {
+                file: path.display().to_string(),
+                results_link: written.as_ref().map(|written| relative_link(&folder, written)),
+                outcome: RollupOutcome::Analysed(results),
+            },
+            RunOutcome::Failed(message) => RollupEntry {
+                file: path.display().to_string(),
+                results_link: None,
+                outcome: RollupOutcome::Failed(message),
+            },
+        });
+    }
+    let book = build_rollup_book(&entries, &crate::now_rfc3339());
+    workbook_io::write::write_book(&book, rollup)
+        .map_err(|error| format!("cannot write the roll-up: {}", crate::error_chain(&error)))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn links_are_relative_to_the_rollup_folder() {
+        assert_eq!(
+            relative_link(Path::new("/a/b"), Path::new("/a/b/c/x.results.xlsx")),
+            "c/x.results.xlsx"
+        );
+        assert_eq!(
+            relative_link(Path::new("/a/b/reports"), Path::new("/a/b/c/x.xlsx")),
+            "../c/x.xlsx"
+        );
+    }
+}

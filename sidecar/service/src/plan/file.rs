@@ -1,0 +1,217 @@
+//! Reading a plan request from a small TOML file (`trialyst plan --from`).
+//!
+//! ```toml
+//! response = "Yield (%)"          # or a list: ["Yield (%)", "Haze"]
+//! replicates = 2
+//! centre_points = 3
+//! blocks = 2
+//! runs = 16                       # runs of one replicate of a two-level fraction
+//! generators = ["E = ABC"]        # or leave out to search
+//! seed = 20260309
+//! date = "2026-03-09"
+//!
+//! [[factor]]
+//! name = "Temperature"
+//! levels = [160, 180]
+//!
+//! [[factor]]
+//! name = "Supplier"
+//! levels = ["North", "South", "East"]
+//! ```
+//!
+//! Errors name the key and the line.
+
+use serde::Deserialize;
+use toml::Spanned;
+
+use engine::design::{FactorSpec, Level, PlanRequest};
+
+/// Why a plan file could not be used.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum PlanFileError {
+    /// The file is not valid TOML or has a key we do not know (the message
+    /// gives the line and column).
+    #[error("{file}: {message}")]
+    Syntax {
+        /// The file name.
+        file: String,
+        /// The parser's message, with line and column.
+        message: String,
+    },
+    /// A value does not fit its key.
+    #[error("{file}, line {line}: '{key}' {rule}")]
+    BadValue {
+        /// The file name.
+        file: String,
+        /// The line, from 1.
+        line: usize,
+        /// The key.
+        key: String,
+        /// What is accepted.
+        rule: String,
+    },
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(untagged)]
+enum OneOrMany {
+    One(String),
+    Many(Vec<String>),
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawFactor {
+    name: Spanned<String>,
+    levels: Spanned<Vec<Spanned<toml::Value>>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawPlanFile {
+    #[serde(alias = "responses")]
+    response: Option<OneOrMany>,
+    #[serde(default, alias = "factors")]
+    factor: Vec<RawFactor>,
+    replicates: Option<Spanned<i64>>,
+    #[serde(alias = "centre-points", alias = "center_points", alias = "center-points")]
+    centre_points: Option<Spanned<i64>>,
+    blocks: Option<Spanned<i64>>,
+    runs: Option<Spanned<i64>>,
+    #[serde(default, alias = "generator")]
+    generators: Vec<String>,
+    seed: Option<Spanned<i64>>,
+    date: Option<Spanned<String>>,
+}
+
+/// The 1-based line of byte `offset` in `text`.
+pub(crate) fn line_of(text: &str, offset: usize) -> usize {
+    text[..offset.min(text.len())]
+        .bytes()
+        .filter(|byte| *byte == b'\n')
+        .count()
+        + 1
+}
+
+/// Reads a plan request from TOML text; `file` names it in messages.
+///
+/// # Errors
+///
+/// [`PlanFileError`] naming the key and line of the first problem.
+pub fn parse_plan_file(text: &str, file: &str) -> Result<PlanRequest, PlanFileError> {
+    let raw: RawPlanFile = toml::from_str(text).map_err(|error| PlanFileError::Syntax {
+        file: file.to_string(),
+        message: match error.span() {
+            Some(span) => format!("line {}: {}", line_of(text, span.start), error.message().trim()),
+            None => error.message().trim().to_string(),
+        },
+    })?;
+    let bad = |span: std::ops::Range<usize>, key: &str, rule: &str| PlanFileError::BadValue {
+        file: file.to_string(),
+        line: line_of(text, span.start),
+        key: key.to_string(),
+        rule: rule.to_string(),
+    };
+    let count = |value: &Option<Spanned<i64>>, key: &str, least: i64| -> Result<usize, PlanFileError> {
+        match value {
+            None => Ok(0),
+            Some(spanned) if *spanned.get_ref() >= least => Ok(*spanned.get_ref() as usize),
+            Some(spanned) => Err(bad(
+                spanned.span(),
+                key,
+                &format!("must be a whole number, at least {least}"),
+            )),
+        }
+    };
+    let mut factors = Vec::new();
+    for raw_factor in &raw.factor {
+        let mut levels = Vec::new();
+        for level in raw_factor.levels.get_ref() {
+            let text = match level.get_ref() {
+                toml::Value::String(text) => text.clone(),
+                toml::Value::Integer(number) => number.to_string(),
+                toml::Value::Float(number) if number.is_finite() => format!("{number}"),
+                _ => return Err(bad(level.span(), "levels", "must hold numbers or text")),
+            };
+            levels.push(Level::new(&text));
+        }
+        if levels.len() < 2 {
+            return Err(bad(raw_factor.levels.span(), "levels", "needs at least two levels"));
+        }
+        factors.push(FactorSpec {
+            name: raw_factor.name.get_ref().trim().to_string(),
+            levels,
+        });
+    }
+    let responses = match raw.response {
+        None => Vec::new(),
+        Some(OneOrMany::One(name)) => vec![name],
+        Some(OneOrMany::Many(names)) => names,
+    };
+    let seed = match &raw.seed {
+        None => None,
+        Some(spanned) if *spanned.get_ref() >= 0 => Some(*spanned.get_ref() as u64),
+        Some(spanned) => return Err(bad(spanned.span(), "seed", "must be a whole number, at least 0")),
+    };
+    let fraction_runs = match count(&raw.runs, "runs", 2)? {
+        0 => None,
+        runs => Some(runs),
+    };
+    Ok(PlanRequest {
+        factors,
+        responses,
+        replicates: count(&raw.replicates, "replicates", 1)?,
+        centre_points: count(&raw.centre_points, "centre_points", 0)?,
+        blocks: count(&raw.blocks, "blocks", 1)?,
+        fraction_runs,
+        generators: raw.generators,
+        seed,
+        date: raw.date.map(Spanned::into_inner),
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn reads_a_plan_file() {
+        let text = r#"
+response = "Yield (%)"
+replicates = 2
+seed = 42
+
+[[factor]]
+name = "Temperature"
+levels = [160, 180.5]
+
+[[factor]]
+name = "Supplier"
+levels = ["North", "South", "East"]
+"#;
+        let request = parse_plan_file(text, "plan.toml").expect("valid");
+        assert_eq!(request.responses, vec!["Yield (%)"]);
+        assert_eq!(request.replicates, 2);
+        assert_eq!(request.seed, Some(42));
+        assert_eq!(request.factors[0].levels[1].number, Some(180.5));
+        assert_eq!(request.factors[1].levels[2].text, "East");
+    }
+
+    #[test]
+    fn errors_name_key_and_line() {
+        let text = "response = \"Y\"\nreplicates = 0\n";
+        let error = parse_plan_file(text, "plan.toml").expect_err("zero replicates");
+        assert_eq!(
+            error.to_string(),
+            "plan.toml, line 2: 'replicates' must be a whole number, at least 1"
+        );
+        let text = "response = \"Y\"\n\n[[factor]]\nname = \"A\"\nlevels = [1, true]\n";
+        let error = parse_plan_file(text, "plan.toml").expect_err("boolean level");
+        assert!(error.to_string().contains("line 5: 'levels'"), "{error}");
+        let text = "response = \"Y\"\ncolour = \"blue\"\n";
+        let error = parse_plan_file(text, "plan.toml").expect_err("unknown key");
+        let message = error.to_string();
+        assert!(message.contains("line 2") && message.contains("colour"), "{message}");
+    }
+}

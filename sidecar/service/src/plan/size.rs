@@ -1,0 +1,656 @@
+//! `trialyst size`: how many runs the next trial needs, and the power of
+//! the runs one can afford, with the SD given or read from the results
+//! workbook of the last trial.
+//!
+//! The computations are in [`engine::analysis::power`]; this module gathers
+//! the inputs, builds the table of runs against power and its workbook.
+
+use std::path::{Path, PathBuf};
+
+use serde::Serialize;
+use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
+use workbook_io::{open_workbook, CellValue, ReadError, ReadLimits, SheetGrid};
+
+use crate::report::names;
+use engine::analysis::power::{
+    check_one_way, one_way_power, one_way_runs_needed, pairs_plan, two_level_effect_power, OneWayEffect, PAIRS_METHOD,
+};
+use engine::stats::two_level::{minimum_aberration_design, DefiningRelation, DEFAULT_SEARCH_BUDGET};
+use engine::stats::StatsError;
+
+/// Most rows of the table of runs against power.
+pub const MAX_TABLE_ROWS: usize = 40;
+
+/// The trial being sized.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(rename_all = "kebab-case", tag = "kind")]
+pub enum SizeDesign {
+    /// Several conditions of one factor, the same number of runs each.
+    OneWay {
+        /// Number of conditions.
+        conditions: usize,
+        /// What should be detected.
+        effect: OneWayEffect,
+    },
+    /// A two-level factorial or fraction, replicated.
+    TwoLevel {
+        /// Number of factors.
+        factors: usize,
+        /// Runs of one replicate (a power of two); `None` for the full factorial.
+        runs_per_replicate: Option<usize>,
+        /// Centre runs added to the whole plan.
+        centre_points: usize,
+        /// True when the planned model has the two-factor interactions.
+        interactions: bool,
+        /// The effect (difference of averages, high minus low) worth detecting.
+        effect: f64,
+    },
+}
+
+/// Where the planning SD comes from.
+#[derive(Debug, Clone, PartialEq)]
+pub enum SdSource {
+    /// Given by the user.
+    Given(f64),
+    /// The pooled SD of a response in a results workbook written by trialyst.
+    LastTrial {
+        /// The results workbook.
+        path: PathBuf,
+        /// The response, when the results hold several.
+        response: Option<String>,
+    },
+}
+
+/// A power and sample size question.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SizeRequest {
+    /// The trial.
+    pub design: SizeDesign,
+    /// The SD.
+    pub sd: SdSource,
+    /// Level of the test (default 0.05).
+    pub alpha: f64,
+    /// Wanted power (default 0.80).
+    pub power: f64,
+    /// For one-way trials: the wanted half-width of all-pairs intervals.
+    pub half_width: Option<f64>,
+}
+
+/// Why a size question could not be answered.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum SizeError {
+    /// An input is outside what the computation accepts.
+    #[error("{0}")]
+    Stats(#[from] StatsError),
+    /// The results workbook could not be read.
+    #[error(transparent)]
+    Read(#[from] ReadError),
+    /// The workbook is not a results workbook of ours, or lacks the SD.
+    #[error("'{}': {reason}", path.display())]
+    NotResults {
+        /// The workbook.
+        path: PathBuf,
+        /// What is missing.
+        reason: String,
+    },
+    /// The workbook could not be written.
+    #[error(transparent)]
+    Write(#[from] workbook_io::write::WriteError),
+}
+
+/// The SD of the last trial, as read from its results.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LastTrialSd {
+    /// The response.
+    pub response: String,
+    /// The pooled SD.
+    pub sd: f64,
+    /// Its degrees of freedom.
+    pub df: f64,
+}
+
+/// One row of the table of runs against power.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PowerRow {
+    /// Runs per condition (one-way) or replicates (two-level).
+    pub count: usize,
+    /// Runs in the whole trial.
+    pub total_runs: usize,
+    /// Residual degrees of freedom.
+    pub residual_df: usize,
+    /// Power; NaN where the test cannot be made (no residual df).
+    pub power: f64,
+}
+
+/// The runs needed for the wanted power.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Needed {
+    /// Runs per condition or replicates.
+    pub count: usize,
+    /// Runs in the whole trial.
+    pub total_runs: usize,
+    /// The power reached.
+    pub power: f64,
+}
+
+/// The runs needed for intervals of a wanted half-width.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct HalfWidthAnswer {
+    /// The half-width wanted.
+    pub wanted: f64,
+    /// Runs per condition needed.
+    pub per_condition: usize,
+    /// Runs in the whole trial.
+    pub total_runs: usize,
+    /// The half-width reached at that number of runs.
+    pub reached: f64,
+    /// How the half-width was computed.
+    pub method: String,
+}
+
+/// The answer to a size question.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SizeAnswer {
+    /// The trial, in a sentence.
+    pub question: String,
+    /// The trial.
+    pub design: SizeDesign,
+    /// The planning SD.
+    pub sd: f64,
+    /// Where it came from.
+    pub sd_from: String,
+    /// Its degrees of freedom, when read from the last trial.
+    pub sd_df: Option<f64>,
+    /// Level of the test.
+    pub alpha: f64,
+    /// Wanted power.
+    pub target_power: f64,
+    /// What `count` means in the table: runs per condition or replicates.
+    pub count_means: String,
+    /// The runs needed for the wanted power.
+    pub needed: Needed,
+    /// The runs needed for intervals of the wanted half-width.
+    pub half_width: Option<HalfWidthAnswer>,
+    /// Runs against power.
+    pub table: Vec<PowerRow>,
+    /// Remarks for the reader.
+    pub notes: Vec<String>,
+}
+
+fn rows_of(grid: &SheetGrid) -> Vec<Vec<(u32, CellValue)>> {
+    let mut rows: Vec<Vec<(u32, CellValue)>> = Vec::new();
+    let mut last_row = None;
+    for (pos, value) in &grid.cells {
+        if last_row != Some(pos.row) {
+            rows.push(Vec::new());
+            last_row = Some(pos.row);
+        }
+        if let Some(row) = rows.last_mut() {
+            row.push((pos.col, *value));
+        }
+    }
+    rows
+}
+
+fn cell_text(grid: &SheetGrid, row: &[(u32, CellValue)], col: u32) -> String {
+    row.iter()
+        .find(|(column, _)| *column == col)
+        .map(|(_, value)| grid.display(*value).trim().to_string())
+        .unwrap_or_default()
+}
+
+fn cell_number(row: &[(u32, CellValue)], col: u32) -> Option<f64> {
+    row.iter()
+        .find(|(column, _)| *column == col)
+        .and_then(|(_, value)| match value {
+            CellValue::Number(number) if number.is_finite() => Some(*number),
+            _ => None,
+        })
+}
+
+/// Reads the pooled SD of each response from a results workbook written by trialyst.
+///
+/// # Errors
+///
+/// [`SizeError::Read`] when the workbook cannot be read,
+/// [`SizeError::NotResults`] when it is not one of our results workbooks or
+/// holds no SD.
+pub fn read_last_trial(path: &Path) -> Result<Vec<LastTrialSd>, SizeError> {
+    let not_results = |reason: &str| SizeError::NotResults {
+        path: path.to_path_buf(),
+        reason: reason.to_string(),
+    };
+    let mut workbook = open_workbook(path, &ReadLimits::default())?;
+    let has = |name: &str| workbook.sheets().iter().any(|info| info.name == name);
+    if !has(names::PROVENANCE) || !has(names::ANOVA) {
+        return Err(not_results(&format!(
+            "not a trialyst results workbook (no '{}' and '{}' sheets)",
+            names::PROVENANCE,
+            names::ANOVA
+        )));
+    }
+    let provenance = workbook.read_sheet(names::PROVENANCE, None)?;
+    let made_by_us = rows_of(&provenance)
+        .iter()
+        .any(|row| cell_text(&provenance, row, 0) == "tool" && cell_text(&provenance, row, 1).starts_with("trialyst"));
+    if !made_by_us {
+        return Err(not_results(
+            "its provenance does not name trialyst as the tool that wrote it",
+        ));
+    }
+    let anova = workbook.read_sheet(names::ANOVA, None)?;
+    let rows = rows_of(&anova);
+    let mut found: Vec<LastTrialSd> = Vec::new();
+    let mut current: Option<String> = None;
+    let mut residual: Option<(f64, f64)> = None;
+    let mut pooled: (Option<f64>, Option<f64>) = (None, None);
+    let mut finish = |current: &Option<String>, residual: &Option<(f64, f64)>, pooled: &(Option<f64>, Option<f64>)| {
+        if let Some(response) = current {
+            let value = match pooled {
+                (Some(sd), Some(df)) => Some((*sd, *df)),
+                _ => residual.map(|(ms, df)| (ms.sqrt(), df)),
+            };
+            if let Some((sd, df)) = value.filter(|(sd, df)| sd.is_finite() && *sd > 0.0 && *df > 0.0) {
+                found.push(LastTrialSd {
+                    response: response.clone(),
+                    sd,
+                    df,
+                });
+            }
+        }
+    };
+    for (index, row) in rows.iter().enumerate() {
+        let first = cell_text(&anova, row, 0);
+        if first == "source" && cell_text(&anova, row, 1) == "df" && index > 0 {
+            finish(&current, &residual, &pooled);
+            current = Some(cell_text(&anova, &rows[index - 1], 0));
+            residual = None;
+            pooled = (None, None);
+            continue;
+        }
+        match first.as_str() {
+            "within conditions" | "residual" | "error" => {
+                if let (Some(df), Some(ms)) = (cell_number(row, 1), cell_number(row, 3)) {
+                    residual = Some((ms, df));
+                }
+            }
+            "pooled SD" => pooled.0 = cell_number(row, 1),
+            "pooled SD degrees of freedom" => pooled.1 = cell_number(row, 1),
+            _ => {}
+        }
+    }
+    finish(&current, &residual, &pooled);
+    if found.is_empty() {
+        return Err(not_results("its ANOVA sheet holds no pooled SD"));
+    }
+    Ok(found)
+}
+
+fn resolve_sd(source: &SdSource, notes: &mut Vec<String>) -> Result<(f64, String, Option<f64>), SizeError> {
+    match source {
+        SdSource::Given(sd) => {
+            if !(sd.is_finite() && *sd > 0.0) {
+                return Err(StatsError::InvalidParameter {
+                    name: "SD",
+                    rule: "a finite number above 0",
+                    value: *sd,
+                }
+                .into());
+            }
+            Ok((*sd, "given".into(), None))
+        }
+        SdSource::LastTrial { path, response } => {
+            let all = read_last_trial(path)?;
+            let chosen = match response {
+                Some(name) => all
+                    .iter()
+                    .find(|entry| entry.response.eq_ignore_ascii_case(name.trim())),
+                None if all.len() == 1 => all.first(),
+                None => None,
+            };
+            let listed = all
+                .iter()
+                .map(|entry| entry.response.as_str())
+                .collect::<Vec<_>>()
+                .join(", ");
+            let Some(chosen) = chosen else {
+                return Err(SizeError::NotResults {
+                    path: path.clone(),
+                    reason: match response {
+                        Some(name) => format!("no response '{name}' (responses: {listed})"),
+                        None => format!("it holds several responses ({listed}); choose one"),
+                    },
+                });
+            };
+            notes.push(format!(
+                "The SD is the pooled SD of '{}' in the last trial, on {} degrees of freedom; it is itself an estimate, so treat the runs needed as a guide.",
+                chosen.response, chosen.df
+            ));
+            let file = path
+                .file_name()
+                .map(|name| name.to_string_lossy().into_owned())
+                .unwrap_or_default();
+            Ok((
+                chosen.sd,
+                format!("pooled SD of '{}' in {file}", chosen.response),
+                Some(chosen.df),
+            ))
+        }
+    }
+}
+
+fn two_level_relation(factors: usize, runs_per_replicate: Option<usize>) -> Result<DefiningRelation, StatsError> {
+    match runs_per_replicate {
+        None => DefiningRelation::full_factorial(factors),
+        Some(runs) => {
+            if !runs.is_power_of_two() || runs < 2 || factors > 15 || runs > (1usize << factors) {
+                return Err(StatsError::InvalidParameter {
+                    name: "runs per replicate",
+                    rule: "a power of two, at most 2^factors",
+                    value: runs as f64,
+                });
+            }
+            let n_generators = factors - runs.trailing_zeros() as usize;
+            Ok(minimum_aberration_design(factors, n_generators, DEFAULT_SEARCH_BUDGET)?.relation)
+        }
+    }
+}
+
+/// Answers a size question.
+///
+/// # Errors
+///
+/// [`SizeError`] for unusable inputs or an unreadable results workbook.
+pub fn size_answer(request: &SizeRequest) -> Result<SizeAnswer, SizeError> {
+    let mut notes = Vec::new();
+    let (sd, sd_from, sd_df) = resolve_sd(&request.sd, &mut notes)?;
+    let alpha = request.alpha;
+    let target = request.power;
+    match &request.design {
+        SizeDesign::OneWay { conditions, effect } => {
+            check_one_way(*conditions, effect)?;
+            let needed_count = one_way_runs_needed(*conditions, effect, sd, alpha, target)?;
+            let half_width = match request.half_width {
+                Some(wanted) => {
+                    let confidence = 1.0 - alpha;
+                    let (per_condition, reached) = pairs_plan(*conditions, sd, confidence, wanted)?;
+                    notes.push(
+                        "The all-pairs half-width is the Tukey-Kramer one the trial will show if its pooled SD comes out at the planning SD; a larger SD widens it.".into(),
+                    );
+                    Some(HalfWidthAnswer {
+                        wanted,
+                        per_condition,
+                        total_runs: per_condition * conditions,
+                        reached,
+                        method: PAIRS_METHOD.into(),
+                    })
+                }
+                None => None,
+            };
+            let last = (needed_count * 3 / 2)
+                .max(needed_count + 4)
+                .max(8)
+                .min(needed_count + MAX_TABLE_ROWS);
+            let first = 2usize.max(last.saturating_sub(MAX_TABLE_ROWS - 1));
+            let mut table = Vec::new();
+            for count in first..=last {
+                table.push(PowerRow {
+                    count,
+                    total_runs: count * conditions,
+                    residual_df: conditions * (count - 1),
+                    power: one_way_power(count, *conditions, effect, sd, alpha)?,
+                });
+            }
+            let what = match effect {
+                OneWayEffect::SmallestDifference(delta) => format!(
+                    "a difference of {delta} between any two of {conditions} conditions (the least favourable case: two means {} either side of the centre, the rest at the centre)",
+                    delta / 2.0
+                ),
+                OneWayEffect::Means(means) => format!(
+                    "means of {} across {conditions} conditions",
+                    means.iter().map(|mean| mean.to_string()).collect::<Vec<_>>().join(", ")
+                ),
+            };
+            Ok(SizeAnswer {
+                question: format!("Runs per condition for the F test to detect {what}"),
+                design: request.design.clone(),
+                sd,
+                sd_from,
+                sd_df,
+                alpha,
+                target_power: target,
+                count_means: "runs per condition".into(),
+                needed: Needed {
+                    count: needed_count,
+                    total_runs: needed_count * conditions,
+                    power: one_way_power(needed_count, *conditions, effect, sd, alpha)?,
+                },
+                half_width,
+                table,
+                notes,
+            })
+        }
+        SizeDesign::TwoLevel {
+            factors,
+            runs_per_replicate,
+            centre_points,
+            interactions,
+            effect,
+        } => {
+            let relation = two_level_relation(*factors, *runs_per_replicate)?;
+            let base_runs = relation.n_runs();
+            let terms = relation.alias_chains(if *interactions { 2 } else { 1 }).len();
+            let curvature = usize::from(*centre_points > 0);
+            let row_for = |replicates: usize| -> Result<PowerRow, StatsError> {
+                let factorial_runs = replicates * base_runs;
+                let total_runs = factorial_runs + centre_points;
+                let residual_df = total_runs.saturating_sub(1 + terms + curvature);
+                let power = if residual_df == 0 {
+                    f64::NAN
+                } else {
+                    two_level_effect_power(factorial_runs, residual_df, *effect, sd, alpha)?
+                };
+                Ok(PowerRow {
+                    count: replicates,
+                    total_runs,
+                    residual_df,
+                    power,
+                })
+            };
+            let mut needed_count = None;
+            let mut replicates = 1;
+            while replicates <= 100_000 {
+                let row = row_for(replicates)?;
+                if row.power >= target {
+                    needed_count = Some(row);
+                    break;
+                }
+                replicates = if replicates < 64 {
+                    replicates + 1
+                } else {
+                    replicates * 2
+                };
+            }
+            let Some(needed_row) = needed_count else {
+                return Err(StatsError::NoConvergence {
+                    what: "replicates search (more than 100000 replicates needed)",
+                    iterations: replicates,
+                }
+                .into());
+            };
+            let last = (needed_row.count + 3).max(4);
+            let first = 1usize.max(last.saturating_sub(MAX_TABLE_ROWS - 1));
+            let table = (first..=last).map(row_for).collect::<Result<Vec<_>, _>>()?;
+            if table.iter().any(|row| row.power.is_nan()) {
+                notes.push(
+                    "Where the residual df is 0 the planned model uses every run, so no test can be made; add replicates or centre points, or drop the interactions from the model.".into(),
+                );
+            }
+            notes.push(format!(
+                "The planned model has {terms} effect(s) ({}); an effect is the difference between the averages at the high and low levels.",
+                if *interactions {
+                    "main effects and two-factor interactions"
+                } else {
+                    "main effects"
+                }
+            ));
+            Ok(SizeAnswer {
+                question: format!(
+                    "Replicates of a {base_runs}-run two-level plan in {factors} factors for the t test to detect an effect of {effect}"
+                ),
+                design: request.design.clone(),
+                sd,
+                sd_from,
+                sd_df,
+                alpha,
+                target_power: target,
+                count_means: "replicates".into(),
+                needed: Needed {
+                    count: needed_row.count,
+                    total_runs: needed_row.total_runs,
+                    power: needed_row.power,
+                },
+                half_width: None,
+                table,
+                notes,
+            })
+        }
+    }
+}
+
+/// Name of the sheet of the size workbook.
+pub const SIZE_SHEET: &str = "Power and runs";
+
+/// The size answer as a workbook: the question, the answer, the table of
+/// runs against power and its chart.
+pub fn size_book(answer: &SizeAnswer) -> Book {
+    let mut sheet = Sheet::new(SIZE_SHEET);
+    sheet.widths = vec![(0, 30.0), (1, 16.0), (2, 16.0), (3, 12.0)];
+    // The question's bracketed detail goes on a note line of its own, so that the title
+    // does not run far past the table and shrink the printed page.
+    match answer.question.split_once(" (") {
+        Some((head, detail)) => {
+            sheet.put(0, 0, Value::text(head), Look::Title);
+            sheet.put(1, 0, Value::text(format!("({detail}")), Look::Note);
+        }
+        None => sheet.put(0, 0, Value::text(answer.question.clone()), Look::Title),
+    }
+    let mut rows = vec![
+        vec![Value::text("SD used"), Value::number(answer.sd)],
+        vec![Value::text("SD from"), Value::text(answer.sd_from.clone())],
+        vec![Value::text("level of the test (alpha)"), Value::number(answer.alpha)],
+        vec![Value::text("power wanted"), Value::number(answer.target_power)],
+        vec![
+            Value::text(format!("{} needed", answer.count_means)),
+            Value::integer(answer.needed.count as f64),
+        ],
+        vec![
+            Value::text("runs in all"),
+            Value::integer(answer.needed.total_runs as f64),
+        ],
+        vec![
+            Value::text("power reached"),
+            Value::Number(answer.needed.power, NumberFormat::Decimals(3)),
+        ],
+    ];
+    if let Some(half) = &answer.half_width {
+        rows.push(vec![
+            Value::text("runs per condition for the half-width wanted"),
+            Value::integer(half.per_condition as f64),
+        ]);
+        rows.push(vec![Value::text("half-width reached"), Value::number(half.reached)]);
+    }
+    let mut next = sheet.table(2, 0, &["item", "value"], rows);
+    for note in &answer.notes {
+        sheet.put(next, 0, Value::text(note.clone()), Look::Note);
+        next += 1;
+    }
+    next += 1;
+    let header_row = next;
+    let table_rows = answer
+        .table
+        .iter()
+        .map(|row| {
+            vec![
+                Value::integer(row.count as f64),
+                Value::integer(row.total_runs as f64),
+                Value::integer(row.residual_df as f64),
+                Value::Number(row.power, NumberFormat::Decimals(3)),
+            ]
+        })
+        .collect();
+    let end = sheet.table(
+        header_row,
+        0,
+        &[answer.count_means.as_str(), "runs in all", "residual df", "power"],
+        table_rows,
+    );
+    if !answer.table.is_empty() {
+        sheet.charts.push(ChartSpec {
+            kind: ChartKind::Lines,
+            title: format!("Power against {}", answer.count_means),
+            x_title: answer.count_means.clone(),
+            y_title: "power".into(),
+            series: vec![Series {
+                name: "power".into(),
+                categories: SheetRange::column(SIZE_SHEET, 0, header_row + 1, end - 1),
+                values: SheetRange::column(SIZE_SHEET, 3, header_row + 1, end - 1),
+                bar_plus: None,
+                bar_minus: None,
+                labels: None,
+            }],
+            anchor: (header_row, 4),
+            size: (520, 320),
+        });
+    }
+    Book { sheets: vec![sheet] }
+}
+
+/// Writes the size workbook atomically.
+///
+/// # Errors
+///
+/// [`SizeError::Write`].
+pub fn write_size(answer: &SizeAnswer, destination: &Path) -> Result<(), SizeError> {
+    workbook_io::write::write_book(&size_book(answer), destination)?;
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn two_level_answer_counts_model_terms() {
+        // 2^3 full factorial with the two-factor interactions: 6 effects, so
+        // one replicate of 8 runs leaves 8 - 1 - 6 = 1 residual df (the
+        // three-factor interaction), common practice.
+        let request = SizeRequest {
+            design: SizeDesign::TwoLevel {
+                factors: 3,
+                runs_per_replicate: None,
+                centre_points: 0,
+                interactions: true,
+                effect: 2.0,
+            },
+            sd: SdSource::Given(1.0),
+            alpha: 0.05,
+            power: 0.8,
+            half_width: None,
+        };
+        let answer = size_answer(&request).expect("answer");
+        assert_eq!(answer.table[0].residual_df, 1);
+        assert_eq!(answer.table[1].residual_df, 9);
+        let needed = &answer.needed;
+        assert!(needed.power >= 0.8);
+        let previous = answer
+            .table
+            .iter()
+            .find(|row| row.count + 1 == needed.count)
+            .expect("row before");
+        assert!(previous.power < 0.8 || previous.power.is_nan());
+        let book = size_book(&answer);
+        assert_eq!(book.sheets[0].charts.len(), 1);
+    }
+}

@@ -1,0 +1,583 @@
+//! Turns [`WorkbookResults`] into a workbook model: the sheets a manager and
+//! an engineer read, with charts. No I/O here; `workbook-io` writes the model.
+//!
+//! Sheets: a summary in plain words, condition statistics, the ANOVA table,
+//! pairwise differences, contrasts, data problems, and provenance.
+
+pub mod assessment;
+pub mod factorial;
+pub mod problems;
+pub mod rollup;
+
+use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
+
+use crate::{ResponseOutcome, WorkbookResults};
+use engine::analysis::oneway::OneWayFit;
+use engine::analysis::verdict::round_for_text;
+
+/// Sheet names of the results workbook.
+pub mod names {
+    /// The manager's summary.
+    pub const SUMMARY: &str = "Summary";
+    /// Per-condition statistics.
+    pub const CONDITIONS: &str = "Conditions";
+    /// The ANOVA tables.
+    pub const ANOVA: &str = "ANOVA";
+    /// Pairwise differences.
+    pub const PAIRS: &str = "Pairwise differences";
+    /// User contrasts.
+    pub const CONTRASTS: &str = "Contrasts";
+    /// Data problems.
+    pub const FINDINGS: &str = "Data problems";
+    /// Provenance.
+    pub const PROVENANCE: &str = "Provenance";
+}
+
+pub(crate) fn decimals_for(fit: &OneWayFit) -> u8 {
+    // Enough decimals to show the pooled SD to three significant digits.
+    let scale = if fit.pooled_sd.is_finite() && fit.pooled_sd > 0.0 {
+        fit.pooled_sd
+    } else {
+        fit.conditions
+            .iter()
+            .map(|condition| condition.mean.abs())
+            .fold(0.0, f64::max)
+            .max(1e-12)
+            / 100.0
+    };
+    (2 - scale.log10().floor() as i32).clamp(0, 10) as u8
+}
+
+fn number(value: f64, places: u8) -> Value {
+    Value::Number(value, NumberFormat::Decimals(places))
+}
+
+fn optional(value: Option<f64>, format: NumberFormat) -> Value {
+    match value {
+        Some(value) => Value::Number(value, format),
+        None => Value::Blank,
+    }
+}
+
+/// A display format showing about seven significant digits: fixed decimals
+/// for magnitudes from 1e-4 to 1e9, scientific notation outside them (sums
+/// of squares span any range; a fixed number of decimals would hide small
+/// ones, and the general format prints fifteen digits).
+pub(crate) fn significant_format(value: f64) -> NumberFormat {
+    let magnitude = value.abs();
+    if magnitude == 0.0 || !magnitude.is_finite() {
+        return NumberFormat::General;
+    }
+    if !(1e-4..1e9).contains(&magnitude) {
+        return NumberFormat::Scientific(6);
+    }
+    let leading = magnitude.log10().floor() as i32;
+    NumberFormat::Decimals((6 - leading).clamp(0, 10) as u8)
+}
+
+/// An RFC 3339 time such as `2026-03-09T14:05:31.123456Z` as a person reads
+/// it, `2026-03-09 14:05 UTC`; anything else is shown as it is.
+pub(crate) fn readable_time(rfc3339: &str) -> String {
+    let bytes = rfc3339.as_bytes();
+    let looks_right = bytes.len() >= 17
+        && rfc3339.is_char_boundary(16)
+        && bytes[10] == b'T'
+        && bytes[13] == b':'
+        && rfc3339.ends_with('Z');
+    if looks_right {
+        format!("{} {} UTC", &rfc3339[..10], &rfc3339[11..16])
+    } else {
+        rfc3339.to_string()
+    }
+}
+
+fn percent_text(confidence: f64) -> String {
+    format!("{}%", round_for_text(confidence * 100.0, 3))
+}
+
+/// Builds the results workbook model.
+pub fn build_results_book(results: &WorkbookResults) -> Book {
+    let mut summary = Sheet::new(names::SUMMARY);
+    let mut conditions = Sheet::new(names::CONDITIONS);
+    let mut anova = Sheet::new(names::ANOVA);
+    let mut pairs = Sheet::new(names::PAIRS);
+    let mut contrasts = Sheet::new(names::CONTRASTS);
+
+    // About 6.5 inches in the usual fonts: the text width of an upright A4
+    // or Letter page (the summary is printed at 100%, one page per response).
+    const SUMMARY_WIDTH: f64 = 72.0;
+    summary.widths = vec![(0, SUMMARY_WIDTH)];
+    // Printed, each response's section and its chart stand on one upright page.
+    summary.portrait = true;
+    summary.put(
+        0,
+        0,
+        Value::text(format!("Trial results: {}", results.source.file_name)),
+        Look::Title,
+    );
+    summary.paragraph(
+        1,
+        0,
+        format!(
+            "Sheet '{}', cells {}, {} records; analysed {} by {} {}.",
+            results.source.sheet,
+            results.source.range,
+            results.table.n_records,
+            readable_time(&results.created_at),
+            results.tool,
+            results.tool_version
+        ),
+        Look::Note,
+        SUMMARY_WIDTH,
+    );
+    let mut summary_row = 3;
+
+    conditions.widths = vec![
+        (0, 26.0),
+        (1, 8.0),
+        (2, 12.0),
+        (3, 12.0),
+        (4, 12.0),
+        (5, 12.0),
+        (6, 12.0),
+        (7, 12.0),
+        (8, 14.0),
+        (9, 14.0),
+        (10, 14.0),
+    ];
+    anova.widths = vec![(0, 40.0), (1, 8.0), (2, 18.0), (3, 16.0), (4, 12.0), (5, 12.0)];
+    pairs.widths = vec![
+        (0, 22.0),
+        (1, 22.0),
+        (2, 13.0),
+        (3, 13.0),
+        (4, 13.0),
+        (5, 13.0),
+        (6, 10.0),
+        (7, 11.0),
+        (8, 14.0),
+    ];
+    contrasts.widths = vec![
+        (0, 22.0),
+        (1, 36.0),
+        (2, 13.0),
+        (3, 13.0),
+        (4, 13.0),
+        (5, 13.0),
+        (6, 10.0),
+        (7, 11.0),
+    ];
+    let mut conditions_row = 0;
+    let mut anova_row = 0;
+    let mut pairs_row = 0;
+    let mut contrasts_row = 0;
+    let mut any_contrast = false;
+
+    for (response_index, response) in results.responses.iter().enumerate() {
+        if response_index > 0 {
+            summary.page_breaks.push(summary_row);
+        }
+        summary.put(
+            summary_row,
+            0,
+            Value::text(format!("{} (conditions: {})", response.name, response.condition_factor)),
+            Look::Heading,
+        );
+        summary_row += 1;
+        let fit = match &response.outcome {
+            ResponseOutcome::Analysed { one_way } => one_way,
+            ResponseOutcome::NotAnalysed { reason } => {
+                summary.put(
+                    summary_row,
+                    0,
+                    Value::text(format!("Not analysed: {reason}.")),
+                    Look::Verdict,
+                );
+                summary_row += 2;
+                continue;
+            }
+        };
+        if let Some(verdict) = &response.verdict {
+            summary.paragraph(summary_row, 0, verdict.headline.clone(), Look::Verdict, SUMMARY_WIDTH);
+            summary_row += 1;
+            for line in &verdict.details {
+                summary.paragraph(summary_row, 0, line.clone(), Look::Plain, SUMMARY_WIDTH);
+                summary_row += 1;
+            }
+        }
+        summary.paragraph(
+            summary_row,
+            0,
+            format!(
+                "Details: sheets '{}', '{}', '{}' and '{}'. Intervals are at {} confidence.",
+                names::CONDITIONS,
+                names::ANOVA,
+                assessment::names::SIMULTANEOUS,
+                assessment::names::CHECKS,
+                percent_text(fit.confidence)
+            ),
+            Look::Note,
+            SUMMARY_WIDTH,
+        );
+        summary_row += 1;
+        let places = decimals_for(fit);
+
+        // Condition statistics, which also feed the chart.
+        conditions.put(conditions_row, 0, Value::text(response.name.clone()), Look::Heading);
+        conditions_row += 1;
+        let interval_header_low = format!("{} low", percent_text(fit.confidence));
+        let interval_header_high = format!("{} high", percent_text(fit.confidence));
+        let headers = [
+            response.condition_factor.as_str(),
+            "n",
+            "mean",
+            "SD",
+            "SE",
+            "min",
+            "median",
+            "max",
+            interval_header_low.as_str(),
+            interval_header_high.as_str(),
+            "± half-width",
+        ];
+        let first_data_row = conditions_row + 1;
+        let rows: Vec<Vec<Value>> = fit
+            .conditions
+            .iter()
+            .map(|condition| {
+                vec![
+                    Value::text(condition.name.clone()),
+                    Value::integer(condition.n as f64),
+                    number(condition.mean, places + 1),
+                    number(condition.sd, places + 1),
+                    number(condition.se, places + 1),
+                    number(condition.min, places),
+                    number(condition.median, places),
+                    number(condition.max, places),
+                    number(condition.mean_low, places + 1),
+                    number(condition.mean_high, places + 1),
+                    number(condition.mean_half_width, places + 1),
+                ]
+            })
+            .collect();
+        conditions_row = conditions.table(conditions_row, 0, &headers, rows);
+        let last_data_row = conditions_row - 1;
+        conditions.put(
+            conditions_row,
+            0,
+            Value::text(format!(
+                "Intervals for each mean use the pooled SD ({}) on {} degrees of freedom; SD and SE are each condition's own.",
+                round_for_text(fit.pooled_sd, 4),
+                fit.pooled_df
+            )),
+            Look::Note,
+        );
+        conditions_row += 2;
+
+        let has_bars = fit.pooled_sd.is_finite();
+        summary.charts.push(ChartSpec {
+            kind: ChartKind::Points,
+            title: format!("{}: average by condition", response.name),
+            x_title: response.condition_factor.clone(),
+            y_title: if has_bars {
+                format!("mean with {} interval", percent_text(fit.confidence))
+            } else {
+                "mean".into()
+            },
+            series: vec![Series {
+                name: response.name.clone(),
+                categories: SheetRange::column(names::CONDITIONS, 0, first_data_row, last_data_row),
+                values: SheetRange::column(names::CONDITIONS, 2, first_data_row, last_data_row),
+                bar_plus: has_bars.then(|| SheetRange::column(names::CONDITIONS, 10, first_data_row, last_data_row)),
+                bar_minus: has_bars.then(|| SheetRange::column(names::CONDITIONS, 10, first_data_row, last_data_row)),
+                labels: None,
+            }],
+            anchor: (summary_row + 1, 0),
+            size: (500, 290),
+        });
+        summary_row += 17;
+
+        // ANOVA table.
+        anova.put(anova_row, 0, Value::text(response.name.clone()), Look::Heading);
+        anova_row += 1;
+        let rows: Vec<Vec<Value>> = fit
+            .anova
+            .iter()
+            .map(|line| {
+                vec![
+                    Value::text(line.source.clone()),
+                    Value::integer(line.df),
+                    Value::Number(line.ss, significant_format(line.ss)),
+                    optional(line.ms, line.ms.map_or(NumberFormat::General, significant_format)),
+                    optional(line.f, NumberFormat::Decimals(4)),
+                    optional(line.p, NumberFormat::PValue),
+                ]
+            })
+            .collect();
+        anova_row = anova.table(
+            anova_row,
+            0,
+            &["source", "df", "sum of squares", "mean square", "F", "p-value"],
+            rows,
+        );
+        let effect_rows = vec![
+            vec![
+                Value::text("R² (share of variation between conditions)"),
+                Value::Number(fit.r_squared, NumberFormat::Decimals(4)),
+            ],
+            vec![
+                Value::text("eta²"),
+                Value::Number(fit.eta_squared, NumberFormat::Decimals(4)),
+            ],
+            vec![
+                Value::text("omega² (less biased)"),
+                Value::Number(fit.omega_squared, NumberFormat::Decimals(4)),
+            ],
+            vec![
+                Value::text("pooled SD"),
+                Value::Number(fit.pooled_sd, NumberFormat::Decimals(places + 1)),
+            ],
+            vec![
+                Value::text("pooled SD degrees of freedom"),
+                Value::integer(fit.pooled_df),
+            ],
+            vec![
+                Value::text("grand mean"),
+                Value::Number(fit.grand_mean, NumberFormat::Decimals(places + 1)),
+            ],
+        ];
+        anova_row = anova.table(anova_row + 1, 0, &["measure", "value"], effect_rows) + 1;
+
+        // Pairwise differences.
+        pairs.put(pairs_row, 0, Value::text(response.name.clone()), Look::Heading);
+        pairs_row += 1;
+        let low = format!("{} low", percent_text(fit.confidence));
+        let high = format!("{} high", percent_text(fit.confidence));
+        let rows: Vec<Vec<Value>> = fit
+            .pairs
+            .iter()
+            .map(|pair| {
+                vec![
+                    Value::text(pair.first.clone()),
+                    Value::text(pair.second.clone()),
+                    number(pair.difference, places + 1),
+                    number(pair.se, places + 1),
+                    number(pair.low, places + 1),
+                    number(pair.high, places + 1),
+                    Value::Number(pair.t, NumberFormat::Decimals(3)),
+                    Value::p_value(pair.p),
+                    Value::Number(pair.standardized, NumberFormat::Decimals(3)),
+                ]
+            })
+            .collect();
+        pairs_row = pairs.table(
+            pairs_row,
+            0,
+            &[
+                "condition",
+                "minus condition",
+                "difference",
+                "SE",
+                low.as_str(),
+                high.as_str(),
+                "t",
+                "p-value (unadjusted)",
+                "difference in SDs",
+            ],
+            rows,
+        );
+        pairs.put(
+            pairs_row,
+            0,
+            Value::text("Each interval and p-value is for that pair alone; with many pairs, some will look different by chance."),
+            Look::Note,
+        );
+        pairs_row += 2;
+
+        if !fit.contrasts.is_empty() {
+            any_contrast = true;
+            contrasts.put(contrasts_row, 0, Value::text(response.name.clone()), Look::Heading);
+            contrasts_row += 1;
+            let rows: Vec<Vec<Value>> = fit
+                .contrasts
+                .iter()
+                .map(|contrast| {
+                    vec![
+                        Value::text(contrast.name.clone()),
+                        Value::text(contrast.expression.clone()),
+                        number(contrast.estimate, places + 1),
+                        number(contrast.se, places + 1),
+                        number(contrast.low, places + 1),
+                        number(contrast.high, places + 1),
+                        Value::Number(contrast.t, NumberFormat::Decimals(3)),
+                        Value::p_value(contrast.p),
+                    ]
+                })
+                .collect();
+            contrasts_row = contrasts.table(
+                contrasts_row,
+                0,
+                &[
+                    "name",
+                    "combination",
+                    "estimate",
+                    "SE",
+                    low.as_str(),
+                    high.as_str(),
+                    "t",
+                    "p-value",
+                ],
+                rows,
+            ) + 1;
+        }
+    }
+
+    summary.put(summary_row, 0, Value::text("Cautions"), Look::Heading);
+    summary_row += 1;
+    for caution in &results.cautions {
+        summary.paragraph(summary_row, 0, caution.clone(), Look::Caution, SUMMARY_WIDTH);
+        summary_row += 1;
+    }
+    if !results.findings.is_empty() {
+        summary.put(
+            summary_row,
+            0,
+            Value::text(format!(
+                "{} data problem(s) were found and handled; see the sheet '{}'.",
+                results.findings.len(),
+                names::FINDINGS
+            )),
+            Look::Plain,
+        );
+    }
+
+    let mut book = Book {
+        sheets: vec![summary, conditions, anova, pairs],
+    };
+    if any_contrast {
+        book.sheets.push(contrasts);
+    }
+    factorial::add_factorial_results(results, &mut book);
+    book.sheets.push(findings_sheet(&results.findings));
+    book.sheets.push(provenance_sheet(results));
+    book
+}
+
+/// The data-problems sheet: one row per finding with its place.
+pub fn findings_sheet(findings: &[workbook_io::layout::Finding]) -> Sheet {
+    let mut sheet = Sheet::new(names::FINDINGS);
+    sheet.widths = vec![(0, 18.0), (1, 20.0), (2, 22.0), (3, 34.0), (4, 90.0)];
+    sheet.frozen_rows = 1;
+    let rows: Vec<Vec<Value>> = findings
+        .iter()
+        .map(|finding| {
+            vec![
+                Value::text(finding.place()),
+                Value::text(
+                    serde_json::to_value(finding.kind)
+                        .ok()
+                        .and_then(|v| v.as_str().map(str::to_string))
+                        .unwrap_or_default(),
+                ),
+                Value::text(finding.found.clone()),
+                Value::text(finding.action.clone()),
+                Value::text(finding.message.clone()),
+            ]
+        })
+        .collect();
+    let next = sheet.table(0, 0, &["place", "kind", "found", "what was done", "explanation"], rows);
+    if findings.is_empty() {
+        sheet.put(next, 0, Value::text("No data problems were found."), Look::Note);
+    }
+    sheet
+}
+
+fn provenance_sheet(results: &WorkbookResults) -> Sheet {
+    let mut sheet = Sheet::new(names::PROVENANCE);
+    sheet.widths = vec![(0, 30.0), (1, 80.0)];
+    let mut rows: Vec<(String, String)> = vec![
+        ("source file".into(), results.source.file_name.clone()),
+        ("source path".into(), results.source.path.clone()),
+        ("source SHA-256".into(), results.source.sha256.clone()),
+        ("source size (bytes)".into(), results.source.bytes.to_string()),
+        ("format".into(), results.source.format.clone()),
+        ("sheet".into(), results.source.sheet.clone()),
+        ("range".into(), results.source.range.clone()),
+        ("layout".into(), format!("{:?}", results.table.layout).to_lowercase()),
+        ("records".into(), results.table.n_records.to_string()),
+    ];
+    for factor in &results.table.factors {
+        rows.push((
+            format!("{} '{}'", if factor.is_block { "block" } else { "factor" }, factor.name),
+            factor.levels.join(", "),
+        ));
+    }
+    rows.push(("responses".into(), results.table.responses.join(", ")));
+    rows.push(("confidence".into(), format!("{}", results.settings.confidence_level())));
+    for contrast in &results.settings.contrasts {
+        rows.push(("contrast".into(), contrast.clone()));
+    }
+    for (key, origin) in &results.settings_sources {
+        rows.push((format!("setting '{key}' from"), origin.clone()));
+    }
+    for response in &results.responses {
+        if let Some(fit) = response.fit() {
+            rows.push((
+                format!("arithmetic for '{}'", response.name),
+                if fit.exact_decimal {
+                    "exact decimal accumulation (every value had a short decimal form)".into()
+                } else {
+                    "compensated binary accumulation".into()
+                },
+            ));
+        }
+    }
+    rows.push(("tool".into(), format!("{} {}", results.tool, results.tool_version)));
+    rows.push(("results format".into(), results.format_version.to_string()));
+    rows.push(("created (UTC)".into(), results.created_at.clone()));
+    rows.push((
+        "time (ms): hash, read, layout, analysis".into(),
+        format!(
+            "{:.1}, {:.1}, {:.1}, {:.1}",
+            results.timings.hash_ms, results.timings.read_ms, results.timings.layout_ms, results.timings.analysis_ms
+        ),
+    ));
+    sheet.put(0, 0, Value::text("Where these results come from"), Look::Title);
+    let table_rows = rows
+        .into_iter()
+        .map(|(key, value)| vec![Value::text(key), Value::text(value)])
+        .collect();
+    let next = sheet.table(2, 0, &["item", "value"], table_rows);
+    sheet.put(
+        next + 1,
+        0,
+        Value::text("The source workbook was only read; it was not changed."),
+        Look::Note,
+    );
+    sheet
+}
+
+#[cfg(test)]
+mod tests {
+    use super::{readable_time, significant_format};
+    use workbook_io::write::NumberFormat;
+
+    #[test]
+    fn sums_of_squares_show_seven_significant_digits() {
+        assert_eq!(significant_format(0.179238166666667), NumberFormat::Decimals(7));
+        assert_eq!(significant_format(1234.5678), NumberFormat::Decimals(3));
+        assert_eq!(significant_format(-12.5), NumberFormat::Decimals(5));
+        assert_eq!(significant_format(2.5e12), NumberFormat::Scientific(6));
+        assert_eq!(significant_format(3e-9), NumberFormat::Scientific(6));
+        assert_eq!(significant_format(0.0), NumberFormat::General);
+    }
+
+    #[test]
+    fn times_are_shown_to_the_minute() {
+        assert_eq!(readable_time("2026-03-09T14:05:31.123456789Z"), "2026-03-09 14:05 UTC");
+        assert_eq!(readable_time("2026-03-09T14:05:31Z"), "2026-03-09 14:05 UTC");
+        // Not the expected shape: shown unchanged.
+        assert_eq!(readable_time("yesterday"), "yesterday");
+        assert_eq!(readable_time("2026-03-09T14:05:31+01:00"), "2026-03-09T14:05:31+01:00");
+    }
+}

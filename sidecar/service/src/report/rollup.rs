@@ -1,0 +1,264 @@
+//! The roll-up workbook of a batch: one row per workbook and response, with
+//! a link to each workbook's own results file, and a sheet that tallies and
+//! charts the verdicts.
+
+use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
+
+use crate::{ResponseResult, WorkbookResults};
+use engine::analysis::assessment::LeadAnalysis;
+
+/// Sheet names of the roll-up.
+pub mod names {
+    /// One row per workbook and response.
+    pub const ROWS: &str = "Week's trials";
+    /// The tally of verdicts, with its chart.
+    pub const VERDICTS: &str = "Verdicts";
+}
+
+/// Column headers of the rows sheet, in order.
+pub const HEADERS: &[&str] = &[
+    "Workbook",
+    "Response",
+    "Conditions",
+    "Runs (n)",
+    "Lead analysis",
+    "p (lead analysis)",
+    "Best condition(s)",
+    "Largest difference",
+    "Difference",
+    "Interval low",
+    "Interval high",
+    "Verdict",
+    "Findings",
+    "Results file",
+];
+
+/// Column widths (characters) of the rows sheet, narrow enough that a printed page in
+/// landscape stays legible; longer text wraps within its cell.
+const ROW_WIDTHS: [f64; 14] = [
+    24.0, 18.0, 22.0, 7.0, 18.0, 10.0, 16.0, 20.0, 10.0, 10.0, 10.0, 44.0, 8.0, 24.0,
+];
+
+/// The kinds of verdict tallied, in the order shown.
+pub const VERDICT_KINDS: &[&str] = &[
+    "conditions differ",
+    "no clear difference",
+    "undecided",
+    "response not analysed",
+    "workbook not analysed",
+];
+
+/// One workbook of the batch.
+pub struct RollupEntry<'a> {
+    /// The workbook's path as shown (relative to the batch where possible).
+    pub file: String,
+    /// The link to its results file, relative to the roll-up's folder.
+    pub results_link: Option<String>,
+    /// What came of it.
+    pub outcome: RollupOutcome<'a>,
+}
+
+/// What came of one workbook.
+pub enum RollupOutcome<'a> {
+    /// Analysed.
+    Analysed(&'a WorkbookResults),
+    /// Not analysed, with the reason on one line.
+    Failed(&'a str),
+}
+
+fn lead_label(lead: LeadAnalysis) -> &'static str {
+    match lead {
+        LeadAnalysis::OneWay => "one-way ANOVA, Tukey-Kramer pairs",
+        LeadAnalysis::UnequalSpreads => "Welch's ANOVA, Games-Howell pairs",
+        LeadAnalysis::RankBased => "Kruskal-Wallis ranks, Dunn pairs",
+    }
+}
+
+/// The kind of verdict of one response (an index into [`VERDICT_KINDS`]).
+pub fn verdict_kind(response: &ResponseResult) -> usize {
+    match (&response.verdict, response.fit()) {
+        (_, None) => 3,
+        (Some(verdict), Some(_)) => match verdict.conditions_differ {
+            Some(true) => 0,
+            Some(false) => 1,
+            None => 2,
+        },
+        (None, Some(_)) => 2,
+    }
+}
+
+fn clip(text: String, most: usize) -> String {
+    if text.chars().count() <= most {
+        text
+    } else {
+        let mut clipped: String = text.chars().take(most.saturating_sub(1)).collect();
+        clipped.push('…');
+        clipped
+    }
+}
+
+fn response_row(entry: &RollupEntry<'_>, response: &ResponseResult, findings: usize) -> Vec<Value> {
+    let link = match &entry.results_link {
+        Some(target) => Value::Link {
+            target: format!("file:///{target}"),
+            text: target.clone(),
+        },
+        None => Value::Blank,
+    };
+    let Some(fit) = response.fit() else {
+        let reason = match &response.outcome {
+            crate::ResponseOutcome::NotAnalysed { reason } => reason.clone(),
+            crate::ResponseOutcome::Analysed { .. } => String::new(),
+        };
+        let mut row = vec![Value::text(entry.file.clone()), Value::text(response.name.clone())];
+        row.extend(std::iter::repeat_n(Value::Blank, 9));
+        row.push(Value::text(clip(format!("not analysed: {reason}"), 500)));
+        row.push(Value::integer(findings as f64));
+        row.push(link);
+        return row;
+    };
+    let conditions = clip(
+        fit.conditions
+            .iter()
+            .map(|condition| condition.name.as_str())
+            .collect::<Vec<_>>()
+            .join(", "),
+        300,
+    );
+    let assessment = response.assessment.as_deref();
+    let lead = assessment.map_or(LeadAnalysis::OneWay, |assessment| assessment.lead);
+    let lead_p = match (lead, assessment) {
+        (LeadAnalysis::UnequalSpreads, Some(assessment)) => assessment.welch.as_ref().map(|welch| welch.p),
+        (LeadAnalysis::RankBased, Some(assessment)) => assessment.rank_based.as_ref().map(|ranks| ranks.p),
+        _ => fit.between().p,
+    };
+    let best = assessment
+        .and_then(|assessment| assessment.best.as_ref())
+        .map(|best| best.could_be_best.join(", "))
+        .unwrap_or_else(|| "(set a direction to choose)".into());
+    let family = assessment.and_then(|assessment| match lead {
+        LeadAnalysis::UnequalSpreads => assessment.games_howell.as_ref(),
+        _ => assessment.tukey_kramer.as_ref(),
+    });
+    let largest = family.and_then(|family| {
+        family
+            .pairs
+            .iter()
+            .filter(|pair| pair.difference.is_finite())
+            .max_by(|a, b| a.difference.abs().total_cmp(&b.difference.abs()))
+    });
+    // As many decimals as the results workbook shows for this response.
+    let places = super::decimals_for(fit);
+    let (pair_text, difference, low, high) = match largest {
+        Some(pair) => (
+            Value::text(format!("{} minus {}", pair.first, pair.second)),
+            Value::Number(pair.difference, NumberFormat::Decimals(places)),
+            Value::Number(pair.low, NumberFormat::Decimals(places)),
+            Value::Number(pair.high, NumberFormat::Decimals(places)),
+        ),
+        None => (Value::Blank, Value::Blank, Value::Blank, Value::Blank),
+    };
+    vec![
+        Value::text(entry.file.clone()),
+        Value::text(response.name.clone()),
+        Value::text(conditions),
+        Value::integer(fit.n_total as f64),
+        Value::text(lead_label(lead)),
+        lead_p.map_or(Value::Blank, Value::p_value),
+        Value::text(best),
+        pair_text,
+        difference,
+        low,
+        high,
+        Value::text(
+            response
+                .verdict
+                .as_ref()
+                .map(|verdict| verdict.headline.clone())
+                .unwrap_or_default(),
+        ),
+        Value::integer(findings as f64),
+        link,
+    ]
+}
+
+/// Builds the roll-up workbook of a batch.
+pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book {
+    let mut rows_sheet = Sheet::new(names::ROWS);
+    rows_sheet.widths = ROW_WIDTHS
+        .iter()
+        .enumerate()
+        .map(|(col, &width)| (col as u16, width))
+        .collect();
+    rows_sheet.frozen_rows = 1;
+    let mut tally = [0usize; 5];
+    let mut rows = Vec::new();
+    for entry in entries {
+        match &entry.outcome {
+            RollupOutcome::Analysed(results) => {
+                for response in &results.responses {
+                    tally[verdict_kind(response)] += 1;
+                    rows.push(response_row(entry, response, results.findings.len()));
+                }
+            }
+            RollupOutcome::Failed(reason) => {
+                tally[4] += 1;
+                let mut row = vec![Value::text(entry.file.clone())];
+                row.extend(std::iter::repeat_n(Value::Blank, 10));
+                row.push(Value::text(clip(format!("not analysed: {reason}"), 500)));
+                row.push(Value::Blank);
+                row.push(match &entry.results_link {
+                    Some(target) => Value::Link {
+                        target: format!("file:///{target}"),
+                        text: target.clone(),
+                    },
+                    None => Value::Blank,
+                });
+                rows.push(row);
+            }
+        }
+    }
+    rows_sheet.wrapped_table(0, 0, HEADERS, rows, &ROW_WIDTHS);
+
+    let mut verdicts = Sheet::new(names::VERDICTS);
+    verdicts.widths = vec![(0, 30.0), (1, 12.0)];
+    verdicts.put(0, 0, Value::text("Verdicts of the batch"), Look::Title);
+    verdicts.paragraph(
+        1,
+        0,
+        format!(
+            "{} workbook(s), made {}. One count per workbook and response; a workbook that could not be read counts once.",
+            entries.len(),
+            super::readable_time(created_at)
+        ),
+        Look::Note,
+        30.0,
+    );
+    let tally_rows: Vec<Vec<Value>> = VERDICT_KINDS
+        .iter()
+        .zip(tally)
+        .map(|(kind, count)| vec![Value::text(*kind), Value::integer(count as f64)])
+        .collect();
+    let first = 4u32;
+    verdicts.table(first - 1, 0, &["Verdict", "Count"], tally_rows);
+    let last = first + VERDICT_KINDS.len() as u32 - 1;
+    verdicts.charts.push(ChartSpec {
+        kind: ChartKind::Columns,
+        title: "Verdicts of the batch".into(),
+        x_title: "Verdict".into(),
+        y_title: "Count".into(),
+        series: vec![Series {
+            name: "Count".into(),
+            categories: SheetRange::column(names::VERDICTS, 0, first, last),
+            values: SheetRange::column(names::VERDICTS, 1, first, last),
+            bar_plus: None,
+            bar_minus: None,
+            labels: None,
+        }],
+        anchor: (1, 3),
+        size: (560, 320),
+    });
+    Book {
+        sheets: vec![rows_sheet, verdicts],
+    }
+}

@@ -1,0 +1,164 @@
+//! Claims: how watchers on one shared folder keep out of each other's way.
+//!
+//! Before analysing a workbook a watcher creates
+//! `.trialyst/claims/<key>.claim` with an exclusive create (`create_new`,
+//! `O_EXCL`); the key is a digest of the workbook's path within the folder,
+//! so one workbook has one claim whatever its content. The file records the
+//! host, process and time. Whoever creates it analyses; the others pass the
+//! workbook over and look again later. The claim is removed when the work is
+//! done. A claim older than the expiry is taken to be left by a watcher that
+//! died: it is moved aside under a unique name (a rename, so only one
+//! watcher wins the take-over), checked to be still the stale one, and
+//! replaced.
+//!
+//! What this promises rests on the file system honouring exclusive create
+//! and rename, as local disks and SMB and NFSv3+ shares do.
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::time::Duration;
+
+use sha2::{Digest, Sha256};
+
+/// The claims folder inside the hidden folder.
+pub const CLAIMS_FOLDER: &str = "claims";
+
+/// A claim held by this process; removed when dropped.
+#[derive(Debug)]
+pub struct Claim {
+    path: PathBuf,
+    record: String,
+}
+
+impl Drop for Claim {
+    fn drop(&mut self) {
+        // Only while it is still ours: a claim taken over after expiry is left alone.
+        if std::fs::read_to_string(&self.path).is_ok_and(|text| text == self.record) {
+            let _ = std::fs::remove_file(&self.path);
+        }
+    }
+}
+
+/// The outcome of trying to claim a workbook.
+#[derive(Debug)]
+pub enum ClaimAttempt {
+    /// Ours.
+    Mine(Claim),
+    /// Another watcher holds it; the text says who.
+    Held(String),
+}
+
+/// This machine's name.
+pub fn host_name() -> String {
+    let mut buffer = [0u8; 256];
+    // SAFETY: the buffer is valid for its length; gethostname writes at most that.
+    let status = unsafe { libc::gethostname(buffer.as_mut_ptr().cast(), buffer.len()) };
+    if status != 0 {
+        return "unknown host".into();
+    }
+    let end = buffer.iter().position(|byte| *byte == 0).unwrap_or(buffer.len());
+    String::from_utf8_lossy(&buffer[..end]).into_owned()
+}
+
+/// The claim key of a workbook's path within the watched folder.
+pub fn claim_key(relative: &str) -> String {
+    let digest = Sha256::digest(relative.as_bytes());
+    digest.iter().take(12).map(|byte| format!("{byte:02x}")).collect()
+}
+
+fn age_of(path: &Path) -> Option<Duration> {
+    std::fs::metadata(path).ok()?.modified().ok()?.elapsed().ok()
+}
+
+/// Tries to claim the workbook at `relative` (its path in the folder).
+///
+/// # Errors
+///
+/// When the claims folder cannot be used.
+pub fn try_claim(state_folder: &Path, relative: &str, expiry: Duration) -> std::io::Result<ClaimAttempt> {
+    let folder = state_folder.join(CLAIMS_FOLDER);
+    std::fs::create_dir_all(&folder)?;
+    let path = folder.join(format!("{}.claim", claim_key(relative)));
+    for _ in 0..3 {
+        match std::fs::OpenOptions::new().write(true).create_new(true).open(&path) {
+            Ok(mut file) => {
+                let record = serde_json::json!({
+                    "file": relative,
+                    "host": host_name(),
+                    "pid": std::process::id(),
+                    "since": service::now_rfc3339(),
+                });
+                let record = format!("{record}\n");
+                file.write_all(record.as_bytes())?;
+                let _ = file.sync_all();
+                return Ok(ClaimAttempt::Mine(Claim { path, record }));
+            }
+            Err(error) if error.kind() == std::io::ErrorKind::AlreadyExists => {
+                let holder = std::fs::read_to_string(&path)
+                    .ok()
+                    .and_then(|text| serde_json::from_str::<serde_json::Value>(&text).ok())
+                    .map(|record| {
+                        format!(
+                            "{} (process {}, since {})",
+                            record["host"].as_str().unwrap_or("?"),
+                            record["pid"],
+                            record["since"].as_str().unwrap_or("?")
+                        )
+                    })
+                    .unwrap_or_else(|| "another watcher".into());
+                match age_of(&path) {
+                    Some(age) if age > expiry => {
+                        // Take the stale claim over: only one watcher's rename succeeds.
+                        let aside = folder.join(format!(
+                            "{}.expired-{}-{}",
+                            claim_key(relative),
+                            host_name(),
+                            std::process::id()
+                        ));
+                        if std::fs::rename(&path, &aside).is_ok() {
+                            let still_stale = age_of(&aside).is_some_and(|age| age > expiry);
+                            if !still_stale {
+                                // A fresh claim was moved by mistake: put it back if nobody took the name.
+                                let _ = std::fs::hard_link(&aside, &path);
+                            }
+                            let _ = std::fs::remove_file(&aside);
+                        }
+                    }
+                    None => {} // vanished meanwhile: try again
+                    Some(_) => return Ok(ClaimAttempt::Held(holder)),
+                }
+            }
+            Err(error) => return Err(error),
+        }
+    }
+    Ok(ClaimAttempt::Held("another watcher".into()))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn one_claim_at_a_time_and_stale_claims_expire() {
+        let folder = tempfile::tempdir().expect("a temporary folder");
+        let first = try_claim(folder.path(), "a.xlsx", Duration::from_secs(600)).expect("usable");
+        let ClaimAttempt::Mine(claim) = first else {
+            panic!("the first claim should be ours")
+        };
+        match try_claim(folder.path(), "a.xlsx", Duration::from_secs(600)).expect("usable") {
+            ClaimAttempt::Held(who) => assert!(who.contains("process"), "{who}"),
+            ClaimAttempt::Mine(_) => panic!("a second claim must be refused"),
+        }
+        assert!(matches!(
+            try_claim(folder.path(), "b.xlsx", Duration::from_secs(600)).expect("usable"),
+            ClaimAttempt::Mine(_)
+        ));
+        // With a zero expiry the existing claim counts as abandoned and is taken over.
+        std::thread::sleep(Duration::from_millis(20));
+        assert!(matches!(
+            try_claim(folder.path(), "a.xlsx", Duration::ZERO).expect("usable"),
+            ClaimAttempt::Mine(_)
+        ));
+        drop(claim);
+    }
+}

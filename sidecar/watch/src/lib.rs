@@ -1,0 +1,769 @@
+//! `trialyst watch DIR`: results beside each workbook dropped into a folder.
+//!
+//! - Events: notify 8 with notify-debouncer-full. A workbook is taken up on
+//!   close-after-write and on rename-into-place (the create event fires
+//!   while the file is still being written). With `--poll SECONDS` (network
+//!   shares, where inotify sees nothing written by other hosts) the folder
+//!   is listed every SECONDS and a file is taken up once its size and
+//!   modification time are unchanged across two listings.
+//! - Once per content: `.trialyst/state.json` keeps the SHA-256 of what was
+//!   analysed ([`state`]); on start the folder is listed and whatever
+//!   arrived or changed while the watcher was down is analysed.
+//! - Isolation: each workbook is read in a child process with memory and
+//!   time limits ([`worker`]); a crash becomes a problems workbook.
+//! - Many machines: a claim file per workbook ([`claim`]).
+//! - SIGINT/SIGTERM: the current worker is stopped, its temporary file
+//!   removed, and the watcher exits 0; the workbook is taken up again on
+//!   the next start.
+
+pub mod claim;
+pub mod log;
+pub mod state;
+pub mod worker;
+
+use std::collections::{BTreeMap, HashMap};
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::mpsc::{Receiver, RecvTimeoutError};
+use std::sync::Arc;
+use std::time::{Duration, Instant, SystemTime};
+
+use notify::event::{AccessKind, AccessMode, ModifyKind, RenameMode};
+use notify::{EventKind, RecursiveMode};
+use notify_debouncer_full::{new_debouncer, DebounceEventResult};
+
+use claim::{try_claim, ClaimAttempt};
+use log::Log;
+use service::folder_settings::{parse_folder_settings, FOLDER_SETTINGS_FILE};
+use service::settings::Settings;
+use service::{FailureReport, Problem};
+use state::{nanos, Entry, State, StateStore, STATE_FOLDER};
+pub use worker::WorkerLimits;
+use worker::{run_worker, worker_arguments, WorkerMessage, WorkerOutcome, WorkerRequest};
+
+/// How long the debouncer waits after a file's last event.
+pub const DEBOUNCE: Duration = Duration::from_millis(100);
+/// A file whose reading fails as if cut short is tried again while it is younger than this.
+pub const SETTLE: Duration = Duration::from_secs(2);
+/// Most attempts at a workbook that still looks incomplete.
+const MAX_ATTEMPTS: u32 = 6;
+/// How soon a workbook claimed by another watcher is looked at again.
+const HELD_RECHECK: Duration = Duration::from_secs(2);
+
+/// What the watcher needs to start: the folder and how to treat it.
+#[derive(Debug, Clone)]
+pub struct WatchOptions {
+    /// The folder to watch.
+    pub folder: PathBuf,
+    /// Watch sub-folders too.
+    pub recursive: bool,
+    /// List the folder every so often instead of listening for changes.
+    pub poll: Option<Duration>,
+    /// A file to append the log lines to, beside standard error.
+    pub log: Option<PathBuf>,
+    /// The folder for results given on the command line (else the `output
+    /// folder` setting, else beside each original).
+    pub out_dir: Option<PathBuf>,
+    /// Limits of each worker.
+    pub limits: WorkerLimits,
+    /// Age after which another watcher's claim counts as abandoned.
+    pub claim_expiry: Duration,
+    /// Settings given by the caller, applied to every workbook.
+    pub settings: Settings,
+    /// The program whose hidden worker command analyses one workbook.
+    pub program: PathBuf,
+}
+
+/// Why the watcher could not start, or stopped other than when asked.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum WatchError {
+    /// The options or the folder cannot be used (the command line's usage error).
+    #[error("{0}")]
+    CannotStart(String),
+    /// The watcher stopped on an error after it had started.
+    #[error("{0}")]
+    Stopped(String),
+}
+
+/// Watches a folder until SIGINT or SIGTERM: every workbook that arrives or
+/// changes is analysed once per content, in a worker process.
+///
+/// # Errors
+///
+/// [`WatchError::CannotStart`] when the folder, the folder settings file,
+/// the log file or the state folder cannot be used; [`WatchError::Stopped`]
+/// when watching failed after the start.
+pub fn watch(options: WatchOptions) -> Result<(), WatchError> {
+    let cannot = |message: String| Err(WatchError::CannotStart(message));
+    if !options.folder.is_dir() {
+        return cannot(format!("'{}' is not a folder", options.folder.display()));
+    }
+    let folder = std::path::absolute(&options.folder).unwrap_or_else(|_| options.folder.clone());
+    let folder_file = FolderFile::new(&folder);
+    if let Err(message) = folder_file.check() {
+        return cannot(message);
+    }
+    let log = match Log::open(options.log.as_deref()) {
+        Ok(log) => log,
+        Err(error) => return cannot(format!("cannot open the log file: {error}")),
+    };
+    let store = match StateStore::open(&folder) {
+        Ok(store) => store,
+        Err(error) => {
+            return cannot(format!(
+                "cannot make the folder '{}' for the watcher's state: {error}",
+                folder.join(STATE_FOLDER).display()
+            ))
+        }
+    };
+    let stop = Arc::new(AtomicBool::new(false));
+    for signal in [signal_hook::consts::SIGINT, signal_hook::consts::SIGTERM] {
+        if let Err(error) = signal_hook::flag::register(signal, Arc::clone(&stop)) {
+            return cannot(format!("cannot listen for signals: {error}"));
+        }
+    }
+    let mut watcher = Watcher {
+        out_dir: options
+            .out_dir
+            .as_ref()
+            .map(|dir| std::path::absolute(dir).unwrap_or_else(|_| dir.clone())),
+        folder,
+        recursive: options.recursive,
+        settings: options.settings,
+        limits: options.limits,
+        claim_expiry: options.claim_expiry,
+        program: options.program,
+        store,
+        state: State::default(),
+        folder_file,
+        log,
+        stop,
+        pending: BTreeMap::new(),
+    };
+    watcher.state = watcher.store.load();
+    let result = match options.poll {
+        Some(interval) => watcher.run_polling(interval),
+        None => watcher.run_listening(),
+    };
+    match result {
+        Ok(()) => {
+            watcher.log.event("stopped", "", "asked to stop; exiting");
+            Ok(())
+        }
+        Err(message) => {
+            watcher.log.event("stopped", "", &message);
+            Err(WatchError::Stopped(message))
+        }
+    }
+}
+
+/// The folder settings file, re-read when it changes.
+struct FolderFile {
+    path: PathBuf,
+    seen: Option<(u64, u64)>,
+    settings: Result<Option<Settings>, String>,
+}
+
+impl FolderFile {
+    fn new(folder: &Path) -> Self {
+        let mut file = Self {
+            path: folder.join(FOLDER_SETTINGS_FILE),
+            seen: None,
+            settings: Ok(None),
+        };
+        file.refresh();
+        file
+    }
+
+    fn stamp(&self) -> Option<(u64, u64)> {
+        let meta = std::fs::metadata(&self.path).ok()?;
+        Some((meta.len(), meta.modified().map(nanos).unwrap_or(0)))
+    }
+
+    /// Re-reads the file if it changed; true when it did.
+    fn refresh(&mut self) -> bool {
+        let stamp = self.stamp();
+        if stamp == self.seen && self.seen.is_some() {
+            return false;
+        }
+        let changed = stamp != self.seen;
+        self.seen = stamp;
+        self.settings = match stamp {
+            None => Ok(None),
+            Some(_) => match std::fs::read_to_string(&self.path) {
+                Ok(text) => parse_folder_settings(&text, &self.path.display().to_string())
+                    .map(Some)
+                    .map_err(|error| error.to_string()),
+                Err(error) => Err(format!("cannot read '{}': {error}", self.path.display())),
+            },
+        };
+        changed
+    }
+
+    fn check(&self) -> Result<(), String> {
+        self.settings.as_ref().map(|_| ()).map_err(Clone::clone)
+    }
+
+    fn current(&self) -> Option<&Settings> {
+        self.settings.as_ref().ok().and_then(Option::as_ref)
+    }
+}
+
+#[derive(Debug, Clone, Copy)]
+struct Pending {
+    due: Instant,
+    attempts: u32,
+}
+
+struct Watcher {
+    folder: PathBuf,
+    recursive: bool,
+    out_dir: Option<PathBuf>,
+    settings: Settings,
+    limits: WorkerLimits,
+    claim_expiry: Duration,
+    program: PathBuf,
+    store: StateStore,
+    state: State,
+    folder_file: FolderFile,
+    log: Log,
+    stop: Arc<AtomicBool>,
+    pending: BTreeMap<PathBuf, Pending>,
+}
+
+/// Size and modification time, the poll's stability check.
+type Stamp = (u64, u64);
+
+fn stamp_of(path: &Path) -> Option<Stamp> {
+    let meta = std::fs::metadata(path).ok()?;
+    meta.is_file()
+        .then(|| (meta.len(), meta.modified().map(nanos).unwrap_or(0)))
+}
+
+impl Watcher {
+    fn stopping(&self) -> bool {
+        self.stop.load(Ordering::SeqCst)
+    }
+
+    /// The path relative to the watched folder, with `/`; `None` for paths
+    /// outside it or inside a hidden folder.
+    fn relative(&self, path: &Path) -> Option<String> {
+        let inside = path.strip_prefix(&self.folder).ok()?;
+        let parts: Vec<String> = inside
+            .components()
+            .map(|part| part.as_os_str().to_string_lossy().into_owned())
+            .collect();
+        if parts.is_empty() || (!self.recursive && parts.len() > 1) {
+            return None;
+        }
+        if parts[..parts.len() - 1].iter().any(|part| part.starts_with('.')) {
+            return None;
+        }
+        Some(parts.join("/"))
+    }
+
+    /// True for a file the watcher analyses.
+    fn is_candidate(&self, path: &Path) -> bool {
+        let name = path
+            .file_name()
+            .map(|name| name.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        self.relative(path).is_some() && service::has_workbook_extension(&name) && !service::is_ignored_file_name(&name)
+    }
+
+    fn is_folder_file(&self, path: &Path) -> bool {
+        path == self.folder_file.path
+    }
+
+    fn listing(&self) -> Vec<PathBuf> {
+        let (found, _) = service::collect_workbooks(std::slice::from_ref(&self.folder), self.recursive);
+        found.into_iter().filter(|path| self.is_candidate(path)).collect()
+    }
+
+    fn queue(&mut self, path: PathBuf, due: Instant) {
+        let attempts = self.pending.get(&path).map_or(0, |pending| pending.attempts);
+        self.pending.insert(path, Pending { due, attempts });
+    }
+
+    fn catch_up(&mut self, why: &str) {
+        let listing = self.listing();
+        self.log.event(
+            "catching up",
+            "",
+            &format!("{} workbook(s) in the folder ({why})", listing.len()),
+        );
+        let now = Instant::now();
+        for path in listing {
+            self.queue(path, now);
+        }
+    }
+
+    fn settings_changed(&mut self) {
+        if self.folder_file.refresh() {
+            match self.folder_file.check() {
+                Ok(()) => {
+                    self.log.event(
+                        "settings",
+                        FOLDER_SETTINGS_FILE,
+                        "folder settings read; they apply to workbooks analysed from now on",
+                    );
+                    // Workbooks held back by a bad file are taken up now.
+                    self.catch_up("the folder settings changed");
+                }
+                Err(message) => self.log.event("problem", FOLDER_SETTINGS_FILE, &message),
+            }
+        }
+    }
+
+    fn run_listening(&mut self) -> Result<(), String> {
+        let (sender, receiver) = std::sync::mpsc::channel::<DebounceEventResult>();
+        let mut debouncer = new_debouncer(DEBOUNCE, None, sender)
+            .map_err(|error| format!("cannot watch '{}': {error}", self.folder.display()))?;
+        let mode = if self.recursive {
+            RecursiveMode::Recursive
+        } else {
+            RecursiveMode::NonRecursive
+        };
+        debouncer
+            .watch(&self.folder, mode)
+            .map_err(|error| format!("cannot watch '{}': {error}", self.folder.display()))?;
+        self.log.event(
+            "watching",
+            &self.folder.display().to_string(),
+            if self.recursive {
+                "with sub-folders, listening for closed and renamed files"
+            } else {
+                "listening for closed and renamed files"
+            },
+        );
+        self.catch_up("start");
+        while !self.stopping() {
+            self.receive(&receiver);
+            self.process_due();
+        }
+        drop(debouncer);
+        Ok(())
+    }
+
+    fn receive(&mut self, receiver: &Receiver<DebounceEventResult>) {
+        let wait = self
+            .pending
+            .values()
+            .map(|pending| pending.due.saturating_duration_since(Instant::now()))
+            .min()
+            .unwrap_or(Duration::from_millis(50))
+            .min(Duration::from_millis(50));
+        let mut batch = match receiver.recv_timeout(wait) {
+            Ok(batch) => vec![batch],
+            Err(RecvTimeoutError::Timeout) => return,
+            Err(RecvTimeoutError::Disconnected) => {
+                self.stop.store(true, Ordering::SeqCst);
+                return;
+            }
+        };
+        while let Ok(more) = receiver.try_recv() {
+            batch.push(more);
+        }
+        let mut received: Vec<PathBuf> = Vec::new();
+        let mut rescan = false;
+        let mut settings = false;
+        for result in batch {
+            match result {
+                Ok(events) => {
+                    for event in events {
+                        if event.need_rescan() {
+                            rescan = true;
+                            continue;
+                        }
+                        let target = match event.kind {
+                            EventKind::Access(AccessKind::Close(AccessMode::Write))
+                            | EventKind::Modify(ModifyKind::Name(RenameMode::To))
+                            | EventKind::Modify(ModifyKind::Name(RenameMode::Both))
+                            | EventKind::Modify(ModifyKind::Name(RenameMode::Any)) => event.paths.last().cloned(),
+                            _ => None,
+                        };
+                        let Some(path) = target else { continue };
+                        if self.is_folder_file(&path) {
+                            settings = true;
+                        } else if self.is_candidate(&path) && path.is_file() && !received.contains(&path) {
+                            received.push(path);
+                        }
+                    }
+                }
+                Err(errors) => {
+                    for error in errors {
+                        self.log.event("watch error", "", &error.to_string());
+                    }
+                    rescan = true;
+                }
+            }
+        }
+        if settings {
+            self.settings_changed();
+        }
+        let now = Instant::now();
+        for path in received {
+            let shown = self.relative(&path).unwrap_or_default();
+            self.log.event("received", &shown, "");
+            self.queue(path, now);
+        }
+        if rescan {
+            self.catch_up("the change notices overflowed");
+        }
+    }
+
+    fn run_polling(&mut self, every: Duration) -> Result<(), String> {
+        self.log.event(
+            "watching",
+            &self.folder.display().to_string(),
+            &format!(
+                "listing the folder every {} s; a file is taken up when its size and time are unchanged across two listings",
+                every.as_secs_f64()
+            ),
+        );
+        let mut previous: Option<HashMap<PathBuf, Stamp>> = None;
+        // Files taken up in this session at a given stamp, so that one whose
+        // outcome leaves no new state (skipped, held back) is not taken up
+        // at every listing.
+        let mut handled: HashMap<PathBuf, Stamp> = HashMap::new();
+        let mut next = Instant::now();
+        while !self.stopping() {
+            if Instant::now() >= next {
+                next += every;
+                self.settings_changed();
+                let mut current = HashMap::new();
+                for path in self.listing() {
+                    if let Some(stamp) = stamp_of(&path) {
+                        current.insert(path, stamp);
+                    }
+                }
+                match &previous {
+                    None => self.log.event(
+                        "catching up",
+                        "",
+                        &format!(
+                            "{} workbook(s) in the folder (start); each is taken up once a second listing finds it unchanged",
+                            current.len()
+                        ),
+                    ),
+                    Some(previous) => {
+                        let now = Instant::now();
+                        let mut stable: Vec<PathBuf> = current
+                            .iter()
+                            .filter(|(path, stamp)| {
+                                previous.get(*path) == Some(*stamp)
+                                    && handled.get(*path) != Some(*stamp)
+                                    && !self.pending.contains_key(*path)
+                            })
+                            .map(|(path, _)| path.clone())
+                            .collect();
+                        stable.sort();
+                        for path in stable {
+                            let stamp = current[&path];
+                            handled.insert(path.clone(), stamp);
+                            let relative = self.relative(&path).unwrap_or_default();
+                            let known = self
+                                .state
+                                .files
+                                .get(&relative)
+                                .is_some_and(|entry| entry.bytes == stamp.0 && entry.modified_ns == stamp.1);
+                            if known {
+                                continue;
+                            }
+                            self.log.event("received", &relative, "");
+                            self.queue(path, now);
+                        }
+                    }
+                }
+                handled.retain(|path, _| current.contains_key(path));
+                previous = Some(current);
+            }
+            self.process_due();
+            let wait = next
+                .saturating_duration_since(Instant::now())
+                .min(Duration::from_millis(50));
+            std::thread::sleep(wait);
+        }
+        Ok(())
+    }
+
+    fn process_due(&mut self) {
+        loop {
+            if self.stopping() {
+                return;
+            }
+            let now = Instant::now();
+            let Some(path) = self
+                .pending
+                .iter()
+                .filter(|(_, pending)| pending.due <= now)
+                .min_by_key(|(_, pending)| pending.due)
+                .map(|(path, _)| path.clone())
+            else {
+                return;
+            };
+            let Some(pending) = self.pending.remove(&path) else {
+                return;
+            };
+            self.process(&path, pending.attempts);
+        }
+    }
+
+    fn retry(&mut self, path: &Path, attempts: u32, after: Duration) {
+        self.pending.insert(
+            path.to_path_buf(),
+            Pending {
+                due: Instant::now() + after,
+                attempts: attempts + 1,
+            },
+        );
+    }
+
+    fn output_folder(&self, path: &Path) -> Option<PathBuf> {
+        let settings = self.folder_file.current().cloned().unwrap_or_default();
+        service::output_folder_for(path, self.out_dir.as_deref(), &settings)
+    }
+
+    fn process(&mut self, path: &Path, attempts: u32) {
+        let Some(relative) = self.relative(path) else { return };
+        let Some(before) = stamp_of(path) else { return };
+        let (sha256, bytes) = match service::sha256_file(path) {
+            Ok(found) => found,
+            Err(error) => {
+                if path.exists() && attempts < MAX_ATTEMPTS {
+                    self.log
+                        .event("retrying", &relative, &format!("cannot read it yet ({error})"));
+                    self.retry(path, attempts, Duration::from_millis(500));
+                }
+                return;
+            }
+        };
+        if stamp_of(path) != Some(before) {
+            self.retry(path, attempts.saturating_sub(1), Duration::from_millis(300));
+            return;
+        }
+        if self.skip_if_done(&relative, &sha256) {
+            return;
+        }
+        if let Err(message) = self.folder_file.check() {
+            self.log.event(
+                "problem",
+                &relative,
+                &format!("held back until the folder settings file is fixed: {message}"),
+            );
+            return;
+        }
+        let claim = match try_claim(self.store.folder(), &relative, self.claim_expiry) {
+            Ok(ClaimAttempt::Mine(claim)) => claim,
+            Ok(ClaimAttempt::Held(holder)) => {
+                self.log
+                    .event("skipped", &relative, &format!("being analysed by {holder}"));
+                self.retry(path, attempts.saturating_sub(1), HELD_RECHECK);
+                return;
+            }
+            Err(error) => {
+                self.log
+                    .event("problem", &relative, &format!("cannot claim it: {error}"));
+                self.retry(path, attempts, Duration::from_secs(5));
+                return;
+            }
+        };
+        // Another watcher may have finished it while we looked.
+        self.state = self.store.load();
+        if self.skip_if_done(&relative, &sha256) {
+            return;
+        }
+        let folder_settings = self
+            .folder_file
+            .current()
+            .is_some()
+            .then(|| self.folder_file.path.clone());
+        let args = worker_arguments(&WorkerRequest {
+            file: path.to_path_buf(),
+            out_dir: self.out_dir.clone(),
+            folder_settings: folder_settings.clone(),
+            settings: self.settings.clone(),
+        });
+        let outcome = run_worker(&self.program, &args, self.limits, &self.stop);
+        let folder = self.folder.clone();
+        let record = |outcome: &str, output: &Path| Entry {
+            sha256: sha256.clone(),
+            bytes,
+            modified_ns: before.1,
+            outcome: outcome.to_string(),
+            at: service::now_rfc3339(),
+            // Relative to the watched folder when inside it, so that watchers
+            // that mount the share at different places agree.
+            output: output
+                .strip_prefix(&folder)
+                .map(|inside| inside.to_string_lossy().replace('\\', "/"))
+                .unwrap_or_else(|_| output.display().to_string()),
+        };
+        match outcome {
+            WorkerOutcome::Answered(WorkerMessage::Analysed {
+                results_file,
+                verdicts,
+                findings,
+            }) => {
+                let results_file = PathBuf::from(results_file);
+                let stale = service::problems_path_for(path, results_file.parent());
+                let _ = std::fs::remove_file(stale);
+                self.remember(&relative, record("analysed", &results_file));
+                self.log.event(
+                    "analysed",
+                    &relative,
+                    &format!(
+                        "{} finding(s) -> {}; {}",
+                        findings,
+                        self.shown(&results_file),
+                        verdicts.join("; ")
+                    ),
+                );
+            }
+            WorkerOutcome::Answered(WorkerMessage::Failed { report, problems_file }) => {
+                let young = std::fs::metadata(path)
+                    .and_then(|meta| meta.modified())
+                    .ok()
+                    .and_then(|modified| SystemTime::now().duration_since(modified).ok())
+                    .is_none_or(|age| age < SETTLE);
+                let changed = stamp_of(path) != Some(before);
+                if report.maybe_incomplete && (young || changed) && attempts < MAX_ATTEMPTS {
+                    self.log.event(
+                        "retrying",
+                        &relative,
+                        &format!("not readable yet, perhaps still being copied: {}", report.message),
+                    );
+                    drop(claim);
+                    self.retry(
+                        path,
+                        attempts,
+                        if changed {
+                            Duration::from_millis(300)
+                        } else {
+                            SETTLE / 2
+                        },
+                    );
+                    return;
+                }
+                self.write_problems(path, &relative, &report, Path::new(&problems_file), record);
+            }
+            WorkerOutcome::Answered(WorkerMessage::Writing { .. }) => {}
+            WorkerOutcome::Crashed(detail) => {
+                let report = unsafe_file_report(&format!(
+                    "the workbook could not be read safely: {detail}; the reader runs with {} MiB of memory",
+                    self.limits.memory_bytes / (1024 * 1024)
+                ));
+                let destination = service::problems_path_for(path, self.output_folder(path).as_deref());
+                self.write_problems(path, &relative, &report, &destination, record);
+            }
+            WorkerOutcome::TimedOut => {
+                let report = unsafe_file_report(&format!(
+                    "the workbook could not be read within the time limit of {} s",
+                    self.limits.time.as_secs_f64()
+                ));
+                let destination = service::problems_path_for(path, self.output_folder(path).as_deref());
+                self.write_problems(path, &relative, &report, &destination, record);
+            }
+            WorkerOutcome::Stopped => {
+                self.log.event(
+                    "stopped",
+                    &relative,
+                    "abandoned; no results written; it will be analysed on the next start",
+                );
+            }
+        }
+        drop(claim);
+    }
+
+    /// True when `entry` records this content as handled and its output is still there
+    /// (a deleted results or problems file asks for the workbook to be analysed again).
+    /// Whether `relative` with this content was analysed already (logged as skipped).
+    fn skip_if_done(&self, relative: &str, sha256: &str) -> bool {
+        let done = self
+            .state
+            .files
+            .get(relative)
+            .is_some_and(|entry| self.done(entry, sha256));
+        if done {
+            self.log.event("skipped", relative, "unchanged since it was analysed");
+        }
+        done
+    }
+
+    fn done(&self, entry: &Entry, sha256: &str) -> bool {
+        entry.sha256 == sha256 && (entry.output.is_empty() || self.folder.join(&entry.output).exists())
+    }
+
+    fn shown(&self, path: &Path) -> String {
+        path.strip_prefix(&self.folder)
+            .map(|inside| inside.display().to_string())
+            .unwrap_or_else(|_| path.display().to_string())
+    }
+
+    fn remember(&mut self, relative: &str, entry: Entry) {
+        match self.store.record(relative, entry.clone()) {
+            Ok(state) => self.state = state,
+            Err(error) => {
+                self.state.files.insert(relative.to_string(), entry);
+                self.log.event(
+                    "problem",
+                    STATE_FOLDER,
+                    &format!("cannot save the watcher's state: {error}"),
+                );
+            }
+        }
+    }
+
+    fn write_problems(
+        &mut self,
+        path: &Path,
+        relative: &str,
+        report: &FailureReport,
+        destination: &Path,
+        record: impl Fn(&str, &Path) -> Entry,
+    ) {
+        let file_name = path
+            .file_name()
+            .map(|name| name.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        if let Some(folder) = destination.parent() {
+            let _ = std::fs::create_dir_all(folder);
+        }
+        let book =
+            service::report::problems::build_problems_book(&file_name, &service::now_rfc3339(), &report.problems);
+        let written = workbook_io::write::write_book(&book, destination);
+        // Results of earlier content would now be misleading.
+        let stale = service::results_path_for(path, destination.parent());
+        let _ = std::fs::remove_file(stale);
+        self.remember(relative, record("problem", destination));
+        match written {
+            Ok(()) => self.log.event(
+                "problem",
+                relative,
+                &format!("{} -> {}", report.message, self.shown(destination)),
+            ),
+            Err(error) => self.log.event(
+                "problem",
+                relative,
+                &format!(
+                    "{}; the problems workbook could not be written either: {}",
+                    report.message,
+                    service::error_chain(&error)
+                ),
+            ),
+        }
+    }
+}
+
+fn unsafe_file_report(message: &str) -> FailureReport {
+    FailureReport {
+        message: message.to_string(),
+        problems: vec![Problem {
+            place: String::new(),
+            what: message.to_string(),
+            fix: "Open the workbook in your spreadsheet program, copy the trial table alone into a new workbook and save that. Very large used areas (formatting applied to whole rows or columns) or a damaged file are the usual causes.".into(),
+        }],
+        maybe_incomplete: false,
+    }
+}

@@ -1,0 +1,401 @@
+//! The isolated worker: each workbook is read and analysed in a child
+//! process (`trialyst __analyse-one`) with an address-space limit and a
+//! wall-time limit, so that an allocation abort, a crash or a hang on a
+//! hostile file costs that file, not the watcher.
+//!
+//! The child prints JSON lines on stdout: `writing` (with the results path,
+//! before the atomic write starts, so that the parent can remove the
+//! temporary file if it has to stop the child), then `analysed` or
+//! `failed`. The child never writes a problems workbook; the parent does,
+//! after deciding whether a failure is final or worth a retry.
+
+use std::ffi::OsString;
+use std::io::{BufRead, BufReader, Read, Write};
+use std::path::{Path, PathBuf};
+use std::process::{Command, Stdio};
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::time::{Duration, Instant};
+
+use serde::{Deserialize, Serialize};
+
+use service::settings::Settings;
+use service::{AnalysisRequest, FailureReport, Problem};
+
+/// Test hook: the worker first allocates this many MiB (an allocation abort
+/// under the memory limit, as a hostile file could cause).
+pub const TEST_ALLOCATE_MIB: &str = "TRIALYST_TEST_WORKER_ALLOCATE_MIB";
+/// Test hook: the worker pauses this many milliseconds before writing results.
+pub const TEST_PAUSE_MS: &str = "TRIALYST_TEST_WORKER_PAUSE_MS";
+
+/// One line from the worker.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "status", rename_all = "kebab-case")]
+pub enum WorkerMessage {
+    /// About to write the results workbook here.
+    Writing {
+        /// The results workbook.
+        results_file: String,
+    },
+    /// Analysed and written.
+    Analysed {
+        /// The results workbook.
+        results_file: String,
+        /// One headline per response.
+        verdicts: Vec<String>,
+        /// Number of data findings.
+        findings: usize,
+    },
+    /// Could not be analysed.
+    Failed {
+        /// What is wrong.
+        report: FailureReport,
+        /// Where its problems workbook belongs.
+        problems_file: String,
+    },
+}
+
+fn emit(message: &WorkerMessage) {
+    let mut stdout = std::io::stdout().lock();
+    let _ = writeln!(stdout, "{}", serde_json::to_string(message).unwrap_or_default());
+    let _ = stdout.flush();
+}
+
+/// What the watcher asks of one worker: sent as JSON, the worker command's one argument.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct WorkerRequest {
+    /// The workbook.
+    pub file: PathBuf,
+    /// Folder for the results workbook given on the watcher's command line.
+    pub out_dir: Option<PathBuf>,
+    /// The folder settings file to apply.
+    pub folder_settings: Option<PathBuf>,
+    /// The settings given on the watcher's command line.
+    pub settings: Settings,
+}
+
+/// The hidden worker command's name.
+pub const WORKER_COMMAND: &str = "__analyse-one";
+
+/// The worker command, the child side: `request` is the JSON of a
+/// [`WorkerRequest`]. Prints its outcome as JSON lines on stdout and
+/// returns; anything else (a signal, an abort) is a crash to the parent.
+pub fn analyse_one(request: &str) {
+    let args: WorkerRequest = match serde_json::from_str(request) {
+        Ok(args) => args,
+        Err(error) => {
+            emit(&WorkerMessage::Failed {
+                report: FailureReport {
+                    message: format!("the worker's request could not be read: {error}"),
+                    problems: Vec::new(),
+                    maybe_incomplete: false,
+                },
+                problems_file: String::new(),
+            });
+            return;
+        }
+    };
+    // Fault injection for the tests of the isolation (see DEVELOPERS.md):
+    // an allocation of this many MiB, as a hostile file could cause.
+    if let Some(mib) = std::env::var(TEST_ALLOCATE_MIB)
+        .ok()
+        .and_then(|text| text.parse::<usize>().ok())
+    {
+        let block = vec![1u8; mib << 20];
+        std::hint::black_box(&block);
+    }
+    let problems_of = |settings: &Settings| {
+        let folder = service::output_folder_for(&args.file, args.out_dir.as_deref(), settings);
+        service::problems_path_for(&args.file, folder.as_deref())
+            .display()
+            .to_string()
+    };
+    let fail = |message: String, fix: &str, settings: &Settings| {
+        emit(&WorkerMessage::Failed {
+            report: FailureReport {
+                message: message.clone(),
+                problems: vec![Problem {
+                    place: String::new(),
+                    what: message,
+                    fix: fix.to_string(),
+                }],
+                maybe_incomplete: false,
+            },
+            problems_file: problems_of(settings),
+        });
+    };
+    let settings = args.settings.clone();
+    let folder_settings = match &args.folder_settings {
+        Some(path) => {
+            let text = std::fs::read_to_string(path).unwrap_or_default();
+            match service::folder_settings::parse_folder_settings(&text, &path.display().to_string()) {
+                Ok(found) => Some(found),
+                Err(error) => {
+                    return fail(
+                        error.to_string(),
+                        "Correct the key named in the folder's trialyst.toml.",
+                        &settings,
+                    )
+                }
+            }
+        }
+        None => None,
+    };
+    let layered = settings.clone().over(&folder_settings.clone().unwrap_or_default());
+    let request = AnalysisRequest {
+        settings,
+        folder_settings,
+        ..AnalysisRequest::default()
+    };
+    let results = match service::analyse_workbook(&args.file, &request) {
+        Ok(results) => results,
+        Err(error) => {
+            emit(&WorkerMessage::Failed {
+                report: service::describe_failure(&error),
+                problems_file: problems_of(&layered),
+            });
+            return;
+        }
+    };
+    let folder = service::output_folder_for(&args.file, args.out_dir.as_deref(), &results.settings);
+    if let Some(folder) = &folder {
+        if let Err(error) = std::fs::create_dir_all(folder) {
+            return fail(
+                format!("cannot create the output folder '{}': {error}", folder.display()),
+                "Check the output folder setting and that the folder can be written to.",
+                &layered,
+            );
+        }
+    }
+    let destination = service::results_path_for(&args.file, folder.as_deref());
+    emit(&WorkerMessage::Writing {
+        results_file: destination.display().to_string(),
+    });
+    // Fault injection for the tests of stopping mid-analysis.
+    if let Some(pause) = std::env::var(TEST_PAUSE_MS)
+        .ok()
+        .and_then(|text| text.parse::<u64>().ok())
+    {
+        std::thread::sleep(Duration::from_millis(pause));
+    }
+    if let Err(error) = service::write_results(&results, &destination) {
+        emit(&WorkerMessage::Failed {
+            report: service::describe_failure(&error),
+            problems_file: service::problems_path_for(&args.file, folder.as_deref())
+                .display()
+                .to_string(),
+        });
+        return;
+    }
+    emit(&WorkerMessage::Analysed {
+        results_file: destination.display().to_string(),
+        verdicts: results
+            .responses
+            .iter()
+            .map(|response| match &response.verdict {
+                Some(verdict) => verdict.headline.clone(),
+                None => format!("{}: not analysed", response.name),
+            })
+            .collect(),
+        findings: results.findings.len(),
+    });
+}
+
+/// Limits for one worker.
+#[derive(Debug, Clone, Copy)]
+pub struct WorkerLimits {
+    /// Address space, bytes.
+    pub memory_bytes: u64,
+    /// Wall time.
+    pub time: Duration,
+}
+
+/// What came of one worker run.
+#[derive(Debug)]
+pub enum WorkerOutcome {
+    /// The worker answered.
+    Answered(WorkerMessage),
+    /// The worker died without answering (signal, abort, exit code), with a description.
+    Crashed(String),
+    /// The worker ran past the time limit and was stopped.
+    TimedOut,
+    /// The watcher was asked to stop; the worker was stopped.
+    Stopped,
+}
+
+/// The arguments of the worker for one workbook: the hidden command and the request as JSON.
+pub fn worker_arguments(request: &WorkerRequest) -> Vec<OsString> {
+    vec![
+        WORKER_COMMAND.into(),
+        serde_json::to_string(request).unwrap_or_default().into(),
+    ]
+}
+
+/// Removes the temporary files a stopped worker may have left beside `results_file`.
+fn remove_worker_temporaries(results_file: &Path, pid: u32) {
+    let Some(folder) = results_file.parent() else { return };
+    let name = results_file
+        .file_name()
+        .map(|name| name.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let prefix = format!(".{name}.{pid}-");
+    if let Ok(entries) = std::fs::read_dir(if folder.as_os_str().is_empty() {
+        Path::new(".")
+    } else {
+        folder
+    }) {
+        for entry in entries.filter_map(Result::ok) {
+            let entry_name = entry.file_name().to_string_lossy().into_owned();
+            if entry_name.starts_with(&prefix) && entry_name.ends_with(".tmp") {
+                let _ = std::fs::remove_file(entry.path());
+            }
+        }
+    }
+}
+
+/// Runs the worker `program` with `args` under `limits`; `stop` ends it early.
+pub fn run_worker(program: &Path, args: &[OsString], limits: WorkerLimits, stop: &AtomicBool) -> WorkerOutcome {
+    let mut command = Command::new(program);
+    command
+        .args(args)
+        .stdin(Stdio::null())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped());
+    #[cfg(unix)]
+    {
+        use std::os::unix::process::CommandExt;
+        let memory = limits.memory_bytes;
+        // SAFETY: only async-signal-safe calls (setrlimit, setpgid) between fork and exec.
+        unsafe {
+            command.pre_exec(move || {
+                let address_space = libc::rlimit {
+                    rlim_cur: memory as libc::rlim_t,
+                    rlim_max: memory as libc::rlim_t,
+                };
+                if libc::setrlimit(libc::RLIMIT_AS, &address_space) != 0 {
+                    return Err(std::io::Error::last_os_error());
+                }
+                let no_core = libc::rlimit {
+                    rlim_cur: 0,
+                    rlim_max: 0,
+                };
+                libc::setrlimit(libc::RLIMIT_CORE, &no_core);
+                // Its own process group: a Ctrl-C at the terminal reaches the
+                // watcher, which then stops the worker itself.
+                libc::setpgid(0, 0);
+                Ok(())
+            });
+        }
+    }
+    let mut child = match command.spawn() {
+        Ok(child) => child,
+        Err(error) => return WorkerOutcome::Crashed(format!("the worker could not be started: {error}")),
+    };
+    let pid = child.id();
+    let stdout = child.stdout.take();
+    let stderr = child.stderr.take();
+    let out_reader = std::thread::spawn(move || {
+        let mut lines = Vec::new();
+        if let Some(stdout) = stdout {
+            for line in BufReader::new(stdout).lines() {
+                match line {
+                    Ok(line) => lines.push(line),
+                    Err(_) => break,
+                }
+            }
+        }
+        lines
+    });
+    let err_reader = std::thread::spawn(move || {
+        let mut text = Vec::new();
+        if let Some(stderr) = stderr {
+            let _ = stderr.take(64 * 1024).read_to_end(&mut text);
+        }
+        String::from_utf8_lossy(&text).into_owned()
+    });
+    let deadline = Instant::now() + limits.time;
+    let mut ended_early = None;
+    let status = loop {
+        match child.try_wait() {
+            Ok(Some(status)) => break Some(status),
+            Ok(None) => {}
+            Err(_) => break None,
+        }
+        if stop.load(Ordering::SeqCst) {
+            ended_early = Some(WorkerOutcome::Stopped);
+        } else if Instant::now() > deadline {
+            ended_early = Some(WorkerOutcome::TimedOut);
+        }
+        if ended_early.is_some() {
+            let _ = child.kill();
+            let _ = child.wait();
+            break None;
+        }
+        std::thread::sleep(Duration::from_millis(2));
+    };
+    let lines = out_reader.join().unwrap_or_default();
+    let stderr_text = err_reader.join().unwrap_or_default();
+    let messages: Vec<WorkerMessage> = lines
+        .iter()
+        .filter_map(|line| serde_json::from_str(line).ok())
+        .collect();
+    let writing = messages.iter().rev().find_map(|message| match message {
+        WorkerMessage::Writing { results_file } => Some(PathBuf::from(results_file)),
+        _ => None,
+    });
+    let answer = messages
+        .iter()
+        .rev()
+        .find(|message| !matches!(message, WorkerMessage::Writing { .. }))
+        .cloned();
+    if let Some(outcome) = ended_early {
+        if let Some(results_file) = &writing {
+            remove_worker_temporaries(results_file, pid);
+        }
+        return outcome;
+    }
+    match (status, answer) {
+        (Some(status), Some(answer)) if status.success() => WorkerOutcome::Answered(answer),
+        (status, _) => {
+            if let Some(results_file) = &writing {
+                remove_worker_temporaries(results_file, pid);
+            }
+            let how = match status {
+                Some(status) => describe_status(status),
+                None => "it could not be waited for".into(),
+            };
+            let last = stderr_text
+                .lines()
+                .rev()
+                .find(|line| !line.trim().is_empty())
+                .unwrap_or("")
+                .trim()
+                .to_string();
+            WorkerOutcome::Crashed(if last.is_empty() {
+                how
+            } else {
+                format!("{how} ({last})")
+            })
+        }
+    }
+}
+
+fn describe_status(status: std::process::ExitStatus) -> String {
+    #[cfg(unix)]
+    {
+        use std::os::unix::process::ExitStatusExt;
+        if let Some(signal) = status.signal() {
+            let name = match signal {
+                libc::SIGABRT => "aborted",
+                libc::SIGSEGV => "crashed (memory fault)",
+                libc::SIGKILL => "was killed",
+                libc::SIGBUS => "crashed (bus error)",
+                _ => "was stopped by a signal",
+            };
+            return format!("the reader {name} (signal {signal})");
+        }
+    }
+    match status.code() {
+        Some(code) => format!("the reader ended with exit code {code} without an answer"),
+        None => "the reader ended without an answer".into(),
+    }
+}
