@@ -48,16 +48,34 @@ pub enum ClaimAttempt {
     Held(String),
 }
 
-/// This machine's name.
+/// This machine's name, as other watchers on a shared folder should see it
+/// in a claim file.
 pub fn host_name() -> String {
+    system_host_name()
+        .or_else(|| {
+            // Windows sets COMPUTERNAME; some Unix shells export HOSTNAME.
+            ["COMPUTERNAME", "HOSTNAME"]
+                .iter()
+                .find_map(|name| std::env::var(name).ok().filter(|value| !value.trim().is_empty()))
+        })
+        .unwrap_or_else(|| "unknown host".into())
+}
+
+#[cfg(unix)]
+fn system_host_name() -> Option<String> {
     let mut buffer = [0u8; 256];
     // SAFETY: the buffer is valid for its length; gethostname writes at most that.
     let status = unsafe { libc::gethostname(buffer.as_mut_ptr().cast(), buffer.len()) };
     if status != 0 {
-        return "unknown host".into();
+        return None;
     }
     let end = buffer.iter().position(|byte| *byte == 0).unwrap_or(buffer.len());
-    String::from_utf8_lossy(&buffer[..end]).into_owned()
+    Some(String::from_utf8_lossy(&buffer[..end]).into_owned()).filter(|name| !name.is_empty())
+}
+
+#[cfg(not(unix))]
+fn system_host_name() -> Option<String> {
+    None
 }
 
 /// The claim key of a workbook's path within the watched folder.
