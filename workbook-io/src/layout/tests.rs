@@ -1,0 +1,1 @@
+//! Table-driven tests of table detection on grids built in memory.
