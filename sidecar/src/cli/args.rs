@@ -234,6 +234,11 @@ pub struct InspectArgs {
 #[error("{0}")]
 pub struct UsageError(pub String);
 
+/// The settings given by the table options (sheet, range, columns, layout).
+///
+/// # Errors
+///
+/// [`UsageError`] for a layout other than long, wide or detect.
 pub(crate) fn table_settings(table: &TableArgs) -> Result<Settings, UsageError> {
     let layout = match table.layout.as_deref().map(str::to_lowercase).as_deref() {
         None | Some("detect") => None,

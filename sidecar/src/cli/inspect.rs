@@ -6,6 +6,7 @@ use service::AnalysisRequest;
 use super::args::{table_settings, InspectArgs};
 use super::{EXIT_OK, EXIT_SOME_FAILED, EXIT_USAGE};
 
+/// `trialyst inspect`: prints the table found and its findings; returns the exit code.
 pub(crate) fn inspect_command(args: InspectArgs) -> i32 {
     let settings = match table_settings(&args.table) {
         Ok(settings) => settings,

@@ -8,7 +8,7 @@ use super::args::{PlanArgs, UsageError};
 use super::{EXIT_OK, EXIT_SOME_FAILED, EXIT_USAGE};
 
 /// Reads `Name=level1,level2,...`.
-pub(crate) fn parse_factor_arg(text: &str) -> Result<service::plan::FactorSpec, UsageError> {
+fn parse_factor_arg(text: &str) -> Result<service::plan::FactorSpec, UsageError> {
     let Some((name, levels)) = text.split_once('=') else {
         return Err(UsageError(format!(
             "--factor '{text}': write the name, '=' and the levels separated by commas, e.g. \"Temperature=160,180\""
@@ -18,7 +18,8 @@ pub(crate) fn parse_factor_arg(text: &str) -> Result<service::plan::FactorSpec, 
     Ok(service::plan::FactorSpec::new(name, &levels))
 }
 
-pub(crate) fn plan_request(args: &PlanArgs) -> Result<service::plan::PlanRequest, String> {
+/// The plan request: the TOML file given, if any, overridden by the options.
+fn plan_request(args: &PlanArgs) -> Result<service::plan::PlanRequest, String> {
     let mut request = match &args.from {
         Some(path) => {
             let text =
@@ -51,6 +52,7 @@ pub(crate) fn plan_request(args: &PlanArgs) -> Result<service::plan::PlanRequest
     Ok(request)
 }
 
+/// `trialyst plan`: checks the request, writes the plan workbook; returns the exit code.
 pub(crate) fn plan_command(args: PlanArgs) -> i32 {
     let request = match plan_request(&args) {
         Ok(request) => request,

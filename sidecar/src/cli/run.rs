@@ -171,6 +171,7 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
     }
 }
 
+/// `trialyst run`: checks the options, then runs the batch; returns the exit code.
 pub(crate) fn run_command(args: RunArgs) -> i32 {
     let settings = match analysis_settings(&args.analysis) {
         Ok(settings) => settings,

@@ -7,7 +7,8 @@ use service::error_chain;
 use super::args::SizeArgs;
 use super::{EXIT_OK, EXIT_SOME_FAILED, EXIT_USAGE};
 
-pub(crate) fn size_request(args: &SizeArgs) -> Result<service::plan::SizeRequest, String> {
+/// The size request from the options.
+fn size_request(args: &SizeArgs) -> Result<service::plan::SizeRequest, String> {
     use engine::analysis::power::OneWayEffect;
     use service::plan::size::{SdSource, SizeDesign};
     let sd = match (args.sd, &args.from_results) {
@@ -60,6 +61,7 @@ pub(crate) fn size_request(args: &SizeArgs) -> Result<service::plan::SizeRequest
     })
 }
 
+/// `trialyst size`: prints (and writes) the power table; returns the exit code.
 pub(crate) fn size_command(args: SizeArgs) -> i32 {
     let request = match size_request(&args) {
         Ok(request) => request,
