@@ -1,9 +1,10 @@
 //! Cell summaries: one accumulator per combination of the used factors' levels.
 
 use crate::stats::accumulate::GroupAccumulator;
-use crate::stats::linear_model::CellSummary;
+use crate::stats::linear_model::{CellSummary, FactorialFit};
 
 use super::coding::UsedFactor;
+use super::results::CellsSummary;
 
 /// Up to this many combinations of levels, cell sums are accumulated in one pass.
 const DIRECT_GRID_MAX: usize = 4096;
@@ -101,4 +102,47 @@ pub(super) fn summarise(
         })
         .collect();
     Some((cells, cell_of_record))
+}
+
+/// What the cells hold: combinations possible and present, the range of counts, balance
+/// (from the fit) and the combinations not run (at most 200 listed).
+pub(super) fn cells_summary(
+    n_possible: Option<usize>,
+    cells: &[CellSummary],
+    fit: Option<&FactorialFit>,
+    n_centre_points: usize,
+    level_names: &dyn Fn(&[usize]) -> Vec<String>,
+) -> CellsSummary {
+    let counts: Vec<usize> = cells.iter().map(|cell| cell.n).collect();
+    let count_range = (
+        counts.iter().copied().min().unwrap_or(0),
+        counts.iter().copied().max().unwrap_or(0),
+    );
+    let missing_levels: Vec<Vec<usize>> = fit.map(|fit| fit.missing_cells.clone()).unwrap_or_default();
+    CellsSummary {
+        n_possible: n_possible.unwrap_or(usize::MAX),
+        n_present: cells.len(),
+        count_range,
+        balanced: fit.is_some_and(|fit| fit.is_balanced),
+        missing: missing_levels
+            .iter()
+            .take(200)
+            .map(|levels| level_names(levels))
+            .collect(),
+        n_missing: missing_levels.len(),
+        n_centre_points,
+    }
+}
+
+/// The cells summary when there are too many combinations of levels to fit the model.
+pub(super) fn too_many_cells_summary(n_possible: Option<usize>, n_centre_points: usize) -> CellsSummary {
+    CellsSummary {
+        n_possible: n_possible.unwrap_or(usize::MAX),
+        n_present: 0,
+        count_range: (0, 0),
+        balanced: false,
+        missing: Vec::new(),
+        n_missing: 0,
+        n_centre_points,
+    }
 }

@@ -3,7 +3,7 @@
 
 use crate::stats::two_level::FACTOR_LETTERS;
 
-use super::results::TwoLevelCoding;
+use super::results::{FactorInfo, TwoLevelCoding};
 use super::FactorialData;
 
 /// A factor as used here: its levels after dropping those without usable values.
@@ -189,4 +189,60 @@ pub(super) fn coding_and_centre_points(
         None => (None, Vec::new()),
     };
     (coding, centre_records, mixed_levels_record)
+}
+
+/// The factors of the model, treatments first and then blocks, each with the levels that
+/// have usable values among `model_records`; a factor left with fewer than two such
+/// levels is left out, with a note.
+pub(super) fn used_factors(
+    table: &FactorialData<'_>,
+    treatments: &[usize],
+    blocks: &[usize],
+    model_records: &[usize],
+    notes: &mut Vec<String>,
+) -> Vec<UsedFactor> {
+    let mut used: Vec<UsedFactor> = Vec::new();
+    for factor in treatments.iter().chain(blocks) {
+        let candidate = used_factor(table, *factor, model_records);
+        if candidate.level_names.len() < 2 {
+            notes.push(format!(
+                "'{}' has only {} level with usable values of '{}', so it was left out of the factorial model",
+                candidate.name,
+                candidate.level_names.len(),
+                table.response_name
+            ));
+            continue;
+        }
+        used.push(candidate);
+    }
+    used
+}
+
+/// How each used factor entered the analysis (in the order of `used`): its levels, its
+/// letter and its two-level coding when it is a treatment.
+pub(super) fn factor_infos(used: &[UsedFactor], treatments: &[usize], coding: Option<&Coding>) -> Vec<FactorInfo> {
+    used.iter()
+        .map(|factor| {
+            let treatment_position = treatments.iter().position(|&t| t == factor.table_index);
+            FactorInfo {
+                name: factor.name.clone(),
+                levels: factor.level_names.clone(),
+                is_block: factor.is_block,
+                letter: treatment_position.and_then(|position| FACTOR_LETTERS.get(position).copied()),
+                coding: match (coding, treatment_position) {
+                    (Some(coding), Some(position)) => Some(coding.info[position].clone()),
+                    _ => None,
+                },
+            }
+        })
+        .collect()
+}
+
+/// The level names of one combination of levels of the used factors.
+pub(super) fn level_names_of(used: &[UsedFactor], levels: &[usize]) -> Vec<String> {
+    levels
+        .iter()
+        .zip(used)
+        .map(|(&level, factor)| factor.level_names[level].clone())
+        .collect()
 }

@@ -2,7 +2,9 @@
 //! two-factor tables of model means.
 
 use crate::stats::dist::t_quantile;
-use crate::stats::linear_model::{CellSummary, Estimability, Estimate, FactorialFit};
+use crate::stats::linear_model::{
+    fit_factorial, CellSummary, Estimability, Estimate, FactorSpec, FactorialFit, ModelSpec,
+};
 
 use super::coding::UsedFactor;
 use super::results::{
@@ -274,4 +276,45 @@ pub(super) fn two_way_means(fit: &FactorialFit, used: &[UsedFactor]) -> Vec<TwoW
     });
     tables.truncate(MAX_TWO_WAY_TABLES);
     tables
+}
+
+/// Fits the k-way model to the cells with interactions up to `max_order` (every order the
+/// replication allows when `None`); a failure is left as a note.
+pub(super) fn fit_kway(
+    cells: &[CellSummary],
+    used: &[UsedFactor],
+    max_order: Option<usize>,
+    notes: &mut Vec<String>,
+) -> Option<FactorialFit> {
+    let specs: Vec<FactorSpec> = used
+        .iter()
+        .map(|factor| FactorSpec {
+            name: factor.name.clone(),
+            n_levels: factor.level_names.len(),
+            is_block: factor.is_block,
+        })
+        .collect();
+    match fit_factorial(cells, &specs, &ModelSpec { max_order }) {
+        Ok(fit) => Some(fit),
+        Err(error) => {
+            notes.push(format!("the factorial model could not be fitted: {error}"));
+            None
+        }
+    }
+}
+
+/// Cautions on the k-way fit: no residual degrees of freedom, combinations not run.
+pub(super) fn kway_cautions(fit: &FactorialFit, level_names: &dyn Fn(&[usize]) -> Vec<String>) -> Vec<String> {
+    let mut cautions = Vec::new();
+    if fit.residual.df == 0 {
+        cautions.push("The model uses every degree of freedom: there is no residual left to judge the effects by, so no F tests or intervals are given for it.".into());
+    }
+    if let Some(first) = fit.missing_cells.first() {
+        cautions.push(format!(
+            "{} combination(s) of levels were not run (for example {}); effects that need them cannot be estimated, and the Type III tests depend on how the levels were coded.",
+            fit.missing_cells.len(),
+            level_names(first).join(" / ")
+        ));
+    }
+    cautions
 }

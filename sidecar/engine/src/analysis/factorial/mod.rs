@@ -37,17 +37,14 @@ pub use results::*;
 
 use std::collections::BTreeSet;
 
-use crate::analysis::verdict::p_for_text;
 use crate::options::{Direction, DEFAULT_CONFIDENCE};
-use crate::stats::linear_model::{fit_factorial, FactorSpec, ModelSpec};
-use crate::stats::two_level::FACTOR_LETTERS;
 
-use cells::summarise;
-use coding::{coding_and_centre_points, used_factor, UsedFactor};
-use kway::kway_model;
+use cells::{cells_summary, summarise, too_many_cells_summary};
+use coding::{coding_and_centre_points, factor_infos, level_names_of, used_factors};
+use kway::{fit_kway, kway_cautions, kway_model};
 use readings::{manager_summary, read_model, SummaryInput};
-use reduced::{reduced_model, ReducedInput};
-use screening::two_level_outcome;
+use reduced::{reduced_cautions, reduced_model, ReducedInput};
+use screening::{two_level_cautions, two_level_outcome};
 
 /// Above this many residuals the normality check uses this many, spread evenly through
 /// the recorded order (Shapiro-Wilk is published up to 5000; on more values every test
@@ -171,37 +168,8 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
     let model_records: Vec<usize> = usable.iter().copied().filter(|r| !centre_set.contains(r)).collect();
 
     // Factors and their used levels (over the records of the k-way model).
-    let mut used: Vec<UsedFactor> = Vec::new();
-    for factor in treatments.iter().chain(&blocks) {
-        let candidate = used_factor(table, *factor, &model_records);
-        if candidate.level_names.len() < 2 {
-            notes.push(format!(
-                "'{}' has only {} level with usable values of '{}', so it was left out of the factorial model",
-                candidate.name,
-                candidate.level_names.len(),
-                response.response_name
-            ));
-            continue;
-        }
-        used.push(candidate);
-    }
-    // Keep table order (treatments first as chosen above, then blocks).
-    let factor_infos: Vec<FactorInfo> = used
-        .iter()
-        .map(|factor| {
-            let treatment_position = treatments.iter().position(|&t| t == factor.table_index);
-            FactorInfo {
-                name: factor.name.clone(),
-                levels: factor.level_names.clone(),
-                is_block: factor.is_block,
-                letter: treatment_position.and_then(|position| FACTOR_LETTERS.get(position).copied()),
-                coding: match (&coding, treatment_position) {
-                    (Some(coding), Some(position)) => Some(coding.info[position].clone()),
-                    _ => None,
-                },
-            }
-        })
-        .collect();
+    let used = used_factors(table, &treatments, &blocks, &model_records, &mut notes);
+    let factor_infos = factor_infos(&used, &treatments, coding.as_ref());
     if !used.iter().any(|factor| !factor.is_block) {
         return None;
     }
@@ -223,15 +191,7 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
                 confidence,
                 factors: factor_infos,
                 n_values: usable.len(),
-                cells: CellsSummary {
-                    n_possible: n_possible.unwrap_or(usize::MAX),
-                    n_present: 0,
-                    count_range: (0, 0),
-                    balanced: false,
-                    missing: Vec::new(),
-                    n_missing: 0,
-                    n_centre_points: centre_records.len(),
-                },
+                cells: too_many_cells_summary(n_possible, centre_records.len()),
                 model: None,
                 two_level: None,
                 reduced: None,
@@ -243,67 +203,17 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
             });
         }
     };
-    let specs: Vec<FactorSpec> = used
-        .iter()
-        .map(|factor| FactorSpec {
-            name: factor.name.clone(),
-            n_levels: factor.level_names.len(),
-            is_block: factor.is_block,
-        })
-        .collect();
-    let level_names = |levels: &[usize]| -> Vec<String> {
-        levels
-            .iter()
-            .zip(&used)
-            .map(|(&level, factor)| factor.level_names[level].clone())
-            .collect()
-    };
+    let level_names = |levels: &[usize]| level_names_of(&used, levels);
 
     // The k-way model.
-    let model_spec = ModelSpec {
-        max_order: options.interaction_order,
-    };
-    let fit = match fit_factorial(&cells, &specs, &model_spec) {
-        Ok(fit) => Some(fit),
-        Err(error) => {
-            notes.push(format!("the factorial model could not be fitted: {error}"));
-            None
-        }
-    };
-    let counts: Vec<usize> = cells.iter().map(|cell| cell.n).collect();
-    let count_range = (
-        counts.iter().copied().min().unwrap_or(0),
-        counts.iter().copied().max().unwrap_or(0),
-    );
-    let missing_levels: Vec<Vec<usize>> = fit.as_ref().map(|fit| fit.missing_cells.clone()).unwrap_or_default();
-    let cells_summary = CellsSummary {
-        n_possible: n_possible.unwrap_or(usize::MAX),
-        n_present: cells.len(),
-        count_range,
-        balanced: fit.as_ref().is_some_and(|fit| fit.is_balanced),
-        missing: missing_levels
-            .iter()
-            .take(200)
-            .map(|levels| level_names(levels))
-            .collect(),
-        n_missing: missing_levels.len(),
-        n_centre_points: centre_records.len(),
-    };
+    let fit = fit_kway(&cells, &used, options.interaction_order, &mut notes);
+    let cells_summary = cells_summary(n_possible, &cells, fit.as_ref(), centre_records.len(), &level_names);
     let alpha = 1.0 - confidence;
     let model = fit
         .as_ref()
         .map(|fit| kway_model(fit, &cells, &used, options, confidence, &level_names));
     if let Some(fit) = &fit {
-        if fit.residual.df == 0 {
-            cautions.push("The model uses every degree of freedom: there is no residual left to judge the effects by, so no F tests or intervals are given for it.".into());
-        }
-        if !missing_levels.is_empty() {
-            cautions.push(format!(
-                "{} combination(s) of levels were not run (for example {}); effects that need them cannot be estimated, and the Type III tests depend on how the levels were coded.",
-                missing_levels.len(),
-                level_names(&missing_levels[0]).join(" / ")
-            ));
-        }
+        cautions.extend(kway_cautions(fit, &level_names));
     }
 
     // Two-level screening.
@@ -319,21 +229,7 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
         )
     });
     if let Some(two) = &two_level {
-        if !blocks.is_empty() {
-            notes.push("the two-level effects do not adjust for blocks; the k-way model does (blocks additive)".into());
-        }
-        if two.lenth.is_some() && two.pure_error_df == 0 {
-            cautions.push("The runs are not replicated, so the effects are judged by Lenth's method, which assumes that most effects are really zero.".into());
-        }
-        cautions.extend(two.aliasing_notes.iter().take(3).cloned());
-        if let Some(curvature) = &two.curvature {
-            if curvature.p_value.is_some_and(|p| p < alpha) {
-                cautions.push(format!(
-                    "The centre points differ from the average of the corners (p = {}): the response curves between the levels, so predictions between the levels are not reliable from this trial.",
-                    p_for_text(curvature.p_value.unwrap_or(f64::NAN))
-                ));
-            }
-        }
+        two_level_cautions(two, !blocks.is_empty(), alpha, &mut notes, &mut cautions);
     }
 
     // Reduced model.
@@ -352,17 +248,7 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
         direction,
     });
     if let Some(reduced) = &reduced {
-        if let Some(check) = &reduced.residual_check {
-            let p = check.shapiro_wilk.or(check.anderson_darling).map(|(_, p)| p);
-            if p.is_some_and(|p| p < 0.01) {
-                cautions.push(check.reading.clone());
-            }
-        }
-        if let Some(best) = &reduced.best {
-            if !best.was_run {
-                cautions.push("The recommended combination of levels was not among the runs; confirm it with a few runs before relying on it.".into());
-            }
-        }
+        cautions.extend(reduced_cautions(reduced));
     }
 
     let reading = model

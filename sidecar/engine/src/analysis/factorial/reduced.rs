@@ -598,3 +598,21 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
         best,
     })
 }
+
+/// Cautions on the reduced model: residuals far from normal (p below 0.01), a best
+/// setting that was not among the runs.
+pub(super) fn reduced_cautions(reduced: &ReducedModel) -> Vec<String> {
+    let mut cautions = Vec::new();
+    if let Some(check) = &reduced.residual_check {
+        let p = check.shapiro_wilk.or(check.anderson_darling).map(|(_, p)| p);
+        if p.is_some_and(|p| p < 0.01) {
+            cautions.push(check.reading.clone());
+        }
+    }
+    if let Some(best) = &reduced.best {
+        if !best.was_run {
+            cautions.push("The recommended combination of levels was not among the runs; confirm it with a few runs before relying on it.".into());
+        }
+    }
+    cautions
+}

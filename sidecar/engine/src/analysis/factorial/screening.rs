@@ -1,7 +1,7 @@
 //! Two-level screening: the design found in the runs, effects with alias chains, Lenth's
 //! method, curvature from centre points and advice on aliasing.
 
-use crate::analysis::verdict::round_for_text;
+use crate::analysis::verdict::{p_for_text, round_for_text};
 use crate::stats::two_level::{detect_design, resolution_numeral, DesignKind, DesignSummary, Word, FACTOR_LETTERS};
 use crate::stats::two_level_analysis::{analyse_two_level, contrast_effect, AnalysisOptions, TwoLevelAnalysis};
 
@@ -377,4 +377,30 @@ pub(super) fn aliasing_advice(
         )),
     };
     (notes, follow_up)
+}
+
+/// Notes and cautions on the two-level part: blocks not adjusted for, effects judged by
+/// Lenth's method on unreplicated runs, aliasing (at most three), curvature at the centre.
+pub(super) fn two_level_cautions(
+    two: &TwoLevelOutcome,
+    has_blocks: bool,
+    alpha: f64,
+    notes: &mut Vec<String>,
+    cautions: &mut Vec<String>,
+) {
+    if has_blocks {
+        notes.push("the two-level effects do not adjust for blocks; the k-way model does (blocks additive)".into());
+    }
+    if two.lenth.is_some() && two.pure_error_df == 0 {
+        cautions.push("The runs are not replicated, so the effects are judged by Lenth's method, which assumes that most effects are really zero.".into());
+    }
+    cautions.extend(two.aliasing_notes.iter().take(3).cloned());
+    if let Some(curvature) = &two.curvature {
+        if curvature.p_value.is_some_and(|p| p < alpha) {
+            cautions.push(format!(
+                "The centre points differ from the average of the corners (p = {}): the response curves between the levels, so predictions between the levels are not reliable from this trial.",
+                p_for_text(curvature.p_value.unwrap_or(f64::NAN))
+            ));
+        }
+    }
 }
