@@ -286,3 +286,41 @@ pub(super) fn count_columns(
     }
     columns
 }
+
+/// A finding about a whole column, placed at its header cell.
+pub(super) fn column_finding(
+    kind: FindingKind,
+    sheet: &str,
+    header_row: u32,
+    column: &HeaderColumn,
+    action: &str,
+    message: String,
+) -> Finding {
+    Finding {
+        kind,
+        sheet: sheet.to_string(),
+        cell: Some(CellPos::new(header_row, column.col).a1()),
+        found: column.name.clone(),
+        action: action.into(),
+        message,
+    }
+}
+
+/// Reports each column with a header and no values below it (it is left out of detection).
+pub(super) fn empty_column_findings(sheet: &str, header_row: u32, columns: &[HeaderColumn], findings: &mut Findings) {
+    for column in columns {
+        if column.counts.non_empty() == 0 {
+            findings.push(column_finding(
+                FindingKind::EmptyColumn,
+                sheet,
+                header_row,
+                column,
+                "the column was left out",
+                format!(
+                    "the column headed '{}' has no values below its header; it was left out",
+                    column.name
+                ),
+            ));
+        }
+    }
+}

@@ -6,7 +6,7 @@ use crate::cell::{CellPos, CellRect, CellValue};
 use crate::read::SheetGrid;
 
 use super::cells::{label_text, similar_label_findings, unusable_number};
-use super::header::{row_spans, ColumnIndex, HeaderColumn};
+use super::header::{column_finding, row_spans, ColumnIndex, HeaderColumn};
 use super::{Factor, Finding, FindingKind, Findings, Layout, Response, TrialTable};
 
 #[allow(clippy::too_many_arguments)]
@@ -192,4 +192,86 @@ pub(super) fn build_long(
         level_columns: Vec::new(),
         findings: findings.into_vec(),
     }
+}
+
+/// The label columns that are factors when none is named: columns mostly not numbers,
+/// not named as responses, leaving out notes (filled on fewer than half the rows) and
+/// identifiers (a different label on almost every row of eight or more), each reported.
+pub(super) fn label_factor_columns(
+    sheet: &str,
+    header_row: u32,
+    columns: &[HeaderColumn],
+    response_columns: &[usize],
+    n_data_rows: usize,
+    findings: &mut Findings,
+) -> Vec<usize> {
+    let label_candidates: Vec<usize> = (0..columns.len())
+        .filter(|&index| !columns[index].counts.is_numeric() && columns[index].counts.non_empty() > 0)
+        .filter(|index| !response_columns.contains(index))
+        .collect();
+    let mut factors_found = Vec::new();
+    for index in label_candidates {
+        let column = &columns[index];
+        let looks_like_identifier = n_data_rows >= 8 && column.distinct_labels * 10 > n_data_rows * 8;
+        let looks_like_notes = column.counts.non_empty() * 2 < n_data_rows;
+        let reason = if looks_like_notes {
+            Some("is filled on fewer than half of the rows, so it was read as notes")
+        } else if looks_like_identifier {
+            Some("has a different label on almost every row, so it was read as an identifier")
+        } else {
+            None
+        };
+        match reason {
+            Some(reason) => findings.push(column_finding(
+                FindingKind::IdentifierColumn,
+                sheet,
+                header_row,
+                column,
+                "not used as a factor",
+                format!(
+                    "the column '{}' {reason}, not a condition; name it as a factor to use it",
+                    column.name
+                ),
+            )),
+            None => factors_found.push(index),
+        }
+    }
+    factors_found
+}
+
+/// The response columns when none is named: the numeric columns that are not factors,
+/// leaving out (and reporting) columns that count 1, 2, 3, ... when a measured column remains.
+pub(super) fn measured_columns(
+    sheet: &str,
+    header_row: u32,
+    columns: &[HeaderColumn],
+    factor_columns: &[(usize, bool)],
+    findings: &mut Findings,
+) -> Vec<usize> {
+    let response_columns: Vec<usize> = (0..columns.len())
+        .filter(|index| columns[*index].counts.is_numeric())
+        .filter(|index| !factor_columns.iter().any(|(factor, _)| factor == index))
+        .collect();
+    // A column counting 1, 2, 3, ... is a run or sample number, not a measurement.
+    let (counters, measured): (Vec<usize>, Vec<usize>) = response_columns
+        .iter()
+        .partition(|&&index| columns[index].counts.counts_up && columns[index].counts.numbers >= 8);
+    if measured.is_empty() {
+        return response_columns;
+    }
+    for index in counters {
+        let column = &columns[index];
+        findings.push(column_finding(
+            FindingKind::IdentifierColumn,
+            sheet,
+            header_row,
+            column,
+            "not analysed as a response",
+            format!(
+                "the column '{}' counts up by one on every row, so it was read as a run number, not a measurement; name it as a response to analyse it",
+                column.name
+            ),
+        ));
+    }
+    measured
 }

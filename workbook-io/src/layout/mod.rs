@@ -25,8 +25,8 @@ use crate::cell::{CellPos, CellValue};
 use crate::read::SheetGrid;
 
 use cells::hidden_findings;
-use header::{count_columns, find_header_row, header_names, row_spans};
-use long::build_long;
+use header::{count_columns, empty_column_findings, find_header_row, header_names, row_spans};
+use long::{build_long, label_factor_columns, measured_columns};
 use wide::build_wide;
 
 /// Finds the trial table in a sheet's cells.
@@ -119,21 +119,7 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
     }
 
     // Empty columns are reported and left out of detection.
-    for column in &columns {
-        if column.counts.non_empty() == 0 {
-            findings.push(Finding {
-                kind: FindingKind::EmptyColumn,
-                sheet: sheet.clone(),
-                cell: Some(CellPos::new(header_row, column.col).a1()),
-                found: column.name.clone(),
-                action: "the column was left out".into(),
-                message: format!(
-                    "the column headed '{}' has no values below its header; it was left out",
-                    column.name
-                ),
-            });
-        }
-    }
+    empty_column_findings(&sheet, header_row, &columns, &mut findings);
 
     let n_data_rows = data_cells
         .iter()
@@ -144,43 +130,14 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
         Some(layout) => layout,
         None if !factor_columns.is_empty() => Layout::Long,
         None => {
-            let label_candidates: Vec<usize> = (0..columns.len())
-                .filter(|&index| !columns[index].counts.is_numeric() && columns[index].counts.non_empty() > 0)
-                .filter(|index| !response_columns.contains(index))
-                .collect();
-            let mut factors_found = Vec::new();
-            for index in label_candidates {
-                let column = &columns[index];
-                let looks_like_identifier = n_data_rows >= 8 && column.distinct_labels * 10 > n_data_rows * 8;
-                let looks_like_notes = column.counts.non_empty() * 2 < n_data_rows;
-                if looks_like_notes {
-                    findings.push(Finding {
-                        kind: FindingKind::IdentifierColumn,
-                        sheet: sheet.clone(),
-                        cell: Some(CellPos::new(header_row, column.col).a1()),
-                        found: column.name.clone(),
-                        action: "not used as a factor".into(),
-                        message: format!(
-                            "the column '{}' is filled on fewer than half of the rows, so it was read as notes, not a condition; name it as a factor to use it",
-                            column.name
-                        ),
-                    });
-                } else if looks_like_identifier {
-                    findings.push(Finding {
-                        kind: FindingKind::IdentifierColumn,
-                        sheet: sheet.clone(),
-                        cell: Some(CellPos::new(header_row, column.col).a1()),
-                        found: column.name.clone(),
-                        action: "not used as a factor".into(),
-                        message: format!(
-                            "the column '{}' has a different label on almost every row, so it was read as an identifier, not a condition; name it as a factor to use it",
-                            column.name
-                        ),
-                    });
-                } else {
-                    factors_found.push(index);
-                }
-            }
+            let factors_found = label_factor_columns(
+                &sheet,
+                header_row,
+                &columns,
+                &response_columns,
+                n_data_rows,
+                &mut findings,
+            );
             if factors_found.is_empty() {
                 Layout::Wide
             } else {
@@ -193,31 +150,7 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
     match layout {
         Layout::Long => {
             if response_columns.is_empty() {
-                response_columns = (0..columns.len())
-                    .filter(|index| columns[*index].counts.is_numeric())
-                    .filter(|index| !factor_columns.iter().any(|(factor, _)| factor == index))
-                    .collect();
-                // A column counting 1, 2, 3, ... is a run or sample number, not a measurement.
-                let (counters, measured): (Vec<usize>, Vec<usize>) = response_columns
-                    .iter()
-                    .partition(|&&index| columns[index].counts.counts_up && columns[index].counts.numbers >= 8);
-                if !measured.is_empty() {
-                    for index in counters {
-                        let column = &columns[index];
-                        findings.push(Finding {
-                            kind: FindingKind::IdentifierColumn,
-                            sheet: sheet.clone(),
-                            cell: Some(CellPos::new(header_row, column.col).a1()),
-                            found: column.name.clone(),
-                            action: "not analysed as a response".into(),
-                            message: format!(
-                                "the column '{}' counts up by one on every row, so it was read as a run number, not a measurement; name it as a response to analyse it",
-                                column.name
-                            ),
-                        });
-                    }
-                    response_columns = measured;
-                }
+                response_columns = measured_columns(&sheet, header_row, &columns, &factor_columns, &mut findings);
             }
             if factor_columns.is_empty() {
                 return Err(LayoutError::NoTable {
