@@ -1,0 +1,282 @@
+//! Factorial trials: several treatment factors (and blocks) analysed together.
+//!
+//! [`analyse_factorial`] takes one response of a trial table and returns a
+//! [`FactorialOutcome`]: the cells (present, counts, missing combinations, what can
+//! still be estimated), the k-way model with interactions (Type I, II and III sums of
+//! squares, cell means, least-squares means and effects with intervals), a two-level
+//! screening analysis when every treatment factor has two levels (Yates's effects,
+//! alias chains, Lenth's method, curvature from centre points, plot positions), a
+//! reduced model of the active effects with residual checks and a prediction at the
+//! best settings found, and sentences for a manager.
+//!
+//! The numerical work is done by [`crate::stats::linear_model`] (the k-way fit on cell
+//! summaries), [`crate::stats::two_level`] and [`crate::stats::two_level_analysis`]
+//! (design mathematics and Yates/Lenth), [`crate::stats::accumulate`] (cell sums) and
+//! [`crate::stats::normality`] (residual checks). This module chooses what to fit,
+//! names everything in the user's words and reads the numbers out. No I/O.
+//!
+//! Coding of two-level factors: a numeric factor's lower number is coded -1 and its
+//! higher number +1; a numeric factor with three levels whose middle level lies
+//! half-way between the others counts as two-level with centre points (the middle level
+//! is coded 0). A factor with text labels has its labels sorted (as text, ignoring
+//! case) and the first is coded -1. Runs with every treatment factor at its middle level
+//! are centre points; they enter the curvature test and the pure error, not the effects.
+
+mod cells;
+mod coding;
+mod kway;
+mod readings;
+mod reduced;
+mod residuals;
+mod results;
+mod screening;
+#[cfg(test)]
+mod tests;
+
+pub use results::*;
+
+use std::collections::BTreeSet;
+
+use crate::options::{Direction, DEFAULT_CONFIDENCE};
+
+use cells::{cells_summary, summarise, too_many_cells_summary};
+use coding::{coding_and_centre_points, factor_infos, level_names_of, used_factors};
+use kway::{fit_kway, kway_cautions, kway_model};
+use readings::{manager_summary, read_model, SummaryInput};
+use reduced::{reduced_cautions, reduced_model, ReducedInput};
+use screening::{two_level_cautions, two_level_outcome};
+
+/// Above this many residuals the normality check uses this many, spread evenly through
+/// the recorded order (Shapiro-Wilk is published up to 5000; on more values every test
+/// rejects for departures too small to matter).
+pub const RESIDUAL_CHECK_MAX: usize = 5000;
+
+/// At most this many two-factor tables of model means are kept (largest interactions first).
+pub const MAX_TWO_WAY_TABLES: usize = 6;
+
+/// At most this many combinations of levels are searched for the best settings.
+pub const MAX_SETTINGS_SEARCHED: usize = 100_000;
+
+/// Alias chains are written with members of at most this many letters.
+pub const ALIAS_DISPLAY_ORDER: usize = 4;
+
+/// One factor column of the input: its levels and the level of each record.
+#[derive(Debug, Clone, Copy)]
+pub struct FactorData<'a> {
+    /// The factor's name.
+    pub name: &'a str,
+    /// Its level labels, in the order the caller keeps them.
+    pub levels: &'a [String],
+    /// For each record, an index into `levels`.
+    pub level_of_record: &'a [u32],
+    /// True for a blocking factor.
+    pub is_block: bool,
+}
+
+/// The input of the factorial analysis: the factors and one response.
+#[derive(Debug, Clone)]
+pub struct FactorialData<'a> {
+    /// The factors (treatments and blocks), each with a level per record.
+    pub factors: Vec<FactorData<'a>>,
+    /// The response's name, for sentences.
+    pub response_name: &'a str,
+    /// The response's value of each record; NaN where unusable.
+    pub values: &'a [f64],
+}
+
+impl FactorialData<'_> {
+    /// The number of records (the shortest of the value and level columns).
+    pub fn n_records(&self) -> usize {
+        self.factors
+            .iter()
+            .map(|factor| factor.level_of_record.len())
+            .fold(self.values.len(), usize::min)
+    }
+}
+
+/// Options of the factorial analysis.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FactorialOptions {
+    /// Confidence level of every interval.
+    pub confidence: f64,
+    /// Which way the response is better (higher is better when not given).
+    pub direction: Option<Direction>,
+    /// Highest order of interaction fitted (1 = main effects only); `None` fits every
+    /// order the replication allows.
+    pub interaction_order: Option<usize>,
+}
+
+impl Default for FactorialOptions {
+    fn default() -> Self {
+        Self {
+            confidence: DEFAULT_CONFIDENCE,
+            direction: None,
+            interaction_order: None,
+        }
+    }
+}
+
+/// Analyses one response of a trial table as a factorial trial.
+///
+/// Returns `None` when the table has fewer than two treatment factors and no block
+/// (the one-way analysis then says everything), or when the response index is out of
+/// range. Problems that stop one part (too many level combinations, no residual degrees
+/// of freedom) leave that part out and say so in [`FactorialOutcome::notes`].
+///
+/// Settings used: `confidence`, `direction` (higher is better when not given) and
+/// `interaction order`.
+///
+/// # Remarks
+/// Cells are summarised with the one-way accumulator (exact decimal or compensated
+/// sums); the k-way model is [`fit_factorial`]; the two-level part is
+/// [`analyse_two_level`](crate::stats::two_level_analysis::analyse_two_level) on the
+/// runs coded ±1 (see the module documentation for the coding); the reduced model is a weighted least-squares fit to the cell means by
+/// Householder QR (never the normal equations). Checked end to end against the
+/// NIST/SEMATECH e-Handbook eddy-current example and statsmodels 0.15.0 (see the
+/// integration tests).
+pub fn analyse_factorial(table: &FactorialData<'_>, options: &FactorialOptions) -> Option<FactorialOutcome> {
+    let n_treatments = table.factors.iter().filter(|factor| !factor.is_block).count();
+    let n_blocks = table.factors.len() - n_treatments;
+    if n_treatments == 0 || (n_treatments < 2 && n_blocks == 0) {
+        return None;
+    }
+    analyse_any(table, options)
+}
+
+/// As [`analyse_factorial`] without the check on the number of factors (a one-factor
+/// table is analysed too); used to check the k-way model against the one-way model.
+pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Option<FactorialOutcome> {
+    let response = table;
+    let confidence = options.confidence;
+    let direction = options.direction.unwrap_or(Direction::HigherIsBetter);
+    let mut notes = Vec::new();
+    let mut cautions = Vec::new();
+    let n_records = table.n_records();
+    let usable: Vec<usize> = (0..n_records)
+        .filter(|&record| response.values[record].is_finite())
+        .collect();
+    let treatments: Vec<usize> = (0..table.factors.len())
+        .filter(|&f| !table.factors[f].is_block)
+        .collect();
+    let blocks: Vec<usize> = (0..table.factors.len())
+        .filter(|&f| table.factors[f].is_block)
+        .collect();
+
+    // Two-level coding of the treatment factors, and the centre points.
+    let (coding, centre_records, mixed_levels_record) = coding_and_centre_points(table, &treatments, &usable);
+    let centre_set: BTreeSet<usize> = centre_records.iter().copied().collect();
+    let model_records: Vec<usize> = usable.iter().copied().filter(|r| !centre_set.contains(r)).collect();
+
+    // Factors and their used levels (over the records of the k-way model).
+    let used = used_factors(table, &treatments, &blocks, &model_records, &mut notes);
+    let factor_infos = factor_infos(&used, &treatments, coding.as_ref());
+    if !used.iter().any(|factor| !factor.is_block) {
+        return None;
+    }
+
+    // Cells.
+    let radix: Vec<usize> = used.iter().map(|factor| factor.level_names.len()).collect();
+    let n_possible = radix
+        .iter()
+        .try_fold(1usize, |product, &count| product.checked_mul(count));
+    let cells_result = summarise(table, &used, &model_records, n_possible);
+    let (cells, cell_of_record) = match cells_result {
+        Some(found) => found,
+        None => {
+            notes.push(format!(
+                "the factors have more than {} combinations of levels; the factorial model was not fitted",
+                crate::stats::linear_model::MAX_LEVEL_COMBINATIONS
+            ));
+            return Some(FactorialOutcome {
+                confidence,
+                factors: factor_infos,
+                n_values: usable.len(),
+                cells: too_many_cells_summary(n_possible, centre_records.len()),
+                model: None,
+                two_level: None,
+                reduced: None,
+                reading: Vec::new(),
+                summary: Vec::new(),
+                cautions,
+                notes,
+                mixed_levels_record,
+            });
+        }
+    };
+    let level_names = |levels: &[usize]| level_names_of(&used, levels);
+
+    // The k-way model.
+    let fit = fit_kway(&cells, &used, options.interaction_order, &mut notes);
+    let cells_summary = cells_summary(n_possible, &cells, fit.as_ref(), centre_records.len(), &level_names);
+    let alpha = 1.0 - confidence;
+    let model = fit
+        .as_ref()
+        .map(|fit| kway_model(fit, &cells, &used, options, confidence, &level_names));
+    if let Some(fit) = &fit {
+        cautions.extend(kway_cautions(fit, &level_names));
+    }
+
+    // Two-level screening.
+    let two_level = coding.as_ref().and_then(|_| {
+        two_level_outcome(
+            table,
+            &treatments,
+            coding.as_ref()?,
+            &usable,
+            &used,
+            confidence,
+            &mut notes,
+        )
+    });
+    if let Some(two) = &two_level {
+        two_level_cautions(two, !blocks.is_empty(), alpha, &mut notes, &mut cautions);
+    }
+
+    // Reduced model.
+    let reduced = reduced_model(&ReducedInput {
+        table,
+        used: &used,
+        cells: &cells,
+        cell_of_record: &cell_of_record,
+        model_records: &model_records,
+        fit: fit.as_ref(),
+        two_level: two_level.as_ref(),
+        coding: coding.as_ref(),
+        treatments: &treatments,
+        centre_records: &centre_records,
+        confidence,
+        direction,
+    });
+    if let Some(reduced) = &reduced {
+        cautions.extend(reduced_cautions(reduced));
+    }
+
+    let reading = model
+        .as_ref()
+        .map(|model| read_model(model, fit.as_ref(), &used, direction, alpha, response.response_name))
+        .unwrap_or_default();
+    let summary = manager_summary(&SummaryInput {
+        response: response.response_name,
+        used: &used,
+        model: model.as_ref(),
+        two_level: two_level.as_ref(),
+        reduced: reduced.as_ref(),
+        direction,
+        confidence,
+        reading: &reading,
+    });
+    Some(FactorialOutcome {
+        confidence,
+        factors: factor_infos,
+        n_values: usable.len(),
+        cells: cells_summary,
+        model,
+        two_level,
+        reduced,
+        reading,
+        summary,
+        cautions,
+        notes,
+        mixed_levels_record,
+    })
+}

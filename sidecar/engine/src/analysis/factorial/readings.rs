@@ -1,0 +1,325 @@
+//! Readings of the k-way model and the manager's sentences, and the helpers that say which
+//! value is better for the response's direction.
+
+use std::collections::BTreeSet;
+
+use crate::analysis::verdict::{p_for_text, round_for_text};
+use crate::options::Direction;
+use crate::stats::linear_model::FactorialFit;
+
+use super::coding::UsedFactor;
+use super::results::{AnovaLine, KWayModel, ReducedModel, TwoLevelEffect, TwoLevelOutcome};
+
+pub(super) fn better(direction: Direction, candidate: f64, incumbent: f64) -> bool {
+    match direction {
+        Direction::HigherIsBetter => candidate > incumbent,
+        Direction::LowerIsBetter => candidate < incumbent,
+        Direction::Target(target) => (candidate - target).abs() < (incumbent - target).abs(),
+    }
+}
+
+pub(super) fn best_index(values: &[Option<f64>], direction: Direction) -> Option<usize> {
+    let mut best: Option<(usize, f64)> = None;
+    for (index, value) in values.iter().enumerate() {
+        if let Some(value) = value {
+            if best.is_none_or(|(_, incumbent)| better(direction, *value, incumbent)) {
+                best = Some((index, *value));
+            }
+        }
+    }
+    best.map(|(index, _)| index)
+}
+
+pub(super) fn direction_words(direction: Direction) -> String {
+    match direction {
+        Direction::HigherIsBetter => "highest".into(),
+        Direction::LowerIsBetter => "lowest".into(),
+        Direction::Target(target) => format!("nearest the target {}", round_for_text(target, 4)),
+    }
+}
+
+/// Reading of the largest effects and of interactions that change which level is best.
+pub(super) fn read_model(
+    model: &KWayModel,
+    fit: Option<&FactorialFit>,
+    used: &[UsedFactor],
+    direction: Direction,
+    alpha: f64,
+    response: &str,
+) -> Vec<String> {
+    let mut reading = Vec::new();
+    let Some(fit) = fit else {
+        return reading;
+    };
+    let table = if fit.is_balanced {
+        &model.type_i
+    } else {
+        &model.type_iii
+    };
+    let mut terms: Vec<&AnovaLine> = table.iter().collect();
+    terms.sort_by(|a, b| b.sum_sq.total_cmp(&a.sum_sq));
+    let blocks: BTreeSet<&str> = used
+        .iter()
+        .filter(|factor| factor.is_block)
+        .map(|factor| factor.name.as_str())
+        .collect();
+    let total = fit.total.sum_sq;
+    for line in terms
+        .iter()
+        .filter(|line| !blocks.contains(line.source.as_str()))
+        .take(3)
+    {
+        let share = if total > 0.0 {
+            line.sum_sq / total * 100.0
+        } else {
+            f64::NAN
+        };
+        let shown = match line.p_value {
+            Some(p) if p < alpha => "clearly",
+            Some(_) => "not clearly",
+            None => "without a test",
+        };
+        let mut sentence = format!(
+            "{} accounts for {}% of the variation in {response} ({shown} beyond chance, p = {}).",
+            line.source.replace(':', " × "),
+            round_for_text(share, 2),
+            p_for_text(line.p_value.unwrap_or(f64::NAN))
+        );
+        if !line.source.contains(':') {
+            if let Some(means) = model.ls_means.iter().find(|means| means.factor == line.source) {
+                let values: Vec<Option<f64>> = means.means.iter().map(|m| m.estimate).collect();
+                let high = best_index(&values, Direction::HigherIsBetter);
+                let low = best_index(&values, Direction::LowerIsBetter);
+                if let (Some(high), Some(low)) = (high, low) {
+                    sentence.push_str(&format!(
+                        " Its averages run from {} at {} to {} at {}.",
+                        round_for_text(values[low].unwrap_or(f64::NAN), 4),
+                        means.means[low].label,
+                        round_for_text(values[high].unwrap_or(f64::NAN), 4),
+                        means.means[high].label
+                    ));
+                }
+            }
+        }
+        reading.push(sentence);
+    }
+    for table in &model.two_way_means {
+        if !table.interaction_p.is_some_and(|p| p < alpha) {
+            continue;
+        }
+        // Best x level for each trace level, and best trace level for each x level.
+        let mut best_x: Vec<Option<usize>> = Vec::new();
+        for row in &table.means {
+            best_x.push(best_index(row, direction));
+        }
+        let distinct_x: BTreeSet<usize> = best_x.iter().flatten().copied().collect();
+        if distinct_x.len() > 1 {
+            let parts: Vec<String> = best_x
+                .iter()
+                .enumerate()
+                .filter_map(|(trace, best)| {
+                    best.map(|x| {
+                        format!(
+                            "at {} {} it is {}",
+                            table.trace_factor, table.trace_levels[trace], table.x_levels[x]
+                        )
+                    })
+                })
+                .collect();
+            reading.push(format!(
+                "The {} level of {} depends on {} ({} × {} interaction, p = {}): {}.",
+                direction_words(direction),
+                table.x_factor,
+                table.trace_factor,
+                table.x_factor,
+                table.trace_factor,
+                p_for_text(table.interaction_p.unwrap_or(f64::NAN)),
+                parts.join("; ")
+            ));
+            continue;
+        }
+        let columns = table.x_levels.len();
+        let best_trace: Vec<Option<usize>> = (0..columns)
+            .map(|x| {
+                let column: Vec<Option<f64>> = table.means.iter().map(|row| row[x]).collect();
+                best_index(&column, direction)
+            })
+            .collect();
+        let distinct_trace: BTreeSet<usize> = best_trace.iter().flatten().copied().collect();
+        if distinct_trace.len() > 1 {
+            let parts: Vec<String> = best_trace
+                .iter()
+                .enumerate()
+                .filter_map(|(x, best)| {
+                    best.map(|trace| {
+                        format!(
+                            "at {} {} it is {}",
+                            table.x_factor, table.x_levels[x], table.trace_levels[trace]
+                        )
+                    })
+                })
+                .collect();
+            reading.push(format!(
+                "The {} level of {} depends on {} ({} × {} interaction, p = {}): {}.",
+                direction_words(direction),
+                table.trace_factor,
+                table.x_factor,
+                table.trace_factor,
+                table.x_factor,
+                p_for_text(table.interaction_p.unwrap_or(f64::NAN)),
+                parts.join("; ")
+            ));
+        } else {
+            reading.push(format!(
+                "{} and {} interact (p = {}), but the {} level of each is the same whatever the other is set to.",
+                table.x_factor,
+                table.trace_factor,
+                p_for_text(table.interaction_p.unwrap_or(f64::NAN)),
+                direction_words(direction)
+            ));
+        }
+    }
+    reading
+}
+
+pub(super) struct SummaryInput<'a> {
+    pub(super) response: &'a str,
+    pub(super) used: &'a [UsedFactor],
+    pub(super) model: Option<&'a KWayModel>,
+    pub(super) two_level: Option<&'a TwoLevelOutcome>,
+    pub(super) reduced: Option<&'a ReducedModel>,
+    pub(super) direction: Direction,
+    pub(super) confidence: f64,
+    pub(super) reading: &'a [String],
+}
+
+pub(super) fn manager_summary(input: &SummaryInput<'_>) -> Vec<String> {
+    let mut lines = Vec::new();
+    let treatments: Vec<&UsedFactor> = input.used.iter().filter(|f| !f.is_block).collect();
+    let percent = round_for_text(input.confidence * 100.0, 3);
+    let mut matter: Vec<String> = Vec::new();
+    let mut effect_sentences = Vec::new();
+    if let Some(two) = input.two_level.filter(|two| two.grand_mean.is_some()) {
+        let mut active: Vec<&TwoLevelEffect> = two.effects.iter().filter(|e| e.active).collect();
+        active.sort_by(|a, b| b.effect.abs().total_cmp(&a.effect.abs()));
+        for effect in &active {
+            matter.push(effect.term.replace(':', " × "));
+            let letters = effect.name.chars().count();
+            if letters == 1 {
+                let change = if effect.effect >= 0.0 { "raises" } else { "lowers" };
+                let interval = match (effect.low, effect.high) {
+                    (Some(low), Some(high)) => format!(
+                        " ({percent}% interval {} to {})",
+                        round_for_text(low, 3),
+                        round_for_text(high, 3)
+                    ),
+                    _ => String::new(),
+                };
+                effect_sentences.push(format!(
+                    "Moving {} from its low to its high level {change} {} by {} on average{interval}.",
+                    effect.term,
+                    input.response,
+                    round_for_text(effect.effect.abs(), 3)
+                ));
+            } else {
+                effect_sentences.push(format!(
+                    "The interaction {} changes {} by {} (effect); the effect of each of these factors depends on the others' settings.",
+                    effect.term.replace(':', " × "),
+                    input.response,
+                    round_for_text(effect.effect, 3)
+                ));
+            }
+        }
+    } else if let Some(model) = input.model {
+        let alpha = 1.0 - input.confidence;
+        let table = &model.type_iii;
+        for line in table {
+            let is_block = input.used.iter().any(|f| f.is_block && f.name == line.source);
+            if !is_block && line.p_value.is_some_and(|p| p < alpha) {
+                matter.push(line.source.replace(':', " × "));
+            }
+        }
+        for means in &model.ls_means {
+            if !matter.contains(&means.factor) {
+                continue;
+            }
+            let values: Vec<Option<f64>> = means.means.iter().map(|m| m.estimate).collect();
+            if let (Some(best), Some(worst)) = (
+                best_index(&values, input.direction),
+                worst_index(&values, input.direction),
+            ) {
+                effect_sentences.push(format!(
+                    "{}: {} is best (average {}), {} worst (average {}), a difference of {}.",
+                    means.factor,
+                    means.means[best].label,
+                    round_for_text(values[best].unwrap_or(f64::NAN), 4),
+                    means.means[worst].label,
+                    round_for_text(values[worst].unwrap_or(f64::NAN), 4),
+                    round_for_text((values[best].unwrap_or(0.0) - values[worst].unwrap_or(0.0)).abs(), 3)
+                ));
+            }
+        }
+    }
+    let quiet: Vec<String> = treatments
+        .iter()
+        .filter(|factor| !matter.iter().any(|m| m.split(" × ").any(|part| part == factor.name)))
+        .map(|factor| factor.name.clone())
+        .collect();
+    if matter.is_empty() {
+        lines.push(format!(
+            "None of the {} factors shows a clear effect on {} at {percent}% confidence; differences this size could be chance.",
+            treatments.len(),
+            input.response
+        ));
+    } else {
+        let mut sentence = format!("What matters for {}: {}.", input.response, matter.join(", "));
+        if !quiet.is_empty() {
+            sentence.push_str(&format!(" No clear effect from {}.", quiet.join(", ")));
+        }
+        lines.push(sentence);
+    }
+    lines.extend(effect_sentences);
+    lines.extend(input.reading.iter().filter(|line| line.contains("depends on")).cloned());
+    if let Some(best) = input.reduced.and_then(|reduced| reduced.best.as_ref()) {
+        let settings: Vec<String> = best
+            .settings
+            .iter()
+            .map(|(factor, level)| format!("{factor} {level}"))
+            .collect();
+        let mut sentence = format!(
+            "Recommended settings ({} {}): {}; predicted {} {}",
+            direction_words(input.direction),
+            input.response,
+            settings.join(", "),
+            input.response,
+            round_for_text(best.mean, 4)
+        );
+        if let (Some(mean), Some(single)) = (best.mean_interval, best.single_run_interval) {
+            sentence.push_str(&format!(
+                " ({percent}% interval for the average {} to {}; a single run {} to {})",
+                round_for_text(mean.0, 4),
+                round_for_text(mean.1, 4),
+                round_for_text(single.0, 4),
+                round_for_text(single.1, 4)
+            ));
+        }
+        sentence.push('.');
+        if !quiet.is_empty() {
+            sentence.push_str(" Set the other factors for cost or convenience.");
+        }
+        lines.push(sentence);
+    }
+    lines
+}
+
+/// The worst of the values: lowest, highest, or furthest from the target.
+pub(super) fn worst_index(values: &[Option<f64>], direction: Direction) -> Option<usize> {
+    match direction {
+        Direction::HigherIsBetter => best_index(values, Direction::LowerIsBetter),
+        Direction::LowerIsBetter => best_index(values, Direction::HigherIsBetter),
+        Direction::Target(target) => {
+            let distances: Vec<Option<f64>> = values.iter().map(|v| v.map(|v| (v - target).abs())).collect();
+            best_index(&distances, Direction::HigherIsBetter)
+        }
+    }
+}

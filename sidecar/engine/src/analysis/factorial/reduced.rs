@@ -1,0 +1,618 @@
+//! The reduced model of the active effects (general or two-level), its coefficients, the
+//! best settings found and the prediction there.
+
+use std::collections::{BTreeMap, BTreeSet};
+
+use nalgebra::{DMatrix, DVector};
+
+use crate::analysis::verdict::round_for_text;
+use crate::options::Direction;
+use crate::stats::accumulate::GroupAccumulator;
+use crate::stats::dist::t_sf;
+use crate::stats::linear_model::{CellSummary, FactorialFit};
+use crate::stats::two_level::Word;
+
+use super::coding::{Coding, UsedFactor};
+use super::kway::t_multiplier;
+use super::readings::better;
+use super::residuals::{residual_check, residual_check_of};
+use super::results::{CoefficientLine, Prediction, ReducedModel, TwoLevelOutcome};
+use super::screening::word_names;
+use super::{FactorialData, MAX_SETTINGS_SEARCHED};
+
+pub(super) struct ReducedInput<'a> {
+    pub(super) table: &'a FactorialData<'a>,
+    pub(super) used: &'a [UsedFactor],
+    pub(super) cells: &'a [CellSummary],
+    pub(super) cell_of_record: &'a [u32],
+    pub(super) model_records: &'a [usize],
+    pub(super) fit: Option<&'a FactorialFit>,
+    pub(super) two_level: Option<&'a TwoLevelOutcome>,
+    pub(super) coding: Option<&'a Coding>,
+    pub(super) treatments: &'a [usize],
+    pub(super) centre_records: &'a [usize],
+    pub(super) confidence: f64,
+    pub(super) direction: Direction,
+}
+
+/// A column of the reduced model: a term (factor positions in `used`) in sum-to-zero
+/// coding, or a two-level word on the coded runs, or the centre-point indicator.
+#[derive(Clone)]
+pub(super) enum Column {
+    Intercept,
+    /// term factors (positions in `used`) and the level combination index within it
+    Coded {
+        factors: Vec<usize>,
+        offset: usize,
+    },
+    Word(Word),
+    Curvature,
+}
+
+/// A weighted least-squares fit to rows (one per cell) with `n` weights.
+pub(super) struct RowFit {
+    pub(super) coefficients: DVector<f64>,
+    /// R of the QR of the weighted matrix
+    pub(super) r: DMatrix<f64>,
+    pub(super) residual_ss: f64,
+    pub(super) residual_df: usize,
+    pub(super) total_ss: f64,
+}
+
+impl RowFit {
+    /// Standard error factor: `|R^-T x|`, so that `se = s |R^-T x|`.
+    fn unscaled_se(&self, row: &DVector<f64>) -> Option<f64> {
+        let solution = self.r.transpose().solve_lower_triangular(row)?;
+        Some(solution.norm())
+    }
+}
+
+/// Weighted least squares by Householder QR: rows `x_c`, weights `n_c`, cell means and
+/// centred sums. `None` when the columns are dependent or there are too few cells.
+pub(super) fn fit_rows(rows: &[Vec<f64>], counts: &[usize], means: &[f64], centred: &[f64]) -> Option<RowFit> {
+    let n_columns = rows.first()?.len();
+    if rows.len() < n_columns {
+        return None;
+    }
+    let mut matrix = DMatrix::<f64>::zeros(rows.len(), n_columns);
+    let mut response = DVector::<f64>::zeros(rows.len());
+    for (index, row) in rows.iter().enumerate() {
+        let weight = (counts[index] as f64).sqrt();
+        for (column, value) in row.iter().enumerate() {
+            matrix[(index, column)] = weight * value;
+        }
+        response[index] = weight * means[index];
+    }
+    let column_norms: Vec<f64> = (0..n_columns).map(|column| matrix.column(column).norm()).collect();
+    let qr = matrix.clone().qr();
+    let r = qr.r();
+    for column in 0..n_columns {
+        let diagonal = r[(column, column)].abs();
+        if diagonal.is_nan() || diagonal <= 1e-9 * column_norms[column].max(f64::MIN_POSITIVE) {
+            return None;
+        }
+    }
+    let q_transpose_y = qr.q().transpose() * &response;
+    let coefficients = r.solve_upper_triangular(&q_transpose_y)?;
+    let fitted = &matrix * &coefficients;
+    let within: f64 = centred.iter().sum();
+    let lack: f64 = (&response - fitted).norm_squared();
+    let n_total: usize = counts.iter().sum();
+    let grand = counts.iter().zip(means).map(|(&n, &m)| n as f64 * m).sum::<f64>() / n_total as f64;
+    let between: f64 = counts
+        .iter()
+        .zip(means)
+        .map(|(&n, &m)| n as f64 * (m - grand).powi(2))
+        .sum();
+    Some(RowFit {
+        coefficients,
+        r,
+        residual_ss: within + lack,
+        residual_df: n_total.saturating_sub(n_columns),
+        total_ss: within + between,
+    })
+}
+
+pub(super) fn coding_value(n_levels: usize, level: usize, column: usize) -> f64 {
+    if level == n_levels - 1 {
+        -1.0
+    } else if level == column {
+        1.0
+    } else {
+        0.0
+    }
+}
+
+/// Value of a sum-to-zero column of a term at a combination of levels.
+pub(super) fn coded_value(used: &[UsedFactor], factors: &[usize], offset: usize, levels: &[usize]) -> f64 {
+    // offset enumerates the term's columns, last factor fastest.
+    let mut rest = offset;
+    let mut value = 1.0;
+    for &factor in factors.iter().rev() {
+        let width = used[factor].level_names.len() - 1;
+        let column = rest % width;
+        rest /= width;
+        value *= coding_value(used[factor].level_names.len(), levels[factor], column);
+    }
+    value
+}
+
+pub(super) fn subsets(factors: &[usize]) -> Vec<Vec<usize>> {
+    let mut out = Vec::new();
+    for mask in 1u32..(1u32 << factors.len()) {
+        out.push(
+            factors
+                .iter()
+                .enumerate()
+                .filter(|(position, _)| mask & (1 << position) != 0)
+                .map(|(_, &f)| f)
+                .collect(),
+        );
+    }
+    out
+}
+
+pub(super) fn reduced_model(input: &ReducedInput<'_>) -> Option<ReducedModel> {
+    let alpha = 1.0 - input.confidence;
+    match input.two_level.filter(|two| two.grand_mean.is_some()) {
+        Some(two) => reduced_two_level(input, two, alpha),
+        None => reduced_general(input, alpha),
+    }
+}
+
+/// Columns and names for a set of hierarchical terms in sum-to-zero coding.
+pub(super) fn general_columns(used: &[UsedFactor], terms: &[Vec<usize>]) -> (Vec<Column>, Vec<String>) {
+    let mut columns = vec![Column::Intercept];
+    let mut names = vec!["intercept".to_string()];
+    for term in terms {
+        let widths: Vec<usize> = term.iter().map(|&f| used[f].level_names.len() - 1).collect();
+        let total: usize = widths.iter().product();
+        for offset in 0..total {
+            columns.push(Column::Coded {
+                factors: term.clone(),
+                offset,
+            });
+            // Name by the levels of each factor's column.
+            let mut rest = offset;
+            let mut parts = Vec::new();
+            for (position, &factor) in term.iter().enumerate().rev() {
+                let column = rest % widths[position];
+                rest /= widths[position];
+                parts.push(format!("{}[{}]", used[factor].name, used[factor].level_names[column]));
+            }
+            parts.reverse();
+            names.push(parts.join(":"));
+        }
+    }
+    (columns, names)
+}
+
+pub(super) fn reduced_general(input: &ReducedInput<'_>, alpha: f64) -> Option<ReducedModel> {
+    let fit = input.fit?;
+    let used = input.used;
+    let index_of = |name: &str| -> Option<Vec<usize>> {
+        fit.terms
+            .iter()
+            .find(|term| term.name == name)
+            .map(|term| term.factors.clone())
+    };
+    let mut active: Vec<Vec<usize>> = Vec::new();
+    let mut active_names = Vec::new();
+    for row in &fit.type_iii.rows {
+        let Some(factors) = index_of(&row.term) else { continue };
+        if factors.iter().all(|&f| !used[f].is_block) && row.p_value.is_some_and(|p| p < alpha) {
+            active_names.push(row.term.clone());
+            active.push(factors);
+        }
+    }
+    let mut terms: BTreeSet<(usize, Vec<usize>)> = BTreeSet::new();
+    for (position, factor) in used.iter().enumerate() {
+        if factor.is_block {
+            terms.insert((0, vec![position]));
+        }
+    }
+    for term in &active {
+        for subset in subsets(term) {
+            terms.insert((subset.len(), subset));
+        }
+    }
+    let terms: Vec<Vec<usize>> = terms.into_iter().map(|(_, term)| term).collect();
+    let (columns, names) = general_columns(used, &terms);
+    let rows: Vec<Vec<f64>> = input
+        .cells
+        .iter()
+        .map(|cell| column_row(&columns, used, &cell.levels, None, false))
+        .collect();
+    let counts: Vec<usize> = input.cells.iter().map(|c| c.n).collect();
+    let means: Vec<f64> = input.cells.iter().map(|c| c.mean).collect();
+    let centred: Vec<f64> = input.cells.iter().map(|c| c.centred_ss).collect();
+    let row_fit = fit_rows(&rows, &counts, &means, &centred)?;
+    let sigma = (row_fit.residual_df > 0).then(|| (row_fit.residual_ss / row_fit.residual_df as f64).sqrt());
+    let fitted_cells: Vec<f64> = rows.iter().map(|row| dot(row, &row_fit.coefficients)).collect();
+    let residual_check = residual_check(input, &fitted_cells, sigma);
+    // Best settings over the treatment factors in the model (blocks averaged out).
+    let model_factors: Vec<usize> = {
+        let set: BTreeSet<usize> = terms.iter().flatten().copied().filter(|&f| !used[f].is_block).collect();
+        set.into_iter().collect()
+    };
+    let observed: BTreeSet<Vec<usize>> = input
+        .cells
+        .iter()
+        .map(|cell| model_factors.iter().map(|&f| cell.levels[f]).collect())
+        .collect();
+    let best = best_setting(
+        &model_factors
+            .iter()
+            .map(|&f| used[f].level_names.len())
+            .collect::<Vec<_>>(),
+        input.direction,
+        |choice| {
+            let mut levels = vec![usize::MAX; used.len()];
+            for (&factor, &level) in model_factors.iter().zip(choice) {
+                levels[factor] = level;
+            }
+            column_row(&columns, used, &levels, None, false)
+        },
+        &row_fit,
+    )
+    .map(|(choice, row, mean)| {
+        prediction(
+            model_factors
+                .iter()
+                .zip(&choice)
+                .map(|(&f, &level)| (used[f].name.clone(), used[f].level_names[level].clone()))
+                .collect(),
+            mean,
+            &row,
+            &row_fit,
+            sigma,
+            input.confidence,
+            observed.contains(&choice),
+        )
+    });
+    Some(ReducedModel {
+        active_terms: active_names,
+        terms: terms
+            .iter()
+            .map(|term| term.iter().map(|&f| used[f].name.clone()).collect::<Vec<_>>().join(":"))
+            .collect(),
+        rule: format!(
+            "terms with p below {} in the Type III table, with every term they contain; blocks always kept",
+            round_for_text(alpha, 3)
+        ),
+        coefficients: coefficient_lines(&names, &row_fit, sigma),
+        residual_sd: sigma,
+        residual_df: row_fit.residual_df,
+        r_squared: (row_fit.total_ss > 0.0).then(|| 1.0 - row_fit.residual_ss / row_fit.total_ss),
+        residual_check,
+        best,
+    })
+}
+
+pub(super) fn dot(row: &[f64], coefficients: &DVector<f64>) -> f64 {
+    row.iter().zip(coefficients.iter()).map(|(a, b)| a * b).sum()
+}
+
+/// One design row. `levels[f] == usize::MAX` means "averaged over" (a block, or a factor
+/// outside the model): its sum-to-zero columns are then 0. `coded` holds ±1/0 values of
+/// the treatment factors for word columns.
+pub(super) fn column_row(
+    columns: &[Column],
+    used: &[UsedFactor],
+    levels: &[usize],
+    coded: Option<&[f64]>,
+    centre: bool,
+) -> Vec<f64> {
+    columns
+        .iter()
+        .map(|column| match column {
+            Column::Intercept => 1.0,
+            Column::Coded { factors, offset } => {
+                if factors.iter().any(|&f| levels.get(f).is_none_or(|&l| l == usize::MAX)) {
+                    0.0
+                } else {
+                    coded_value(used, factors, *offset, levels)
+                }
+            }
+            Column::Word(word) => match coded {
+                Some(values) => word
+                    .factors()
+                    .iter()
+                    .map(|&f| values.get(f).copied().unwrap_or(0.0))
+                    .product(),
+                None => 0.0,
+            },
+            Column::Curvature => {
+                if centre {
+                    1.0
+                } else {
+                    0.0
+                }
+            }
+        })
+        .collect()
+}
+
+pub(super) fn coefficient_lines(names: &[String], fit: &RowFit, sigma: Option<f64>) -> Vec<CoefficientLine> {
+    names
+        .iter()
+        .enumerate()
+        .map(|(index, name)| {
+            let mut unit = DVector::<f64>::zeros(names.len());
+            unit[index] = 1.0;
+            let se = sigma.zip(fit.unscaled_se(&unit)).map(|(s, u)| s * u);
+            let estimate = fit.coefficients[index];
+            let t_value = se.filter(|se| *se > 0.0).map(|se| estimate / se);
+            let p_value = t_value.and_then(|t| {
+                t_sf(t.abs(), fit.residual_df as f64)
+                    .ok()
+                    .map(|tail| (2.0 * tail).min(1.0))
+            });
+            CoefficientLine {
+                name: name.clone(),
+                estimate,
+                se,
+                t_value,
+                p_value,
+            }
+        })
+        .collect()
+}
+
+/// Searches every combination of the given level counts for the best prediction.
+pub(super) fn best_setting(
+    level_counts: &[usize],
+    direction: Direction,
+    row_of: impl Fn(&[usize]) -> Vec<f64>,
+    fit: &RowFit,
+) -> Option<(Vec<usize>, Vec<f64>, f64)> {
+    let total = level_counts
+        .iter()
+        .try_fold(1usize, |product, &count| product.checked_mul(count))
+        .filter(|&total| total <= MAX_SETTINGS_SEARCHED)?;
+    let mut best: Option<(Vec<usize>, Vec<f64>, f64)> = None;
+    let mut choice = vec![0usize; level_counts.len()];
+    for _ in 0..total {
+        let row = row_of(&choice);
+        let mean = dot(&row, &fit.coefficients);
+        if best
+            .as_ref()
+            .is_none_or(|(_, _, incumbent)| better(direction, mean, *incumbent))
+        {
+            best = Some((choice.clone(), row, mean));
+        }
+        for position in (0..choice.len()).rev() {
+            choice[position] += 1;
+            if choice[position] < level_counts[position] {
+                break;
+            }
+            choice[position] = 0;
+        }
+    }
+    best
+}
+
+pub(super) fn prediction(
+    settings: Vec<(String, String)>,
+    mean: f64,
+    row: &[f64],
+    fit: &RowFit,
+    sigma: Option<f64>,
+    confidence: f64,
+    was_run: bool,
+) -> Prediction {
+    let multiplier = t_multiplier(confidence, fit.residual_df);
+    let unscaled = fit.unscaled_se(&DVector::from_column_slice(row));
+    let (mean_interval, single_run_interval) = match (sigma, multiplier, unscaled) {
+        (Some(s), Some(t), Some(u)) => {
+            let mean_half = t * s * u;
+            let single_half = t * s * (1.0 + u * u).sqrt();
+            (
+                Some((mean - mean_half, mean + mean_half)),
+                Some((mean - single_half, mean + single_half)),
+            )
+        }
+        _ => (None, None),
+    };
+    Prediction {
+        settings,
+        mean,
+        mean_interval,
+        single_run_interval,
+        was_run,
+    }
+}
+
+pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome, alpha: f64) -> Option<ReducedModel> {
+    let coding = input.coding?;
+    let table = input.table;
+    let n_treatments = input.treatments.len();
+    let names: Vec<String> = input
+        .treatments
+        .iter()
+        .map(|&f| table.factors[f].name.to_string())
+        .collect();
+    let active: Vec<Word> = two
+        .effects
+        .iter()
+        .filter(|effect| effect.active)
+        .filter_map(|effect| Word::parse(&effect.name).ok())
+        .collect();
+    // Hierarchy: every sub-word of an active word, each alias chain once.
+    let mut words: BTreeSet<Word> = BTreeSet::new();
+    for word in &active {
+        let factors = word.factors();
+        for subset in subsets(&factors) {
+            if let Ok(sub) = Word::from_factors(&subset) {
+                words.insert(sub);
+            }
+        }
+    }
+    let curvature_active = two
+        .curvature
+        .as_ref()
+        .is_some_and(|c| c.p_value.is_some_and(|p| p < alpha));
+    let mut columns = vec![Column::Intercept];
+    let mut column_names = vec!["intercept".to_string()];
+    for word in &words {
+        columns.push(Column::Word(*word));
+        column_names.push(format!("{} ({})", word, word_names(*word, &names)));
+    }
+    if curvature_active {
+        columns.push(Column::Curvature);
+        column_names.push("centre points (curvature)".into());
+    }
+    // Cells keyed by the coded run (centre points included).
+    let values = table.values;
+    let records: Vec<usize> = {
+        let mut all: Vec<usize> = input.model_records.to_vec();
+        all.extend_from_slice(input.centre_records);
+        all.sort_unstable();
+        all
+    };
+    let coded_of = |record: usize| -> Vec<f64> {
+        input
+            .treatments
+            .iter()
+            .enumerate()
+            .map(|(position, &factor)| {
+                coding.coded[position][table.factors[factor].level_of_record[record] as usize].unwrap_or(0.0)
+            })
+            .collect()
+    };
+    let mut cell_index: BTreeMap<Vec<i8>, usize> = BTreeMap::new();
+    let mut cell_values: Vec<Vec<f64>> = Vec::new();
+    let mut cell_coded: Vec<Vec<f64>> = Vec::new();
+    let mut cell_of: Vec<usize> = Vec::with_capacity(records.len());
+    for &record in &records {
+        let coded = coded_of(record);
+        let key: Vec<i8> = coded.iter().map(|v| *v as i8).collect();
+        let next = cell_index.len();
+        let index = *cell_index.entry(key).or_insert(next);
+        if index == cell_values.len() {
+            cell_values.push(Vec::new());
+            cell_coded.push(coded);
+        }
+        cell_values[index].push(values[record]);
+        cell_of.push(index);
+    }
+    let mut counts = Vec::new();
+    let mut means = Vec::new();
+    let mut centred = Vec::new();
+    let mut rows = Vec::new();
+    for (cell, group) in cell_values.iter().enumerate() {
+        let mut accumulator = GroupAccumulator::new(1);
+        for &value in group {
+            accumulator.push(0, value).ok()?;
+        }
+        let stats = accumulator.finish();
+        counts.push(group.len());
+        means.push(stats[0].mean);
+        centred.push(stats[0].centred_ss.max(0.0));
+        let is_centre = cell_coded[cell].iter().all(|v| *v == 0.0);
+        rows.push(column_row(
+            &columns,
+            input.used,
+            &[],
+            Some(&cell_coded[cell]),
+            is_centre,
+        ));
+    }
+    let row_fit = fit_rows(&rows, &counts, &means, &centred)?;
+    let sigma = (row_fit.residual_df > 0).then(|| (row_fit.residual_ss / row_fit.residual_df as f64).sqrt());
+    let fitted_cells: Vec<f64> = rows.iter().map(|row| dot(row, &row_fit.coefficients)).collect();
+    let residuals: Vec<f64> = records
+        .iter()
+        .zip(&cell_of)
+        .map(|(&record, &cell)| values[record] - fitted_cells[cell])
+        .collect();
+    let residual_check = residual_check_of(&residuals, &records, sigma);
+    // Best corner over the factors in the model.
+    let model_factors: Vec<usize> = {
+        let set: BTreeSet<usize> = words.iter().flat_map(|word| word.factors()).collect();
+        set.into_iter().collect()
+    };
+    let observed: BTreeSet<Vec<i8>> = cell_coded
+        .iter()
+        .map(|coded| model_factors.iter().map(|&f| coded[f] as i8).collect())
+        .collect();
+    let best = if model_factors.is_empty() {
+        None
+    } else {
+        best_setting(
+            &vec![2; model_factors.len()],
+            input.direction,
+            |choice| {
+                let mut coded = vec![0.0; n_treatments];
+                for (&factor, &level) in model_factors.iter().zip(choice) {
+                    coded[factor] = if level == 0 { -1.0 } else { 1.0 };
+                }
+                column_row(&columns, input.used, &[], Some(&coded), false)
+            },
+            &row_fit,
+        )
+        .map(|(choice, row, mean)| {
+            let key: Vec<i8> = choice.iter().map(|&level| if level == 0 { -1 } else { 1 }).collect();
+            prediction(
+                model_factors
+                    .iter()
+                    .zip(&choice)
+                    .map(|(&f, &level)| {
+                        let info = &coding.info[f];
+                        (
+                            names[f].clone(),
+                            if level == 0 {
+                                info.low.clone()
+                            } else {
+                                info.high.clone()
+                            },
+                        )
+                    })
+                    .collect(),
+                mean,
+                &row,
+                &row_fit,
+                sigma,
+                input.confidence,
+                observed.contains(&key),
+            )
+        })
+    };
+    let rule = if two.pure_error_df > 0 {
+        format!(
+            "effects with p below {} against pure error, with every effect they contain",
+            round_for_text(alpha, 3)
+        )
+    } else {
+        "effects beyond Lenth's margin of error, with every effect they contain".to_string()
+    };
+    Some(ReducedModel {
+        active_terms: active.iter().map(|w| word_names(*w, &names)).collect(),
+        terms: words.iter().map(|w| word_names(*w, &names)).collect(),
+        rule,
+        coefficients: coefficient_lines(&column_names, &row_fit, sigma),
+        residual_sd: sigma,
+        residual_df: row_fit.residual_df,
+        r_squared: (row_fit.total_ss > 0.0).then(|| 1.0 - row_fit.residual_ss / row_fit.total_ss),
+        residual_check,
+        best,
+    })
+}
+
+/// Cautions on the reduced model: residuals far from normal (p below 0.01), a best
+/// setting that was not among the runs.
+pub(super) fn reduced_cautions(reduced: &ReducedModel) -> Vec<String> {
+    let mut cautions = Vec::new();
+    if let Some(check) = &reduced.residual_check {
+        let p = check.shapiro_wilk.or(check.anderson_darling).map(|(_, p)| p);
+        if p.is_some_and(|p| p < 0.01) {
+            cautions.push(check.reading.clone());
+        }
+    }
+    if let Some(best) = &reduced.best {
+        if !best.was_run {
+            cautions.push("The recommended combination of levels was not among the runs; confirm it with a few runs before relying on it.".into());
+        }
+    }
+    cautions
+}

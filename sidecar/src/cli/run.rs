@@ -1,0 +1,205 @@
+//! `trialyst run`: the batch over workbooks, its progress bar and its lines (plain or JSON).
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+
+use service::batch::RunOutcome;
+use service::collect_workbooks;
+use service::settings::Settings;
+use service::AnalysisRequest;
+
+use super::args::{analysis_settings, RunArgs};
+use super::{EXIT_OK, EXIT_SOME_FAILED, EXIT_USAGE};
+
+pub(crate) fn json_line(path: &Path, outcome: &RunOutcome) -> String {
+    let value = match outcome {
+        RunOutcome::Analysed(results, written) => {
+            let mut value = serde_json::to_value(results.as_ref()).unwrap_or(serde_json::Value::Null);
+            if let serde_json::Value::Object(map) = &mut value {
+                map.insert("status".into(), "analysed".into());
+                map.insert(
+                    "results_file".into(),
+                    written
+                        .as_ref()
+                        .map(|path| serde_json::Value::from(path.display().to_string()))
+                        .unwrap_or(serde_json::Value::Null),
+                );
+            }
+            value
+        }
+        RunOutcome::Failed(message) => serde_json::json!({
+            "format_version": service::RESULTS_FORMAT_VERSION,
+            "status": "failed",
+            "source": { "path": path.display().to_string() },
+            "error": message,
+        }),
+    };
+    serde_json::to_string(&value).unwrap_or_default()
+}
+
+pub(crate) fn human_line(path: &Path, outcome: &RunOutcome) -> String {
+    match outcome {
+        RunOutcome::Analysed(results, written) => {
+            let verdicts: Vec<String> = results
+                .responses
+                .iter()
+                .map(|response| match &response.verdict {
+                    Some(verdict) => format!("{}: {}", response.name, verdict.headline),
+                    None => format!("{}: not analysed", response.name),
+                })
+                .collect();
+            let target = written
+                .as_ref()
+                .map(|path| format!(" -> {}", path.display()))
+                .unwrap_or_default();
+            format!(
+                "analysed {}{target} ({} finding(s))\n  {}",
+                path.display(),
+                results.findings.len(),
+                verdicts.join("\n  ")
+            )
+        }
+        RunOutcome::Failed(message) => format!("failed {}: {message}", path.display()),
+    }
+}
+
+/// What a batch needs beyond the workbooks.
+struct BatchOptions<'a> {
+    /// The settings from the command line.
+    pub settings: Settings,
+    /// The folder for results given on the command line.
+    pub out_dir: Option<&'a Path>,
+    /// Whether to write results workbooks.
+    pub write: bool,
+    /// Threads.
+    pub jobs: usize,
+    /// JSON lines on stdout.
+    pub json: bool,
+    /// The roll-up workbook to write.
+    pub rollup: Option<&'a Path>,
+}
+
+/// Runs a batch over `paths`; returns the process exit code.
+fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> i32 {
+    let started = Instant::now();
+    let (workbooks, problems) = collect_workbooks(paths, recursive);
+    let roots: Vec<PathBuf> = paths.iter().filter(|path| path.is_dir()).cloned().collect();
+    let (folder_settings, chosen) = match service::batch::folder_settings_for(&workbooks, &roots) {
+        Ok(found) => found,
+        Err(message) => {
+            eprintln!("trialyst: {message}");
+            return EXIT_USAGE;
+        }
+    };
+    let base = AnalysisRequest {
+        settings: options.settings.clone(),
+        ..AnalysisRequest::default()
+    };
+    let progress = ProgressBar::with_draw_target(Some(workbooks.len() as u64), ProgressDrawTarget::stderr());
+    if let Ok(style) = ProgressStyle::with_template("{bar:40} {pos}/{len} workbooks, {per_sec}, about {eta} left") {
+        progress.set_style(style);
+    }
+    let request_of = |index: usize| -> AnalysisRequest {
+        AnalysisRequest {
+            folder_settings: chosen[index].map(|which| folder_settings[which].clone()),
+            ..base.clone()
+        }
+    };
+    let outcomes = service::batch::run_parallel_with(
+        &workbooks,
+        &request_of,
+        options.out_dir,
+        options.write,
+        options.jobs,
+        &|| progress.inc(1),
+    );
+    progress.finish_and_clear();
+
+    let stdout = std::io::stdout();
+    let mut out = stdout.lock();
+    let mut failed = problems.len();
+    for (path, message) in &problems {
+        if options.json {
+            let _ = writeln!(out, "{}", json_line(path, &RunOutcome::Failed(message.clone())));
+        } else {
+            eprintln!("failed {}: {message}", path.display());
+        }
+    }
+    let mut analysed = 0;
+    for (path, outcome) in workbooks.iter().zip(&outcomes) {
+        match outcome {
+            RunOutcome::Analysed(..) => analysed += 1,
+            RunOutcome::Failed(_) => failed += 1,
+        }
+        if options.json {
+            let _ = writeln!(out, "{}", json_line(path, outcome));
+        } else if matches!(outcome, RunOutcome::Failed(_)) {
+            eprintln!("{}", human_line(path, outcome));
+        } else {
+            let _ = writeln!(out, "{}", human_line(path, outcome));
+        }
+    }
+    let _ = out.flush();
+    let mut rollup_note = String::new();
+    if let Some(rollup) = options.rollup {
+        match service::batch::write_rollup(rollup, &workbooks, &outcomes, &problems) {
+            Ok(()) => rollup_note = format!("; roll-up {}", rollup.display()),
+            Err(message) => {
+                eprintln!("trialyst: {message}");
+                failed += 1;
+            }
+        }
+    }
+    let seconds = started.elapsed().as_secs_f64();
+    let rate = if seconds > 0.0 {
+        (analysed + failed) as f64 / seconds
+    } else {
+        0.0
+    };
+    eprintln!("trialyst: {analysed} analysed, {failed} failed in {seconds:.1} s ({rate:.0} workbooks/s){rollup_note}");
+    if workbooks.is_empty() && problems.is_empty() {
+        eprintln!("trialyst: no workbooks found in the paths given");
+        return EXIT_SOME_FAILED;
+    }
+    if failed > 0 {
+        EXIT_SOME_FAILED
+    } else {
+        EXIT_OK
+    }
+}
+
+/// `trialyst run`: checks the options, then runs the batch; returns the exit code.
+pub(crate) fn run_command(args: RunArgs) -> i32 {
+    let settings = match analysis_settings(&args.analysis) {
+        Ok(settings) => settings,
+        Err(error) => {
+            eprintln!("trialyst: {error}");
+            return EXIT_USAGE;
+        }
+    };
+    if let Some(out_dir) = &args.out_dir {
+        if let Err(error) = std::fs::create_dir_all(out_dir) {
+            eprintln!(
+                "trialyst: cannot create the output folder '{}': {error}",
+                out_dir.display()
+            );
+            return EXIT_USAGE;
+        }
+    }
+    let jobs = args
+        .jobs
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+        .max(1);
+    let options = BatchOptions {
+        settings,
+        out_dir: args.out_dir.as_deref(),
+        write: !args.no_write,
+        jobs,
+        json: args.json,
+        rollup: args.rollup.as_deref(),
+    };
+    run_batch(&args.paths, args.recursive, &options)
+}

@@ -1,0 +1,326 @@
+//! Finding the header row and the columns under it: rows of the region, the header row,
+//! the header names (merged, blank and duplicated headers) and what each column holds.
+
+use std::collections::HashMap;
+
+use crate::cell::{column_letters, CellPos, CellValue};
+use crate::read::SheetGrid;
+
+use super::{Finding, FindingKind, Findings};
+
+#[derive(Default, Clone, Copy)]
+pub(super) struct ColumnCounts {
+    /// True while every number so far is one more than the one above it.
+    pub(super) counts_up: bool,
+    pub(super) last_number: Option<f64>,
+    pub(super) numbers: usize,
+    pub(super) texts: usize,
+    pub(super) booleans: usize,
+    pub(super) dates: usize,
+    pub(super) errors: usize,
+}
+
+impl ColumnCounts {
+    pub(super) fn non_empty(&self) -> usize {
+        self.numbers + self.texts + self.booleans + self.dates + self.errors
+    }
+    pub(super) fn is_numeric(&self) -> bool {
+        self.numbers > 0 && self.numbers * 2 >= self.non_empty()
+    }
+}
+
+pub(super) struct HeaderColumn {
+    pub(super) col: u32,
+    pub(super) name: String,
+    pub(super) counts: ColumnCounts,
+    pub(super) distinct_labels: usize,
+}
+
+/// The position of each column in a list of columns, looked up in constant
+/// time (a table may have thousands of columns and a million rows).
+pub(super) struct ColumnIndex {
+    slots: Vec<u32>,
+}
+
+impl ColumnIndex {
+    pub(super) fn new(columns: &[u32]) -> Self {
+        // Grids hold columns of a sheet only (below MAX_COLS).
+        let size = columns
+            .iter()
+            .map(|&col| col as usize + 1)
+            .max()
+            .unwrap_or(0)
+            .min(crate::cell::MAX_COLS as usize);
+        let mut slots = vec![u32::MAX; size];
+        // The first listing of a column wins, as a search from the front would find it.
+        for (index, &col) in columns.iter().enumerate().rev() {
+            if let Some(slot) = slots.get_mut(col as usize) {
+                *slot = index as u32;
+            }
+        }
+        Self { slots }
+    }
+
+    pub(super) fn index(&self, col: u32) -> Option<usize> {
+        match self.slots.get(col as usize) {
+            Some(&slot) if slot != u32::MAX => Some(slot as usize),
+            _ => None,
+        }
+    }
+}
+
+/// Start and end indices of each row's cells.
+pub(super) fn row_spans(cells: &[(CellPos, CellValue)]) -> Vec<(usize, usize)> {
+    let mut spans = Vec::new();
+    let mut start = 0;
+    for index in 1..=cells.len() {
+        if index == cells.len() || cells[index].0.row != cells[start].0.row {
+            spans.push((start, index));
+            start = index;
+        }
+    }
+    spans
+}
+
+/// The header is the first row of text cells followed by a row with a
+/// number; rows with two or more texts are preferred over a lone title.
+pub(super) fn find_header_row(
+    cells: &[(CellPos, CellValue)],
+    rows: &[(usize, usize)],
+    explicit_range: bool,
+) -> Option<usize> {
+    let is_text = |value: &CellValue| matches!(value, CellValue::Text(_));
+    let row_has_number = |span: &(usize, usize)| {
+        cells[span.0..span.1]
+            .iter()
+            .any(|(_, value)| matches!(value, CellValue::Number(_)))
+    };
+    if explicit_range {
+        let first = rows.first()?;
+        return cells[first.0..first.1]
+            .iter()
+            .any(|(_, value)| is_text(value))
+            .then_some(0);
+    }
+    let scan = rows.len().min(200);
+    let mut lone_title: Option<usize> = None;
+    for index in 0..scan {
+        let span = rows[index];
+        let row_cells = &cells[span.0..span.1];
+        let n_text = row_cells.iter().filter(|(_, value)| is_text(value)).count();
+        let all_text = n_text == row_cells.len();
+        let followed_by_numbers = rows[index + 1..rows.len().min(index + 6)].iter().any(row_has_number);
+        if !all_text || !followed_by_numbers {
+            continue;
+        }
+        if n_text >= 2 {
+            return Some(index);
+        }
+        lone_title.get_or_insert(index);
+    }
+    lone_title
+}
+
+/// The header names of the table: merged header cells spread over their columns,
+/// blank headers above data named after their column, and duplicates given a suffix;
+/// each change is reported. Sorted by column.
+#[allow(clippy::too_many_arguments)]
+pub(super) fn header_names(
+    grid: &SheetGrid,
+    sheet: &str,
+    cells: &[(CellPos, CellValue)],
+    header_span: (usize, usize),
+    header_row: u32,
+    data_cells: &[(CellPos, CellValue)],
+    findings: &mut Findings,
+) -> Vec<(u32, String)> {
+    let mut headers: Vec<(u32, String)> = cells[header_span.0..header_span.1]
+        .iter()
+        .map(|(pos, value)| (pos.col, grid.display(*value).trim().to_string()))
+        .filter(|(_, name)| !name.is_empty())
+        .collect();
+    for area in &grid.merged {
+        if area.first.row <= header_row && area.last.row >= header_row && area.n_cols() > 1 {
+            let base = headers
+                .iter()
+                .find(|(col, _)| *col == area.first.col)
+                .map(|(_, name)| name.clone());
+            if let Some(base) = base {
+                findings.push(Finding {
+                    kind: FindingKind::MergedHeader,
+                    sheet: sheet.to_string(),
+                    cell: Some(area.a1()),
+                    found: base.clone(),
+                    action: "each column of the merged area was given the header with its position".into(),
+                    message: format!(
+                        "header cells {} are merged; their columns were named '{base} 1', '{base} 2', ...; unmerge them and name each column",
+                        area.a1()
+                    ),
+                });
+                // By column, so that a merged area across thousands of
+                // columns costs their number, not its square.
+                let mut by_col: std::collections::BTreeMap<u32, String> = headers.drain(..).collect();
+                let last_col = area.last.col.min(crate::cell::MAX_COLS - 1);
+                for (offset, col) in (area.first.col..=last_col).enumerate() {
+                    by_col.insert(col, format!("{base} {}", offset + 1));
+                }
+                headers = by_col.into_iter().collect();
+            }
+        }
+    }
+    headers.sort_by_key(|(col, _)| *col);
+
+    // Columns with data but without a header, inside the header's span.
+    if let (Some(first_col), Some(last_col)) = (headers.first().map(|h| h.0), headers.last().map(|h| h.0)) {
+        let mut unnamed: Vec<u32> = data_cells
+            .iter()
+            .map(|(pos, _)| pos.col)
+            .filter(|col| {
+                *col > first_col && *col < last_col && headers.binary_search_by_key(col, |(named, _)| *named).is_err()
+            })
+            .collect();
+        unnamed.sort_unstable();
+        unnamed.dedup();
+        for col in unnamed {
+            let name = format!("column {}", column_letters(col));
+            findings.push(Finding {
+                kind: FindingKind::BlankHeader,
+                sheet: sheet.to_string(),
+                cell: Some(CellPos::new(header_row, col).a1()),
+                found: "a blank header".into(),
+                action: format!("the column was named '{name}'"),
+                message: format!("the header cell is blank but the column below holds data; it was named '{name}'"),
+            });
+            headers.push((col, name));
+        }
+        headers.sort_by_key(|(col, _)| *col);
+    }
+
+    // Duplicate headers get a suffix.
+    let mut seen: HashMap<String, usize> = HashMap::new();
+    for (col, name) in headers.iter_mut() {
+        let key = name.to_lowercase();
+        let count = seen.entry(key).or_insert(0);
+        *count += 1;
+        if *count > 1 {
+            let renamed = format!("{name} ({count})");
+            findings.push(Finding {
+                kind: FindingKind::DuplicateHeader,
+                sheet: sheet.to_string(),
+                cell: Some(CellPos::new(header_row, *col).a1()),
+                found: name.clone(),
+                action: format!("renamed to '{renamed}'"),
+                message: format!(
+                    "the header '{name}' is used by an earlier column too; this one was called '{renamed}'"
+                ),
+            });
+            *name = renamed;
+        }
+    }
+    headers
+}
+
+/// What each header's column holds below the header: counts of numbers, texts and
+/// other values, whether the numbers count up by one, and the number of distinct labels.
+pub(super) fn count_columns(
+    grid: &SheetGrid,
+    headers: &[(u32, String)],
+    data_cells: &[(CellPos, CellValue)],
+) -> Vec<HeaderColumn> {
+    // Count what each column holds.
+    // Column number to header index, by direct lookup (columns are below 16,384).
+    let mut col_index: Vec<Option<usize>> =
+        vec![None; headers.iter().map(|(col, _)| *col as usize + 1).max().unwrap_or(0)];
+    for (index, (col, _)) in headers.iter().enumerate() {
+        col_index[*col as usize] = Some(index);
+    }
+    let mut columns: Vec<HeaderColumn> = headers
+        .iter()
+        .map(|(col, name)| HeaderColumn {
+            col: *col,
+            name: name.clone(),
+            counts: ColumnCounts::default(),
+            distinct_labels: 0,
+        })
+        .collect();
+    let mut label_sets: Vec<HashMap<String, ()>> = vec![HashMap::new(); columns.len()];
+    // Text indices whose label is already in each column's set: a label is
+    // trimmed, copied and hashed once per distinct text, not once per cell.
+    let mut counted: Vec<Vec<bool>> = vec![Vec::new(); columns.len()];
+    for (pos, value) in data_cells {
+        let Some(&Some(index)) = col_index.get(pos.col as usize) else {
+            continue;
+        };
+        let counts = &mut columns[index].counts;
+        match value {
+            CellValue::Number(number) => {
+                counts.counts_up = match counts.last_number {
+                    None => number.fract() == 0.0,
+                    Some(previous) => counts.counts_up && *number == previous + 1.0,
+                };
+                counts.last_number = Some(*number);
+                counts.numbers += 1;
+            }
+            CellValue::Text(text_index) => {
+                counts.texts += 1;
+                let seen = &mut counted[index];
+                if seen.is_empty() {
+                    seen.resize(grid.strings.len(), false);
+                }
+                let slot = *text_index as usize;
+                let known = seen.get(slot).copied().unwrap_or(false);
+                if !known && label_sets[index].len() <= 10_000 {
+                    label_sets[index].insert(grid.text(*text_index).trim().to_string(), ());
+                    if let Some(flag) = seen.get_mut(slot) {
+                        *flag = true;
+                    }
+                }
+            }
+            CellValue::Bool(_) => counts.booleans += 1,
+            CellValue::Date(_) => counts.dates += 1,
+            CellValue::Error(_) => counts.errors += 1,
+        }
+    }
+    for (column, labels) in columns.iter_mut().zip(&label_sets) {
+        column.distinct_labels = labels.len();
+    }
+    columns
+}
+
+/// A finding about a whole column, placed at its header cell.
+pub(super) fn column_finding(
+    kind: FindingKind,
+    sheet: &str,
+    header_row: u32,
+    column: &HeaderColumn,
+    action: &str,
+    message: String,
+) -> Finding {
+    Finding {
+        kind,
+        sheet: sheet.to_string(),
+        cell: Some(CellPos::new(header_row, column.col).a1()),
+        found: column.name.clone(),
+        action: action.into(),
+        message,
+    }
+}
+
+/// Reports each column with a header and no values below it (it is left out of detection).
+pub(super) fn empty_column_findings(sheet: &str, header_row: u32, columns: &[HeaderColumn], findings: &mut Findings) {
+    for column in columns {
+        if column.counts.non_empty() == 0 {
+            findings.push(column_finding(
+                FindingKind::EmptyColumn,
+                sheet,
+                header_row,
+                column,
+                "the column was left out",
+                format!(
+                    "the column headed '{}' has no values below its header; it was left out",
+                    column.name
+                ),
+            ));
+        }
+    }
+}
