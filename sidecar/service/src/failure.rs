@@ -36,6 +36,17 @@ pub enum ServiceError {
     /// A setting given by the caller is unusable.
     #[error("{0}")]
     Settings(String),
+    /// The folder settings file that applies to the workbook is unusable.
+    #[error(transparent)]
+    FolderSettings(#[from] crate::folder_settings::FolderSettingsError),
+    /// The folder for the results could not be made.
+    #[error("cannot create the output folder '{}': {source}", folder.display())]
+    OutputFolder {
+        /// The folder.
+        folder: PathBuf,
+        /// The system's error.
+        source: std::io::Error,
+    },
     /// The results workbook could not be written.
     #[error(transparent)]
     Write(#[from] workbook_io::write::WriteError),
@@ -61,8 +72,8 @@ impl ServiceError {
             },
             Self::NoTable { .. } => "no-table",
             Self::NothingAnalysable { .. } => "nothing-analysable",
-            Self::Settings(_) => "bad-setting",
-            Self::Write(_) => "write-failed",
+            Self::Settings(_) | Self::FolderSettings(_) => "bad-setting",
+            Self::OutputFolder { .. } | Self::Write(_) => "write-failed",
             Self::Cancelled => "cancelled",
         }
     }
@@ -206,6 +217,20 @@ pub fn describe_failure(error: &ServiceError) -> FailureReport {
         }
         ServiceError::Settings(text) => (
             vec![whole(text.clone(), "Correct the setting named in the message.")],
+            false,
+        ),
+        ServiceError::FolderSettings(_) => (
+            vec![whole(
+                message.clone(),
+                "Correct the key named in the folder's trialyst.toml.",
+            )],
+            false,
+        ),
+        ServiceError::OutputFolder { .. } => (
+            vec![whole(
+                message.clone(),
+                "Check the output folder setting and that the folder can be written to.",
+            )],
             false,
         ),
         ServiceError::Write(_) => (

@@ -40,10 +40,10 @@ pub use load::{inspect_workbook, sha256_file, AnalysisRequest, CancelFlag};
 pub use orchestrate::{analyse_grid, analyse_workbook, conditions_of, unit_of, MAX_CONDITIONS, MAX_RESPONSES};
 pub use paths::{
     collect_workbooks, has_workbook_extension, is_ignored_file_name, output_folder_for, problems_path_for,
-    results_path_for, PROBLEMS_SUFFIX, RESULTS_SUFFIX,
+    relative_to_workbook, results_path_for, PROBLEMS_SUFFIX, RESULTS_SUFFIX,
 };
 pub use results::{
     now_rfc3339, standard_cautions, FactorSummary, Inspection, ResponseOutcome, ResponseResult, SourceInfo,
     TableSummary, Timings, WorkbookResults, RESULTS_FORMAT_VERSION, TOOL_NAME, TOOL_VERSION,
 };
-pub use write::write_results;
+pub use write::{analyse_and_write, write_results, WrittenResults};

@@ -55,6 +55,21 @@ pub struct AnalysisRequest {
     pub cancel: CancelFlag,
 }
 
+impl AnalysisRequest {
+    /// This request with the folder settings in force for `workbook`: the
+    /// nearest `trialyst.toml` from the workbook's folder up to `root`
+    /// ([`crate::folder_settings::settings_file_for`]).
+    ///
+    /// # Errors
+    ///
+    /// [`ServiceError::FolderSettings`] when the file found cannot be used.
+    pub fn with_folder_settings_for(mut self, workbook: &Path, root: Option<&Path>) -> Result<Self, ServiceError> {
+        self.folder_settings =
+            crate::folder_settings::settings_for_workbook(workbook, root)?.map(|(_, settings)| settings);
+        Ok(self)
+    }
+}
+
 /// Hashes a file with SHA-256.
 ///
 /// # Errors

@@ -104,18 +104,24 @@ pub fn problems_path_for(source: &Path, out_dir: Option<&Path>) -> PathBuf {
     results.with_file_name(format!("{stem}{PROBLEMS_SUFFIX}"))
 }
 
-/// The folder for results given on the command line, else the `output
-/// folder` setting in force (relative to the workbook's folder), else none.
-pub fn output_folder_for(source: &Path, command_line: Option<&Path>, settings: &Settings) -> Option<PathBuf> {
-    if let Some(folder) = command_line {
+/// The folder for results: the folder named by the caller, else the
+/// `output folder` setting in force (relative to the workbook's folder),
+/// else none (beside the workbook).
+pub fn output_folder_for(source: &Path, named_by_caller: Option<&Path>, settings: &Settings) -> Option<PathBuf> {
+    if let Some(folder) = named_by_caller {
         return Some(folder.to_path_buf());
     }
     let configured = settings.out_dir.as_ref()?;
-    let path = PathBuf::from(configured);
-    if path.is_absolute() {
-        Some(path)
+    Some(relative_to_workbook(source, Path::new(configured)))
+}
+
+/// `folder` taken relative to the folder of the workbook `source` (an
+/// absolute folder stays as it is).
+pub fn relative_to_workbook(source: &Path, folder: &Path) -> PathBuf {
+    if folder.is_absolute() {
+        folder.to_path_buf()
     } else {
-        Some(source.parent().map(Path::to_path_buf).unwrap_or_default().join(path))
+        source.parent().map(Path::to_path_buf).unwrap_or_default().join(folder)
     }
 }
 
@@ -132,6 +138,28 @@ mod tests {
         assert_eq!(
             results_path_for(Path::new("a/b/week 3.xlsx"), None),
             PathBuf::from("a/b/week 3.results.xlsx")
+        );
+    }
+
+    #[test]
+    fn the_callers_folder_wins_over_the_setting() {
+        let settings = Settings {
+            out_dir: Some("out".into()),
+            ..Settings::default()
+        };
+        let workbook = Path::new("lines/week.xlsx");
+        assert_eq!(
+            output_folder_for(workbook, Some(Path::new("elsewhere")), &settings),
+            Some(PathBuf::from("elsewhere"))
+        );
+        assert_eq!(
+            output_folder_for(workbook, None, &settings),
+            Some(PathBuf::from("lines/out"))
+        );
+        assert_eq!(output_folder_for(workbook, None, &Settings::default()), None);
+        assert_eq!(
+            relative_to_workbook(workbook, Path::new("reports")),
+            PathBuf::from("lines/reports")
         );
     }
 }

@@ -34,7 +34,7 @@ use notify_debouncer_full::{new_debouncer, DebounceEventResult};
 
 use claim::{try_claim, ClaimAttempt};
 use log::Log;
-use service::folder_settings::{parse_folder_settings, FOLDER_SETTINGS_FILE};
+use service::folder_settings::{parse_folder_settings, read_settings_file, settings_file_for, FOLDER_SETTINGS_FILE};
 use service::settings::Settings;
 use service::{FailureReport, Problem};
 use state::{nanos, Entry, State, StateStore, STATE_FOLDER};
@@ -276,6 +276,30 @@ impl Watcher {
         path == self.folder_file.path
     }
 
+    /// A folder settings file in a sub-folder of the watched folder.
+    fn is_nested_folder_file(&self, path: &Path) -> bool {
+        !self.is_folder_file(path)
+            && path.file_name().is_some_and(|name| name == FOLDER_SETTINGS_FILE)
+            && self.relative(path).is_some()
+    }
+
+    /// The folder settings in force for a workbook, by the service's one
+    /// rule: the nearest `trialyst.toml` from its folder up to the watched
+    /// folder (whose own file is kept read). `Err` names a file that
+    /// cannot be used.
+    fn folder_settings_of(&self, path: &Path) -> Result<Option<(PathBuf, Settings)>, String> {
+        match settings_file_for(path, Some(&self.folder)) {
+            None => Ok(None),
+            Some(file) if file == self.folder_file.path => {
+                self.folder_file.check()?;
+                Ok(self.folder_file.current().cloned().map(|settings| (file, settings)))
+            }
+            Some(file) => read_settings_file(&file)
+                .map(|settings| Some((file, settings)))
+                .map_err(|error| error.to_string()),
+        }
+    }
+
     fn listing(&self) -> Vec<PathBuf> {
         let (found, _) = service::collect_workbooks(std::slice::from_ref(&self.folder), self.recursive);
         found.into_iter().filter(|path| self.is_candidate(path)).collect()
@@ -368,6 +392,7 @@ impl Watcher {
         let mut received: Vec<PathBuf> = Vec::new();
         let mut rescan = false;
         let mut settings = false;
+        let mut nested_settings: Vec<PathBuf> = Vec::new();
         for result in batch {
             match result {
                 Ok(events) => {
@@ -386,6 +411,8 @@ impl Watcher {
                         let Some(path) = target else { continue };
                         if self.is_folder_file(&path) {
                             settings = true;
+                        } else if self.is_nested_folder_file(&path) {
+                            nested_settings.push(path);
                         } else if self.is_candidate(&path) && path.is_file() && !received.contains(&path) {
                             received.push(path);
                         }
@@ -401,6 +428,18 @@ impl Watcher {
         }
         if settings {
             self.settings_changed();
+        }
+        if !nested_settings.is_empty() {
+            for path in &nested_settings {
+                let shown = self.relative(path).unwrap_or_default();
+                self.log.event(
+                    "settings",
+                    &shown,
+                    "folder settings changed; they apply to workbooks of that folder analysed from now on",
+                );
+            }
+            // Workbooks held back by a bad file are taken up now.
+            self.catch_up("a folder settings file changed");
         }
         let now = Instant::now();
         for path in received {
@@ -521,8 +560,13 @@ impl Watcher {
     }
 
     fn output_folder(&self, path: &Path) -> Option<PathBuf> {
-        let settings = self.folder_file.current().cloned().unwrap_or_default();
-        service::output_folder_for(path, self.out_dir.as_deref(), &settings)
+        let settings = self
+            .folder_settings_of(path)
+            .ok()
+            .flatten()
+            .map(|(_, settings)| settings)
+            .unwrap_or_default();
+        service::output_folder_for(path, self.out_dir.as_deref(), &self.settings.clone().over(&settings))
     }
 
     fn process(&mut self, path: &Path, attempts: u32) {
@@ -546,14 +590,17 @@ impl Watcher {
         if self.skip_if_done(&relative, &sha256) {
             return;
         }
-        if let Err(message) = self.folder_file.check() {
-            self.log.event(
-                "problem",
-                &relative,
-                &format!("held back until the folder settings file is fixed: {message}"),
-            );
-            return;
-        }
+        let folder_settings = match self.folder_settings_of(path) {
+            Ok(found) => found.map(|(file, _)| file),
+            Err(message) => {
+                self.log.event(
+                    "problem",
+                    &relative,
+                    &format!("held back until the folder settings file is fixed: {message}"),
+                );
+                return;
+            }
+        };
         let claim = match try_claim(self.store.folder(), &relative, self.claim_expiry) {
             Ok(ClaimAttempt::Mine(claim)) => claim,
             Ok(ClaimAttempt::Held(holder)) => {
@@ -574,15 +621,10 @@ impl Watcher {
         if self.skip_if_done(&relative, &sha256) {
             return;
         }
-        let folder_settings = self
-            .folder_file
-            .current()
-            .is_some()
-            .then(|| self.folder_file.path.clone());
         let args = worker_arguments(&WorkerRequest {
             file: path.to_path_buf(),
             out_dir: self.out_dir.clone(),
-            folder_settings: folder_settings.clone(),
+            folder_settings,
             settings: self.settings.clone(),
         });
         let outcome = run_worker(&self.program, &args, self.limits, &self.stop);
