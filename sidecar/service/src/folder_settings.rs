@@ -205,17 +205,6 @@ pub fn settings_for_workbook(
     }
 }
 
-/// Reads the settings file of `folder`: `Ok(None)` when it has none.
-///
-/// # Errors
-///
-/// [`FolderSettingsError`] when the file exists but cannot be used.
-pub fn read_folder_settings(folder: &Path) -> Result<Option<Settings>, FolderSettingsError> {
-    settings_file_in(folder)
-        .map(|path| read_settings_file(&path))
-        .transpose()
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -8,7 +8,7 @@
 //! the per-response orchestration of the engine's analyses
 //! ([`orchestrate`]), the results types that the JSON document and the
 //! report are made from ([`results`]), output paths and folder scanning
-//! ([`paths`]), "analyse and write" ([`write`]), failure kinds and their
+//! ([`paths`]), "analyse and write" ([`mod@write`]), failure kinds and their
 //! wording ([`failure`]), the batch runner and roll-up ([`batch`]), the
 //! report builders ([`report`]), and the plan and size use cases
 //! ([`plan`]).

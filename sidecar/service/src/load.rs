@@ -4,7 +4,7 @@
 //!
 //! Precedence of settings: the caller's (command line or request), then the
 //! workbook's settings sheet, then the folder settings file, then the
-//! built-in defaults; [`settings_sources`] records where each came from.
+//! built-in defaults; the results record where each came from.
 
 use std::io::Read;
 use std::path::Path;

@@ -11,6 +11,11 @@
 //!   arrived or changed while the watcher was down is analysed.
 //! - Isolation: each workbook is read in a child process with memory and
 //!   time limits ([`worker`]); a crash becomes a problems workbook.
+//! - Folder settings: each workbook takes the nearest `trialyst.toml` from
+//!   its folder up to the watched folder, by the service's one rule
+//!   ([`service::folder_settings::settings_file_for`]); the worker analyses
+//!   and writes through [`service::analyse_and_write`], announcing the
+//!   destination before the write.
 //! - Many machines: a claim file per workbook ([`claim`]).
 //! - SIGINT/SIGTERM: the current worker is stopped, its temporary file
 //!   removed, and the watcher exits 0; the workbook is taken up again on
