@@ -70,3 +70,89 @@ pub fn write_results(results: &WorkbookResults, destination: &Path) -> Result<()
     workbook_io::write::write_book(&book, destination)?;
     Ok(())
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::settings::Settings;
+    use workbook_io::write::{Book, Look, Sheet, Value};
+
+    /// A small invented trial: three ovens, three hardness readings each.
+    fn trial_workbook(path: &Path) {
+        let mut sheet = Sheet::new("Runs");
+        sheet.put(0, 0, Value::text("Oven"), Look::ColumnHeader);
+        sheet.put(0, 1, Value::text("Hardness"), Look::ColumnHeader);
+        let runs = [
+            ("North", 10.1),
+            ("North", 10.4),
+            ("North", 9.9),
+            ("South", 11.0),
+            ("South", 11.3),
+            ("South", 10.8),
+            ("East", 10.0),
+            ("East", 10.2),
+            ("East", 10.1),
+        ];
+        for (index, (oven, hardness)) in runs.iter().enumerate() {
+            let row = 1 + index as u32;
+            sheet.put(row, 0, Value::text(*oven), Look::Plain);
+            sheet.put(row, 1, Value::number(*hardness), Look::Plain);
+        }
+        workbook_io::write::write_book(&Book { sheets: vec![sheet] }, path).expect("the trial is written");
+    }
+
+    #[test]
+    fn the_destination_is_announced_before_the_write_and_the_folders_rank() {
+        let dir = tempfile::tempdir().expect("a temporary folder");
+        let folder = dir.path().join("lines");
+        std::fs::create_dir_all(&folder).unwrap();
+        let workbook = folder.join("trial.xlsx");
+        trial_workbook(&workbook);
+        let request = AnalysisRequest {
+            settings: Settings {
+                out_dir: Some("out".into()),
+                ..Settings::default()
+            },
+            ..AnalysisRequest::default()
+        };
+        let mut announced = Vec::new();
+        let written = analyse_and_write(&workbook, &request, None, &mut |destination: &Path| {
+            // The folder is made first; the file is not there yet.
+            assert!(destination.parent().is_some_and(Path::is_dir));
+            assert!(!destination.exists());
+            announced.push(destination.to_path_buf());
+        })
+        .expect("analysed and written");
+        // The setting, relative to the workbook's folder.
+        let expected = folder.join("out").join("trial.results.xlsx");
+        assert_eq!(written.results_file, expected);
+        assert_eq!(announced, vec![expected.clone()]);
+        assert!(expected.is_file());
+
+        // A folder named by the caller wins over the setting.
+        let named = dir.path().join("named");
+        let written = analyse_and_write(&workbook, &request, Some(&named), &mut |_| {}).expect("written");
+        assert_eq!(written.results_file, named.join("trial.results.xlsx"));
+
+        // Without either, beside the workbook.
+        let written = analyse_and_write(&workbook, &AnalysisRequest::default(), None, &mut |_| {}).expect("written");
+        assert_eq!(written.results_file, folder.join("trial.results.xlsx"));
+
+        // A folder that cannot be made (a file stands in its way) is an error naming it.
+        let blocked = workbook.join("out");
+        let outcome = analyse_and_write(&workbook, &request, Some(&blocked), &mut |_| panic!("no write was due"));
+        let Err(error @ ServiceError::OutputFolder { .. }) = outcome else {
+            panic!("expected an output folder error, got {outcome:?}");
+        };
+        assert!(error.to_string().contains(&blocked.display().to_string()), "{error}");
+        assert_eq!(error.kind(), "write-failed");
+
+        // A cancelled request writes nothing and announces nothing.
+        let cancelled = AnalysisRequest::default();
+        cancelled.cancel.cancel();
+        std::fs::remove_file(folder.join("trial.results.xlsx")).unwrap();
+        let outcome = analyse_and_write(&workbook, &cancelled, None, &mut |_| panic!("no write was due"));
+        assert!(matches!(outcome, Err(ServiceError::Cancelled)), "{outcome:?}");
+        assert!(!folder.join("trial.results.xlsx").exists());
+    }
+}
