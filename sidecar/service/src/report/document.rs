@@ -168,4 +168,43 @@ mod tests {
         );
         assert!(chunks_of("", 10).is_empty());
     }
+
+    #[test]
+    fn a_long_document_is_kept_in_pieces_and_read_back_whole() {
+        use workbook_io::write::Book;
+        // An invented trial of 30 conditions, five runs each: 435 pairs make
+        // a document longer than one cell can hold.
+        let dir = tempfile::tempdir().expect("a temporary folder");
+        let source = dir.path().join("many.xlsx");
+        let mut sheet = Sheet::new("Runs");
+        sheet.put(0, 0, Value::text("Setting"), Look::ColumnHeader);
+        sheet.put(0, 1, Value::text("Gloss"), Look::ColumnHeader);
+        for record in 0..150u32 {
+            let condition = record / 5;
+            sheet.put(1 + record, 0, Value::text(format!("S{condition:02}")), Look::Plain);
+            let value = 50.0 + f64::from(condition) * 0.3 + f64::from(record % 5) * 0.7;
+            sheet.put(1 + record, 1, Value::number(value), Look::Plain);
+        }
+        workbook_io::write::write_book(&Book { sheets: vec![sheet] }, &source).expect("written");
+        let results = crate::analyse_workbook(&source, &crate::AnalysisRequest::default()).expect("analysed");
+        let destination = dir.path().join("many.results.xlsx");
+        crate::write_results(&results, &destination).expect("results written");
+        let pieces = document_sheet(&results).cells.len() - 2;
+        assert!(pieces >= 2, "{pieces} piece(s)");
+        let document = read_results_document(&destination).expect("the document reads back");
+        assert_eq!(document, serde_json::to_value(&results).expect("encodes"));
+
+        // The same document as a .json file.
+        let json_file = dir.path().join("many.json");
+        std::fs::write(&json_file, serde_json::to_string(&results).unwrap()).unwrap();
+        assert_eq!(read_results_document(&json_file).expect("reads"), document);
+
+        // A workbook without the sheet is an error naming the file and the sheet.
+        let error = read_results_document(&source).unwrap_err();
+        let text = error.to_string();
+        assert!(
+            text.contains("many.xlsx") && text.contains(names::RESULTS_DOCUMENT),
+            "{text}"
+        );
+    }
 }
