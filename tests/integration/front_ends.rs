@@ -197,3 +197,28 @@ fn a_watcher_with_sub_folders_takes_the_nearest_folder_settings() {
         .collect();
     assert_eq!(confidences, vec![json!(0.9), json!(0.99)]);
 }
+
+#[test]
+fn a_polling_watcher_holds_back_a_workbook_under_a_bad_nested_file_until_it_is_fixed() {
+    let root = temp_folder();
+    let watched = trial_folder(root.path(), "polled");
+    let nested = trial_folder(&watched, "week 3");
+    std::fs::write(nested.join("trialyst.toml"), "confidence = 0.99\ncolour = \"red\"\n").expect("written");
+    let watching = Watching::start(
+        &watched,
+        &root.path().join("watch.log"),
+        &["--recursive", "--poll", "0.2"],
+        &[],
+    );
+    wait_for_file(&watched.join(RESULTS_IN_FOLDER), &watching);
+    watching.wait_for_log("held back until the folder settings file is fixed", 1);
+    let log = watching.log_text();
+    assert!(log.contains("colour") && log.contains("line 2"), "{log}");
+    // The nearest file alone applies: fixed, it names no output folder, so
+    // the results go beside the workbook.
+    std::fs::write(nested.join("trialyst.toml"), "confidence = 0.99\n").expect("fixed");
+    let nested_results = nested.join("bath trial.results.xlsx");
+    wait_for_file(&nested_results, &watching);
+    drop(watching);
+    assert_eq!(document_of(&nested_results)["settings"]["confidence"], 0.99);
+}

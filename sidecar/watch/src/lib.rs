@@ -345,6 +345,51 @@ impl Watcher {
         }
     }
 
+    /// A folder settings file in a sub-folder changed (`paths`, when known):
+    /// logged, and the folder listed again so that workbooks held back by a
+    /// bad file are taken up.
+    fn nested_settings_changed(&mut self, paths: &[PathBuf]) {
+        for path in paths {
+            let shown = self.relative(path).unwrap_or_default();
+            self.log.event(
+                "settings",
+                &shown,
+                "folder settings changed; they apply to workbooks of that folder analysed from now on",
+            );
+        }
+        if paths.is_empty() {
+            self.log.event(
+                "settings",
+                "",
+                "a folder settings file in a sub-folder changed; it applies to workbooks analysed from now on",
+            );
+        }
+        self.catch_up("a folder settings file changed");
+    }
+
+    /// Size and time of every folder settings file in a sub-folder (with
+    /// `--recursive`; hidden folders left out), for the polling loop, which
+    /// hears of no change by itself.
+    fn nested_settings_stamps(&self) -> BTreeMap<PathBuf, Stamp> {
+        fn walk(folder: &Path, found: &mut BTreeMap<PathBuf, Stamp>) {
+            let Ok(entries) = std::fs::read_dir(folder) else { return };
+            for entry in entries.filter_map(Result::ok) {
+                let path = entry.path();
+                if path.is_dir() && !entry.file_name().to_string_lossy().starts_with('.') {
+                    if let Some(stamp) = stamp_of(&path.join(FOLDER_SETTINGS_FILE)) {
+                        found.insert(path.clone(), stamp);
+                    }
+                    walk(&path, found);
+                }
+            }
+        }
+        let mut found = BTreeMap::new();
+        if self.recursive {
+            walk(&self.folder, &mut found);
+        }
+        found
+    }
+
     fn run_listening(&mut self) -> Result<(), String> {
         let (sender, receiver) = std::sync::mpsc::channel::<DebounceEventResult>();
         let mut debouncer = new_debouncer(DEBOUNCE, None, sender)
@@ -435,16 +480,7 @@ impl Watcher {
             self.settings_changed();
         }
         if !nested_settings.is_empty() {
-            for path in &nested_settings {
-                let shown = self.relative(path).unwrap_or_default();
-                self.log.event(
-                    "settings",
-                    &shown,
-                    "folder settings changed; they apply to workbooks of that folder analysed from now on",
-                );
-            }
-            // Workbooks held back by a bad file are taken up now.
-            self.catch_up("a folder settings file changed");
+            self.nested_settings_changed(&nested_settings);
         }
         let now = Instant::now();
         for path in received {
@@ -471,11 +507,17 @@ impl Watcher {
         // outcome leaves no new state (skipped, held back) is not taken up
         // at every listing.
         let mut handled: HashMap<PathBuf, Stamp> = HashMap::new();
+        let mut nested_settings = self.nested_settings_stamps();
         let mut next = Instant::now();
         while !self.stopping() {
             if Instant::now() >= next {
                 next += every;
                 self.settings_changed();
+                let nested_now = self.nested_settings_stamps();
+                if nested_now != nested_settings {
+                    nested_settings = nested_now;
+                    self.nested_settings_changed(&[]);
+                }
                 let mut current = HashMap::new();
                 for path in self.listing() {
                     if let Some(stamp) = stamp_of(&path) {
