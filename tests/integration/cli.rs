@@ -62,7 +62,8 @@ fn run_writes_results_that_match_engine_and_reference() {
             names::ANOVA,
             names::PAIRS,
             names::FINDINGS,
-            names::PROVENANCE
+            names::PROVENANCE,
+            names::RESULTS_DOCUMENT
         ],
         "sheets of the results workbook"
     );

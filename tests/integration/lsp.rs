@@ -40,7 +40,7 @@ struct Inbox {
 type SharedWriter = Arc<Mutex<Option<Box<dyn Write + Send>>>>;
 
 /// A client speaking to a `trialyst serve` child over its stdio.
-struct Session {
+pub(crate) struct Session {
     child: Child,
     writer: SharedWriter,
     inbox: Arc<Inbox>,
@@ -103,7 +103,7 @@ fn read_messages(output: impl Read, inbox: Arc<Inbox>, answers: SharedWriter) {
 }
 
 impl Session {
-    fn start() -> Self {
+    pub(crate) fn start() -> Self {
         let mut child = Command::new(trialyst_binary())
             .arg("serve")
             .stdin(Stdio::piped())
@@ -187,7 +187,7 @@ impl Session {
         self.wait_for(|received| received.responses.get(&id).cloned())
     }
 
-    fn request(&mut self, method: &str, params: Value) -> Value {
+    pub(crate) fn request(&mut self, method: &str, params: Value) -> Value {
         let id = self.send_request(method, params);
         self.response(id)
     }
@@ -202,7 +202,7 @@ impl Session {
         })
     }
 
-    fn initialize(&mut self) -> Value {
+    pub(crate) fn initialize(&mut self) -> Value {
         let answer = self.request(
             "initialize",
             json!({"processId": null, "rootUri": null, "capabilities": {"window": {"workDoneProgress": true}}}),
@@ -226,7 +226,7 @@ impl Session {
         }
     }
 
-    fn finish(mut self) -> Option<i32> {
+    pub(crate) fn finish(mut self) -> Option<i32> {
         let answer = self.request("shutdown", Value::Null);
         assert_eq!(answer["result"], Value::Null, "{answer}");
         self.notify("exit", Value::Null);

@@ -1,6 +1,7 @@
 //! trialyst's integration tests, one module per area: the command line end
 //! to end, NIST accuracy through the read path, data findings, hostile
-//! files and a catalogue of broken and hostile inputs, factorial trials, trial plans and the protocol server. The
+//! files and a catalogue of broken and hostile inputs, factorial trials, trial plans, the protocol server, and the
+//! three front ends (run, watch, serve) agreeing on one workbook. The
 //! command-line tests run the real program, built from `sidecar/src/main.rs`
 //! as this package's `trialyst-under-test` binary (see tests/Cargo.toml for why).
 
@@ -10,6 +11,7 @@ mod cli;
 mod common;
 mod factorial;
 mod findings;
+mod front_ends;
 mod hostile;
 mod lsp;
 mod nist;

@@ -373,37 +373,70 @@ fn size_answers_with_a_table_and_a_chart() {
     assert!(archive.by_name("xl/charts/chart1.xml").is_ok());
 }
 
+/// A plan written, filled in and saved as `filled.xlsx` in `folder`.
+fn filled_trial(folder: &Path) {
+    let mut args = PLAN_ARGS.to_vec();
+    args.extend(["--out", "plan.xlsx"]);
+    run_in(folder, &args);
+    let mut sheets = read_all(&folder.join("plan.xlsx"));
+    fill_results(runs_sheet(&mut sheets));
+    write_all(&sheets, &folder.join("filled.xlsx"));
+}
+
+/// `trialyst size` for three conditions with the SD from `file`, plus `extra`.
+fn size_from(folder: &Path, file: &str, extra: &[&str]) -> Output {
+    let mut args = vec!["size", "--conditions", "3", "--difference", "2", "--from-results", file];
+    args.extend_from_slice(extra);
+    Command::new(trialyst())
+        .current_dir(folder)
+        .args(&args)
+        .output()
+        .expect("trialyst runs")
+}
+
 #[test]
 fn size_reads_the_sd_of_the_last_trial() {
     let folder = tempfile::tempdir().expect("temp dir");
-    let mut args = PLAN_ARGS.to_vec();
-    args.extend(["--out", "plan.xlsx"]);
-    run_in(folder.path(), &args);
-    let mut sheets = read_all(&folder.path().join("plan.xlsx"));
-    fill_results(runs_sheet(&mut sheets));
-    write_all(&sheets, &folder.path().join("filled.xlsx"));
+    filled_trial(folder.path());
     let output = run_in(folder.path(), &["run", "--json", "filled.xlsx"]);
     let results = json_of(&output);
     let pooled_sd = results["responses"][0]["one_way"]["pooled_sd"]
         .as_f64()
         .expect("pooled SD");
-    let output = run_in(
-        folder.path(),
-        &[
-            "size",
-            "--conditions",
-            "3",
-            "--difference",
-            "2",
-            "--from-results",
-            "filled.results.xlsx",
-            "--json",
-        ],
-    );
-    let answer = json_of(&output);
-    let sd = answer["sd"].as_f64().expect("sd");
-    // The results workbook shows the pooled SD rounded to its display
-    // decimals, but the cell holds the full number the analysis computed.
-    assert!((sd - pooled_sd).abs() <= 1e-12 * pooled_sd, "{sd} vs {pooled_sd}");
+    let answer = json_of(&size_from(folder.path(), "filled.results.xlsx", &["--json"]));
+    // The results workbook keeps the results document that `run --json`
+    // printed, so the SD read back is the very number printed.
+    assert_eq!(answer["sd"], results["responses"][0]["one_way"]["pooled_sd"]);
+    assert!(pooled_sd > 0.0);
     assert_eq!(answer["sd_df"], results["responses"][0]["one_way"]["pooled_df"]);
+
+    // A line of `run --json` saved as a file gives the same answer.
+    let line = format!("{}\n", serde_json::to_string(&results).expect("encodes"));
+    std::fs::write(folder.path().join("last.json"), line).expect("saved");
+    let from_json = json_of(&size_from(folder.path(), "last.json", &["--json"]));
+    assert_eq!(from_json["sd"], answer["sd"]);
+    assert_eq!(from_json["needed"], answer["needed"]);
+}
+
+#[test]
+fn size_names_the_file_when_the_results_lack_what_it_needs() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    filled_trial(folder.path());
+    // A plan workbook is not a results workbook: it has no results document.
+    let output = size_from(folder.path(), "plan.xlsx", &[]);
+    assert!(!output.status.success());
+    let text = String::from_utf8_lossy(&output.stderr);
+    assert!(
+        text.contains("plan.xlsx") && text.contains("Results document"),
+        "{text}"
+    );
+
+    run_in(folder.path(), &["run", "filled.xlsx"]);
+    let output = size_from(folder.path(), "filled.results.xlsx", &["--response", "Hardness"]);
+    assert!(!output.status.success());
+    let text = String::from_utf8_lossy(&output.stderr);
+    assert!(
+        text.contains("filled.results.xlsx") && text.contains("no response 'Hardness'"),
+        "{text}"
+    );
 }

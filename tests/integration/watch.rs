@@ -12,13 +12,13 @@ use crate::common::{long_rows, read_all_sheets, sha256_of, temp_folder, trialyst
 /// Longest wait for one outcome; generous for a loaded 2-core machine.
 const PATIENCE: Duration = Duration::from_secs(20);
 
-struct Watching {
+pub(crate) struct Watching {
     child: Option<Child>,
     log: PathBuf,
 }
 
 impl Watching {
-    fn start(folder: &Path, log: &Path, extra: &[&str], env: &[(&str, &str)]) -> Self {
+    pub(crate) fn start(folder: &Path, log: &Path, extra: &[&str], env: &[(&str, &str)]) -> Self {
         let mut command = Command::new(trialyst_path());
         command
             .arg("watch")
@@ -41,12 +41,12 @@ impl Watching {
         watching
     }
 
-    fn log_text(&self) -> String {
+    pub(crate) fn log_text(&self) -> String {
         std::fs::read_to_string(&self.log).unwrap_or_default()
     }
 
     /// Waits until `needle` occurs at least `count` times in the log.
-    fn wait_for_log(&self, needle: &str, count: usize) {
+    pub(crate) fn wait_for_log(&self, needle: &str, count: usize) {
         let log = self.log.clone();
         wait_until(&format!("{count} log line(s) with '{needle}'"), || {
             std::fs::read_to_string(&log)
@@ -146,7 +146,7 @@ fn staged(setup: &Setup, name: &str, shift: f64) -> PathBuf {
     path
 }
 
-fn wait_for_file(path: &Path, watching: &Watching) {
+pub(crate) fn wait_for_file(path: &Path, watching: &Watching) {
     wait_until(&format!("{}", path.display()), || path.is_file())
         .unwrap_or_else(|message| panic!("{message}\n--- log\n{}", watching.log_text()));
     // Results and problems workbooks go to the office check too (when it asks).

@@ -173,6 +173,16 @@ fn check_workbook(path: &std::path::Path, cancel: CancelFlag) -> Option<Vec<Diag
         cancel,
         ..AnalysisRequest::default()
     };
+    // The folder settings file beside the workbook applies, as for every request.
+    let request = match request.with_folder_settings_for(path, None) {
+        Ok(request) => request,
+        Err(error) => {
+            return Some(vec![failure_diagnostic(
+                &service::error_chain(&error),
+                super::server::error_kind(&error),
+            )])
+        }
+    };
     match service::analyse_workbook(path, &request) {
         Ok(results) => Some(results.findings.iter().map(finding_diagnostic).collect()),
         Err(ServiceError::Cancelled) => None,

@@ -225,7 +225,8 @@ pub fn workbook_params(params: &Value) -> Result<WorkbookParams, ParamsError> {
 pub struct WriteParams {
     /// The workbook and its settings.
     pub workbook: WorkbookParams,
-    /// The folder for the results file; default beside the workbook.
+    /// The folder for the results file as sent (relative to the workbook's
+    /// folder); when absent the `output folder` setting, else beside the workbook.
     pub output_folder: Option<PathBuf>,
 }
 
@@ -237,9 +238,10 @@ pub struct WriteParams {
 pub fn write_params(params: &Value) -> Result<WriteParams, ParamsError> {
     let workbook = workbook_params(params)?;
     let map = params_object(params)?;
+    // The `output folder` setting, when sent, stays in the settings: the
+    // service resolves it with the workbook's own settings.
     let output_folder = optional_text(map, "outputFolder", "params")?
         .filter(|text| !text.trim().is_empty())
-        .or_else(|| workbook.settings.out_dir.clone())
         .map(PathBuf::from);
     Ok(WriteParams {
         workbook,

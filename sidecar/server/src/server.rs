@@ -318,7 +318,11 @@ impl Shared {
         };
         let path = read.path;
         let outcome = self
-            .run_blocking(&progress, move || service::inspect_workbook(&path, &request))
+            .run_blocking(&progress, move || {
+                // The folder settings file beside the workbook applies, as for `run` and `watch`.
+                let request = request.with_folder_settings_for(&path, None)?;
+                service::inspect_workbook(&path, &request)
+            })
             .await?;
         progress.report("inspected; preparing the answer".into()).await;
         self.finish(progress, &what, &outcome).await;
@@ -343,7 +347,11 @@ impl Shared {
         };
         let path = read.path;
         let outcome = self
-            .run_blocking(&progress, move || service::analyse_workbook(&path, &request))
+            .run_blocking(&progress, move || {
+                // The folder settings file beside the workbook applies, as for `run` and `watch`.
+                let request = request.with_folder_settings_for(&path, None)?;
+                service::analyse_workbook(&path, &request)
+            })
             .await?;
         progress.report("analysed; preparing the answer".into()).await;
         self.finish(progress, &what, &outcome).await;
@@ -388,24 +396,16 @@ impl Shared {
             ..AnalysisRequest::default()
         };
         let path = read.workbook.path;
-        let output_folder = read.output_folder;
+        // A relative folder in the request is taken from the workbook's folder,
+        // not from the server's working folder (see docs/protocol.md).
+        let output_folder = read
+            .output_folder
+            .map(|folder| service::relative_to_workbook(&path, &folder));
         let outcome = self
             .run_blocking(&progress, move || {
-                let results = service::analyse_workbook(&path, &request)?;
-                if request.cancel.is_cancelled() {
-                    return Err(ServiceError::Cancelled);
-                }
-                // As on the command line, a named output folder is made if missing.
-                if let Some(folder) = &output_folder {
-                    std::fs::create_dir_all(folder).map_err(|source| {
-                        ServiceError::Write(workbook_io::write::WriteError::Io {
-                            path: folder.clone(),
-                            source,
-                        })
-                    })?;
-                }
-                let destination = service::results_path_for(&path, output_folder.as_deref());
-                service::write_results(&results, &destination)?;
+                let request = request.with_folder_settings_for(&path, None)?;
+                let written = service::analyse_and_write(&path, &request, output_folder.as_deref(), &mut |_| {})?;
+                let (results, destination) = (written.results, written.results_file);
                 Ok(json!({
                     "resultsFile": destination.display().to_string(),
                     "source": path.display().to_string(),

@@ -61,9 +61,17 @@ pub fn sheet_table(sheet: &Sheet) -> Json {
     })
 }
 
-/// Every sheet of a results book as a table.
+/// Every visible sheet of a results book as a table.
 pub fn book_tables(book: &Book) -> Json {
-    Json::Array(book.sheets.iter().map(sheet_table).collect())
+    // A hidden sheet (the results document) is for programs reading the
+    // file; the client already has the results in the answer.
+    Json::Array(
+        book.sheets
+            .iter()
+            .filter(|sheet| !sheet.hidden)
+            .map(sheet_table)
+            .collect(),
+    )
 }
 
 fn kind_name(kind: FindingKind) -> String {

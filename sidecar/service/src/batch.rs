@@ -11,7 +11,7 @@ use std::path::{Component, Path, PathBuf};
 use std::sync::atomic::{AtomicUsize, Ordering};
 use std::sync::Mutex;
 
-use crate::folder_settings::{read_folder_settings, FOLDER_SETTINGS_FILE};
+use crate::folder_settings::{read_settings_file, settings_file_for};
 use crate::report::rollup::{build_rollup_book, RollupEntry, RollupOutcome};
 use crate::settings::Settings;
 use crate::{AnalysisRequest, WorkbookResults};
@@ -24,29 +24,18 @@ pub enum RunOutcome {
     Failed(String),
 }
 
-/// Analyses one workbook and writes its results workbook: into `out_dir`
-/// when given, else into the `output folder` setting in force, else beside
-/// the original.
+/// Analyses one workbook and, when `write` is set, writes its results
+/// workbook through [`crate::analyse_and_write`]: into `out_dir` when given,
+/// else into the `output folder` setting in force, else beside the original.
 pub fn run_one(path: &Path, request: &AnalysisRequest, out_dir: Option<&Path>, write: bool) -> RunOutcome {
-    let results = match crate::analyse_workbook(path, request) {
-        Ok(results) => results,
-        Err(error) => return RunOutcome::Failed(crate::error_chain(&error)),
-    };
     if !write {
-        return RunOutcome::Analysed(Box::new(results), None);
+        return match crate::analyse_workbook(path, request) {
+            Ok(results) => RunOutcome::Analysed(Box::new(results), None),
+            Err(error) => RunOutcome::Failed(crate::error_chain(&error)),
+        };
     }
-    let folder = crate::output_folder_for(path, out_dir, &results.settings);
-    if let Some(folder) = &folder {
-        if let Err(error) = std::fs::create_dir_all(folder) {
-            return RunOutcome::Failed(format!(
-                "cannot create the output folder '{}': {error}",
-                folder.display()
-            ));
-        }
-    }
-    let destination = crate::results_path_for(path, folder.as_deref());
-    match crate::write_results(&results, &destination) {
-        Ok(()) => RunOutcome::Analysed(Box::new(results), Some(destination)),
+    match crate::analyse_and_write(path, request, out_dir, &mut |_| {}) {
+        Ok(written) => RunOutcome::Analysed(Box::new(written.results), Some(written.results_file)),
         Err(error) => RunOutcome::Failed(crate::error_chain(&error)),
     }
 }
@@ -104,7 +93,9 @@ pub fn run_parallel(
 }
 
 /// The folder settings of each workbook: the nearest `trialyst.toml` from
-/// its folder up to the root it was found under. Returns, per workbook, an
+/// its folder up to the root it was found under (the deepest of `roots`
+/// that holds it; its own folder when none does), by the one rule of
+/// [`crate::folder_settings::settings_file_for`]. Returns, per workbook, an
 /// index into the list of distinct settings (`None` when no file applies).
 ///
 /// # Errors
@@ -118,41 +109,30 @@ pub fn folder_settings_for(
         .iter()
         .map(|root| std::path::absolute(root).unwrap_or_else(|_| root.clone()))
         .collect();
-    let mut by_folder: HashMap<PathBuf, Option<usize>> = HashMap::new();
+    let mut by_file: HashMap<PathBuf, usize> = HashMap::new();
     let mut distinct = Vec::new();
     let mut chosen = Vec::with_capacity(workbooks.len());
     for workbook in workbooks {
         let absolute = std::path::absolute(workbook).unwrap_or_else(|_| workbook.clone());
-        let start = absolute.parent().map(Path::to_path_buf).unwrap_or_default();
-        let root = roots
-            .iter()
-            .filter(|root| start.starts_with(root))
-            .max_by_key(|root| root.components().count())
-            .cloned()
-            .unwrap_or_else(|| start.clone());
-        let mut folder = start.clone();
-        let mut found = None;
-        loop {
-            if let Some(known) = by_folder.get(&folder) {
-                found = *known;
-                if found.is_some() {
-                    break;
-                }
-            } else if folder.join(FOLDER_SETTINGS_FILE).is_file() {
-                let settings = read_folder_settings(&folder).map_err(|error| error.to_string())?;
-                if let Some(settings) = settings {
-                    distinct.push(settings);
-                    found = Some(distinct.len() - 1);
-                    by_folder.insert(folder.clone(), found);
-                    break;
-                }
+        let root = absolute.parent().and_then(|start| {
+            roots
+                .iter()
+                .filter(|root| start.starts_with(root))
+                .max_by_key(|root| root.components().count())
+        });
+        let Some(file) = settings_file_for(&absolute, root.map(PathBuf::as_path)) else {
+            chosen.push(None);
+            continue;
+        };
+        let index = match by_file.get(&file) {
+            Some(&index) => index,
+            None => {
+                distinct.push(read_settings_file(&file).map_err(|error| error.to_string())?);
+                by_file.insert(file, distinct.len() - 1);
+                distinct.len() - 1
             }
-            if folder == root || !folder.pop() || !folder.starts_with(&root) {
-                break;
-            }
-        }
-        by_folder.entry(start).or_insert(found);
-        chosen.push(found);
+        };
+        chosen.push(Some(index));
     }
     Ok((distinct, chosen))
 }

@@ -150,20 +150,59 @@ pub fn settings_file_in(folder: &Path) -> Option<PathBuf> {
     path.is_file().then_some(path)
 }
 
-/// Reads the settings file of `folder`: `Ok(None)` when it has none.
+/// The folder settings file for a workbook: the nearest `trialyst.toml`,
+/// looking in the workbook's own folder first and then in each folder
+/// above it, up to and including `root`.
+///
+/// `root` is the folder that was scanned or watched. With no root, or a
+/// root that does not hold the workbook, only the workbook's own folder is
+/// looked in. This is the one rule for `trialyst run`, the watcher and the
+/// protocol server.
+pub fn settings_file_for(workbook: &Path, root: Option<&Path>) -> Option<PathBuf> {
+    let absolute = std::path::absolute(workbook).unwrap_or_else(|_| workbook.to_path_buf());
+    let start = absolute.parent()?.to_path_buf();
+    let root = root
+        .map(|root| std::path::absolute(root).unwrap_or_else(|_| root.to_path_buf()))
+        .filter(|root| start.starts_with(root))
+        .unwrap_or_else(|| start.clone());
+    let mut folder = start;
+    loop {
+        if let Some(file) = settings_file_in(&folder) {
+            return Some(file);
+        }
+        if folder == root || !folder.pop() {
+            return None;
+        }
+    }
+}
+
+/// Reads one folder settings file.
 ///
 /// # Errors
 ///
-/// [`FolderSettingsError`] when the file exists but cannot be used.
-pub fn read_folder_settings(folder: &Path) -> Result<Option<Settings>, FolderSettingsError> {
-    let Some(path) = settings_file_in(folder) else {
-        return Ok(None);
-    };
-    let text = std::fs::read_to_string(&path).map_err(|error| FolderSettingsError::Unreadable {
+/// [`FolderSettingsError`] when the file cannot be read or used.
+pub fn read_settings_file(path: &Path) -> Result<Settings, FolderSettingsError> {
+    let text = std::fs::read_to_string(path).map_err(|error| FolderSettingsError::Unreadable {
         file: path.display().to_string(),
         message: error.to_string(),
     })?;
-    parse_folder_settings(&text, &path.display().to_string()).map(Some)
+    parse_folder_settings(&text, &path.display().to_string())
+}
+
+/// The folder settings in force for a workbook ([`settings_file_for`]),
+/// with the file they came from: `Ok(None)` when no file applies.
+///
+/// # Errors
+///
+/// [`FolderSettingsError`] when the file found cannot be used.
+pub fn settings_for_workbook(
+    workbook: &Path,
+    root: Option<&Path>,
+) -> Result<Option<(PathBuf, Settings)>, FolderSettingsError> {
+    match settings_file_for(workbook, root) {
+        Some(file) => read_settings_file(&file).map(|settings| Some((file, settings))),
+        None => Ok(None),
+    }
 }
 
 #[cfg(test)]
@@ -218,5 +257,80 @@ interaction-order = 2
         let syntax = parse_folder_settings("confidence = \n", "f.toml").unwrap_err();
         let text = syntax.to_string();
         assert!(text.contains("line 1") && text.contains("f.toml"), "{text}");
+    }
+
+    /// A tree: `root/trialyst.toml`, `root/line 2/trialyst.toml`, and
+    /// workbooks at several depths (the files need not be workbooks: the
+    /// rule looks at folders only).
+    fn tree() -> (tempfile::TempDir, PathBuf) {
+        let dir = tempfile::tempdir().expect("a temporary folder");
+        let root = dir.path().join("root");
+        std::fs::create_dir_all(root.join("line 2").join("week 1")).unwrap();
+        std::fs::create_dir_all(root.join("line 3")).unwrap();
+        std::fs::write(root.join(FOLDER_SETTINGS_FILE), "confidence = 0.9\n").unwrap();
+        std::fs::write(root.join("line 2").join(FOLDER_SETTINGS_FILE), "confidence = 0.99\n").unwrap();
+        (dir, root)
+    }
+
+    #[test]
+    fn the_nearest_file_up_to_the_root_applies() {
+        let (_dir, root) = tree();
+        let own = root.join("line 2").join(FOLDER_SETTINGS_FILE);
+        let top = root.join(FOLDER_SETTINGS_FILE);
+        // The workbook's own folder first.
+        assert_eq!(
+            settings_file_for(&root.join("line 2").join("a.xlsx"), Some(&root)),
+            Some(own.clone())
+        );
+        // A folder without a file takes the nearest above it, not the root's.
+        assert_eq!(
+            settings_file_for(&root.join("line 2").join("week 1").join("a.xlsx"), Some(&root)),
+            Some(own)
+        );
+        assert_eq!(
+            settings_file_for(&root.join("line 3").join("a.xlsx"), Some(&root)),
+            Some(top.clone())
+        );
+        assert_eq!(settings_file_for(&root.join("a.xlsx"), Some(&root)), Some(top));
+        let (_, settings) = settings_for_workbook(&root.join("line 3").join("a.xlsx"), Some(&root))
+            .expect("a good file")
+            .expect("a file applies");
+        assert_eq!(settings.confidence, Some(0.9));
+    }
+
+    #[test]
+    fn the_search_stops_at_the_root() {
+        let (_dir, root) = tree();
+        let below = root.join("line 3");
+        // With the sub-folder as the root, the file above it is not used.
+        assert_eq!(settings_file_for(&below.join("a.xlsx"), Some(&below)), None);
+        // No root: the workbook's own folder only.
+        assert_eq!(settings_file_for(&below.join("a.xlsx"), None), None);
+        assert_eq!(
+            settings_file_for(&root.join("a.xlsx"), None),
+            Some(root.join(FOLDER_SETTINGS_FILE))
+        );
+        // A root that does not hold the workbook counts as none.
+        assert_eq!(
+            settings_file_for(&below.join("a.xlsx"), Some(&root.join("line 2"))),
+            None
+        );
+        assert_eq!(
+            settings_for_workbook(&below.join("a.xlsx"), Some(&below)).unwrap(),
+            None
+        );
+    }
+
+    #[test]
+    fn a_bad_file_found_is_an_error_naming_it() {
+        let (_dir, root) = tree();
+        std::fs::write(root.join("line 3").join(FOLDER_SETTINGS_FILE), "colour = \"blue\"\n").unwrap();
+        let error = settings_for_workbook(&root.join("line 3").join("a.xlsx"), Some(&root)).unwrap_err();
+        let text = error.to_string();
+        let file = root.join("line 3").join(FOLDER_SETTINGS_FILE).display().to_string();
+        assert!(
+            text.contains(&file) && text.contains("line 1") && text.contains("colour"),
+            "{text}"
+        );
     }
 }

@@ -3,13 +3,19 @@
 //! extension through the server).
 //!
 //! It owns what the front ends share: loading a workbook and layering the
-//! settings ([`settings`], with the one table of settings keys, and
-//! [`folder_settings`], the `trialyst.toml` file and where it is found), the
-//! per-response orchestration of the engine's analyses, the results types
-//! that the JSON document and the report are made from, output paths and
-//! folder scanning, "analyse and write", failure kinds and their wording, the
-//! batch runner and roll-up ([`batch`]), the report builders ([`report`]),
-//! and the plan and size use cases ([`plan`]).
+//! settings ([`load`], [`settings`], with the one table of settings keys,
+//! and [`folder_settings`], the `trialyst.toml` file and where it is found),
+//! the per-response orchestration of the engine's analyses
+//! ([`orchestrate`]), the results types that the JSON document and the
+//! report are made from ([`results`]), output paths and folder scanning
+//! ([`paths`]), "analyse and write" ([`mod@write`]), failure kinds and their
+//! wording ([`failure`]), the batch runner and roll-up ([`batch`]), the
+//! report builders ([`report`]), and the plan and size use cases
+//! ([`plan`]).
+//!
+//! The items most front ends need are re-exported here by name, so that
+//! `service::analyse_workbook`, `service::WorkbookResults` and the like
+//! keep one short path.
 //!
 //! # Invariant
 //!
@@ -17,11 +23,27 @@
 //! the engine does, on typed inputs, answering in record numbers that the
 //! service maps to cells.
 
-mod analyse;
 pub mod batch;
+pub mod failure;
 pub mod folder_settings;
+pub mod load;
+pub mod orchestrate;
+pub mod paths;
 pub mod plan;
 pub mod report;
+pub mod results;
 pub mod settings;
+pub mod write;
 
-pub use analyse::*;
+pub use failure::{describe_failure, error_chain, FailureReport, Problem, ServiceError};
+pub use load::{inspect_workbook, sha256_file, AnalysisRequest, CancelFlag};
+pub use orchestrate::{analyse_grid, analyse_workbook, conditions_of, unit_of, MAX_CONDITIONS, MAX_RESPONSES};
+pub use paths::{
+    collect_workbooks, has_workbook_extension, is_ignored_file_name, output_folder_for, problems_path_for,
+    relative_to_workbook, results_path_for, PROBLEMS_SUFFIX, RESULTS_SUFFIX,
+};
+pub use results::{
+    now_rfc3339, standard_cautions, FactorSummary, Inspection, ResponseOutcome, ResponseResult, SourceInfo,
+    TableSummary, Timings, WorkbookResults, RESULTS_FORMAT_VERSION, TOOL_NAME, TOOL_VERSION,
+};
+pub use write::{analyse_and_write, write_results, WrittenResults};

@@ -11,6 +11,11 @@
 //!   arrived or changed while the watcher was down is analysed.
 //! - Isolation: each workbook is read in a child process with memory and
 //!   time limits ([`worker`]); a crash becomes a problems workbook.
+//! - Folder settings: each workbook takes the nearest `trialyst.toml` from
+//!   its folder up to the watched folder, by the service's one rule
+//!   ([`service::folder_settings::settings_file_for`]); the worker analyses
+//!   and writes through [`service::analyse_and_write`], announcing the
+//!   destination before the write.
 //! - Many machines: a claim file per workbook ([`claim`]).
 //! - SIGINT/SIGTERM: the current worker is stopped, its temporary file
 //!   removed, and the watcher exits 0; the workbook is taken up again on
@@ -34,7 +39,7 @@ use notify_debouncer_full::{new_debouncer, DebounceEventResult};
 
 use claim::{try_claim, ClaimAttempt};
 use log::Log;
-use service::folder_settings::{parse_folder_settings, FOLDER_SETTINGS_FILE};
+use service::folder_settings::{parse_folder_settings, read_settings_file, settings_file_for, FOLDER_SETTINGS_FILE};
 use service::settings::Settings;
 use service::{FailureReport, Problem};
 use state::{nanos, Entry, State, StateStore, STATE_FOLDER};
@@ -276,6 +281,30 @@ impl Watcher {
         path == self.folder_file.path
     }
 
+    /// A folder settings file in a sub-folder of the watched folder.
+    fn is_nested_folder_file(&self, path: &Path) -> bool {
+        !self.is_folder_file(path)
+            && path.file_name().is_some_and(|name| name == FOLDER_SETTINGS_FILE)
+            && self.relative(path).is_some()
+    }
+
+    /// The folder settings in force for a workbook, by the service's one
+    /// rule: the nearest `trialyst.toml` from its folder up to the watched
+    /// folder (whose own file is kept read). `Err` names a file that
+    /// cannot be used.
+    fn folder_settings_of(&self, path: &Path) -> Result<Option<(PathBuf, Settings)>, String> {
+        match settings_file_for(path, Some(&self.folder)) {
+            None => Ok(None),
+            Some(file) if file == self.folder_file.path => {
+                self.folder_file.check()?;
+                Ok(self.folder_file.current().cloned().map(|settings| (file, settings)))
+            }
+            Some(file) => read_settings_file(&file)
+                .map(|settings| Some((file, settings)))
+                .map_err(|error| error.to_string()),
+        }
+    }
+
     fn listing(&self) -> Vec<PathBuf> {
         let (found, _) = service::collect_workbooks(std::slice::from_ref(&self.folder), self.recursive);
         found.into_iter().filter(|path| self.is_candidate(path)).collect()
@@ -314,6 +343,51 @@ impl Watcher {
                 Err(message) => self.log.event("problem", FOLDER_SETTINGS_FILE, &message),
             }
         }
+    }
+
+    /// A folder settings file in a sub-folder changed (`paths`, when known):
+    /// logged, and the folder listed again so that workbooks held back by a
+    /// bad file are taken up.
+    fn nested_settings_changed(&mut self, paths: &[PathBuf]) {
+        for path in paths {
+            let shown = self.relative(path).unwrap_or_default();
+            self.log.event(
+                "settings",
+                &shown,
+                "folder settings changed; they apply to workbooks of that folder analysed from now on",
+            );
+        }
+        if paths.is_empty() {
+            self.log.event(
+                "settings",
+                "",
+                "a folder settings file in a sub-folder changed; it applies to workbooks analysed from now on",
+            );
+        }
+        self.catch_up("a folder settings file changed");
+    }
+
+    /// Size and time of every folder settings file in a sub-folder (with
+    /// `--recursive`; hidden folders left out), for the polling loop, which
+    /// hears of no change by itself.
+    fn nested_settings_stamps(&self) -> BTreeMap<PathBuf, Stamp> {
+        fn walk(folder: &Path, found: &mut BTreeMap<PathBuf, Stamp>) {
+            let Ok(entries) = std::fs::read_dir(folder) else { return };
+            for entry in entries.filter_map(Result::ok) {
+                let path = entry.path();
+                if path.is_dir() && !entry.file_name().to_string_lossy().starts_with('.') {
+                    if let Some(stamp) = stamp_of(&path.join(FOLDER_SETTINGS_FILE)) {
+                        found.insert(path.clone(), stamp);
+                    }
+                    walk(&path, found);
+                }
+            }
+        }
+        let mut found = BTreeMap::new();
+        if self.recursive {
+            walk(&self.folder, &mut found);
+        }
+        found
     }
 
     fn run_listening(&mut self) -> Result<(), String> {
@@ -368,6 +442,7 @@ impl Watcher {
         let mut received: Vec<PathBuf> = Vec::new();
         let mut rescan = false;
         let mut settings = false;
+        let mut nested_settings: Vec<PathBuf> = Vec::new();
         for result in batch {
             match result {
                 Ok(events) => {
@@ -386,6 +461,8 @@ impl Watcher {
                         let Some(path) = target else { continue };
                         if self.is_folder_file(&path) {
                             settings = true;
+                        } else if self.is_nested_folder_file(&path) {
+                            nested_settings.push(path);
                         } else if self.is_candidate(&path) && path.is_file() && !received.contains(&path) {
                             received.push(path);
                         }
@@ -401,6 +478,9 @@ impl Watcher {
         }
         if settings {
             self.settings_changed();
+        }
+        if !nested_settings.is_empty() {
+            self.nested_settings_changed(&nested_settings);
         }
         let now = Instant::now();
         for path in received {
@@ -427,11 +507,17 @@ impl Watcher {
         // outcome leaves no new state (skipped, held back) is not taken up
         // at every listing.
         let mut handled: HashMap<PathBuf, Stamp> = HashMap::new();
+        let mut nested_settings = self.nested_settings_stamps();
         let mut next = Instant::now();
         while !self.stopping() {
             if Instant::now() >= next {
                 next += every;
                 self.settings_changed();
+                let nested_now = self.nested_settings_stamps();
+                if nested_now != nested_settings {
+                    nested_settings = nested_now;
+                    self.nested_settings_changed(&[]);
+                }
                 let mut current = HashMap::new();
                 for path in self.listing() {
                     if let Some(stamp) = stamp_of(&path) {
@@ -521,8 +607,13 @@ impl Watcher {
     }
 
     fn output_folder(&self, path: &Path) -> Option<PathBuf> {
-        let settings = self.folder_file.current().cloned().unwrap_or_default();
-        service::output_folder_for(path, self.out_dir.as_deref(), &settings)
+        let settings = self
+            .folder_settings_of(path)
+            .ok()
+            .flatten()
+            .map(|(_, settings)| settings)
+            .unwrap_or_default();
+        service::output_folder_for(path, self.out_dir.as_deref(), &self.settings.clone().over(&settings))
     }
 
     fn process(&mut self, path: &Path, attempts: u32) {
@@ -546,14 +637,17 @@ impl Watcher {
         if self.skip_if_done(&relative, &sha256) {
             return;
         }
-        if let Err(message) = self.folder_file.check() {
-            self.log.event(
-                "problem",
-                &relative,
-                &format!("held back until the folder settings file is fixed: {message}"),
-            );
-            return;
-        }
+        let folder_settings = match self.folder_settings_of(path) {
+            Ok(found) => found.map(|(file, _)| file),
+            Err(message) => {
+                self.log.event(
+                    "problem",
+                    &relative,
+                    &format!("held back until the folder settings file is fixed: {message}"),
+                );
+                return;
+            }
+        };
         let claim = match try_claim(self.store.folder(), &relative, self.claim_expiry) {
             Ok(ClaimAttempt::Mine(claim)) => claim,
             Ok(ClaimAttempt::Held(holder)) => {
@@ -574,15 +668,10 @@ impl Watcher {
         if self.skip_if_done(&relative, &sha256) {
             return;
         }
-        let folder_settings = self
-            .folder_file
-            .current()
-            .is_some()
-            .then(|| self.folder_file.path.clone());
         let args = worker_arguments(&WorkerRequest {
             file: path.to_path_buf(),
             out_dir: self.out_dir.clone(),
-            folder_settings: folder_settings.clone(),
+            folder_settings,
             settings: self.settings.clone(),
         });
         let outcome = run_worker(&self.program, &args, self.limits, &self.stop);

@@ -19,7 +19,7 @@ use std::time::{Duration, Instant};
 use serde::{Deserialize, Serialize};
 
 use service::settings::Settings;
-use service::{AnalysisRequest, FailureReport, Problem};
+use service::{AnalysisRequest, FailureReport};
 
 /// Test hook: the worker first allocates this many MiB (an allocation abort
 /// under the memory limit, as a hostile file could cause).
@@ -67,7 +67,8 @@ pub struct WorkerRequest {
     pub file: PathBuf,
     /// Folder for the results workbook given on the watcher's command line.
     pub out_dir: Option<PathBuf>,
-    /// The folder settings file to apply.
+    /// The folder settings file to apply, found by the watcher with
+    /// [`service::folder_settings::settings_file_for`].
     pub folder_settings: Option<PathBuf>,
     /// The settings given on the watcher's command line.
     pub settings: Settings,
@@ -103,41 +104,23 @@ pub fn analyse_one(request: &str) {
         let block = vec![1u8; mib << 20];
         std::hint::black_box(&block);
     }
-    let problems_of = |settings: &Settings| {
-        let folder = service::output_folder_for(&args.file, args.out_dir.as_deref(), settings);
-        service::problems_path_for(&args.file, folder.as_deref())
-            .display()
-            .to_string()
-    };
-    let fail = |message: String, fix: &str, settings: &Settings| {
+    // A failure's problems workbook goes where the settings known so far
+    // (without the workbook's own) put the results.
+    let fail = |error: &service::ServiceError, known: &Settings| {
+        let folder = service::output_folder_for(&args.file, args.out_dir.as_deref(), known);
         emit(&WorkerMessage::Failed {
-            report: FailureReport {
-                message: message.clone(),
-                problems: vec![Problem {
-                    place: String::new(),
-                    what: message,
-                    fix: fix.to_string(),
-                }],
-                maybe_incomplete: false,
-            },
-            problems_file: problems_of(settings),
+            report: service::describe_failure(error),
+            problems_file: service::problems_path_for(&args.file, folder.as_deref())
+                .display()
+                .to_string(),
         });
     };
     let settings = args.settings.clone();
     let folder_settings = match &args.folder_settings {
-        Some(path) => {
-            let text = std::fs::read_to_string(path).unwrap_or_default();
-            match service::folder_settings::parse_folder_settings(&text, &path.display().to_string()) {
-                Ok(found) => Some(found),
-                Err(error) => {
-                    return fail(
-                        error.to_string(),
-                        "Correct the key named in the folder's trialyst.toml.",
-                        &settings,
-                    )
-                }
-            }
-        }
+        Some(path) => match service::folder_settings::read_settings_file(path) {
+            Ok(found) => Some(found),
+            Err(error) => return fail(&error.into(), &settings),
+        },
         None => None,
     };
     let layered = settings.clone().over(&folder_settings.clone().unwrap_or_default());
@@ -146,58 +129,34 @@ pub fn analyse_one(request: &str) {
         folder_settings,
         ..AnalysisRequest::default()
     };
-    let results = match service::analyse_workbook(&args.file, &request) {
-        Ok(results) => results,
-        Err(error) => {
-            emit(&WorkerMessage::Failed {
-                report: service::describe_failure(&error),
-                problems_file: problems_of(&layered),
-            });
-            return;
+    let announce = &mut |destination: &Path| {
+        emit(&WorkerMessage::Writing {
+            results_file: destination.display().to_string(),
+        });
+        // Fault injection for the tests of stopping mid-analysis.
+        if let Some(pause) = std::env::var(TEST_PAUSE_MS)
+            .ok()
+            .and_then(|text| text.parse::<u64>().ok())
+        {
+            std::thread::sleep(Duration::from_millis(pause));
         }
     };
-    let folder = service::output_folder_for(&args.file, args.out_dir.as_deref(), &results.settings);
-    if let Some(folder) = &folder {
-        if let Err(error) = std::fs::create_dir_all(folder) {
-            return fail(
-                format!("cannot create the output folder '{}': {error}", folder.display()),
-                "Check the output folder setting and that the folder can be written to.",
-                &layered,
-            );
-        }
+    match service::analyse_and_write(&args.file, &request, args.out_dir.as_deref(), announce) {
+        Ok(written) => emit(&WorkerMessage::Analysed {
+            results_file: written.results_file.display().to_string(),
+            verdicts: written
+                .results
+                .responses
+                .iter()
+                .map(|response| match &response.verdict {
+                    Some(verdict) => verdict.headline.clone(),
+                    None => format!("{}: not analysed", response.name),
+                })
+                .collect(),
+            findings: written.results.findings.len(),
+        }),
+        Err(error) => fail(&error, &layered),
     }
-    let destination = service::results_path_for(&args.file, folder.as_deref());
-    emit(&WorkerMessage::Writing {
-        results_file: destination.display().to_string(),
-    });
-    // Fault injection for the tests of stopping mid-analysis.
-    if let Some(pause) = std::env::var(TEST_PAUSE_MS)
-        .ok()
-        .and_then(|text| text.parse::<u64>().ok())
-    {
-        std::thread::sleep(Duration::from_millis(pause));
-    }
-    if let Err(error) = service::write_results(&results, &destination) {
-        emit(&WorkerMessage::Failed {
-            report: service::describe_failure(&error),
-            problems_file: service::problems_path_for(&args.file, folder.as_deref())
-                .display()
-                .to_string(),
-        });
-        return;
-    }
-    emit(&WorkerMessage::Analysed {
-        results_file: destination.display().to_string(),
-        verdicts: results
-            .responses
-            .iter()
-            .map(|response| match &response.verdict {
-                Some(verdict) => verdict.headline.clone(),
-                None => format!("{}: not analysed", response.name),
-            })
-            .collect(),
-        findings: results.findings.len(),
-    });
 }
 
 /// Limits for one worker.

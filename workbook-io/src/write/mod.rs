@@ -244,6 +244,10 @@ pub struct Sheet {
     /// is printed at 100% rather than fitted to the page width, so its
     /// columns must fit the page by themselves.
     pub page_breaks: Vec<u32>,
+    /// Hidden from the sheet tabs (the spreadsheet's "unhide" shows it). A
+    /// hidden sheet must not be the book's first: the first sheet is the
+    /// one shown on opening.
+    pub hidden: bool,
 }
 
 /// An area of a sheet where the spreadsheet accepts only numbers (any
@@ -520,6 +524,9 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
         if sheet.frozen_rows > 0 {
             worksheet.set_freeze_panes(sheet.frozen_rows, 0)?;
         }
+        if sheet.hidden {
+            worksheet.set_hidden(true);
+        }
         for placed in &sheet.cells {
             let format = if placed.look == Look::Note && !paragraph_rows.contains(&placed.row) {
                 &looks.note_line
@@ -791,5 +798,33 @@ mod tests {
         // standard (ECMA-376 Part 1, 18.3.1.32 dataValidation).
         assert!(sheet.contains("<dataValidation type=\"decimal\""), "{sheet}");
         assert!(sheet.contains("sqref=\"A2:A9\""), "{sheet}");
+    }
+
+    #[test]
+    fn a_hidden_sheet_is_marked_hidden_and_reads_back() {
+        let mut book = sample_book();
+        let mut hidden = Sheet::new("Kept data");
+        let long = "x".repeat(32_000);
+        hidden.put(0, 0, Value::text(long.clone()), Look::Plain);
+        hidden.hidden = true;
+        book.sheets.push(hidden);
+        let dir = tempfile::tempdir().expect("a temporary folder");
+        let path = dir.path().join("hidden.xlsx");
+        write_book(&book, &path).expect("written");
+        let bytes = std::fs::read(&path).expect("read back");
+        // ECMA-376 Part 1, 18.2.19 sheet: state="hidden" hides a sheet from the tabs.
+        let listing = entry_text(&bytes, "xl/workbook.xml");
+        assert!(
+            listing.contains("name=\"Kept data\" sheetId=\"2\" state=\"hidden\""),
+            "{listing}"
+        );
+        assert!(!listing.contains("name=\"Runs\" sheetId=\"1\" state="), "{listing}");
+        let mut workbook = crate::open_workbook(&path, &crate::ReadLimits::default()).expect("opens");
+        let sheets = workbook.sheets().to_vec();
+        assert_eq!(sheets.len(), 2);
+        assert!(sheets[0].visible && !sheets[1].visible, "{sheets:?}");
+        let grid = workbook.read_sheet("Kept data", None).expect("the hidden sheet reads");
+        let (_, value) = grid.cells.first().expect("a cell");
+        assert_eq!(grid.display(*value), long);
     }
 }

@@ -9,9 +9,8 @@ use std::path::{Path, PathBuf};
 
 use serde::Serialize;
 use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
-use workbook_io::{open_workbook, CellValue, ReadError, ReadLimits, SheetGrid};
 
-use crate::report::names;
+use crate::report::document::{read_results_document, DocumentError};
 use engine::analysis::power::{
     check_one_way, one_way_power, one_way_runs_needed, pairs_plan, two_level_effect_power, OneWayEffect, PAIRS_METHOD,
 };
@@ -83,10 +82,10 @@ pub enum SizeError {
     /// An input is outside what the computation accepts.
     #[error("{0}")]
     Stats(#[from] StatsError),
-    /// The results workbook could not be read.
+    /// The results of the last trial could not be read, or hold no results document.
     #[error(transparent)]
-    Read(#[from] ReadError),
-    /// The workbook is not a results workbook of ours, or lacks the SD.
+    Document(#[from] DocumentError),
+    /// The results lack the SD asked for.
     #[error("'{}': {reason}", path.display())]
     NotResults {
         /// The workbook.
@@ -178,111 +177,40 @@ pub struct SizeAnswer {
     pub notes: Vec<String>,
 }
 
-fn rows_of(grid: &SheetGrid) -> Vec<Vec<(u32, CellValue)>> {
-    let mut rows: Vec<Vec<(u32, CellValue)>> = Vec::new();
-    let mut last_row = None;
-    for (pos, value) in &grid.cells {
-        if last_row != Some(pos.row) {
-            rows.push(Vec::new());
-            last_row = Some(pos.row);
-        }
-        if let Some(row) = rows.last_mut() {
-            row.push((pos.col, *value));
-        }
-    }
-    rows
-}
-
-fn cell_text(grid: &SheetGrid, row: &[(u32, CellValue)], col: u32) -> String {
-    row.iter()
-        .find(|(column, _)| *column == col)
-        .map(|(_, value)| grid.display(*value).trim().to_string())
-        .unwrap_or_default()
-}
-
-fn cell_number(row: &[(u32, CellValue)], col: u32) -> Option<f64> {
-    row.iter()
-        .find(|(column, _)| *column == col)
-        .and_then(|(_, value)| match value {
-            CellValue::Number(number) if number.is_finite() => Some(*number),
-            _ => None,
-        })
-}
-
-/// Reads the pooled SD of each response from a results workbook written by trialyst.
+/// Reads the pooled SD of each analysed response from the results of the
+/// last trial: a results workbook written by trialyst (its hidden results
+/// document) or a `.json` file holding one results document (a line of
+/// `trialyst run --json`).
 ///
 /// # Errors
 ///
-/// [`SizeError::Read`] when the workbook cannot be read,
-/// [`SizeError::NotResults`] when it is not one of our results workbooks or
-/// holds no SD.
+/// [`SizeError::Document`] when the file cannot be read or holds no
+/// results document, [`SizeError::NotResults`] when no response in it has
+/// a pooled SD.
 pub fn read_last_trial(path: &Path) -> Result<Vec<LastTrialSd>, SizeError> {
-    let not_results = |reason: &str| SizeError::NotResults {
-        path: path.to_path_buf(),
-        reason: reason.to_string(),
-    };
-    let mut workbook = open_workbook(path, &ReadLimits::default())?;
-    let has = |name: &str| workbook.sheets().iter().any(|info| info.name == name);
-    if !has(names::PROVENANCE) || !has(names::ANOVA) {
-        return Err(not_results(&format!(
-            "not a trialyst results workbook (no '{}' and '{}' sheets)",
-            names::PROVENANCE,
-            names::ANOVA
-        )));
-    }
-    let provenance = workbook.read_sheet(names::PROVENANCE, None)?;
-    let made_by_us = rows_of(&provenance)
-        .iter()
-        .any(|row| cell_text(&provenance, row, 0) == "tool" && cell_text(&provenance, row, 1).starts_with("trialyst"));
-    if !made_by_us {
-        return Err(not_results(
-            "its provenance does not name trialyst as the tool that wrote it",
-        ));
-    }
-    let anova = workbook.read_sheet(names::ANOVA, None)?;
-    let rows = rows_of(&anova);
-    let mut found: Vec<LastTrialSd> = Vec::new();
-    let mut current: Option<String> = None;
-    let mut residual: Option<(f64, f64)> = None;
-    let mut pooled: (Option<f64>, Option<f64>) = (None, None);
-    let mut finish = |current: &Option<String>, residual: &Option<(f64, f64)>, pooled: &(Option<f64>, Option<f64>)| {
-        if let Some(response) = current {
-            let value = match pooled {
-                (Some(sd), Some(df)) => Some((*sd, *df)),
-                _ => residual.map(|(ms, df)| (ms.sqrt(), df)),
-            };
-            if let Some((sd, df)) = value.filter(|(sd, df)| sd.is_finite() && *sd > 0.0 && *df > 0.0) {
-                found.push(LastTrialSd {
-                    response: response.clone(),
-                    sd,
-                    df,
-                });
-            }
-        }
-    };
-    for (index, row) in rows.iter().enumerate() {
-        let first = cell_text(&anova, row, 0);
-        if first == "source" && cell_text(&anova, row, 1) == "df" && index > 0 {
-            finish(&current, &residual, &pooled);
-            current = Some(cell_text(&anova, &rows[index - 1], 0));
-            residual = None;
-            pooled = (None, None);
-            continue;
-        }
-        match first.as_str() {
-            "within conditions" | "residual" | "error" => {
-                if let (Some(df), Some(ms)) = (cell_number(row, 1), cell_number(row, 3)) {
-                    residual = Some((ms, df));
-                }
-            }
-            "pooled SD" => pooled.0 = cell_number(row, 1),
-            "pooled SD degrees of freedom" => pooled.1 = cell_number(row, 1),
-            _ => {}
-        }
-    }
-    finish(&current, &residual, &pooled);
+    let document = read_results_document(path)?;
+    let found: Vec<LastTrialSd> = document["responses"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .filter_map(|response| {
+            let fit = response.get("one_way")?;
+            let sd = fit.get("pooled_sd")?.as_f64()?;
+            let df = fit.get("pooled_df")?.as_f64()?;
+            let name = response.get("name")?.as_str()?;
+            (sd.is_finite() && sd > 0.0 && df > 0.0).then(|| LastTrialSd {
+                response: name.to_string(),
+                sd,
+                df,
+            })
+        })
+        .collect();
     if found.is_empty() {
-        return Err(not_results("its ANOVA sheet holds no pooled SD"));
+        return Err(SizeError::NotResults {
+            path: path.to_path_buf(),
+            reason: "its results hold no pooled SD (no response was analysed with values to spare within conditions)"
+                .into(),
+        });
     }
     Ok(found)
 }

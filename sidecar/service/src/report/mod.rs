@@ -2,9 +2,11 @@
 //! an engineer read, with charts. No I/O here; `workbook-io` writes the model.
 //!
 //! Sheets: a summary in plain words, condition statistics, the ANOVA table,
-//! pairwise differences, contrasts, data problems, and provenance.
+//! pairwise differences, contrasts, data problems, provenance, and a hidden
+//! sheet holding the results document as JSON ([`document`]).
 
 pub mod assessment;
+pub mod document;
 pub mod factorial;
 pub mod problems;
 pub mod rollup;
@@ -31,6 +33,8 @@ pub mod names {
     pub const FINDINGS: &str = "Data problems";
     /// Provenance.
     pub const PROVENANCE: &str = "Provenance";
+    /// The hidden sheet holding the results document as JSON ([`super::document`]).
+    pub const RESULTS_DOCUMENT: &str = "Results document";
 }
 
 pub(crate) fn decimals_for(fit: &OneWayFit) -> u8 {
@@ -460,6 +464,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     factorial::add_factorial_results(results, &mut book);
     book.sheets.push(findings_sheet(&results.findings));
     book.sheets.push(provenance_sheet(results));
+    book.sheets.push(document::document_sheet(results));
     book
 }
 

@@ -1,0 +1,425 @@
+//! The per-response orchestration: the conditions of the table, the engine's
+//! one-way fit, comparisons, checks, reading and factorial analysis for
+//! each response, with the engine's record numbers mapped to cells.
+
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+use workbook_io::layout::{detect_table, Finding, FindingKind, TrialTable};
+use workbook_io::{SheetGrid, SheetInfo};
+
+use crate::failure::ServiceError;
+use crate::load::{load, settings_sources, summarise_table, table_request, CancelFlag, Loaded};
+use crate::results::{
+    now_rfc3339, standard_cautions, ResponseOutcome, ResponseResult, SourceInfo, Timings, WorkbookResults,
+    RESULTS_FORMAT_VERSION, TOOL_NAME, TOOL_VERSION,
+};
+use crate::settings::Settings;
+use crate::AnalysisRequest;
+use engine::analysis::contrast::parse_contrasts;
+use engine::analysis::oneway::{fit_one_way, OneWayError, OneWayFit};
+
+/// Most conditions compared in one response. Every pair of conditions is
+/// compared, so the work and the tables grow with the square of the count:
+/// 200 conditions are 19,900 pairs. A table with more is almost always a
+/// sheet read in the wrong layout (a row of thousands of headers), and
+/// comparing it would exhaust the machine.
+pub const MAX_CONDITIONS: usize = 200;
+
+/// Most responses analysed from one table; the rest are left out with a
+/// finding. Each response gets its own section, chart and tables, and a
+/// sheet of thousands of numeric columns is rarely one trial.
+pub const MAX_RESPONSES: usize = 250;
+
+/// The unit at the end of a header: `Thickness (mm)` gives `mm`.
+pub fn unit_of(header: &str) -> Option<String> {
+    let trimmed = header.trim();
+    for (open, close) in [('(', ')'), ('[', ']')] {
+        if trimmed.ends_with(close) {
+            if let Some(start) = trimmed.rfind(open) {
+                let unit = trimmed[start + 1..trimmed.len() - 1].trim();
+                if !unit.is_empty() && unit.len() <= 20 {
+                    return Some(unit.to_string());
+                }
+            }
+        }
+    }
+    None
+}
+
+/// Reads and analyses a workbook.
+///
+/// # Errors
+///
+/// [`ServiceError`] when the workbook cannot be read, holds no table, or no
+/// response in it can be analysed. Problems with single cells are findings
+/// in the result, not errors.
+pub fn analyse_workbook(path: &Path, request: &AnalysisRequest) -> Result<WorkbookResults, ServiceError> {
+    let loaded = load(path, request)?;
+    analyse_loaded(path, loaded, &request.cancel)
+}
+
+/// Analyses cells that a client sent (a 2-D block as read from its sheet).
+///
+/// # Errors
+///
+/// As [`analyse_workbook`].
+pub fn analyse_grid(
+    grid: &SheetGrid,
+    settings: &Settings,
+    source_name: &str,
+    cancel: &CancelFlag,
+) -> Result<WorkbookResults, ServiceError> {
+    let path = PathBuf::from(source_name);
+    let table = detect_table(grid, &table_request(settings, None)).map_err(|error| ServiceError::NoTable {
+        path: path.clone(),
+        reasons: error.to_string(),
+    })?;
+    let mut table = table;
+    let findings = std::mem::take(&mut table.findings);
+    let source = SourceInfo {
+        path: source_name.to_string(),
+        file_name: source_name.to_string(),
+        sha256: String::new(),
+        bytes: 0,
+        format: "cells".into(),
+        sheet: table.sheet.clone(),
+        range: table.area.a1(),
+    };
+    let loaded = Loaded {
+        source,
+        sheets: vec![SheetInfo {
+            name: grid.name.clone(),
+            visible: true,
+        }],
+        table,
+        settings: settings.clone(),
+        settings_sources: settings_sources(settings, &Settings::default(), &Settings::default()),
+        findings,
+        timings: Timings::default(),
+    };
+    analyse_loaded(&path, loaded, cancel)
+}
+
+/// The conditions of a table: one factor's levels, or the observed
+/// combinations of several treatment factors' levels.
+pub fn conditions_of(table: &TrialTable) -> (String, Vec<String>, Vec<u32>) {
+    let treatment: Vec<&workbook_io::layout::Factor> = table.factors.iter().filter(|factor| !factor.is_block).collect();
+    let treatment = if treatment.is_empty() {
+        table.factors.iter().collect()
+    } else {
+        treatment
+    };
+    if treatment.len() == 1 {
+        let factor = treatment[0];
+        return (
+            factor.name.clone(),
+            factor.levels.clone(),
+            factor.level_of_record.clone(),
+        );
+    }
+    let name = treatment
+        .iter()
+        .map(|factor| factor.name.as_str())
+        .collect::<Vec<_>>()
+        .join(" × ");
+    let mut combination_index: HashMap<Vec<u32>, u32> = HashMap::new();
+    let mut names = Vec::new();
+    let mut groups = Vec::with_capacity(table.n_records());
+    for record in 0..table.n_records() {
+        let key: Vec<u32> = treatment.iter().map(|factor| factor.level_of_record[record]).collect();
+        let next = combination_index.len() as u32;
+        let index = *combination_index.entry(key.clone()).or_insert_with(|| {
+            names.push(
+                treatment
+                    .iter()
+                    .zip(&key)
+                    .map(|(factor, level)| factor.levels[*level as usize].as_str())
+                    .collect::<Vec<_>>()
+                    .join(" / "),
+            );
+            next
+        });
+        groups.push(index);
+    }
+    (name, names, groups)
+}
+
+fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<WorkbookResults, ServiceError> {
+    let Loaded {
+        source,
+        mut table,
+        settings,
+        settings_sources,
+        mut findings,
+        mut timings,
+        ..
+    } = loaded;
+    let started = Instant::now();
+    if table.responses.len() > MAX_RESPONSES {
+        let first_left_out = &table.responses[MAX_RESPONSES];
+        findings.push(Finding {
+            kind: FindingKind::Analysis,
+            sheet: table.sheet.clone(),
+            cell: first_left_out
+                .column
+                .map(|col| workbook_io::CellPos::new(table.area.first.row, col).a1()),
+            found: format!("{} response columns", table.responses.len()),
+            action: format!("the first {MAX_RESPONSES} were analysed, the rest left out"),
+            message: format!(
+                "the table has {} response columns; the first {MAX_RESPONSES} were analysed and the rest, from '{}' on, were left out; name the responses to analyse",
+                table.responses.len(),
+                first_left_out.name
+            ),
+        });
+        table.responses.truncate(MAX_RESPONSES);
+    }
+    let (condition_factor, condition_names, groups) = conditions_of(&table);
+    let confidence = settings.confidence_level();
+    let mut contrasts = Vec::new();
+    for text in &settings.contrasts {
+        match parse_contrasts(text, &condition_names) {
+            Ok(mut parsed) => contrasts.append(&mut parsed),
+            Err(error) => findings.push(Finding {
+                kind: FindingKind::Setting,
+                sheet: String::new(),
+                cell: None,
+                found: text.clone(),
+                action: "the contrast was left out".into(),
+                message: error.to_string(),
+            }),
+        }
+    }
+    let mut responses = Vec::new();
+    for (response_index, response) in table.responses.iter().enumerate() {
+        if cancel.is_cancelled() {
+            return Err(ServiceError::Cancelled);
+        }
+        // Conditions with fewer than two usable values are reported here, per response.
+        let mut counts = vec![0usize; condition_names.len()];
+        let mut first_record: Vec<Option<usize>> = vec![None; condition_names.len()];
+        for (record, (&group, value)) in groups.iter().zip(&response.values).enumerate() {
+            if value.is_finite() {
+                counts[group as usize] += 1;
+                first_record[group as usize].get_or_insert(record);
+            }
+        }
+        for (condition, &count) in counts.iter().enumerate() {
+            if count < 2 {
+                let cell = first_record[condition].map(|record| table.value_cell(response_index, record).a1());
+                let (action, detail) = if count == 0 {
+                    ("the condition was left out of this response", "has no usable value")
+                } else {
+                    (
+                        "kept; it adds no within-condition degrees of freedom",
+                        "has only one value",
+                    )
+                };
+                findings.push(Finding {
+                    kind: FindingKind::TooFewValues,
+                    sheet: table.sheet.clone(),
+                    cell,
+                    found: format!("{count} value(s)"),
+                    action: action.into(),
+                    message: format!(
+                        "condition '{}' {detail} for '{}'; its spread cannot be judged on its own",
+                        condition_names[condition], response.name
+                    ),
+                });
+            }
+        }
+        let with_values = counts.iter().filter(|&&count| count > 0).count();
+        let outcome = if with_values > MAX_CONDITIONS {
+            ResponseOutcome::NotAnalysed {
+                reason: format!(
+                    "'{}' has {with_values} conditions with values in sheet '{}' ({}), more than the {MAX_CONDITIONS} that are compared pair by pair; check that the table was read in the right layout or choose the columns to use",
+                    response.name,
+                    table.sheet,
+                    table.area.a1()
+                ),
+            }
+        } else {
+            match fit_one_way(&condition_names, &groups, &response.values, confidence, &contrasts) {
+                Ok(fit) => ResponseOutcome::Analysed { one_way: Box::new(fit) },
+                Err(OneWayError::TooFewConditions { found }) => ResponseOutcome::NotAnalysed {
+                    reason: format!(
+                        "only {found} condition(s) have values for '{}'; at least two are needed",
+                        response.name
+                    ),
+                },
+                Err(error) => ResponseOutcome::NotAnalysed {
+                    reason: error.to_string(),
+                },
+            }
+        };
+        let assessment = match &outcome {
+            ResponseOutcome::Analysed { one_way } => {
+                let assessment_started = Instant::now();
+                let mut assessment = assess_response(one_way, &groups, &counts, &response.values, &settings);
+                timings.assessment_ms += assessment_started.elapsed().as_secs_f64() * 1e3;
+                for outlier in &mut assessment.checks.outliers {
+                    let cell = table.value_cell(response_index, outlier.record).a1();
+                    findings.push(Finding {
+                        kind: FindingKind::Analysis,
+                        sheet: table.sheet.clone(),
+                        cell: Some(cell.clone()),
+                        found: format!("{}", outlier.value),
+                        action: "kept in the analysis; flagged for checking".into(),
+                        message: format!(
+                            "the value {} of condition '{}' in '{}' stands out (externally studentized residual {:.2}, Bonferroni p = {:.3}); check it",
+                            outlier.value, outlier.condition, response.name, outlier.studentized, outlier.p_bonferroni
+                        ),
+                    });
+                    outlier.cell = Some(cell);
+                }
+                Some(Box::new(assessment))
+            }
+            ResponseOutcome::NotAnalysed { .. } => None,
+        };
+        let unit = unit_of(&response.name);
+        let verdict = match &outcome {
+            ResponseOutcome::Analysed { one_way } => Some(engine::analysis::verdict::read_fit(
+                &response.name,
+                unit.as_deref(),
+                one_way,
+                assessment.as_deref(),
+            )),
+            ResponseOutcome::NotAnalysed { .. } => None,
+        };
+        let factorial = factorial_of(&table, response_index, &settings);
+        responses.push(ResponseResult {
+            name: response.name.clone(),
+            assessment,
+            unit,
+            verdict,
+            factorial,
+            condition_factor: condition_factor.clone(),
+            outcome,
+        });
+    }
+    timings.analysis_ms = started.elapsed().as_secs_f64() * 1e3;
+    if responses.iter().all(|response| response.fit().is_none()) {
+        let reasons = responses
+            .iter()
+            .map(|response| match &response.outcome {
+                ResponseOutcome::NotAnalysed { reason } => reason.clone(),
+                ResponseOutcome::Analysed { .. } => String::new(),
+            })
+            .collect::<Vec<_>>()
+            .join("; ");
+        return Err(ServiceError::NothingAnalysable {
+            path: path.to_path_buf(),
+            reasons,
+            findings,
+        });
+    }
+    Ok(WorkbookResults {
+        format_version: RESULTS_FORMAT_VERSION,
+        tool: TOOL_NAME,
+        tool_version: TOOL_VERSION,
+        created_at: now_rfc3339(),
+        source,
+        table: summarise_table(&table),
+        settings,
+        settings_sources,
+        responses,
+        findings,
+        cautions: standard_cautions(),
+        timings,
+    })
+}
+
+/// The factorial analysis of one response, with the engine's record numbers
+/// turned into cells.
+fn factorial_of(
+    table: &TrialTable,
+    response_index: usize,
+    settings: &Settings,
+) -> Option<engine::analysis::factorial::FactorialOutcome> {
+    use engine::analysis::factorial::{analyse_factorial, FactorData, FactorialData, FactorialOptions};
+    let response = table.responses.get(response_index)?;
+    let data = FactorialData {
+        factors: table
+            .factors
+            .iter()
+            .map(|factor| FactorData {
+                name: &factor.name,
+                levels: &factor.levels,
+                level_of_record: &factor.level_of_record,
+                is_block: factor.is_block,
+            })
+            .collect(),
+        response_name: &response.name,
+        values: &response.values,
+    };
+    let options = FactorialOptions {
+        confidence: settings.confidence_level(),
+        direction: settings.direction,
+        interaction_order: settings.interaction_order,
+    };
+    let mut outcome = analyse_factorial(&data, &options)?;
+    let place = |record: usize| format!("{}!{}", table.sheet, table.value_cell(response_index, record).a1());
+    if let Some(record) = outcome.mixed_levels_record {
+        outcome.notes.insert(
+            0,
+            format!(
+                "the record at {} has some factors at their middle level and others not, so the runs are not a two-level design with centre points; the factors were analysed with all their levels",
+                place(record)
+            ),
+        );
+    }
+    if let Some(largest) = outcome
+        .reduced
+        .as_mut()
+        .and_then(|reduced| reduced.residual_check.as_mut())
+        .and_then(|check| check.largest.as_mut())
+    {
+        largest.cell = Some(place(largest.record));
+    }
+    Some(outcome)
+}
+
+/// Builds the per-condition values (in record order, with their records)
+/// that the comparisons and checks need, and runs them.
+fn assess_response(
+    fit: &OneWayFit,
+    groups: &[u32],
+    counts: &[usize],
+    values: &[f64],
+    settings: &Settings,
+) -> engine::analysis::assessment::Assessment {
+    // The fit keeps conditions with at least one value, in their original order.
+    let kept: Vec<usize> = (0..counts.len()).filter(|&index| counts[index] > 0).collect();
+    let mut position_of = vec![usize::MAX; counts.len()];
+    for (position, &index) in kept.iter().enumerate() {
+        position_of[index] = position;
+    }
+    let mut group_values: Vec<Vec<f64>> = kept.iter().map(|&index| Vec::with_capacity(counts[index])).collect();
+    let mut group_records: Vec<Vec<usize>> = kept.iter().map(|&index| Vec::with_capacity(counts[index])).collect();
+    for (record, (&group, &value)) in groups.iter().zip(values).enumerate() {
+        let position = position_of[group as usize];
+        if value.is_finite() && position != usize::MAX {
+            group_values[position].push(value);
+            group_records[position].push(record);
+        }
+    }
+    let options = engine::analysis::assessment::AssessmentOptions {
+        family_confidence: settings.family_confidence,
+        direction: settings.direction,
+        control: settings.control.clone(),
+    };
+    engine::analysis::assessment::assess(fit, &group_values, &group_records, &options)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn units_come_from_the_end_of_the_header() {
+        assert_eq!(unit_of("Thickness (mm)"), Some("mm".into()));
+        assert_eq!(unit_of("Yield [%]"), Some("%".into()));
+        assert_eq!(unit_of("Yield"), None);
+    }
+}
