@@ -1,6 +1,7 @@
 //! trialyst's integration tests, one module per area: the command line end
 //! to end, NIST accuracy through the read path, data findings, hostile
-//! files and a catalogue of broken and hostile inputs, factorial trials, trial plans and the protocol server. The
+//! files and a catalogue of broken and hostile inputs, factorial trials, trial plans and the protocol server; guards of the
+//! results document's format (a snapshot) and of plan workbooks (golden files). The
 //! command-line tests run the real program, built from `sidecar/src/main.rs`
 //! as this package's `trialyst-under-test` binary (see tests/Cargo.toml for why).
 
@@ -10,8 +11,10 @@ mod cli;
 mod common;
 mod factorial;
 mod findings;
+mod golden_plan;
 mod hostile;
 mod lsp;
 mod nist;
 mod plan;
+mod results_snapshot;
 mod watch;
