@@ -52,7 +52,7 @@ fn cases() -> impl Iterator<Item = DfAndSides> {
 }
 
 /// The critical value of the comparisons with a control at 95%.
-#[divan::bench(args = cases())]
+#[divan::bench(args = cases(), sample_count = 10)]
 fn control_critical_value(bencher: Bencher, case: DfAndSides) {
     let sizes = sizes();
     let lambdas = dunnett_lambdas(sizes[0], &sizes[1..]).expect("sizes");
@@ -61,7 +61,7 @@ fn control_critical_value(bencher: Bencher, case: DfAndSides) {
 
 /// One probability of the comparisons with a control (the workload cycles through 19
 /// points, 0.5 to 4.1).
-#[divan::bench(args = cases())]
+#[divan::bench(args = cases(), sample_count = 10)]
 fn control_probability(bencher: Bencher, case: DfAndSides) {
     let sizes = sizes();
     let lambdas = dunnett_lambdas(sizes[0], &sizes[1..]).expect("sizes");
@@ -72,7 +72,7 @@ fn control_probability(bencher: Bencher, case: DfAndSides) {
 }
 
 /// The critical values of the comparisons with the best, one per condition.
-#[divan::bench(args = dfs())]
+#[divan::bench(args = dfs(), sample_count = 10)]
 fn best_critical_values(bencher: Bencher, df: f64) {
     let sizes = sizes();
     bencher.bench(|| mcb_critical_values(&sizes, df, 0.95).expect("critical values"));
