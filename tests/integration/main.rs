@@ -1,7 +1,8 @@
 //! trialyst's integration tests, one module per area: the command line end
 //! to end, NIST accuracy through the read path, data findings, hostile
-//! files and a catalogue of broken and hostile inputs, factorial trials, trial plans, the protocol server, and the
-//! three front ends (run, watch, serve) agreeing on one workbook. The
+//! files and a catalogue of broken and hostile inputs, factorial trials, trial plans, the protocol server, the
+//! three front ends (run, watch, serve) agreeing on one workbook, and guards of the results
+//! document's format (a snapshot) and of plan workbooks (golden files). The
 //! command-line tests run the real program, built from `sidecar/src/main.rs`
 //! as this package's `trialyst-under-test` binary (see tests/Cargo.toml for why).
 
@@ -12,8 +13,10 @@ mod common;
 mod factorial;
 mod findings;
 mod front_ends;
+mod golden_plan;
 mod hostile;
 mod lsp;
 mod nist;
 mod plan;
+mod results_snapshot;
 mod watch;

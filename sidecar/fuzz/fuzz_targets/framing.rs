@@ -7,7 +7,7 @@
 use std::time::Duration;
 
 use libfuzzer_sys::fuzz_target;
-use sidecar::lsp::framing::{guard_input, FramingOptions};
+use server::framing::{guard_input, FramingOptions};
 use tokio::io::AsyncReadExt;
 
 fuzz_target!(|data: &[u8]| {

@@ -1,10 +1,10 @@
 //! Request decoding: any JSON as the params of every method, through the
-//! hand-written checks of `lsp::from_proto` (which must answer with an error
+//! hand-written checks of `server::from_proto` (which must answer with an error
 //! naming the field, never panic), and decoded cells through table detection.
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use sidecar::lsp::from_proto;
+use server::from_proto;
 use workbook_io::layout::{detect_table, TableRequest};
 
 fuzz_target!(|data: &[u8]| {

@@ -2,6 +2,8 @@
 //! written for a test, running the built `trialyst` binary with a full
 //! account on failure, reading results workbooks back, and the tolerances.
 
+pub mod blessing;
+
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 

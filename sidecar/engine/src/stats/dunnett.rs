@@ -98,7 +98,7 @@ const MAX_ROOT_ITERATIONS: usize = 100;
 /// lambdas 0 and near 1, negative c, one and two sides, several finite df and infinite df),
 /// against Student's t for a single comparison and against `Phi(c)^m` for independent
 /// comparisons. With finite df the normal-theory probability is interpolated from a table
-/// (see [`ProductCorrelation::cdf`]). Speed (release build, `examples/dunnett_timing.rs`,
+/// (see [`ProductCorrelation::cdf`]). Speed (release build, `benches/dunnett_timing.rs`,
 /// 19 distinct lambdas): 0.1 ms (one side) to 0.25 ms (two sides) with df infinite; with
 /// finite df a single call costs 2 to 50 ms, mostly building the table, and later calls
 /// on the same [`ProductCorrelation`] a fraction of that.
