@@ -14,6 +14,9 @@
 //! target/release/examples/batch_speed [--workbooks N] [--jobs J] [--drops D]
 //! ```
 
+// Benchmarks and examples report on the terminal.
+#![allow(clippy::print_stdout, clippy::print_stderr, clippy::exit)]
+
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};

@@ -34,6 +34,9 @@
 //! target/release/examples/bench_run [--rows N] [--keep FOLDER]
 //! ```
 
+// Benchmarks and examples report on the terminal.
+#![allow(clippy::print_stdout, clippy::print_stderr, clippy::exit)]
+
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};

@@ -6,6 +6,9 @@
 //!
 //! Run: `cargo run -p sidecar --example make_samples -- sample-workbooks`
 
+// Benchmarks and examples report on the terminal.
+#![allow(clippy::print_stdout, clippy::print_stderr, clippy::exit)]
+
 use std::path::{Path, PathBuf};
 
 use rust_xlsxwriter::{ExcelDateTime, Format, Workbook, XlsxError};

@@ -13,6 +13,9 @@
 //! (`target/<profile>/trialyst`), or where `TRIALYST_BIN` says. Pass
 //! `--requests N` to change the number of timed requests (default 1,000).
 
+// Benchmarks and examples report on the terminal.
+#![allow(clippy::print_stdout, clippy::print_stderr, clippy::exit)]
+
 use std::collections::HashMap;
 use std::io::{BufRead, BufReader, Read, Write};
 use std::path::{Path, PathBuf};

@@ -1,5 +1,7 @@
 //! The `trialyst` binary: parses the command line and hands over to the library.
 
+#![allow(clippy::print_stdout, clippy::print_stderr)]
+
 use std::process::ExitCode;
 
 use clap::Parser;

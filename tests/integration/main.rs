@@ -6,6 +6,9 @@
 //! command-line tests run the real program, built from `sidecar/src/main.rs`
 //! as this package's `trialyst-under-test` binary (see tests/Cargo.toml for why).
 
+// Tests print what they measured and, on failure, what the program said.
+#![allow(clippy::print_stdout, clippy::print_stderr)]
+
 mod batch;
 mod catalogue;
 mod cli;

@@ -5,6 +5,9 @@
 //! Run in release (the bench profile): `cargo bench -p engine --bench assess_timing`;
 //! `-- "20 conditions"` runs the large case only.
 
+// Benchmarks and examples report on the terminal.
+#![allow(clippy::print_stdout, clippy::print_stderr)]
+
 use std::fmt;
 
 use divan::Bencher;
@@ -91,76 +94,76 @@ fn trial(size: TrialSize) -> Trial {
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn one_way_fit(bencher: Bencher, size: TrialSize) {
+fn one_way_fit(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     bencher.bench(|| fit_one_way(&trial.names, &trial.groups, &trial.values, 0.95, &[]).expect("fits"));
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn tukey_kramer(bencher: Bencher, size: TrialSize) {
+fn tukey_kramer(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     bencher.bench(|| pooled_pairs(&trial.fit, PairMethod::TukeyKramer, 0.95));
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn bonferroni(bencher: Bencher, size: TrialSize) {
+fn bonferroni(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     bencher.bench(|| pooled_pairs(&trial.fit, PairMethod::Bonferroni, 0.95));
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn scheffe(bencher: Bencher, size: TrialSize) {
+fn scheffe(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     bencher.bench(|| pooled_pairs(&trial.fit, PairMethod::Scheffe, 0.95));
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn games_howell(bencher: Bencher, size: TrialSize) {
+fn games_howell(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     bencher.bench(|| unequal_spread_pairs(&trial.fit, 0.95));
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn welch(bencher: Bencher, size: TrialSize) {
+fn welch(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     bencher.bench(|| welch_anova(&trial.fit.conditions));
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn against_a_control(bencher: Bencher, size: TrialSize) {
+fn against_a_control(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     bencher.bench(|| against_control(&trial.fit, "condition 0", None, 0.95));
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn with_the_best_higher(bencher: Bencher, size: TrialSize) {
+fn with_the_best_higher(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     bencher.bench(|| with_the_best(&trial.fit, Direction::HigherIsBetter, 0.95));
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn ranks(bencher: Bencher, size: TrialSize) {
+fn ranks(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     let slices: Vec<&[f64]> = trial.group_values.iter().map(Vec::as_slice).collect();
     bencher.bench(|| engine::stats::ranks::rank_analysis(&slices));
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn levene_about_medians(bencher: Bencher, size: TrialSize) {
+fn levene_about_medians(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     let slices: Vec<&[f64]> = trial.group_values.iter().map(Vec::as_slice).collect();
     bencher.bench(|| levene(&slices, Centre::Median));
 }
 
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn normality_thinned_to_2000(bencher: Bencher, size: TrialSize) {
+fn normality_thinned_to_2000(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     bencher.bench(|| engine::stats::normality::check_normality_thinned(&trial.values, 2_000));
 }
 
 /// The whole assessment with no direction and no control.
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn assessment(bencher: Bencher, size: TrialSize) {
+fn assessment(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     let options = AssessmentOptions::default();
     bencher.bench(|| assess(&trial.fit, &trial.group_values, &trial.group_records, &options));
@@ -168,7 +171,7 @@ fn assessment(bencher: Bencher, size: TrialSize) {
 
 /// The whole assessment on a fresh thread each time (its per-thread caches empty).
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn assessment_on_a_fresh_thread(bencher: Bencher, size: TrialSize) {
+fn assessment_on_a_fresh_thread(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     let options = AssessmentOptions::default();
     bencher.bench(|| {
@@ -184,7 +187,7 @@ fn assessment_on_a_fresh_thread(bencher: Bencher, size: TrialSize) {
 
 /// The whole assessment with a direction (higher is better) and a control.
 #[divan::bench(args = SIZES, sample_count = 20)]
-fn assessment_with_direction_and_control(bencher: Bencher, size: TrialSize) {
+fn assessment_with_direction_and_control(bencher: Bencher<'_, '_>, size: TrialSize) {
     let trial = trial(size);
     let options = AssessmentOptions {
         direction: Some(Direction::HigherIsBetter),

@@ -5,6 +5,9 @@
 //!
 //! Run in release (the bench profile): `cargo bench -p engine --bench dunnett_timing`.
 
+// Benchmarks and examples report on the terminal.
+#![allow(clippy::print_stdout, clippy::print_stderr)]
+
 use std::fmt;
 use std::sync::atomic::{AtomicUsize, Ordering};
 
@@ -53,7 +56,7 @@ fn cases() -> impl Iterator<Item = DfAndSides> {
 
 /// The critical value of the comparisons with a control at 95%.
 #[divan::bench(args = cases(), sample_count = 10)]
-fn control_critical_value(bencher: Bencher, case: DfAndSides) {
+fn control_critical_value(bencher: Bencher<'_, '_>, case: DfAndSides) {
     let sizes = sizes();
     let lambdas = dunnett_lambdas(sizes[0], &sizes[1..]).expect("sizes");
     bencher.bench(|| product_correlation_quantile(0.95, &lambdas, case.df, case.sides).expect("quantile"));
@@ -62,7 +65,7 @@ fn control_critical_value(bencher: Bencher, case: DfAndSides) {
 /// One probability of the comparisons with a control (the workload cycles through 19
 /// points, 0.5 to 4.1).
 #[divan::bench(args = cases(), sample_count = 10)]
-fn control_probability(bencher: Bencher, case: DfAndSides) {
+fn control_probability(bencher: Bencher<'_, '_>, case: DfAndSides) {
     let sizes = sizes();
     let lambdas = dunnett_lambdas(sizes[0], &sizes[1..]).expect("sizes");
     let step = AtomicUsize::new(0);
@@ -73,7 +76,7 @@ fn control_probability(bencher: Bencher, case: DfAndSides) {
 
 /// The critical values of the comparisons with the best, one per condition.
 #[divan::bench(args = dfs(), sample_count = 10)]
-fn best_critical_values(bencher: Bencher, df: f64) {
+fn best_critical_values(bencher: Bencher<'_, '_>, df: f64) {
     let sizes = sizes();
     bencher.bench(|| mcb_critical_values(&sizes, df, 0.95).expect("critical values"));
 }

@@ -5,6 +5,9 @@
 //!
 //! Run in release (the bench profile): `cargo bench -p engine --bench factorial_speed`.
 
+// Benchmarks and examples report on the terminal.
+#![allow(clippy::print_stdout, clippy::print_stderr)]
+
 use std::sync::LazyLock;
 
 use divan::Bencher;
@@ -146,7 +149,7 @@ fn workloads() -> Workloads {
 
 /// The cell sums alone: the exact decimal accumulator over the 60 cells of the large trial.
 #[divan::bench(sample_count = 10)]
-fn cell_sums_of_the_4x3x5_trial(bencher: Bencher) {
+fn cell_sums_of_the_4x3x5_trial(bencher: Bencher<'_, '_>) {
     let workloads = &*WORKLOADS;
     bencher.bench(|| {
         let mut accumulator = GroupAccumulator::new(60);
@@ -159,7 +162,7 @@ fn cell_sums_of_the_4x3x5_trial(bencher: Bencher) {
 
 /// The whole factorial analysis of the 4 × 3 × 5 trial of 1,000,000 records.
 #[divan::bench(sample_count = 10)]
-fn factorial_analysis_of_the_4x3x5_trial(bencher: Bencher) {
+fn factorial_analysis_of_the_4x3x5_trial(bencher: Bencher<'_, '_>) {
     let workloads = &*WORKLOADS;
     let options = FactorialOptions::default();
     bencher.bench(|| analyse_factorial(&workloads.large.data(), &options).expect("outcome"));
@@ -167,7 +170,7 @@ fn factorial_analysis_of_the_4x3x5_trial(bencher: Bencher) {
 
 /// The two-level core on the 2^(8-3) screening design: effects, Lenth, aliases.
 #[divan::bench]
-fn screening_two_level_core(bencher: Bencher) {
+fn screening_two_level_core(bencher: Bencher<'_, '_>) {
     let workloads = &*WORKLOADS;
     let options = AnalysisOptions::default();
     bencher.bench(|| {
@@ -178,7 +181,7 @@ fn screening_two_level_core(bencher: Bencher) {
 /// The whole factorial analysis of the 2^(8-3) screening design (k-way model,
 /// two-level analysis, reduced model, text).
 #[divan::bench]
-fn screening_whole_factorial_analysis(bencher: Bencher) {
+fn screening_whole_factorial_analysis(bencher: Bencher<'_, '_>) {
     let workloads = &*WORKLOADS;
     let options = FactorialOptions::default();
     bencher.bench(|| analyse_factorial(&workloads.screening.data(), &options).expect("outcome"));

@@ -8,6 +8,9 @@
 //! little from one iteration to the next, as in the workloads this replaced, so that
 //! no result is merely repeated.
 
+// Benchmarks and examples report on the terminal.
+#![allow(clippy::print_stdout, clippy::print_stderr)]
+
 use std::fmt;
 use std::sync::atomic::{AtomicUsize, Ordering};
 
@@ -56,21 +59,21 @@ fn steps() -> impl Fn() -> f64 + Sync {
 }
 
 #[divan::bench(args = grid())]
-fn cdf(bencher: Bencher, point: GroupsAndDf) {
+fn cdf(bencher: Bencher<'_, '_>, point: GroupsAndDf) {
     bencher
         .with_inputs(steps())
         .bench_values(|step| studentized_range_cdf(2.0 + 0.01 * step, point.groups, point.df).unwrap_or(0.0));
 }
 
 #[divan::bench(args = grid())]
-fn sf(bencher: Bencher, point: GroupsAndDf) {
+fn sf(bencher: Bencher<'_, '_>, point: GroupsAndDf) {
     bencher
         .with_inputs(steps())
         .bench_values(|step| studentized_range_sf(4.0 + 0.01 * step, point.groups, point.df).unwrap_or(0.0));
 }
 
 #[divan::bench(args = grid())]
-fn quantile(bencher: Bencher, point: GroupsAndDf) {
+fn quantile(bencher: Bencher<'_, '_>, point: GroupsAndDf) {
     bencher
         .with_inputs(steps())
         .bench_values(|step| studentized_range_quantile(0.95 + 0.0001 * step, point.groups, point.df).unwrap_or(0.0));
@@ -78,7 +81,7 @@ fn quantile(bencher: Bencher, point: GroupsAndDf) {
 
 /// The far upper tail: the upper tail near 1e-6.
 #[divan::bench(args = grid())]
-fn sf_tail(bencher: Bencher, point: GroupsAndDf) {
+fn sf_tail(bencher: Bencher<'_, '_>, point: GroupsAndDf) {
     let start = studentized_range_quantile(0.999_999, point.groups, point.df).unwrap_or(10.0);
     bencher
         .with_inputs(steps())
@@ -87,7 +90,7 @@ fn sf_tail(bencher: Bencher, point: GroupsAndDf) {
 
 /// The far upper tail: the 0.999999 quantile.
 #[divan::bench(args = grid())]
-fn quantile_tail(bencher: Bencher, point: GroupsAndDf) {
+fn quantile_tail(bencher: Bencher<'_, '_>, point: GroupsAndDf) {
     bencher.with_inputs(steps()).bench_values(|step| {
         studentized_range_quantile(0.999_999 - 1e-8 * step, point.groups, point.df).unwrap_or(0.0)
     });
@@ -96,7 +99,7 @@ fn quantile_tail(bencher: Bencher, point: GroupsAndDf) {
 /// The first quantile and the next upper tail on a fresh thread, whose cache of range
 /// tables is empty (the time includes starting the thread).
 #[divan::bench(args = FRESH_THREAD_POINTS)]
-fn fresh_thread_quantile_then_sf(bencher: Bencher, point: GroupsAndDf) {
+fn fresh_thread_quantile_then_sf(bencher: Bencher<'_, '_>, point: GroupsAndDf) {
     bencher.bench(|| {
         std::thread::spawn(move || {
             let quantile = studentized_range_quantile(0.95, point.groups, point.df).unwrap_or(0.0);
@@ -128,7 +131,7 @@ impl fmt::Display for PairSequence {
     PairSequence { groups: 20, low_df: 500.0, high_df: 50_000.0 },
     PairSequence { groups: 7, low_df: 3.0, high_df: 12.0 },
 ])]
-fn pairs_each_at_its_own_df(bencher: Bencher, sequence: PairSequence) {
+fn pairs_each_at_its_own_df(bencher: Bencher<'_, '_>, sequence: PairSequence) {
     let n_pairs = sequence.groups * (sequence.groups - 1) / 2;
     bencher.bench(|| {
         let mut total = 0.0;
@@ -143,7 +146,7 @@ fn pairs_each_at_its_own_df(bencher: Bencher, sequence: PairSequence) {
 
 /// Tukey-Kramer-like: one quantile and 190 upper tails at k 20, df 45.
 #[divan::bench]
-fn one_quantile_and_190_sf_at_one_df(bencher: Bencher) {
+fn one_quantile_and_190_sf_at_one_df(bencher: Bencher<'_, '_>) {
     bencher.bench(|| {
         let mut total = studentized_range_quantile(0.95, 20, 45.0).unwrap_or(0.0);
         for pair in 0..190 {

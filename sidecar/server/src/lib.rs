@@ -172,7 +172,11 @@ pub fn serve_tcp(address: &str) -> Result<i32, ServeError> {
                 source,
             })?;
         let local = listener.local_addr().unwrap_or(socket_address);
-        eprintln!("trialyst: listening on {local}");
+        // The listening line is the server's handshake with the parent that started it.
+        #[allow(clippy::print_stderr)]
+        {
+            eprintln!("trialyst: listening on {local}");
+        }
         let (stream, _) = listener.accept().await.map_err(|source| ServeError::Listen {
             address: address.to_string(),
             source,

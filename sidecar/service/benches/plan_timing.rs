@@ -4,6 +4,9 @@
 //!
 //! Run in release (the bench profile): `cargo bench -p service --bench plan_timing`.
 
+// Benchmarks and examples report on the terminal.
+#![allow(clippy::print_stdout, clippy::print_stderr)]
+
 use std::fmt;
 
 use divan::Bencher;
@@ -18,7 +21,7 @@ fn main() {
 
 /// The generator search for a 2^(11-5) fraction of 64 runs.
 #[divan::bench(sample_count = 5)]
-fn generator_search_2_11_5(bencher: Bencher) {
+fn generator_search_2_11_5(bencher: Bencher<'_, '_>) {
     bencher.bench(|| {
         let found = minimum_aberration_design(11, 5, DEFAULT_SEARCH_BUDGET).expect("design");
         assert_eq!(found.relation.n_runs(), 64);
@@ -27,7 +30,7 @@ fn generator_search_2_11_5(bencher: Bencher) {
 
 /// A whole 2^(11-5) plan in 4 blocks with 2 centre points in each.
 #[divan::bench(sample_count = 5)]
-fn whole_2_11_5_plan_in_4_blocks(bencher: Bencher) {
+fn whole_2_11_5_plan_in_4_blocks(bencher: Bencher<'_, '_>) {
     let letters = ["A", "B", "C", "D", "E", "F", "G", "H", "J", "K", "L"];
     let request = PlanRequest {
         factors: letters.iter().map(|name| FactorSpec::new(name, &["-1", "1"])).collect(),
@@ -108,7 +111,7 @@ impl SizeQuestion {
     SizeQuestion::OneWayTinyDifference,
     SizeQuestion::TwoLevel7Factors16RunsEffect1Sd,
 ], sample_count = 20)]
-fn size_answer_to(bencher: Bencher, question: SizeQuestion) {
+fn size_answer_to(bencher: Bencher<'_, '_>, question: SizeQuestion) {
     let request = question.request();
     bencher.bench(|| size_answer(&request).expect("answer"));
 }

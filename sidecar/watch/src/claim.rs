@@ -62,6 +62,7 @@ pub fn host_name() -> String {
 }
 
 #[cfg(unix)]
+#[allow(unsafe_code)]
 fn system_host_name() -> Option<String> {
     let mut buffer = [0u8; 256];
     // SAFETY: the buffer is valid for its length; gethostname writes at most that.

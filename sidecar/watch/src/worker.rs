@@ -220,6 +220,7 @@ pub fn run_worker(program: &Path, args: &[OsString], limits: WorkerLimits, stop:
         .stdout(Stdio::piped())
         .stderr(Stdio::piped());
     #[cfg(unix)]
+    #[allow(unsafe_code)]
     {
         use std::os::unix::process::CommandExt;
         let memory = limits.memory_bytes;

@@ -1080,6 +1080,8 @@ fn ratio_to_double_double(num: &Integer, den: &Natural) -> DoubleDouble {
 // ---------------------------------------------------------------------------------------
 
 #[cfg(test)]
+// The tests print the accuracy they measured.
+#[allow(clippy::print_stdout)]
 mod tests {
     use super::*;
 

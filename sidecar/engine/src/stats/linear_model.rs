@@ -10,6 +10,8 @@
 
 mod qr;
 #[cfg(test)]
+// The tests print the accuracy they measured.
+#[allow(clippy::print_stdout)]
 mod tests;
 
 use std::collections::{BTreeMap, BTreeSet};

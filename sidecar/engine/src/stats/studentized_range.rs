@@ -99,7 +99,7 @@ struct PanelLayout<'a> {
 /// each side of `centre`, then panels growing by `layout.growth` outwards (the
 /// integrands decay at least exponentially away from their peak).
 fn visit_panels_with(
-    layout: &PanelLayout,
+    layout: &PanelLayout<'_>,
     lo: f64,
     hi: f64,
     centre: f64,
@@ -726,7 +726,7 @@ fn studentized_range_parts(q: f64, n_groups: usize, df: f64) -> TailsAndDensity 
 }
 
 /// As [`studentized_range_parts`], with the outer integral on the panels of `layout`.
-fn studentized_range_parts_with(q: f64, n_groups: usize, df: f64, layout: &PanelLayout) -> TailsAndDensity {
+fn studentized_range_parts_with(q: f64, n_groups: usize, df: f64, layout: &PanelLayout<'_>) -> TailsAndDensity {
     let switch = range_switch_point(n_groups);
     if df.is_infinite() {
         return normal_range(q, n_groups, switch);
@@ -760,7 +760,7 @@ const OUTER_LAYOUT: PanelLayout<'static> = PanelLayout {
 
 /// P(Q <= q), P(Q > q) and the density for finite df: the range distribution of
 /// `table` averaged over the distribution of s = chi(df) / sqrt(df).
-fn chi_average(q: f64, df: f64, table: &mut RangeTable, layout: &PanelLayout) -> TailsAndDensity {
+fn chi_average(q: f64, df: f64, table: &mut RangeTable, layout: &PanelLayout<'_>) -> TailsAndDensity {
     let n_groups = table.n_groups;
     let switch = table.switch;
     let k = n_groups as f64;
@@ -1280,6 +1280,8 @@ fn starting_value(p: f64, n_groups: usize, df: f64) -> f64 {
 }
 
 #[cfg(test)]
+// The tests print the accuracy they measured.
+#[allow(clippy::print_stdout)]
 mod tests {
     use super::*;
 
