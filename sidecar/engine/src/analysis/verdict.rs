@@ -257,7 +257,10 @@ pub fn told_apart_sentence(fit: &OneWayFit, family: &PairFamily) -> String {
     match alone.len() {
         0 => {}
         1 => sentence.push_str(&format!(" {} differs from every other condition.", in_words(&alone))),
-        _ => sentence.push_str(&format!(" {} each differ from every other condition.", in_words(&alone))),
+        _ => sentence.push_str(&format!(
+            " {} each differ from every other condition.",
+            in_words(&alone)
+        )),
     }
     sentence
 }
@@ -319,9 +322,7 @@ mod tests {
         // far from all.
         let names: Vec<String> = ["A", "B", "C", "D"].iter().map(|name| name.to_string()).collect();
         let groups = [0, 0, 0, 1, 1, 1, 2, 2, 2, 3, 3, 3];
-        let values = [
-            10.0, 10.1, 9.9, 10.2, 10.3, 10.1, 10.4, 10.5, 10.3, 20.0, 20.1, 19.9,
-        ];
+        let values = [10.0, 10.1, 9.9, 10.2, 10.3, 10.1, 10.4, 10.5, 10.3, 20.0, 20.1, 19.9];
         let fit = crate::analysis::oneway::fit_one_way(&names, &groups, &values, 0.95, &[]).expect("fits");
         let family = crate::analysis::comparisons::pooled_pairs(
             &fit,
