@@ -322,37 +322,26 @@ mod tests {
         // far from all.
         let names: Vec<String> = ["A", "B", "C", "D"].iter().map(|name| name.to_string()).collect();
         let groups = [0, 0, 0, 1, 1, 1, 2, 2, 2, 3, 3, 3];
+        let sentence_for = |values: &[f64]| {
+            let fit = crate::analysis::oneway::fit_one_way(&names, &groups, values, 0.95, &[]).expect("fits");
+            let family = crate::analysis::comparisons::pooled_pairs(
+                &fit,
+                crate::analysis::comparisons::PairMethod::TukeyKramer,
+                0.95,
+            )
+            .expect("pairs");
+            told_apart_sentence(&fit, &family)
+        };
         let values = [10.0, 10.1, 9.9, 10.2, 10.3, 10.1, 10.4, 10.5, 10.3, 20.0, 20.1, 19.9];
-        let fit = crate::analysis::oneway::fit_one_way(&names, &groups, &values, 0.95, &[]).expect("fits");
-        let family = crate::analysis::comparisons::pooled_pairs(
-            &fit,
-            crate::analysis::comparisons::PairMethod::TukeyKramer,
-            0.95,
-        )
-        .expect("pairs");
         assert_eq!(
-            told_apart_sentence(&fit, &family),
+            sentence_for(&values),
             "Could not be told apart (Tukey-Kramer, allowing for all 6 pairs at 95% confidence together): \
              B and C; A and B. D differs from every other condition."
         );
         // Far apart in every pair, and all alike.
         let spread = [10.0, 10.1, 9.9, 12.0, 12.1, 11.9, 14.0, 14.1, 13.9, 16.0, 16.1, 15.9];
-        let fit = crate::analysis::oneway::fit_one_way(&names, &groups, &spread, 0.95, &[]).expect("fits");
-        let family = crate::analysis::comparisons::pooled_pairs(
-            &fit,
-            crate::analysis::comparisons::PairMethod::TukeyKramer,
-            0.95,
-        )
-        .expect("pairs");
-        assert!(told_apart_sentence(&fit, &family).ends_with("every condition differs from every other."));
+        assert!(sentence_for(&spread).ends_with("every condition differs from every other."));
         let alike = [10.0, 10.1, 9.9, 10.0, 10.2, 9.8, 10.1, 9.9, 10.0, 9.9, 10.1, 10.0];
-        let fit = crate::analysis::oneway::fit_one_way(&names, &groups, &alike, 0.95, &[]).expect("fits");
-        let family = crate::analysis::comparisons::pooled_pairs(
-            &fit,
-            crate::analysis::comparisons::PairMethod::TukeyKramer,
-            0.95,
-        )
-        .expect("pairs");
-        assert!(told_apart_sentence(&fit, &family).ends_with("could not tell any of the conditions apart."));
+        assert!(sentence_for(&alike).ends_with("could not tell any of the conditions apart."));
     }
 }
