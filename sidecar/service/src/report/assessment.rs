@@ -8,7 +8,7 @@ use engine::analysis::assessment::{
     Assessment, LeadAnalysis, NON_NORMAL_P, OUTLIER_FAMILY_ALPHA, SMALL_GROUP_N, UNEQUAL_SPREAD_P, UNEQUAL_SPREAD_RATIO,
 };
 use engine::analysis::comparisons::{PairFamily, SimultaneousPair};
-use engine::analysis::verdict::round_for_text;
+use engine::analysis::verdict::{lead_family, round_for_text};
 
 /// Sheet names.
 pub mod names {
@@ -48,7 +48,10 @@ fn pair_rows(pairs: &[SimultaneousPair], places: u8) -> Vec<Vec<Value>> {
         .collect()
 }
 
-fn family_block(sheet: &mut Sheet, row: u32, family: &PairFamily, places: u8, lead: bool) -> u32 {
+/// One family's table; `lead` marks the family of the lead analysis, and
+/// `with_letters` adds the alike-group letters beside it (shown for one
+/// family only, the one the means table and the Summary use).
+fn family_block(sheet: &mut Sheet, row: u32, family: &PairFamily, places: u8, lead: bool, with_letters: bool) -> u32 {
     let title = format!(
         "{} — {} family confidence{}",
         family.method.label(),
@@ -70,12 +73,14 @@ fn family_block(sheet: &mut Sheet, row: u32, family: &PairFamily, places: u8, le
         ],
         pair_rows(&family.pairs, places),
     );
+    if !with_letters {
+        return next + 1;
+    }
     let letters = family
         .letters
         .iter()
         .map(|(name, letters)| vec![Value::text(name.clone()), Value::text(letters.clone())])
         .collect();
-    sheet.put(next, 8, Value::Blank, Look::Plain);
     let letters_end = sheet.table(row + 1, 8, &["condition", "alike group"], letters);
     sheet.put(letters_end, 8, Value::text(ALIKE_GROUP_NOTE), Look::Note);
     next.max(letters_end + 1) + 1
@@ -139,10 +144,13 @@ pub fn assessment_sheets(results: &WorkbookResults, places_of: &dyn Fn(&str) -> 
             Look::Note,
         );
         simultaneous_row += 2;
-        let lead_is_welch = assessment.lead == LeadAnalysis::UnequalSpreads;
+        let lettered = lead_family(assessment).map(|family| family.method);
         let families: [(&Option<PairFamily>, bool); 4] = [
-            (&assessment.tukey_kramer, !lead_is_welch),
-            (&assessment.games_howell, lead_is_welch),
+            (&assessment.tukey_kramer, assessment.lead == LeadAnalysis::OneWay),
+            (
+                &assessment.games_howell,
+                assessment.lead == LeadAnalysis::UnequalSpreads,
+            ),
             (&assessment.bonferroni, false),
             (&assessment.scheffe, false),
         ];
@@ -160,7 +168,9 @@ pub fn assessment_sheets(results: &WorkbookResults, places_of: &dyn Fn(&str) -> 
         }
         for (family, lead) in families {
             if let Some(family) = family {
-                simultaneous_row = family_block(&mut simultaneous, simultaneous_row, family, places, lead);
+                let with_letters = lettered == Some(family.method);
+                simultaneous_row =
+                    family_block(&mut simultaneous, simultaneous_row, family, places, lead, with_letters);
             }
         }
         if !assessment.contrasts.is_empty() {
@@ -297,7 +307,7 @@ fn checks_block(sheet: &mut Sheet, mut row: u32, response: &str, assessment: &As
     sheet.put(
         row,
         0,
-        Value::text(format!("Lead analysis: {}", assessment.lead_reason)),
+        Value::text(format!("Which analysis leads: {}", assessment.lead_reason)),
         Look::Verdict,
     );
     row += 2;

@@ -261,8 +261,12 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
             }
         }
         let mut detail_sheets = vec![names::CONDITIONS, names::ANOVA];
-        if response.assessment.is_some() {
-            detail_sheets.extend([assessment::names::SIMULTANEOUS, assessment::names::CHECKS]);
+        if let Some(assessed) = response.assessment.as_deref() {
+            detail_sheets.push(assessment::names::SIMULTANEOUS);
+            if assessed.control.is_some() || assessed.best.is_some() {
+                detail_sheets.push(assessment::names::CONTROL_BEST);
+            }
+            detail_sheets.push(assessment::names::CHECKS);
         }
         summary.paragraph(
             summary_row,
@@ -671,7 +675,7 @@ mod tests {
 
     /// Analyses a long table written to a temporary workbook (invented
     /// values) and builds its results workbook.
-    fn book_for(header: &[&str], rows: &[(Vec<&str>, f64)]) -> Book {
+    fn book_for(header: &[&str], rows: &[(Vec<&str>, f64)], settings: crate::settings::Settings) -> Book {
         let folder = tempfile::tempdir().expect("a temporary folder");
         let source = folder.path().join("trial.xlsx");
         let mut sheet = Sheet::new("Runs");
@@ -686,7 +690,11 @@ mod tests {
             sheet.put(row, levels.len() as u16, Value::number(*value), Look::Plain);
         }
         workbook_io::write::write_book(&Book { sheets: vec![sheet] }, &source).expect("written");
-        let results = crate::analyse_workbook(&source, &crate::AnalysisRequest::default()).expect("analysed");
+        let request = crate::AnalysisRequest {
+            settings,
+            ..crate::AnalysisRequest::default()
+        };
+        let results = crate::analyse_workbook(&source, &request).expect("analysed");
         build_results_book(&results)
     }
 
@@ -750,7 +758,7 @@ mod tests {
                 rows.push((vec![oven], value));
             }
         }
-        let book = book_for(&["Oven", "Gloss"], &rows);
+        let book = book_for(&["Oven", "Gloss"], &rows, crate::settings::Settings::default());
         let order: Vec<&str> = book.sheets.iter().map(|sheet| sheet.name.as_str()).collect();
         assert_eq!(
             order,
@@ -804,6 +812,8 @@ mod tests {
             "{:?}",
             texts(simultaneous).collect::<Vec<_>>()
         );
+        // The letters stand beside the lead family only.
+        assert_eq!(texts(simultaneous).filter(|text| *text == "alike group").count(), 1);
         let summary_text: Vec<&str> = texts(sheet(&book, names::SUMMARY)).collect();
         assert!(
             summary_text
@@ -814,6 +824,47 @@ mod tests {
             "{summary_text:?}"
         );
         assert!(!summary_text.iter().any(|text| text.contains("sharing a letter")));
+    }
+
+    #[test]
+    fn a_control_and_a_direction_add_their_sheet_and_the_summary_names_it() {
+        // Invented coatings, four runs each; higher gloss is better.
+        let mut rows = Vec::new();
+        for (coating, values) in [
+            ("Standard", [50.1, 50.4, 49.8, 50.2]),
+            ("Primer", [53.0, 53.3, 52.8, 53.4]),
+            ("Two coats", [51.2, 51.6, 51.1, 51.5]),
+        ] {
+            for value in values {
+                rows.push((vec![coating], value));
+            }
+        }
+        let settings = crate::settings::Settings {
+            control: Some("Standard".into()),
+            direction: Some(engine::options::Direction::HigherIsBetter),
+            ..crate::settings::Settings::default()
+        };
+        let book = book_for(&["Coating", "Gloss"], &rows, settings);
+        assert_named_sheets_exist(&book);
+        let control_best = sheet(&book, super::assessment::names::CONTROL_BEST);
+        let lines: Vec<&str> = texts(control_best).collect();
+        assert!(
+            lines
+                .iter()
+                .any(|text| text.starts_with("Against the control 'Standard'")),
+            "{lines:?}"
+        );
+        assert!(
+            lines
+                .iter()
+                .any(|text| text.starts_with("Each condition against the best")),
+            "{lines:?}"
+        );
+        assert!(
+            texts(sheet(&book, names::SUMMARY)).any(|text| text.starts_with("Details:")
+                && text.contains(&format!("'{}'", super::assessment::names::CONTROL_BEST))),
+            "the Summary names the sheet"
+        );
     }
 
     #[test]
@@ -831,7 +882,11 @@ mod tests {
                 rows.push((vec![temperature, line], value));
             }
         }
-        let book = book_for(&["Temperature", "Line", "Strength"], &rows);
+        let book = book_for(
+            &["Temperature", "Line", "Strength"],
+            &rows,
+            crate::settings::Settings::default(),
+        );
         let order: Vec<&str> = book.sheets.iter().map(|sheet| sheet.name.as_str()).collect();
         for expected in [
             super::assessment::names::SIMULTANEOUS,
