@@ -698,6 +698,14 @@ mod tests {
         build_results_book(&results)
     }
 
+    /// Rows of a one-factor long table: each condition's values.
+    fn one_factor_rows<'n>(conditions: &[(&'n str, [f64; 4])]) -> Vec<(Vec<&'n str>, f64)> {
+        conditions
+            .iter()
+            .flat_map(|(name, values)| values.iter().map(move |value| (vec![*name], *value)))
+            .collect()
+    }
+
     fn sheet<'b>(book: &'b Book, name: &str) -> &'b Sheet {
         book.sheets
             .iter()
@@ -748,16 +756,11 @@ mod tests {
     fn a_one_way_results_book_holds_every_sheet_it_names() {
         // Three invented oven settings, four runs each; Low is clearly below
         // the other two, which are close.
-        let mut rows = Vec::new();
-        for (oven, values) in [
+        let rows = one_factor_rows(&[
             ("Low", [50.1, 50.4, 49.8, 50.2]),
             ("Mid", [53.0, 53.3, 52.8, 53.4]),
             ("High", [53.2, 53.6, 53.1, 53.5]),
-        ] {
-            for value in values {
-                rows.push((vec![oven], value));
-            }
-        }
+        ]);
         let book = book_for(&["Oven", "Gloss"], &rows, crate::settings::Settings::default());
         let order: Vec<&str> = book.sheets.iter().map(|sheet| sheet.name.as_str()).collect();
         assert_eq!(
@@ -829,16 +832,11 @@ mod tests {
     #[test]
     fn a_control_and_a_direction_add_their_sheet_and_the_summary_names_it() {
         // Invented coatings, four runs each; higher gloss is better.
-        let mut rows = Vec::new();
-        for (coating, values) in [
+        let rows = one_factor_rows(&[
             ("Standard", [50.1, 50.4, 49.8, 50.2]),
             ("Primer", [53.0, 53.3, 52.8, 53.4]),
             ("Two coats", [51.2, 51.6, 51.1, 51.5]),
-        ] {
-            for value in values {
-                rows.push((vec![coating], value));
-            }
-        }
+        ]);
         let settings = crate::settings::Settings {
             control: Some("Standard".into()),
             direction: Some(engine::options::Direction::HigherIsBetter),
