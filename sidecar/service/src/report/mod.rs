@@ -267,6 +267,11 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
                 detail_sheets.push(assessment::names::CONTROL_BEST);
             }
             detail_sheets.push(assessment::names::CHECKS);
+            // Welch's ANOVA and the rank-based analysis stand there; name it
+            // when one of them leads.
+            if assessed.lead != engine::analysis::assessment::LeadAnalysis::OneWay {
+                detail_sheets.push(assessment::names::OTHER);
+            }
         }
         summary.paragraph(
             summary_row,
@@ -699,7 +704,7 @@ mod tests {
     }
 
     /// Rows of a one-factor long table: each condition's values.
-    fn one_factor_rows<'n>(conditions: &[(&'n str, [f64; 4])]) -> Vec<(Vec<&'n str>, f64)> {
+    fn one_factor_rows<'n>(conditions: &[(&'n str, &[f64])]) -> Vec<(Vec<&'n str>, f64)> {
         conditions
             .iter()
             .flat_map(|(name, values)| values.iter().map(move |value| (vec![*name], *value)))
@@ -757,9 +762,9 @@ mod tests {
         // Three invented oven settings, four runs each; Low is clearly below
         // the other two, which are close.
         let rows = one_factor_rows(&[
-            ("Low", [50.1, 50.4, 49.8, 50.2]),
-            ("Mid", [53.0, 53.3, 52.8, 53.4]),
-            ("High", [53.2, 53.6, 53.1, 53.5]),
+            ("Low", &[50.1, 50.4, 49.8, 50.2]),
+            ("Mid", &[53.0, 53.3, 52.8, 53.4]),
+            ("High", &[53.2, 53.6, 53.1, 53.5]),
         ]);
         let book = book_for(&["Oven", "Gloss"], &rows, crate::settings::Settings::default());
         let order: Vec<&str> = book.sheets.iter().map(|sheet| sheet.name.as_str()).collect();
@@ -833,9 +838,9 @@ mod tests {
     fn a_control_and_a_direction_add_their_sheet_and_the_summary_names_it() {
         // Invented coatings, four runs each; higher gloss is better.
         let rows = one_factor_rows(&[
-            ("Standard", [50.1, 50.4, 49.8, 50.2]),
-            ("Primer", [53.0, 53.3, 52.8, 53.4]),
-            ("Two coats", [51.2, 51.6, 51.1, 51.5]),
+            ("Standard", &[50.1, 50.4, 49.8, 50.2]),
+            ("Primer", &[53.0, 53.3, 52.8, 53.4]),
+            ("Two coats", &[51.2, 51.6, 51.1, 51.5]),
         ]);
         let settings = crate::settings::Settings {
             control: Some("Standard".into()),
@@ -862,6 +867,34 @@ mod tests {
             texts(sheet(&book, names::SUMMARY)).any(|text| text.starts_with("Details:")
                 && text.contains(&format!("'{}'", super::assessment::names::CONTROL_BEST))),
             "the Summary names the sheet"
+        );
+    }
+
+    #[test]
+    fn unequal_spreads_lead_with_games_howell_and_the_summary_names_welch_s_sheet() {
+        // Invented fillers: two hold their weight tightly, one wanders
+        // (SD about 40 times larger), with symmetric spread around each mean.
+        // Fifteen runs each, so that the rank-based rule (groups under 15)
+        // cannot take the lead.
+        const SHAPE: [f64; 15] = [
+            -1.7, -1.1, -0.8, -0.5, -0.3, -0.15, -0.05, 0.0, 0.05, 0.15, 0.3, 0.5, 0.8, 1.1, 1.7,
+        ];
+        let filler = |mean: f64, sd: f64| -> Vec<f64> { SHAPE.iter().map(|z| mean + sd * z).collect() };
+        let (first, second, third) = (filler(100.0, 0.1), filler(100.0, 4.0), filler(101.0, 0.1));
+        let rows = one_factor_rows(&[("Filler 1", &first), ("Filler 2", &second), ("Filler 3", &third)]);
+        let book = book_for(&["Filler", "Weight"], &rows, crate::settings::Settings::default());
+        assert_named_sheets_exist(&book);
+        let simultaneous = sheet(&book, super::assessment::names::SIMULTANEOUS);
+        let lead: Vec<&str> = texts(simultaneous)
+            .filter(|text| text.ends_with("(the lead analysis)"))
+            .collect();
+        assert_eq!(lead.len(), 1, "{lead:?}");
+        assert!(lead[0].starts_with("Games-Howell"), "{lead:?}");
+        assert!(
+            texts(sheet(&book, names::SUMMARY))
+                .any(|text| text.starts_with("Details:")
+                    && text.contains(&format!("'{}'", super::assessment::names::OTHER))),
+            "the Summary names the sheet with Welch's ANOVA"
         );
     }
 
