@@ -379,8 +379,8 @@ pub fn results_workbooks_under(folder: &Path) -> Vec<(PathBuf, Option<std::time:
 
 /// Fails, naming the workbook, the cell and the sheet, when a text cell of a
 /// results workbook points the reader to a sheet the workbook does not hold.
-/// The hidden results-document sheet counts as held; a name that is the
-/// trial's own sheet (the source, as the results document records it) is a
+/// The hidden results-document sheet counts as held; the trial's own sheet
+/// (the source, as the results document records it, quoted whole) is a
 /// reference to the trial workbook, not to a results sheet; the data-problems
 /// sheet speaks of the trial workbook's sheets throughout and is not read.
 pub fn check_named_sheets_exist(path: &Path) {
@@ -398,8 +398,11 @@ pub fn check_named_sheets_exist(path: &Path) {
             let Data::String(text) = cell else {
                 continue;
             };
-            for named in service::report::sheets_named_in(text) {
-                if !held.contains(&named.as_str()) && named != source_sheet {
+            // The trial's own sheet is taken out whole first: its name may
+            // hold quotes of its own.
+            let text_without_source = text.replace(&format!("'{source_sheet}'"), "''");
+            for named in service::report::sheets_named_in(&text_without_source) {
+                if !held.contains(&named.as_str()) && !named.is_empty() {
                     missing.push(format!(
                         "sheet '{sheet}' cell {}{} names the sheet '{named}': {text}",
                         workbook_io::column_letters(col as u32 + range.start().map_or(0, |start| start.1)),
