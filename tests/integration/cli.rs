@@ -60,7 +60,10 @@ fn run_writes_results_that_match_engine_and_reference() {
             names::SUMMARY,
             names::CONDITIONS,
             names::ANOVA,
+            service::report::assessment::names::SIMULTANEOUS,
             names::PAIRS,
+            service::report::assessment::names::CHECKS,
+            service::report::assessment::names::OTHER,
             names::FINDINGS,
             names::PROVENANCE,
             names::RESULTS_DOCUMENT
@@ -320,4 +323,39 @@ fn inspect_shows_the_table_and_every_finding_with_its_cell() {
     let missing = trialyst(folder.path(), &["inspect", "nothing here.xlsx"]);
     missing.expect_code(1);
     assert!(missing.stderr().contains("nothing here.xlsx"), "{}", missing.report());
+}
+
+/// The check every results workbook of this suite goes through
+/// (`common::check_named_sheets_exist`, called by `common::trialyst`) fails
+/// when the text names a sheet the workbook lacks: a workbook with the real
+/// results document but a Summary pointing to a sheet that is not there.
+#[test]
+fn the_named_sheets_check_fails_on_a_sheet_that_is_missing() {
+    use workbook_io::write::{Book, Look, Sheet, Value};
+    let folder = temp_folder();
+    let source = folder.path().join("press trial.xlsx");
+    write_rows(&source, "Trial", &trial_rows());
+    let results = analyse_workbook(&source, &AnalysisRequest::default()).expect("analysed");
+    let mut summary = Sheet::new(names::SUMMARY);
+    summary.put(
+        0,
+        0,
+        Value::text("Sheet 'Trial', cells A1:B19; details: sheets 'Summary' and 'Model checks'."),
+        Look::Plain,
+    );
+    let written = folder.path().join("hand made.results.xlsx");
+    let book = Book {
+        sheets: vec![summary, service::report::document::document_sheet(&results)],
+    };
+    workbook_io::write::write_book(&book, &written).expect("written");
+    let outcome = std::panic::catch_unwind(|| crate::common::check_named_sheets_exist(&written));
+    let message = outcome
+        .expect_err("a missing sheet fails the check")
+        .downcast_ref::<String>()
+        .cloned()
+        .unwrap_or_default();
+    assert!(
+        message.contains("'Model checks'") && !message.contains("names the sheet 'Trial'"),
+        "{message}"
+    );
 }

@@ -178,12 +178,18 @@ pub fn trialyst(folder: &Path, args: &[&str]) -> Run {
         binary.display()
     );
     let before = workbook_snapshot(folder);
+    let results_before = results_workbooks_under(folder);
     let output = Command::new(&binary)
         .args(args)
         .current_dir(folder)
         .output()
         .expect("the trialyst binary can be started");
     keep_new_outputs(folder, &before);
+    for (path, modified) in results_workbooks_under(folder) {
+        if !results_before.contains(&(path.clone(), modified)) {
+            check_named_sheets_exist(&path);
+        }
+    }
     Run {
         command: format!("trialyst {}", args.join(" ")),
         folder: folder.to_path_buf(),
@@ -343,4 +349,73 @@ pub fn zip_entry_names(path: &Path) -> Vec<String> {
         .filter_map(Result::ok)
         .map(|name| name.into_owned())
         .collect()
+}
+
+/// Every results workbook (name ending in `.results.xlsx`) in `folder` and
+/// its sub-folders a few levels down, with its modification time, so that
+/// [`trialyst`] can check each one a run writes.
+pub fn results_workbooks_under(folder: &Path) -> Vec<(PathBuf, Option<std::time::SystemTime>)> {
+    fn walk(folder: &Path, depth: u32, found: &mut Vec<(PathBuf, Option<std::time::SystemTime>)>) {
+        let Ok(entries) = std::fs::read_dir(folder) else {
+            return;
+        };
+        for entry in entries.filter_map(Result::ok) {
+            let path = entry.path();
+            if path.is_dir() && depth > 0 {
+                walk(&path, depth - 1, found);
+            } else if path
+                .file_name()
+                .is_some_and(|name| name.to_string_lossy().ends_with(service::RESULTS_SUFFIX))
+            {
+                let modified = std::fs::metadata(&path).and_then(|meta| meta.modified()).ok();
+                found.push((path, modified));
+            }
+        }
+    }
+    let mut found = Vec::new();
+    walk(folder, 3, &mut found);
+    found
+}
+
+/// Fails, naming the workbook, the cell and the sheet, when a text cell of a
+/// results workbook points the reader to a sheet the workbook does not hold.
+/// The hidden results-document sheet counts as held; the trial's own sheet
+/// (the source, as the results document records it, quoted whole) is a
+/// reference to the trial workbook, not to a results sheet; the data-problems
+/// sheet speaks of the trial workbook's sheets throughout and is not read.
+pub fn check_named_sheets_exist(path: &Path) {
+    let sheets = read_all_sheets(path);
+    let held: Vec<&str> = sheets.iter().map(|(name, _)| name.as_str()).collect();
+    let document = service::report::document::read_results_document(path)
+        .unwrap_or_else(|error| panic!("{}: the results document cannot be read: {error}", path.display()));
+    let source_sheet = document["source"]["sheet"].as_str().unwrap_or_default().to_string();
+    let mut missing = Vec::new();
+    for (sheet, range) in &sheets {
+        if sheet == service::report::names::FINDINGS || sheet == service::report::names::RESULTS_DOCUMENT {
+            continue;
+        }
+        for (row, col, cell) in range.used_cells() {
+            let Data::String(text) = cell else {
+                continue;
+            };
+            // The trial's own sheet is taken out whole first: its name may
+            // hold quotes of its own.
+            let text_without_source = text.replace(&format!("'{source_sheet}'"), "''");
+            for named in service::report::sheets_named_in(&text_without_source) {
+                if !held.contains(&named.as_str()) && !named.is_empty() {
+                    missing.push(format!(
+                        "sheet '{sheet}' cell {}{} names the sheet '{named}': {text}",
+                        workbook_io::column_letters(col as u32 + range.start().map_or(0, |start| start.1)),
+                        row as u32 + range.start().map_or(0, |start| start.0) + 1
+                    ));
+                }
+            }
+        }
+    }
+    assert!(
+        missing.is_empty(),
+        "{}: the text names sheets the workbook does not hold (it holds {held:?}):\n{}",
+        path.display(),
+        missing.join("\n")
+    );
 }

@@ -89,7 +89,7 @@ pub struct PairFamily {
     pub critical_value: f64,
     /// The pairs.
     pub pairs: Vec<SimultaneousPair>,
-    /// Grouping letters per condition (conditions sharing a letter were not found different).
+    /// Letters per condition: two conditions with a letter in common could not be told apart.
     pub letters: Vec<(String, String)>,
 }
 

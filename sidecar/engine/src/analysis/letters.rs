@@ -13,6 +13,21 @@
 ///
 /// `different[i][j]` is true when conditions i and j were found different.
 pub fn grouping_letters(means: &[f64], different: &[Vec<bool>]) -> Vec<String> {
+    let mut letters = vec![String::new(); means.len()];
+    for (index, set) in alike_sets(means, different).iter().enumerate() {
+        let letter = letter_name(index);
+        for &condition in set {
+            letters[condition].push_str(&letter);
+        }
+    }
+    letters
+}
+
+/// The sets behind the letters, in letter order: each set lists (by index
+/// into `means`, in that order) conditions none of which were found
+/// different from one another; every pair not found different shares at
+/// least one set. A condition alone in its only set differs from all others.
+pub fn alike_sets(means: &[f64], different: &[Vec<bool>]) -> Vec<Vec<usize>> {
     let n = means.len();
     if n == 0 {
         return Vec::new();
@@ -70,16 +85,10 @@ pub fn grouping_letters(means: &[f64], different: &[Vec<bool>]) -> Vec<String> {
         let size = column.iter().filter(|&&held| held).count();
         (first_rank, usize::MAX - size)
     });
-    let mut letters = vec![String::new(); n];
-    for (index, column) in columns.iter().enumerate() {
-        let letter = letter_name(index);
-        for condition in 0..n {
-            if column[condition] {
-                letters[condition].push_str(&letter);
-            }
-        }
-    }
-    letters
+    columns
+        .iter()
+        .map(|column| (0..n).filter(|&condition| column[condition]).collect())
+        .collect()
 }
 
 fn letter_name(index: usize) -> String {

@@ -8,6 +8,7 @@ use serde::Serialize;
 
 use crate::analysis::assessment::{Assessment, LeadAnalysis};
 use crate::analysis::comparisons::PairFamily;
+use crate::analysis::letters::alike_sets;
 use crate::analysis::oneway::{OneWayFit, PairDifference};
 
 /// The reading of one response.
@@ -185,16 +186,7 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment:
         ));
     }
     if let Some(family) = family {
-        let groups: Vec<String> = family
-            .letters
-            .iter()
-            .map(|(name, letters)| format!("{name} [{letters}]"))
-            .collect();
-        details.push(format!(
-            "Grouping ({}): conditions sharing a letter were not found different — {}.",
-            family.method.label(),
-            groups.join(", ")
-        ));
+        details.push(told_apart_sentence(fit, family));
     }
     if let Some(assessment) = assessment {
         for reading in &assessment.checks.readings {
@@ -213,6 +205,64 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment:
         headline,
         details,
     }
+}
+
+/// Which conditions the trial could not tell apart, in words: the sets
+/// behind the letters of [`PairFamily::letters`], each listed by name, and
+/// the conditions found different from every other one named as such.
+pub fn told_apart_sentence(fit: &OneWayFit, family: &PairFamily) -> String {
+    let names: Vec<&str> = fit.conditions.iter().map(|condition| condition.name.as_str()).collect();
+    let means: Vec<f64> = fit.conditions.iter().map(|condition| condition.mean).collect();
+    let position = |name: &str| names.iter().position(|candidate| *candidate == name);
+    let mut different = vec![vec![false; names.len()]; names.len()];
+    for pair in family.pairs.iter().filter(|pair| pair.differ) {
+        if let (Some(first), Some(second)) = (position(&pair.first), position(&pair.second)) {
+            different[first][second] = true;
+            different[second][first] = true;
+        }
+    }
+    let sets = alike_sets(&means, &different);
+    let basis = format!(
+        "{}, allowing for all {} pairs at {}% confidence together",
+        family.method.label(),
+        family.pairs.len(),
+        round_for_text(family.family_confidence * 100.0, 3)
+    );
+    let in_words = |set: &[usize]| {
+        let members: Vec<&str> = set.iter().map(|&index| names[index]).collect();
+        match members.split_last() {
+            Some((last, rest)) if !rest.is_empty() => format!("{} and {last}", rest.join(", ")),
+            Some((last, _)) => (*last).to_string(),
+            None => String::new(),
+        }
+    };
+    if sets.len() == 1 && sets[0].len() == names.len() {
+        return format!("Told apart ({basis}): none — this trial could not tell any of the conditions apart.");
+    }
+    let alone: Vec<usize> = (0..names.len())
+        .filter(|&index| {
+            let holding: Vec<&Vec<usize>> = sets.iter().filter(|set| set.contains(&index)).collect();
+            holding.len() == 1 && holding[0].len() == 1
+        })
+        .collect();
+    if alone.len() == names.len() {
+        return format!("Told apart ({basis}): every condition differs from every other.");
+    }
+    let groups: Vec<String> = sets
+        .iter()
+        .filter(|set| set.len() > 1)
+        .map(|set| in_words(set))
+        .collect();
+    let mut sentence = format!("Could not be told apart ({basis}): {}.", groups.join("; "));
+    match alone.len() {
+        0 => {}
+        1 => sentence.push_str(&format!(" {} differs from every other condition.", in_words(&alone))),
+        _ => sentence.push_str(&format!(
+            " {} each differ from every other condition.",
+            in_words(&alone)
+        )),
+    }
+    sentence
 }
 
 /// The pair with the largest absolute difference of means.
@@ -260,5 +310,38 @@ mod tests {
             verdict.details
         );
         assert!(verdict.details[1].contains("fast minus slow"), "{:?}", verdict.details);
+    }
+
+    #[test]
+    fn says_in_words_which_conditions_could_not_be_told_apart() {
+        // Pooled SD 0.1 on 8 df, 3 runs each: the Tukey-Kramer least
+        // significant difference is q(0.95; 4, 8) / sqrt(2) * 0.1 * sqrt(2/3)
+        // = 4.529 / 1.414 * 0.0816 = 0.261 (q from the studentized range
+        // table of the NIST/SEMATECH e-Handbook, section 7.4.7.1). So A-B
+        // (0.2) and B-C (0.2) cannot be told apart, A-C (0.4) can, and D is
+        // far from all.
+        let names: Vec<String> = ["A", "B", "C", "D"].iter().map(|name| name.to_string()).collect();
+        let groups = [0, 0, 0, 1, 1, 1, 2, 2, 2, 3, 3, 3];
+        let sentence_for = |values: &[f64]| {
+            let fit = crate::analysis::oneway::fit_one_way(&names, &groups, values, 0.95, &[]).expect("fits");
+            let family = crate::analysis::comparisons::pooled_pairs(
+                &fit,
+                crate::analysis::comparisons::PairMethod::TukeyKramer,
+                0.95,
+            )
+            .expect("pairs");
+            told_apart_sentence(&fit, &family)
+        };
+        let values = [10.0, 10.1, 9.9, 10.2, 10.3, 10.1, 10.4, 10.5, 10.3, 20.0, 20.1, 19.9];
+        assert_eq!(
+            sentence_for(&values),
+            "Could not be told apart (Tukey-Kramer, allowing for all 6 pairs at 95% confidence together): \
+             B and C; A and B. D differs from every other condition."
+        );
+        // Far apart in every pair, and all alike.
+        let spread = [10.0, 10.1, 9.9, 12.0, 12.1, 11.9, 14.0, 14.1, 13.9, 16.0, 16.1, 15.9];
+        assert!(sentence_for(&spread).ends_with("every condition differs from every other."));
+        let alike = [10.0, 10.1, 9.9, 10.0, 10.2, 9.8, 10.1, 9.9, 10.0, 9.9, 10.1, 10.0];
+        assert!(sentence_for(&alike).ends_with("could not tell any of the conditions apart."));
     }
 }

@@ -8,7 +8,7 @@ use engine::analysis::assessment::{
     Assessment, LeadAnalysis, NON_NORMAL_P, OUTLIER_FAMILY_ALPHA, SMALL_GROUP_N, UNEQUAL_SPREAD_P, UNEQUAL_SPREAD_RATIO,
 };
 use engine::analysis::comparisons::{PairFamily, SimultaneousPair};
-use engine::analysis::verdict::round_for_text;
+use engine::analysis::verdict::{lead_family, round_for_text};
 
 /// Sheet names.
 pub mod names {
@@ -21,6 +21,11 @@ pub mod names {
     /// Welch and rank-based analyses.
     pub const OTHER: &str = "Other analyses";
 }
+
+/// How the letters of an "alike group" column read, said once under each
+/// such column.
+pub const ALIKE_GROUP_NOTE: &str =
+    "Alike group: conditions with a letter in common could not be told apart by this trial; conditions with no letter in common gave different averages.";
 
 fn pct(confidence: f64) -> String {
     format!("{}%", round_for_text(confidence * 100.0, 3))
@@ -43,7 +48,10 @@ fn pair_rows(pairs: &[SimultaneousPair], places: u8) -> Vec<Vec<Value>> {
         .collect()
 }
 
-fn family_block(sheet: &mut Sheet, row: u32, family: &PairFamily, places: u8, lead: bool) -> u32 {
+/// One family's table; `lead` marks the family of the lead analysis, and
+/// `with_letters` adds the alike-group letters beside it (shown for one
+/// family only, the one the means table and the Summary use).
+fn family_block(sheet: &mut Sheet, row: u32, family: &PairFamily, places: u8, lead: bool, with_letters: bool) -> u32 {
     let title = format!(
         "{} — {} family confidence{}",
         family.method.label(),
@@ -65,17 +73,22 @@ fn family_block(sheet: &mut Sheet, row: u32, family: &PairFamily, places: u8, le
         ],
         pair_rows(&family.pairs, places),
     );
+    if !with_letters {
+        return next + 1;
+    }
     let letters = family
         .letters
         .iter()
         .map(|(name, letters)| vec![Value::text(name.clone()), Value::text(letters.clone())])
         .collect();
-    sheet.put(next, 8, Value::Blank, Look::Plain);
-    let letters_end = sheet.table(row + 1, 8, &["condition", "group letters"], letters);
-    next.max(letters_end) + 1
+    let letters_end = sheet.table(row + 1, 8, &["condition", "alike group"], letters);
+    sheet.put(letters_end, 8, Value::text(ALIKE_GROUP_NOTE), Look::Note);
+    next.max(letters_end + 1) + 1
 }
 
-/// Builds the four sheets; responses without an assessment are skipped.
+/// Builds the sheets: which pairs differ, control and best (only when a
+/// control or a direction asked for them), model checks and other analyses.
+/// Responses without an assessment are skipped; with none at all, no sheet.
 pub fn assessment_sheets(results: &WorkbookResults, places_of: &dyn Fn(&str) -> u8) -> Vec<Sheet> {
     let mut simultaneous = Sheet::new(names::SIMULTANEOUS);
     simultaneous.widths = vec![
@@ -100,7 +113,17 @@ pub fn assessment_sheets(results: &WorkbookResults, places_of: &dyn Fn(&str) -> 
         (6, 12.0),
     ];
     let mut checks = Sheet::new(names::CHECKS);
-    checks.widths = vec![(0, 52.0), (1, 14.0), (2, 14.0), (3, 14.0), (4, 12.0)];
+    checks.widths = vec![
+        (0, 52.0),
+        (1, 14.0),
+        (2, 14.0),
+        (3, 14.0),
+        (4, 12.0),
+        (6, 12.0),
+        (7, 12.0),
+        (8, 16.0),
+        (9, 17.0),
+    ];
     let mut other = Sheet::new(names::OTHER);
     other.widths = vec![(0, 26.0), (1, 22.0), (2, 13.0), (3, 13.0), (4, 13.0)];
     let (mut simultaneous_row, mut control_row, mut checks_row, mut other_row) = (0u32, 0u32, 0u32, 0u32);
@@ -121,16 +144,33 @@ pub fn assessment_sheets(results: &WorkbookResults, places_of: &dyn Fn(&str) -> 
             Look::Note,
         );
         simultaneous_row += 2;
-        let lead_is_welch = assessment.lead == LeadAnalysis::UnequalSpreads;
+        let lettered = lead_family(assessment).map(|family| family.method);
         let families: [(&Option<PairFamily>, bool); 4] = [
-            (&assessment.tukey_kramer, !lead_is_welch),
-            (&assessment.games_howell, lead_is_welch),
+            (&assessment.tukey_kramer, assessment.lead == LeadAnalysis::OneWay),
+            (
+                &assessment.games_howell,
+                assessment.lead == LeadAnalysis::UnequalSpreads,
+            ),
             (&assessment.bonferroni, false),
             (&assessment.scheffe, false),
         ];
+        if assessment.lead == LeadAnalysis::RankBased {
+            simultaneous.put(
+                simultaneous_row,
+                0,
+                Value::text(format!(
+                    "The lead analysis is rank-based; its pairs (Dunn's, Holm-adjusted) are on the sheet '{}'. The intervals below assume the one-way model.",
+                    names::OTHER
+                )),
+                Look::Note,
+            );
+            simultaneous_row += 1;
+        }
         for (family, lead) in families {
             if let Some(family) = family {
-                simultaneous_row = family_block(&mut simultaneous, simultaneous_row, family, places, lead);
+                let with_letters = lettered == Some(family.method);
+                simultaneous_row =
+                    family_block(&mut simultaneous, simultaneous_row, family, places, lead, with_letters);
             }
         }
         if !assessment.contrasts.is_empty() {
@@ -241,8 +281,11 @@ pub fn assessment_sheets(results: &WorkbookResults, places_of: &dyn Fn(&str) -> 
             control_row += 2;
         }
 
-        checks_row = checks_block(&mut checks, checks_row, &response.name, assessment);
+        checks_row = checks_block(&mut checks, checks_row, &response.name, assessment, places);
         other_row = other_block(&mut other, other_row, &response.name, assessment);
+    }
+    if !results.responses.iter().any(|response| response.assessment.is_some()) {
+        return Vec::new();
     }
     let mut sheets = vec![simultaneous];
     if any_control_or_best {
@@ -253,7 +296,7 @@ pub fn assessment_sheets(results: &WorkbookResults, places_of: &dyn Fn(&str) -> 
     sheets
 }
 
-fn checks_block(sheet: &mut Sheet, mut row: u32, response: &str, assessment: &Assessment) -> u32 {
+fn checks_block(sheet: &mut Sheet, mut row: u32, response: &str, assessment: &Assessment, places: u8) -> u32 {
     let checks = &assessment.checks;
     sheet.put(row, 0, Value::text(response.to_string()), Look::Heading);
     row += 1;
@@ -264,7 +307,7 @@ fn checks_block(sheet: &mut Sheet, mut row: u32, response: &str, assessment: &As
     sheet.put(
         row,
         0,
-        Value::text(format!("Lead analysis: {}", assessment.lead_reason)),
+        Value::text(format!("Which analysis leads: {}", assessment.lead_reason)),
         Look::Verdict,
     );
     row += 2;
@@ -346,13 +389,13 @@ fn checks_block(sheet: &mut Sheet, mut row: u32, response: &str, assessment: &As
         sheet.put(
             data_row + 1 + offset as u32,
             6,
-            Value::Number(*fitted, NumberFormat::General),
+            Value::Number(*fitted, NumberFormat::Decimals(places)),
             Look::Plain,
         );
         sheet.put(
             data_row + 1 + offset as u32,
             7,
-            Value::Number(*residual, NumberFormat::General),
+            Value::Number(*residual, NumberFormat::Decimals(places)),
             Look::Plain,
         );
     }
@@ -366,7 +409,7 @@ fn checks_block(sheet: &mut Sheet, mut row: u32, response: &str, assessment: &As
         sheet.put(
             data_row + 1 + offset as u32,
             9,
-            Value::Number(*residual, NumberFormat::General),
+            Value::Number(*residual, NumberFormat::Decimals(places)),
             Look::Plain,
         );
     }

@@ -2,8 +2,11 @@
 //! an engineer read, with charts. No I/O here; `workbook-io` writes the model.
 //!
 //! Sheets: a summary in plain words, condition statistics, the ANOVA table,
-//! pairwise differences, contrasts, data problems, provenance, and a hidden
-//! sheet holding the results document as JSON ([`document`]).
+//! the pairs allowing for all comparisons and with the control and the best
+//! ([`assessment`]), each pair alone, contrasts, the model checks and the
+//! analyses without the model, the factorial sheets ([`factorial`]), data
+//! problems, provenance, and a hidden sheet holding the results document as
+//! JSON ([`document`]).
 
 pub mod assessment;
 pub mod document;
@@ -95,6 +98,53 @@ pub(crate) fn readable_time(rfc3339: &str) -> String {
     }
 }
 
+/// The sheet names a text points its reader to: each quoted name after the
+/// word "sheet" or "sheets", and the further names of a list that follows
+/// ("sheets 'A', 'B' and 'C'"). Used to check that every sheet a results
+/// workbook's text names is one it holds.
+pub fn sheets_named_in(text: &str) -> Vec<String> {
+    let lower = text.to_ascii_lowercase();
+    let mut names = Vec::new();
+    let mut search_from = 0;
+    while let Some(found) = lower[search_from..].find("sheet") {
+        let word_end = search_from + found + "sheet".len();
+        let mut rest = &text[word_end..];
+        rest = rest.strip_prefix('s').unwrap_or(rest);
+        let mut first = true;
+        loop {
+            let separator = if first {
+                [" '"].iter().find(|separator| rest.starts_with(**separator))
+            } else {
+                [", '", " and '", ", and '"]
+                    .iter()
+                    .find(|separator| rest.starts_with(**separator))
+            };
+            let Some(separator) = separator else {
+                break;
+            };
+            let quoted = &rest[separator.len()..];
+            let Some(close) = quoted.find('\'') else {
+                break;
+            };
+            names.push(quoted[..close].to_string());
+            rest = &quoted[close + 1..];
+            first = false;
+        }
+        search_from = word_end;
+    }
+    names
+}
+
+/// Sheet names quoted and joined as a sentence says them: 'A', 'B' and 'C'.
+fn quoted_list(sheet_names: &[&str]) -> String {
+    let quoted: Vec<String> = sheet_names.iter().map(|name| format!("'{name}'")).collect();
+    match quoted.split_last() {
+        Some((last, rest)) if !rest.is_empty() => format!("{} and {last}", rest.join(", ")),
+        Some((last, _)) => last.clone(),
+        None => String::new(),
+    }
+}
+
 fn percent_text(confidence: f64) -> String {
     format!("{}%", round_for_text(confidence * 100.0, 3))
 }
@@ -148,6 +198,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
         (8, 14.0),
         (9, 14.0),
         (10, 14.0),
+        (11, 12.0),
     ];
     anova.widths = vec![(0, 40.0), (1, 8.0), (2, 18.0), (3, 16.0), (4, 12.0), (5, 12.0)];
     pairs.widths = vec![
@@ -209,15 +260,25 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
                 summary_row += 1;
             }
         }
+        let mut detail_sheets = vec![names::CONDITIONS, names::ANOVA];
+        if let Some(assessed) = response.assessment.as_deref() {
+            detail_sheets.push(assessment::names::SIMULTANEOUS);
+            if assessed.control.is_some() || assessed.best.is_some() {
+                detail_sheets.push(assessment::names::CONTROL_BEST);
+            }
+            detail_sheets.push(assessment::names::CHECKS);
+            // Welch's ANOVA and the rank-based analysis stand there; name it
+            // when one of them leads.
+            if assessed.lead != engine::analysis::assessment::LeadAnalysis::OneWay {
+                detail_sheets.push(assessment::names::OTHER);
+            }
+        }
         summary.paragraph(
             summary_row,
             0,
             format!(
-                "Details: sheets '{}', '{}', '{}' and '{}'. Intervals are at {} confidence.",
-                names::CONDITIONS,
-                names::ANOVA,
-                assessment::names::SIMULTANEOUS,
-                assessment::names::CHECKS,
+                "Details: sheets {}. Intervals are at {} confidence.",
+                quoted_list(&detail_sheets),
                 percent_text(fit.confidence)
             ),
             Look::Note,
@@ -243,7 +304,17 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
             interval_header_low.as_str(),
             interval_header_high.as_str(),
             "± half-width",
+            "alike group",
         ];
+        let lead_family = response
+            .assessment
+            .as_deref()
+            .and_then(engine::analysis::verdict::lead_family);
+        let alike_letters = |name: &str| {
+            lead_family
+                .and_then(|family| family.letters.iter().find(|(condition, _)| condition == name))
+                .map_or(Value::Blank, |(_, letters)| Value::text(letters.clone()))
+        };
         let first_data_row = conditions_row + 1;
         let rows: Vec<Vec<Value>> = fit
             .conditions
@@ -261,6 +332,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
                     number(condition.mean_low, places + 1),
                     number(condition.mean_high, places + 1),
                     number(condition.mean_half_width, places + 1),
+                    alike_letters(&condition.name),
                 ]
             })
             .collect();
@@ -276,7 +348,23 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
             )),
             Look::Note,
         );
-        conditions_row += 2;
+        conditions_row += 1;
+        if let Some(family) = lead_family {
+            conditions.put(
+                conditions_row,
+                0,
+                Value::text(format!(
+                    "{} ({}, allowing for all pairs at {} confidence together; the pairs are on the sheet '{}').",
+                    assessment::ALIKE_GROUP_NOTE.trim_end_matches('.'),
+                    family.method.label(),
+                    percent_text(family.family_confidence),
+                    assessment::names::SIMULTANEOUS
+                )),
+                Look::Note,
+            );
+            conditions_row += 1;
+        }
+        conditions_row += 1;
 
         let has_bars = fit.pooled_sd.is_finite();
         summary.charts.push(ChartSpec {
@@ -455,12 +543,35 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
         );
     }
 
-    let mut book = Book {
-        sheets: vec![summary, conditions, anova, pairs],
+    // Order: the summary; the one-way reading from the means through the
+    // pairs allowing for all comparisons to each pair alone; the checks of the
+    // model and the analyses without it; then the factorial sheets, the data
+    // problems, where the results come from, and the hidden document.
+    let mut assessment_sheets = assessment::assessment_sheets(results, &|name: &str| {
+        results
+            .responses
+            .iter()
+            .find(|response| response.name == name)
+            .and_then(|response| response.fit())
+            .map_or(3, |fit| decimals_for(fit) + 1)
+    });
+    let mut take = |name: &str| {
+        assessment_sheets
+            .iter()
+            .position(|sheet| sheet.name == name)
+            .map(|index| assessment_sheets.remove(index))
     };
+    let mut book = Book {
+        sheets: vec![summary, conditions, anova],
+    };
+    book.sheets.extend(take(assessment::names::SIMULTANEOUS));
+    book.sheets.extend(take(assessment::names::CONTROL_BEST));
+    book.sheets.push(pairs);
     if any_contrast {
         book.sheets.push(contrasts);
     }
+    book.sheets.extend(take(assessment::names::CHECKS));
+    book.sheets.extend(take(assessment::names::OTHER));
     factorial::add_factorial_results(results, &mut book);
     book.sheets.push(findings_sheet(&results.findings));
     book.sheets.push(provenance_sheet(results));
@@ -564,8 +675,261 @@ fn provenance_sheet(results: &WorkbookResults) -> Sheet {
 
 #[cfg(test)]
 mod tests {
-    use super::{readable_time, significant_format};
-    use workbook_io::write::NumberFormat;
+    use super::{build_results_book, names, quoted_list, readable_time, sheets_named_in, significant_format};
+    use workbook_io::write::{Book, Look, NumberFormat, Sheet, Value};
+
+    /// Analyses a long table written to a temporary workbook (invented
+    /// values) and builds its results workbook.
+    fn book_for(header: &[&str], rows: &[(Vec<&str>, f64)], settings: crate::settings::Settings) -> Book {
+        let folder = tempfile::tempdir().expect("a temporary folder");
+        let source = folder.path().join("trial.xlsx");
+        let mut sheet = Sheet::new("Runs");
+        for (col, name) in header.iter().enumerate() {
+            sheet.put(0, col as u16, Value::text(*name), Look::ColumnHeader);
+        }
+        for (index, (levels, value)) in rows.iter().enumerate() {
+            let row = index as u32 + 1;
+            for (col, level) in levels.iter().enumerate() {
+                sheet.put(row, col as u16, Value::text(*level), Look::Plain);
+            }
+            sheet.put(row, levels.len() as u16, Value::number(*value), Look::Plain);
+        }
+        workbook_io::write::write_book(&Book { sheets: vec![sheet] }, &source).expect("written");
+        let request = crate::AnalysisRequest {
+            settings,
+            ..crate::AnalysisRequest::default()
+        };
+        let results = crate::analyse_workbook(&source, &request).expect("analysed");
+        build_results_book(&results)
+    }
+
+    /// Rows of a one-factor long table: each condition's values.
+    fn one_factor_rows<'n>(conditions: &[(&'n str, &[f64])]) -> Vec<(Vec<&'n str>, f64)> {
+        conditions
+            .iter()
+            .flat_map(|(name, values)| values.iter().map(move |value| (vec![*name], *value)))
+            .collect()
+    }
+
+    fn sheet<'b>(book: &'b Book, name: &str) -> &'b Sheet {
+        book.sheets
+            .iter()
+            .find(|sheet| sheet.name == name)
+            .unwrap_or_else(|| panic!("no sheet '{name}'"))
+    }
+
+    fn texts(sheet: &Sheet) -> impl Iterator<Item = &str> {
+        sheet.cells.iter().filter_map(|placed| match &placed.value {
+            Value::Text(text) => Some(text.as_str()),
+            _ => None,
+        })
+    }
+
+    /// Every sheet any text of the book names is in the book (the source
+    /// sheet 'Runs' is the trial's own, named in the Summary's first lines).
+    fn assert_named_sheets_exist(book: &Book) {
+        let held: Vec<&str> = book.sheets.iter().map(|sheet| sheet.name.as_str()).collect();
+        for sheet in &book.sheets {
+            for text in texts(sheet) {
+                for named in sheets_named_in(text) {
+                    assert!(
+                        held.contains(&named.as_str()) || named == "Runs",
+                        "sheet '{}' names the missing sheet '{named}': {text}; the book holds {held:?}",
+                        sheet.name
+                    );
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn reads_sheet_names_from_sentences() {
+        assert_eq!(
+            sheets_named_in(
+                "Details: sheets 'Conditions', 'ANOVA', 'Which pairs differ' and 'Model checks'. Intervals"
+            ),
+            vec!["Conditions", "ANOVA", "Which pairs differ", "Model checks"]
+        );
+        assert_eq!(sheets_named_in("see the sheet 'Data problems'."), vec!["Data problems"]);
+        assert_eq!(sheets_named_in("Sheet 'Runs', cells A1:B9"), vec!["Runs"]);
+        assert!(sheets_named_in("the sheet has no table; 'quoted' text").is_empty());
+        assert_eq!(quoted_list(&["A", "B", "C"]), "'A', 'B' and 'C'");
+        assert_eq!(quoted_list(&["A"]), "'A'");
+    }
+
+    #[test]
+    fn a_one_way_results_book_holds_every_sheet_it_names() {
+        // Three invented oven settings, four runs each; Low is clearly below
+        // the other two, which are close.
+        let rows = one_factor_rows(&[
+            ("Low", &[50.1, 50.4, 49.8, 50.2]),
+            ("Mid", &[53.0, 53.3, 52.8, 53.4]),
+            ("High", &[53.2, 53.6, 53.1, 53.5]),
+        ]);
+        let book = book_for(&["Oven", "Gloss"], &rows, crate::settings::Settings::default());
+        let order: Vec<&str> = book.sheets.iter().map(|sheet| sheet.name.as_str()).collect();
+        assert_eq!(
+            order,
+            vec![
+                names::SUMMARY,
+                names::CONDITIONS,
+                names::ANOVA,
+                super::assessment::names::SIMULTANEOUS,
+                names::PAIRS,
+                super::assessment::names::CHECKS,
+                super::assessment::names::OTHER,
+                names::FINDINGS,
+                names::PROVENANCE,
+                names::RESULTS_DOCUMENT,
+            ]
+        );
+        assert_named_sheets_exist(&book);
+        // The model checks carry the two charts the Summary's readings point to.
+        let checks = sheet(&book, super::assessment::names::CHECKS);
+        let chart_titles: Vec<&str> = checks.charts.iter().map(|chart| chart.title.as_str()).collect();
+        assert_eq!(
+            chart_titles,
+            vec![
+                "Gloss: residuals against fitted means",
+                "Gloss: normal probability plot of residuals"
+            ]
+        );
+        // Tukey-Kramer leads (equal spreads, normal-looking residuals): Low
+        // differs from both (gap about 3, pooled SD about 0.22), Mid and High
+        // (gap 0.2) cannot be told apart, so Low carries a letter of its own.
+        let conditions = sheet(&book, names::CONDITIONS);
+        let letter_of = |name: &str| {
+            let row = conditions
+                .cells
+                .iter()
+                .find(|placed| placed.col == 0 && placed.value == Value::text(name))
+                .map(|placed| placed.row)
+                .expect("the condition's row");
+            conditions
+                .cells
+                .iter()
+                .find(|placed| placed.row == row && placed.col == 11)
+                .map(|placed| placed.value.clone())
+        };
+        assert_eq!(letter_of("Mid"), letter_of("High"));
+        assert_ne!(letter_of("Low"), letter_of("Mid"));
+        assert!(texts(conditions).any(|text| text == "alike group"));
+        let simultaneous = sheet(&book, super::assessment::names::SIMULTANEOUS);
+        assert!(
+            texts(simultaneous).any(|text| text.starts_with("Tukey-Kramer") && text.ends_with("(the lead analysis)")),
+            "{:?}",
+            texts(simultaneous).collect::<Vec<_>>()
+        );
+        // The letters stand beside the lead family only.
+        assert_eq!(texts(simultaneous).filter(|text| *text == "alike group").count(), 1);
+        let summary_text: Vec<&str> = texts(sheet(&book, names::SUMMARY)).collect();
+        assert!(
+            summary_text
+                .iter()
+                .any(|text| text.starts_with("Could not be told apart")
+                    && text.contains("Mid and High")
+                    && text.contains("Low differs from every other condition")),
+            "{summary_text:?}"
+        );
+        assert!(!summary_text.iter().any(|text| text.contains("sharing a letter")));
+    }
+
+    #[test]
+    fn a_control_and_a_direction_add_their_sheet_and_the_summary_names_it() {
+        // Invented coatings, four runs each; higher gloss is better.
+        let rows = one_factor_rows(&[
+            ("Standard", &[50.1, 50.4, 49.8, 50.2]),
+            ("Primer", &[53.0, 53.3, 52.8, 53.4]),
+            ("Two coats", &[51.2, 51.6, 51.1, 51.5]),
+        ]);
+        let settings = crate::settings::Settings {
+            control: Some("Standard".into()),
+            direction: Some(engine::options::Direction::HigherIsBetter),
+            ..crate::settings::Settings::default()
+        };
+        let book = book_for(&["Coating", "Gloss"], &rows, settings);
+        assert_named_sheets_exist(&book);
+        let control_best = sheet(&book, super::assessment::names::CONTROL_BEST);
+        let lines: Vec<&str> = texts(control_best).collect();
+        assert!(
+            lines
+                .iter()
+                .any(|text| text.starts_with("Against the control 'Standard'")),
+            "{lines:?}"
+        );
+        assert!(
+            lines
+                .iter()
+                .any(|text| text.starts_with("Each condition against the best")),
+            "{lines:?}"
+        );
+        assert!(
+            texts(sheet(&book, names::SUMMARY)).any(|text| text.starts_with("Details:")
+                && text.contains(&format!("'{}'", super::assessment::names::CONTROL_BEST))),
+            "the Summary names the sheet"
+        );
+    }
+
+    #[test]
+    fn unequal_spreads_lead_with_games_howell_and_the_summary_names_welch_s_sheet() {
+        // Invented fillers: two hold their weight tightly, one wanders
+        // (SD about 40 times larger), with symmetric spread around each mean.
+        // Fifteen runs each, so that the rank-based rule (groups under 15)
+        // cannot take the lead.
+        const SHAPE: [f64; 15] = [
+            -1.7, -1.1, -0.8, -0.5, -0.3, -0.15, -0.05, 0.0, 0.05, 0.15, 0.3, 0.5, 0.8, 1.1, 1.7,
+        ];
+        let filler = |mean: f64, sd: f64| -> Vec<f64> { SHAPE.iter().map(|z| mean + sd * z).collect() };
+        let (first, second, third) = (filler(100.0, 0.1), filler(100.0, 4.0), filler(101.0, 0.1));
+        let rows = one_factor_rows(&[("Filler 1", &first), ("Filler 2", &second), ("Filler 3", &third)]);
+        let book = book_for(&["Filler", "Weight"], &rows, crate::settings::Settings::default());
+        assert_named_sheets_exist(&book);
+        let simultaneous = sheet(&book, super::assessment::names::SIMULTANEOUS);
+        let lead: Vec<&str> = texts(simultaneous)
+            .filter(|text| text.ends_with("(the lead analysis)"))
+            .collect();
+        assert_eq!(lead.len(), 1, "{lead:?}");
+        assert!(lead[0].starts_with("Games-Howell"), "{lead:?}");
+        assert!(
+            texts(sheet(&book, names::SUMMARY))
+                .any(|text| text.starts_with("Details:")
+                    && text.contains(&format!("'{}'", super::assessment::names::OTHER))),
+            "the Summary names the sheet with Welch's ANOVA"
+        );
+    }
+
+    #[test]
+    fn a_two_factor_results_book_holds_every_sheet_it_names() {
+        // An invented 2x2 trial, two runs per cell: temperature raises the
+        // strength by about 4, the line by about 1.
+        let mut rows = Vec::new();
+        for (temperature, line, values) in [
+            ("170", "North", [20.1, 20.5]),
+            ("170", "South", [21.2, 20.8]),
+            ("190", "North", [24.0, 24.4]),
+            ("190", "South", [25.1, 25.3]),
+        ] {
+            for value in values {
+                rows.push((vec![temperature, line], value));
+            }
+        }
+        let book = book_for(
+            &["Temperature", "Line", "Strength"],
+            &rows,
+            crate::settings::Settings::default(),
+        );
+        let order: Vec<&str> = book.sheets.iter().map(|sheet| sheet.name.as_str()).collect();
+        for expected in [
+            super::assessment::names::SIMULTANEOUS,
+            super::assessment::names::CHECKS,
+            super::assessment::names::OTHER,
+            super::factorial::names::ANOVA,
+            super::factorial::names::EFFECTS,
+        ] {
+            assert!(order.contains(&expected), "no sheet '{expected}' in {order:?}");
+        }
+        assert_named_sheets_exist(&book);
+    }
 
     #[test]
     fn sums_of_squares_show_seven_significant_digits() {
