@@ -280,3 +280,113 @@ fn corpus_leads_in_the_console_and_the_rollup() {
         cases.len()
     );
 }
+
+/// Two responses of one 2^3 trial, each with its own direction: one from the settings
+/// sheet ("Leak rate: lower"), one from the command line ("Strength=higher"), and a
+/// direction for a response the table lacks. Each response's best settings follow its
+/// own direction (the generating model puts the lowest leak rate and the highest strength
+/// at different corners), the provenance names where each came from, and the unknown
+/// name is a finding.
+#[test]
+fn each_response_follows_its_own_direction() {
+    use crate::common::corpus::{two_level_runs, Level, Noise};
+    let folder = temp_folder();
+    let runs = two_level_runs(3, &[]);
+    let mut noise = Noise::new(1320);
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let sheet = book.add_worksheet();
+    sheet.set_name("Trial").expect("name");
+    for (col, header) in ["Temperature", "Pressure", "Time", "Leak rate (ccm)", "Strength (MPa)"]
+        .iter()
+        .enumerate()
+    {
+        sheet.write_string(0, col as u16, *header).expect("header");
+    }
+    let mut row = 1;
+    for _ in 0..2 {
+        for run in &runs {
+            let levels = [
+                Level::Number(if run[0] > 0.0 { 180.0 } else { 150.0 }),
+                Level::Number(if run[1] > 0.0 { 4.0 } else { 2.0 }),
+                Level::Number(if run[2] > 0.0 { 20.0 } else { 10.0 }),
+            ];
+            for (col, level) in levels.iter().enumerate() {
+                if let Level::Number(number) = level {
+                    sheet.write_number(row, col as u16, *number).expect("level");
+                }
+            }
+            // Leak rate rises with Temperature; strength rises with Temperature and Time.
+            let leak = 5.0 + 2.0 * run[0] + noise.normal(0.2);
+            let strength = 40.0 + 3.0 * run[0] + 2.0 * run[2] + noise.normal(0.3);
+            sheet.write_number(row, 3, leak).expect("leak");
+            sheet.write_number(row, 4, strength).expect("strength");
+            row += 1;
+        }
+    }
+    let settings = book.add_worksheet();
+    settings.set_name("trialyst settings").expect("name");
+    for (index, (key, value)) in [
+        ("factor", "Temperature, Pressure, Time"),
+        ("response", "Leak rate (ccm), Strength (MPa)"),
+        ("direction", "Leak rate: lower; Haze: lower"),
+    ]
+    .iter()
+    .enumerate()
+    {
+        settings.write_string(index as u32, 0, *key).expect("key");
+        settings.write_string(index as u32, 1, *value).expect("value");
+    }
+    book.save(folder.path().join("two responses.xlsx")).expect("save");
+    let run = trialyst(
+        folder.path(),
+        &[
+            "run",
+            "--json",
+            "--no-write",
+            "--direction",
+            "Strength=higher",
+            "two responses.xlsx",
+        ],
+    );
+    run.expect_code(0);
+    let line = run
+        .stdout()
+        .lines()
+        .find(|line| line.starts_with('{'))
+        .map(str::to_string);
+    let document: Value = serde_json::from_str(&line.unwrap_or_default()).expect("a JSON line");
+    let responses = document["responses"].as_array().expect("responses");
+    let best = |index: usize| {
+        responses[index]["factorial_reading"]["best_settings"]
+            .as_str()
+            .map(str::to_string)
+    };
+    let leak_best = best(0).expect("the leak rate has a direction");
+    let strength_best = best(1).expect("the strength has a direction");
+    assert!(leak_best.contains("Temperature 150"), "{leak_best}");
+    assert!(
+        strength_best.contains("Temperature 180") && strength_best.contains("Time 20"),
+        "{strength_best}"
+    );
+    let sources = document["settings_sources"].as_array().expect("sources");
+    let origin = |key: &str| {
+        sources
+            .iter()
+            .find(|pair| pair[0].as_str() == Some(key))
+            .and_then(|pair| pair[1].as_str())
+            .map(str::to_string)
+    };
+    assert_eq!(
+        origin("direction for 'Leak rate'").as_deref(),
+        Some("workbook settings sheet")
+    );
+    assert_eq!(
+        origin("direction for 'Strength'").as_deref(),
+        Some("command line or request")
+    );
+    let findings = document["findings"].to_string();
+    assert!(findings.contains("direction was given for 'Haze'"), "{findings}");
+    for response in responses {
+        assert_eq!(response["lead"]["analysis"], "factorial", "{}", response["lead"]);
+    }
+}

@@ -94,7 +94,14 @@ pub fn lead_name(assessment: Option<&Assessment>) -> &'static str {
 pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment: Option<&Assessment>) -> Verdict {
     let percent = round_for_text(fit.confidence * 100.0, 3);
     let alpha = 1.0 - fit.confidence;
-    let p = lead_p(fit, assessment);
+    // With one value per condition there is nothing within conditions to judge by, and a
+    // rank test over single values must not decide it either.
+    let single_values = fit.conditions.iter().all(|condition| condition.n <= 1);
+    let p = if single_values {
+        f64::NAN
+    } else {
+        lead_p(fit, assessment)
+    };
     let conditions_differ = if p.is_nan() { None } else { Some(p < alpha) };
     let headline = match conditions_differ {
         Some(true) => format!(
@@ -568,5 +575,84 @@ mod tests {
             verdict.details
         );
         assert!(verdict.details[1].contains("fast minus slow"), "{:?}", verdict.details);
+    }
+
+    #[test]
+    fn single_values_are_never_judged_by_a_rank_test() {
+        let names = vec!["a".to_string(), "b".to_string(), "c".to_string()];
+        let fit = crate::analysis::oneway::fit_one_way(&names, &[0, 1, 2], &[1.0, 5.0, 9.0], 0.95, &[]).expect("fits");
+        let verdict = read_fit("Gloss", None, &fit, None);
+        assert_eq!(verdict.conditions_differ, None);
+        assert!(verdict.headline.contains("cannot be judged"), "{}", verdict.headline);
+    }
+
+    /// A replicated 2^2 built so that the effects are known by arithmetic: a two-level
+    /// effect is the mean at the high level minus the mean at the low level (the
+    /// definition used throughout the NIST/SEMATECH e-Handbook's two-level designs; common
+    /// practice). Here Temperature's is 4 exactly and
+    /// Pressure's and the interaction's are 0 exactly, each cell holding the same two
+    /// values apart from Temperature's shift.
+    #[test]
+    fn reads_a_factorial_by_its_effects_and_its_direction() {
+        use crate::analysis::factorial::{analyse_factorial, FactorData, FactorialData, FactorialOptions};
+        let temperature = vec!["150".to_string(), "180".to_string()];
+        let pressure = vec!["2".to_string(), "4".to_string()];
+        let temperature_of = [0, 0, 1, 1, 0, 0, 1, 1];
+        let pressure_of = [0, 0, 0, 0, 1, 1, 1, 1];
+        let values = [10.0, 10.2, 14.0, 14.2, 10.0, 10.2, 14.0, 14.2];
+        let data = FactorialData {
+            factors: vec![
+                FactorData {
+                    name: "Temperature",
+                    levels: &temperature,
+                    level_of_record: &temperature_of,
+                    is_block: false,
+                },
+                FactorData {
+                    name: "Pressure",
+                    levels: &pressure,
+                    level_of_record: &pressure_of,
+                    is_block: false,
+                },
+            ],
+            response_name: "Leak rate (ccm)",
+            values: &values,
+        };
+        let outcome = analyse_factorial(&data, &FactorialOptions::default()).expect("a factorial outcome");
+        let reading = read_factorial("Leak rate (ccm)", Some("ccm"), &outcome, Some(Direction::LowerIsBetter))
+            .expect("a reading");
+        assert_eq!(reading.matter, vec!["Temperature".to_string()]);
+        assert_eq!(reading.verdict.conditions_differ, Some(true));
+        let largest = reading.largest.as_ref().expect("a largest effect");
+        assert!((largest.size - 4.0).abs() < 1e-9, "{largest:?}");
+        assert!(
+            reading
+                .verdict
+                .headline
+                .starts_with("Temperature affects Leak rate (ccm)"),
+            "{}",
+            reading.verdict.headline
+        );
+        assert!(
+            reading.verdict.headline.contains("4 ccm"),
+            "{}",
+            reading.verdict.headline
+        );
+        let best = reading
+            .best_settings
+            .as_deref()
+            .expect("best settings with a direction");
+        assert!(best.contains("Temperature 150"), "{best}");
+        let undirected = read_factorial("Leak rate (ccm)", Some("ccm"), &outcome, None).expect("a reading");
+        assert_eq!(undirected.best_settings, None);
+        assert!(
+            undirected
+                .verdict
+                .details
+                .iter()
+                .any(|line| line.contains("No best settings are chosen without a direction")),
+            "{:?}",
+            undirected.verdict.details
+        );
     }
 }
