@@ -353,10 +353,10 @@ pub fn corpus() -> Vec<TrialCase> {
         settings: vec![("block".into(), "Day".into()), ("direction".into(), "higher".into())],
         lead: ExpectedLead::Factorial,
         must_find: strings(&["Temperature", "Time"]),
-        must_not_find: strings(&["Pressure", "Speed"]),
+        must_not_find: strings(&["Pressure", "Speed", "Temperature × Pressure × Time × Speed"]),
         expects_best: true,
         one_run_per_combination: true,
-        needs_block_aware_engine: false,
+        needs_block_aware_engine: true,
     });
 
     // 5. The same blocked plan with a large day shift: the interaction confounded with

@@ -387,7 +387,14 @@ pub fn read_factorial(
     };
     let size_text = |size: &EffectSize| {
         let change = if size.size >= 0.0 { "raises" } else { "lowers" };
-        let interval = match (size.low, size.high) {
+        // A lowering is said as a positive amount, and so is its interval.
+        let bounds = match (size.low, size.high) {
+            (Some(low), Some(high)) if size.size < 0.0 && !size.label.starts_with("the interaction") => {
+                (Some(-high), Some(-low))
+            }
+            other => other,
+        };
+        let interval = match bounds {
             (Some(low), Some(high)) => format!(
                 " ({percent}% interval {} to {})",
                 with_unit(low, unit),
