@@ -14,7 +14,7 @@ use serde_json::Value;
 
 use crate::batch::cell_text;
 use crate::common::corpus::{corpus, write_case, ExpectedLead, TrialCase};
-use crate::common::{read_all_sheets, temp_folder, trialyst};
+use crate::common::{read_all_sheets, temp_folder, trialyst, Run};
 
 /// The JSON document of one case, run alone with `run --json --no-write`.
 fn run_case(folder: &Path, case: &TrialCase) -> Value {
@@ -22,11 +22,16 @@ fn run_case(folder: &Path, case: &TrialCase) -> Value {
     write_case(case, &folder.join(&file));
     let run = trialyst(folder, &["run", "--json", "--no-write", "--jobs", "1", &file]);
     run.expect_code(0);
+    first_document(&run)
+}
+
+/// The first JSON document a `run --json` printed.
+fn first_document(run: &Run) -> Value {
     let line = run
         .stdout()
         .lines()
         .find(|line| line.starts_with('{'))
-        .unwrap_or_else(|| panic!("no JSON line for '{}'{}", case.name, run.report()))
+        .unwrap_or_else(|| panic!("no JSON line{}", run.report()))
         .to_string();
     serde_json::from_str(&line).expect("the JSON line parses")
 }
@@ -350,12 +355,7 @@ fn each_response_follows_its_own_direction() {
         ],
     );
     run.expect_code(0);
-    let line = run
-        .stdout()
-        .lines()
-        .find(|line| line.starts_with('{'))
-        .map(str::to_string);
-    let document: Value = serde_json::from_str(&line.unwrap_or_default()).expect("a JSON line");
+    let document = first_document(&run);
     let responses = document["responses"].as_array().expect("responses");
     let best = |index: usize| {
         responses[index]["factorial_reading"]["best_settings"]
@@ -456,12 +456,7 @@ fn a_filled_screening_plan_leads_with_its_effects() {
     write_all(&sheets, &folder.path().join("filled.xlsx"));
     let run = trialyst(folder.path(), &["run", "--json", "--no-write", "filled.xlsx"]);
     run.expect_code(0);
-    let line = run
-        .stdout()
-        .lines()
-        .find(|line| line.starts_with('{'))
-        .map(str::to_string);
-    let document: Value = serde_json::from_str(&line.unwrap_or_default()).expect("a JSON line");
+    let document = first_document(&run);
     let response = &document["responses"][0];
     assert_eq!(response["lead"]["analysis"], "factorial", "{}", response["lead"]);
     let matter: Vec<&str> = response["factorial_reading"]["matter"]
