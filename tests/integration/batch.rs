@@ -24,7 +24,8 @@ fn good_workbook(path: &Path, shift: f64) {
     );
 }
 
-fn cell_text(data: &Data) -> String {
+/// A cell's text as shown (blank for an empty cell).
+pub(crate) fn cell_text(data: &Data) -> String {
     match data {
         Data::Empty => String::new(),
         other => other.to_string(),

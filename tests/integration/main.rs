@@ -13,6 +13,7 @@ mod batch;
 mod catalogue;
 mod cli;
 mod common;
+mod design_lead;
 mod factorial;
 mod findings;
 mod front_ends;

@@ -62,9 +62,9 @@ const PLAN_ARGS: &[&str] = &[
 ];
 
 /// Every sheet of a workbook as (name, cells), for copying.
-type Sheets = Vec<(String, Vec<Vec<Data>>)>;
+pub(crate) type Sheets = Vec<(String, Vec<Vec<Data>>)>;
 
-fn read_all(path: &Path) -> Sheets {
+pub(crate) fn read_all(path: &Path) -> Sheets {
     let mut workbook = open_workbook_auto(path).expect("plan workbook opens");
     let names = workbook.sheet_names().to_vec();
     names
@@ -83,7 +83,7 @@ fn read_all(path: &Path) -> Sheets {
         .collect()
 }
 
-fn write_all(sheets: &Sheets, path: &Path) {
+pub(crate) fn write_all(sheets: &Sheets, path: &Path) {
     let mut workbook = rust_xlsxwriter::Workbook::new();
     for (name, rows) in sheets {
         let sheet = workbook.add_worksheet();
@@ -110,7 +110,7 @@ fn write_all(sheets: &Sheets, path: &Path) {
     workbook.save(path).expect("filled workbook saved");
 }
 
-fn runs_sheet(sheets: &mut Sheets) -> &mut Vec<Vec<Data>> {
+pub(crate) fn runs_sheet(sheets: &mut Sheets) -> &mut Vec<Vec<Data>> {
     &mut sheets
         .iter_mut()
         .find(|(name, _)| name == "Runs")
@@ -118,7 +118,7 @@ fn runs_sheet(sheets: &mut Sheets) -> &mut Vec<Vec<Data>> {
         .1
 }
 
-fn column_of(rows: &[Vec<Data>], header: &str) -> usize {
+pub(crate) fn column_of(rows: &[Vec<Data>], header: &str) -> usize {
     // The header row is the third row of the runs sheet.
     rows[2]
         .iter()

@@ -140,7 +140,8 @@ pub fn settings(value: Option<&Value>) -> Result<Settings, ParamsError> {
     for (key, value) in map {
         let place = format!("params.settings.{key}");
         let normalised = key.trim().to_lowercase().replace(['_', '-'], " ");
-        let is_contrast = normalised == "contrast" || normalised == "contrasts";
+        // Contrasts and directions give one row per item (as repeated rows of a settings sheet).
+        let is_contrast = ["contrast", "contrasts", "direction", "directions"].contains(&normalised.as_str());
         let scalar_text = |item: &Value, place: &str| -> Result<String, ParamsError> {
             match item {
                 Value::String(text) => Ok(text.clone()),
@@ -165,6 +166,13 @@ pub fn settings(value: Option<&Value>) -> Result<Settings, ParamsError> {
                     }
                 } else {
                     rows.push((key.clone(), texts.join(", "), place.clone()));
+                }
+            }
+            Value::Object(per_response) if normalised == "direction" || normalised == "directions" => {
+                // `{"Leak rate": "lower", "Strength": "higher"}`: one direction per response.
+                for (response, direction) in per_response {
+                    let text = scalar_text(direction, &format!("{place}.{response}"))?;
+                    rows.push((key.clone(), format!("{response}: {text}"), place.clone()));
                 }
             }
             other => rows.push((key.clone(), scalar_text(other, &place)?, place.clone())),
@@ -508,5 +516,21 @@ mod tests {
         assert_eq!(paths.path, PathBuf::from("week 3.xlsx"));
         assert_eq!(paths.settings.sheet.as_deref(), Some("Trial"));
         assert_eq!(paths.settings.range.as_deref(), Some("B2:D9"));
+    }
+
+    #[test]
+    fn directions_per_response_as_a_list_or_an_object() {
+        use service::settings::Direction;
+        let listed = settings(Some(&json!({"direction": ["higher", "Leak rate: lower"]}))).expect("valid");
+        assert_eq!(listed.direction_for("Leak rate (ccm)"), Some(Direction::LowerIsBetter));
+        assert_eq!(listed.direction_for("Strength"), Some(Direction::HigherIsBetter));
+        let object = settings(Some(
+            &json!({"direction": {"Leak rate": "lower", "Strength": "target 40"}}),
+        ))
+        .expect("valid");
+        assert_eq!(object.direction, None);
+        assert_eq!(object.direction_for("Strength"), Some(Direction::Target(40.0)));
+        let bad = settings(Some(&json!({"direction": {"Strength": true}}))).unwrap_err();
+        assert_eq!(bad.field, "params.settings.direction.Strength");
     }
 }

@@ -6,7 +6,10 @@
 //!
 //! ```toml
 //! confidence = 0.90            # or "90%"
-//! direction = "lower"          # higher, lower, "target 12.5"
+//! direction = "lower"          # higher, lower, "target 12.5": every response
+//! # or per response (a plain value among them still means every other response):
+//! # direction = ["Leak rate: lower", "Strength: higher"]
+//! # direction = { "Leak rate" = "lower", Strength = "higher" }
 //! family_confidence = "95%"
 //! control = "Current recipe"
 //! contrast = ["new vs old: (A + B)/2 - C"]
@@ -111,7 +114,7 @@ pub fn parse_folder_settings(text: &str, file: &str) -> Result<Settings, FolderS
                 for item in items {
                     texts.push(scalar_text(item).ok_or_else(|| bad("must hold text or numbers"))?);
                 }
-                if normal == "contrast" || normal == "contrasts" {
+                if ["contrast", "contrasts", "direction", "directions"].contains(&normal.as_str()) {
                     for item in texts {
                         pairs.push((key.get_ref().clone(), item, place.clone()));
                     }
@@ -121,6 +124,14 @@ pub fn parse_folder_settings(text: &str, file: &str) -> Result<Settings, FolderS
                     return Err(bad("takes one value, not a list"));
                 } else {
                     pairs.push((key.get_ref().clone(), String::new(), place));
+                }
+            }
+            toml::Value::Table(table) if normal == "direction" || normal == "directions" => {
+                // `direction = { "Leak rate" = "lower", Strength = "higher" }`: one per response.
+                for (response, direction) in table {
+                    let text =
+                        scalar_text(direction).ok_or_else(|| bad("must give each response a direction as text"))?;
+                    pairs.push((key.get_ref().clone(), format!("{response}: {text}"), place.clone()));
                 }
             }
             toml::Value::Table(_) => return Err(bad("must be a value, not a table of keys")),
@@ -332,5 +343,23 @@ interaction-order = 2
             text.contains(&file) && text.contains("line 1") && text.contains("colour"),
             "{text}"
         );
+    }
+
+    #[test]
+    fn directions_per_response_as_a_list_or_a_table() {
+        let listed =
+            parse_folder_settings("direction = [\"higher\", \"Leak rate: lower\"]\n", "f.toml").expect("valid");
+        assert_eq!(listed.direction_for("Leak rate (ccm)"), Some(Direction::LowerIsBetter));
+        assert_eq!(listed.direction_for("Strength"), Some(Direction::HigherIsBetter));
+        let table = parse_folder_settings(
+            "direction = { \"Leak rate\" = \"lower\", Strength = \"target 40\" }\n",
+            "f.toml",
+        )
+        .expect("valid");
+        assert_eq!(table.direction, None);
+        assert_eq!(table.direction_for("leak rate"), Some(Direction::LowerIsBetter));
+        assert_eq!(table.direction_for("Strength"), Some(Direction::Target(40.0)));
+        let bad = parse_folder_settings("direction = { Strength = \"up\" }\n", "f.toml").unwrap_err();
+        assert!(bad.to_string().contains("line 1"), "{bad}");
     }
 }

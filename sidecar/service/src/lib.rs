@@ -43,7 +43,7 @@ pub use paths::{
     relative_to_workbook, results_path_for, PROBLEMS_SUFFIX, RESULTS_SUFFIX,
 };
 pub use results::{
-    now_rfc3339, standard_cautions, FactorSummary, Inspection, ResponseOutcome, ResponseResult, SourceInfo,
-    TableSummary, Timings, WorkbookResults, RESULTS_FORMAT_VERSION, TOOL_NAME, TOOL_VERSION,
+    now_rfc3339, standard_cautions, FactorSummary, Inspection, LeadChoice, LeadKind, ResponseOutcome, ResponseResult,
+    SourceInfo, TableSummary, Timings, WorkbookResults, RESULTS_FORMAT_VERSION, TOOL_NAME, TOOL_VERSION,
 };
 pub use write::{analyse_and_write, write_results, WrittenResults};

@@ -241,6 +241,7 @@ pub(crate) fn settings_sources(command: &Settings, sheet: &Settings, folder: &Se
         keys
     };
     let mut sources: Vec<(String, String)> = Vec::new();
+    let mut direction_for_all_above = false;
     for (settings, origin) in [
         (command, "command line or request"),
         (sheet, "workbook settings sheet"),
@@ -251,6 +252,16 @@ pub(crate) fn settings_sources(command: &Settings, sheet: &Settings, folder: &Se
                 sources.push((key.to_string(), origin.to_string()));
             }
         }
+        // A response's own direction stands unless a source above set one for every response.
+        if !direction_for_all_above {
+            for entry in &settings.response_directions {
+                let key = format!("direction for '{}'", entry.response);
+                if !sources.iter().any(|(existing, _)| existing.eq_ignore_ascii_case(&key)) {
+                    sources.push((key, origin.to_string()));
+                }
+            }
+        }
+        direction_for_all_above |= settings.direction.is_some();
     }
     if !sources.iter().any(|(key, _)| key == "confidence") {
         sources.push(("confidence".into(), "built-in default (0.95)".into()));

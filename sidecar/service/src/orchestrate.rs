@@ -12,8 +12,8 @@ use workbook_io::{SheetGrid, SheetInfo};
 use crate::failure::ServiceError;
 use crate::load::{load, settings_sources, summarise_table, table_request, CancelFlag, Loaded};
 use crate::results::{
-    now_rfc3339, standard_cautions, ResponseOutcome, ResponseResult, SourceInfo, Timings, WorkbookResults,
-    RESULTS_FORMAT_VERSION, TOOL_NAME, TOOL_VERSION,
+    now_rfc3339, standard_cautions, LeadChoice, LeadKind, ResponseOutcome, ResponseResult, SourceInfo, Timings,
+    WorkbookResults, RESULTS_FORMAT_VERSION, TOOL_NAME, TOOL_VERSION,
 };
 use crate::settings::Settings;
 use crate::AnalysisRequest;
@@ -191,12 +191,41 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             }),
         }
     }
+    for named in &settings.response_directions {
+        if !table
+            .responses
+            .iter()
+            .any(|response| crate::settings::names_response(&named.response, &response.name))
+        {
+            findings.push(Finding {
+                kind: FindingKind::Setting,
+                sheet: String::new(),
+                cell: None,
+                found: format!("direction for '{}'", named.response),
+                action: "the direction was not used".into(),
+                message: format!(
+                    "a direction was given for '{}', but the table has no response of that name (responses: {})",
+                    named.response,
+                    table
+                        .responses
+                        .iter()
+                        .map(|response| format!("'{}'", response.name))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+            });
+        }
+    }
     let mut responses = Vec::new();
     for (response_index, response) in table.responses.iter().enumerate() {
         if cancel.is_cancelled() {
             return Err(ServiceError::Cancelled);
         }
-        // Conditions with fewer than two usable values are reported here, per response.
+        let direction = settings.direction_for(&response.name);
+        let factorial = factorial_of(&table, response_index, &settings, direction);
+        // Conditions with fewer than two usable values are reported here, per response;
+        // in a factorial trial one run per combination is the design, so only
+        // combinations with no usable value are (see `replication_finding` for the rest).
         let mut counts = vec![0usize; condition_names.len()];
         let mut first_record: Vec<Option<usize>> = vec![None; condition_names.len()];
         for (record, (&group, value)) in groups.iter().zip(&response.values).enumerate() {
@@ -206,7 +235,7 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             }
         }
         for (condition, &count) in counts.iter().enumerate() {
-            if count < 2 {
+            if count < 2 && !(factorial.is_some() && count == 1) {
                 let cell = first_record[condition].map(|record| table.value_cell(response_index, record).a1());
                 let (action, detail) = if count == 0 {
                     ("the condition was left out of this response", "has no usable value")
@@ -256,7 +285,7 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
         let assessment = match &outcome {
             ResponseOutcome::Analysed { one_way } => {
                 let assessment_started = Instant::now();
-                let mut assessment = assess_response(one_way, &groups, &counts, &response.values, &settings);
+                let mut assessment = assess_response(one_way, &groups, &counts, &response.values, &settings, direction);
                 timings.assessment_ms += assessment_started.elapsed().as_secs_f64() * 1e3;
                 for outlier in &mut assessment.checks.outliers {
                     let cell = table.value_cell(response_index, outlier.record).a1();
@@ -278,7 +307,7 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             ResponseOutcome::NotAnalysed { .. } => None,
         };
         let unit = unit_of(&response.name);
-        let verdict = match &outcome {
+        let one_way_verdict = match &outcome {
             ResponseOutcome::Analysed { one_way } => Some(engine::analysis::verdict::read_fit(
                 &response.name,
                 unit.as_deref(),
@@ -287,13 +316,44 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             )),
             ResponseOutcome::NotAnalysed { .. } => None,
         };
-        let factorial = factorial_of(&table, response_index, &settings);
+        let factorial_reading = factorial.as_ref().and_then(|outcome| {
+            engine::analysis::verdict::read_factorial(&response.name, unit.as_deref(), outcome, direction)
+        });
+        let lead = lead_choice(
+            &table,
+            factorial.as_ref(),
+            factorial_reading.is_some(),
+            condition_names.len(),
+        );
+        if let Some(finding) = factorial_reading
+            .as_ref()
+            .and_then(|reading| replication_finding(&table, &response.name, reading))
+        {
+            findings.push(finding);
+        }
+        let (verdict, one_way_verdict) = match factorial_reading.as_ref() {
+            Some(reading) => {
+                let mut verdict = reading.verdict.clone();
+                if let Some(one_way) = &one_way_verdict {
+                    verdict.details.push(format!(
+                        "Detail, not the lead: the one-way comparison of the {} combinations run says: {}",
+                        condition_names.len(),
+                        one_way.headline
+                    ));
+                }
+                (Some(verdict), one_way_verdict)
+            }
+            None => (one_way_verdict, None),
+        };
         responses.push(ResponseResult {
             name: response.name.clone(),
             assessment,
             unit,
             verdict,
             factorial,
+            lead,
+            factorial_reading,
+            one_way_verdict,
             condition_factor: condition_factor.clone(),
             outcome,
         });
@@ -336,6 +396,7 @@ fn factorial_of(
     table: &TrialTable,
     response_index: usize,
     settings: &Settings,
+    direction: Option<engine::options::Direction>,
 ) -> Option<engine::analysis::factorial::FactorialOutcome> {
     use engine::analysis::factorial::{analyse_factorial, FactorData, FactorialData, FactorialOptions};
     let response = table.responses.get(response_index)?;
@@ -355,7 +416,7 @@ fn factorial_of(
     };
     let options = FactorialOptions {
         confidence: settings.confidence_level(),
-        direction: settings.direction,
+        direction,
         interaction_order: settings.interaction_order,
     };
     let mut outcome = analyse_factorial(&data, &options)?;
@@ -380,6 +441,112 @@ fn factorial_of(
     Some(outcome)
 }
 
+/// Which analysis leads a response, and why, in one sentence: the factorial model
+/// when the table crosses two or more treatment factors or has a factor beside blocks
+/// (and the model could be read), otherwise the one-way comparison.
+fn lead_choice(
+    table: &TrialTable,
+    factorial: Option<&engine::analysis::factorial::FactorialOutcome>,
+    factorial_read: bool,
+    n_conditions: usize,
+) -> LeadChoice {
+    let treatments: Vec<&str> = table
+        .factors
+        .iter()
+        .filter(|factor| !factor.is_block)
+        .map(|factor| factor.name.as_str())
+        .collect();
+    let blocks: Vec<&str> = table
+        .factors
+        .iter()
+        .filter(|factor| factor.is_block)
+        .map(|factor| factor.name.as_str())
+        .collect();
+    let quoted = |names: &[&str]| {
+        names
+            .iter()
+            .map(|name| format!("'{name}'"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    match factorial {
+        Some(outcome) if factorial_read => {
+            let design = outcome
+                .two_level
+                .as_ref()
+                .map(|two| format!(" in a {} design", two.design.name))
+                .unwrap_or_default();
+            let blocked = if blocks.is_empty() {
+                String::new()
+            } else {
+                format!(" with {} as blocks", quoted(&blocks))
+            };
+            let reason = if treatments.len() >= 2 {
+                format!(
+                    "The factorial model leads because the trial crosses {} factors ({}){design}{blocked}: it separates each factor's effect and their interactions, which the comparison of all {n_conditions} combinations cannot; that comparison is kept as a detail.",
+                    treatments.len(),
+                    quoted(&treatments)
+                )
+            } else {
+                format!(
+                    "The factorial model leads because the trial has {} beside blocks ({}): the differences between blocks are taken out before the factor is judged; the one-way comparison is kept as a detail.",
+                    quoted(&treatments),
+                    quoted(&blocks)
+                )
+            };
+            LeadChoice {
+                analysis: LeadKind::Factorial,
+                reason,
+            }
+        }
+        Some(outcome) => LeadChoice {
+            analysis: LeadKind::OneWay,
+            reason: format!(
+                "The one-way comparison of the {n_conditions} combinations leads because the factorial model could not be fitted{}.",
+                outcome
+                    .notes
+                    .first()
+                    .map(|note| format!(" ({note})"))
+                    .unwrap_or_default()
+            ),
+        },
+        None => LeadChoice {
+            analysis: LeadKind::OneWay,
+            reason: if treatments.len() == 1 && blocks.is_empty() {
+                format!(
+                    "The one-way comparison leads because the trial has one factor ({}).",
+                    quoted(&treatments)
+                )
+            } else {
+                "The one-way comparison leads because the trial's factors do not form a factorial design.".to_string()
+            },
+        },
+    }
+}
+
+/// The one finding on replication a factorial trial can get: when the design offers no
+/// error to test the effects against (one run per combination, no centre points, no
+/// spare degrees of freedom and too few effects for Lenth's method).
+fn replication_finding(
+    table: &TrialTable,
+    response: &str,
+    reading: &engine::analysis::verdict::FactorialReading,
+) -> Option<Finding> {
+    if reading.verdict.conditions_differ.is_some() {
+        return None;
+    }
+    Some(Finding {
+        kind: FindingKind::TooFewValues,
+        sheet: table.sheet.clone(),
+        cell: None,
+        found: "no error to test against".into(),
+        action: "the effects are listed without tests".into(),
+        message: format!(
+            "the design has one run per combination and leaves no error for '{response}': repeat some runs, add centre points, or set 'interaction order' so that high-order interactions are pooled as error"
+        ),
+    })
+}
+
 /// Builds the per-condition values (in record order, with their records)
 /// that the comparisons and checks need, and runs them.
 fn assess_response(
@@ -388,6 +555,7 @@ fn assess_response(
     counts: &[usize],
     values: &[f64],
     settings: &Settings,
+    direction: Option<engine::options::Direction>,
 ) -> engine::analysis::assessment::Assessment {
     // The fit keeps conditions with at least one value, in their original order.
     let kept: Vec<usize> = (0..counts.len()).filter(|&index| counts[index] > 0).collect();
@@ -406,7 +574,7 @@ fn assess_response(
     }
     let options = engine::analysis::assessment::AssessmentOptions {
         family_confidence: settings.family_confidence,
-        direction: settings.direction,
+        direction,
         control: settings.control.clone(),
     };
     engine::analysis::assessment::assess(fit, &group_values, &group_records, &options)

@@ -11,7 +11,7 @@ use engine::analysis::oneway::OneWayFit;
 
 /// Version of the results document (JSON and workbook); bumped on any
 /// incompatible change to field names or meaning.
-pub const RESULTS_FORMAT_VERSION: &str = "1.0";
+pub const RESULTS_FORMAT_VERSION: &str = "1.1";
 
 /// The tool's name and version, as recorded in every result.
 pub const TOOL_NAME: &str = "trialyst";
@@ -99,6 +99,13 @@ pub struct ResponseResult {
     pub verdict: Option<engine::analysis::verdict::Verdict>,
     /// The factorial analysis, when the table has two or more treatment factors (or blocks).
     pub factorial: Option<engine::analysis::factorial::FactorialOutcome>,
+    /// Which analysis leads (gives `verdict`, the headline and the roll-up row), and why.
+    pub lead: LeadChoice,
+    /// The reading of the factorial outcome, when the factorial model leads.
+    pub factorial_reading: Option<engine::analysis::verdict::FactorialReading>,
+    /// The one-way comparison of all combinations, read as a detail, when the
+    /// factorial model leads (otherwise `verdict` is this reading).
+    pub one_way_verdict: Option<engine::analysis::verdict::Verdict>,
     /// The outcome.
     #[serde(flatten)]
     pub outcome: ResponseOutcome,
@@ -112,6 +119,25 @@ impl ResponseResult {
             ResponseOutcome::NotAnalysed { .. } => None,
         }
     }
+}
+
+/// The analysis that leads a response's reading.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum LeadKind {
+    /// The factorial model: effects of the factors and their interactions.
+    Factorial,
+    /// The one-way comparison of the conditions.
+    OneWay,
+}
+
+/// The lead analysis of a response and the reason, in one plain sentence.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LeadChoice {
+    /// Which analysis leads.
+    pub analysis: LeadKind,
+    /// Why, in one sentence.
+    pub reason: String,
 }
 
 /// Time spent per stage, in milliseconds.

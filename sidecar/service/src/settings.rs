@@ -37,8 +37,11 @@ pub struct Settings {
     pub family_confidence: Option<f64>,
     /// Linear combinations of condition means, in the contrast syntax.
     pub contrasts: Vec<String>,
-    /// Which way is better.
+    /// Which way is better, for every response not named in `response_directions`.
     pub direction: Option<Direction>,
+    /// Which way is better for named responses (`direction` rows such as
+    /// `Leak rate: lower`); these win over `direction` from the same source.
+    pub response_directions: Vec<ResponseDirection>,
     /// The control condition for comparisons with a control.
     pub control: Option<String>,
     /// Folder for results files.
@@ -54,6 +57,71 @@ pub struct Settings {
     pub plan_seed: Option<u64>,
     /// The number of runs in the plan.
     pub plan_runs: Option<usize>,
+}
+
+/// The direction of one named response.
+#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize)]
+pub struct ResponseDirection {
+    /// The response's header, as written by the user (compared without regard to
+    /// case, and with or without the unit in brackets at its end).
+    pub response: String,
+    /// Which way is better for it.
+    pub direction: Direction,
+}
+
+/// What a `direction` value holds: one direction for every response, or a direction
+/// for a named response.
+#[derive(Debug, Clone, PartialEq)]
+pub enum DirectionEntry {
+    /// `lower`: every response.
+    All(Direction),
+    /// `Leak rate: lower` (or `Leak rate = lower`): one response.
+    Response(ResponseDirection),
+}
+
+/// Reads a `direction` value: one or more entries separated by `;` or line breaks, each
+/// a direction (`higher`, `lower`, `target 12.5`) for every response, or a response's
+/// name, `:` or `=`, and its direction (`Leak rate: lower`).
+///
+/// Returns the entries, or the first entry that could not be read.
+pub fn parse_direction_entries(value: &str) -> Result<Vec<DirectionEntry>, String> {
+    let mut entries = Vec::new();
+    for part in value.split([';', '\n']).map(str::trim).filter(|part| !part.is_empty()) {
+        if let Some(direction) = parse_direction(part) {
+            entries.push(DirectionEntry::All(direction));
+            continue;
+        }
+        let split = part.rfind([':', '=']).map(|at| (&part[..at], &part[at + 1..]));
+        match split {
+            Some((name, direction_text)) if !name.trim().is_empty() => match parse_direction(direction_text) {
+                Some(direction) => entries.push(DirectionEntry::Response(ResponseDirection {
+                    response: name.trim().to_string(),
+                    direction,
+                })),
+                None => return Err(part.to_string()),
+            },
+            _ => return Err(part.to_string()),
+        }
+    }
+    Ok(entries)
+}
+
+/// A response header without the unit in brackets at its end, trimmed and in lower case.
+fn response_key(name: &str) -> String {
+    let trimmed = name.trim();
+    let without_unit = match crate::orchestrate::unit_of(trimmed) {
+        Some(_) => trimmed
+            .rfind(['(', '['])
+            .map_or(trimmed, |start| trimmed[..start].trim_end()),
+        None => trimmed,
+    };
+    without_unit.to_lowercase()
+}
+
+/// Whether a name written in the settings means the response with this header: the
+/// same text without regard to case, with or without the unit at its end.
+pub fn names_response(written: &str, header: &str) -> bool {
+    written.trim().eq_ignore_ascii_case(header.trim()) || response_key(written) == response_key(header)
 }
 
 /// A settings value that could not be used.
@@ -232,9 +300,11 @@ impl Settings {
                         settings.contrasts.push(value.to_string());
                     }
                 }
-                "direction" => match parse_direction(value) {
-                    Some(direction) => settings.direction = Some(direction),
-                    None => errors.push(bad("higher, lower, or target followed by a number")),
+                "direction" | "directions" => match parse_direction_entries(value) {
+                    Ok(entries) => settings.add_directions(entries),
+                    Err(_) => errors.push(bad(
+                        "higher, lower, or target followed by a number; or, per response, the response's name, a colon and its direction (Leak rate: lower), several separated by ;",
+                    )),
                 },
                 "control" => settings.control = Some(value.to_string()).filter(|text| !text.is_empty()),
                 "output folder" => settings.out_dir = Some(value.to_string()).filter(|text| !text.is_empty()),
@@ -285,6 +355,19 @@ impl Settings {
             confidence: pick(self.confidence, &lower.confidence),
             family_confidence: pick(self.family_confidence, &lower.family_confidence),
             contrasts: pick_list(self.contrasts, &lower.contrasts),
+            response_directions: {
+                // A source's own entries win; a lower source's entries stand only where
+                // this source gave no direction for every response.
+                let mut merged = self.response_directions.clone();
+                if self.direction.is_none() {
+                    for entry in &lower.response_directions {
+                        if !merged.iter().any(|own| names_response(&own.response, &entry.response)) {
+                            merged.push(entry.clone());
+                        }
+                    }
+                }
+                merged
+            },
             direction: pick(self.direction, &lower.direction),
             control: pick(self.control, &lower.control),
             out_dir: pick(self.out_dir, &lower.out_dir),
@@ -293,6 +376,31 @@ impl Settings {
             plan_seed: pick(self.plan_seed, &lower.plan_seed),
             plan_runs: pick(self.plan_runs, &lower.plan_runs),
         }
+    }
+
+    /// Adds directions read by [`parse_direction_entries`]: a direction for every
+    /// response replaces the earlier one; a response's own replaces its earlier own.
+    pub fn add_directions(&mut self, entries: Vec<DirectionEntry>) {
+        for entry in entries {
+            match entry {
+                DirectionEntry::All(direction) => self.direction = Some(direction),
+                DirectionEntry::Response(named) => {
+                    self.response_directions
+                        .retain(|earlier| !names_response(&earlier.response, &named.response));
+                    self.response_directions.push(named);
+                }
+            }
+        }
+    }
+
+    /// The direction in force for a response: its own entry, else the one for every
+    /// response, else `None`.
+    pub fn direction_for(&self, response: &str) -> Option<Direction> {
+        self.response_directions
+            .iter()
+            .find(|entry| names_response(&entry.response, response))
+            .map(|entry| entry.direction)
+            .or(self.direction)
     }
 
     /// The confidence level in force.
@@ -353,5 +461,33 @@ mod tests {
             Settings::from_pairs_lenient(pairs(&[("Interaction order", "1"), ("interaction_order", "x")]));
         assert_eq!(read.interaction_order, Some(1));
         assert_eq!(errors.len(), 1);
+    }
+
+    #[test]
+    fn directions_per_response_layer_by_source() {
+        let sheet = Settings::from_pairs(pairs(&[
+            ("direction", "higher"),
+            ("direction", "Leak rate: lower"),
+            ("Direction", "Thickness (mm) = target 2.5; Strength: higher"),
+        ]))
+        .expect("valid");
+        assert_eq!(sheet.direction, Some(Direction::HigherIsBetter));
+        assert_eq!(sheet.direction_for("Leak rate (ccm)"), Some(Direction::LowerIsBetter));
+        assert_eq!(sheet.direction_for("thickness (mm)"), Some(Direction::Target(2.5)));
+        assert_eq!(sheet.direction_for("Thickness"), Some(Direction::Target(2.5)));
+        assert_eq!(sheet.direction_for("Gloss"), Some(Direction::HigherIsBetter));
+        // A command line naming one response keeps the sheet's other entries.
+        let command_line = Settings::from_pairs(pairs(&[("direction", "Strength=lower")])).expect("valid");
+        let merged = command_line.over(&sheet);
+        assert_eq!(merged.direction_for("Strength"), Some(Direction::LowerIsBetter));
+        assert_eq!(merged.direction_for("Leak rate"), Some(Direction::LowerIsBetter));
+        // A command line direction for every response overrides the sheet's named ones.
+        let everything = Settings::from_pairs(pairs(&[("direction", "target 7")])).expect("valid");
+        let merged = everything.over(&sheet);
+        assert_eq!(merged.direction_for("Leak rate"), Some(Direction::Target(7.0)));
+        let (_, errors) = Settings::from_pairs_lenient(pairs(&[("direction", "Leak rate: sideways")]));
+        assert_eq!(errors.len(), 1);
+        assert!(errors[0].to_string().contains("Leak rate: lower"), "{}", errors[0]);
+        assert_eq!(Settings::default().direction_for("Gloss"), None);
     }
 }

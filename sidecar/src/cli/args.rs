@@ -5,7 +5,7 @@ use std::path::PathBuf;
 use clap::Args;
 use workbook_io::layout::Layout;
 
-use service::settings::{parse_confidence, parse_direction, Settings};
+use service::settings::{parse_confidence, parse_direction_entries, Settings};
 
 /// `trialyst serve`.
 #[derive(Debug, Args)]
@@ -201,9 +201,10 @@ pub struct AnalysisArgs {
     /// A linear combination of condition means, e.g. "new vs old: (A + B)/2 - C"; repeatable.
     #[arg(long)]
     pub contrast: Vec<String>,
-    /// Which way the response is better: higher, lower, or "target 12.5".
+    /// Which way a response is better: higher, lower, or "target 12.5" for every response,
+    /// or per response as "Leak rate=lower" (also "Leak rate: lower"); repeatable.
     #[arg(long)]
-    pub direction: Option<String>,
+    pub direction: Vec<String>,
     /// Table options.
     #[command(flatten)]
     pub table: TableArgs,
@@ -275,12 +276,13 @@ pub fn analysis_settings(args: &AnalysisArgs) -> Result<Settings, UsageError> {
             ))
         })?);
     }
-    if let Some(text) = &args.direction {
-        settings.direction = Some(parse_direction(text).ok_or_else(|| {
+    for text in &args.direction {
+        let entries = parse_direction_entries(text).map_err(|entry| {
             UsageError(format!(
-                "--direction must be higher, lower or \"target N\", not '{text}'"
+                "--direction must be higher, lower or \"target N\", or a response's name, = and one of these (\"Leak rate=lower\"), not '{entry}'"
             ))
-        })?);
+        })?;
+        settings.add_directions(entries);
     }
     settings.contrasts = args.contrast.clone();
     Ok(settings)

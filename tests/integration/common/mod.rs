@@ -3,6 +3,7 @@
 //! account on failure, reading results workbooks back, and the tolerances.
 
 pub mod blessing;
+pub mod corpus;
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};

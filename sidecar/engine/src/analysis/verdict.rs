@@ -8,11 +8,13 @@ use serde::Serialize;
 
 use crate::analysis::assessment::{Assessment, LeadAnalysis};
 use crate::analysis::comparisons::PairFamily;
+use crate::analysis::factorial::{CellLine, FactorInfo, FactorialOutcome, TwoLevelEffect};
 use crate::analysis::letters::alike_sets;
 use crate::analysis::oneway::{OneWayFit, PairDifference};
+use crate::options::Direction;
 
 /// The reading of one response.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Verdict {
     /// True when the F test rejects equal means at the confidence level; None when undefined.
     pub conditions_differ: Option<bool>,
@@ -93,7 +95,14 @@ pub fn lead_name(assessment: Option<&Assessment>) -> &'static str {
 pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment: Option<&Assessment>) -> Verdict {
     let percent = round_for_text(fit.confidence * 100.0, 3);
     let alpha = 1.0 - fit.confidence;
-    let p = lead_p(fit, assessment);
+    // With one value per condition there is nothing within conditions to judge by, and a
+    // rank test over single values must not decide it either.
+    let single_values = fit.conditions.iter().all(|condition| condition.n <= 1);
+    let p = if single_values {
+        f64::NAN
+    } else {
+        lead_p(fit, assessment)
+    };
     let conditions_differ = if p.is_nan() { None } else { Some(p < alpha) };
     let headline = match conditions_differ {
         Some(true) => format!(
@@ -265,6 +274,319 @@ pub fn told_apart_sentence(fit: &OneWayFit, family: &PairFamily) -> String {
     sentence
 }
 
+/// The size of the largest effect a factorial reading found, in the response's units.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct EffectSize {
+    /// What moves: a factor from one level to another, or an interaction.
+    pub label: String,
+    /// The change in the response's units.
+    pub size: f64,
+    /// Lower end of its interval, when there is one.
+    pub low: Option<f64>,
+    /// Upper end of its interval.
+    pub high: Option<f64>,
+}
+
+/// The reading of a factorial outcome: the verdict and the figures a roll-up row shows.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FactorialReading {
+    /// The verdict: headline and details.
+    pub verdict: Verdict,
+    /// Which analysis gave the tests: `two-level effects` or `factorial model (Type III)`.
+    pub analysis: String,
+    /// The factors and interactions found to matter, in the user's words.
+    pub matter: Vec<String>,
+    /// The smallest p-value among the treatment terms tested; `None` when none was tested.
+    pub smallest_p: Option<f64>,
+    /// The largest effect found to matter, with its interval.
+    pub largest: Option<EffectSize>,
+    /// The best settings among the combinations run, for the direction given; `None`
+    /// with no direction (the reading then asks for one) or no cell means.
+    pub best_settings: Option<String>,
+}
+
+/// Reads a factorial outcome in plain words: which factors and interactions matter, by
+/// how much in the response's units with intervals, and the best settings among those
+/// run (with no direction: the highest and lowest, and a request for a direction).
+///
+/// Returns `None` when the outcome holds neither a k-way model nor a two-level analysis
+/// to read (the one-way comparison then leads).
+///
+/// The effects are taken from the two-level analysis when there is one (Yates's effects
+/// tested on pure error, or judged by Lenth's method when unreplicated), otherwise from
+/// the k-way model's Type III tests, where a factor's size is the spread of its
+/// least-squares means. Block terms are never read as effects.
+pub fn read_factorial(
+    response: &str,
+    unit: Option<&str>,
+    outcome: &FactorialOutcome,
+    direction: Option<Direction>,
+) -> Option<FactorialReading> {
+    let percent = round_for_text(outcome.confidence * 100.0, 3);
+    let alpha = 1.0 - outcome.confidence;
+    let two_level = outcome
+        .two_level
+        .as_ref()
+        .filter(|two| two.grand_mean.is_some() && !two.effects.is_empty());
+    let model = outcome.model.as_ref();
+    if two_level.is_none() && model.is_none() {
+        return None;
+    }
+    let blocks: Vec<&str> = outcome
+        .factors
+        .iter()
+        .filter(|factor| factor.is_block)
+        .map(|factor| factor.name.as_str())
+        .collect();
+    let treatments: Vec<&FactorInfo> = outcome.factors.iter().filter(|factor| !factor.is_block).collect();
+    let mut matter: Vec<String> = Vec::new();
+    let mut sizes: Vec<EffectSize> = Vec::new();
+    let mut smallest_p: Option<f64> = None;
+    let mut any_test = false;
+    let analysis;
+    if let Some(two) = two_level {
+        analysis = if two.lenth.is_some() && two.pure_error_df == 0 {
+            "two-level effects (Lenth's method)".to_string()
+        } else {
+            "two-level effects".to_string()
+        };
+        let mut active: Vec<&TwoLevelEffect> = Vec::new();
+        for effect in &two.effects {
+            if effect.p_value.is_some() || effect.lenth_t.is_some() {
+                any_test = true;
+            }
+            if let Some(p) = effect.p_value {
+                smallest_p = Some(smallest_p.map_or(p, |smallest: f64| smallest.min(p)));
+            }
+            if effect.active
+                && !blocks
+                    .iter()
+                    .any(|block| effect.term.split(':').any(|part| part == *block))
+            {
+                active.push(effect);
+            }
+        }
+        active.sort_by(|a, b| b.effect.abs().total_cmp(&a.effect.abs()));
+        for effect in active {
+            let words = effect.term.replace(':', " × ");
+            matter.push(words.clone());
+            let coding = treatments
+                .iter()
+                .find(|factor| factor.name == effect.term)
+                .and_then(|factor| factor.coding.as_ref());
+            let label = match coding {
+                Some(coding) => format!("{} from {} to {}", effect.term, coding.low, coding.high),
+                None => format!("the interaction {words}"),
+            };
+            sizes.push(EffectSize {
+                label,
+                size: effect.effect,
+                low: effect.low,
+                high: effect.high,
+            });
+        }
+    } else {
+        let model = model?;
+        analysis = "factorial model (Type III)".to_string();
+        for line in &model.type_iii {
+            if blocks.contains(&line.source.as_str()) {
+                continue;
+            }
+            if let Some(p) = line.p_value {
+                any_test = true;
+                smallest_p = Some(smallest_p.map_or(p, |smallest: f64| smallest.min(p)));
+                if p < alpha {
+                    matter.push(line.source.replace(':', " × "));
+                }
+            }
+        }
+        for means in &model.ls_means {
+            if !matter.contains(&means.factor) {
+                continue;
+            }
+            let estimable: Vec<(&str, f64)> = means
+                .means
+                .iter()
+                .filter_map(|line| line.estimate.map(|estimate| (line.label.as_str(), estimate)))
+                .collect();
+            let lowest = estimable.iter().min_by(|a, b| a.1.total_cmp(&b.1));
+            let highest = estimable.iter().max_by(|a, b| a.1.total_cmp(&b.1));
+            if let (Some(lowest), Some(highest)) = (lowest, highest) {
+                if lowest.0 != highest.0 {
+                    sizes.push(EffectSize {
+                        label: format!(
+                            "{} from {} (lowest average) to {} (highest)",
+                            means.factor, lowest.0, highest.0
+                        ),
+                        size: highest.1 - lowest.1,
+                        low: None,
+                        high: None,
+                    });
+                }
+            }
+        }
+        sizes.sort_by(|a, b| b.size.abs().total_cmp(&a.size.abs()));
+    }
+    let largest = sizes.first().cloned();
+    let conditions_differ = if !matter.is_empty() {
+        Some(true)
+    } else if any_test {
+        Some(false)
+    } else {
+        None
+    };
+    let size_text = |size: &EffectSize| {
+        let change = if size.size >= 0.0 { "raises" } else { "lowers" };
+        // A lowering is said as a positive amount, and so is its interval.
+        let bounds = match (size.low, size.high) {
+            (Some(low), Some(high)) if size.size < 0.0 && !size.label.starts_with("the interaction") => {
+                (Some(-high), Some(-low))
+            }
+            other => other,
+        };
+        let interval = match bounds {
+            (Some(low), Some(high)) => format!(
+                " ({percent}% interval {} to {})",
+                with_unit(low, unit),
+                with_unit(high, unit)
+            ),
+            _ => String::new(),
+        };
+        if size.label.starts_with("the interaction") {
+            format!("{} changes it by {}{interval}", size.label, with_unit(size.size, unit))
+        } else {
+            format!(
+                "moving {} {change} it by {}{interval}",
+                size.label,
+                with_unit(size.size.abs(), unit)
+            )
+        }
+    };
+    let headline = match conditions_differ {
+        Some(true) => {
+            let verb = if matter.len() == 1 { "affects" } else { "affect" };
+            let mut sentence = format!(
+                "{} {verb} {response} at {percent}% confidence (factorial model)",
+                join_words(&matter)
+            );
+            if let Some(largest) = &largest {
+                sentence.push_str(&format!("; the largest: {}", size_text(largest)));
+            }
+            sentence.push('.');
+            sentence
+        }
+        Some(false) => format!(
+            "The factorial model does not show that any of the {} factors or their interactions affects {response} at {percent}% confidence{}; differences this size could be chance.",
+            treatments.len(),
+            smallest_p.map_or_else(String::new, |p| format!(" (smallest p = {})", p_for_text(p)))
+        ),
+        None => format!(
+            "Whether the factors affect {response} cannot be judged: the factorial model has no error to test against (no replicates, centre points or spare degrees of freedom)."
+        ),
+    };
+    let mut details = Vec::new();
+    for size in sizes.iter().skip(1) {
+        let text = size_text(size);
+        let mut chars = text.chars();
+        let capitalised = chars
+            .next()
+            .map(|first| first.to_uppercase().collect::<String>() + chars.as_str())
+            .unwrap_or_default();
+        details.push(format!("{capitalised}."));
+    }
+    for line in &outcome.summary {
+        if direction.is_none() && (line.starts_with("Recommended settings") || line.contains(" is best (")) {
+            continue;
+        }
+        details.push(line.clone());
+    }
+    let cells: Vec<&CellLine> = model
+        .map(|model| {
+            model
+                .cells
+                .iter()
+                .filter(|cell| cell.n > 0 && cell.mean.is_finite())
+                .collect()
+        })
+        .unwrap_or_default();
+    let describe = |cell: &CellLine| {
+        outcome
+            .factors
+            .iter()
+            .zip(&cell.levels)
+            .filter(|(factor, _)| !factor.is_block)
+            .map(|(factor, level)| format!("{} {level}", factor.name))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    let mut best_settings = None;
+    match direction {
+        None => {
+            let highest = cells.iter().max_by(|a, b| a.mean.total_cmp(&b.mean));
+            let lowest = cells.iter().min_by(|a, b| a.mean.total_cmp(&b.mean));
+            if let (Some(highest), Some(lowest)) = (highest, lowest) {
+                details.push(format!(
+                    "Highest {response} among the combinations run: {} ({}); lowest: {} ({}). No best settings are chosen without a direction: set one for {response} (higher, lower or a target).",
+                    describe(highest),
+                    with_unit(highest.mean, unit),
+                    describe(lowest),
+                    with_unit(lowest.mean, unit)
+                ));
+            }
+        }
+        Some(direction) => {
+            let better = |candidate: f64, incumbent: f64| match direction {
+                Direction::HigherIsBetter => candidate > incumbent,
+                Direction::LowerIsBetter => candidate < incumbent,
+                Direction::Target(target) => (candidate - target).abs() < (incumbent - target).abs(),
+            };
+            let mut best: Option<&CellLine> = None;
+            for cell in &cells {
+                if best.is_none_or(|incumbent| better(cell.mean, incumbent.mean)) {
+                    best = Some(cell);
+                }
+            }
+            if let Some(best) = best {
+                let settings = describe(best);
+                details.push(format!(
+                    "Best settings among the combinations run: {settings} (average {}, from {} value(s)).",
+                    with_unit(best.mean, unit),
+                    best.n
+                ));
+                best_settings = Some(settings);
+            }
+            if let Some(prediction) = outcome.reduced.as_ref().and_then(|reduced| reduced.best.as_ref()) {
+                if !prediction.was_run {
+                    details.push(
+                        "The model's recommended settings were not among the runs: their prediction lies outside the trial and needs a confirming run.".to_string(),
+                    );
+                }
+            }
+        }
+    }
+    Some(FactorialReading {
+        verdict: Verdict {
+            conditions_differ,
+            headline,
+            details,
+        },
+        analysis,
+        matter,
+        smallest_p,
+        largest,
+        best_settings,
+    })
+}
+
+/// Joins words as a list: `a`, `a and b`, `a, b and c`.
+fn join_words(words: &[String]) -> String {
+    match words {
+        [] => String::new(),
+        [only] => only.clone(),
+        [init @ .., last] => format!("{} and {last}", init.join(", ")),
+    }
+}
+
 /// The pair with the largest absolute difference of means.
 pub fn largest_difference(fit: &OneWayFit) -> Option<&PairDifference> {
     fit.pairs
@@ -343,5 +665,84 @@ mod tests {
         assert!(sentence_for(&spread).ends_with("every condition differs from every other."));
         let alike = [10.0, 10.1, 9.9, 10.0, 10.2, 9.8, 10.1, 9.9, 10.0, 9.9, 10.1, 10.0];
         assert!(sentence_for(&alike).ends_with("could not tell any of the conditions apart."));
+    }
+
+    #[test]
+    fn single_values_are_never_judged_by_a_rank_test() {
+        let names = vec!["a".to_string(), "b".to_string(), "c".to_string()];
+        let fit = crate::analysis::oneway::fit_one_way(&names, &[0, 1, 2], &[1.0, 5.0, 9.0], 0.95, &[]).expect("fits");
+        let verdict = read_fit("Gloss", None, &fit, None);
+        assert_eq!(verdict.conditions_differ, None);
+        assert!(verdict.headline.contains("cannot be judged"), "{}", verdict.headline);
+    }
+
+    /// A replicated 2^2 built so that the effects are known by arithmetic: a two-level
+    /// effect is the mean at the high level minus the mean at the low level (the
+    /// definition used throughout the NIST/SEMATECH e-Handbook's two-level designs; common
+    /// practice). Here Temperature's is 4 exactly and
+    /// Pressure's and the interaction's are 0 exactly, each cell holding the same two
+    /// values apart from Temperature's shift.
+    #[test]
+    fn reads_a_factorial_by_its_effects_and_its_direction() {
+        use crate::analysis::factorial::{analyse_factorial, FactorData, FactorialData, FactorialOptions};
+        let temperature = vec!["150".to_string(), "180".to_string()];
+        let pressure = vec!["2".to_string(), "4".to_string()];
+        let temperature_of = [0, 0, 1, 1, 0, 0, 1, 1];
+        let pressure_of = [0, 0, 0, 0, 1, 1, 1, 1];
+        let values = [10.0, 10.2, 14.0, 14.2, 10.0, 10.2, 14.0, 14.2];
+        let data = FactorialData {
+            factors: vec![
+                FactorData {
+                    name: "Temperature",
+                    levels: &temperature,
+                    level_of_record: &temperature_of,
+                    is_block: false,
+                },
+                FactorData {
+                    name: "Pressure",
+                    levels: &pressure,
+                    level_of_record: &pressure_of,
+                    is_block: false,
+                },
+            ],
+            response_name: "Leak rate (ccm)",
+            values: &values,
+        };
+        let outcome = analyse_factorial(&data, &FactorialOptions::default()).expect("a factorial outcome");
+        let reading = read_factorial("Leak rate (ccm)", Some("ccm"), &outcome, Some(Direction::LowerIsBetter))
+            .expect("a reading");
+        assert_eq!(reading.matter, vec!["Temperature".to_string()]);
+        assert_eq!(reading.verdict.conditions_differ, Some(true));
+        let largest = reading.largest.as_ref().expect("a largest effect");
+        assert!((largest.size - 4.0).abs() < 1e-9, "{largest:?}");
+        assert!(
+            reading
+                .verdict
+                .headline
+                .starts_with("Temperature affects Leak rate (ccm)"),
+            "{}",
+            reading.verdict.headline
+        );
+        assert!(
+            reading.verdict.headline.contains("4 ccm"),
+            "{}",
+            reading.verdict.headline
+        );
+        let best = reading
+            .best_settings
+            .as_deref()
+            .expect("best settings with a direction");
+        assert!(best.contains("Temperature 150"), "{best}");
+        let undirected = read_factorial("Leak rate (ccm)", Some("ccm"), &outcome, None).expect("a reading");
+        assert_eq!(undirected.best_settings, None);
+        assert!(
+            undirected
+                .verdict
+                .details
+                .iter()
+                .any(|line| line.contains("No best settings are chosen without a direction")),
+            "{:?}",
+            undirected.verdict.details
+        );
     }
 }

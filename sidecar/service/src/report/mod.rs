@@ -255,6 +255,8 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
         if let Some(verdict) = &response.verdict {
             summary.paragraph(summary_row, 0, verdict.headline.clone(), Look::Verdict, SUMMARY_WIDTH);
             summary_row += 1;
+            summary.paragraph(summary_row, 0, response.lead.reason.clone(), Look::Note, SUMMARY_WIDTH);
+            summary_row += 1;
             for line in &verdict.details {
                 summary.paragraph(summary_row, 0, line.clone(), Look::Plain, SUMMARY_WIDTH);
                 summary_row += 1;

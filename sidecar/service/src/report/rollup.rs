@@ -117,6 +117,9 @@ fn response_row(entry: &RollupEntry<'_>, response: &ResponseResult, findings: us
         row.push(link);
         return row;
     };
+    if let (crate::LeadKind::Factorial, Some(reading)) = (response.lead.analysis, &response.factorial_reading) {
+        return factorial_row(entry, response, fit, reading, findings, link);
+    }
     let conditions = clip(
         fit.conditions
             .iter()
@@ -170,6 +173,75 @@ fn response_row(entry: &RollupEntry<'_>, response: &ResponseResult, findings: us
         difference,
         low,
         high,
+    ]
+    .into_iter()
+    .chain(row_end(response, findings, link))
+    .collect()
+}
+
+/// The row of a response led by the factorial model: the factors, the smallest p among
+/// the treatment terms, the best settings among the combinations run and the largest
+/// effect with its interval.
+fn factorial_row(
+    entry: &RollupEntry<'_>,
+    response: &ResponseResult,
+    fit: &engine::analysis::oneway::OneWayFit,
+    reading: &engine::analysis::verdict::FactorialReading,
+    findings: usize,
+    link: Value,
+) -> Vec<Value> {
+    let places = super::decimals_for(fit);
+    let number = |value: Option<f64>| {
+        value.map_or(Value::Blank, |value| {
+            Value::Number(value, NumberFormat::Decimals(places))
+        })
+    };
+    let (effect_text, size, low, high) = match &reading.largest {
+        Some(largest) => (
+            Value::text(largest.label.clone()),
+            number(Some(largest.size)),
+            number(largest.low),
+            number(largest.high),
+        ),
+        None => (Value::Blank, Value::Blank, Value::Blank, Value::Blank),
+    };
+    let runs = response
+        .factorial
+        .as_ref()
+        .map_or(fit.n_total, |outcome| outcome.n_values as u64);
+    vec![
+        Value::text(entry.file.clone()),
+        Value::text(response.name.clone()),
+        Value::text(clip(
+            format!(
+                "{} ({} combinations run)",
+                response.condition_factor,
+                fit.conditions.len()
+            ),
+            300,
+        )),
+        Value::integer(runs as f64),
+        Value::text(format!("factorial model, {}", reading.analysis)),
+        reading.smallest_p.map_or(Value::Blank, Value::p_value),
+        Value::text(
+            reading
+                .best_settings
+                .clone()
+                .unwrap_or_else(|| "(set a direction to choose)".into()),
+        ),
+        effect_text,
+        size,
+        low,
+        high,
+    ]
+    .into_iter()
+    .chain(row_end(response, findings, link))
+    .collect()
+}
+
+/// The last cells of an analysed response's row: the headline, the findings and the link.
+fn row_end(response: &ResponseResult, findings: usize, link: Value) -> [Value; 3] {
+    [
         Value::text(
             response
                 .verdict
