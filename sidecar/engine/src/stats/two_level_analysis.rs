@@ -1320,4 +1320,99 @@ mod tests {
         assert_eq!(order.cell_of_run, [0, 2, 1, 3]);
         assert_eq!(order.order, [0, 2, 1, 3]);
     }
+
+    /// A 2^3 run twice, each replicate split into two blocks on ABC (four blocks), with
+    /// centre points 3, 1, 2, 2 in the blocks. Model with known effects:
+    /// y = 10 + 2 A + B + shift[block] + noise, shifts 0, 5, -3, 8, no curvature; noise
+    /// bounded by 0.05.
+    #[test]
+    fn blocks_keep_shifts_out_of_pure_error_and_curvature() {
+        let noise = |i: usize| 0.05 * (((i * 7919) % 13) as f64 - 6.0) / 6.0;
+        let shifts = [0.0, 5.0, -3.0, 8.0];
+        let full = DefiningRelation::full_factorial(3).unwrap().runs();
+        let (mut runs, mut responses, mut blocks) = (Vec::new(), Vec::new(), Vec::new());
+        for replicate in 0..2 {
+            for run in &full {
+                let block = 2 * replicate + usize::from(run[0] * run[1] * run[2] > 0.0);
+                blocks.push(block);
+                responses.push(10.0 + 2.0 * run[0] + run[1] + shifts[block] + noise(responses.len()));
+                runs.push(run.clone());
+            }
+        }
+        let mut centre_by_block: Vec<Vec<f64>> = vec![Vec::new(); 4];
+        for (block, count) in [3usize, 1, 2, 2].into_iter().enumerate() {
+            for _ in 0..count {
+                let y = 10.0 + shifts[block] + noise(responses.len());
+                centre_by_block[block].push(y);
+                blocks.push(block);
+                responses.push(y);
+                runs.push(vec![0.0; 3]);
+            }
+        }
+        let layout = RunLayout {
+            block_of_run: &blocks,
+            is_centre: &[],
+        };
+        let analysis = analyse_two_level_in_layout(&runs, &responses, &layout, &AnalysisOptions::default()).unwrap();
+        // ABC is constant within every block: set apart, not an effect.
+        let confounded: Vec<Word> = analysis
+            .confounded_with_blocks
+            .iter()
+            .map(|e| e.chain.leader())
+            .collect();
+        assert_eq!(confounded, [word("ABC")]);
+        assert_eq!(analysis.effects.len(), 6);
+        // Pure error by its definition (common practice): centre points about their own
+        // block's mean (each corner is run once per block), df 2 + 0 + 1 + 1.
+        let ss: f64 = centre_by_block
+            .iter()
+            .map(|group| {
+                let mean = group.iter().sum::<f64>() / group.len() as f64;
+                group.iter().map(|y| (y - mean).powi(2)).sum::<f64>()
+            })
+            .sum();
+        assert_eq!(analysis.pure_error_df, 4);
+        assert!(close(analysis.pure_error_variance.unwrap(), ss / 4.0, 1e-9));
+        let a = analysis.effects.iter().find(|e| e.chain.leader() == word("A")).unwrap();
+        assert!((a.effect - 4.0).abs() < 0.11);
+        // No curvature in the model: the within-block comparison finds none, while the
+        // plain difference of means is pulled by the uneven centre points across shifts.
+        let curvature = analysis.curvature.unwrap();
+        assert!(curvature.difference.abs() < 0.11, "{}", curvature.difference);
+        assert_eq!(curvature.pure_error_df, 4);
+        assert!((curvature.factorial_mean - curvature.centre_mean).abs() > 0.5);
+        // Without the blocks the shifts fall into the pure error.
+        let plain = analyse_two_level(&runs, &responses, &AnalysisOptions::default()).unwrap();
+        assert!(plain.pure_error_variance.unwrap() > 10.0);
+        assert!(plain.confounded_with_blocks.is_empty());
+    }
+
+    /// Centre runs repeated at each level of a factor without a middle level (the third
+    /// column, a text factor). Model with known effects: y = 5 + A + 3 C - 1.5 [centre],
+    /// exact: the strata (C low, C high) compare the corners and centres at the same C.
+    #[test]
+    fn centre_runs_at_both_levels_of_a_factor_without_a_middle() {
+        let full = DefiningRelation::full_factorial(3).unwrap().runs();
+        let mut runs = full.clone();
+        let mut responses: Vec<f64> = full.iter().map(|r| 5.0 + r[0] + 3.0 * r[2]).collect();
+        let mut is_centre = vec![false; full.len()];
+        for c in [-1.0, 1.0, 1.0] {
+            runs.push(vec![0.0, 0.0, c]);
+            responses.push(5.0 + 3.0 * c - 1.5);
+            is_centre.push(true);
+        }
+        let layout = RunLayout {
+            block_of_run: &[],
+            is_centre: &is_centre,
+        };
+        let analysis = analyse_two_level_in_layout(&runs, &responses, &layout, &AnalysisOptions::default()).unwrap();
+        let curvature = analysis.curvature.unwrap();
+        // Corners minus centre within each level of C: 1.5 exactly (hand arithmetic);
+        // the unstratified difference would be 1.5 - 3 * (2 - 1) / 3 = 0.5.
+        assert!(close(curvature.difference, 1.5, 1e-12));
+        assert!(close(curvature.factorial_mean - curvature.centre_mean, 0.5, 1e-12));
+        // Pure error: the two centre runs at C high agree exactly (1 df, zero spread).
+        assert_eq!(analysis.pure_error_df, 1);
+        assert!(close(analysis.effects[0].effect, 2.0, 1e-12));
+    }
 }

@@ -19,8 +19,22 @@
 //! higher number +1; a numeric factor with three levels whose middle level lies
 //! half-way between the others counts as two-level with centre points (the middle level
 //! is coded 0). A factor with text labels has its labels sorted (as text, ignoring
-//! case) and the first is coded -1. Runs with every treatment factor at its middle level
-//! are centre points; they enter the curvature test and the pure error, not the effects.
+//! case) and the first is coded -1. Runs with every numeric treatment factor at its
+//! middle level are centre points (a text factor, which has no middle level, may stand at
+//! either label, so centre runs repeated at each label count); they enter the curvature
+//! test and the pure error, not the effects.
+//!
+//! Blocks: the two-level analysis takes its pure error within blocks and compares corners
+//! with centre points within blocks; an effect whose column is constant within every
+//! block is named as confounded with blocks and is never read as an effect or used for
+//! settings. The error the effects are judged by is said in words
+//! ([`TwoLevelOutcome::error`]): pure error from replicates and centre points, else the
+//! pooled interactions of three or more factors, else Lenth's method.
+//!
+//! Settings: with a direction, the best settings are chosen among the combinations run,
+//! and a better combination not run is given apart as a prediction outside the trial;
+//! with no direction nothing is called best, and the outcome names the combinations run
+//! with the highest and the lowest mean.
 
 mod cells;
 mod coding;
@@ -132,10 +146,12 @@ impl Default for FactorialOptions {
 ///
 /// # Remarks
 /// Cells are summarised with the one-way accumulator (exact decimal or compensated
-/// sums); the k-way model is [`fit_factorial`]; the two-level part is
-/// [`analyse_two_level`](crate::stats::two_level_analysis::analyse_two_level) on the
-/// runs coded ±1 (see the module documentation for the coding); the reduced model is a weighted least-squares fit to the cell means by
-/// Householder QR (never the normal equations). Checked end to end against the
+/// sums); the k-way model is
+/// [`fit_factorial`](crate::stats::linear_model::fit_factorial); the two-level part is
+/// [`analyse_two_level_in_layout`](crate::stats::two_level_analysis::analyse_two_level_in_layout)
+/// on the runs coded ±1 with their blocks and centre runs (see the module documentation
+/// for the coding); the reduced model (blocks included) is a weighted least-squares fit
+/// to the cell means by Householder QR (never the normal equations). Checked end to end against the
 /// NIST/SEMATECH e-Handbook eddy-current example and statsmodels 0.15.0 (see the
 /// integration tests).
 pub fn analyse_factorial(table: &FactorialData<'_>, options: &FactorialOptions) -> Option<FactorialOutcome> {
