@@ -821,7 +821,7 @@ pub fn analyse_two_level_in_layout(
     let curvature = if centre_index.is_empty() {
         None
     } else {
-        Some(stratified_curvature(
+        stratified_curvature(
             runs,
             responses,
             &factorial_index,
@@ -829,7 +829,7 @@ pub fn analyse_two_level_in_layout(
             &block_of,
             pure_error_variance,
             pure_error_df,
-        )?)
+        )?
     };
     let effect_values: Vec<f64> = effects.iter().map(|e| e.effect).collect();
     let lenth = if effect_values.len() >= 3 {
@@ -874,7 +874,8 @@ fn constant_within_blocks(masks: &[u32], blocks: &[usize], word: Word) -> bool {
 
 /// The curvature test within strata (block, and the levels of the factors that the
 /// centre runs hold away from zero), judged by all the trial's pure error; see
-/// [`analyse_two_level_in_layout`].
+/// [`analyse_two_level_in_layout`]. `None` when no stratum holds both corner runs and
+/// centre runs (centre points in a block of their own say nothing about curvature).
 fn stratified_curvature(
     runs: &[Vec<f64>],
     responses: &[f64],
@@ -883,7 +884,7 @@ fn stratified_curvature(
     block_of: &dyn Fn(usize) -> usize,
     pure_error_variance: Option<f64>,
     pure_error_df: usize,
-) -> Result<CurvatureTest, StatsError> {
+) -> Result<Option<CurvatureTest>, StatsError> {
     let n_factors = runs.first().map_or(0, Vec::len);
     // Factors without a middle level: those some centre run holds away from zero.
     let no_middle: Vec<usize> = (0..n_factors)
@@ -921,11 +922,7 @@ fn stratified_curvature(
         weighted_difference += weight * difference;
     }
     if weight_sum <= 0.0 {
-        return Err(StatsError::TooFewValues {
-            what: "blocks holding both corner runs and centre points",
-            needed: 1,
-            got: 0,
-        });
+        return Ok(None);
     }
     let centre_keys: Vec<(usize, Vec<i8>)> = centre_index.iter().map(|&i| stratum(i)).collect();
     let centre_values: Vec<f64> = centre_index.iter().map(|&i| responses[i]).collect();
@@ -943,7 +940,7 @@ fn stratified_curvature(
         }
         None => (None, None),
     };
-    Ok(CurvatureTest {
+    Ok(Some(CurvatureTest {
         n_factorial,
         n_centre,
         factorial_mean,
@@ -955,7 +952,7 @@ fn stratified_curvature(
         standard_error,
         t_value,
         p_value,
-    })
+    }))
 }
 
 #[cfg(test)]
@@ -1385,6 +1382,20 @@ mod tests {
         let plain = analyse_two_level(&runs, &responses, &AnalysisOptions::default()).unwrap();
         assert!(plain.pure_error_variance.unwrap() > 10.0);
         assert!(plain.confounded_with_blocks.is_empty());
+        // Centre points in a block of their own hold no comparison with the corners: no
+        // curvature test, and the rest of the analysis stands.
+        let own_block: Vec<usize> = blocks
+            .iter()
+            .zip(&runs)
+            .map(|(&block, run)| if run.iter().all(|v| *v == 0.0) { 9 } else { block })
+            .collect();
+        let layout = RunLayout {
+            block_of_run: &own_block,
+            is_centre: &[],
+        };
+        let analysis = analyse_two_level_in_layout(&runs, &responses, &layout, &AnalysisOptions::default()).unwrap();
+        assert!(analysis.curvature.is_none());
+        assert_eq!(analysis.effects.len(), 6);
     }
 
     /// Centre runs repeated at each level of a factor without a middle level (the third
