@@ -440,15 +440,18 @@ pub struct CurvatureTest {
     /// Single-degree-of-freedom curvature sum of squares,
     /// `n_F n_C d^2 / (n_F + n_C)`.
     pub sum_of_squares: f64,
-    /// Pure-error degrees of freedom of the centre points, `n_C - 1`.
+    /// Degrees of freedom of the error the difference is judged by: `n_C - 1` from
+    /// [`curvature_test`]; all the pure error of the trial (replicated corners and
+    /// centre points, within blocks) from [`analyse_two_level_in_layout`].
     pub pure_error_df: usize,
-    /// Standard deviation of the centre points (`None` if `n_C < 2`).
+    /// Standard deviation of the centre points about their own means (`None` if they
+    /// give no degree of freedom).
     pub centre_sd: Option<f64>,
-    /// `s_C sqrt(1/n_F + 1/n_C)` (`None` if `n_C < 2`).
+    /// Standard error of `difference` (`None` without error degrees of freedom).
     pub standard_error: Option<f64>,
     /// `difference / standard_error`.
     pub t_value: Option<f64>,
-    /// Two-sided p-value on `n_C - 1` df.
+    /// Two-sided p-value on `pure_error_df` df.
     pub p_value: Option<f64>,
 }
 
@@ -572,12 +575,17 @@ pub struct TwoLevelAnalysis {
     /// One estimate per alias chain, in standard order of the basic factors
     /// (`A`, `B`, `AB`, `C`, ... of the basic factors).
     pub effects: Vec<EffectEstimate>,
-    /// Pooled pure-error variance: within-run variation of replicated
-    /// factorial runs, pooled with the centre points' variation.
+    /// Chains whose column is constant within every block: their estimate is a
+    /// difference between blocks, so they are not effects (no test, not in
+    /// Lenth's method or the plots).
+    pub confounded_with_blocks: Vec<EffectEstimate>,
+    /// Pure-error variance: variation among runs at the same settings in the
+    /// same block (replicated corners and centre points pooled).
     pub pure_error_variance: Option<f64>,
     /// Degrees of freedom of the pooled pure error.
     pub pure_error_df: usize,
-    /// Curvature test, when there are centre points.
+    /// Curvature test, when there are centre points (judged by all the pure
+    /// error).
     pub curvature: Option<CurvatureTest>,
     /// Lenth's analysis of the effects (when there are at least 3 effects
     /// and the pseudo standard error is positive).
@@ -588,25 +596,95 @@ pub struct TwoLevelAnalysis {
     pub half_normal_plot: Vec<PlotPoint>,
 }
 
+/// How the runs of a two-level trial are grouped beyond their coded levels.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct RunLayout<'a> {
+    /// The block of each run (any index per block); empty when the trial has no blocks.
+    pub block_of_run: &'a [usize],
+    /// Marks the centre runs; empty to take the rows of all zeros as centre runs. A
+    /// marked run may hold -1 or +1 for factors that have no middle level (text
+    /// factors): it is then a centre run at those factors' levels.
+    pub is_centre: &'a [bool],
+}
+
 /// Analyses a two-level full factorial or regular fraction, possibly
 /// replicated, possibly with centre points (rows of all zeros), runs in any
-/// order.
+/// order; as [`analyse_two_level_in_layout`] without blocks.
+///
+/// # Errors
+/// As [`analyse_two_level_in_layout`].
+pub fn analyse_two_level(
+    runs: &[Vec<f64>],
+    responses: &[f64],
+    options: &AnalysisOptions,
+) -> Result<TwoLevelAnalysis, StatsError> {
+    analyse_two_level_in_layout(runs, responses, &RunLayout::default(), options)
+}
+
+/// Sums and counts of one group of runs.
+#[derive(Debug, Clone, Copy, Default)]
+struct GroupSum {
+    n: usize,
+    sum: f64,
+}
+
+/// Within-group sum of squares and degrees of freedom of responses grouped by key
+/// (two passes: the group means, then squared deviations).
+fn within_groups<K: Ord + Clone>(keys: &[K], responses: &[f64]) -> (f64, usize) {
+    let mut groups: std::collections::BTreeMap<K, GroupSum> = std::collections::BTreeMap::new();
+    for (key, &y) in keys.iter().zip(responses) {
+        let group = groups.entry(key.clone()).or_default();
+        group.n += 1;
+        group.sum += y;
+    }
+    let ss = keys
+        .iter()
+        .zip(responses)
+        .map(|(key, &y)| {
+            let group = groups[key];
+            (y - group.sum / group.n as f64).powi(2)
+        })
+        .sum();
+    (ss, keys.len() - groups.len())
+}
+
+/// Analyses a two-level full factorial or regular fraction, possibly
+/// replicated, possibly with centre points and blocks, runs in any order.
 ///
 /// Steps: detect the design from the factorial runs; pick basic factors;
 /// average each cell; Yates's algorithm on the cell means in standard order;
 /// name each effect by the leader of its alias chain (with the sign that
-/// relates the two); standard errors from pooled pure error
+/// relates the two); set apart the chains whose column is constant within
+/// every block (confounded with blocks: their estimate is a difference
+/// between blocks, not an effect); standard errors from pure error
 /// `Var(effect) = 4 s^2 sum_c (1/r_c) / N_cells^2`; curvature test; Lenth;
 /// plot positions.
 ///
+/// # Remarks
+/// Pure error is the variation among runs at the same coded settings in the
+/// same block (replicated corners and centre points alike), so a shift
+/// between blocks never enters it. The curvature test compares the corner
+/// runs with the centre runs within each stratum (block, and level of each
+/// factor without a middle level), weighting stratum `s` by
+/// `w_s = n_Fs n_Cs / (n_Fs + n_Cs)`: the estimate is `sum w_s d_s / sum w_s`
+/// with standard error `s_pe / sqrt(sum w_s)` on the pure-error df, and
+/// `SS = (sum w_s d_s)^2 / sum w_s` (the least-squares contrast of a
+/// centre-point indicator after strata; with one stratum it is the usual
+/// `n_F n_C d^2 / (n_F + n_C)`, Montgomery, "Design and Analysis of
+/// Experiments", section on centre points). The effects of the chains not
+/// confounded with blocks are unaffected by a block shift when every block
+/// holds a regular fraction of the design (each such column sums to zero
+/// within each block), as block plans make them.
+///
 /// # Errors
 /// `InvalidParameter` if runs and responses differ in number, a row mixes
-/// zeros with ±1 or holds other values, a response is not finite, or the
-/// factorial runs are not a regular fraction or full factorial; as
-/// [`detect_design`] otherwise.
-pub fn analyse_two_level(
+/// zeros with ±1 or holds other values, a response is not finite, the layout
+/// does not match the runs, or the factorial runs are not a regular fraction
+/// or full factorial; as [`detect_design`] otherwise.
+pub fn analyse_two_level_in_layout(
     runs: &[Vec<f64>],
     responses: &[f64],
+    layout: &RunLayout<'_>,
     options: &AnalysisOptions,
 ) -> Result<TwoLevelAnalysis, StatsError> {
     if runs.len() != responses.len() {
@@ -616,6 +694,18 @@ pub fn analyse_two_level(
             value: responses.len() as f64,
         });
     }
+    for (given, name) in [
+        (layout.block_of_run.len(), "number of block labels"),
+        (layout.is_centre.len(), "number of centre-run marks"),
+    ] {
+        if given != 0 && given != runs.len() {
+            return Err(StatsError::InvalidParameter {
+                name,
+                rule: "none, or one per run",
+                value: given as f64,
+            });
+        }
+    }
     check_finite(responses, "response")?;
     if !(options.lenth_confidence > 0.0 && options.lenth_confidence < 1.0) {
         return Err(StatsError::InvalidParameter {
@@ -624,12 +714,20 @@ pub fn analyse_two_level(
             value: options.lenth_confidence,
         });
     }
+    let block_of = |index: usize| layout.block_of_run.get(index).copied().unwrap_or(0);
+    let is_centre = |index: usize| match layout.is_centre.get(index) {
+        Some(&marked) => marked,
+        None => {
+            let row = &runs[index];
+            !row.is_empty() && row.iter().all(|v| v.abs() <= CENTRE_TOLERANCE)
+        }
+    };
     let mut factorial_runs: Vec<Vec<f64>> = Vec::new();
     let mut factorial_index: Vec<usize> = Vec::new();
-    let mut centre_responses: Vec<f64> = Vec::new();
+    let mut centre_index: Vec<usize> = Vec::new();
     for (index, row) in runs.iter().enumerate() {
-        if !row.is_empty() && row.iter().all(|v| v.abs() <= CENTRE_TOLERANCE) {
-            centre_responses.push(responses[index]);
+        if is_centre(index) {
+            centre_index.push(index);
         } else {
             factorial_runs.push(row.clone());
             factorial_index.push(index);
@@ -645,6 +743,7 @@ pub fn analyse_two_level(
     }
     let basic_factors = design.relation.basic_factors();
     let order = standard_order(&factorial_runs, &basic_factors)?;
+    let (_, masks) = runs_to_masks(&factorial_runs)?;
     let n_cells = order.cell_counts.len();
     let mut sums = vec![0.0; n_cells];
     for (run, &cell) in order.cell_of_run.iter().enumerate() {
@@ -655,16 +754,15 @@ pub fn analyse_two_level(
         .zip(&order.cell_counts)
         .map(|(s, &r)| s / r as f64)
         .collect();
-    let mut within_ss = 0.0;
-    for (run, &cell) in order.cell_of_run.iter().enumerate() {
-        within_ss += (responses[factorial_index[run]] - cell_means[cell]).powi(2);
-    }
-    let mut pure_error_df = factorial_runs.len() - n_cells;
-    if centre_responses.len() >= 2 {
-        let centre_mean = centre_responses.iter().sum::<f64>() / centre_responses.len() as f64;
-        within_ss += centre_responses.iter().map(|y| (y - centre_mean).powi(2)).sum::<f64>();
-        pure_error_df += centre_responses.len() - 1;
-    }
+    // Pure error: runs at the same coded settings in the same block.
+    let coded_key = |index: usize| -> (usize, Vec<i8>) {
+        (
+            block_of(index),
+            runs[index].iter().map(|v| v.round().clamp(-1.0, 1.0) as i8).collect(),
+        )
+    };
+    let all_keys: Vec<(usize, Vec<i8>)> = (0..runs.len()).map(coded_key).collect();
+    let (within_ss, pure_error_df) = within_groups(&all_keys, responses);
     let pure_error_variance = if pure_error_df > 0 {
         Some(within_ss / pure_error_df as f64)
     } else {
@@ -675,7 +773,10 @@ pub fn analyse_two_level(
     let effect_se = pure_error_variance
         .map(|v| (4.0 * v * inverse_count_sum).sqrt() / n_cells as f64)
         .filter(|se| *se > 0.0);
+    let factorial_blocks: Vec<usize> = factorial_index.iter().map(|&i| block_of(i)).collect();
+    let n_blocks = factorial_blocks.iter().collect::<std::collections::BTreeSet<_>>().len();
     let mut effects = Vec::with_capacity(n_cells - 1);
+    let mut confounded_with_blocks = Vec::new();
     for (cell, &basic_effect) in yates.iter().enumerate().skip(1) {
         let basic_word = Word(
             basic_factors
@@ -688,6 +789,18 @@ pub fn analyse_two_level(
         let chain = design.relation.alias_chain(basic_word)?;
         let sign = chain.sign_of(basic_word).unwrap_or(1.0);
         let effect = sign * basic_effect;
+        if n_blocks > 1 && constant_within_blocks(&masks, &factorial_blocks, basic_word) {
+            confounded_with_blocks.push(EffectEstimate {
+                chain,
+                basic_word,
+                effect,
+                coefficient: 0.5 * effect,
+                standard_error: None,
+                t_value: None,
+                p_value: None,
+            });
+            continue;
+        }
         let (t_value, p_value) = match effect_se {
             Some(se) => {
                 let t = effect / se;
@@ -705,11 +818,18 @@ pub fn analyse_two_level(
             p_value,
         });
     }
-    let curvature = if centre_responses.is_empty() {
+    let curvature = if centre_index.is_empty() {
         None
     } else {
-        let factorial_responses: Vec<f64> = factorial_index.iter().map(|&i| responses[i]).collect();
-        Some(curvature_test(&factorial_responses, &centre_responses)?)
+        stratified_curvature(
+            runs,
+            responses,
+            &factorial_index,
+            &centre_index,
+            &block_of,
+            pure_error_variance,
+            pure_error_df,
+        )?
     };
     let effect_values: Vec<f64> = effects.iter().map(|e| e.effect).collect();
     let lenth = if effect_values.len() >= 3 {
@@ -717,8 +837,14 @@ pub fn analyse_two_level(
     } else {
         None
     };
-    let normal_plot = normal_plot_positions(&effect_values)?;
-    let half_normal_plot = half_normal_plot_positions(&effect_values)?;
+    let (normal_plot, half_normal_plot) = if effect_values.is_empty() {
+        (Vec::new(), Vec::new())
+    } else {
+        (
+            normal_plot_positions(&effect_values)?,
+            half_normal_plot_positions(&effect_values)?,
+        )
+    };
     let standard_order_runs = order.order.iter().map(|&i| factorial_index[i]).collect();
     Ok(TwoLevelAnalysis {
         design,
@@ -726,6 +852,7 @@ pub fn analyse_two_level(
         standard_order: standard_order_runs,
         grand_mean: yates[0],
         effects,
+        confounded_with_blocks,
         pure_error_variance,
         pure_error_df,
         curvature,
@@ -733,6 +860,99 @@ pub fn analyse_two_level(
         normal_plot,
         half_normal_plot,
     })
+}
+
+/// Whether the ±1 column of `word` is constant within every block (it is then a
+/// contrast between blocks).
+fn constant_within_blocks(masks: &[u32], blocks: &[usize], word: Word) -> bool {
+    let mut sign_of_block: std::collections::BTreeMap<usize, bool> = std::collections::BTreeMap::new();
+    masks.iter().zip(blocks).all(|(&mask, &block)| {
+        let positive = (word.0 & !mask).count_ones().is_multiple_of(2);
+        *sign_of_block.entry(block).or_insert(positive) == positive
+    })
+}
+
+/// The curvature test within strata (block, and the levels of the factors that the
+/// centre runs hold away from zero), judged by all the trial's pure error; see
+/// [`analyse_two_level_in_layout`]. `None` when no stratum holds both corner runs and
+/// centre runs (centre points in a block of their own say nothing about curvature).
+fn stratified_curvature(
+    runs: &[Vec<f64>],
+    responses: &[f64],
+    factorial_index: &[usize],
+    centre_index: &[usize],
+    block_of: &dyn Fn(usize) -> usize,
+    pure_error_variance: Option<f64>,
+    pure_error_df: usize,
+) -> Result<Option<CurvatureTest>, StatsError> {
+    let n_factors = runs.first().map_or(0, Vec::len);
+    // Factors without a middle level: those some centre run holds away from zero.
+    let no_middle: Vec<usize> = (0..n_factors)
+        .filter(|&f| centre_index.iter().any(|&i| runs[i][f].abs() > CENTRE_TOLERANCE))
+        .collect();
+    let stratum = |index: usize| -> (usize, Vec<i8>) {
+        (
+            block_of(index),
+            no_middle
+                .iter()
+                .map(|&f| if runs[index][f] > 0.0 { 1 } else { -1 })
+                .collect(),
+        )
+    };
+    let mut strata: std::collections::BTreeMap<(usize, Vec<i8>), (GroupSum, GroupSum)> =
+        std::collections::BTreeMap::new();
+    for &index in factorial_index {
+        let entry = strata.entry(stratum(index)).or_default();
+        entry.0.n += 1;
+        entry.0.sum += responses[index];
+    }
+    for &index in centre_index {
+        let entry = strata.entry(stratum(index)).or_default();
+        entry.1.n += 1;
+        entry.1.sum += responses[index];
+    }
+    let (mut weight_sum, mut weighted_difference) = (0.0, 0.0);
+    for (factorial, centre) in strata.values() {
+        if factorial.n == 0 || centre.n == 0 {
+            continue;
+        }
+        let weight = (factorial.n * centre.n) as f64 / (factorial.n + centre.n) as f64;
+        let difference = factorial.sum / factorial.n as f64 - centre.sum / centre.n as f64;
+        weight_sum += weight;
+        weighted_difference += weight * difference;
+    }
+    if weight_sum <= 0.0 {
+        return Ok(None);
+    }
+    let centre_keys: Vec<(usize, Vec<i8>)> = centre_index.iter().map(|&i| stratum(i)).collect();
+    let centre_values: Vec<f64> = centre_index.iter().map(|&i| responses[i]).collect();
+    let (centre_ss, centre_df) = within_groups(&centre_keys, &centre_values);
+    let n_factorial = factorial_index.len();
+    let n_centre = centre_index.len();
+    let factorial_mean = factorial_index.iter().map(|&i| responses[i]).sum::<f64>() / n_factorial.max(1) as f64;
+    let centre_mean = centre_values.iter().sum::<f64>() / n_centre as f64;
+    let difference = weighted_difference / weight_sum;
+    let standard_error = pure_error_variance.map(|v| (v / weight_sum).sqrt());
+    let (t_value, p_value) = match standard_error.filter(|se| *se > 0.0) {
+        Some(se) => {
+            let t = difference / se;
+            (Some(t), Some(t_two_sided_p(t, pure_error_df as f64)?))
+        }
+        None => (None, None),
+    };
+    Ok(Some(CurvatureTest {
+        n_factorial,
+        n_centre,
+        factorial_mean,
+        centre_mean,
+        difference,
+        sum_of_squares: weighted_difference * weighted_difference / weight_sum,
+        pure_error_df,
+        centre_sd: (centre_df > 0).then(|| (centre_ss / centre_df as f64).sqrt()),
+        standard_error,
+        t_value,
+        p_value,
+    }))
 }
 
 #[cfg(test)]
@@ -1096,5 +1316,114 @@ mod tests {
         // With B as the first basic factor the cells are (1), b, a, ab.
         assert_eq!(order.cell_of_run, [0, 2, 1, 3]);
         assert_eq!(order.order, [0, 2, 1, 3]);
+    }
+
+    /// A 2^3 run twice, each replicate split into two blocks on ABC (four blocks), with
+    /// centre points 3, 1, 2, 2 in the blocks. Model with known effects:
+    /// y = 10 + 2 A + B + shift[block] + noise, shifts 0, 5, -3, 8, no curvature; noise
+    /// bounded by 0.05.
+    #[test]
+    fn blocks_keep_shifts_out_of_pure_error_and_curvature() {
+        let noise = |i: usize| 0.05 * (((i * 7919) % 13) as f64 - 6.0) / 6.0;
+        let shifts = [0.0, 5.0, -3.0, 8.0];
+        let full = DefiningRelation::full_factorial(3).unwrap().runs();
+        let (mut runs, mut responses, mut blocks) = (Vec::new(), Vec::new(), Vec::new());
+        for replicate in 0..2 {
+            for run in &full {
+                let block = 2 * replicate + usize::from(run[0] * run[1] * run[2] > 0.0);
+                blocks.push(block);
+                responses.push(10.0 + 2.0 * run[0] + run[1] + shifts[block] + noise(responses.len()));
+                runs.push(run.clone());
+            }
+        }
+        let mut centre_by_block: Vec<Vec<f64>> = vec![Vec::new(); 4];
+        for (block, count) in [3usize, 1, 2, 2].into_iter().enumerate() {
+            for _ in 0..count {
+                let y = 10.0 + shifts[block] + noise(responses.len());
+                centre_by_block[block].push(y);
+                blocks.push(block);
+                responses.push(y);
+                runs.push(vec![0.0; 3]);
+            }
+        }
+        let layout = RunLayout {
+            block_of_run: &blocks,
+            is_centre: &[],
+        };
+        let analysis = analyse_two_level_in_layout(&runs, &responses, &layout, &AnalysisOptions::default()).unwrap();
+        // ABC is constant within every block: set apart, not an effect.
+        let confounded: Vec<Word> = analysis
+            .confounded_with_blocks
+            .iter()
+            .map(|e| e.chain.leader())
+            .collect();
+        assert_eq!(confounded, [word("ABC")]);
+        assert_eq!(analysis.effects.len(), 6);
+        // Pure error by its definition (common practice): centre points about their own
+        // block's mean (each corner is run once per block), df 2 + 0 + 1 + 1.
+        let ss: f64 = centre_by_block
+            .iter()
+            .map(|group| {
+                let mean = group.iter().sum::<f64>() / group.len() as f64;
+                group.iter().map(|y| (y - mean).powi(2)).sum::<f64>()
+            })
+            .sum();
+        assert_eq!(analysis.pure_error_df, 4);
+        assert!(close(analysis.pure_error_variance.unwrap(), ss / 4.0, 1e-9));
+        let a = analysis.effects.iter().find(|e| e.chain.leader() == word("A")).unwrap();
+        assert!((a.effect - 4.0).abs() < 0.11);
+        // No curvature in the model: the within-block comparison finds none, while the
+        // plain difference of means is pulled by the uneven centre points across shifts.
+        let curvature = analysis.curvature.unwrap();
+        assert!(curvature.difference.abs() < 0.11, "{}", curvature.difference);
+        assert_eq!(curvature.pure_error_df, 4);
+        assert!((curvature.factorial_mean - curvature.centre_mean).abs() > 0.5);
+        // Without the blocks the shifts fall into the pure error.
+        let plain = analyse_two_level(&runs, &responses, &AnalysisOptions::default()).unwrap();
+        assert!(plain.pure_error_variance.unwrap() > 10.0);
+        assert!(plain.confounded_with_blocks.is_empty());
+        // Centre points in a block of their own hold no comparison with the corners: no
+        // curvature test, and the rest of the analysis stands.
+        let own_block: Vec<usize> = blocks
+            .iter()
+            .zip(&runs)
+            .map(|(&block, run)| if run.iter().all(|v| *v == 0.0) { 9 } else { block })
+            .collect();
+        let layout = RunLayout {
+            block_of_run: &own_block,
+            is_centre: &[],
+        };
+        let analysis = analyse_two_level_in_layout(&runs, &responses, &layout, &AnalysisOptions::default()).unwrap();
+        assert!(analysis.curvature.is_none());
+        assert_eq!(analysis.effects.len(), 6);
+    }
+
+    /// Centre runs repeated at each level of a factor without a middle level (the third
+    /// column, a text factor). Model with known effects: y = 5 + A + 3 C - 1.5 [centre],
+    /// exact: the strata (C low, C high) compare the corners and centres at the same C.
+    #[test]
+    fn centre_runs_at_both_levels_of_a_factor_without_a_middle() {
+        let full = DefiningRelation::full_factorial(3).unwrap().runs();
+        let mut runs = full.clone();
+        let mut responses: Vec<f64> = full.iter().map(|r| 5.0 + r[0] + 3.0 * r[2]).collect();
+        let mut is_centre = vec![false; full.len()];
+        for c in [-1.0, 1.0, 1.0] {
+            runs.push(vec![0.0, 0.0, c]);
+            responses.push(5.0 + 3.0 * c - 1.5);
+            is_centre.push(true);
+        }
+        let layout = RunLayout {
+            block_of_run: &[],
+            is_centre: &is_centre,
+        };
+        let analysis = analyse_two_level_in_layout(&runs, &responses, &layout, &AnalysisOptions::default()).unwrap();
+        let curvature = analysis.curvature.unwrap();
+        // Corners minus centre within each level of C: 1.5 exactly (hand arithmetic);
+        // the unstratified difference would be 1.5 - 3 * (2 - 1) / 3 = 0.5.
+        assert!(close(curvature.difference, 1.5, 1e-12));
+        assert!(close(curvature.factorial_mean - curvature.centre_mean, 0.5, 1e-12));
+        // Pure error: the two centre runs at C high agree exactly (1 df, zero spread).
+        assert_eq!(analysis.pure_error_df, 1);
+        assert!(close(analysis.effects[0].effect, 2.0, 1e-12));
     }
 }

@@ -23,6 +23,9 @@ pub(super) struct Coding {
     pub(super) info: Vec<TwoLevelCoding>,
 }
 
+/// The coding rule of a factor with text labels.
+pub(super) const TEXT_CODING_RULE: &str = "first label in sorted order";
+
 pub(super) fn parse_number(label: &str) -> Option<f64> {
     label.trim().parse::<f64>().ok().filter(|value| value.is_finite())
 }
@@ -64,7 +67,7 @@ pub(super) fn code_factor(levels: &[String], present: &[bool]) -> Option<(Vec<Op
                     low: levels[order[0]].clone(),
                     high: levels[order[1]].clone(),
                     centre: None,
-                    rule: "first label in sorted order".into(),
+                    rule: TEXT_CODING_RULE.into(),
                 },
             ))
         }
@@ -148,7 +151,9 @@ pub(super) fn two_level_coding(table: &FactorialData<'_>, treatments: &[usize], 
 }
 
 /// The two-level coding of the treatment factors and the records that are centre points
-/// (every treatment factor at its middle level). When a record has some but not all
+/// (every treatment factor that has a middle level at it; a factor without one, such as a
+/// text factor, may stand at either level, so centre runs repeated at each level of a
+/// text factor are centre points too). When a record has some but not all
 /// treatment factors at their middle level there is no coding, and the first such record
 /// is returned last (the analysis then says why the two-level part was left out).
 pub(super) fn coding_and_centre_points(
@@ -172,7 +177,11 @@ pub(super) fn coding_and_centre_points(
                     })
                     .collect();
                 let zeros = values.iter().filter(|value| **value == 0.0).count();
-                if zeros == values.len() {
+                // A centre run has every numeric factor at its middle level; text factors
+                // (which have none) may stand at either of their two labels.
+                let at_centre = (0..values.len())
+                    .all(|position| values[position] == 0.0 || coding.info[position].rule == TEXT_CODING_RULE);
+                if zeros > 0 && at_centre {
                     centre.push(record);
                 } else if zeros > 0 && mixed.is_none() {
                     mixed = Some(record);

@@ -304,12 +304,18 @@ pub(super) fn fit_kway(
 }
 
 /// Cautions on the k-way fit: no residual degrees of freedom, combinations not run.
-pub(super) fn kway_cautions(fit: &FactorialFit, level_names: &dyn Fn(&[usize]) -> Vec<String>) -> Vec<String> {
+/// `missing_by_design` leaves out the caution on combinations not run when the design
+/// (a regular fraction, or a full factorial split into blocks) leaves them out on purpose.
+pub(super) fn kway_cautions(
+    fit: &FactorialFit,
+    level_names: &dyn Fn(&[usize]) -> Vec<String>,
+    missing_by_design: bool,
+) -> Vec<String> {
     let mut cautions = Vec::new();
     if fit.residual.df == 0 {
         cautions.push("The model uses every degree of freedom: there is no residual left to judge the effects by, so no F tests or intervals are given for it.".into());
     }
-    if let Some(first) = fit.missing_cells.first() {
+    if let Some(first) = fit.missing_cells.first().filter(|_| !missing_by_design) {
         cautions.push(format!(
             "{} combination(s) of levels were not run (for example {}); effects that need them cannot be estimated, and the Type III tests depend on how the levels were coded.",
             fit.missing_cells.len(),

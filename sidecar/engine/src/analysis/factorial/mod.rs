@@ -19,8 +19,22 @@
 //! higher number +1; a numeric factor with three levels whose middle level lies
 //! half-way between the others counts as two-level with centre points (the middle level
 //! is coded 0). A factor with text labels has its labels sorted (as text, ignoring
-//! case) and the first is coded -1. Runs with every treatment factor at its middle level
-//! are centre points; they enter the curvature test and the pure error, not the effects.
+//! case) and the first is coded -1. Runs with every numeric treatment factor at its
+//! middle level are centre points (a text factor, which has no middle level, may stand at
+//! either label, so centre runs repeated at each label count); they enter the curvature
+//! test and the pure error, not the effects.
+//!
+//! Blocks: the two-level analysis takes its pure error within blocks and compares corners
+//! with centre points within blocks; an effect whose column is constant within every
+//! block is named as confounded with blocks and is never read as an effect or used for
+//! settings. The error the effects are judged by is said in words
+//! ([`TwoLevelOutcome::error`]): pure error from replicates and centre points, else the
+//! pooled interactions of three or more factors, else Lenth's method.
+//!
+//! Settings: with a direction, the best settings are chosen among the combinations run,
+//! and a better combination not run is given apart as a prediction outside the trial;
+//! with no direction nothing is called best, and the outcome names the combinations run
+//! with the highest and the lowest mean.
 
 mod cells;
 mod coding;
@@ -44,7 +58,7 @@ use coding::{coding_and_centre_points, factor_infos, level_names_of, used_factor
 use kway::{fit_kway, kway_cautions, kway_model};
 use readings::{manager_summary, read_model, SummaryInput};
 use reduced::{reduced_cautions, reduced_model, ReducedInput};
-use screening::{two_level_cautions, two_level_outcome};
+use screening::{two_level_cautions, two_level_outcome, TwoLevelInput};
 
 /// Above this many residuals the normality check uses this many, spread evenly through
 /// the recorded order (Shapiro-Wilk is published up to 5000; on more values every test
@@ -59,6 +73,9 @@ pub const MAX_SETTINGS_SEARCHED: usize = 100_000;
 
 /// Alias chains are written with members of at most this many letters.
 pub const ALIAS_DISPLAY_ORDER: usize = 4;
+
+/// At most this many alias chains are listed in the caution of a fraction.
+pub const ALIASES_LISTED: usize = 12;
 
 /// One factor column of the input: its levels and the level of each record.
 #[derive(Debug, Clone, Copy)]
@@ -99,7 +116,8 @@ impl FactorialData<'_> {
 pub struct FactorialOptions {
     /// Confidence level of every interval.
     pub confidence: f64,
-    /// Which way the response is better (higher is better when not given).
+    /// Which way the response is better; with none, no best or recommended settings
+    /// are chosen (the outcome says which combination run is highest and lowest).
     pub direction: Option<Direction>,
     /// Highest order of interaction fitted (1 = main effects only); `None` fits every
     /// order the replication allows.
@@ -123,15 +141,17 @@ impl Default for FactorialOptions {
 /// range. Problems that stop one part (too many level combinations, no residual degrees
 /// of freedom) leave that part out and say so in [`FactorialOutcome::notes`].
 ///
-/// Settings used: `confidence`, `direction` (higher is better when not given) and
-/// `interaction order`.
+/// Settings used: `confidence`, `direction` (with none, nothing is called best or
+/// recommended) and `interaction order`.
 ///
 /// # Remarks
 /// Cells are summarised with the one-way accumulator (exact decimal or compensated
-/// sums); the k-way model is [`fit_factorial`]; the two-level part is
-/// [`analyse_two_level`](crate::stats::two_level_analysis::analyse_two_level) on the
-/// runs coded ±1 (see the module documentation for the coding); the reduced model is a weighted least-squares fit to the cell means by
-/// Householder QR (never the normal equations). Checked end to end against the
+/// sums); the k-way model is
+/// [`fit_factorial`](crate::stats::linear_model::fit_factorial); the two-level part is
+/// [`analyse_two_level_in_layout`](crate::stats::two_level_analysis::analyse_two_level_in_layout)
+/// on the runs coded ±1 with their blocks and centre runs (see the module documentation
+/// for the coding); the reduced model (blocks included) is a weighted least-squares fit
+/// to the cell means by Householder QR (never the normal equations). Checked end to end against the
 /// NIST/SEMATECH e-Handbook eddy-current example and statsmodels 0.15.0 (see the
 /// integration tests).
 pub fn analyse_factorial(table: &FactorialData<'_>, options: &FactorialOptions) -> Option<FactorialOutcome> {
@@ -148,7 +168,7 @@ pub fn analyse_factorial(table: &FactorialData<'_>, options: &FactorialOptions) 
 pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Option<FactorialOutcome> {
     let response = table;
     let confidence = options.confidence;
-    let direction = options.direction.unwrap_or(Direction::HigherIsBetter);
+    let direction = options.direction;
     let mut notes = Vec::new();
     let mut cautions = Vec::new();
     let n_records = table.n_records();
@@ -197,6 +217,8 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
                 reduced: None,
                 reading: Vec::new(),
                 summary: Vec::new(),
+                highest_observed: None,
+                lowest_observed: None,
                 cautions,
                 notes,
                 mixed_levels_record,
@@ -212,24 +234,32 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
     let model = fit
         .as_ref()
         .map(|fit| kway_model(fit, &cells, &used, options, confidence, &level_names));
-    if let Some(fit) = &fit {
-        cautions.extend(kway_cautions(fit, &level_names));
-    }
-
     // Two-level screening.
-    let two_level = coding.as_ref().and_then(|_| {
+    let two_level = coding.as_ref().and_then(|coding| {
         two_level_outcome(
-            table,
-            &treatments,
-            coding.as_ref()?,
-            &usable,
-            &used,
-            confidence,
+            &TwoLevelInput {
+                table,
+                treatments: &treatments,
+                blocks: &blocks,
+                coding,
+                usable: &usable,
+                centre_records: &centre_records,
+                confidence,
+            },
             &mut notes,
         )
     });
+    let regular_design = two_level
+        .as_ref()
+        .filter(|two| two.grand_mean.is_some() && two.design.kind != "irregular");
+    if let Some(fit) = &fit {
+        cautions.extend(kway_cautions(fit, &level_names, regular_design.is_some()));
+    }
+    if let Some(two) = regular_design.filter(|two| two.design.kind == "regular fraction") {
+        cautions.push(fraction_sentence(two));
+    }
     if let Some(two) = &two_level {
-        two_level_cautions(two, !blocks.is_empty(), alpha, &mut notes, &mut cautions);
+        two_level_cautions(two, !blocks.is_empty(), alpha, &mut cautions);
     }
 
     // Reduced model.
@@ -253,8 +283,18 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
 
     let reading = model
         .as_ref()
-        .map(|model| read_model(model, fit.as_ref(), &used, direction, alpha, response.response_name))
+        .map(|model| {
+            read_model(
+                model,
+                fit.as_ref(),
+                &used,
+                direction.unwrap_or(Direction::HigherIsBetter),
+                alpha,
+                response.response_name,
+            )
+        })
         .unwrap_or_default();
+    let (highest_observed, lowest_observed) = observed_extremes(&cells, &used);
     let summary = manager_summary(&SummaryInput {
         response: response.response_name,
         used: &used,
@@ -264,6 +304,8 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
         direction,
         confidence,
         reading: &reading,
+        highest: highest_observed.as_ref(),
+        lowest: lowest_observed.as_ref(),
     });
     Some(FactorialOutcome {
         confidence,
@@ -275,8 +317,60 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
         reduced,
         reading,
         summary,
+        highest_observed,
+        lowest_observed,
         cautions,
         notes,
         mixed_levels_record,
     })
+}
+
+/// The caution of a regular fraction: the combinations it leaves out are left out by
+/// design, and which effects it cannot separate.
+fn fraction_sentence(two: &TwoLevelOutcome) -> String {
+    let chains: Vec<&str> = two
+        .effects
+        .iter()
+        .filter(|effect| effect.aliases.contains(['+', '-']))
+        .map(|effect| effect.aliases.as_str())
+        .collect();
+    let shown = chains.len().min(ALIASES_LISTED);
+    let more = if chains.len() > shown { "; …" } else { "" };
+    format!(
+        "The trial is a {} with generators {}: the combinations of levels it leaves out are left out by design. Each estimate mixes the effects of its alias chain, which this trial cannot separate: {}{more}.",
+        two.design.name,
+        two.design.generators.join(", "),
+        chains[..shown].join("; ")
+    )
+}
+
+/// The treatment combinations run with the highest and the lowest mean (blocks pooled).
+fn observed_extremes(
+    cells: &[crate::stats::linear_model::CellSummary],
+    used: &[coding::UsedFactor],
+) -> (Option<ObservedCombination>, Option<ObservedCombination>) {
+    let treatments: Vec<usize> = (0..used.len()).filter(|&f| !used[f].is_block).collect();
+    let mut combinations: std::collections::BTreeMap<Vec<usize>, (usize, f64)> = std::collections::BTreeMap::new();
+    for cell in cells {
+        let key: Vec<usize> = treatments.iter().map(|&f| cell.levels[f]).collect();
+        let entry = combinations.entry(key).or_insert((0, 0.0));
+        entry.0 += cell.n;
+        entry.1 += cell.n as f64 * cell.mean;
+    }
+    let observed: Vec<ObservedCombination> = combinations
+        .into_iter()
+        .filter(|(_, (n, _))| *n > 0)
+        .map(|(key, (n, sum))| ObservedCombination {
+            settings: treatments
+                .iter()
+                .zip(&key)
+                .map(|(&f, &level)| (used[f].name.clone(), used[f].level_names[level].clone()))
+                .collect(),
+            mean: sum / n as f64,
+            n,
+        })
+        .collect();
+    let highest = observed.iter().max_by(|a, b| a.mean.total_cmp(&b.mean)).cloned();
+    let lowest = observed.iter().min_by(|a, b| a.mean.total_cmp(&b.mean)).cloned();
+    (highest, lowest)
 }

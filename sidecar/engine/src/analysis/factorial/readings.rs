@@ -8,7 +8,7 @@ use crate::options::Direction;
 use crate::stats::linear_model::FactorialFit;
 
 use super::coding::UsedFactor;
-use super::results::{AnovaLine, KWayModel, ReducedModel, TwoLevelEffect, TwoLevelOutcome};
+use super::results::{AnovaLine, KWayModel, ObservedCombination, ReducedModel, TwoLevelEffect, TwoLevelOutcome};
 
 pub(super) fn better(direction: Direction, candidate: f64, incumbent: f64) -> bool {
     match direction {
@@ -188,9 +188,11 @@ pub(super) struct SummaryInput<'a> {
     pub(super) model: Option<&'a KWayModel>,
     pub(super) two_level: Option<&'a TwoLevelOutcome>,
     pub(super) reduced: Option<&'a ReducedModel>,
-    pub(super) direction: Direction,
+    pub(super) direction: Option<Direction>,
     pub(super) confidence: f64,
     pub(super) reading: &'a [String],
+    pub(super) highest: Option<&'a ObservedCombination>,
+    pub(super) lowest: Option<&'a ObservedCombination>,
 }
 
 pub(super) fn manager_summary(input: &SummaryInput<'_>) -> Vec<String> {
@@ -243,21 +245,7 @@ pub(super) fn manager_summary(input: &SummaryInput<'_>) -> Vec<String> {
             if !matter.contains(&means.factor) {
                 continue;
             }
-            let values: Vec<Option<f64>> = means.means.iter().map(|m| m.estimate).collect();
-            if let (Some(best), Some(worst)) = (
-                best_index(&values, input.direction),
-                worst_index(&values, input.direction),
-            ) {
-                effect_sentences.push(format!(
-                    "{}: {} is best (average {}), {} worst (average {}), a difference of {}.",
-                    means.factor,
-                    means.means[best].label,
-                    round_for_text(values[best].unwrap_or(f64::NAN), 4),
-                    means.means[worst].label,
-                    round_for_text(values[worst].unwrap_or(f64::NAN), 4),
-                    round_for_text((values[best].unwrap_or(0.0) - values[worst].unwrap_or(0.0)).abs(), 3)
-                ));
-            }
+            effect_sentences.push(ls_means_sentence(means, input.direction));
         }
     }
     let quiet: Vec<String> = treatments
@@ -280,15 +268,29 @@ pub(super) fn manager_summary(input: &SummaryInput<'_>) -> Vec<String> {
     }
     lines.extend(effect_sentences);
     lines.extend(input.reading.iter().filter(|line| line.contains("depends on")).cloned());
+    if input.direction.is_none() {
+        if let (Some(high), Some(low)) = (input.highest, input.lowest) {
+            lines.push(format!(
+                "No direction was given for {}, so no settings are called best or recommended. Among the combinations run, the highest average {} was {} at {} and the lowest {} at {}. Say whether higher, lower or a target value is better to get recommended settings.",
+                input.response,
+                input.response,
+                round_for_text(high.mean, 4),
+                settings_text(&high.settings),
+                round_for_text(low.mean, 4),
+                settings_text(&low.settings)
+            ));
+        }
+    }
     if let Some(best) = input.reduced.and_then(|reduced| reduced.best.as_ref()) {
         let settings: Vec<String> = best
             .settings
             .iter()
             .map(|(factor, level)| format!("{factor} {level}"))
             .collect();
+        let direction = input.direction.unwrap_or(Direction::HigherIsBetter);
         let mut sentence = format!(
-            "Recommended settings ({} {}): {}; predicted {} {}",
-            direction_words(input.direction),
+            "Recommended settings ({} {} among the combinations run): {}; predicted {} {}",
+            direction_words(direction),
             input.response,
             settings.join(", "),
             input.response,
@@ -322,4 +324,75 @@ pub(super) fn worst_index(values: &[Option<f64>], direction: Direction) -> Optio
             best_index(&distances, Direction::HigherIsBetter)
         }
     }
+}
+
+/// The factor and level pairs of a combination, in words.
+fn settings_text(settings: &[(String, String)]) -> String {
+    settings
+        .iter()
+        .map(|(factor, level)| format!("{factor} {level}"))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// One factor's least-squares means in a sentence: best and worst for a direction (or
+/// highest and lowest without one), and the levels whose mean cannot be estimated from
+/// the combinations run; never a best equal to a worst.
+pub(super) fn ls_means_sentence(means: &super::results::LsMeansLine, direction: Option<Direction>) -> String {
+    let values: Vec<Option<f64>> = means.means.iter().map(|m| m.estimate).collect();
+    let not_estimable: Vec<&str> = means
+        .means
+        .iter()
+        .filter(|m| m.estimate.is_none())
+        .map(|m| m.label.as_str())
+        .collect();
+    let n_estimable = values.len() - not_estimable.len();
+    if n_estimable < 2 {
+        return format!(
+            "{}: its averages over the other factors cannot be compared, because the combinations run do not estimate them (not estimable: {}).",
+            means.factor,
+            not_estimable.join(", ")
+        );
+    }
+    let (top, bottom, top_word, bottom_word) = match direction {
+        Some(direction) => (
+            best_index(&values, direction),
+            worst_index(&values, direction),
+            "best",
+            "worst",
+        ),
+        None => (
+            best_index(&values, Direction::HigherIsBetter),
+            best_index(&values, Direction::LowerIsBetter),
+            "highest",
+            "lowest",
+        ),
+    };
+    let (Some(top), Some(bottom)) = (top, bottom) else {
+        return String::new();
+    };
+    let mut sentence = if top == bottom {
+        format!(
+            "{}: every level has the same average ({}).",
+            means.factor,
+            round_for_text(values[top].unwrap_or(f64::NAN), 4)
+        )
+    } else {
+        format!(
+            "{}: {} is {top_word} (average {}), {} {bottom_word} (average {}), a difference of {}.",
+            means.factor,
+            means.means[top].label,
+            round_for_text(values[top].unwrap_or(f64::NAN), 4),
+            means.means[bottom].label,
+            round_for_text(values[bottom].unwrap_or(f64::NAN), 4),
+            round_for_text((values[top].unwrap_or(0.0) - values[bottom].unwrap_or(0.0)).abs(), 3)
+        )
+    };
+    if !not_estimable.is_empty() {
+        sentence.push_str(&format!(
+            " The average at {} cannot be estimated from the combinations run.",
+            not_estimable.join(", ")
+        ));
+    }
+    sentence
 }

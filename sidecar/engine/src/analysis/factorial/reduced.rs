@@ -32,7 +32,7 @@ pub(super) struct ReducedInput<'a> {
     pub(super) treatments: &'a [usize],
     pub(super) centre_records: &'a [usize],
     pub(super) confidence: f64,
-    pub(super) direction: Direction,
+    pub(super) direction: Option<Direction>,
 }
 
 /// A column of the reduced model: a term (factor positions in `used`) in sum-to-zero
@@ -240,36 +240,43 @@ pub(super) fn reduced_general(input: &ReducedInput<'_>, alpha: f64) -> Option<Re
         .iter()
         .map(|cell| model_factors.iter().map(|&f| cell.levels[f]).collect())
         .collect();
-    let best = best_setting(
-        &model_factors
+    let settings_of = |choice: &[usize]| -> Vec<(String, String)> {
+        model_factors
             .iter()
-            .map(|&f| used[f].level_names.len())
-            .collect::<Vec<_>>(),
-        input.direction,
-        |choice| {
-            let mut levels = vec![usize::MAX; used.len()];
-            for (&factor, &level) in model_factors.iter().zip(choice) {
-                levels[factor] = level;
-            }
-            column_row(&columns, used, &levels, None, false)
-        },
-        &row_fit,
-    )
-    .map(|(choice, row, mean)| {
-        prediction(
-            model_factors
+            .zip(choice)
+            .map(|(&f, &level)| (used[f].name.clone(), used[f].level_names[level].clone()))
+            .collect()
+    };
+    let found = input.direction.and_then(|direction| {
+        best_setting(
+            &model_factors
                 .iter()
-                .zip(&choice)
-                .map(|(&f, &level)| (used[f].name.clone(), used[f].level_names[level].clone()))
-                .collect(),
+                .map(|&f| used[f].level_names.len())
+                .collect::<Vec<_>>(),
+            direction,
+            |choice| {
+                let mut levels = vec![usize::MAX; used.len()];
+                for (&factor, &level) in model_factors.iter().zip(choice) {
+                    levels[factor] = level;
+                }
+                column_row(&columns, used, &levels, None, false)
+            },
+            |choice| observed.contains(choice),
+            &row_fit,
+        )
+    });
+    let predict = |(choice, row, mean): (Vec<usize>, Vec<f64>, f64), was_run: bool| {
+        prediction(
+            settings_of(&choice),
             mean,
             &row,
             &row_fit,
             sigma,
             input.confidence,
-            observed.contains(&choice),
+            was_run,
         )
-    });
+    };
+    let (best, outside_trial) = best_and_outside(found, predict);
     Some(ReducedModel {
         active_terms: active_names,
         terms: terms
@@ -286,6 +293,7 @@ pub(super) fn reduced_general(input: &ReducedInput<'_>, alpha: f64) -> Option<Re
         r_squared: (row_fit.total_ss > 0.0).then(|| 1.0 - row_fit.residual_ss / row_fit.total_ss),
         residual_check,
         best,
+        outside_trial,
     })
 }
 
@@ -359,27 +367,59 @@ pub(super) fn coefficient_lines(names: &[String], fit: &RowFit, sigma: Option<f6
         .collect()
 }
 
-/// Searches every combination of the given level counts for the best prediction.
+/// The best prediction among the combinations run, and the best over every combination
+/// when that one was not run.
+pub(super) struct BestFound {
+    pub(super) within: Option<(Vec<usize>, Vec<f64>, f64)>,
+    pub(super) outside: Option<(Vec<usize>, Vec<f64>, f64)>,
+}
+
+/// The predictions at the best combination run and at a better one not run.
+fn best_and_outside(
+    found: Option<BestFound>,
+    predict: impl Fn((Vec<usize>, Vec<f64>, f64), bool) -> Prediction,
+) -> (Option<Prediction>, Option<Prediction>) {
+    match found {
+        Some(found) => (
+            found.within.map(|best| predict(best, true)),
+            found.outside.map(|best| predict(best, false)),
+        ),
+        None => (None, None),
+    }
+}
+
+/// Searches every combination of the given level counts for the best prediction, among
+/// the combinations `was_run` accepts and over all of them.
 pub(super) fn best_setting(
     level_counts: &[usize],
     direction: Direction,
     row_of: impl Fn(&[usize]) -> Vec<f64>,
+    was_run: impl Fn(&[usize]) -> bool,
     fit: &RowFit,
-) -> Option<(Vec<usize>, Vec<f64>, f64)> {
+) -> Option<BestFound> {
     let total = level_counts
         .iter()
         .try_fold(1usize, |product, &count| product.checked_mul(count))
         .filter(|&total| total <= MAX_SETTINGS_SEARCHED)?;
-    let mut best: Option<(Vec<usize>, Vec<f64>, f64)> = None;
+    let mut within: Option<(Vec<usize>, Vec<f64>, f64)> = None;
+    let mut overall: Option<(Vec<usize>, Vec<f64>, f64, bool)> = None;
     let mut choice = vec![0usize; level_counts.len()];
     for _ in 0..total {
         let row = row_of(&choice);
         let mean = dot(&row, &fit.coefficients);
-        if best
-            .as_ref()
-            .is_none_or(|(_, _, incumbent)| better(direction, mean, *incumbent))
+        let run = was_run(&choice);
+        if run
+            && within
+                .as_ref()
+                .is_none_or(|(_, _, incumbent)| better(direction, mean, *incumbent))
         {
-            best = Some((choice.clone(), row, mean));
+            within = Some((choice.clone(), row.clone(), mean));
+        }
+        if overall
+            .as_ref()
+            .is_none_or(|(_, _, incumbent, _)| better(direction, mean, *incumbent))
+        {
+            overall = Some((choice.clone(), row, mean, run));
         }
         for position in (0..choice.len()).rev() {
             choice[position] += 1;
@@ -389,7 +429,10 @@ pub(super) fn best_setting(
             choice[position] = 0;
         }
     }
-    best
+    let outside = overall
+        .filter(|(_, _, _, run)| !run)
+        .map(|(choice, row, mean, _)| (choice, row, mean));
+    Some(BestFound { within, outside })
 }
 
 pub(super) fn prediction(
@@ -462,6 +505,25 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
         columns.push(Column::Curvature);
         column_names.push("centre points (curvature)".into());
     }
+    // Blocks enter as sum-to-zero columns, so a shift between blocks is not error.
+    let block_positions: Vec<usize> = (0..input.used.len()).filter(|&f| input.used[f].is_block).collect();
+    let block_terms: Vec<Vec<usize>> = block_positions.iter().map(|&f| vec![f]).collect();
+    let (block_columns, block_names) = general_columns(input.used, &block_terms);
+    columns.extend(block_columns.into_iter().skip(1));
+    column_names.extend(block_names.into_iter().skip(1));
+    let block_levels_of = |record: usize| -> Vec<usize> {
+        let mut levels = vec![usize::MAX; input.used.len()];
+        for &f in &block_positions {
+            let factor = &input.used[f];
+            levels[f] = factor
+                .remap
+                .get(table.factors[factor.table_index].level_of_record[record] as usize)
+                .copied()
+                .flatten()
+                .unwrap_or(usize::MAX);
+        }
+        levels
+    };
     // Cells keyed by the coded run (centre points included).
     let values = table.values;
     let records: Vec<usize> = {
@@ -480,18 +542,29 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
             })
             .collect()
     };
-    let mut cell_index: BTreeMap<Vec<i8>, usize> = BTreeMap::new();
+    let centre_set: BTreeSet<usize> = input.centre_records.iter().copied().collect();
+    let mut cell_index: BTreeMap<(Vec<i8>, Vec<usize>, bool), usize> = BTreeMap::new();
     let mut cell_values: Vec<Vec<f64>> = Vec::new();
     let mut cell_coded: Vec<Vec<f64>> = Vec::new();
+    let mut cell_blocks: Vec<Vec<usize>> = Vec::new();
+    let mut cell_centre: Vec<bool> = Vec::new();
     let mut cell_of: Vec<usize> = Vec::with_capacity(records.len());
     for &record in &records {
         let coded = coded_of(record);
-        let key: Vec<i8> = coded.iter().map(|v| *v as i8).collect();
+        let blocks = block_levels_of(record);
+        let is_centre = centre_set.contains(&record);
+        let key = (
+            coded.iter().map(|v| *v as i8).collect::<Vec<i8>>(),
+            blocks.clone(),
+            is_centre,
+        );
         let next = cell_index.len();
         let index = *cell_index.entry(key).or_insert(next);
         if index == cell_values.len() {
             cell_values.push(Vec::new());
             cell_coded.push(coded);
+            cell_blocks.push(blocks);
+            cell_centre.push(is_centre);
         }
         cell_values[index].push(values[record]);
         cell_of.push(index);
@@ -509,13 +582,12 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
         counts.push(group.len());
         means.push(stats[0].mean);
         centred.push(stats[0].centred_ss.max(0.0));
-        let is_centre = cell_coded[cell].iter().all(|v| *v == 0.0);
         rows.push(column_row(
             &columns,
             input.used,
-            &[],
+            &cell_blocks[cell],
             Some(&cell_coded[cell]),
-            is_centre,
+            cell_centre[cell],
         ));
     }
     let row_fit = fit_rows(&rows, &counts, &means, &centred)?;
@@ -534,50 +606,56 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
     };
     let observed: BTreeSet<Vec<i8>> = cell_coded
         .iter()
-        .map(|coded| model_factors.iter().map(|&f| coded[f] as i8).collect())
+        .zip(&cell_centre)
+        .filter(|(_, centre)| !**centre)
+        .map(|(coded, _)| model_factors.iter().map(|&f| coded[f] as i8).collect())
         .collect();
-    let best = if model_factors.is_empty() {
-        None
-    } else {
-        best_setting(
-            &vec![2; model_factors.len()],
-            input.direction,
-            |choice| {
-                let mut coded = vec![0.0; n_treatments];
-                for (&factor, &level) in model_factors.iter().zip(choice) {
-                    coded[factor] = if level == 0 { -1.0 } else { 1.0 };
-                }
-                column_row(&columns, input.used, &[], Some(&coded), false)
-            },
-            &row_fit,
-        )
-        .map(|(choice, row, mean)| {
-            let key: Vec<i8> = choice.iter().map(|&level| if level == 0 { -1 } else { 1 }).collect();
-            prediction(
-                model_factors
-                    .iter()
-                    .zip(&choice)
-                    .map(|(&f, &level)| {
-                        let info = &coding.info[f];
-                        (
-                            names[f].clone(),
-                            if level == 0 {
-                                info.low.clone()
-                            } else {
-                                info.high.clone()
-                            },
-                        )
-                    })
-                    .collect(),
-                mean,
-                &row,
+    let key_of =
+        |choice: &[usize]| -> Vec<i8> { choice.iter().map(|&level| if level == 0 { -1 } else { 1 }).collect() };
+    let found = input
+        .direction
+        .filter(|_| !model_factors.is_empty())
+        .and_then(|direction| {
+            best_setting(
+                &vec![2; model_factors.len()],
+                direction,
+                |choice| {
+                    let mut coded = vec![0.0; n_treatments];
+                    for (&factor, &level) in model_factors.iter().zip(choice) {
+                        coded[factor] = if level == 0 { -1.0 } else { 1.0 };
+                    }
+                    column_row(&columns, input.used, &[], Some(&coded), false)
+                },
+                |choice| observed.contains(&key_of(choice)),
                 &row_fit,
-                sigma,
-                input.confidence,
-                observed.contains(&key),
             )
-        })
+        });
+    let predict = |(choice, row, mean): (Vec<usize>, Vec<f64>, f64), was_run: bool| {
+        prediction(
+            model_factors
+                .iter()
+                .zip(&choice)
+                .map(|(&f, &level)| {
+                    let info = &coding.info[f];
+                    (
+                        names[f].clone(),
+                        if level == 0 {
+                            info.low.clone()
+                        } else {
+                            info.high.clone()
+                        },
+                    )
+                })
+                .collect(),
+            mean,
+            &row,
+            &row_fit,
+            sigma,
+            input.confidence,
+            was_run,
+        )
     };
+    let (best, outside_trial) = best_and_outside(found, predict);
     let rule = if two.pure_error_df > 0 {
         format!(
             "effects with p below {} against pure error, with every effect they contain",
@@ -588,7 +666,11 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
     };
     Some(ReducedModel {
         active_terms: active.iter().map(|w| word_names(*w, &names)).collect(),
-        terms: words.iter().map(|w| word_names(*w, &names)).collect(),
+        terms: words
+            .iter()
+            .map(|w| word_names(*w, &names))
+            .chain(block_positions.iter().map(|&f| input.used[f].name.clone()))
+            .collect(),
         rule,
         coefficients: coefficient_lines(&column_names, &row_fit, sigma),
         residual_sd: sigma,
@@ -596,6 +678,7 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
         r_squared: (row_fit.total_ss > 0.0).then(|| 1.0 - row_fit.residual_ss / row_fit.total_ss),
         residual_check,
         best,
+        outside_trial,
     })
 }
 
@@ -609,10 +692,17 @@ pub(super) fn reduced_cautions(reduced: &ReducedModel) -> Vec<String> {
             cautions.push(check.reading.clone());
         }
     }
-    if let Some(best) = &reduced.best {
-        if !best.was_run {
-            cautions.push("The recommended combination of levels was not among the runs; confirm it with a few runs before relying on it.".into());
-        }
+    if let Some(outside) = &reduced.outside_trial {
+        let settings: Vec<String> = outside
+            .settings
+            .iter()
+            .map(|(factor, level)| format!("{factor} {level}"))
+            .collect();
+        cautions.push(format!(
+            "The model predicts {} at {}, a combination that was not run: that is a prediction outside the trial, not a finding; confirm it with runs before relying on it.",
+            round_for_text(outside.mean, 4),
+            settings.join(", ")
+        ));
     }
     cautions
 }

@@ -251,6 +251,21 @@ pub struct TwoLevelEffect {
     pub beyond_simultaneous_margin: bool,
     /// Judged active (p below alpha, or beyond Lenth's margin when there is no pure error).
     pub active: bool,
+    /// Pooled into the error (a high-order interaction of an unreplicated design whose
+    /// error comes from such interactions): not judged itself.
+    pub in_error: bool,
+}
+
+/// What the effects are judged against, in words.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ErrorBasis {
+    /// `replicates`, `centre points`, `replicates and centre points`, `pooled
+    /// high-order interactions`, `Lenth's method` or `none`.
+    pub source: String,
+    /// Degrees of freedom of the error (Lenth's: effects / 3).
+    pub df: f64,
+    /// A sentence saying where the error comes from and what it assumes.
+    pub sentence: String,
 }
 
 /// Lenth's method for the unreplicated effects.
@@ -281,8 +296,10 @@ pub struct CurvatureLine {
     pub centre_mean: f64,
     /// Factorial mean minus centre mean.
     pub difference: f64,
-    /// Its standard error, from the centre points' spread.
+    /// Its standard error, from all the pure error of the trial.
     pub se: Option<f64>,
+    /// Degrees of freedom of that error (replicated corners and centre points pooled).
+    pub df: usize,
     /// t ratio.
     pub t_value: Option<f64>,
     /// Two-sided p-value.
@@ -307,8 +324,14 @@ pub struct TwoLevelOutcome {
     pub design: DesignLine,
     /// Mean of the factorial cell means.
     pub grand_mean: Option<f64>,
-    /// Effects, one per alias chain, in standard order of the basic factors.
+    /// Effects, one per alias chain, in standard order of the basic factors (chains
+    /// confounded with blocks left out).
     pub effects: Vec<TwoLevelEffect>,
+    /// Chains confounded with blocks (their column is constant within every block), in
+    /// factor names with the letters in brackets: never read as effects.
+    pub confounded_with_blocks: Vec<String>,
+    /// What the effects are judged against.
+    pub error: ErrorBasis,
     /// Pure-error variance (replicates and centre points) and its df.
     pub pure_error_variance: Option<f64>,
     /// Pure-error degrees of freedom.
@@ -406,8 +429,23 @@ pub struct ReducedModel {
     pub r_squared: Option<f64>,
     /// Residual checks.
     pub residual_check: Option<ResidualCheck>,
-    /// Prediction at the best settings found.
+    /// Prediction at the best settings among the combinations run (`None` when no
+    /// direction was given).
     pub best: Option<Prediction>,
+    /// A combination not run that the model predicts to be better still: a prediction
+    /// outside the trial.
+    pub outside_trial: Option<Prediction>,
+}
+
+/// A combination of treatment levels that was run, with its observed mean.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ObservedCombination {
+    /// `(factor, level)` for each treatment factor.
+    pub settings: Vec<(String, String)>,
+    /// Mean of its runs.
+    pub mean: f64,
+    /// Number of runs.
+    pub n: usize,
 }
 
 /// Everything the factorial analysis found for one response.
@@ -431,6 +469,10 @@ pub struct FactorialOutcome {
     pub reading: Vec<String>,
     /// Sentences for a manager: what matters, which way, how much, what to set.
     pub summary: Vec<String>,
+    /// The combination run with the highest mean response (blocks pooled).
+    pub highest_observed: Option<ObservedCombination>,
+    /// The combination run with the lowest mean response.
+    pub lowest_observed: Option<ObservedCombination>,
     /// A record (0-based) with some treatment factors at their middle level and others
     /// not, which stopped the two-level reading; the caller names its cell in a note.
     pub mixed_levels_record: Option<usize>,

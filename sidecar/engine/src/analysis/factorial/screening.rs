@@ -3,11 +3,15 @@
 
 use crate::analysis::verdict::{p_for_text, round_for_text};
 use crate::stats::two_level::{detect_design, resolution_numeral, DesignKind, DesignSummary, Word, FACTOR_LETTERS};
-use crate::stats::two_level_analysis::{analyse_two_level, contrast_effect, AnalysisOptions, TwoLevelAnalysis};
+use crate::stats::two_level_analysis::{
+    analyse_two_level_in_layout, contrast_effect, AnalysisOptions, RunLayout, TwoLevelAnalysis,
+};
 
-use super::coding::{Coding, UsedFactor};
+use super::coding::Coding;
 use super::kway::t_multiplier;
-use super::results::{CurvatureLine, DesignLine, EffectPlotPoint, LenthLine, TwoLevelEffect, TwoLevelOutcome};
+use super::results::{
+    CurvatureLine, DesignLine, EffectPlotPoint, ErrorBasis, LenthLine, TwoLevelEffect, TwoLevelOutcome,
+};
 use super::{FactorialData, ALIAS_DISPLAY_ORDER};
 
 pub(super) fn word_names(word: Word, names: &[String]) -> String {
@@ -90,16 +94,28 @@ pub(super) fn design_line(design: &DesignSummary) -> DesignLine {
     }
 }
 
-#[allow(clippy::too_many_arguments)]
-pub(super) fn two_level_outcome(
-    table: &FactorialData<'_>,
-    treatments: &[usize],
-    coding: &Coding,
-    usable: &[usize],
-    used: &[UsedFactor],
-    confidence: f64,
-    notes: &mut Vec<String>,
-) -> Option<TwoLevelOutcome> {
+/// The runs of the two-level analysis: the treatment factors, the blocks (table
+/// indices), the coding, the usable records and which of them are centre runs.
+pub(super) struct TwoLevelInput<'a> {
+    pub(super) table: &'a FactorialData<'a>,
+    pub(super) treatments: &'a [usize],
+    pub(super) blocks: &'a [usize],
+    pub(super) coding: &'a Coding,
+    pub(super) usable: &'a [usize],
+    pub(super) centre_records: &'a [usize],
+    pub(super) confidence: f64,
+}
+
+pub(super) fn two_level_outcome(input: &TwoLevelInput<'_>, notes: &mut Vec<String>) -> Option<TwoLevelOutcome> {
+    let TwoLevelInput {
+        table,
+        treatments,
+        blocks,
+        coding,
+        usable,
+        centre_records,
+        confidence,
+    } = *input;
     let values = table.values;
     let runs: Vec<Vec<f64>> = usable
         .iter()
@@ -115,20 +131,48 @@ pub(super) fn two_level_outcome(
         .collect();
     let responses: Vec<f64> = usable.iter().map(|&record| values[record]).collect();
     let names: Vec<String> = treatments.iter().map(|&f| table.factors[f].name.to_string()).collect();
-    let _ = used;
     let alpha = 1.0 - confidence;
     let options = AnalysisOptions {
         lenth_confidence: confidence,
     };
-    match analyse_two_level(&runs, &responses, &options) {
-        Ok(analysis) => Some(two_level_from_analysis(&analysis, &names, usable, confidence, alpha)),
+    // One block index per run: the combination of the block factors' levels.
+    let mut block_index: std::collections::BTreeMap<Vec<u32>, usize> = std::collections::BTreeMap::new();
+    let block_of_run: Vec<usize> = usable
+        .iter()
+        .map(|&record| {
+            let key: Vec<u32> = blocks
+                .iter()
+                .map(|&factor| table.factors[factor].level_of_record[record])
+                .collect();
+            let next = block_index.len();
+            *block_index.entry(key).or_insert(next)
+        })
+        .collect();
+    let is_centre: Vec<bool> = usable
+        .iter()
+        .map(|record| centre_records.binary_search(record).is_ok())
+        .collect();
+    let layout = RunLayout {
+        block_of_run: &block_of_run,
+        is_centre: &is_centre,
+    };
+    match analyse_two_level_in_layout(&runs, &responses, &layout, &options) {
+        Ok(analysis) => Some(two_level_from_analysis(
+            &analysis,
+            &names,
+            usable,
+            confidence,
+            alpha,
+            !blocks.is_empty(),
+        )),
         Err(error) => {
             // Irregular designs: the design, and main effects by direct contrasts.
             let factorial: Vec<(Vec<f64>, f64)> = runs
                 .iter()
                 .zip(&responses)
-                .filter(|(run, _)| run.iter().any(|value| *value != 0.0))
-                .map(|(run, &y)| (run.clone(), y))
+                .zip(&is_centre)
+                .filter(|(_, centre)| !**centre)
+                .map(|((run, &y), _)| (run.clone(), y))
                 .collect();
             let factorial_runs: Vec<Vec<f64>> = factorial.iter().map(|(run, _)| run.clone()).collect();
             let factorial_y: Vec<f64> = factorial.iter().map(|(_, y)| *y).collect();
@@ -162,6 +206,7 @@ pub(super) fn two_level_outcome(
                         beyond_margin: false,
                         beyond_simultaneous_margin: false,
                         active: false,
+                        in_error: false,
                     })
                 })
                 .collect();
@@ -169,6 +214,12 @@ pub(super) fn two_level_outcome(
                 design: design_line(&design),
                 grand_mean: None,
                 effects,
+                confounded_with_blocks: Vec::new(),
+                error: ErrorBasis {
+                    source: "none".into(),
+                    df: 0.0,
+                    sentence: "The runs do not form a regular design, so the effects here carry no test; the k-way model gives the tests.".into(),
+                },
                 pure_error_variance: None,
                 pure_error_df: 0,
                 lenth: None,
@@ -183,15 +234,130 @@ pub(super) fn two_level_outcome(
     }
 }
 
+/// An unreplicated design pools its interactions of three or more factors as error when
+/// it has at least this many such chains (otherwise Lenth's method judges the effects).
+pub const MIN_POOLED_INTERACTION_DF: usize = 3;
+
+/// How the effects are judged: the standard error and df of each effect, which chains are
+/// pooled into the error, and the error in words.
+struct Judgement {
+    se: Option<f64>,
+    df: usize,
+    pooled: Vec<bool>,
+    basis: ErrorBasis,
+}
+
+/// Chooses the error from what the design offers: pure error from replicates and centre
+/// points (within blocks); else the interactions of three or more factors pooled, when
+/// the design estimates at least [`MIN_POOLED_INTERACTION_DF`] chains made only of such
+/// interactions; else Lenth's method (common practice: Montgomery, "Design and Analysis
+/// of Experiments", chapter on unreplicated two-level designs; Lenth 1989).
+///
+/// # Remarks
+/// For an unreplicated design each effect `e` has `SS = N e^2 / 4` and
+/// `Var(e) = 4 sigma^2 / N` (`N` runs), so the pooled standard error of an effect is
+/// `sqrt(sum e_j^2 / m)` over the `m` pooled chains.
+fn judgement(analysis: &TwoLevelAnalysis, blocked: bool, has_centre: bool) -> Judgement {
+    let n_effects = analysis.effects.len();
+    let within = if blocked { " within blocks" } else { "" };
+    if analysis.pure_error_df > 0 {
+        let replicated = analysis.design.n_runs > analysis.design.n_distinct_runs;
+        let centre_df = analysis.curvature.as_ref().map_or(0, |c| c.n_centre.saturating_sub(1));
+        let (source, what) = match (replicated, has_centre && centre_df > 0) {
+            (true, true) => (
+                "replicates and centre points",
+                "repeated runs at the same settings (replicated corners and centre points pooled)",
+            ),
+            (true, false) => ("replicates", "repeated runs at the same settings"),
+            _ => ("centre points", "repeated centre points"),
+        };
+        let df = analysis.pure_error_df;
+        return Judgement {
+            se: analysis.effects.first().and_then(|e| e.standard_error),
+            df,
+            pooled: vec![false; n_effects],
+            basis: ErrorBasis {
+                source: source.into(),
+                df: df as f64,
+                sentence: format!(
+                    "Effects are judged against the spread of {what}{within}: pure error on {df} degrees of freedom."
+                ),
+            },
+        };
+    }
+    let pooled: Vec<bool> = analysis
+        .effects
+        .iter()
+        .map(|e| e.chain.members.iter().all(|member| member.word.order() >= 3))
+        .collect();
+    let n_pooled = pooled.iter().filter(|p| **p).count();
+    if n_pooled >= MIN_POOLED_INTERACTION_DF && n_pooled < n_effects {
+        let sum_sq: f64 = analysis
+            .effects
+            .iter()
+            .zip(&pooled)
+            .filter(|(_, p)| **p)
+            .map(|(e, _)| e.effect * e.effect)
+            .sum();
+        let names: Vec<String> = analysis
+            .effects
+            .iter()
+            .zip(&pooled)
+            .filter(|(_, p)| **p)
+            .map(|(e, _)| e.chain.leader().to_string())
+            .collect();
+        return Judgement {
+            se: Some((sum_sq / n_pooled as f64).sqrt()).filter(|se| *se > 0.0),
+            df: n_pooled,
+            pooled,
+            basis: ErrorBasis {
+                source: "pooled high-order interactions".into(),
+                df: n_pooled as f64,
+                sentence: format!(
+                    "The runs are not repeated, so effects are judged against the interactions of three or more factors ({}) pooled as error on {n_pooled} degrees of freedom; this assumes those interactions are negligible.",
+                    names.join(", ")
+                ),
+            },
+        };
+    }
+    match &analysis.lenth {
+        Some(lenth) => Judgement {
+            se: None,
+            df: 0,
+            pooled: vec![false; n_effects],
+            basis: ErrorBasis {
+                source: "Lenth's method".into(),
+                df: lenth.df,
+                sentence: format!(
+                    "The runs are not repeated and every run goes to estimating an effect, so effects are judged by Lenth's method: a pseudo standard error from the smaller effects on {} degrees of freedom, which assumes most effects are really zero.",
+                    round_for_text(lenth.df, 3)
+                ),
+            },
+        },
+        None => Judgement {
+            se: None,
+            df: 0,
+            pooled: vec![false; n_effects],
+            basis: ErrorBasis {
+                source: "none".into(),
+                df: 0.0,
+                sentence: "The trial offers no estimate of error (no repeated runs, no centre points, too few effects for Lenth's method), so the effects carry no test.".into(),
+            },
+        },
+    }
+}
+
 pub(super) fn two_level_from_analysis(
     analysis: &TwoLevelAnalysis,
     names: &[String],
     usable: &[usize],
     confidence: f64,
     alpha: f64,
+    blocked: bool,
 ) -> TwoLevelOutcome {
     let display_order = ALIAS_DISPLAY_ORDER.min(names.len()).max(2);
-    let multiplier = t_multiplier(confidence, analysis.pure_error_df);
+    let judged = judgement(analysis, blocked, analysis.curvature.is_some());
+    let multiplier = t_multiplier(confidence, judged.df);
     let effects: Vec<TwoLevelEffect> = analysis
         .effects
         .iter()
@@ -199,15 +365,28 @@ pub(super) fn two_level_from_analysis(
         .map(|(index, estimate)| {
             let leader = estimate.chain.leader();
             let lenth = analysis.lenth.as_ref();
-            let half = match (estimate.standard_error, multiplier, lenth) {
+            let in_error = judged.pooled[index];
+            let se = judged.se.filter(|_| !in_error);
+            let (t_value, p_value) = if analysis.pure_error_df > 0 {
+                (estimate.t_value, estimate.p_value)
+            } else {
+                let t_value = se.map(|se| estimate.effect / se);
+                let p_value = t_value.and_then(|t| {
+                    crate::stats::dist::t_sf(t.abs(), judged.df as f64)
+                        .ok()
+                        .map(|tail| (2.0 * tail).min(1.0))
+                });
+                (t_value, p_value)
+            };
+            let half = match (se, multiplier, lenth) {
                 (Some(se), Some(t), _) => Some(se * t),
-                (None, _, Some(lenth)) => Some(lenth.margin_of_error),
+                (None, _, Some(lenth)) if judged.se.is_none() => Some(lenth.margin_of_error),
                 _ => None,
             };
             let beyond_margin = lenth.is_some_and(|l| l.exceeds_margin.get(index).copied().unwrap_or(false));
-            let active = match estimate.p_value {
+            let active = match p_value {
                 Some(p) => p < alpha,
-                None => beyond_margin,
+                None => judged.se.is_none() && beyond_margin,
             };
             TwoLevelEffect {
                 name: leader.to_string(),
@@ -216,9 +395,9 @@ pub(super) fn two_level_from_analysis(
                 aliases_named: chain_named(&estimate.chain, names, display_order),
                 effect: estimate.effect,
                 coefficient: estimate.coefficient,
-                se: estimate.standard_error,
-                t_value: estimate.t_value,
-                p_value: estimate.p_value,
+                se,
+                t_value,
+                p_value,
                 low: half.map(|half| estimate.effect - half),
                 high: half.map(|half| estimate.effect + half),
                 lenth_t: lenth.and_then(|l| l.t_ratios.get(index).copied()),
@@ -226,7 +405,16 @@ pub(super) fn two_level_from_analysis(
                 beyond_simultaneous_margin: lenth
                     .is_some_and(|l| l.exceeds_simultaneous_margin.get(index).copied().unwrap_or(false)),
                 active,
+                in_error,
             }
+        })
+        .collect();
+    let confounded_with_blocks: Vec<String> = analysis
+        .confounded_with_blocks
+        .iter()
+        .map(|estimate| {
+            let leader = estimate.chain.leader();
+            format!("{} ({})", word_names(leader, names).replace(':', " × "), leader)
         })
         .collect();
     let plot = |points: &[crate::stats::two_level_analysis::PlotPoint]| -> Vec<EffectPlotPoint> {
@@ -245,6 +433,8 @@ pub(super) fn two_level_from_analysis(
     TwoLevelOutcome {
         design: design_line(&analysis.design),
         grand_mean: Some(analysis.grand_mean),
+        confounded_with_blocks,
+        error: judged.basis,
         pure_error_variance: analysis.pure_error_variance,
         pure_error_df: analysis.pure_error_df,
         lenth: analysis.lenth.as_ref().map(|lenth| LenthLine {
@@ -261,6 +451,7 @@ pub(super) fn two_level_from_analysis(
             centre_mean: curvature.centre_mean,
             difference: curvature.difference,
             se: curvature.standard_error,
+            df: curvature.pure_error_df,
             t_value: curvature.t_value,
             p_value: curvature.p_value,
         }),
@@ -379,20 +570,21 @@ pub(super) fn aliasing_advice(
     (notes, follow_up)
 }
 
-/// Notes and cautions on the two-level part: blocks not adjusted for, effects judged by
-/// Lenth's method on unreplicated runs, aliasing (at most three), curvature at the centre.
-pub(super) fn two_level_cautions(
-    two: &TwoLevelOutcome,
-    has_blocks: bool,
-    alpha: f64,
-    notes: &mut Vec<String>,
-    cautions: &mut Vec<String>,
-) {
-    if has_blocks {
-        notes.push("the two-level effects do not adjust for blocks; the k-way model does (blocks additive)".into());
+/// Cautions on the two-level part: effects confounded with blocks, the error of an
+/// unreplicated design (pooled interactions or Lenth's method), aliasing (at most three),
+/// curvature at the centre.
+pub(super) fn two_level_cautions(two: &TwoLevelOutcome, has_blocks: bool, alpha: f64, cautions: &mut Vec<String>) {
+    if has_blocks && !two.confounded_with_blocks.is_empty() {
+        cautions.push(format!(
+            "Confounded with blocks: {}. Each of these is indistinguishable from the difference between blocks, so it is not read as an effect and plays no part in the settings.",
+            two.confounded_with_blocks.join(", ")
+        ));
     }
-    if two.lenth.is_some() && two.pure_error_df == 0 {
-        cautions.push("The runs are not replicated, so the effects are judged by Lenth's method, which assumes that most effects are really zero.".into());
+    if matches!(
+        two.error.source.as_str(),
+        "Lenth's method" | "pooled high-order interactions"
+    ) {
+        cautions.push(two.error.sentence.clone());
     }
     cautions.extend(two.aliasing_notes.iter().take(3).cloned());
     if let Some(curvature) = &two.curvature {

@@ -4,6 +4,7 @@
 use super::coding::code_factor;
 use super::{analyse_any, analyse_factorial, FactorData, FactorialData, FactorialOptions};
 use crate::analysis::oneway::fit_one_way;
+use crate::options::Direction;
 
 /// Small deterministic generator (xorshift64*) for property tests.
 struct Rng(u64);
@@ -234,7 +235,12 @@ fn interaction_that_changes_the_best_level_is_read_out() {
         &[("Catalyst", catalyst, false), ("Temperature", temperature, false)],
         values,
     );
-    let outcome = analyse_factorial(&table.data(), &FactorialOptions::default()).expect("outcome");
+    // A direction is needed for a best setting (with none, nothing is called best).
+    let options = FactorialOptions {
+        direction: Some(Direction::HigherIsBetter),
+        ..FactorialOptions::default()
+    };
+    let outcome = analyse_factorial(&table.data(), &options).expect("outcome");
     assert!(
         outcome.reading.iter().any(|line| line.contains("depends on")),
         "{:?}",
@@ -264,4 +270,505 @@ fn missing_combination_is_listed_by_name() {
     let interaction = model.terms.iter().find(|t| t.term == "A:B").expect("A:B");
     assert_eq!(interaction.estimability, "partial");
     assert!(model.type_iii_depends_on_coding);
+}
+
+/// Bounded deterministic noise in [-0.05, 0.05] for the generated trials below.
+fn small_noise(index: usize) -> f64 {
+    0.05 * (((index * 7919) % 13) as f64 - 6.0) / 6.0
+}
+
+fn number_labels(values: &[f64]) -> Vec<String> {
+    values.iter().map(|value| format!("{value}")).collect()
+}
+
+/// Treatment factors named `names`, with the coded columns written as numbers.
+fn coded_factors<'a>(names: &[&'a str], columns: &[Vec<f64>]) -> Vec<(&'a str, Vec<String>, bool)> {
+    names
+        .iter()
+        .zip(columns)
+        .map(|(name, column)| (*name, number_labels(column), false))
+        .collect()
+}
+
+fn with_direction(direction: Option<Direction>) -> FactorialOptions {
+    FactorialOptions {
+        direction,
+        ..FactorialOptions::default()
+    }
+}
+
+/// A 2^(5-1) fraction (E = ABCD) in two blocks split on ABC (so DE, its alias, is
+/// confounded with blocks), with four centre points in each block. Model with known
+/// effects: y = 50 + 4 A + 3 B - 2.5 C + 1.5 AB + 6 [block 2] - 2 [centre] + noise, so
+/// the effects are A 8, B 6, C -5, AB 3 (effect = twice the coefficient, common
+/// practice), curvature (corners minus centre) +2, every other effect 0.
+fn blocked_fraction(with_blocks: bool) -> Table {
+    let mut columns: Vec<Vec<f64>> = vec![Vec::new(); 5];
+    let mut block = Vec::new();
+    let mut values = Vec::new();
+    for run in 0..16usize {
+        let level = |bit: usize| if run & (1 << bit) != 0 { 1.0 } else { -1.0 };
+        let (a, b, c, d) = (level(0), level(1), level(2), level(3));
+        let e = a * b * c * d;
+        for (column, value) in columns.iter_mut().zip([a, b, c, d, e]) {
+            column.push(value);
+        }
+        let second = a * b * c > 0.0;
+        block.push(if second { "2" } else { "1" }.to_string());
+        values
+            .push(50.0 + 4.0 * a + 3.0 * b - 2.5 * c + 1.5 * a * b + if second { 6.0 } else { 0.0 } + small_noise(run));
+    }
+    for centre in 0..8usize {
+        for column in columns.iter_mut() {
+            column.push(0.0);
+        }
+        let second = centre >= 4;
+        block.push(if second { "2" } else { "1" }.to_string());
+        values.push(50.0 - 2.0 + if second { 6.0 } else { 0.0 } + small_noise(16 + centre));
+    }
+    let names = ["Temperature", "Pressure", "Speed", "Feed", "Coolant"];
+    let mut factors = coded_factors(&names, &columns);
+    if with_blocks {
+        factors.push(("Shift", block, true));
+    }
+    table(&factors, values)
+}
+
+#[test]
+fn blocks_enter_pure_error_curvature_and_confounding() {
+    let table = blocked_fraction(true);
+    let outcome = analyse_factorial(&table.data(), &with_direction(Some(Direction::HigherIsBetter))).expect("outcome");
+    let two = outcome.two_level.as_ref().expect("two-level");
+    assert_eq!(two.design.name, "2^(5-1) resolution V");
+    // Pure error within blocks, by its definition (common practice): the centre points'
+    // variance about their own block's mean, 3 df in each block.
+    let centre = &table.values[16..];
+    let within = |group: &[f64]| {
+        let mean = group.iter().sum::<f64>() / group.len() as f64;
+        group.iter().map(|y| (y - mean).powi(2)).sum::<f64>()
+    };
+    let expected = (within(&centre[..4]) + within(&centre[4..])) / 6.0;
+    assert_eq!(two.pure_error_df, 6);
+    assert!(close(two.pure_error_variance.expect("pure error"), expected, 1e-9));
+    assert!(two.pure_error_variance.expect("pure error") < 0.01);
+    // DE (= ABC) is constant within each block: named, never an effect.
+    assert_eq!(two.confounded_with_blocks, ["Feed × Coolant (DE)"]);
+    assert!(two.effects.iter().all(|effect| effect.name != "DE"));
+    assert!(outcome.cautions.iter().any(|c| c.contains("Confounded with blocks")));
+    let effect = |name: &str| two.effects.iter().find(|e| e.name == name).expect(name);
+    for (name, value) in [("A", 8.0), ("B", 6.0), ("C", -5.0), ("AB", 3.0)] {
+        assert!((effect(name).effect - value).abs() < 0.11, "{name}");
+        assert!(effect(name).active, "{name}");
+    }
+    // Curvature within blocks, judged by all the pure error.
+    let curvature = two.curvature.as_ref().expect("curvature");
+    assert!((curvature.difference - 2.0).abs() < 0.11);
+    assert_eq!(curvature.df, 6);
+    assert!(curvature.p_value.expect("p") < 0.001);
+    assert_eq!(two.error.source, "centre points");
+    assert!(two.error.sentence.contains("within blocks"), "{}", two.error.sentence);
+    // The combinations a blocked fraction leaves out are left out by design.
+    assert!(
+        outcome.cautions.iter().all(|c| !c.contains("were not run")),
+        "{:?}",
+        outcome.cautions
+    );
+    assert!(outcome
+        .cautions
+        .iter()
+        .any(|c| c.contains("left out by design") && c.contains("A + BCDE")));
+    let reduced = outcome.reduced.as_ref().expect("reduced");
+    assert!(reduced.active_terms.iter().all(|term| term != "Feed:Coolant"));
+    assert!(reduced.terms.iter().any(|term| term == "Shift"), "{:?}", reduced.terms);
+    let best = reduced.best.as_ref().expect("best");
+    for setting in [("Temperature", "1"), ("Pressure", "1"), ("Speed", "-1")] {
+        assert!(
+            best.settings.contains(&(setting.0.to_string(), setting.1.to_string())),
+            "{:?}",
+            best.settings
+        );
+    }
+    assert!(best.was_run);
+    // Without the block column the shift of 6 falls into the "pure error" (the fault
+    // this guards against): the blocked analysis is what keeps it out.
+    let unblocked = analyse_factorial(&blocked_fraction(false).data(), &FactorialOptions::default()).expect("outcome");
+    let pooled = unblocked
+        .two_level
+        .expect("two-level")
+        .pure_error_variance
+        .expect("pure error");
+    assert!(pooled > 5.0, "{pooled}");
+}
+
+/// A replicated 2^3 (two runs per corner) with three centre points. Model with known
+/// effects: y = 20 + 2 A + B + noise, no curvature.
+#[test]
+fn curvature_uses_all_the_pure_error() {
+    let mut columns: Vec<Vec<f64>> = vec![Vec::new(); 3];
+    let mut values = Vec::new();
+    for replicate in 0..2 {
+        for run in 0..8usize {
+            let level = |bit: usize| if run & (1 << bit) != 0 { 1.0 } else { -1.0 };
+            for (bit, column) in columns.iter_mut().enumerate() {
+                column.push(level(bit));
+            }
+            values.push(20.0 + 2.0 * level(0) + level(1) + small_noise(8 * replicate + run));
+        }
+    }
+    for centre in 0..3 {
+        for column in columns.iter_mut() {
+            column.push(0.0);
+        }
+        values.push(20.0 + small_noise(16 + centre));
+    }
+    let factors = coded_factors(&["A", "B", "C"], &columns);
+    let table = table(&factors, values.clone());
+    let outcome = analyse_factorial(&table.data(), &FactorialOptions::default()).expect("outcome");
+    let two = outcome.two_level.as_ref().expect("two-level");
+    // Pure error by its definition (common practice): corners about their cell means
+    // (8 df) and centre points about theirs (2 df), pooled.
+    let mut ss = 0.0;
+    for run in 0..8 {
+        let pair = [values[run], values[8 + run]];
+        let mean = 0.5 * (pair[0] + pair[1]);
+        ss += pair.iter().map(|y| (y - mean).powi(2)).sum::<f64>();
+    }
+    let centre_mean = values[16..].iter().sum::<f64>() / 3.0;
+    ss += values[16..].iter().map(|y| (y - centre_mean).powi(2)).sum::<f64>();
+    let variance = ss / 10.0;
+    assert_eq!(two.pure_error_df, 10);
+    assert_eq!(two.error.source, "replicates and centre points");
+    assert!(close(two.error.df, 10.0, 1e-12));
+    assert!(two.error.sentence.contains("10 degrees of freedom"));
+    let curvature = two.curvature.as_ref().expect("curvature");
+    assert_eq!(curvature.df, 10);
+    // se = s sqrt(1/n_F + 1/n_C) (Montgomery, section on centre points).
+    assert!(close(
+        curvature.se.expect("se"),
+        (variance * (1.0 / 16.0 + 1.0 / 3.0)).sqrt(),
+        1e-9
+    ));
+    let factorial_mean = values[..16].iter().sum::<f64>() / 16.0;
+    assert!(close(curvature.difference, factorial_mean - centre_mean, 1e-12));
+    let effect = |name: &str| two.effects.iter().find(|e| e.name == name).expect(name);
+    assert!((effect("A").effect - 4.0).abs() < 0.11 && effect("A").active);
+    assert!((effect("B").effect - 2.0).abs() < 0.11 && effect("B").active);
+}
+
+/// An unreplicated 2^4. Model with known effects: y = 20 + 5 A + 3 B + 2 AC + noise,
+/// so A 10, B 6, AC 4; the interactions of three or more factors are pooled as error.
+#[test]
+fn unreplicated_full_factorial_pools_high_order_interactions() {
+    let mut columns: Vec<Vec<f64>> = vec![Vec::new(); 4];
+    let mut values = Vec::new();
+    for run in 0..16usize {
+        let level = |bit: usize| if run & (1 << bit) != 0 { 1.0 } else { -1.0 };
+        for (bit, column) in columns.iter_mut().enumerate() {
+            column.push(level(bit));
+        }
+        values.push(20.0 + 5.0 * level(0) + 3.0 * level(1) + 2.0 * level(0) * level(2) + small_noise(run));
+    }
+    let factors = coded_factors(&["A", "B", "C", "D"], &columns);
+    let outcome = analyse_factorial(&table(&factors, values).data(), &FactorialOptions::default()).expect("outcome");
+    let two = outcome.two_level.as_ref().expect("two-level");
+    assert_eq!(two.error.source, "pooled high-order interactions");
+    assert!(close(two.error.df, 5.0, 1e-12));
+    let pooled: Vec<&str> = two
+        .effects
+        .iter()
+        .filter(|e| e.in_error)
+        .map(|e| e.name.as_str())
+        .collect();
+    assert_eq!(pooled, ["ABC", "ABD", "ACD", "BCD", "ABCD"]);
+    // Pooled standard error of an effect: sqrt(sum e^2 / m) over the pooled effects
+    // (SS = N e^2 / 4 and Var(e) = 4 sigma^2 / N for N runs; common practice).
+    let sum_sq: f64 = two
+        .effects
+        .iter()
+        .filter(|e| e.in_error)
+        .map(|e| e.effect * e.effect)
+        .sum();
+    let se = (sum_sq / 5.0).sqrt();
+    let effect = |name: &str| two.effects.iter().find(|e| e.name == name).expect(name);
+    assert!(close(effect("A").se.expect("se"), se, 1e-12));
+    for (name, value) in [("A", 10.0), ("B", 6.0), ("AC", 4.0)] {
+        assert!(
+            (effect(name).effect - value).abs() < 0.11 && effect(name).active,
+            "{name}"
+        );
+    }
+    assert!(two
+        .effects
+        .iter()
+        .filter(|e| e.in_error)
+        .all(|e| !e.active && e.p_value.is_none()));
+}
+
+/// NIST/SEMATECH e-Handbook of Statistical Methods, eddy current probe sensitivity case
+/// study (2^3 full factorial, responses from memory as in the two-level unit tests): an
+/// unreplicated 2^3 leaves one three-factor interaction, too few to pool, so Lenth's
+/// method judges the effects. Effects from the same section (from memory): X1 3.1025,
+/// X2 -0.8675, X3 0.2125.
+#[test]
+fn saturated_design_is_judged_by_lenth_and_says_so() {
+    let responses = [1.70, 4.57, 0.55, 3.39, 1.51, 4.59, 0.67, 4.29];
+    let mut columns: Vec<Vec<f64>> = vec![Vec::new(); 3];
+    for run in 0..8usize {
+        for (bit, column) in columns.iter_mut().enumerate() {
+            column.push(if run & (1 << bit) != 0 { 1.0 } else { -1.0 });
+        }
+    }
+    let factors = coded_factors(&["X1", "X2", "X3"], &columns);
+    let outcome = analyse_factorial(
+        &table(&factors, responses.to_vec()).data(),
+        &FactorialOptions::default(),
+    )
+    .expect("outcome");
+    let two = outcome.two_level.as_ref().expect("two-level");
+    assert_eq!(two.error.source, "Lenth's method");
+    assert!(close(two.error.df, 7.0 / 3.0, 1e-12));
+    assert!(outcome.cautions.iter().any(|c| c.contains("Lenth's method")));
+    let effect = |name: &str| two.effects.iter().find(|e| e.name == name).expect(name).effect;
+    assert!(close(effect("A"), 3.1025, 1e-12));
+    assert!(close(effect("B"), -0.8675, 1e-12));
+    assert!(close(effect("C"), 0.2125, 1e-12));
+}
+
+/// A 2^(4-1) fraction with D = ABC, unreplicated. Model with known effects:
+/// y = 10 + 2 A - 1.5 B + noise.
+#[test]
+fn fraction_says_what_is_aliased_not_what_was_not_run() {
+    let mut columns: Vec<Vec<f64>> = vec![Vec::new(); 4];
+    let mut values = Vec::new();
+    for run in 0..8usize {
+        let level = |bit: usize| if run & (1 << bit) != 0 { 1.0 } else { -1.0 };
+        let (a, b, c) = (level(0), level(1), level(2));
+        for (column, value) in columns.iter_mut().zip([a, b, c, a * b * c]) {
+            column.push(value);
+        }
+        values.push(10.0 + 2.0 * a - 1.5 * b + small_noise(run));
+    }
+    let factors = coded_factors(&["A", "B", "C", "D"], &columns);
+    let outcome = analyse_factorial(&table(&factors, values).data(), &FactorialOptions::default()).expect("outcome");
+    let two = outcome.two_level.as_ref().expect("two-level");
+    assert_eq!(two.design.kind, "regular fraction");
+    assert_eq!(outcome.cells.n_missing, 8);
+    assert!(
+        outcome.cautions.iter().all(|c| !c.contains("were not run")),
+        "{:?}",
+        outcome.cautions
+    );
+    let caution = outcome
+        .cautions
+        .iter()
+        .find(|c| c.contains("left out by design"))
+        .expect("aliasing caution");
+    assert!(caution.contains("A + BCD") && caution.contains("D = ABC"), "{caution}");
+    assert!((two.effects.iter().find(|e| e.name == "A").expect("A").effect - 4.0).abs() < 0.11);
+}
+
+/// A replicated 2^3 (Supplier East/West, Temperature 170/180, Time 10/20) where one run
+/// planned at 180 was made at 175. Model with known effects: y = 80 + 3 [East] - 3
+/// [West] + 2 T + Time + noise (T, Time coded ±1; the 175 run at T = 0).
+#[test]
+fn off_plan_run_gives_no_best_equal_to_worst_and_settings_within_the_runs() {
+    let mut supplier = Vec::new();
+    let mut temperature = Vec::new();
+    let mut time = Vec::new();
+    let mut values = Vec::new();
+    let mut index = 0;
+    for _ in 0..2 {
+        for run in 0..8usize {
+            let level = |bit: usize| if run & (1 << bit) != 0 { 1.0 } else { -1.0 };
+            let (s, mut t, m) = (level(0), level(1), level(2));
+            if index == 15 {
+                t = 0.0;
+            }
+            supplier.push(if s > 0.0 { "East" } else { "West" }.to_string());
+            temperature.push(format!("{}", 175.0 + 5.0 * t));
+            time.push(format!("{}", 15.0 + 5.0 * m));
+            values.push(80.0 + 3.0 * s + 2.0 * t + m + small_noise(index));
+            index += 1;
+        }
+    }
+    let table = table(
+        &[
+            ("Supplier", supplier, false),
+            ("Temperature", temperature, false),
+            ("Time", time, false),
+        ],
+        values,
+    );
+    let outcome = analyse_factorial(&table.data(), &with_direction(Some(Direction::HigherIsBetter))).expect("outcome");
+    assert!(outcome.two_level.is_none());
+    for line in &outcome.summary {
+        if let (Some(best), Some(worst)) = (line.find(" is best ("), line.find(" worst (")) {
+            let head = &line[..best];
+            let best_label = head.rsplit(": ").next().unwrap_or(head);
+            let middle = &line[..worst];
+            let worst_label = middle.rsplit("), ").next().unwrap_or(middle);
+            assert_ne!(best_label, worst_label, "{line}");
+        }
+    }
+    let reduced = outcome.reduced.as_ref().expect("reduced");
+    let best = reduced.best.as_ref().expect("best");
+    assert!(best.was_run);
+    let observed: Vec<Vec<(String, String)>> = outcome
+        .model
+        .as_ref()
+        .expect("model")
+        .cells
+        .iter()
+        .map(|cell| {
+            ["Supplier", "Temperature", "Time"]
+                .iter()
+                .zip(&cell.levels)
+                .map(|(f, l)| (f.to_string(), l.clone()))
+                .collect()
+        })
+        .collect();
+    assert!(
+        observed
+            .iter()
+            .any(|cell| best.settings.iter().all(|setting| cell.contains(setting))),
+        "{:?}",
+        best.settings
+    );
+    if let Some(outside) = &reduced.outside_trial {
+        assert!(!outside.was_run);
+        assert!(outcome
+            .cautions
+            .iter()
+            .any(|c| c.contains("prediction outside the trial")));
+    }
+    // The 175 run leaves the averages at 175 (and those that need it) not estimable:
+    // the summary says so instead of naming one level both best and worst.
+    assert!(
+        outcome.summary.iter().any(|line| line.contains("cannot be estimated")),
+        "{:?}",
+        outcome.summary
+    );
+}
+
+/// A 2^3 design with numeric A (10/15/20) and B (1/2/3) and a text factor C (blue/red),
+/// with centre runs (A 15, B 2) repeated twice at each label of C. Model with known
+/// effects: y = 30 + 4 A - 2 B + 3 C - 2.5 [centre] + noise (C = +1 for red, the second
+/// label in sorted order), so the effects are A 8, B -4, C 6 and corners minus centre 2.5.
+#[test]
+fn centre_runs_at_each_level_of_a_text_factor() {
+    let (mut a, mut b, mut c, mut values) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    for run in 0..8usize {
+        let level = |bit: usize| if run & (1 << bit) != 0 { 1.0 } else { -1.0 };
+        a.push(format!("{}", 15.0 + 5.0 * level(0)));
+        b.push(format!("{}", 2.0 + level(1)));
+        c.push(if level(2) > 0.0 { "red" } else { "blue" }.to_string());
+        values.push(30.0 + 4.0 * level(0) - 2.0 * level(1) + 3.0 * level(2) + small_noise(run));
+    }
+    for centre in 0..4usize {
+        let red = centre % 2 == 1;
+        a.push("15".into());
+        b.push("2".into());
+        c.push(if red { "red" } else { "blue" }.to_string());
+        values.push(30.0 + if red { 3.0 } else { -3.0 } - 2.5 + small_noise(8 + centre));
+    }
+    let table = table(&[("A", a, false), ("B", b, false), ("C", c, false)], values);
+    let outcome = analyse_factorial(&table.data(), &FactorialOptions::default()).expect("outcome");
+    assert_eq!(outcome.mixed_levels_record, None);
+    assert_eq!(outcome.cells.n_centre_points, 4);
+    assert_eq!(outcome.cells.n_missing, 0);
+    let two = outcome.two_level.as_ref().expect("two-level");
+    assert_eq!(two.design.name, "2^3 full factorial");
+    let effect = |name: &str| two.effects.iter().find(|e| e.name == name).expect(name).effect;
+    assert!((effect("A") - 8.0).abs() < 0.11);
+    assert!((effect("B") + 4.0).abs() < 0.11);
+    assert!((effect("C") - 6.0).abs() < 0.11);
+    // Pure error: the two centre runs at each label of C (1 df each).
+    assert_eq!(two.pure_error_df, 2);
+    let curvature = two.curvature.as_ref().expect("curvature");
+    assert!((curvature.difference - 2.5).abs() < 0.11, "{}", curvature.difference);
+    assert_eq!(curvature.df, 2);
+    assert!(curvature.p_value.expect("p") < 0.05);
+}
+
+/// A replicated 2^2. Model with known effects: y = 10 + 2 A - 3 B + noise: the highest
+/// cell is A high, B low (about 15), the lowest A low, B high (about 5).
+#[test]
+fn no_direction_means_no_best_settings() {
+    let (mut a, mut b, mut values) = (Vec::new(), Vec::new(), Vec::new());
+    for run in 0..12usize {
+        let level = |bit: usize| if run & (1 << bit) != 0 { 1.0 } else { -1.0 };
+        a.push(format!("{}", level(0)));
+        b.push(format!("{}", level(1)));
+        values.push(10.0 + 2.0 * level(0) - 3.0 * level(1) + small_noise(run));
+    }
+    let table = table(&[("A", a, false), ("B", b, false)], values);
+    let outcome = analyse_factorial(&table.data(), &FactorialOptions::default()).expect("outcome");
+    let reduced = outcome.reduced.as_ref().expect("reduced");
+    assert!(reduced.best.is_none() && reduced.outside_trial.is_none());
+    let highest = outcome.highest_observed.as_ref().expect("highest");
+    assert_eq!(
+        highest.settings,
+        [("A".to_string(), "1".to_string()), ("B".to_string(), "-1".to_string())]
+    );
+    assert!((highest.mean - 15.0).abs() < 0.06);
+    let lowest = outcome.lowest_observed.as_ref().expect("lowest");
+    assert_eq!(
+        lowest.settings,
+        [("A".to_string(), "-1".to_string()), ("B".to_string(), "1".to_string())]
+    );
+    assert!(outcome
+        .summary
+        .iter()
+        .any(|line| line.contains("No direction was given")));
+    assert!(outcome.summary.iter().all(|line| !line.contains("Recommended")));
+    // With a direction, the lowest corner is recommended for lower-is-better.
+    let lower = analyse_factorial(&table.data(), &with_direction(Some(Direction::LowerIsBetter))).expect("outcome");
+    let best = lower.reduced.expect("reduced").best.expect("best");
+    assert_eq!(best.settings, lowest.settings);
+    assert!((best.mean - 5.0).abs() < 0.06);
+}
+
+/// Montgomery, *Design and Analysis of Experiments* (pilot-plant filtration rate, an
+/// unreplicated 2^4, example 6.2 in the 5th and later editions), rates in standard order
+/// of A, B, C, D from memory (as in the integration tests). Its published three- and
+/// four-factor effects (from memory) are ABC 1.875, ABD 4.125, ACD -1.625, BCD -2.625,
+/// ABCD 1.375; pooled as error on 5 df they give an effect standard error
+/// sqrt(31.953125 / 5) (hand arithmetic), against which A, C, D, AC and AD stand out.
+#[test]
+fn filtration_rate_pools_its_high_order_interactions() {
+    let rates = [
+        45.0, 71.0, 48.0, 65.0, 68.0, 60.0, 80.0, 65.0, 43.0, 100.0, 45.0, 104.0, 75.0, 86.0, 70.0, 96.0,
+    ];
+    let mut columns: Vec<Vec<f64>> = vec![Vec::new(); 4];
+    for run in 0..16usize {
+        for (bit, column) in columns.iter_mut().enumerate() {
+            column.push(if run & (1 << bit) != 0 { 1.0 } else { -1.0 });
+        }
+    }
+    let factors = coded_factors(&["A", "B", "C", "D"], &columns);
+    let outcome =
+        analyse_factorial(&table(&factors, rates.to_vec()).data(), &FactorialOptions::default()).expect("outcome");
+    let two = outcome.two_level.as_ref().expect("two-level");
+    assert_eq!(two.error.source, "pooled high-order interactions");
+    let effect = |name: &str| two.effects.iter().find(|e| e.name == name).expect(name);
+    for (name, value) in [
+        ("ABC", 1.875),
+        ("ABD", 4.125),
+        ("ACD", -1.625),
+        ("BCD", -2.625),
+        ("ABCD", 1.375),
+    ] {
+        assert!(close(effect(name).effect, value, 1e-12), "{name}");
+        assert!(effect(name).in_error);
+    }
+    let se = (31.953125f64 / 5.0).sqrt();
+    assert!(close(effect("A").se.expect("se"), se, 1e-12));
+    let mut active: Vec<&str> = two
+        .effects
+        .iter()
+        .filter(|e| e.active)
+        .map(|e| e.name.as_str())
+        .collect();
+    active.sort();
+    assert_eq!(active, ["A", "AC", "AD", "C", "D"]);
 }
