@@ -568,3 +568,70 @@ fn binary_writes_factorial_sheets_and_json() {
     });
     assert!(has_reading, "the Summary carries the factorial reading");
 }
+
+/// A trial of four recipes run once on each of five days, with Day named as blocks:
+/// the comparisons of recipes take the days' shifts out and use the blocked model's
+/// error. Invented data; reference statsmodels 0.15.0
+/// `anova_lm(ols("y ~ C(day) + C(recipe)"), typ=1)`: SS days 30.29199999999987,
+/// SS recipes 75.42549999999981, SS residual 1.051999999999992 on 12 df; every
+/// difference of least-squares means has SE 0.1872609587358411.
+#[test]
+fn comparisons_in_a_blocked_trial_use_the_blocked_error() {
+    let cure = [
+        [41.2, 43.9, 40.1, 45.3],
+        [42.8, 45.1, 41.7, 46.0],
+        [39.9, 42.6, 39.0, 44.1],
+        [43.5, 46.3, 42.2, 47.4],
+        [40.6, 43.0, 40.4, 44.8],
+    ];
+    let mut rows = Vec::new();
+    for (day, values) in cure.iter().enumerate() {
+        for (recipe, value) in values.iter().enumerate() {
+            rows.push(vec![
+                text(&format!("D{}", day + 1)),
+                text(&format!("R{}", recipe + 1)),
+                Cell::Number(*value),
+            ]);
+        }
+    }
+    let folder = tempfile::tempdir().expect("temp folder");
+    let path = folder.path().join("blocked.xlsx");
+    write_workbook(
+        &path,
+        &["Day", "Recipe", "Cure time (min)"],
+        &rows,
+        &[("factors", "Recipe"), ("blocks", "Day")],
+    );
+    let results = analyse_workbook(&path, &AnalysisRequest::default()).expect("analysed");
+    let fit = results.responses[0].fit().expect("one-way fit");
+    let blocks = fit.blocks.as_ref().expect("the blocks were taken out");
+    assert_eq!(blocks.factor, "Day");
+    assert_eq!(fit.pooled_df, 12.0, "error df of the blocked model");
+    assert!(
+        close(fit.anova[0].ss, 75.42549999999981, 1e-11),
+        "SS recipes {}",
+        fit.anova[0].ss
+    );
+    assert!(close(blocks.ss, 30.29199999999987, 1e-11), "SS days {}", blocks.ss);
+    for pair in &fit.pairs {
+        assert!(close(pair.se, 0.1872609587358411, 1e-11), "SE {}", pair.se);
+    }
+    // Without the blocks the day-to-day spread would swamp the recipes' error.
+    let unblocked = analyse_workbook(
+        &{
+            let plain = folder.path().join("plain.xlsx");
+            write_workbook(
+                &plain,
+                &["Day", "Recipe", "Cure time (min)"],
+                &rows,
+                &[("factors", "Recipe")],
+            );
+            plain
+        },
+        &AnalysisRequest::default(),
+    )
+    .expect("analysed");
+    let plain_fit = unblocked.responses[0].fit().expect("fit");
+    assert!(plain_fit.blocks.is_none());
+    assert!(plain_fit.pooled_sd > 3.0 * fit.pooled_sd);
+}

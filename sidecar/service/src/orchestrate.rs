@@ -259,6 +259,8 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             }
         }
         let with_values = counts.iter().filter(|&&count| count > 0).count();
+        // In a trial run in blocks, the values with their block's shift taken off.
+        let mut block_adjusted: Option<Vec<f64>> = None;
         let outcome = if with_values > MAX_CONDITIONS {
             ResponseOutcome::NotAnalysed {
                 reason: format!(
@@ -269,8 +271,20 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
                 ),
             }
         } else {
-            match fit_one_way(&condition_names, &groups, &response.values, confidence, &contrasts) {
-                Ok(fit) => ResponseOutcome::Analysed { one_way: Box::new(fit) },
+            let fitted = fit_conditions(
+                &table,
+                &condition_names,
+                &groups,
+                &response.values,
+                confidence,
+                &contrasts,
+                &mut findings,
+            );
+            match fitted {
+                Ok((fit, adjusted)) => {
+                    block_adjusted = adjusted;
+                    ResponseOutcome::Analysed { one_way: Box::new(fit) }
+                }
                 Err(OneWayError::TooFewConditions { found }) => ResponseOutcome::NotAnalysed {
                     reason: format!(
                         "only {found} condition(s) have values for '{}'; at least two are needed",
@@ -285,9 +299,12 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
         let assessment = match &outcome {
             ResponseOutcome::Analysed { one_way } => {
                 let assessment_started = Instant::now();
-                let mut assessment = assess_response(one_way, &groups, &counts, &response.values, &settings, direction);
+                let checked_values = block_adjusted.as_deref().unwrap_or(&response.values);
+                let mut assessment = assess_response(one_way, &groups, &counts, checked_values, &settings, direction);
                 timings.assessment_ms += assessment_started.elapsed().as_secs_f64() * 1e3;
                 for outlier in &mut assessment.checks.outliers {
+                    // The value as typed, not with its block's shift taken off.
+                    outlier.value = response.values[outlier.record];
                     let cell = table.value_cell(response_index, outlier.record).a1();
                     findings.push(Finding {
                         kind: FindingKind::Analysis,
@@ -388,6 +405,104 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
         cautions: standard_cautions(),
         timings,
     })
+}
+
+/// The one-way fit of the conditions; in a trial run in blocks, with the blocks' shifts
+/// taken out and the blocked model's error (a finding says so when the blocks cannot be
+/// separated from the conditions and the comparisons ignore them).
+fn fit_conditions(
+    table: &TrialTable,
+    condition_names: &[String],
+    groups: &[u32],
+    values: &[f64],
+    confidence: f64,
+    contrasts: &[engine::analysis::contrast::Contrast],
+    findings: &mut Vec<Finding>,
+) -> Result<(OneWayFit, Option<Vec<f64>>), OneWayError> {
+    let block_factors: Vec<&workbook_io::layout::Factor> =
+        table.factors.iter().filter(|factor| factor.is_block).collect();
+    let has_treatment = table.factors.iter().any(|factor| !factor.is_block);
+    if block_factors.is_empty() || !has_treatment {
+        return fit_one_way(condition_names, groups, values, confidence, contrasts).map(|fit| (fit, None));
+    }
+    // Several blocking columns make one block per combination of their labels.
+    let mut block_index: HashMap<Vec<u32>, u32> = HashMap::new();
+    let mut block_names = Vec::new();
+    let block_of_value: Vec<u32> = (0..table.n_records())
+        .map(|record| {
+            let key: Vec<u32> = block_factors
+                .iter()
+                .map(|factor| factor.level_of_record[record])
+                .collect();
+            let next = block_index.len() as u32;
+            *block_index.entry(key.clone()).or_insert_with(|| {
+                block_names.push(
+                    block_factors
+                        .iter()
+                        .zip(&key)
+                        .map(|(factor, &level)| factor.levels[level as usize].as_str())
+                        .collect::<Vec<_>>()
+                        .join(" / "),
+                );
+                next
+            })
+        })
+        .collect();
+    let factor_name = block_factors
+        .iter()
+        .map(|factor| factor.name.as_str())
+        .collect::<Vec<_>>()
+        .join(" × ");
+    let blocks = engine::analysis::blocks::Blocks {
+        factor: &factor_name,
+        names: &block_names,
+        block_of_value: &block_of_value,
+    };
+    match engine::analysis::blocks::fit_one_way_in_blocks(
+        condition_names,
+        groups,
+        &blocks,
+        values,
+        confidence,
+        contrasts,
+    ) {
+        Ok(fit) => {
+            // The values with their block's shift taken off, for the model checks.
+            let shift_of_block: Vec<f64> = match &fit.blocks {
+                Some(removed) => block_names
+                    .iter()
+                    .map(|name| {
+                        removed
+                            .shifts
+                            .iter()
+                            .find(|shift| &shift.block == name)
+                            .map_or(f64::NAN, |shift| shift.shift)
+                    })
+                    .collect(),
+                None => vec![0.0; block_names.len()],
+            };
+            let adjusted = values
+                .iter()
+                .zip(&block_of_value)
+                .map(|(value, &block)| value - shift_of_block[block as usize])
+                .collect();
+            Ok((fit, Some(adjusted)))
+        }
+        Err(engine::analysis::blocks::BlockedFitError::OneWay(error)) => Err(error),
+        Err(reason) => {
+            findings.push(Finding {
+                kind: FindingKind::Analysis,
+                sheet: table.sheet.clone(),
+                cell: None,
+                found: format!("blocks '{factor_name}'"),
+                action: "the comparisons of conditions do not take out the blocks".into(),
+                message: format!(
+                    "{reason}; the comparisons of conditions use the spread within conditions across blocks (the factorial analysis still takes the blocks into account)"
+                ),
+            });
+            fit_one_way(condition_names, groups, values, confidence, contrasts).map(|fit| (fit, None))
+        }
+    }
 }
 
 /// The factorial analysis of one response, with the engine's record numbers

@@ -246,7 +246,7 @@ pub fn pooled_pairs(fit: &OneWayFit, method: PairMethod, confidence: f64) -> Res
     for (a, b) in pair_indices(k) {
         let (first, second) = (&fit.conditions[a], &fit.conditions[b]);
         let difference = first.mean - second.mean;
-        let se = fit.pooled_sd * (1.0 / first.n as f64 + 1.0 / second.n as f64).sqrt();
+        let se = fit.difference_se(a, b);
         let t = (difference / se).abs();
         let p_adjusted = match method {
             PairMethod::TukeyKramer => studentized_range_sf(t * std::f64::consts::SQRT_2, k, df)?,
@@ -369,6 +369,9 @@ pub fn against_control(
         .filter(|(index, _)| *index != control_index)
         .map(|(_, c)| c)
         .collect();
+    let other_indices: Vec<usize> = (0..fit.conditions.len())
+        .filter(|&index| index != control_index)
+        .collect();
     let treatment_ns: Vec<f64> = others.iter().map(|condition| condition.n as f64).collect();
     let lambdas = crate::stats::dunnett::dunnett_lambdas(control_summary.n as f64, &treatment_ns)?;
     let (sides, sign, label) = match direction {
@@ -379,9 +382,9 @@ pub fn against_control(
     let family = ProductCorrelation::new(&lambdas, fit.pooled_df, sides)?;
     let critical = family.quantile(confidence)?;
     let mut rows = Vec::new();
-    for treatment in &others {
+    for (&treatment_index, treatment) in other_indices.iter().zip(&others) {
         let difference = treatment.mean - control_summary.mean;
-        let se = fit.pooled_sd * (1.0 / treatment.n as f64 + 1.0 / control_summary.n as f64).sqrt();
+        let se = fit.difference_se(treatment_index, control_index);
         let t = difference / se;
         let statistic = match sides {
             Sides::Two => t.abs(),
@@ -446,8 +449,7 @@ pub fn with_the_best(fit: &OneWayFit, direction: Direction, confidence: f64) -> 
     let means: Vec<f64> = fit.conditions.iter().map(|condition| sign * condition.mean).collect();
     let ns: Vec<f64> = fit.conditions.iter().map(|condition| condition.n as f64).collect();
     let critical = mcb_critical_values(&ns, fit.pooled_df, confidence)?;
-    let s = fit.pooled_sd;
-    let se = |i: usize, j: usize| s * (1.0 / ns[i] + 1.0 / ns[j]).sqrt();
+    let se = |i: usize, j: usize| fit.difference_se(i, j);
     // Upper bounds D+_i = ( min_{j≠i} (m_i - m_j + d_i se_ij) )^+.
     let upper: Vec<f64> = (0..k)
         .map(|i| {

@@ -2,6 +2,7 @@
 //! contrasts users write, and power and sample size for planning. Plain Rust values in, plain Rust values out; no I/O.
 
 pub mod assessment;
+pub mod blocks;
 pub mod comparisons;
 pub mod contrast;
 pub mod factorial;

@@ -135,6 +135,10 @@ pub struct OneWayFit {
     pub contrasts: Vec<ContrastEstimate>,
     /// True when every value took the exact decimal path.
     pub exact_decimal: bool,
+    /// In a trial run in blocks: how each block's shift was taken out before the
+    /// conditions were compared (see [`crate::analysis::blocks`]); absent otherwise.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub blocks: Option<crate::analysis::blocks::BlocksRemoved>,
     /// The values of each condition, sorted (for medians and model checks).
     #[serde(skip)]
     pub sorted_values: Vec<Vec<f64>>,
@@ -145,6 +149,32 @@ impl OneWayFit {
     pub fn between(&self) -> &AnovaLine {
         &self.anova[0]
     }
+
+    /// The variance of the difference of the means of conditions `first` and
+    /// `second` (positions in [`Self::conditions`]) over the error variance:
+    /// `1/n₁ + 1/n₂`, or in a trial run in blocks the blocked model's own factor.
+    pub fn difference_variance_factor(&self, first: usize, second: usize) -> f64 {
+        match &self.blocks {
+            Some(blocks) => blocks.difference_variance_factor(first, second),
+            None => 1.0 / self.conditions[first].n as f64 + 1.0 / self.conditions[second].n as f64,
+        }
+    }
+
+    /// The standard error of the difference of two conditions' means on the pooled SD.
+    pub fn difference_se(&self, first: usize, second: usize) -> f64 {
+        self.pooled_sd * self.difference_variance_factor(first, second).sqrt()
+    }
+}
+
+/// The error a one-way fit shares with a larger model: degrees of freedom the larger
+/// model spends besides the conditions, and the covariance of the conditions' means
+/// over the error variance (row-major, conditions with values in their order).
+#[derive(Debug, Clone)]
+pub(crate) struct SharedError {
+    /// Degrees of freedom spent on terms other than the conditions (blocks).
+    pub removed_df: f64,
+    /// Covariance of the means over σ², `k × k`.
+    pub mean_covariance: Vec<f64>,
 }
 
 /// Why the one-way model could not be fitted at all.
@@ -207,6 +237,20 @@ pub fn fit_one_way(
     confidence: f64,
     contrasts: &[Contrast],
 ) -> Result<OneWayFit, OneWayError> {
+    fit_one_way_sharing(condition_names, group_of_value, values, confidence, contrasts, None)
+}
+
+/// As [`fit_one_way`], with the error of a larger model (blocks) when `shared` is given:
+/// the within degrees of freedom lose `removed_df` and every standard error of a mean,
+/// a difference or a contrast comes from `mean_covariance` instead of `1/n`.
+pub(crate) fn fit_one_way_sharing(
+    condition_names: &[String],
+    group_of_value: &[u32],
+    values: &[f64],
+    confidence: f64,
+    contrasts: &[Contrast],
+    shared: Option<&SharedError>,
+) -> Result<OneWayFit, OneWayError> {
     if !(confidence > 0.0 && confidence < 1.0) {
         return Err(StatsError::InvalidParameter {
             name: "confidence",
@@ -233,7 +277,14 @@ pub fn fit_one_way(
     let n_total = sums.n_total;
     let k = kept.len() as f64;
     let df_between = k - 1.0;
-    let df_within = n_total as f64 - k;
+    let df_within = n_total as f64 - k - shared.map_or(0.0, |shared| shared.removed_df);
+    let k_kept = kept.len();
+    // Covariance of two kept conditions' means over the error variance.
+    let mean_covariance = |first: usize, second: usize, n_first: u64| match shared {
+        Some(shared) => shared.mean_covariance[first * k_kept + second],
+        None if first == second => 1.0 / n_first as f64,
+        None => 0.0,
+    };
     let ms_between = sums.ss_between / df_between;
     let ms_within = if df_within > 0.0 {
         sums.ss_within / df_within
@@ -304,7 +355,10 @@ pub fn fit_one_way(
         } else {
             f64::NAN
         };
-        let half_width = multiplier * pooled_sd / n.sqrt();
+        let half_width = match shared {
+            None => multiplier * pooled_sd / n.sqrt(),
+            Some(_) => multiplier * pooled_sd * mean_covariance(conditions.len(), conditions.len(), group.n).sqrt(),
+        };
         conditions.push(ConditionSummary {
             name: condition_names[index].clone(),
             n: group.n,
@@ -326,7 +380,9 @@ pub fn fit_one_way(
         for second in first + 1..conditions.len() {
             let (a, b) = (&conditions[first], &conditions[second]);
             let difference = a.mean - b.mean;
-            let se = pooled_sd * (1.0 / a.n as f64 + 1.0 / b.n as f64).sqrt();
+            let variance_factor = mean_covariance(first, first, a.n) + mean_covariance(second, second, b.n)
+                - 2.0 * mean_covariance(first, second, 0);
+            let se = pooled_sd * variance_factor.sqrt();
             let t = difference / se;
             pairs.push(PairDifference {
                 first: a.name.clone(),
@@ -347,10 +403,14 @@ pub fn fit_one_way(
         // Coefficients are given over all conditions; those without values must carry zero.
         let mut estimate = 0.0;
         let mut variance_factor = 0.0;
-        for (position, &index) in kept.iter().enumerate() {
-            let coefficient = contrast.coefficients.get(index).copied().unwrap_or(0.0);
+        let coefficient_of = |position: usize| contrast.coefficients.get(kept[position]).copied().unwrap_or(0.0);
+        for position in 0..k_kept {
+            let coefficient = coefficient_of(position);
             estimate += coefficient * conditions[position].mean;
-            variance_factor += coefficient * coefficient / conditions[position].n as f64;
+            for other in 0..k_kept {
+                variance_factor +=
+                    coefficient * coefficient_of(other) * mean_covariance(position, other, conditions[position].n);
+            }
         }
         let se = pooled_sd * variance_factor.sqrt();
         let t = estimate / se;
@@ -385,6 +445,7 @@ pub fn fit_one_way(
         pairs,
         contrasts: contrast_estimates,
         exact_decimal: sums.exact_decimal,
+        blocks: None,
         sorted_values,
     })
 }
