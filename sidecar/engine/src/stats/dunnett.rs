@@ -18,10 +18,9 @@
 //! Critical values come from [`product_correlation_quantile`]; [`dunnett_lambdas`] and
 //! [`mcb_critical_values`] set up the lambdas of the two methods.
 
+use crate::stats::dist::{self, stirling_remainder};
 use crate::stats::normal_tail::erfc;
 use crate::stats::StatsError;
-use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
-use statrs::function::gamma::ln_gamma;
 use std::cell::RefCell;
 use std::f64::consts::{LN_2, PI, SQRT_2};
 
@@ -618,22 +617,10 @@ fn inner_breakpoints(x: f64, varying: &[LambdaGroup], sides: Sides) -> Vec<f64> 
 /// Logarithm of the density of `u = ln S` at its peak `u = 0`, where `S = chi_df /
 /// sqrt(df)`: `ln 2 + (df/2) ln(df/2) - df/2 - ln Gamma(df/2)`.
 fn log_density_peak(df: f64) -> f64 {
+    // ln Gamma(h) = (h - 1/2) ln h - h + ln sqrt(2 pi) + e(h): the large terms cancel
+    // analytically, which keeps very large df exact.
     let half = 0.5 * df;
-    if half >= 10.0 {
-        // Stirling: ln Gamma(x) = (x - 1/2) ln x - x + ln(2 pi)/2 + series(x); the large
-        // terms cancel analytically.
-        let inverse = 1.0 / half;
-        let inverse_square = inverse * inverse;
-        let series = inverse
-            * (1.0 / 12.0
-                + inverse_square
-                    * (-1.0 / 360.0
-                        + inverse_square
-                            * (1.0 / 1260.0 + inverse_square * (-1.0 / 1680.0 + inverse_square * (1.0 / 1188.0)))));
-        LN_2 + 0.5 * half.ln() - 0.5 * (2.0 * PI).ln() - series
-    } else {
-        LN_2 + half * half.ln() - half - ln_gamma(half)
-    }
+    LN_2 + 0.5 * half.ln() - 0.5 * (2.0 * PI).ln() - stirling_remainder(half)
 }
 
 /// `df (u - (e^{2u} - 1) / 2)`: the log density of `u = ln S` relative to its peak.
@@ -1002,25 +989,17 @@ where
 
 /// Starting value for the t quantile at `level` (only used to place the first bracket).
 fn t_quantile_guess(level: f64, df: f64) -> f64 {
-    let normal = normal_quantile_guess(level);
-    let guess = if (0.5..=1e7).contains(&df) {
-        match StudentsT::new(0.0, 1.0, df) {
-            Ok(t) => t.inverse_cdf(level),
-            Err(_) => normal,
-        }
-    } else {
-        normal
-    };
+    let guess = dist::t_quantile(level.clamp(1e-300, 1.0 - 1e-16), df).unwrap_or(f64::NAN);
     if guess.is_finite() {
         guess.clamp(-1e12, 1e12)
     } else {
-        normal
+        normal_quantile_guess(level)
     }
 }
 
 /// Normal quantile at `level`, kept finite (only used to place the first bracket).
 fn normal_quantile_guess(level: f64) -> f64 {
-    let quantile = Normal::standard().inverse_cdf(level.clamp(1e-300, 1.0 - 1e-16));
+    let quantile = dist::normal_quantile(level.clamp(1e-300, 1.0 - 1e-16)).unwrap_or(0.0);
     if quantile.is_finite() {
         quantile.clamp(-40.0, 40.0)
     } else {
@@ -1028,7 +1007,6 @@ fn normal_quantile_guess(level: f64) -> f64 {
     }
 }
 
-/// Brent's method for the root of `f` in `[a, b]`, given `f(a) <= 0 <= f(b)`.
 fn brent_root<F>(mut f: F, mut a: f64, mut b: f64, mut f_a: f64, mut f_b: f64) -> Result<f64, StatsError>
 where
     F: FnMut(f64) -> Result<f64, StatsError>,
@@ -1324,10 +1302,9 @@ mod tests {
         // common practice: a distribution function rises with c and two-sided coverage is
         // below one-sided. With positive correlations the joint coverage is at least the
         // product of the single-comparison coverages (Sidak 1967; Kimball 1951 for the
-        // shared chi), here from statrs 0.19.1's Student t.
+        // shared chi), here from the engine's Student t.
         let lambdas = unequal_lambdas();
         for (df, steps) in [(f64::INFINITY, 8), (4.0, 3)] {
-            let single = StudentsT::new(0.0, 1.0, df.min(1e300)).expect("t");
             let mut previous = 0.0;
             for step in 0..steps {
                 let c = 0.7 + 3.0 * f64::from(step) / f64::from(steps);
@@ -1335,11 +1312,7 @@ mod tests {
                 let one = product_correlation_cdf(c, &lambdas, df, Sides::One).expect("cdf");
                 assert!(two > previous && two < one, "c {c}: {two} {one}");
                 previous = two;
-                let marginal = if df.is_finite() {
-                    2.0 * single.cdf(c) - 1.0
-                } else {
-                    2.0 * Normal::standard().cdf(c) - 1.0
-                };
+                let marginal = 1.0 - 2.0 * dist::t_sf(c, df).expect("t");
                 let product = marginal.powi(lambdas.len() as i32);
                 assert!(two >= product - 1e-9, "c {c}: {two} < {product}");
             }
@@ -1419,10 +1392,13 @@ mod tests {
 
     #[test]
     fn stirling_branch_meets_log_gamma_branch() {
-        // common practice: both formulas for ln Gamma agree where they meet (df/2 = 10).
-        let half = 10.0_f64;
-        let direct = LN_2 + half * half.ln() - half - ln_gamma(half);
-        assert!((log_density_peak(20.0) - direct).abs() < 1e-13);
+        // common practice: the peak written with the Stirling remainder equals the
+        // definition ln 2 + h ln h - h - ln Gamma(h) at small df (ln Gamma(h) from its
+        // recurrence: ln Gamma(1) = 0, ln Gamma(1/2) = ln sqrt(pi)).
+        for (half, ln_gamma_half) in [(1.0_f64, 0.0), (0.5, 0.5 * PI.ln()), (3.0, 2.0_f64.ln())] {
+            let direct = LN_2 + half * half.ln() - half - ln_gamma_half;
+            assert!((log_density_peak(2.0 * half) - direct).abs() < 1e-14, "h {half}");
+        }
     }
 
     #[test]

@@ -17,7 +17,6 @@ mod tests;
 use std::collections::{BTreeMap, BTreeSet};
 
 use nalgebra::{DMatrix, DVector};
-use statrs::function::beta::checked_beta_reg;
 
 use crate::stats::StatsError;
 use qr::{sequential_qr, upper_triangular_inverse, SequentialQr};
@@ -549,8 +548,8 @@ fn validate(cells: &[CellSummary], factors: &[FactorSpec], model: &ModelSpec) ->
 
 /// F ratio and its upper-tail probability.
 ///
-/// `P(F > f) = I_x(df_res/2, df/2)` with `x = df_res / (df_res + df f)` (Abramowitz and
-/// Stegun 26.6.2), evaluated directly so small p-values keep their relative accuracy.
+/// `P(F > f)` from the engine's F survival function ([`crate::stats::dist::f_sf`]),
+/// evaluated directly so small p-values keep their relative accuracy.
 fn f_test(mean_sq: f64, df: usize, residual: &ResidualLine) -> (Option<f64>, Option<f64>) {
     let Some(residual_mean_sq) = residual.mean_sq else {
         return (None, None);
@@ -559,10 +558,10 @@ fn f_test(mean_sq: f64, df: usize, residual: &ResidualLine) -> (Option<f64>, Opt
         return (None, None);
     }
     let f_value = mean_sq / residual_mean_sq;
-    let df_term = df as f64;
-    let df_res = residual.df as f64;
-    let x = (df_res / (df_res + df_term * f_value)).clamp(0.0, 1.0);
-    let p_value = checked_beta_reg(df_res / 2.0, df_term / 2.0, x).ok();
+    if !f_value.is_finite() {
+        return (None, None);
+    }
+    let p_value = crate::stats::dist::f_sf(f_value, df as f64, residual.df as f64).ok();
     (Some(f_value), p_value)
 }
 
