@@ -1541,6 +1541,32 @@ mod tests {
     }
 
     #[test]
+    fn upper_tail_matches_mpmath_far_into_the_tail() {
+        // mpmath 1.3.0 at 30 digits (testdata/dunnett_tail_reference.txt): four
+        // comparisons with lambda 1/2 (equal sizes), infinite df; c = 6 by nested
+        // quadrature (`dunnett_reference.py tail`), c = 21 and 37 by the first Bonferroni
+        // term, exact there to far beyond 30 digits (`dunnett_reference.py far_tail`).
+        // The complement of the distribution function is printed beside it, to show the
+        // digits it loses.
+        let cases = [
+            (6.0, Sides::Two, 7.892_676_454_475_907_930_4e-9),
+            (21.0, Sides::Two, 2.623_422_415_183_228_751_8e-97),
+            (37.0, Sides::One, 2.290_228_489_009_830_729_1e-299),
+        ];
+        for (c, sides, expected) in cases {
+            let family = ProductCorrelation::new(&[0.5; 4], f64::INFINITY, sides).expect("family");
+            let tail = family.sf(c).expect("sf");
+            let complement = 1.0 - family.cdf(c).expect("cdf");
+            let lre = log_relative_error(tail, expected);
+            println!(
+                "lambda 1/2 x4 {sides:?} c {c}: sf {tail:e} LRE {lre:.1}; 1 - cdf {complement:e} LRE {:.1}",
+                log_relative_error(complement, expected).max(0.0)
+            );
+            assert!(lre >= 12.0, "c {c}: {tail:e} vs {expected:e}");
+        }
+    }
+
+    #[test]
     fn invalid_input_is_refused() {
         let invalid = |result: Result<f64, StatsError>| matches!(result, Err(StatsError::InvalidParameter { .. }));
         assert!(invalid(product_correlation_cdf(f64::NAN, &[0.5], 5.0, Sides::One)));

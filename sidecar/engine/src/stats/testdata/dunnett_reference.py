@@ -5,7 +5,7 @@ one-sided  F_i = Phi((x + l_i z) / sqrt(1 - l_i^2)),
 two-sided  F_i = Phi((x + l_i z) / sqrt(1 - l_i^2)) - Phi((-x + l_i z) / sqrt(1 - l_i^2)).
 The inner integral is split at every steep transition z = -x/l_i (one-sided) or
 z = +-x/l_i (two-sided); the outer integral over s is split around the mode.
-Usage: python3 dunnett_reference.py cdf | secant | secant_inf | tail
+Usage: python3 dunnett_reference.py cdf | secant | secant_inf | tail | far_tail
 (prints the values stored in the Rust tests; finite-df cases take minutes each).
 
 `tail` gives the upper tail 1 - P(c) at 30 digits from the complement integrand
@@ -214,6 +214,17 @@ TAIL_CASES = [
 ]
 
 
+def far_tail_cases():
+    """Far in the tail the first Bonferroni term is the tail: m Q(c) (one side) or
+    2 m Q(c) (two sides). With correlation rho = lambda^2 the joint exceedance of two
+    comparisons is about exp(-c^2 (1 - rho) / (2 (1 + rho))) times Q(c), for lambda = 1/2
+    exp(-0.3 c^2): 5e-58 at c = 21, below 1e-170 at c = 37, far below 30 digits. (The
+    nested quadrature of `tail` is not resolved that far out and is not used there.)"""
+    mp.mp.dps = 30
+    for name, c, m, sides in [('half4_inf_two_c21', 21, 4, 2), ('half4_inf_one_c37', 37, 4, 1)]:
+        print(name, mp.nstr(sides * m * mp.ncdf(-mp.mpf(c)), 20))
+
+
 def tail_cases():
     mp.mp.dps = 30
     une = dunnett_lambdas(10, [5, 8, 12, 20])
@@ -234,3 +245,5 @@ if __name__ == '__main__':
         infinite_df_secant_cases()
     elif which == 'tail':
         tail_cases()
+    elif which == 'far_tail':
+        far_tail_cases()
