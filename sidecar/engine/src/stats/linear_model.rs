@@ -727,7 +727,12 @@ impl Solution {
 /// lost to cancellation; expect about 1e-12 relative error on well-conditioned designs.
 /// Standard errors use `σ² (X'WX)⁻¹ = σ² R⁻¹R⁻ᵀ`. A linear function is reported as
 /// estimable when it is consistent with every aliasing relation found by the QR.
-/// p-values come from the regularized incomplete beta function, never `1 - cdf`.
+/// p-values come from the F survival function of `stats::dist`, never `1 - cdf`.
+/// The response is each cell's `centred_mean` divided by a power of two near the largest
+/// of them, so squares neither overflow nor underflow; sums of squares are scaled back for
+/// the tables, F ratios are formed from the scaled sums, and the cells' common centre is
+/// added back to every estimate through the intercept (grand mean, least-squares means,
+/// fitted cell means).
 /// Checked against statsmodels 0.15.0 (`ols` with `C(x, Sum)` coding and `anova_lm`
 /// typ 1, 2, 3, `t_test`) on unbalanced two- and three-factor data, a block design and a
 /// design with an empty cell, and against scipy 1.17.1 `f_oneway` for one factor.
