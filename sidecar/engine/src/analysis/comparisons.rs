@@ -391,7 +391,7 @@ pub fn against_control(
             Sides::One => sign * t,
         };
         // Adjusted p: the chance that the largest statistic of the family reaches this one.
-        let p_adjusted = (1.0 - family.cdf(statistic)?).clamp(0.0, 1.0);
+        let p_adjusted = family.sf(statistic)?;
         let (low, high) = match (sides, sign > 0.0) {
             (Sides::Two, _) => (difference - critical * se, difference + critical * se),
             (Sides::One, true) => (difference - critical * se, f64::INFINITY),

@@ -296,9 +296,9 @@ pub(crate) fn fit_one_way_sharing(
         if ms_within > 0.0 {
             let f = ms_between / ms_within;
             (f, dist::f_sf(f, df_between, df_within)?)
-        } else if ms_between > 0.0 {
-            (f64::INFINITY, 0.0)
         } else {
+            // No spread within conditions: F is not defined (whether or not the means
+            // differ), so neither F nor p is reported; never a p of 0 beside an empty F.
             (f64::NAN, f64::NAN)
         }
     } else {
@@ -310,8 +310,8 @@ pub(crate) fn fit_one_way_sharing(
             df: df_between,
             ss: sums.ss_between,
             ms: Some(ms_between),
-            f: Some(f),
-            p: Some(p),
+            f: f.is_finite().then_some(f),
+            p: p.is_finite().then_some(p),
         },
         AnovaLine {
             source: "within conditions".into(),
@@ -529,9 +529,11 @@ mod tests {
         // One value per condition: no within df, intervals undefined, no panic.
         let fit = fit_one_way(&names, &[0, 1], &[1.0, 2.0], 0.95, &[]).expect("fits");
         assert!(fit.pooled_sd.is_nan());
-        assert!(fit.between().p.unwrap_or(0.0).is_nan());
-        // All values equal within conditions but different means: F infinite, p 0.
+        assert_eq!((fit.between().f, fit.between().p), (None, None));
+        // All values equal within conditions but different means: F has no denominator
+        // (common practice: the ratio is undefined), so neither F nor p is given, never a
+        // p of 0 beside an empty F.
         let fit = fit_one_way(&names, &[0, 0, 1, 1], &[1.0, 1.0, 2.0, 2.0], 0.95, &[]).expect("fits");
-        assert_eq!(fit.between().p, Some(0.0));
+        assert_eq!((fit.between().f, fit.between().p), (None, None));
     }
 }

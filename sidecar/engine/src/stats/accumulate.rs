@@ -211,6 +211,104 @@ pub fn oneway_sums(groups: &[GroupStats]) -> Result<OnewaySums, StatsError> {
     }
 }
 
+/// Values written as deviations from one centre, from [`centre_values`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct CentredValues {
+    /// The centre: the first finite value (a value of the data, so a deviation of a
+    /// nearby value is small and keeps all its digits).
+    pub centre: f64,
+    /// `value - centre` for every value (NaN where the value is not finite).
+    pub deviations: Vec<f64>,
+    /// `true` when every finite value had a short decimal form and each deviation is the
+    /// difference of the typed decimals, formed exactly and rounded once; `false` when the
+    /// binary values were subtracted instead.
+    pub exact_decimal: bool,
+}
+
+/// The first step of "accumulate, centre, solve" for models fitted to data at a large
+/// offset (k-way, two-level and second-order models): each value minus a common centre.
+///
+/// # Remarks
+///
+/// Workbook values are short decimals typed as text; `1000000000.0001` is stored as the
+/// nearest double, which is 1.2e-7 away, so an effect of 1e-4 computed from the doubles
+/// keeps only three or four digits. Here each value is matched to the short decimal it
+/// was typed as (the same recognition as [`GroupAccumulator`]), all decimals are brought
+/// to one scale as 128-bit integers, and the integer differences from the centre are
+/// converted once: when a difference is below 2^53 and the scale at most 10^22 the
+/// quotient by the power of ten is correctly rounded (Clinger's fast path), so the
+/// deviation is the typed decimal difference to the last bit. Values with no short
+/// decimal form (or a common scale out of range) fall back to the binary difference
+/// `value - centre`, which is exact whenever the two are within a factor of two of each
+/// other (Sterbenz's lemma) and otherwise rounded once. The deviations are themselves
+/// short decimals, so cell sums of them stay on the exact path of [`GroupAccumulator`].
+pub fn centre_values(values: &[f64]) -> CentredValues {
+    let Some(&centre) = values.iter().find(|value| value.is_finite()) else {
+        return CentredValues {
+            centre: 0.0,
+            deviations: values.to_vec(),
+            exact_decimal: false,
+        };
+    };
+    if let Some(deviations) = exact_deviations(values) {
+        return CentredValues {
+            centre,
+            deviations,
+            exact_decimal: true,
+        };
+    }
+    CentredValues {
+        centre,
+        deviations: values
+            .iter()
+            .map(|&value| if value.is_finite() { value - centre } else { f64::NAN })
+            .collect(),
+        exact_decimal: false,
+    }
+}
+
+/// The decimal differences of [`centre_values`], `None` when a value has no short decimal
+/// form or the common scale is out of range.
+fn exact_deviations(values: &[f64]) -> Option<Vec<f64>> {
+    let mut decimals: Vec<Option<(i64, i32)>> = Vec::with_capacity(values.len());
+    let mut hint = 0u32;
+    let mut scale = i32::MIN;
+    for &value in values {
+        if value.is_finite() {
+            let (significand, places) = short_decimal(value, hint)?;
+            hint = places.max(0) as u32;
+            scale = scale.max(places);
+            decimals.push(Some((significand, places)));
+        } else {
+            decimals.push(None);
+        }
+    }
+    if !(0..=MAX_SCALE as i32).contains(&scale) {
+        return None;
+    }
+    let mut scaled: Vec<Option<i128>> = Vec::with_capacity(decimals.len());
+    for decimal in &decimals {
+        scaled.push(match decimal {
+            Some((significand, places)) => {
+                Some(i128::from(*significand).checked_mul(pow10_i128((scale - places) as u32)?)?)
+            }
+            None => None,
+        });
+    }
+    let origin = scaled.iter().flatten().next().copied()?;
+    let power = POW10_F64[scale as usize];
+    scaled
+        .iter()
+        .map(|entry| match entry {
+            Some(value) => {
+                let difference = value.checked_sub(origin)?;
+                Some(difference as f64 / power)
+            }
+            None => Some(f64::NAN),
+        })
+        .collect()
+}
+
 // ---------------------------------------------------------------------------------------
 // Per-condition state
 // ---------------------------------------------------------------------------------------

@@ -18,10 +18,9 @@
 //! Critical values come from [`product_correlation_quantile`]; [`dunnett_lambdas`] and
 //! [`mcb_critical_values`] set up the lambdas of the two methods.
 
+use crate::stats::dist::{self, stirling_remainder};
 use crate::stats::normal_tail::erfc;
 use crate::stats::StatsError;
-use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
-use statrs::function::gamma::ln_gamma;
 use std::cell::RefCell;
 use std::f64::consts::{LN_2, PI, SQRT_2};
 
@@ -207,6 +206,43 @@ impl ProductCorrelation {
             outer_expectation(c, self.df, |x| table.value(x, &self.groups, self.sides))?
         };
         Ok(probability.clamp(0.0, 1.0))
+    }
+
+    /// The upper tail `1 - cdf(c)`: the chance that some statistic of the family passes
+    /// `c` (one side) or that some `|T_i|` does (two sides), computed directly so that a
+    /// small adjusted p-value keeps its relative accuracy.
+    ///
+    /// # Errors
+    ///
+    /// As [`ProductCorrelation::cdf`].
+    ///
+    /// # Remarks
+    ///
+    /// Where `1 - cdf(c)` is above 0.05 it is taken from [`ProductCorrelation::cdf`]
+    /// (absolute error about 1e-14, so at least 12 correct digits). Below, the complement
+    /// is integrated directly: at `x = c s` the inner integrand is `phi(z) (1 - prod F_i)`
+    /// with `1 - prod F_i = -expm1(sum count ln(1 - u_i))` and each `u_i = 1 - F_i` an upper
+    /// normal tail (plus a lower one when two-sided) from `erfc`, never a difference. Its
+    /// mass sits near `z = -lambda x` (and `+lambda x` when two-sided) with width
+    /// `sqrt(1 - lambda^2)`, where the panels are placed; the integrand is scaled by
+    /// `exp(min(x^2 / 2, 600))` so nothing underflows. With finite `df` the outer integrand
+    /// over `u = ln s` (chi density times the inner tail) is unimodal; its peak is found by
+    /// golden-section search on its logarithm, the range is walked out until the logarithm
+    /// has dropped by 45, and the integral is scaled by the peak. Both integrals stop at a
+    /// relative error estimate of 1e-14 (inner) and 1e-13 (outer). Checked against mpmath
+    /// 1.3.0 nested quadrature down to 1e-300 (`testdata/dunnett_reference.py tail`).
+    pub fn sf(&self, c: f64) -> Result<f64, StatsError> {
+        let probability = self.cdf(c)?;
+        let complement = 1.0 - probability;
+        if complement > TAIL_SWITCH || c.is_infinite() {
+            return Ok(complement.clamp(0.0, 1.0));
+        }
+        let log_tail = if self.df == f64::INFINITY {
+            log_inner_tail(c, &self.groups, self.sides)?
+        } else {
+            log_outer_tail(c, self.df, &self.groups, self.sides)?
+        };
+        Ok(log_tail.exp().clamp(0.0, 1.0))
     }
 
     /// Critical value `c` with `cdf(c) = p`, as [`product_correlation_quantile`].
@@ -565,6 +601,7 @@ fn inner_probability(x: f64, groups: &[LambdaGroup], sides: Sides) -> Result<f64
         },
         breakpoints,
         INNER_TOLERANCE,
+        0.0,
         "normal integral",
     )?;
     Ok(constant * integral)
@@ -618,22 +655,10 @@ fn inner_breakpoints(x: f64, varying: &[LambdaGroup], sides: Sides) -> Vec<f64> 
 /// Logarithm of the density of `u = ln S` at its peak `u = 0`, where `S = chi_df /
 /// sqrt(df)`: `ln 2 + (df/2) ln(df/2) - df/2 - ln Gamma(df/2)`.
 fn log_density_peak(df: f64) -> f64 {
+    // ln Gamma(h) = (h - 1/2) ln h - h + ln sqrt(2 pi) + e(h): the large terms cancel
+    // analytically, which keeps very large df exact.
     let half = 0.5 * df;
-    if half >= 10.0 {
-        // Stirling: ln Gamma(x) = (x - 1/2) ln x - x + ln(2 pi)/2 + series(x); the large
-        // terms cancel analytically.
-        let inverse = 1.0 / half;
-        let inverse_square = inverse * inverse;
-        let series = inverse
-            * (1.0 / 12.0
-                + inverse_square
-                    * (-1.0 / 360.0
-                        + inverse_square
-                            * (1.0 / 1260.0 + inverse_square * (-1.0 / 1680.0 + inverse_square * (1.0 / 1188.0)))));
-        LN_2 + 0.5 * half.ln() - 0.5 * (2.0 * PI).ln() - series
-    } else {
-        LN_2 + half * half.ln() - half - ln_gamma(half)
-    }
+    LN_2 + 0.5 * half.ln() - 0.5 * (2.0 * PI).ln() - stirling_remainder(half)
 }
 
 /// `df (u - (e^{2u} - 1) / 2)`: the log density of `u = ln S` relative to its peak.
@@ -687,8 +712,151 @@ where
         },
         outer_breakpoints(df),
         OUTER_TOLERANCE,
+        0.0,
         "chi integral",
     )
+}
+
+/// Above this upper tail the complement of the distribution function is accurate enough
+/// (absolute error 1e-14 is a relative error below 2e-13).
+const TAIL_SWITCH: f64 = 0.05;
+/// Relative error allowed in the inner integral of the upper tail.
+const TAIL_INNER_RELATIVE: f64 = 1e-14;
+/// Relative error allowed in the outer integral of the upper tail.
+const TAIL_OUTER_RELATIVE: f64 = 1e-13;
+/// The logarithm of a tail integrand is followed out until it is this far below its peak
+/// (relative mass left out below 1e-19).
+const TAIL_LOG_DROP: f64 = 45.0;
+
+/// `1 - F` of one comparison at `x` and `z`: an upper normal tail (plus a lower one when
+/// two-sided), each from `erfc` directly.
+fn factor_complement(x: f64, z: f64, group: &LambdaGroup, sides: Sides) -> f64 {
+    let shift = group.lambda * z;
+    let upper = (x + shift) * group.inverse_width;
+    let above = 0.5 * erfc(upper / SQRT_2);
+    match sides {
+        Sides::One => above,
+        Sides::Two => {
+            let lower = (shift - x) * group.inverse_width;
+            above + 0.5 * erfc(-lower / SQRT_2)
+        }
+    }
+}
+
+/// `ln(1 - G(x))`, the logarithm of the normal-theory upper tail at `x = c s`.
+fn log_inner_tail(x: f64, groups: &[LambdaGroup], sides: Sides) -> Result<f64, StatsError> {
+    if sides == Sides::Two && x <= 0.0 {
+        return Ok(0.0);
+    }
+    // The integrand is scaled by exp(scale); its peak is about exp(-x^2 / 2).
+    let scale = (0.5 * x * x).min(600.0);
+    let mut breakpoints = vec![0.0];
+    let mut low = -10.0_f64;
+    let mut high = 10.0_f64;
+    for group in groups {
+        let width = 1.0 / group.inverse_width;
+        let centres: &[f64] = match sides {
+            Sides::One => &[-1.0],
+            Sides::Two => &[-1.0, 1.0],
+        };
+        for &side in centres {
+            let centre = side * group.lambda * x;
+            low = low.min(centre - 10.0);
+            high = high.max(centre + 10.0);
+            breakpoints.extend((-10..=10).map(|step| centre + f64::from(step) * width));
+        }
+    }
+    breakpoints.retain(|&point| point > low && point < high);
+    breakpoints.push(low);
+    breakpoints.push(high);
+    let integral = integrate_adaptive(
+        |z| {
+            let mut log_kept = 0.0;
+            for group in groups {
+                let tail = factor_complement(x, z, group, sides);
+                log_kept += f64::from(group.count) * (-tail.min(1.0)).ln_1p();
+            }
+            let complement = -log_kept.exp_m1();
+            if complement == 0.0 {
+                return Ok(0.0);
+            }
+            Ok(INVERSE_ROOT_TWO_PI * (scale - 0.5 * z * z).exp() * complement)
+        },
+        breakpoints,
+        0.0,
+        TAIL_INNER_RELATIVE,
+        "normal tail integral",
+    )?;
+    Ok(integral.ln() - scale)
+}
+
+/// `ln E_S[1 - G(c S)]` for finite `df`, integrated over `u = ln S` about its peak.
+fn log_outer_tail(c: f64, df: f64, groups: &[LambdaGroup], sides: Sides) -> Result<f64, StatsError> {
+    let log_peak = log_density_peak(df);
+    let log_integrand = |u: f64| -> Result<f64, StatsError> {
+        Ok(log_peak + log_density_drop(df, u) + log_inner_tail(c * u.exp(), groups, sides)?)
+    };
+    // The peak: where the tail's fall in x = c s meets the density's rise; the normal-tail
+    // estimate e^{2u} = df / (df + c^2) and u = 0 bound the search.
+    let width = 1.0 / (2.0 * df).sqrt();
+    let estimate = 0.5 * (df / (df + c * c)).ln();
+    let mut low = estimate.min(0.0) - 2.0 - 10.0 * width;
+    let mut high = estimate.max(0.0) + 10.0 * width;
+    let golden = 0.5 * (5.0_f64.sqrt() - 1.0);
+    let mut left = high - golden * (high - low);
+    let mut right = low + golden * (high - low);
+    let mut left_value = log_integrand(left)?;
+    let mut right_value = log_integrand(right)?;
+    while high - low > 0.05 * width {
+        if left_value < right_value {
+            low = left;
+            left = right;
+            left_value = right_value;
+            right = low + golden * (high - low);
+            right_value = log_integrand(right)?;
+        } else {
+            high = right;
+            right = left;
+            right_value = left_value;
+            left = high - golden * (high - low);
+            left_value = log_integrand(left)?;
+        }
+    }
+    let (peak, peak_value) = if left_value > right_value {
+        (left, left_value)
+    } else {
+        (right, right_value)
+    };
+    if peak_value == f64::NEG_INFINITY {
+        return Ok(f64::NEG_INFINITY);
+    }
+    // Walk out on each side until the logarithm has dropped by TAIL_LOG_DROP.
+    let mut edges = [peak, peak];
+    for (edge, direction) in edges.iter_mut().zip([-1.0, 1.0]) {
+        let mut step = width;
+        loop {
+            let candidate = peak + direction * step;
+            if log_integrand(candidate)? < peak_value - TAIL_LOG_DROP || step > 1e3 {
+                *edge = candidate;
+                break;
+            }
+            step *= 2.0;
+        }
+    }
+    let mut breakpoints: Vec<f64> = (-8..=8).map(|step| peak + f64::from(step) * width).collect();
+    breakpoints.retain(|&point| point > edges[0] && point < edges[1]);
+    breakpoints.extend(edges);
+    let integral = integrate_adaptive(
+        |u| {
+            let value = log_integrand(u)? - peak_value;
+            Ok(if value < -700.0 { 0.0 } else { value.exp() })
+        },
+        breakpoints,
+        0.0,
+        TAIL_OUTER_RELATIVE,
+        "chi tail integral",
+    )?;
+    Ok(integral.ln() + peak_value)
 }
 
 /// Width of one panel of the interpolation table of the normal-theory probability.
@@ -947,11 +1115,12 @@ where
 
 /// Globally adaptive Gauss-Kronrod (10/21 points) over the panels between `breakpoints`:
 /// the panel with the largest error estimate `|K21 - G10|` is halved until the estimates
-/// add up to at most `tolerance`.
+/// add up to at most `tolerance` or to at most `relative` times the integral.
 fn integrate_adaptive<F>(
     mut integrand: F,
     mut breakpoints: Vec<f64>,
     tolerance: f64,
+    relative: f64,
     what: &'static str,
 ) -> Result<f64, StatsError>
 where
@@ -984,8 +1153,9 @@ where
                 worst = index;
             }
         }
-        if total_error <= tolerance || worst_error <= 0.0 {
-            return Ok(panels.iter().map(|panel| panel.2).sum());
+        let total: f64 = panels.iter().map(|panel| panel.2).sum();
+        if total_error <= tolerance.max(relative * total.abs()) || worst_error <= 0.0 {
+            return Ok(total);
         }
         let (a, b, _, _) = panels[worst];
         let middle = 0.5 * (a + b);
@@ -1002,25 +1172,17 @@ where
 
 /// Starting value for the t quantile at `level` (only used to place the first bracket).
 fn t_quantile_guess(level: f64, df: f64) -> f64 {
-    let normal = normal_quantile_guess(level);
-    let guess = if (0.5..=1e7).contains(&df) {
-        match StudentsT::new(0.0, 1.0, df) {
-            Ok(t) => t.inverse_cdf(level),
-            Err(_) => normal,
-        }
-    } else {
-        normal
-    };
+    let guess = dist::t_quantile(level.clamp(1e-300, 1.0 - 1e-16), df).unwrap_or(f64::NAN);
     if guess.is_finite() {
         guess.clamp(-1e12, 1e12)
     } else {
-        normal
+        normal_quantile_guess(level)
     }
 }
 
 /// Normal quantile at `level`, kept finite (only used to place the first bracket).
 fn normal_quantile_guess(level: f64) -> f64 {
-    let quantile = Normal::standard().inverse_cdf(level.clamp(1e-300, 1.0 - 1e-16));
+    let quantile = dist::normal_quantile(level.clamp(1e-300, 1.0 - 1e-16)).unwrap_or(0.0);
     if quantile.is_finite() {
         quantile.clamp(-40.0, 40.0)
     } else {
@@ -1028,7 +1190,6 @@ fn normal_quantile_guess(level: f64) -> f64 {
     }
 }
 
-/// Brent's method for the root of `f` in `[a, b]`, given `f(a) <= 0 <= f(b)`.
 fn brent_root<F>(mut f: F, mut a: f64, mut b: f64, mut f_a: f64, mut f_b: f64) -> Result<f64, StatsError>
 where
     F: FnMut(f64) -> Result<f64, StatsError>,
@@ -1112,6 +1273,8 @@ where
 }
 
 #[cfg(test)]
+// The tests print the accuracy they measured.
+#[allow(clippy::print_stdout)]
 mod tests {
     use super::*;
 
@@ -1324,10 +1487,9 @@ mod tests {
         // common practice: a distribution function rises with c and two-sided coverage is
         // below one-sided. With positive correlations the joint coverage is at least the
         // product of the single-comparison coverages (Sidak 1967; Kimball 1951 for the
-        // shared chi), here from statrs 0.19.1's Student t.
+        // shared chi), here from the engine's Student t.
         let lambdas = unequal_lambdas();
         for (df, steps) in [(f64::INFINITY, 8), (4.0, 3)] {
-            let single = StudentsT::new(0.0, 1.0, df.min(1e300)).expect("t");
             let mut previous = 0.0;
             for step in 0..steps {
                 let c = 0.7 + 3.0 * f64::from(step) / f64::from(steps);
@@ -1335,14 +1497,73 @@ mod tests {
                 let one = product_correlation_cdf(c, &lambdas, df, Sides::One).expect("cdf");
                 assert!(two > previous && two < one, "c {c}: {two} {one}");
                 previous = two;
-                let marginal = if df.is_finite() {
-                    2.0 * single.cdf(c) - 1.0
-                } else {
-                    2.0 * Normal::standard().cdf(c) - 1.0
-                };
+                let marginal = 1.0 - 2.0 * dist::t_sf(c, df).expect("t");
                 let product = marginal.powi(lambdas.len() as i32);
                 assert!(two >= product - 1e-9, "c {c}: {two} < {product}");
             }
+        }
+    }
+
+    /// Log relative error (number of correct significant digits), capped at 16.
+    fn log_relative_error(actual: f64, expected: f64) -> f64 {
+        if actual == expected {
+            return 16.0;
+        }
+        (-((actual - expected).abs() / expected.abs()).log10()).min(16.0)
+    }
+
+    #[test]
+    fn upper_tail_of_one_comparison_is_student_t() {
+        // One comparison (or independent ones) reduce to Student t / the normal, whose
+        // survival functions are checked against mpmath 1.3.0 in `dist`: one side
+        // P(T > c), two sides 2 P(T > c), m independent normal comparisons
+        // 1 - (1 - 2 Q(c))^m. The tails reach 1e-300.
+        let cases: [(f64, f64, usize, Sides); 8] = [
+            (3.0, 10.0, 1, Sides::One),
+            (40.0, 10.0, 1, Sides::Two),
+            (1e10, 10.0, 1, Sides::Two),
+            (1e30, 10.0, 1, Sides::One),
+            (9.0, 1e7, 1, Sides::Two),
+            (37.0, f64::INFINITY, 1, Sides::One),
+            (20.0, f64::INFINITY, 5, Sides::Two),
+            (5.0, f64::INFINITY, 3, Sides::Two),
+        ];
+        for (c, df, count, sides) in cases {
+            let family = ProductCorrelation::new(&vec![0.0; count], df, sides).expect("family");
+            let single = dist::t_sf(c, df).expect("t");
+            let single = if sides == Sides::Two { 2.0 * single } else { single };
+            let expected = -(count as f64 * (-single).ln_1p()).exp_m1();
+            let actual = family.sf(c).expect("sf");
+            let lre = log_relative_error(actual, expected);
+            println!("one comparison c {c:e} df {df:e} m {count} {sides:?}: sf {actual:e} expected {expected:e} LRE {lre:.1}");
+            assert!(lre >= 12.0, "c {c}, df {df}: {actual:e} vs {expected:e}");
+        }
+    }
+
+    #[test]
+    #[allow(clippy::excessive_precision)] // the mpmath values as printed
+    fn upper_tail_matches_mpmath_far_into_the_tail() {
+        // mpmath 1.3.0 at 30 digits (testdata/dunnett_tail_reference.txt): four
+        // comparisons with lambda 1/2 (equal sizes), infinite df; c = 6 by nested
+        // quadrature (`dunnett_reference.py tail`), c = 21 and 37 by the first Bonferroni
+        // term, exact there to far beyond 30 digits (`dunnett_reference.py far_tail`).
+        // The complement of the distribution function is printed beside it, to show the
+        // digits it loses.
+        let cases = [
+            (6.0, Sides::Two, 7.892_676_454_475_907_930_4e-9),
+            (21.0, Sides::Two, 2.623_422_415_183_228_751_8e-97),
+            (37.0, Sides::One, 2.290_228_489_009_830_729_1e-299),
+        ];
+        for (c, sides, expected) in cases {
+            let family = ProductCorrelation::new(&[0.5; 4], f64::INFINITY, sides).expect("family");
+            let tail = family.sf(c).expect("sf");
+            let complement = 1.0 - family.cdf(c).expect("cdf");
+            let lre = log_relative_error(tail, expected);
+            println!(
+                "lambda 1/2 x4 {sides:?} c {c}: sf {tail:e} LRE {lre:.1}; 1 - cdf {complement:e} LRE {:.1}",
+                log_relative_error(complement, expected).max(0.0)
+            );
+            assert!(lre >= 12.0, "c {c}: {tail:e} vs {expected:e}");
         }
     }
 
@@ -1410,6 +1631,7 @@ mod tests {
                 |u| Ok((log_peak + log_density_drop(df, u)).exp()),
                 outer_breakpoints(df),
                 OUTER_TOLERANCE,
+                0.0,
                 "test",
             )
             .expect("density integral");
@@ -1419,10 +1641,13 @@ mod tests {
 
     #[test]
     fn stirling_branch_meets_log_gamma_branch() {
-        // common practice: both formulas for ln Gamma agree where they meet (df/2 = 10).
-        let half = 10.0_f64;
-        let direct = LN_2 + half * half.ln() - half - ln_gamma(half);
-        assert!((log_density_peak(20.0) - direct).abs() < 1e-13);
+        // common practice: the peak written with the Stirling remainder equals the
+        // definition ln 2 + h ln h - h - ln Gamma(h) at small df (ln Gamma(h) from its
+        // recurrence: ln Gamma(1) = 0, ln Gamma(1/2) = ln sqrt(pi)).
+        for (half, ln_gamma_half) in [(1.0_f64, 0.0), (0.5, 0.5 * PI.ln()), (3.0, 2.0_f64.ln())] {
+            let direct = LN_2 + half * half.ln() - half - ln_gamma_half;
+            assert!((log_density_peak(2.0 * half) - direct).abs() < 1e-14, "h {half}");
+        }
     }
 
     #[test]

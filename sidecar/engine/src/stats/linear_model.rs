@@ -17,7 +17,6 @@ mod tests;
 use std::collections::{BTreeMap, BTreeSet};
 
 use nalgebra::{DMatrix, DVector};
-use statrs::function::beta::checked_beta_reg;
 
 use crate::stats::StatsError;
 use qr::{sequential_qr, upper_triangular_inverse, SequentialQr};
@@ -37,6 +36,10 @@ pub struct CellSummary {
     pub n: usize,
     /// Mean of the observations in the cell.
     pub mean: f64,
+    /// Mean minus the centre shared by every cell of the fit (see
+    /// [`crate::stats::accumulate::centre_values`]): the digits that `mean` loses at a large
+    /// offset. Equal to `mean` when no centre was taken.
+    pub centred_mean: f64,
     /// Sum of squared deviations from the cell mean, `Σ (y - mean)²`.
     pub centred_ss: f64,
 }
@@ -293,6 +296,7 @@ pub fn summarise_cells(levels: &[Vec<usize>], values: &[f64]) -> Result<Vec<Cell
                 levels: key.to_vec(),
                 n: group.len(),
                 mean,
+                centred_mean: mean,
                 centred_ss,
             }
         })
@@ -420,7 +424,18 @@ fn build_terms(factors: &[FactorSpec], order: usize) -> Result<Vec<ModelTerm>, S
     Ok(terms)
 }
 
-fn build_design(factors: &[FactorSpec], cells: &[CellSummary], order: usize) -> Result<Design, StatsError> {
+/// Power of two near the largest centred cell mean, by which the response is divided
+/// before the QR so that its squares neither overflow nor underflow (exact in binary).
+fn response_scale(cells: &[CellSummary]) -> f64 {
+    let largest = cells.iter().map(|cell| cell.centred_mean.abs()).fold(0.0_f64, f64::max);
+    if largest > 0.0 && largest.is_finite() {
+        2.0_f64.powi((largest.log2().floor() as i32).clamp(-1000, 1000))
+    } else {
+        1.0
+    }
+}
+
+fn build_design(factors: &[FactorSpec], cells: &[CellSummary], order: usize, scale: f64) -> Result<Design, StatsError> {
     let terms = build_terms(factors, order)?;
     let n_columns = terms.last().map_or(1, |term| term.columns.end);
     let mut matrix = DMatrix::<f64>::zeros(cells.len(), n_columns);
@@ -435,7 +450,7 @@ fn build_design(factors: &[FactorSpec], cells: &[CellSummary], order: usize) -> 
                 matrix[(row, term.columns.start + offset)] = weight * value;
             }
         }
-        response[row] = weight * cell.mean;
+        response[row] = weight * (cell.centred_mean / scale);
     }
     Ok(Design {
         terms,
@@ -510,7 +525,7 @@ fn validate(cells: &[CellSummary], factors: &[FactorSpec], model: &ModelSpec) ->
                 value: 0.0,
             });
         }
-        if !cell.mean.is_finite() {
+        if !(cell.mean.is_finite() && cell.centred_mean.is_finite()) {
             return Err(StatsError::InvalidParameter {
                 name: "cell mean",
                 rule: "finite",
@@ -549,8 +564,8 @@ fn validate(cells: &[CellSummary], factors: &[FactorSpec], model: &ModelSpec) ->
 
 /// F ratio and its upper-tail probability.
 ///
-/// `P(F > f) = I_x(df_res/2, df/2)` with `x = df_res / (df_res + df f)` (Abramowitz and
-/// Stegun 26.6.2), evaluated directly so small p-values keep their relative accuracy.
+/// `P(F > f)` from the engine's F survival function ([`crate::stats::dist::f_sf`]),
+/// evaluated directly so small p-values keep their relative accuracy.
 fn f_test(mean_sq: f64, df: usize, residual: &ResidualLine) -> (Option<f64>, Option<f64>) {
     let Some(residual_mean_sq) = residual.mean_sq else {
         return (None, None);
@@ -559,21 +574,24 @@ fn f_test(mean_sq: f64, df: usize, residual: &ResidualLine) -> (Option<f64>, Opt
         return (None, None);
     }
     let f_value = mean_sq / residual_mean_sq;
-    let df_term = df as f64;
-    let df_res = residual.df as f64;
-    let x = (df_res / (df_res + df_term * f_value)).clamp(0.0, 1.0);
-    let p_value = checked_beta_reg(df_res / 2.0, df_term / 2.0, x).ok();
+    if !f_value.is_finite() {
+        return (None, None);
+    }
+    let p_value = crate::stats::dist::f_sf(f_value, df as f64, residual.df as f64).ok();
     (Some(f_value), p_value)
 }
 
-fn anova_row(term: &str, df: usize, sum_sq: f64, residual: &ResidualLine) -> AnovaRow {
+/// A line of the table from a sum of squares in scaled units (`sum_sq * scale_sq` in the
+/// data's units): the F ratio is formed from the scaled sums, so it stays finite where
+/// the sums themselves overflow.
+fn anova_row(term: &str, df: usize, sum_sq: f64, residual: &ResidualLine, scale_sq: f64) -> AnovaRow {
     let mean_sq = sum_sq / df as f64;
     let (f_value, p_value) = f_test(mean_sq, df, residual);
     AnovaRow {
         term: term.to_string(),
         df,
-        sum_sq,
-        mean_sq,
+        sum_sq: sum_sq * scale_sq,
+        mean_sq: mean_sq * scale_sq,
         f_value,
         p_value,
     }
@@ -634,6 +652,9 @@ struct Solution {
     unscaled_covariance: DMatrix<f64>,
     /// σ², `None` without residual df
     sigma_sq: Option<f64>,
+    /// The centre taken off the cell means, added back to every estimate through the
+    /// intercept.
+    centre: f64,
 }
 
 impl Solution {
@@ -665,7 +686,8 @@ impl Solution {
         let value: f64 = active
             .iter()
             .map(|&(position, weight)| weight * self.coefficients[position])
-            .sum();
+            .sum::<f64>()
+            + contrast[0] * self.centre;
         let covariance = self.unscaled_covariance.as_slice();
         let rank = kept.len();
         let mut variance = 0.0;
@@ -705,7 +727,12 @@ impl Solution {
 /// lost to cancellation; expect about 1e-12 relative error on well-conditioned designs.
 /// Standard errors use `σ² (X'WX)⁻¹ = σ² R⁻¹R⁻ᵀ`. A linear function is reported as
 /// estimable when it is consistent with every aliasing relation found by the QR.
-/// p-values come from the regularized incomplete beta function, never `1 - cdf`.
+/// p-values come from the F survival function of `stats::dist`, never `1 - cdf`.
+/// The response is each cell's `centred_mean` divided by a power of two near the largest
+/// of them, so squares neither overflow nor underflow; sums of squares are scaled back for
+/// the tables, F ratios are formed from the scaled sums, and the cells' common centre is
+/// added back to every estimate through the intercept (grand mean, least-squares means,
+/// fitted cell means).
 /// Checked against statsmodels 0.15.0 (`ols` with `C(x, Sum)` coding and `anova_lm`
 /// typ 1, 2, 3, `t_test`) on unbalanced two- and three-factor data, a block design and a
 /// design with an empty cell, and against scipy 1.17.1 `f_oneway` for one factor.
@@ -724,19 +751,24 @@ pub fn fit_factorial(
 ) -> Result<FactorialFit, StatsError> {
     let n_observations = validate(cells, factors, model)?;
     let n_treatments = factors.iter().filter(|factor| !factor.is_block).count();
+    // Centre and scale: the response is the centred cell mean over a power of two, the
+    // sums of squares are formed in those units and scaled back only for display.
+    let scale = response_scale(cells);
+    let scale_sq = scale * scale;
+    let centre = cells.first().map_or(0.0, |cell| cell.mean - cell.centred_mean);
 
     // choose the order and fit the full model
     let (order, design, full) = match model.max_order {
         Some(order) => {
             let order = order.min(n_treatments);
-            let design = build_design(factors, cells, order)?;
+            let design = build_design(factors, cells, order, scale)?;
             let full = sequential_qr(&design.matrix, &design.response);
             (order, design, full)
         }
         None => {
             let mut order = n_treatments;
             loop {
-                let design = build_design(factors, cells, order)?;
+                let design = build_design(factors, cells, order, scale)?;
                 let full = sequential_qr(&design.matrix, &design.response);
                 if full.rank() < n_observations || order <= 1 {
                     break (order, design, full);
@@ -755,35 +787,47 @@ pub fn fit_factorial(
         flags
     };
 
-    // residual, pure error, lack of fit, total
-    let within: f64 = cells.iter().map(|cell| cell.centred_ss).sum();
-    let lack_of_fit_ss = full.residual_sum_sq();
+    // residual, pure error, lack of fit, total; `scaled_*` in units of scale^2
+    let scaled_within: f64 = cells.iter().map(|cell| (cell.centred_ss / scale) / scale).sum();
+    let scaled_lack_of_fit = full.residual_sum_sq();
     let pure_error = SumOfSquaresLine {
         df: n_observations - cells.len(),
-        sum_sq: within,
+        sum_sq: scaled_within * scale_sq,
     };
     let lack_of_fit = SumOfSquaresLine {
         df: cells.len() - rank,
-        sum_sq: lack_of_fit_ss,
+        sum_sq: scaled_lack_of_fit * scale_sq,
     };
     let residual_df = n_observations - rank;
-    let residual_ss = within + lack_of_fit_ss;
+    let scaled_residual_ss = scaled_within + scaled_lack_of_fit;
+    let scaled_residual = ResidualLine {
+        df: residual_df,
+        sum_sq: scaled_residual_ss,
+        mean_sq: (residual_df > 0).then(|| scaled_residual_ss / residual_df as f64),
+    };
     let residual = ResidualLine {
         df: residual_df,
-        sum_sq: residual_ss,
-        mean_sq: (residual_df > 0).then(|| residual_ss / residual_df as f64),
+        sum_sq: scaled_residual_ss * scale_sq,
+        mean_sq: scaled_residual.mean_sq.map(|mean_sq| mean_sq * scale_sq),
     };
-    let grand_weighted_mean = cells.iter().map(|cell| cell.n as f64 * cell.mean).sum::<f64>() / n_observations as f64;
-    let total_ss = within
+    let scaled_means: Vec<f64> = cells.iter().map(|cell| cell.centred_mean / scale).collect();
+    let grand_weighted_mean = cells
+        .iter()
+        .zip(&scaled_means)
+        .map(|(cell, mean)| cell.n as f64 * mean)
+        .sum::<f64>()
+        / n_observations as f64;
+    let scaled_total_ss = scaled_within
         + cells
             .iter()
-            .map(|cell| cell.n as f64 * (cell.mean - grand_weighted_mean).powi(2))
+            .zip(&scaled_means)
+            .map(|(cell, mean)| cell.n as f64 * (mean - grand_weighted_mean).powi(2))
             .sum::<f64>();
     let total = SumOfSquaresLine {
         df: n_observations - 1,
-        sum_sq: total_ss,
+        sum_sq: scaled_total_ss * scale_sq,
     };
-    let r_squared = (total_ss > 0.0).then(|| 1.0 - residual_ss / total_ss);
+    let r_squared = (scaled_total_ss > 0.0).then(|| 1.0 - scaled_residual_ss / scaled_total_ss);
 
     // term information and Type I
     let mut terms = Vec::with_capacity(design.terms.len());
@@ -812,7 +856,9 @@ pub fn fit_factorial(
             },
         });
         if df > 0 {
-            type_i.rows.push(anova_row(&term.name, df, sum_sq, &residual));
+            type_i
+                .rows
+                .push(anova_row(&term.name, df, sum_sq, &scaled_residual, scale_sq));
         }
     }
 
@@ -829,13 +875,15 @@ pub fn fit_factorial(
         let test: Vec<usize> = term.columns.clone().collect();
         let (sum_sq, df) = sum_sq_after(&design, &before, &test);
         if df > 0 {
-            type_ii.rows.push(anova_row(&term.name, df, sum_sq, &residual));
+            type_ii
+                .rows
+                .push(anova_row(&term.name, df, sum_sq, &scaled_residual, scale_sq));
         }
     }
 
     // coefficients and covariance
     let r_inverse = upper_triangular_inverse(&full.r);
-    let coefficients = &r_inverse * full.effects.rows_range(..rank);
+    let scaled_coefficients = &r_inverse * full.effects.rows_range(..rank);
     let unscaled_covariance = &r_inverse * r_inverse.transpose();
 
     // Type III: each term after all other kept columns, from the full fit
@@ -851,17 +899,20 @@ pub fn fit_factorial(
         if positions.is_empty() {
             continue;
         }
-        let (sum_sq, df) = wald_sum_sq(&r_inverse, &coefficients, &positions);
+        let (sum_sq, df) = wald_sum_sq(&r_inverse, &scaled_coefficients, &positions);
         if df > 0 {
-            type_iii.rows.push(anova_row(&term.name, df, sum_sq, &residual));
+            type_iii
+                .rows
+                .push(anova_row(&term.name, df, sum_sq, &scaled_residual, scale_sq));
         }
     }
 
     let solution = Solution {
         qr: full,
-        coefficients,
+        coefficients: scaled_coefficients * scale,
         unscaled_covariance,
         sigma_sq: residual.mean_sq,
+        centre,
     };
 
     // cells, missing cells, balance

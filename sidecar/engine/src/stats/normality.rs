@@ -7,8 +7,7 @@
 //! [`check_normality`]).
 
 use super::StatsError;
-use statrs::function::erf::erfc_inv;
-use statrs::function::gamma::checked_gamma_ur;
+use crate::stats::dist;
 
 /// Largest sample size for which Royston's Shapiro-Wilk approximation is published.
 pub const SHAPIRO_WILK_MAX_N: usize = 5000;
@@ -157,27 +156,16 @@ fn polynomial(coefficients: &[f64], x: f64) -> f64 {
 
 /// Standard normal quantile for p in (0, 1).
 fn normal_quantile(p: f64) -> f64 {
-    -std::f64::consts::SQRT_2 * erfc_inv(2.0 * p)
+    dist::normal_quantile(p).unwrap_or(f64::NAN)
 }
 
-/// Standard normal upper tail P(Z > z), from the regularized upper incomplete gamma
-/// function: P(|Z| > a) = Q(1/2, a²/2). Relative accuracy about 1e-14.
+/// Standard normal upper tail P(Z > z), from the engine's normal survival function
+/// (relative accuracy about 1e-15 in both tails).
 fn normal_upper_tail(z: f64) -> f64 {
     if z.is_nan() {
         return f64::NAN;
     }
-    let half_square = 0.5 * z * z;
-    let two_sided = if half_square == 0.0 {
-        1.0
-    } else {
-        // Q(1/2, x) is refused only for infinite x, where the tail is zero.
-        checked_gamma_ur(0.5, half_square).unwrap_or(0.0)
-    };
-    if z >= 0.0 {
-        0.5 * two_sided
-    } else {
-        1.0 - 0.5 * two_sided
-    }
+    dist::normal_sf(z).unwrap_or(f64::NAN)
 }
 
 /// (ln Φ(z), ln Φ(-z)) for the standard normal, accurate far into either tail.

@@ -3,8 +3,7 @@
 //! to the smallest group standard deviation.
 
 use super::StatsError;
-use statrs::function::beta::checked_beta_reg;
-use statrs::function::gamma::checked_gamma_ur;
+use crate::stats::dist;
 
 /// Where the absolute deviations of Levene's test are measured from.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -119,8 +118,8 @@ fn median(values: &[f64]) -> f64 {
     }
 }
 
-/// P(F > f) for the F distribution with (d1, d2) degrees of freedom, from the
-/// regularized incomplete beta: I_{d2/(d2 + d1 f)}(d2/2, d1/2).
+/// P(F > f) for the F distribution with (d1, d2) degrees of freedom, from the engine's
+/// F survival function ([`dist::f_sf`]).
 fn f_upper_tail(f: f64, d1: f64, d2: f64) -> Result<f64, StatsError> {
     if f <= 0.0 {
         return Ok(1.0);
@@ -128,16 +127,15 @@ fn f_upper_tail(f: f64, d1: f64, d2: f64) -> Result<f64, StatsError> {
     if f == f64::INFINITY {
         return Ok(0.0);
     }
-    let x = d2 / (d2 + d1 * f);
-    checked_beta_reg(d2 / 2.0, d1 / 2.0, x).map_err(|_| StatsError::InvalidParameter {
+    dist::f_sf(f, d1, d2).map_err(|_| StatsError::InvalidParameter {
         name: "F statistic",
         rule: "finite and non-negative",
         value: f,
     })
 }
 
-/// P(X > x) for chi-square with `df` degrees of freedom, from the regularized upper
-/// incomplete gamma Q(df/2, x/2).
+/// P(X > x) for chi-square with `df` degrees of freedom, from the engine's chi-square
+/// survival function ([`dist::chi2_sf`]).
 fn chi_square_upper_tail(x: f64, df: f64) -> Result<f64, StatsError> {
     if x <= 0.0 {
         return Ok(1.0);
@@ -145,7 +143,7 @@ fn chi_square_upper_tail(x: f64, df: f64) -> Result<f64, StatsError> {
     if x == f64::INFINITY {
         return Ok(0.0);
     }
-    checked_gamma_ur(df / 2.0, x / 2.0).map_err(|_| StatsError::InvalidParameter {
+    dist::chi2_sf(x, df).map_err(|_| StatsError::InvalidParameter {
         name: "chi-square statistic",
         rule: "finite and non-negative",
         value: x,

@@ -7,8 +7,8 @@
 //! each number of groups is kept per thread as a table of polynomial pieces, so that
 //! repeated calls (one per pair of conditions) cost microseconds.
 
+use crate::stats::dist::{ln_gamma, stirling_remainder};
 use crate::stats::StatsError;
-use statrs::function::gamma::ln_gamma;
 
 /// Number of nodes of the Gauss-Legendre rule used on the panels of the outer integral.
 const RULE_SIZE: usize = 16;
@@ -633,19 +633,6 @@ fn with_range_table<T>(n_groups: usize, work: impl FnOnce(&mut RangeTable) -> T)
     result
 }
 
-/// ln Gamma(a) - ((a - 1/2) ln a - a + ln sqrt(2 pi)), the Stirling remainder.
-fn stirling_remainder(a: f64) -> f64 {
-    if a >= 15.0 {
-        let inverse = 1.0 / a;
-        let square = inverse * inverse;
-        inverse
-            * (1.0 / 12.0
-                - square * (1.0 / 360.0 - square * (1.0 / 1260.0 - square * (1.0 / 1680.0 - square / 1188.0))))
-    } else {
-        ln_gamma(a) - ((a - 0.5) * a.ln() - a + LN_SQRT_2PI)
-    }
-}
-
 /// Density of u = ln s, s = chi(df) / sqrt(df), on the log scale: `peak + shape(u)`.
 struct LogScaleDensity {
     half_df: f64,
@@ -1263,14 +1250,8 @@ fn starting_value(p: f64, n_groups: usize, df: f64) -> f64 {
     }
     let pairs = 0.5 * (n_groups * (n_groups - 1)) as f64;
     let pair_tail = 0.5 * (1.0 - p) / pairs;
-    let t = if df.is_infinite() {
-        std::f64::consts::SQRT_2 * statrs::function::erf::erfc_inv(2.0 * pair_tail)
-    } else {
-        // |t| > t0 with probability 2 pair_tail: the regularized incomplete beta gives
-        // P(|t| > t0) = I(df / (df + t0^2); df / 2, 1 / 2).
-        let ratio = statrs::function::beta::inv_beta_reg(0.5 * df, 0.5, 2.0 * pair_tail);
-        (df * (1.0 - ratio) / ratio).sqrt()
-    };
+    // |t| > t0 with probability 2 pair_tail (the normal when df is infinite).
+    let t = crate::stats::dist::t_isf(pair_tail, df).unwrap_or(f64::NAN);
     let start = std::f64::consts::SQRT_2 * t;
     if start.is_finite() && start > 0.0 {
         start

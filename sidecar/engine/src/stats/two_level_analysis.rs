@@ -7,9 +7,9 @@
 //! contrast column minus mean at the low level); the regression coefficient
 //! of a ±1 coded column is half the effect.
 
+use crate::stats::dist;
 use crate::stats::two_level::{detect_design, runs_to_masks, AliasChain, DesignKind, DesignSummary, Word};
 use crate::stats::StatsError;
-use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
 
 /// Tolerance used to recognise a centre point (all coded levels 0).
 const CENTRE_TOLERANCE: f64 = 1e-9;
@@ -25,29 +25,21 @@ fn check_finite(values: &[f64], name: &'static str) -> Result<(), StatsError> {
     Ok(())
 }
 
-fn student_t(df: f64) -> Result<StudentsT, StatsError> {
-    StudentsT::new(0.0, 1.0, df).map_err(|_| StatsError::InvalidParameter {
-        name: "degrees of freedom",
-        rule: "positive and finite",
-        value: df,
-    })
-}
-
-/// Upper quantile `t(q; df)` of Student's t for `q` in (0, 1).
-fn t_quantile(q: f64, df: f64) -> Result<f64, StatsError> {
-    if !(q > 0.0 && q < 1.0) {
+/// Point of Student's t with upper-tail probability `tail` in (0, 1).
+fn upper_t_quantile(tail: f64, df: f64) -> Result<f64, StatsError> {
+    if !(tail > 0.0 && tail < 1.0) {
         return Err(StatsError::InvalidParameter {
             name: "probability",
             rule: "strictly between 0 and 1",
-            value: q,
+            value: tail,
         });
     }
-    Ok(student_t(df)?.inverse_cdf(q))
+    dist::t_isf(tail, df)
 }
 
 /// Two-sided p-value of a t statistic.
 fn t_two_sided_p(t: f64, df: f64) -> Result<f64, StatsError> {
-    Ok((2.0 * student_t(df)?.sf(t.abs())).min(1.0))
+    Ok((2.0 * dist::t_sf(t.abs(), df)?).min(1.0))
 }
 
 fn median(sorted: &[f64]) -> f64 {
@@ -270,8 +262,8 @@ pub struct LenthAnalysis {
 /// `ME = t(1 - alpha/2; d) PSE`, `SME = t(gamma; d) PSE` with
 /// `gamma = (1 + (1 - alpha)^(1/m)) / 2`; here `confidence = 1 - alpha`.
 /// Medians of an even count are the mean of the two middle values. The t
-/// quantiles (fractional df allowed) come from `statrs` (incomplete beta
-/// inversion), checked against scipy to about 1e-9 relative in the tests.
+/// quantiles (fractional df allowed) come from the engine's Student t inverse survival
+/// function ([`crate::stats::dist::t_isf`]), checked against scipy in the tests.
 ///
 /// # Errors
 /// `TooFewValues` if fewer than 3 contrasts; `InvalidParameter` if a contrast
@@ -307,9 +299,12 @@ pub fn lenth(contrasts: &[f64], confidence: f64) -> Result<LenthAnalysis, StatsE
         });
     }
     let df = m as f64 / 3.0;
-    let t_individual = t_quantile(0.5 * (1.0 + confidence), df)?;
+    // Upper quantiles from the survival side: 1 - gamma = (1 - confidence^(1/m)) / 2
+    // is formed with expm1, so it keeps its digits when the confidence is near 1.
+    let t_individual = upper_t_quantile(0.5 * (1.0 - confidence), df)?;
     let gamma = 0.5 * (1.0 + confidence.powf(1.0 / m as f64));
-    let t_simultaneous = t_quantile(gamma, df)?;
+    let simultaneous_tail = -0.5 * (confidence.ln() / m as f64).exp_m1();
+    let t_simultaneous = upper_t_quantile(simultaneous_tail, df)?;
     let margin_of_error = t_individual * pseudo_standard_error;
     let simultaneous_margin_of_error = t_simultaneous * pseudo_standard_error;
     Ok(LenthAnalysis {
@@ -359,11 +354,6 @@ fn plot_positions(values: &[f64], half_normal: bool) -> Result<Vec<PlotPoint>, S
         });
     }
     check_finite(values, "effect")?;
-    let standard_normal = Normal::new(0.0, 1.0).map_err(|_| StatsError::InvalidParameter {
-        name: "normal distribution",
-        rule: "standard",
-        value: 0.0,
-    })?;
     let plotted: Vec<f64> = if half_normal {
         values.iter().map(|v| v.abs()).collect()
     } else {
@@ -376,10 +366,12 @@ fn plot_positions(values: &[f64], half_normal: bool) -> Result<Vec<PlotPoint>, S
         .enumerate()
         .map(|(position, &index)| {
             let probability = (position as f64 + 0.5) / m as f64;
+            // The half-normal point 0.5 + 0.5 p is taken as the upper quantile at
+            // 0.5 (1 - p), which keeps its digits when p is near 1.
             let quantile = if half_normal {
-                standard_normal.inverse_cdf(0.5 + 0.5 * probability)
+                dist::normal_isf(0.5 - 0.5 * probability).unwrap_or(f64::NAN)
             } else {
-                standard_normal.inverse_cdf(probability)
+                dist::normal_quantile(probability).unwrap_or(f64::NAN)
             };
             PlotPoint {
                 index,
@@ -400,7 +392,7 @@ fn plot_positions(values: &[f64], half_normal: bool) -> Result<Vec<PlotPoint>, S
 /// `Phi^{-1}((i - 0.5) / m)` (Hazen plotting positions, as used by Daniel,
 /// C. (1959), "Use of half-normal plots in interpreting factorial two-level
 /// experiments", Technometrics 1, 311-341). Ties keep input order. The
-/// normal quantile is `statrs`'s inverse error function (about 1e-15
+/// normal quantile is [`crate::stats::dist::normal_quantile`] (about 1e-15
 /// relative).
 ///
 /// # Errors

@@ -1,6 +1,6 @@
 //! Cell summaries: one accumulator per combination of the used factors' levels.
 
-use crate::stats::accumulate::GroupAccumulator;
+use crate::stats::accumulate::{centre_values, GroupAccumulator};
 use crate::stats::linear_model::{CellSummary, FactorialFit};
 
 use super::coding::UsedFactor;
@@ -19,7 +19,10 @@ pub(super) fn summarise(
     n_possible: Option<usize>,
 ) -> Option<(Vec<CellSummary>, Vec<u32>)> {
     let n_possible = n_possible.filter(|&n| n <= crate::stats::linear_model::MAX_LEVEL_COMBINATIONS)?;
-    let values = table.values;
+    // Accumulate, centre, solve: the cells hold sums of deviations from one centre, typed
+    // decimals differenced exactly (see `centre_values`), so a large offset costs nothing.
+    let record_values: Vec<f64> = records.iter().map(|&record| table.values[record]).collect();
+    let centred = centre_values(&record_values);
     type LevelColumn<'t> = (&'t [u32], &'t [Option<usize>], usize);
     let level_columns: Vec<LevelColumn<'_>> = used
         .iter()
@@ -46,8 +49,8 @@ pub(super) fn summarise(
     let mut present: Vec<u32> = Vec::new();
     let mut accumulator = if direct {
         let mut accumulator = GroupAccumulator::new(n_possible);
-        for (&index, &record) in grid_index.iter().zip(records) {
-            accumulator.push(index as usize, values[record]).ok()?;
+        for (&index, &value) in grid_index.iter().zip(&centred.deviations) {
+            accumulator.push(index as usize, value).ok()?;
             compact[index as usize] = 0;
         }
         present.extend((0..n_possible as u32).filter(|&index| compact[index as usize] == 0));
@@ -66,10 +69,8 @@ pub(super) fn summarise(
         compact[index as usize] = position as u32;
     }
     if !direct {
-        for (&index, &record) in grid_index.iter().zip(records) {
-            accumulator
-                .push(compact[index as usize] as usize, values[record])
-                .ok()?;
+        for (&index, &value) in grid_index.iter().zip(&centred.deviations) {
+            accumulator.push(compact[index as usize] as usize, value).ok()?;
         }
     }
     let all_stats = accumulator.finish();
@@ -96,7 +97,8 @@ pub(super) fn summarise(
             CellSummary {
                 levels,
                 n: group.n as usize,
-                mean: group.mean,
+                mean: centred.centre + group.mean,
+                centred_mean: group.mean,
                 centred_ss: group.centred_ss.max(0.0),
             }
         })

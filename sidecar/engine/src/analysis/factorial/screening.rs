@@ -129,7 +129,12 @@ pub(super) fn two_level_outcome(input: &TwoLevelInput<'_>, notes: &mut Vec<Strin
                 .collect()
         })
         .collect();
-    let responses: Vec<f64> = usable.iter().map(|&record| values[record]).collect();
+    // Accumulate, centre, solve: the responses enter as deviations from one centre
+    // (typed decimals differenced exactly), so effects keep their digits at any offset;
+    // the centre is added back to the levels reported (grand and curvature means).
+    let raw_responses: Vec<f64> = usable.iter().map(|&record| values[record]).collect();
+    let centred = crate::stats::accumulate::centre_values(&raw_responses);
+    let responses = centred.deviations;
     let names: Vec<String> = treatments.iter().map(|&f| table.factors[f].name.to_string()).collect();
     let alpha = 1.0 - confidence;
     let options = AnalysisOptions {
@@ -157,14 +162,21 @@ pub(super) fn two_level_outcome(input: &TwoLevelInput<'_>, notes: &mut Vec<Strin
         is_centre: &is_centre,
     };
     match analyse_two_level_in_layout(&runs, &responses, &layout, &options) {
-        Ok(analysis) => Some(two_level_from_analysis(
-            &analysis,
-            &names,
-            usable,
-            confidence,
-            alpha,
-            !blocks.is_empty(),
-        )),
+        Ok(mut analysis) => {
+            analysis.grand_mean += centred.centre;
+            if let Some(curvature) = analysis.curvature.as_mut() {
+                curvature.factorial_mean += centred.centre;
+                curvature.centre_mean += centred.centre;
+            }
+            Some(two_level_from_analysis(
+                &analysis,
+                &names,
+                usable,
+                confidence,
+                alpha,
+                !blocks.is_empty(),
+            ))
+        }
         Err(error) => {
             // Irregular designs: the design, and main effects by direct contrasts.
             let factorial: Vec<(Vec<f64>, f64)> = runs

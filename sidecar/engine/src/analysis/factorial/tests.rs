@@ -772,3 +772,101 @@ fn filtration_rate_pools_its_high_order_interactions() {
     active.sort();
     assert_eq!(active, ["A", "AC", "AD", "C", "D"]);
 }
+
+/// Number of correct significant digits of `actual` against `expected`, capped at 16.
+fn log_relative_error(actual: f64, expected: f64) -> f64 {
+    if actual == expected {
+        return 16.0;
+    }
+    (-((actual - expected).abs() / expected.abs()).log10()).min(16.0)
+}
+
+#[test]
+#[allow(clippy::print_stdout)] // the test prints the accuracy it measured
+fn offset_data_keep_every_digit_of_effects_and_sums_of_squares() {
+    // A replicated 2^3 at offsets 1e6 and 1e9 whose effects are 1e-4 to 2e-2: the values
+    // are typed decimals `offset + k / 10^4` with integer k. Reference: exact integer
+    // arithmetic in units of 1e-4 (a +-1 contrast C = sum s_i k_i gives the effect
+    // 2 C / N and the sum of squares C^2 / N, N = 16 runs; each reference is one
+    // correctly rounded division of exact integers). Type III sums of squares and
+    // two-level effects must carry at least 12 digits (LRE >= 12).
+    let names = ["a", "b", "c"];
+    // coefficients in units of 1e-4 (half effects): a, b, c, ab, ac, bc, abc
+    let half_effects: [i64; 7] = [100, 37, 1, 13, 2, 7, 1];
+    let mut rng = Rng(0x0FF5_E7DA_7A00_0016);
+    for offset in [1_000_000_i64, 1_000_000_000] {
+        let mut labels: Vec<Vec<String>> = vec![Vec::new(); 3];
+        let mut units: Vec<i64> = Vec::new();
+        let mut signs_of_run: Vec<[i64; 3]> = Vec::new();
+        for _replicate in 0..2 {
+            for run in 0..8 {
+                let signs = [0, 1, 2].map(|factor| if run >> factor & 1 == 1 { 1 } else { -1 });
+                for (factor, sign) in signs.iter().enumerate() {
+                    labels[factor].push(if *sign > 0 { "high" } else { "low" }.to_string());
+                }
+                let products = [
+                    signs[0],
+                    signs[1],
+                    signs[2],
+                    signs[0] * signs[1],
+                    signs[0] * signs[2],
+                    signs[1] * signs[2],
+                    signs[0] * signs[1] * signs[2],
+                ];
+                let noise = rng.below(41) as i64 - 20;
+                let k = 5_000 + noise + products.iter().zip(&half_effects).map(|(s, e)| s * e).sum::<i64>();
+                units.push(k);
+                signs_of_run.push(signs);
+            }
+        }
+        let values: Vec<f64> = units
+            .iter()
+            .map(|k| format!("{offset}.{k:04}").parse::<f64>().expect("decimal"))
+            .collect();
+        let factors: Vec<(&str, Vec<String>, bool)> = names
+            .iter()
+            .zip(&labels)
+            .map(|(name, labels)| (*name, labels.clone(), false))
+            .collect();
+        let data = table(&factors, values);
+        let outcome = analyse_factorial(&data.data(), &FactorialOptions::default()).expect("outcome");
+        let model = outcome.model.as_ref().expect("k-way model");
+        let two_level = outcome.two_level.as_ref().expect("two-level analysis");
+        let n = units.len() as i64;
+        for word in 1..8usize {
+            let members: Vec<usize> = (0..3).filter(|f| word >> f & 1 == 1).collect();
+            let contrast: i64 = units
+                .iter()
+                .zip(&signs_of_run)
+                .map(|(k, signs)| k * members.iter().map(|&f| signs[f]).product::<i64>())
+                .sum();
+            let expected_ss = (contrast * contrast) as f64 / (n * 100_000_000) as f64;
+            let expected_effect = (2 * contrast) as f64 / (n * 10_000) as f64;
+            let term_name = members.iter().map(|&f| names[f]).collect::<Vec<_>>();
+            // Term names join factor names with a separator; compare the names alone.
+            let names_of = |text: &str| -> Vec<String> {
+                text.split(|c: char| !c.is_alphanumeric())
+                    .filter(|part| !part.is_empty())
+                    .map(str::to_string)
+                    .collect()
+            };
+            let line = model
+                .type_iii
+                .iter()
+                .find(|line| names_of(&line.source) == term_name)
+                .unwrap_or_else(|| panic!("type III line for {term_name:?}"));
+            let effect = two_level
+                .effects
+                .iter()
+                .find(|effect| names_of(&effect.term) == term_name)
+                .unwrap_or_else(|| panic!("effect of {term_name:?}"));
+            let ss_lre = log_relative_error(line.sum_sq, expected_ss);
+            let effect_lre = log_relative_error(effect.effect.abs(), expected_effect.abs());
+            println!(
+                "offset {offset:e} term {}: SS {:e} (exact {expected_ss:e}) LRE {ss_lre:.1}; effect {:e} (exact {expected_effect:e}) LRE {effect_lre:.1}",
+                line.source, line.sum_sq, effect.effect
+            );
+            assert!(ss_lre >= 12.0 && effect_lre >= 12.0, "offset {offset}, {term_name:?}");
+        }
+    }
+}

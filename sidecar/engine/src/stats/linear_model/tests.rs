@@ -304,10 +304,12 @@ fn random_cells(rng: &mut Lcg, factors: &[FactorSpec], counts: impl Fn(&mut Lcg)
         .into_iter()
         .map(|levels| {
             let n = counts(rng);
+            let mean = 10.0 + 5.0 * rng.next_unit();
             CellSummary {
                 levels,
                 n,
-                mean: 10.0 + 5.0 * rng.next_unit(),
+                mean,
+                centred_mean: mean,
                 centred_ss: if n > 1 { (n - 1) as f64 * rng.next_unit() } else { 0.0 },
             }
         })
@@ -473,6 +475,7 @@ fn bad_input_is_refused() {
         levels: vec![0, 0],
         n: 2,
         mean: 1.0,
+        centred_mean: 1.0,
         centred_ss: 0.5,
     };
     let other = CellSummary {
@@ -552,12 +555,14 @@ fn wholly_aliased_terms_are_dropped_from_the_tables() {
             levels: vec![0, 0],
             n: 2,
             mean: 3.0,
+            centred_mean: 3.0,
             centred_ss: 0.5,
         },
         CellSummary {
             levels: vec![1, 1],
             n: 3,
             mean: 5.0,
+            centred_mean: 5.0,
             centred_ss: 1.0,
         },
     ];
