@@ -55,6 +55,7 @@ pub(super) fn split_blocks(cells: &[(CellPos, CellValue)]) -> Option<Vec<Cells>>
             None => merged.push((first, max_col as u32, false)),
         }
     }
+    let merged = join_spacer_groups(cells, merged);
     let mut blocks: Vec<Cells> = Vec::new();
     let single_group = merged.len() <= 1;
     for (first, last, _) in &merged {
@@ -88,6 +89,48 @@ pub(super) fn split_blocks(cells: &[(CellPos, CellValue)]) -> Option<Vec<Cells>>
         blocks.sort_by_key(|block| (block[0].0.col, block[0].0.row));
     }
     Some(blocks)
+}
+
+/// Joins neighbouring column groups that span the same rows and share no header text:
+/// one table with a blank spacer column, not two tables side by side (those repeat
+/// their headers or differ in length).
+fn join_spacer_groups(cells: &[(CellPos, CellValue)], groups: Vec<(u32, u32, bool)>) -> Vec<(u32, u32, bool)> {
+    // Only for a handful of groups: each cell looks its group up among them.
+    if groups.len() < 2 || groups.len() > 64 {
+        return groups;
+    }
+    // First row, last row and first-row texts of each group.
+    let mut extents: Vec<(u32, u32, Vec<CellValue>)> = vec![(u32::MAX, 0, Vec::new()); groups.len()];
+    for (pos, value) in cells {
+        let Some(index) = groups
+            .iter()
+            .position(|(first, last, _)| (*first..=*last).contains(&pos.col))
+        else {
+            continue;
+        };
+        let extent = &mut extents[index];
+        if pos.row < extent.0 {
+            *extent = (pos.row, pos.row, Vec::new());
+        }
+        if pos.row == extent.0 {
+            extent.2.push(*value);
+        }
+        extent.1 = extent.1.max(pos.row);
+    }
+    let mut joined: Vec<(u32, u32, bool)> = Vec::new();
+    let mut previous: Option<usize> = None;
+    for (index, group) in groups.iter().enumerate() {
+        let joins = previous.is_some_and(|before: usize| {
+            let (a, b) = (&extents[before], &extents[index]);
+            a.0 == b.0 && a.1 == b.1 && !b.2.iter().any(|value| a.2.contains(value))
+        });
+        match joined.last_mut() {
+            Some(last) if joins => last.1 = group.1,
+            _ => joined.push(*group),
+        }
+        previous = Some(index);
+    }
+    joined
 }
 
 /// Cuts one column group at blank rows into tables: each block as ranges of `cells`.

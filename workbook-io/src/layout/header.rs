@@ -6,6 +6,7 @@ use std::collections::HashMap;
 use crate::cell::{column_letters, CellPos, CellValue};
 use crate::read::SheetGrid;
 
+use super::cells::value_text;
 use super::{Finding, FindingKind, Findings};
 
 #[derive(Default, Clone, Copy)]
@@ -184,7 +185,7 @@ pub(super) fn header_names(
 ) -> Vec<(u32, String)> {
     let mut headers: Vec<(u32, String)> = cells[header_span.0..header_span.1]
         .iter()
-        .map(|(pos, value)| (pos.col, grid.display(*value).trim().to_string()))
+        .map(|(pos, value)| (pos.col, value_text(grid, *value).trim().to_string()))
         .filter(|(_, name)| !name.is_empty())
         .collect();
     for area in &grid.merged {

@@ -5,7 +5,7 @@ use std::collections::HashMap;
 use crate::cell::{CellPos, CellRect, CellValue};
 use crate::read::SheetGrid;
 
-use super::cells::{label_key, label_text, merged_label_findings, unusable_number};
+use super::cells::{label_key, label_text, merged_label_findings, unusable_number, value_text};
 use super::header::{column_finding, row_spans, ColumnIndex, HeaderColumn};
 use super::{Factor, Finding, FindingKind, Findings, Layout, Response, TrialTable};
 
@@ -107,7 +107,7 @@ pub(super) fn build_long(
         if let Some((index, slot)) = blank_label {
             if row_values.iter().any(Option::is_some) {
                 let pos = CellPos::new(row, factor_cols[index]);
-                let found = slot.map_or_else(|| "a blank".to_string(), |value| grid.display(value));
+                let found = slot.map_or_else(|| "a blank".to_string(), |value| value_text(grid, value));
                 findings.push(Finding {
                     kind: FindingKind::BlankLabel,
                     sheet: sheet.to_string(),

@@ -139,11 +139,38 @@ fn detect_table_cells(
             _ => None,
         });
         match label {
-            Some(label) if is_summary_word(label) => {
+            // Summary rows carry different labels; a label met twice is a level (Min, Max).
+            Some(label)
+                if is_summary_word(label)
+                    && !summary_rows
+                        .iter()
+                        .any(|(_, seen)| seen.eq_ignore_ascii_case(label.trim())) =>
+            {
                 summary_rows.push((cells[span.0].0.row, label.trim().to_string()));
                 last_data -= 1;
             }
+            Some(label) if is_summary_word(label) => {
+                summary_rows.clear();
+                last_data = rows.len();
+                break;
+            }
             _ => break,
+        }
+    }
+    // A summary label that also names records above is a level, not a summary.
+    if !summary_rows.is_empty() {
+        let used_above = last_data <= first_data
+            || cells[rows[first_data].0..rows[last_data - 1].1]
+                .iter()
+                .any(|(_, value)| match value {
+                    CellValue::Text(index) => summary_rows
+                        .iter()
+                        .any(|(_, label)| grid.text(*index).trim().eq_ignore_ascii_case(label)),
+                    _ => false,
+                });
+        if used_above {
+            summary_rows.clear();
+            last_data = rows.len();
         }
     }
     let data_cells = if first_data < last_data {
