@@ -31,7 +31,7 @@ use crate::read::SheetGrid;
 use cells::{hidden_findings, number_list};
 use header::{column_finding, count_columns, empty_column_findings, find_header_row, header_names, row_spans};
 use long::{build_long, label_factor_columns, measured_columns};
-use roles::{context_reason, design_columns, is_notes_column, is_summary_word};
+use roles::{context_reason, design_columns, is_notes_column, is_summary_word, short_reason};
 use wide::build_wide;
 
 /// Finds the trial table in a sheet's cells: the table that looks most like trial data
@@ -297,7 +297,7 @@ fn detect_table_cells(
             ));
             set_aside.push(SetAside {
                 name: column.name.clone(),
-                reason: (*reason).to_string(),
+                reason: short_reason(reason).to_string(),
             });
         }
     }

@@ -125,6 +125,23 @@ pub(super) fn context_reason(column: &HeaderColumn, n_rows: usize) -> Option<&'s
     Some("is headed like a record identifier (run, order, sample, panel, batch or lot number)")
 }
 
+/// A word or two for a context reason, for the one-line choice.
+pub(super) fn short_reason(reason: &str) -> &'static str {
+    if reason.starts_with("holds dates") {
+        "dates or times"
+    } else if reason.contains("notes") {
+        "notes"
+    } else if reason.starts_with("counts up") {
+        "run number"
+    } else if reason.starts_with("has a different label") {
+        "identifier"
+    } else if reason.contains("record of context") {
+        "context"
+    } else {
+        "record number"
+    }
+}
+
 /// Whether a column is headed as notes or comments (never a condition unless named).
 pub(super) fn is_notes_column(column: &HeaderColumn) -> bool {
     words(&column.name).iter().any(|word| {
