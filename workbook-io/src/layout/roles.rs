@@ -169,6 +169,14 @@ pub(super) fn design_columns(columns: &[HeaderColumn], candidates: &[usize]) -> 
         let distinct = counts.distinct_numbers().len();
         !counts.many_numbers && (2..=5).contains(&distinct) && counts.numbers >= 2 * distinct && counts.numbers >= 4
     };
+    // Columns headed alike ("Line 1", "Line 2", ...) are the conditions of a wide table.
+    let first_words: Vec<Option<String>> = candidates
+        .iter()
+        .map(|&index| words(&columns[index].name).into_iter().next())
+        .collect();
+    if candidates.len() >= 2 && first_words.iter().all(|word| word.is_some() && *word == first_words[0]) {
+        return Vec::new();
+    }
     let measured_cols: Vec<u32> = candidates
         .iter()
         .filter(|&&index| !is_setting(index))

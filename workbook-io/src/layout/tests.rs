@@ -1040,6 +1040,28 @@ fn kept_shapes_more() -> Vec<Case> {
             }),
         },
         Case {
+            name: "a wide table of counts, some columns with few values, stays wide",
+            rows: &[
+                &["Line 1", "Line 2", "Line 3"],
+                &["0", "2", "7"],
+                &["1", "3", "5"],
+                &["0", "2", "9"],
+                &["2", "4", "6"],
+                &["1", "3", "8"],
+                &["0", "2", "4"],
+            ],
+            merged: &[],
+            request: TableRequest::default(),
+            expect: Expected::Table(TableExpect {
+                layout: Layout::Wide,
+                area: "A1:C7",
+                factors: &[("condition", &["Line 1", "Line 2", "Line 3"], false)],
+                responses: &["value"],
+                records: 18,
+                findings: &[],
+            }),
+        },
+        Case {
             name: "levels named Min and Max at the foot are records, not summary rows",
             rows: &[
                 &["Fan", "Noise"],
