@@ -23,4 +23,5 @@ mod lsp;
 mod nist;
 mod plan;
 mod results_snapshot;
+mod table_shapes;
 mod watch;

@@ -13,7 +13,7 @@ use std::sync::Arc;
 use std::time::Instant;
 
 use sha2::{Digest, Sha256};
-use workbook_io::layout::{detect_table, Finding, FindingKind, TableRequest, TrialTable};
+use workbook_io::layout::{choose_table, detect_table, Finding, FindingKind, TableRequest, TrialTable};
 use workbook_io::settings::{is_settings_sheet, read_setting_rows};
 use workbook_io::{open_workbook, CellRect, ReadError, ReadLimits, SheetGrid, SheetInfo, Workbook};
 
@@ -190,6 +190,7 @@ pub(crate) fn summarise_table(table: &TrialTable) -> TableSummary {
             .collect(),
         responses: table.responses.iter().map(|response| response.name.clone()).collect(),
         n_records: table.n_records(),
+        choices: table.choices.clone(),
     }
 }
 
@@ -333,7 +334,7 @@ fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> R
     };
     let table_request = table_request(&settings, range);
     let mut reasons = Vec::new();
-    let mut found: Option<TrialTable> = None;
+    let mut found_tables: Vec<TrialTable> = Vec::new();
     let mut read_total = 0.0;
     let mut layout_total = 0.0;
     for sheet in &candidates {
@@ -348,8 +349,11 @@ fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> R
         layout_total += layout_started.elapsed().as_secs_f64() * 1e3;
         match detected {
             Ok(table) => {
-                found = Some(table);
-                break;
+                found_tables.push(table);
+                // The sheet the user chose is the only one looked at.
+                if wanted_sheet.is_some() {
+                    break;
+                }
             }
             Err(error) => {
                 // A named column missing from the sheet the user chose is final.
@@ -366,7 +370,7 @@ fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> R
     let _ = started;
     timings.read_ms = read_total;
     timings.layout_ms = layout_total;
-    let Some(mut table) = found else {
+    let Some(mut table) = choose_sheet_table(found_tables) else {
         if candidates.is_empty() {
             reasons.push("the workbook has no visible worksheet".into());
         }
@@ -399,6 +403,18 @@ fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> R
         findings,
         timings: Timings::default(),
     })
+}
+
+/// Of the tables found on several sheets, the one that looks most like trial data (the
+/// first of equals), with the choice said in its choices and as a finding naming the
+/// other sheets' tables.
+fn choose_sheet_table(tables: Vec<TrialTable>) -> Option<TrialTable> {
+    choose_table(
+        tables,
+        |table| format!("'{}'!{}", table.sheet, table.area.a1()),
+        "on the workbook's sheets",
+        "`sheet` or `range`",
+    )
 }
 
 /// Reads a workbook and reports the table it would analyse, with every finding.

@@ -53,6 +53,10 @@ pub struct TableSummary {
     pub responses: Vec<String>,
     /// Number of records.
     pub n_records: usize,
+    /// Each choice table detection made (which table, which columns), in one line with
+    /// the setting that would change it.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub choices: Vec<String>,
 }
 
 /// A factor and its levels.

@@ -48,6 +48,9 @@ pub(crate) fn inspect_command(args: InspectArgs) -> i32 {
                     );
                 }
                 println!("  responses: {}", table.responses.join(", "));
+                for choice in &table.choices {
+                    println!("  chosen: {choice}");
+                }
                 println!("findings: {}", inspection.findings.len());
                 for finding in &inspection.findings {
                     println!("  {}: {}", finding.place(), finding.message);

@@ -4,6 +4,7 @@
 
 pub mod blessing;
 pub mod corpus;
+pub mod shapes;
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};

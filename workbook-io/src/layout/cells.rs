@@ -1,8 +1,6 @@
 //! Findings for cells: unusable numbers, labels, labels that differ only in case or
 //! spacing, and hidden rows and columns of the table.
 
-use std::collections::HashMap;
-
 use crate::cell::{column_letters, CellPos, CellRect, CellValue};
 use crate::read::SheetGrid;
 
@@ -97,10 +95,57 @@ pub(super) fn label_text(grid: &SheetGrid, value: CellValue) -> Option<String> {
     match value {
         CellValue::Error(_) => None,
         other => {
-            let text = grid.display(other).trim().to_string();
+            let text = value_text(grid, other).trim().to_string();
             (!text.is_empty()).then_some(text)
         }
     }
+}
+
+/// A cell's value as a person reads it: dates and times as dates, the rest as shown.
+pub(super) fn value_text(grid: &SheetGrid, value: CellValue) -> String {
+    match value {
+        CellValue::Date(serial) if serial.is_finite() => date_text(serial),
+        other => grid.display(other),
+    }
+}
+
+/// A spreadsheet date serial (days since 1899-12-30, the 1900 date system as stored by
+/// current spreadsheet files) as `2026-11-24`, `2026-11-24 08:30` or `08:30`.
+pub(super) fn date_text(serial: f64) -> String {
+    if !(0.0..3_000_000.0).contains(&serial) {
+        return format!("date serial {serial}");
+    }
+    let days = serial.floor();
+    let minutes = ((serial - days) * 1440.0).round() as i64;
+    let (days, minutes) = (days as i64 + minutes / 1440, minutes % 1440);
+    let time = format!("{:02}:{:02}", minutes / 60, minutes % 60);
+    if days == 0 {
+        return time;
+    }
+    // Civil date from a day count (H. Hinnant, "chrono-Compatible Low-Level Date
+    // Algorithms", days_from_civil inverse); 1899-12-30 is day -25,569 from 1970-01-01.
+    let z = days - 25_569 + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1_460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let day = doy - (153 * mp + 2) / 5 + 1;
+    let month = if mp < 10 { mp + 3 } else { mp - 9 };
+    let year = yoe + era * 400 + i64::from(month <= 2);
+    if minutes == 0 {
+        format!("{year:04}-{month:02}-{day:02}")
+    } else {
+        format!("{year:04}-{month:02}-{day:02} {time}")
+    }
+}
+
+/// The key under which labels count as one condition: Unicode canonical composition,
+/// case folded, inner runs of spaces made one.
+pub(super) fn label_key(label: &str) -> String {
+    use unicode_normalization::UnicodeNormalization;
+    let composed: String = label.nfc().collect();
+    composed.to_lowercase().split_whitespace().collect::<Vec<_>>().join(" ")
 }
 
 pub(super) fn unusable_number(
@@ -118,7 +163,7 @@ pub(super) fn unusable_number(
         CellValue::Date(_) => (FindingKind::DateInNumbers, "a date"),
         CellValue::Bool(_) => (FindingKind::BooleanInNumbers, "TRUE/FALSE"),
     };
-    let found = grid.display(value);
+    let found = value_text(grid, value);
     Some(Finding {
         kind,
         sheet: sheet.to_string(),
@@ -129,31 +174,27 @@ pub(super) fn unusable_number(
     })
 }
 
-pub(super) fn similar_label_findings(
-    sheet: &str,
-    factor: &Factor,
-    map: &HashMap<String, u32>,
-    findings: &mut Findings,
-) {
-    let mut by_folded: HashMap<String, Vec<&str>> = HashMap::new();
-    for label in map.keys() {
-        let folded: String = label.to_lowercase().split_whitespace().collect::<Vec<_>>().join(" ");
-        by_folded.entry(folded).or_default().push(label);
-    }
-    let mut groups: Vec<Vec<&str>> = by_folded.into_values().filter(|group| group.len() > 1).collect();
-    groups.sort();
-    for mut group in groups {
-        group.sort_unstable();
+/// Reports each level that was written in more than one way (case, spacing, accents):
+/// the variants were merged into the level's first spelling.
+pub(super) fn merged_label_findings(sheet: &str, factor: &Factor, variants: &[Vec<String>], findings: &mut Findings) {
+    for (level, spellings) in factor.levels.iter().zip(variants) {
+        if spellings.len() < 2 {
+            continue;
+        }
+        let listed = spellings
+            .iter()
+            .map(|label| format!("'{label}'"))
+            .collect::<Vec<_>>()
+            .join(", ");
         findings.push(Finding {
             kind: FindingKind::SimilarLabels,
             sheet: sheet.to_string(),
             cell: factor.column.map(column_letters),
-            found: group.join(" | "),
-            action: "kept as different conditions".into(),
+            found: spellings.join(" | "),
+            action: format!("merged into one condition '{level}'"),
             message: format!(
-                "in '{}', the labels {} differ only in case or spacing; they were kept apart; correct them if they are the same condition",
-                factor.name,
-                group.iter().map(|label| format!("'{label}'")).collect::<Vec<_>>().join(", ")
+                "in '{}', the labels {listed} differ only in case or spacing, or in how accents are encoded; they were read as one condition '{level}'; correct the labels in the sheet if they are different conditions",
+                factor.name
             ),
         });
     }

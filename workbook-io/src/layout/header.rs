@@ -6,6 +6,7 @@ use std::collections::HashMap;
 use crate::cell::{column_letters, CellPos, CellValue};
 use crate::read::SheetGrid;
 
+use super::cells::value_text;
 use super::{Finding, FindingKind, Findings};
 
 #[derive(Default, Clone, Copy)]
@@ -18,14 +19,39 @@ pub(super) struct ColumnCounts {
     pub(super) booleans: usize,
     pub(super) dates: usize,
     pub(super) errors: usize,
+    /// The first distinct numbers, up to [`MAX_SETTINGS`].
+    pub(super) settings: [f64; MAX_SETTINGS],
+    /// How many of `settings` are filled.
+    pub(super) n_settings: usize,
+    /// True when the column holds more distinct numbers than `settings` keeps.
+    pub(super) many_numbers: bool,
 }
+
+/// Distinct numbers kept per column to recognise design settings.
+pub(super) const MAX_SETTINGS: usize = 6;
 
 impl ColumnCounts {
     pub(super) fn non_empty(&self) -> usize {
         self.numbers + self.texts + self.booleans + self.dates + self.errors
     }
+    /// The distinct numbers seen, when there are at most [`MAX_SETTINGS`].
+    pub(super) fn distinct_numbers(&self) -> &[f64] {
+        &self.settings[..self.n_settings]
+    }
+    fn note_number(&mut self, number: f64) {
+        if self.many_numbers || self.settings[..self.n_settings].contains(&number) {
+            return;
+        }
+        if self.n_settings == MAX_SETTINGS {
+            self.many_numbers = true;
+        } else {
+            self.settings[self.n_settings] = number;
+            self.n_settings += 1;
+        }
+    }
     pub(super) fn is_numeric(&self) -> bool {
-        self.numbers > 0 && self.numbers * 2 >= self.non_empty()
+        // Error values and TRUE/FALSE among numbers are unusable numbers, not labels.
+        self.numbers > 0 && self.numbers >= self.texts + self.dates
     }
 }
 
@@ -85,6 +111,7 @@ pub(super) fn row_spans(cells: &[(CellPos, CellValue)]) -> Vec<(usize, usize)> {
 /// The header is the first row of text cells followed by a row with a
 /// number; rows with two or more texts are preferred over a lone title.
 pub(super) fn find_header_row(
+    grid: &SheetGrid,
     cells: &[(CellPos, CellValue)],
     rows: &[(usize, usize)],
     explicit_range: bool,
@@ -102,23 +129,45 @@ pub(super) fn find_header_row(
             .any(|(_, value)| is_text(value))
             .then_some(0);
     }
+    // The header is the all-text row with the most cells among the rows above the first
+    // row holding a number: a one- or two-cell title above it and a units row below it
+    // have fewer cells. Of rows with as many cells the later wins (a title of as many
+    // cells sits above the header), unless it starts right of the table's first column
+    // or holds only bracketed units.
     let scan = rows.len().min(200);
-    let mut lone_title: Option<usize> = None;
+    let mut best: Option<(usize, usize)> = None;
+    let mut first_col = u32::MAX;
     for index in 0..scan {
         let span = rows[index];
-        let row_cells = &cells[span.0..span.1];
-        let n_text = row_cells.iter().filter(|(_, value)| is_text(value)).count();
-        let all_text = n_text == row_cells.len();
-        let followed_by_numbers = rows[index + 1..rows.len().min(index + 6)].iter().any(row_has_number);
-        if !all_text || !followed_by_numbers {
+        if row_has_number(&span) {
+            if best.is_some() {
+                break;
+            }
             continue;
         }
-        if n_text >= 2 {
-            return Some(index);
+        let row_cells = &cells[span.0..span.1];
+        let n_text = row_cells.iter().filter(|(_, value)| is_text(value)).count();
+        if n_text != row_cells.len() {
+            continue;
         }
-        lone_title.get_or_insert(index);
+        let followed_by_numbers = rows[index + 1..rows.len().min(index + 6)].iter().any(row_has_number);
+        if !followed_by_numbers {
+            continue;
+        }
+        first_col = first_col.min(row_cells[0].0.col);
+        let units_only = row_cells.iter().all(|(_, value)| match value {
+            CellValue::Text(text) => {
+                let text = grid.text(*text).trim();
+                text.starts_with('(') || text.starts_with('[')
+            }
+            _ => false,
+        });
+        let weight = 2 * n_text + usize::from(row_cells[0].0.col == first_col && !units_only);
+        if best.is_none_or(|(_, most)| weight >= most) {
+            best = Some((index, weight));
+        }
     }
-    lone_title
+    best.map(|(index, _)| index)
 }
 
 /// The header names of the table: merged header cells spread over their columns,
@@ -136,7 +185,7 @@ pub(super) fn header_names(
 ) -> Vec<(u32, String)> {
     let mut headers: Vec<(u32, String)> = cells[header_span.0..header_span.1]
         .iter()
-        .map(|(pos, value)| (pos.col, grid.display(*value).trim().to_string()))
+        .map(|(pos, value)| (pos.col, value_text(grid, *value).trim().to_string()))
         .filter(|(_, name)| !name.is_empty())
         .collect();
     for area in &grid.merged {
@@ -260,6 +309,7 @@ pub(super) fn count_columns(
                 };
                 counts.last_number = Some(*number);
                 counts.numbers += 1;
+                counts.note_number(*number);
             }
             CellValue::Text(text_index) => {
                 counts.texts += 1;

@@ -5,7 +5,7 @@ use std::collections::HashMap;
 use crate::cell::{CellPos, CellRect, CellValue};
 use crate::read::SheetGrid;
 
-use super::cells::{label_text, similar_label_findings, unusable_number};
+use super::cells::{label_key, label_text, merged_label_findings, unusable_number, value_text};
 use super::header::{column_finding, row_spans, ColumnIndex, HeaderColumn};
 use super::{Factor, Finding, FindingKind, Findings, Layout, Response, TrialTable};
 
@@ -31,7 +31,9 @@ pub(super) fn build_long(
             is_block,
         })
         .collect();
+    // Levels by their key (case, spacing and accents folded), with the spellings met.
     let mut level_maps: Vec<HashMap<String, u32>> = vec![HashMap::new(); factors.len()];
+    let mut spellings: Vec<Vec<Vec<String>>> = vec![Vec::new(); factors.len()];
     // Each factor's level by text index, found once per distinct text
     // (`NO_LEVEL`: not looked up yet, `BLANK`: the text is blank).
     const NO_LEVEL: u32 = u32::MAX;
@@ -105,7 +107,7 @@ pub(super) fn build_long(
         if let Some((index, slot)) = blank_label {
             if row_values.iter().any(Option::is_some) {
                 let pos = CellPos::new(row, factor_cols[index]);
-                let found = slot.map_or_else(|| "a blank".to_string(), |value| grid.display(value));
+                let found = slot.map_or_else(|| "a blank".to_string(), |value| value_text(grid, value));
                 findings.push(Finding {
                     kind: FindingKind::BlankLabel,
                     sheet: sheet.to_string(),
@@ -131,10 +133,19 @@ pub(super) fn build_long(
                 (None, text) => {
                     let text = text.unwrap_or_default();
                     let next = level_maps[index].len() as u32;
-                    let level = *level_maps[index].entry(text.clone()).or_insert_with(|| {
-                        factors[index].levels.push(text);
+                    let level = *level_maps[index].entry(label_key(&text)).or_insert_with(|| {
+                        factors[index].levels.push(text.clone());
+                        spellings[index].push(Vec::new());
                         next
                     });
+                    let spelling = match row_labels[index] {
+                        Some(CellValue::Text(text_index)) => grid.text(text_index).to_string(),
+                        _ => text,
+                    };
+                    let known = &mut spellings[index][level as usize];
+                    if !known.contains(&spelling) {
+                        known.push(spelling);
+                    }
                     if let Some(CellValue::Text(text_index)) = row_labels[index] {
                         if let Some(entry) = level_of_text[index].get_mut(text_index as usize) {
                             *entry = level;
@@ -174,8 +185,9 @@ pub(super) fn build_long(
         }
         record_rows.push(row);
     }
-    for (factor, map) in factors.iter().zip(&level_maps) {
-        similar_label_findings(sheet, factor, map, &mut findings);
+    for (factor, variants) in factors.iter_mut().zip(&spellings) {
+        merged_label_findings(sheet, factor, variants, &mut findings);
+        order_numeric_levels(factor);
     }
     let first_col = columns.first().map_or(0, |column| column.col);
     let last_col = columns.last().map_or(0, |column| column.col);
@@ -191,23 +203,51 @@ pub(super) fn build_long(
         record_rows,
         level_columns: Vec::new(),
         findings: findings.into_vec(),
+        choices: Vec::new(),
     }
 }
 
-/// The label columns that are factors when none is named: columns mostly not numbers,
-/// not named as responses, leaving out notes (filled on fewer than half the rows) and
+/// Puts the levels of a factor whose every level is a number in the order of their
+/// values; text levels keep the order in which they were first met.
+fn order_numeric_levels(factor: &mut Factor) {
+    let values: Option<Vec<f64>> = factor
+        .levels
+        .iter()
+        .map(|level| level.parse::<f64>().ok().filter(|value| value.is_finite()))
+        .collect();
+    let Some(values) = values else {
+        return;
+    };
+    let mut order: Vec<usize> = (0..values.len()).collect();
+    order.sort_by(|&a, &b| values[a].total_cmp(&values[b]));
+    if order.iter().enumerate().all(|(position, &index)| position == index) {
+        return;
+    }
+    let mut new_index = vec![0u32; order.len()];
+    for (position, &index) in order.iter().enumerate() {
+        new_index[index] = position as u32;
+    }
+    factor.levels = order.iter().map(|&index| factor.levels[index].clone()).collect();
+    for level in &mut factor.level_of_record {
+        *level = new_index[*level as usize];
+    }
+}
+
+/// The label columns that are factors when none is named: of the `candidates`, the
+/// columns mostly not numbers, leaving out notes (filled on fewer than half the rows) and
 /// identifiers (a different label on almost every row of eight or more), each reported.
 pub(super) fn label_factor_columns(
     sheet: &str,
     header_row: u32,
     columns: &[HeaderColumn],
-    response_columns: &[usize],
+    candidates: &[usize],
     n_data_rows: usize,
     findings: &mut Findings,
 ) -> Vec<usize> {
-    let label_candidates: Vec<usize> = (0..columns.len())
+    let label_candidates: Vec<usize> = candidates
+        .iter()
+        .copied()
         .filter(|&index| !columns[index].counts.is_numeric() && columns[index].counts.non_empty() > 0)
-        .filter(|index| !response_columns.contains(index))
         .collect();
     let mut factors_found = Vec::new();
     for index in label_candidates {
@@ -239,18 +279,21 @@ pub(super) fn label_factor_columns(
     factors_found
 }
 
-/// The response columns when none is named: the numeric columns that are not factors,
-/// leaving out (and reporting) columns that count 1, 2, 3, ... when a measured column remains.
+/// The response columns when none is named: the numeric columns that are not factors
+/// nor `excluded` (context), leaving out (and reporting) columns that count 1, 2, 3, ...
+/// when a measured column remains.
 pub(super) fn measured_columns(
     sheet: &str,
     header_row: u32,
     columns: &[HeaderColumn],
     factor_columns: &[(usize, bool)],
+    excluded: &[usize],
     findings: &mut Findings,
 ) -> Vec<usize> {
     let response_columns: Vec<usize> = (0..columns.len())
         .filter(|index| columns[*index].counts.is_numeric())
         .filter(|index| !factor_columns.iter().any(|(factor, _)| factor == index))
+        .filter(|index| !excluded.contains(index))
         .collect();
     // A column counting 1, 2, 3, ... is a run or sample number, not a measurement.
     let (counters, measured): (Vec<usize>, Vec<usize>) = response_columns

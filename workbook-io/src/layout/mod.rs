@@ -11,37 +11,57 @@
 //! cell, what was found and what was done; a finding never stops the reading
 //! while an analysable table remains.
 
+mod blocks;
 mod cells;
+mod choose;
 mod header;
 mod long;
+mod roles;
 #[cfg(test)]
 mod tests;
 mod types;
 mod wide;
 
+pub use choose::{choose_table, trial_score};
 pub use types::*;
 
-use crate::cell::{CellPos, CellValue};
+use crate::cell::{CellPos, CellRect, CellValue};
 use crate::read::SheetGrid;
 
-use cells::hidden_findings;
-use header::{count_columns, empty_column_findings, find_header_row, header_names, row_spans};
+use cells::{hidden_findings, number_list};
+use header::{column_finding, count_columns, empty_column_findings, find_header_row, header_names, row_spans};
 use long::{build_long, label_factor_columns, measured_columns};
+use roles::{context_reason, design_columns, is_notes_column, is_summary_word, short_reason};
 use wide::build_wide;
 
-/// Finds the trial table in a sheet's cells.
+/// Finds the trial table in a sheet's cells: the table that looks most like trial data
+/// when the sheet holds several (side by side or stacked), the choice said in the
+/// table's `choices` and as a finding naming the other tables.
 ///
 /// # Errors
 ///
 /// [`LayoutError::NoTable`] when the sheet holds nothing analysable,
 /// [`LayoutError::UnknownColumn`] when a requested column is missing.
 pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTable, LayoutError> {
-    let mut table = detect_table_cells(grid, request)?;
+    let mut table = match (request.range, blocks::split_blocks(&grid.cells)) {
+        (None, Some(blocks)) => choose::best_block(grid, request, &blocks)?,
+        _ => detect_table_cells(grid, request, None)?,
+    };
     table.findings.extend(hidden_findings(grid, &table));
     Ok(table)
 }
 
-fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTable, LayoutError> {
+/// A column set aside from detection, with the reason, for the choice line.
+struct SetAside {
+    name: String,
+    reason: String,
+}
+
+fn detect_table_cells(
+    grid: &SheetGrid,
+    request: &TableRequest,
+    block: Option<&[(CellPos, CellValue)]>,
+) -> Result<TrialTable, LayoutError> {
     let sheet = grid.name.clone();
     let cells: Vec<(CellPos, CellValue)> = match request.range {
         Some(rect) => grid
@@ -52,7 +72,11 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
             .collect(),
         None => Vec::new(),
     };
-    let cells: &[(CellPos, CellValue)] = if request.range.is_some() { &cells } else { &grid.cells };
+    let cells: &[(CellPos, CellValue)] = match (request.range.is_some(), block) {
+        (true, _) => &cells,
+        (false, Some(block)) => block,
+        (false, None) => &grid.cells,
+    };
     if cells.is_empty() {
         return Err(LayoutError::NoTable {
             sheet,
@@ -63,14 +87,97 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
         });
     }
     let rows = row_spans(cells);
-    let header_index = find_header_row(cells, &rows, request.range.is_some()).ok_or_else(|| LayoutError::NoTable {
-        sheet: sheet.clone(),
-        looked_for: "a header row of text (column names) with numbers below it".into(),
-    })?;
+    let header_index =
+        find_header_row(grid, cells, &rows, request.range.is_some()).ok_or_else(|| LayoutError::NoTable {
+            sheet: sheet.clone(),
+            looked_for: "a header row of text (column names) with numbers below it".into(),
+        })?;
     let header_row = cells[rows[header_index].0].0.row;
     let mut findings = Findings::default();
+    let mut choices: Vec<String> = Vec::new();
+    let first_header_col = cells[rows[header_index].0].0.col;
 
-    let data_cells = &cells[rows.get(header_index + 1).map_or(cells.len(), |span| span.0)..];
+    // Rows of text only between the header and the first number (units, notes) belong
+    // to the header; summary rows at the foot of the data are left out.
+    let mut first_data = header_index + 1;
+    let row_has_number = |span: &(usize, usize)| {
+        cells[span.0..span.1]
+            .iter()
+            .any(|(_, value)| matches!(value, CellValue::Number(_)))
+    };
+    let mut units_rows = Vec::new();
+    while first_data < rows.len() && request.range.is_none() {
+        let span = rows[first_data];
+        let all_text = cells[span.0..span.1]
+            .iter()
+            .all(|(_, value)| matches!(value, CellValue::Text(_)));
+        let label_blank = cells[span.0].0.col != first_header_col;
+        if row_has_number(&span) || !all_text || !label_blank {
+            break;
+        }
+        units_rows.push(cells[span.0].0.row);
+        first_data += 1;
+    }
+    if let (Some(&first), Some(&last)) = (units_rows.first(), units_rows.last()) {
+        let area = CellRect {
+            first: CellPos::new(first, first_header_col),
+            last: CellPos::new(last, cells[rows[header_index].1 - 1].0.col),
+        };
+        let line = format!(
+            "row(s) {} under the header hold text only (units or notes); they were read as part of the header, not as records; set `range` to start the table elsewhere",
+            number_list(&units_rows)
+        );
+        findings.push(choice_finding(&sheet, area, "text under the header", &line));
+        choices.push(line);
+    }
+    let mut last_data = rows.len();
+    let mut summary_rows: Vec<(u32, String)> = Vec::new();
+    while last_data > first_data {
+        let span = rows[last_data - 1];
+        let label = cells[span.0..span.1].iter().find_map(|(_, value)| match value {
+            CellValue::Text(index) => Some(grid.text(*index)),
+            _ => None,
+        });
+        match label {
+            // Summary rows carry different labels; a label met twice is a level (Min, Max).
+            Some(label)
+                if is_summary_word(label)
+                    && !summary_rows
+                        .iter()
+                        .any(|(_, seen)| seen.eq_ignore_ascii_case(label.trim())) =>
+            {
+                summary_rows.push((cells[span.0].0.row, label.trim().to_string()));
+                last_data -= 1;
+            }
+            Some(label) if is_summary_word(label) => {
+                summary_rows.clear();
+                last_data = rows.len();
+                break;
+            }
+            _ => break,
+        }
+    }
+    // A summary label that also names records above is a level, not a summary.
+    if !summary_rows.is_empty() {
+        let used_above = last_data <= first_data
+            || cells[rows[first_data].0..rows[last_data - 1].1]
+                .iter()
+                .any(|(_, value)| match value {
+                    CellValue::Text(index) => summary_rows
+                        .iter()
+                        .any(|(_, label)| grid.text(*index).trim().eq_ignore_ascii_case(label)),
+                    _ => false,
+                });
+        if used_above {
+            summary_rows.clear();
+            last_data = rows.len();
+        }
+    }
+    let data_cells = if first_data < last_data {
+        &cells[rows[first_data].0..rows[last_data - 1].1]
+    } else {
+        &cells[0..0]
+    };
     let last_row = data_cells.last().map_or(header_row, |(pos, _)| pos.row);
 
     // Header names, with merged headers spread, blank headers named and duplicates renamed.
@@ -86,6 +193,36 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
 
     // Count what each column holds.
     let columns = count_columns(grid, &headers, data_cells);
+    let first_col = columns.first().map_or(0, |column| column.col);
+    let last_col = columns.last().map_or(0, |column| column.col);
+
+    summary_rows.reverse();
+    for (row, label) in &summary_rows {
+        let area = CellRect {
+            first: CellPos::new(*row, first_col),
+            last: CellPos::new(*row, last_col.max(first_col)),
+        };
+        findings.push(Finding {
+            kind: FindingKind::SummaryRow,
+            sheet: sheet.clone(),
+            cell: Some(area.a1()),
+            found: label.clone(),
+            action: "the row was left out".into(),
+            message: format!(
+                "row {} is a summary row ('{label}') under the data, not a measurement; it was left out",
+                row + 1
+            ),
+        });
+    }
+    if !summary_rows.is_empty() {
+        let rows_listed: Vec<u32> = summary_rows.iter().map(|(row, _)| *row).collect();
+        let labels: Vec<&str> = summary_rows.iter().map(|(_, label)| label.as_str()).collect();
+        choices.push(format!(
+            "summary row(s) {} ({}) under the data were left out; set `range` to include them",
+            number_list(&rows_listed),
+            labels.join(", ")
+        ));
+    }
 
     let available = || {
         columns
@@ -117,40 +254,134 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
     for name in &request.responses {
         response_columns.push(find_column(name)?);
     }
+    let named =
+        |index: usize| factor_columns.iter().any(|(named, _)| *named == index) || response_columns.contains(&index);
 
     // Empty columns are reported and left out of detection.
     empty_column_findings(&sheet, header_row, &columns, &mut findings);
 
+    // Context columns (dates, operators, run numbers, notes...) are set aside unless named.
     let n_data_rows = data_cells
         .iter()
         .map(|(pos, _)| pos.row)
         .collect::<std::collections::BTreeSet<_>>()
         .len();
-    let layout = match request.layout {
-        Some(layout) => layout,
-        None if !factor_columns.is_empty() => Layout::Long,
-        None => {
-            let factors_found = label_factor_columns(
+    let context: Vec<Option<&'static str>> = (0..columns.len())
+        .map(|index| {
+            if named(index) || columns[index].counts.non_empty() == 0 {
+                None
+            } else {
+                context_reason(&columns[index], n_data_rows)
+            }
+        })
+        .collect();
+    let mut set_aside: Vec<SetAside> = Vec::new();
+    for (index, reason) in context.iter().enumerate() {
+        if let Some(reason) = reason {
+            let column = &columns[index];
+            // A text column only competes for a role when detection picks the factors.
+            let competes = column.counts.is_numeric() || (request.factors.is_empty() && request.layout.is_none());
+            if !competes {
+                continue;
+            }
+            findings.push(column_finding(
+                FindingKind::IdentifierColumn,
                 &sheet,
                 header_row,
-                &columns,
-                &response_columns,
-                n_data_rows,
-                &mut findings,
-            );
+                column,
+                "kept as context, not analysed",
+                format!(
+                    "the column '{}' {reason}, so it was kept as context, neither a condition nor a measurement; name it as a factor or response to use it",
+                    column.name
+                ),
+            ));
+            set_aside.push(SetAside {
+                name: column.name.clone(),
+                reason: short_reason(reason).to_string(),
+            });
+        }
+    }
+    let is_context = |index: usize| context[index].is_some();
+
+    let factors_named = !request.factors.is_empty();
+    let mut design_found: Vec<usize> = Vec::new();
+    let mut context_fallback = false;
+    let layout = match request.layout {
+        Some(layout) => layout,
+        None if factors_named => Layout::Long,
+        None => {
+            let not_context: Vec<usize> = (0..columns.len()).filter(|index| !is_context(*index)).collect();
+            let label_columns: Vec<usize> = not_context.iter().copied().filter(|index| !named(*index)).collect();
+            let mut factors_found =
+                label_factor_columns(&sheet, header_row, &columns, &label_columns, n_data_rows, &mut findings);
+            let numeric_free: Vec<usize> = not_context
+                .iter()
+                .copied()
+                .filter(|index| columns[*index].counts.is_numeric() && !named(*index))
+                .collect();
+            design_found = design_columns(&columns, &numeric_free);
+            factors_found.extend(design_found.iter().copied());
             if factors_found.is_empty() {
+                // Only context labels: the best of them stand as the factors.
+                let context_labels: Vec<usize> = (0..columns.len())
+                    .filter(|index| is_context(*index) && columns[*index].counts.texts > 0)
+                    .filter(|index| !is_notes_column(&columns[*index]))
+                    .filter(|index| !named(*index))
+                    .collect();
+                let mut quiet = Findings::default();
+                factors_found =
+                    label_factor_columns(&sheet, header_row, &columns, &context_labels, n_data_rows, &mut quiet);
+                context_fallback = !factors_found.is_empty();
+                set_aside.retain(|aside| !factors_found.iter().any(|index| columns[*index].name == aside.name));
+            }
+            factors_found.sort_unstable_by_key(|index| columns[*index].col);
+            if factors_found.is_empty() && factor_columns.is_empty() {
                 Layout::Wide
             } else {
+                // Named blocks stay, after the factors found.
+                let blocks = std::mem::take(&mut factor_columns);
                 factor_columns = factors_found.into_iter().map(|index| (index, false)).collect();
+                factor_columns.extend(blocks);
                 Layout::Long
             }
         }
     };
+    let header_area = CellRect {
+        first: CellPos::new(header_row, first_col),
+        last: CellPos::new(header_row, last_col),
+    };
 
-    match layout {
+    let mut table = match layout {
         Layout::Long => {
             if response_columns.is_empty() {
-                response_columns = measured_columns(&sheet, header_row, &columns, &factor_columns, &mut findings);
+                let excluded: Vec<usize> = (0..columns.len()).filter(|index| is_context(*index)).collect();
+                response_columns =
+                    measured_columns(&sheet, header_row, &columns, &factor_columns, &excluded, &mut findings);
+                if factors_named {
+                    // Settings columns beside the named factors are not measurements.
+                    let settings = design_columns(&columns, &response_columns);
+                    if !settings.is_empty() && settings.len() < response_columns.len() {
+                        for &index in &settings {
+                            let column = &columns[index];
+                            findings.push(column_finding(
+                                FindingKind::IdentifierColumn,
+                                &sheet,
+                                header_row,
+                                column,
+                                "not analysed as a response",
+                                format!(
+                                    "the column '{}' holds a few repeated settings, like a factor of the design, so it was not analysed as a response; name it as a factor or response to use it",
+                                    column.name
+                                ),
+                            ));
+                            set_aside.push(SetAside {
+                                name: column.name.clone(),
+                                reason: "settings of the design".into(),
+                            });
+                        }
+                        response_columns.retain(|index| !settings.contains(index));
+                    }
+                }
             }
             if factor_columns.is_empty() {
                 return Err(LayoutError::NoTable {
@@ -172,7 +403,44 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
                     ),
                 });
             }
-            Ok(build_long(
+            if !factors_named
+                && request.layout.is_none()
+                && (!set_aside.is_empty() || !design_found.is_empty() || context_fallback)
+            {
+                let factor_names: Vec<String> = factor_columns
+                    .iter()
+                    .map(|(index, _)| {
+                        let name = &columns[*index].name;
+                        if design_found.contains(index) {
+                            format!("{name} (numeric settings)")
+                        } else if context_fallback {
+                            format!("{name} (the only label column)")
+                        } else {
+                            name.clone()
+                        }
+                    })
+                    .collect();
+                let response_names: Vec<&str> = response_columns
+                    .iter()
+                    .map(|index| columns[*index].name.as_str())
+                    .collect();
+                let mut line = format!(
+                    "factors: {}; responses: {}",
+                    factor_names.join(", "),
+                    response_names.join(", ")
+                );
+                if !set_aside.is_empty() {
+                    let listed: Vec<String> = set_aside
+                        .iter()
+                        .map(|aside| format!("{} ({})", aside.name, aside.reason))
+                        .collect();
+                    line.push_str(&format!("; kept as context: {}", listed.join(", ")));
+                }
+                line.push_str("; set `factor` and `response` to choose other columns");
+                findings.push(choice_finding(&sheet, header_area, "the columns", &line));
+                choices.push(line);
+            }
+            build_long(
                 grid,
                 &sheet,
                 header_row,
@@ -182,13 +450,49 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
                 &factor_columns,
                 &response_columns,
                 findings,
-            ))
+            )
         }
         Layout::Wide => {
             let condition_columns: Vec<usize> = if response_columns.is_empty() {
-                (0..columns.len())
+                let numeric: Vec<usize> = (0..columns.len())
                     .filter(|index| columns[*index].counts.is_numeric())
-                    .collect()
+                    .collect();
+                let mut kept = Vec::new();
+                for index in numeric {
+                    if is_context(index) {
+                        continue;
+                    }
+                    if is_summary_word(&columns[index].name) {
+                        findings.push(column_finding(
+                            FindingKind::SummaryRow,
+                            &sheet,
+                            header_row,
+                            &columns[index],
+                            "the column was left out",
+                            format!(
+                                "the column '{}' summarises the others, not a condition; it was left out",
+                                columns[index].name
+                            ),
+                        ));
+                        set_aside.push(SetAside {
+                            name: columns[index].name.clone(),
+                            reason: "a summary column".into(),
+                        });
+                        continue;
+                    }
+                    kept.push(index);
+                }
+                // Comments and other text columns beside a wide table are reported.
+                for (index, column) in columns.iter().enumerate() {
+                    let counts = &column.counts;
+                    if !counts.is_numeric() && counts.non_empty() > 0 && !is_context(index) {
+                        set_aside.push(SetAside {
+                            name: column.name.clone(),
+                            reason: "text".into(),
+                        });
+                    }
+                }
+                kept
             } else {
                 response_columns.clone()
             };
@@ -202,11 +506,28 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
                     ),
                 });
             }
+            if !set_aside.is_empty() && request.layout.is_none() {
+                let names: Vec<&str> = condition_columns
+                    .iter()
+                    .map(|index| columns[*index].name.as_str())
+                    .collect();
+                let listed: Vec<String> = set_aside
+                    .iter()
+                    .map(|aside| format!("{} ({})", aside.name, aside.reason))
+                    .collect();
+                let line = format!(
+                    "one column per condition: {}; left out: {}; set `response` to name the condition columns",
+                    names.join(", "),
+                    listed.join(", ")
+                );
+                findings.push(choice_finding(&sheet, header_area, "the columns", &line));
+                choices.push(line);
+            }
             let response_name = request
                 .wide_response_name
                 .clone()
                 .unwrap_or_else(|| "value".to_string());
-            Ok(build_wide(
+            build_wide(
                 grid,
                 &sheet,
                 header_row,
@@ -216,7 +537,34 @@ fn detect_table_cells(grid: &SheetGrid, request: &TableRequest) -> Result<TrialT
                 &condition_columns,
                 response_name,
                 findings,
-            ))
+            )
         }
+    };
+    // Labels merged across spellings are a choice too.
+    let merged_labels: Vec<String> = table
+        .findings
+        .iter()
+        .filter(|finding| finding.kind == FindingKind::SimilarLabels)
+        .map(|finding| finding.found.clone())
+        .collect();
+    if !merged_labels.is_empty() {
+        choices.push(format!(
+            "labels that differ only in case, spacing or accents were read as one condition: {}; correct the labels in the sheet to keep them apart",
+            merged_labels.join("; ")
+        ));
+    }
+    table.choices = choices;
+    Ok(table)
+}
+
+/// A finding that says what detection chose, placed on the area it concerns.
+fn choice_finding(sheet: &str, area: CellRect, found: &str, line: &str) -> Finding {
+    Finding {
+        kind: FindingKind::Choice,
+        sheet: sheet.to_string(),
+        cell: Some(area.a1()),
+        found: found.to_string(),
+        action: "chosen by detection".into(),
+        message: line.to_string(),
     }
 }

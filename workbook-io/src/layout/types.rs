@@ -62,6 +62,11 @@ pub enum FindingKind {
     PlanDeparture,
     /// Rows or columns of the table that are hidden in the sheet.
     HiddenCells,
+    /// A choice detection made (which table, which columns, a layout), with the
+    /// setting that would change it.
+    Choice,
+    /// A summary row (average, total and the like) under or beside the data.
+    SummaryRow,
 }
 
 /// One data problem, at one place.
@@ -200,6 +205,9 @@ pub struct TrialTable {
     pub level_columns: Vec<u32>,
     /// Data problems found while reading.
     pub findings: Vec<Finding>,
+    /// Each choice detection made, in one line with the setting that would change it.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub choices: Vec<String>,
 }
 
 impl TrialTable {

@@ -84,5 +84,6 @@ pub(super) fn build_wide(
         record_rows,
         level_columns,
         findings: findings.into_vec(),
+        choices: Vec::new(),
     }
 }

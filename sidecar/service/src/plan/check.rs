@@ -335,6 +335,7 @@ mod tests {
             record_rows,
             level_columns: Vec::new(),
             findings: Vec::new(),
+            choices: Vec::new(),
         }
     }
 

@@ -185,6 +185,17 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
         SUMMARY_WIDTH,
     );
     let mut summary_row = 3;
+    // What table detection chose, one line each, before the results.
+    for choice in &results.table.choices {
+        summary.paragraph(
+            summary_row - 1,
+            0,
+            format!("Chosen: {choice}."),
+            Look::Note,
+            SUMMARY_WIDTH,
+        );
+        summary_row += 1;
+    }
 
     conditions.widths = vec![
         (0, 26.0),

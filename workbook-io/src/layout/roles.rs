@@ -1,0 +1,193 @@
+//! What a column or row is for, beyond what it holds: record identifiers and context
+//! (dates and times, operators, shifts, run and standard-order numbers, replicates,
+//! panel and sample numbers, batches and lots, notes) recognised from header words and
+//! values; summary rows and columns (averages, totals and the like); and numeric
+//! columns holding a few repeated settings, read as factors of a design.
+
+use super::header::HeaderColumn;
+
+/// Header words that mark a column as context wherever they stand in the header.
+const CONTEXT_WORDS: &[&str] = &[
+    "date",
+    "dates",
+    "datum",
+    "timestamp",
+    "operator",
+    "operators",
+    "technician",
+    "analyst",
+    "inspector",
+    "observer",
+    "initials",
+    "shift",
+    "replicate",
+    "replicates",
+    "replication",
+    "notes",
+    "note",
+    "comment",
+    "comments",
+    "remark",
+    "remarks",
+];
+
+/// Header words that mark a column as an identifier when the header holds only such
+/// words ("Run", "Std order", "Sample no.", "Lot ID"), not when they qualify a
+/// measurement ("Run time", "Sample mass").
+const IDENTIFIER_WORDS: &[&str] = &[
+    "run", "runs", "std", "standard", "order", "rep", "reps", "repeat", "panel", "sample", "samples", "specimen",
+    "batch", "lot", "id", "no", "nr", "num", "number", "serial", "seq", "sequence", "key", "index", "row", "of",
+];
+
+/// Labels of summary rows and headers of summary columns.
+const SUMMARY_WORDS: &[&str] = &[
+    "average",
+    "avg",
+    "mean",
+    "grand mean",
+    "overall mean",
+    "sd",
+    "s.d",
+    "stdev",
+    "std dev",
+    "std. dev",
+    "standard deviation",
+    "st dev",
+    "total",
+    "grand total",
+    "subtotal",
+    "sum",
+    "min",
+    "max",
+    "minimum",
+    "maximum",
+    "range",
+    "median",
+    "count",
+    "cv",
+    "cv%",
+    "%cv",
+    "variance",
+];
+
+fn words(header: &str) -> Vec<String> {
+    header
+        .to_lowercase()
+        .split(|character: char| !character.is_alphanumeric())
+        .filter(|word| !word.is_empty())
+        .map(str::to_string)
+        .collect()
+}
+
+/// Why a column is context rather than a condition or a measurement, if it is: dates and
+/// times by their values; notes, operators, shifts and replicates by their header words;
+/// run, order, sample, panel, batch and lot numbers by a header of such words alone,
+/// unless their labels repeat like a factor's levels (three rows or more each).
+pub(super) fn context_reason(column: &HeaderColumn, n_rows: usize) -> Option<&'static str> {
+    let counts = &column.counts;
+    let filled = counts.non_empty();
+    if counts.dates > 0 && counts.dates * 2 >= filled {
+        return Some("holds dates or times");
+    }
+    if is_notes_column(column) {
+        return Some(if filled * 2 < n_rows {
+            "is filled on fewer than half of the rows (notes)"
+        } else {
+            "is headed as notes or comments"
+        });
+    }
+    let header_words = words(&column.name);
+    if header_words.iter().any(|word| CONTEXT_WORDS.contains(&word.as_str())) {
+        return Some("is headed like a record of context (date, operator, shift, replicate)");
+    }
+    let name = column.name.trim();
+    let identifier_header = name.contains('#')
+        || (!header_words.is_empty()
+            && header_words
+                .iter()
+                .all(|word| IDENTIFIER_WORDS.contains(&word.as_str())));
+    if !identifier_header {
+        return None;
+    }
+    if counts.is_numeric() {
+        return Some(if counts.counts_up && counts.numbers >= 2 {
+            "counts up by one on every row (a run number)"
+        } else {
+            "is headed like a record identifier (run, order, sample, panel, batch or lot number)"
+        });
+    }
+    if counts.texts >= 8 && column.distinct_labels * 10 > counts.texts * 8 {
+        return Some("has a different label on almost every row (an identifier)");
+    }
+    if column.distinct_labels * 3 <= counts.texts {
+        return None;
+    }
+    Some("is headed like a record identifier (run, order, sample, panel, batch or lot number)")
+}
+
+/// A word or two for a context reason, for the one-line choice.
+pub(super) fn short_reason(reason: &str) -> &'static str {
+    if reason.starts_with("holds dates") {
+        "dates or times"
+    } else if reason.contains("notes") {
+        "notes"
+    } else if reason.starts_with("counts up") {
+        "run number"
+    } else if reason.starts_with("has a different label") {
+        "identifier"
+    } else if reason.contains("record of context") {
+        "context"
+    } else {
+        "record number"
+    }
+}
+
+/// Whether a column is headed as notes or comments (never a condition unless named).
+pub(super) fn is_notes_column(column: &HeaderColumn) -> bool {
+    words(&column.name).iter().any(|word| {
+        matches!(
+            word.as_str(),
+            "note" | "notes" | "comment" | "comments" | "remark" | "remarks"
+        )
+    })
+}
+
+/// Whether a text is the label of a summary row or the header of a summary column.
+pub(super) fn is_summary_word(text: &str) -> bool {
+    let folded = text.trim().trim_end_matches([':', '.']).trim().to_lowercase();
+    let folded = folded.split_whitespace().collect::<Vec<_>>().join(" ");
+    SUMMARY_WORDS.contains(&folded.as_str())
+}
+
+/// Numeric columns that hold a few repeated settings, as a design's factor columns do:
+/// two to five distinct values, each value on two rows or more on average, standing left
+/// of a measured column (a numeric column with more distinct values) that stays the
+/// response. `candidates` are the numeric columns that are neither context nor named.
+pub(super) fn design_columns(columns: &[HeaderColumn], candidates: &[usize]) -> Vec<usize> {
+    let is_setting = |index: usize| {
+        let counts = &columns[index].counts;
+        let distinct = counts.distinct_numbers().len();
+        !counts.many_numbers && (2..=5).contains(&distinct) && counts.numbers >= 2 * distinct && counts.numbers >= 4
+    };
+    // Columns headed alike ("Line 1", "Line 2", ...) are the conditions of a wide table.
+    let first_words: Vec<Option<String>> = candidates
+        .iter()
+        .map(|&index| words(&columns[index].name).into_iter().next())
+        .collect();
+    if candidates.len() >= 2 && first_words.iter().all(|word| word.is_some() && *word == first_words[0]) {
+        return Vec::new();
+    }
+    let measured_cols: Vec<u32> = candidates
+        .iter()
+        .filter(|&&index| !is_setting(index))
+        .map(|&index| columns[index].col)
+        .collect();
+    let Some(&last_measured) = measured_cols.iter().max() else {
+        return Vec::new();
+    };
+    candidates
+        .iter()
+        .copied()
+        .filter(|&index| is_setting(index) && columns[index].col < last_measured)
+        .collect()
+}
