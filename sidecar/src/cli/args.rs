@@ -51,6 +51,9 @@ pub struct PlanArgs {
     /// The plan workbook to write (default: trial-plan-<plan id>.xlsx here).
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Replace the plan workbook if it exists (without it an existing file is kept).
+    #[arg(long)]
+    pub force: bool,
     /// Print the plan summary as JSON.
     #[arg(long)]
     pub json: bool,
@@ -156,6 +159,9 @@ pub struct RunArgs {
     /// Write a roll-up workbook: one row per workbook and response, and a chart of the verdicts.
     #[arg(long, value_name = "FILE")]
     pub rollup: Option<PathBuf>,
+    /// A folder an `output folder` setting may point into besides each workbook's own folder; repeatable.
+    #[arg(long, value_name = "FOLDER")]
+    pub allow_output_root: Vec<PathBuf>,
     /// Analysis and table options.
     #[command(flatten)]
     pub analysis: AnalysisArgs,

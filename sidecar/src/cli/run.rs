@@ -80,6 +80,34 @@ struct BatchOptions<'a> {
     pub json: bool,
     /// The roll-up workbook to write.
     pub rollup: Option<&'a Path>,
+    /// Folders an `output folder` setting may point into besides the workbook's folder.
+    pub allowed_output_roots: Vec<PathBuf>,
+}
+
+/// Refuses a roll-up that would replace an input or a results workbook of
+/// this run, or a file we did not write.
+fn check_rollup(rollup: &Path, workbooks: &[PathBuf], planned_outputs: &[PathBuf]) -> Result<(), String> {
+    let target = service::paths::resolve_for_comparison(rollup);
+    if workbooks
+        .iter()
+        .any(|input| service::paths::resolve_for_comparison(input) == target)
+    {
+        return Err(format!(
+            "the roll-up '{}' is one of the workbooks to analyse; choose another file name",
+            rollup.display()
+        ));
+    }
+    if planned_outputs
+        .iter()
+        .any(|output| service::paths::resolve_for_comparison(output) == target)
+    {
+        return Err(format!(
+            "the roll-up '{}' would replace a results workbook of this run; choose another file name",
+            rollup.display()
+        ));
+    }
+    workbook_io::write::check_replaceable(rollup, workbook_io::write::ReplaceRule::OnlyOurs)
+        .map_err(|error| error.to_string())
 }
 
 /// Runs a batch over `paths`; returns the process exit code.
@@ -94,6 +122,19 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
             return EXIT_USAGE;
         }
     };
+    let names = service::output_names(&workbooks, options.out_dir.is_some());
+    if let Some(rollup) = options.rollup {
+        let planned: Vec<PathBuf> = workbooks
+            .iter()
+            .zip(&names)
+            .map(|(input, name)| service::results_path_named(input, options.out_dir, name))
+            .collect();
+        if let Err(message) = check_rollup(rollup, &workbooks, &planned) {
+            eprintln!("trialyst: {message}");
+            return EXIT_USAGE;
+        }
+    }
+    let claimed = std::sync::Arc::new(service::paths::ClaimedOutputs::default());
     let base = AnalysisRequest {
         settings: options.settings.clone(),
         ..AnalysisRequest::default()
@@ -105,6 +146,11 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
     let request_of = |index: usize| -> AnalysisRequest {
         AnalysisRequest {
             folder_settings: chosen[index].map(|which| folder_settings[which].clone()),
+            output: service::OutputRules {
+                name: names[index].clone(),
+                allowed_roots: options.allowed_output_roots.clone(),
+                claimed: Some(claimed.clone()),
+            },
             ..base.clone()
         }
     };
@@ -200,6 +246,7 @@ pub(crate) fn run_command(args: RunArgs) -> i32 {
         jobs,
         json: args.json,
         rollup: args.rollup.as_deref(),
+        allowed_output_roots: args.allow_output_root.clone(),
     };
     run_batch(&args.paths, args.recursive, &options)
 }

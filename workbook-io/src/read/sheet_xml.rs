@@ -19,7 +19,6 @@
 //!
 //! Tests in `read/mod.rs` compare the grids of both paths.
 
-use std::fs::File;
 use std::io::{BufReader, Read, Seek};
 use std::path::Path;
 
@@ -800,7 +799,7 @@ pub(crate) fn read_sheet(
     if sheet.contains(['&', '<', '>', '"', '\'']) {
         return Err(Stop::Decline);
     }
-    let file = File::open(path).map_err(|_| Stop::Decline)?;
+    let file = super::open_regular_file(path).map_err(|_| Stop::Decline)?;
     let mut archive = zip::ZipArchive::new(BufReader::new(file)).map_err(|_| Stop::Decline)?;
     if archive.index_for_name("xl/workbook.xml").is_none() {
         return Err(Stop::Decline);

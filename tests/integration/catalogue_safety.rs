@@ -1,0 +1,374 @@
+//! The hostile catalogue, continued: what an attacker or a careless user can
+//! do around the parsers. Nothing we did not write is replaced, output
+//! folders stay where they belong, special files and cut-off pipes do not
+//! hang or crash the program. Each case runs the real program, checks the
+//! exit code, the words of the message and the place, that the originals
+//! are unchanged, and that nothing was written outside the test's folder.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::time::{Duration, Instant};
+
+use crate::common::{long_rows, put_rows, sha256_of, temp_folder, trialyst, trialyst_path, write_rows, Put, Run};
+use crate::hostile::STALL_LIMIT;
+
+/// Every file under `folder` with its SHA-256: compared before and after a
+/// run to prove what changed and that nothing else did.
+fn tree(folder: &Path) -> BTreeMap<PathBuf, String> {
+    let mut found = BTreeMap::new();
+    let mut pending = vec![folder.to_path_buf()];
+    while let Some(current) = pending.pop() {
+        let Ok(entries) = std::fs::read_dir(&current) else {
+            continue;
+        };
+        for entry in entries.filter_map(Result::ok) {
+            let path = entry.path();
+            let Ok(kind) = entry.file_type() else { continue };
+            if kind.is_dir() {
+                pending.push(path);
+            } else if kind.is_file() {
+                found.insert(
+                    path.strip_prefix(folder).unwrap_or(&path).to_path_buf(),
+                    sha256_of(&path),
+                );
+            } else {
+                found.insert(
+                    path.strip_prefix(folder).unwrap_or(&path).to_path_buf(),
+                    "special".into(),
+                );
+            }
+        }
+    }
+    found
+}
+
+/// Two ovens, four hardness readings each (invented).
+fn trial_rows() -> Vec<Vec<Put>> {
+    long_rows(
+        "Oven",
+        "Hardness",
+        &[
+            ("North", &[10.1, 10.4, 9.9, 10.2]),
+            ("South", &[11.0, 11.3, 10.8, 11.2]),
+        ],
+    )
+}
+
+/// A trial workbook with a `trialyst settings` sheet holding `pairs`,
+/// hidden when `hidden` is set.
+fn trial_with_settings(path: &Path, pairs: &[(&str, &str)], hidden: bool) {
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let sheet = book.add_worksheet();
+    sheet.set_name("Runs").expect("named");
+    put_rows(sheet, &trial_rows());
+    let settings = book.add_worksheet();
+    settings.set_name("trialyst settings").expect("named");
+    for (row, (key, value)) in pairs.iter().enumerate() {
+        settings.write_string(row as u32, 0, *key).expect("writable");
+        settings.write_string(row as u32, 1, *value).expect("writable");
+    }
+    if hidden {
+        settings.set_hidden(true);
+    }
+    book.save(path).expect("saved");
+}
+
+/// The JSON lines of a run.
+fn json_lines(run: &Run) -> Vec<serde_json::Value> {
+    run.stdout()
+        .lines()
+        .map(|line| serde_json::from_str(line).unwrap_or_else(|error| panic!("not JSON ({error}){}", run.report())))
+        .collect()
+}
+
+fn no_panic(run: &Run) {
+    assert!(!run.stderr().contains("panicked"), "{}", run.report());
+}
+
+#[test]
+fn a_rollup_named_as_an_input_is_refused_and_the_input_kept() {
+    let top = temp_folder();
+    let folder = top.path().join("week");
+    std::fs::create_dir_all(&folder).expect("made");
+    write_rows(&folder.join("monday.xlsx"), "Runs", &trial_rows());
+    write_rows(&folder.join("tuesday.xlsx"), "Runs", &trial_rows());
+    let before = tree(top.path());
+    let run = trialyst(top.path(), &["run", "week", "--rollup", "week/tuesday.xlsx"]);
+    run.expect_code(2);
+    no_panic(&run);
+    assert!(
+        run.stderr().contains("is one of the workbooks to analyse"),
+        "{}",
+        run.report()
+    );
+    assert!(run.stderr().contains("tuesday.xlsx"), "{}", run.report());
+    assert_eq!(tree(top.path()), before, "nothing may be written or changed");
+}
+
+#[test]
+fn a_file_we_did_not_write_at_the_results_name_is_kept() {
+    let folder = temp_folder();
+    write_rows(&folder.path().join("line 4.xlsx"), "Runs", &trial_rows());
+    // Someone's own workbook that happens to carry the results name.
+    write_rows(
+        &folder.path().join("line 4.results.xlsx"),
+        "Notes",
+        &[vec![Put::Text("my notes")]],
+    );
+    let before = tree(folder.path());
+    let run = trialyst(folder.path(), &["run", "line 4.xlsx"]);
+    run.expect_code(1);
+    no_panic(&run);
+    assert!(
+        run.stderr().contains("refusing to replace") && run.stderr().contains("not written by trialyst"),
+        "{}",
+        run.report()
+    );
+    assert!(run.stderr().contains("line 4.results.xlsx"), "{}", run.report());
+    assert_eq!(tree(folder.path()), before);
+}
+
+#[test]
+fn a_read_only_results_workbook_is_kept_and_our_own_is_replaced() {
+    let folder = temp_folder();
+    write_rows(&folder.path().join("cure.xlsx"), "Runs", &trial_rows());
+    trialyst(folder.path(), &["run", "cure.xlsx"]).expect_code(0);
+    // Our own results are replaced on the next run.
+    trialyst(folder.path(), &["run", "cure.xlsx"]).expect_code(0);
+    let results = folder.path().join("cure.results.xlsx");
+    let mut permissions = std::fs::metadata(&results).expect("there").permissions();
+    permissions.set_readonly(true);
+    std::fs::set_permissions(&results, permissions).expect("made read-only");
+    let before = tree(folder.path());
+    let run = trialyst(folder.path(), &["run", "cure.xlsx"]);
+    run.expect_code(1);
+    assert!(run.stderr().contains("it is read-only"), "{}", run.report());
+    assert_eq!(tree(folder.path()), before);
+}
+
+#[test]
+fn workbooks_sharing_a_stem_or_a_name_never_share_a_results_workbook() {
+    let top = temp_folder();
+    let folder = top.path().join("in");
+    for sub in ["a", "b"] {
+        std::fs::create_dir_all(folder.join(sub)).expect("made");
+        write_rows(&folder.join(sub).join("w.xlsx"), "Runs", &trial_rows());
+    }
+    write_rows(&folder.join("week.xlsx"), "Runs", &trial_rows());
+    // An xlsx container named .xlsm is read by its contents.
+    write_rows(&folder.join("week.xlsm"), "Runs", &trial_rows());
+    let originals = tree(&folder);
+    let run = trialyst(
+        top.path(),
+        &[
+            "run",
+            "in",
+            "--recursive",
+            "--out-dir",
+            "out",
+            "--json",
+            "--rollup",
+            "out/all.rollup.xlsx",
+        ],
+    );
+    run.expect_code(0);
+    let written: Vec<String> = json_lines(&run)
+        .iter()
+        .map(|line| line["results_file"].as_str().unwrap_or_default().to_string())
+        .collect();
+    let mut distinct = written.clone();
+    distinct.sort();
+    distinct.dedup();
+    assert_eq!(distinct.len(), 4, "four inputs, four results workbooks: {written:?}");
+    for expected in [
+        "out/a/w.xlsx.results.xlsx",
+        "out/b/w.xlsx.results.xlsx",
+        "out/week.xlsx.results.xlsx",
+        "out/week.xlsm.results.xlsx",
+    ] {
+        assert!(
+            top.path().join(expected).is_file(),
+            "missing {expected}{}",
+            run.report()
+        );
+    }
+    assert_eq!(tree(&folder), originals, "the inputs are unchanged");
+    // Beside their workbooks (no --out-dir), the same names stay apart.
+    let run = trialyst(top.path(), &["run", "in", "--recursive"]);
+    run.expect_code(0);
+    for expected in [
+        "in/a/w.results.xlsx",
+        "in/b/w.results.xlsx",
+        "in/week.xlsx.results.xlsx",
+        "in/week.xlsm.results.xlsx",
+    ] {
+        assert!(
+            top.path().join(expected).is_file(),
+            "missing {expected}{}",
+            run.report()
+        );
+    }
+}
+
+#[test]
+fn an_output_folder_setting_outside_the_workbooks_folder_is_refused() {
+    let top = temp_folder();
+    let folder = top.path().join("shared");
+    std::fs::create_dir_all(&folder).expect("made");
+    trial_with_settings(
+        &folder.join("escape.xlsx"),
+        &[("output folder", "../../elsewhere")],
+        true,
+    );
+    let before = tree(top.path());
+    let run = trialyst(&folder, &["run", "escape.xlsx", "--json"]);
+    run.expect_code(1);
+    no_panic(&run);
+    let line = &json_lines(&run)[0];
+    let error = line["error"].as_str().unwrap_or_default();
+    assert!(error.contains("outside the workbook's folder"), "{error}");
+    assert!(error.contains("../../elsewhere"), "{error}");
+    assert_eq!(tree(top.path()), before, "nothing written anywhere");
+    assert!(!top.path().join("../elsewhere").exists());
+
+    // A folder allowed on the command line admits it.
+    let allowed = top.path().join("reports");
+    trial_with_settings(&folder.join("allowed.xlsx"), &[("output folder", "../reports")], false);
+    let run = trialyst(
+        &folder,
+        &[
+            "run",
+            "allowed.xlsx",
+            "--allow-output-root",
+            allowed.to_str().expect("UTF-8 path"),
+        ],
+    );
+    run.expect_code(0);
+    assert!(allowed.join("allowed.results.xlsx").is_file(), "{}", run.report());
+}
+
+#[test]
+fn a_hidden_settings_sheet_is_reported_as_such() {
+    let folder = temp_folder();
+    trial_with_settings(&folder.path().join("quiet.xlsx"), &[("confidence", "90%")], true);
+    let run = trialyst(folder.path(), &["run", "quiet.xlsx", "--json", "--no-write"]);
+    run.expect_code(0);
+    let line = &json_lines(&run)[0];
+    let findings = line["findings"].as_array().cloned().unwrap_or_default();
+    let hidden = findings
+        .iter()
+        .find(|finding| finding["message"].as_str().unwrap_or_default().contains("is hidden"))
+        .unwrap_or_else(|| panic!("no finding about the hidden sheet{}", run.report()));
+    assert_eq!(hidden["sheet"], "trialyst settings", "{hidden}");
+}
+
+#[test]
+fn plan_keeps_an_existing_file_unless_forced() {
+    let folder = temp_folder();
+    let arguments = [
+        "plan",
+        "--factor",
+        "Temperature=160,180",
+        "--factor",
+        "Time=20,30",
+        "--response",
+        "Yield (%)",
+        "--seed",
+        "7",
+        "--out",
+        "plan.xlsx",
+    ];
+    trialyst(folder.path(), &arguments).expect_code(0);
+    let first = sha256_of(&folder.path().join("plan.xlsx"));
+    let run = trialyst(folder.path(), &arguments);
+    run.expect_code(1);
+    assert!(
+        run.stderr().contains("already exists") && run.stderr().contains("--force"),
+        "{}",
+        run.report()
+    );
+    assert_eq!(sha256_of(&folder.path().join("plan.xlsx")), first);
+    let mut forced = arguments.to_vec();
+    forced.push("--force");
+    trialyst(folder.path(), &forced).expect_code(0);
+}
+
+/// Runs the program with a bound on its time; a hang fails the test.
+fn run_bounded(folder: &Path, args: &[&str]) -> (std::process::Output, Duration) {
+    let started = Instant::now();
+    let mut child = std::process::Command::new(trialyst_path())
+        .args(args)
+        .current_dir(folder)
+        .stdin(std::process::Stdio::null())
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("started");
+    loop {
+        if child.try_wait().expect("waited").is_some() {
+            break;
+        }
+        if started.elapsed() > STALL_LIMIT {
+            let _ = child.kill();
+            panic!("trialyst {args:?} hung");
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    }
+    (child.wait_with_output().expect("output"), started.elapsed())
+}
+
+#[cfg(unix)]
+#[test]
+fn named_pipes_and_devices_named_as_workbooks_are_refused_without_waiting() {
+    let folder = temp_folder();
+    let fifo = folder.path().join("pipe.xlsx");
+    let made = std::process::Command::new("mkfifo")
+        .arg(&fifo)
+        .status()
+        .expect("mkfifo runs");
+    assert!(made.success());
+    std::os::unix::fs::symlink("/dev/zero", folder.path().join("zeros.xlsx")).expect("linked");
+    write_rows(&folder.path().join("good.xlsx"), "Runs", &trial_rows());
+    for (name, words) in [("pipe.xlsx", "named pipe"), ("zeros.xlsx", "device")] {
+        for command in [vec!["run", "--json", name], vec!["inspect", name]] {
+            let (output, elapsed) = run_bounded(folder.path(), &command);
+            let text = format!(
+                "{}{}",
+                String::from_utf8_lossy(&output.stdout),
+                String::from_utf8_lossy(&output.stderr)
+            );
+            assert_eq!(output.status.code(), Some(1), "{command:?}: {text}");
+            assert!(
+                text.contains("not a regular file") && text.contains(words),
+                "{command:?}: {text}"
+            );
+            assert!(!text.contains("panicked"), "{text}");
+            assert!(elapsed < STALL_LIMIT);
+        }
+    }
+    // A batch over the folder finishes, prints every line and analyses the good one.
+    let (output, _) = run_bounded(folder.path(), &["run", ".", "--json", "--no-write"]);
+    assert_eq!(output.status.code(), Some(1));
+    assert_eq!(String::from_utf8_lossy(&output.stdout).lines().count(), 3);
+}
+
+#[cfg(unix)]
+#[test]
+fn a_closed_standard_output_ends_the_program_quietly() {
+    let folder = temp_folder();
+    write_rows(&folder.path().join("good.xlsx"), "Runs", &trial_rows());
+    for command in [
+        "inspect good.xlsx",
+        "plan --factor A=1,2 --factor B=1,2 --response Y --json --out p.xlsx",
+    ] {
+        let output = std::process::Command::new("/bin/sh")
+            .arg("-c")
+            .arg(format!("\"$0\" {command} | true"))
+            .arg(trialyst_path())
+            .current_dir(folder.path())
+            .output()
+            .expect("the shell runs");
+        let stderr = String::from_utf8_lossy(&output.stderr);
+        assert!(!stderr.contains("panicked"), "{command}: {stderr}");
+    }
+}
