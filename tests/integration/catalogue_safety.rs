@@ -372,3 +372,198 @@ fn a_closed_standard_output_ends_the_program_quietly() {
         assert!(!stderr.contains("panicked"), "{command}: {stderr}");
     }
 }
+
+/// Starts `trialyst serve --listen 127.0.0.1:0` with `secret` in its
+/// environment; returns the child and the address it listens on.
+fn start_listening(secret: Option<&str>, extra: &[&str]) -> (std::process::Child, String) {
+    use std::io::BufRead;
+    let mut command = std::process::Command::new(trialyst_path());
+    command
+        .args(["serve", "--listen", "127.0.0.1:0"])
+        .args(extra)
+        .env_remove("TRIALYST_SERVE_TOKEN")
+        .stdin(std::process::Stdio::null())
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped());
+    if let Some(secret) = secret {
+        command.env("TRIALYST_SERVE_TOKEN", secret);
+    }
+    let mut child = command.spawn().expect("serve starts");
+    let mut stderr = std::io::BufReader::new(child.stderr.take().expect("piped"));
+    let mut line = String::new();
+    let _ = stderr.read_line(&mut line);
+    // Keep reading stderr so the server never blocks on it.
+    std::thread::spawn(move || {
+        let mut rest = String::new();
+        while stderr.read_line(&mut rest).is_ok_and(|read| read > 0) {}
+    });
+    let address = line.trim().rsplit(' ').next().unwrap_or_default().to_string();
+    (child, address)
+}
+
+/// Everything the server sends on `stream` until it closes or `wait` passes.
+fn read_all(stream: &mut std::net::TcpStream, wait: Duration) -> String {
+    use std::io::Read;
+    let _ = stream.set_read_timeout(Some(wait));
+    let mut output = Vec::new();
+    let mut chunk = [0u8; 4096];
+    loop {
+        match stream.read(&mut chunk) {
+            Ok(0) | Err(_) => break,
+            Ok(read) => output.extend_from_slice(&chunk[..read]),
+        }
+    }
+    String::from_utf8_lossy(&output).into_owned()
+}
+
+/// Sends `initialize` and waits for its answer, as a client does, then
+/// `initialized`.
+fn initialise(stream: &mut std::net::TcpStream) {
+    use std::io::{Read, Write};
+    let initialize =
+        serde_json::json!({"jsonrpc": "2.0", "id": 1, "method": "initialize", "params": {"capabilities": {}}});
+    let _ = stream.write_all(&framed(&initialize));
+    let _ = stream.set_read_timeout(Some(Duration::from_secs(20)));
+    let mut output = Vec::new();
+    let mut chunk = [0u8; 4096];
+    while !String::from_utf8_lossy(&output).contains("\"serverInfo\"") {
+        match stream.read(&mut chunk) {
+            Ok(0) | Err(_) => panic!("no answer to initialize: {}", String::from_utf8_lossy(&output)),
+            Ok(read) => output.extend_from_slice(&chunk[..read]),
+        }
+    }
+    let _ = stream.write_all(&framed(
+        &serde_json::json!({"jsonrpc": "2.0", "method": "initialized", "params": {}}),
+    ));
+}
+
+/// Reads until the answer with `id` has arrived; returns what was read.
+fn answer_to(stream: &mut std::net::TcpStream, id: &serde_json::Value) -> String {
+    use std::io::Read;
+    let _ = stream.set_read_timeout(Some(Duration::from_secs(30)));
+    let needle = format!("\"id\":{id}");
+    let mut output = Vec::new();
+    let mut chunk = [0u8; 4096];
+    while !String::from_utf8_lossy(&output).contains(&needle) {
+        match stream.read(&mut chunk) {
+            Ok(0) | Err(_) => break,
+            Ok(read) => output.extend_from_slice(&chunk[..read]),
+        }
+    }
+    String::from_utf8_lossy(&output).into_owned()
+}
+
+fn framed(body: &serde_json::Value) -> Vec<u8> {
+    let body = body.to_string();
+    format!("Content-Length: {}\r\n\r\n{body}", body.len()).into_bytes()
+}
+
+#[test]
+fn a_listening_server_lets_in_only_the_client_with_its_secret() {
+    use std::io::Write;
+    // No secret in the environment: the server does not start.
+    let (mut child, _) = start_listening(None, &[]);
+    assert_eq!(child.wait().expect("ends").code(), Some(2));
+
+    let secret = "secret of the parent, for this test";
+    let folder = temp_folder();
+    write_rows(&folder.path().join("private.xlsx"), "Runs", &trial_rows());
+    let before = tree(folder.path());
+    let (mut child, address) = start_listening(Some(secret), &[]);
+    assert!(address.starts_with("127.0.0.1:"), "{address}");
+    // Connect and close at once: the server goes on.
+    drop(std::net::TcpStream::connect(&address).expect("accepted"));
+    // A browser-style POST carrying a request: closed, nothing executed.
+    let write_request = serde_json::json!({"jsonrpc": "2.0", "id": 1, "method": "trialyst/writeResults",
+        "params": {"path": folder.path().join("private.xlsx")}});
+    let body = write_request.to_string();
+    let mut post = std::net::TcpStream::connect(&address).expect("accepted");
+    let _ = post.write_all(
+        format!(
+            "POST / HTTP/1.1\r\nHost: 127.0.0.1\r\nContent-Type: text/plain\r\nContent-Length: {}\r\n\r\n{body}",
+            body.len()
+        )
+        .as_bytes(),
+    );
+    assert_eq!(
+        read_all(&mut post, Duration::from_secs(10)),
+        "",
+        "an HTTP client gets nothing"
+    );
+    // The wrong secret: closed, nothing answered.
+    let mut wrong = std::net::TcpStream::connect(&address).expect("accepted");
+    let _ = wrong.write_all(b"trialyst-token secret of the parent, for this tesT\n");
+    let _ = wrong.write_all(&framed(&write_request));
+    assert_eq!(read_all(&mut wrong, Duration::from_secs(10)), "");
+    // A silent connection is closed after the secret's time limit.
+    let started = Instant::now();
+    let mut silent = std::net::TcpStream::connect(&address).expect("accepted");
+    assert_eq!(read_all(&mut silent, Duration::from_secs(20)), "");
+    assert!(started.elapsed() < Duration::from_secs(15), "{:?}", started.elapsed());
+    assert_eq!(tree(folder.path()), before, "nothing was written");
+    assert!(child.try_wait().expect("polled").is_none(), "the server still runs");
+
+    // The client with the secret gets its session.
+    let mut client = std::net::TcpStream::connect(&address).expect("accepted");
+    let _ = client.write_all(format!("trialyst-token {secret}\n").as_bytes());
+    initialise(&mut client);
+    let shutdown = serde_json::json!({"jsonrpc": "2.0", "id": 2, "method": "shutdown"});
+    let exit = serde_json::json!({"jsonrpc": "2.0", "method": "exit"});
+    let _ = client.write_all(&framed(&shutdown));
+    let answer = answer_to(&mut client, &serde_json::json!(2));
+    assert!(answer.contains("\"result\":null"), "{answer}");
+    let _ = client.write_all(&framed(&exit));
+    let _ = read_all(&mut client, Duration::from_secs(20));
+    let deadline = Instant::now() + Duration::from_secs(20);
+    while child.try_wait().expect("polled").is_none() && Instant::now() < deadline {
+        std::thread::sleep(Duration::from_millis(20));
+    }
+    assert_eq!(
+        child.try_wait().expect("polled").and_then(|status| status.code()),
+        Some(0)
+    );
+}
+
+#[test]
+fn a_confined_server_refuses_paths_and_folders_outside_its_roots() {
+    use std::io::Write;
+    let top = temp_folder();
+    let allowed = top.path().join("allowed");
+    let private = top.path().join("private");
+    std::fs::create_dir_all(&allowed).expect("made");
+    std::fs::create_dir_all(&private).expect("made");
+    write_rows(&allowed.join("line.xlsx"), "Runs", &trial_rows());
+    write_rows(&private.join("secret.xlsx"), "Runs", &trial_rows());
+    let before = tree(top.path());
+    let secret = "another secret for this test only";
+    let (mut child, address) = start_listening(Some(secret), &["--allow-root", allowed.to_str().expect("UTF-8")]);
+    let mut client = std::net::TcpStream::connect(&address).expect("accepted");
+    let _ = client.write_all(format!("trialyst-token {secret}\n").as_bytes());
+    initialise(&mut client);
+    let messages = [
+        serde_json::json!({"jsonrpc": "2.0", "id": 2, "method": "trialyst/analyseWorkbook",
+            "params": {"path": private.join("secret.xlsx")}}),
+        serde_json::json!({"jsonrpc": "2.0", "id": 3, "method": "trialyst/analyseWorkbook",
+            "params": {"path": allowed.join("..").join("private").join("secret.xlsx")}}),
+        serde_json::json!({"jsonrpc": "2.0", "id": 4, "method": "trialyst/writeResults",
+            "params": {"path": allowed.join("line.xlsx"), "outputFolder": "../private"}}),
+        serde_json::json!({"jsonrpc": "2.0", "id": 5, "method": "trialyst/analyseWorkbook",
+            "params": {"uri": "file://otherhost/share/line.xlsx"}}),
+        serde_json::json!({"jsonrpc": "2.0", "id": 6, "method": "shutdown"}),
+        serde_json::json!({"jsonrpc": "2.0", "method": "exit"}),
+    ];
+    let mut answers = String::new();
+    for message in &messages {
+        let _ = client.write_all(&framed(message));
+        if let Some(id) = message.get("id").filter(|_| message["method"] != "shutdown") {
+            let answer = answer_to(&mut client, id);
+            assert!(answer.contains("\"error\""), "request {id} must be refused: {answer}");
+            answers.push_str(&answer);
+        }
+    }
+    let _ = read_all(&mut client, Duration::from_secs(20));
+    let _ = child.wait();
+    assert!(answers.contains("outside the folders this server may use"), "{answers}");
+    assert!(answers.contains("outside the workbook's folder"), "{answers}");
+    assert_eq!(tree(top.path()), before, "nothing was written");
+}

@@ -13,6 +13,9 @@ pub struct ServeArgs {
     /// Serve one connection on a loopback TCP address (127.0.0.1:PORT) instead of stdio.
     #[arg(long, value_name = "ADDRESS")]
     pub listen: Option<String>,
+    /// Confine every request's paths, URIs and output folders to this folder; repeatable.
+    #[arg(long, value_name = "FOLDER")]
+    pub allow_root: Vec<std::path::PathBuf>,
 }
 
 /// `trialyst plan`.
