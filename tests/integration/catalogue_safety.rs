@@ -567,3 +567,52 @@ fn a_confined_server_refuses_paths_and_folders_outside_its_roots() {
     assert!(answers.contains("outside the workbook's folder"), "{answers}");
     assert_eq!(tree(top.path()), before, "nothing was written");
 }
+
+#[cfg(unix)]
+#[test]
+fn links_are_followed_only_inside_the_folder_and_loops_end() {
+    let top = temp_folder();
+    let folder = top.path().join("lines");
+    let outside = top.path().join("private");
+    std::fs::create_dir_all(folder.join("sub")).expect("made");
+    std::fs::create_dir_all(&outside).expect("made");
+    write_rows(&folder.join("sub").join("real.xlsx"), "Runs", &trial_rows());
+    write_rows(&outside.join("secret.xlsx"), "Runs", &trial_rows());
+    std::os::unix::fs::symlink(&folder, folder.join("sub").join("loop")).expect("linked");
+    std::os::unix::fs::symlink(top.path(), folder.join("up")).expect("linked");
+    std::os::unix::fs::symlink(outside.join("secret.xlsx"), folder.join("borrowed.xlsx")).expect("linked");
+    let before = tree(&outside);
+    let (output, elapsed) = run_bounded(top.path(), &["run", "lines", "--recursive", "--json", "--no-write"]);
+    assert!(elapsed < STALL_LIMIT);
+    let stdout = String::from_utf8_lossy(&output.stdout);
+    let analysed: Vec<&str> = stdout
+        .lines()
+        .filter(|line| line.contains("\"status\":\"analysed\""))
+        .collect();
+    assert_eq!(analysed.len(), 1, "the one real workbook, once: {stdout}");
+    assert!(analysed[0].contains("real.xlsx"));
+    assert!(
+        stdout.contains("borrowed.xlsx") && stdout.contains("outside the folder named was not followed"),
+        "{stdout}"
+    );
+    assert!(!stdout.contains("secret.xlsx\""), "{stdout}");
+    assert_eq!(tree(&outside), before);
+}
+
+#[test]
+fn a_contrast_nested_thousands_deep_is_a_finding_not_a_crash() {
+    let folder = temp_folder();
+    let deep = format!("{}North - South{}", "(".repeat(5_000), ")".repeat(5_000));
+    trial_with_settings(&folder.path().join("deep.xlsx"), &[("contrast", deep.as_str())], false);
+    write_rows(&folder.path().join("plain.xlsx"), "Runs", &trial_rows());
+    let (output, _) = run_bounded(folder.path(), &["run", ".", "--json", "--no-write"]);
+    let stdout = String::from_utf8_lossy(&output.stdout);
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(!stderr.contains("overflow") && !stderr.contains("panicked"), "{stderr}");
+    assert_eq!(stdout.lines().count(), 2, "both workbooks reported: {stdout}{stderr}");
+    assert!(stdout.contains("nested more than 64 deep"), "{stdout}");
+    // The same text on the command line is a usage error with the message.
+    let (output, _) = run_bounded(folder.path(), &["run", "plain.xlsx", "--no-write", "--contrast", &deep]);
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(!stderr.contains("overflow") && !stderr.contains("panicked"), "{stderr}");
+}

@@ -213,7 +213,15 @@ pub fn collect_workbooks(paths: &[PathBuf], recursive: bool) -> (Vec<PathBuf>, V
     let mut problems = Vec::new();
     for path in paths {
         if path.is_dir() {
-            scan_folder(path, recursive, &mut found, &mut problems);
+            let root = path.canonicalize().unwrap_or_else(|_| path.clone());
+            let mut scan = FolderScan {
+                root: &root,
+                recursive,
+                visited: std::collections::HashSet::new(),
+                found: &mut found,
+                problems: &mut problems,
+            };
+            scan.folder(path);
         } else if path.exists() {
             found.push(path.clone());
         } else {
@@ -223,27 +231,66 @@ pub fn collect_workbooks(paths: &[PathBuf], recursive: bool) -> (Vec<PathBuf>, V
     (found, problems)
 }
 
-fn scan_folder(folder: &Path, recursive: bool, found: &mut Vec<PathBuf>, problems: &mut Vec<(PathBuf, String)>) {
-    let entries = match std::fs::read_dir(folder) {
-        Ok(entries) => entries,
-        Err(error) => {
-            problems.push((folder.to_path_buf(), format!("cannot list the folder: {error}")));
+/// One folder scan: links are followed only to places inside the folder
+/// named (`root`, resolved), and each real folder is listed once, so a
+/// link loop or a link to a parent ends instead of repeating the walk.
+struct FolderScan<'a> {
+    root: &'a Path,
+    recursive: bool,
+    visited: std::collections::HashSet<PathBuf>,
+    found: &'a mut Vec<PathBuf>,
+    problems: &'a mut Vec<(PathBuf, String)>,
+}
+
+impl FolderScan<'_> {
+    fn folder(&mut self, folder: &Path) {
+        let real = folder.canonicalize().unwrap_or_else(|_| folder.to_path_buf());
+        if !self.visited.insert(real) {
             return;
         }
-    };
-    let mut paths: Vec<PathBuf> = entries.filter_map(Result::ok).map(|entry| entry.path()).collect();
-    paths.sort();
-    for path in paths {
-        let name = path
-            .file_name()
-            .map(|name| name.to_string_lossy().into_owned())
-            .unwrap_or_default();
-        if path.is_dir() {
-            if recursive && !name.starts_with('.') {
-                scan_folder(&path, recursive, found, problems);
+        let entries = match std::fs::read_dir(folder) {
+            Ok(entries) => entries,
+            Err(error) => {
+                self.problems
+                    .push((folder.to_path_buf(), format!("cannot list the folder: {error}")));
+                return;
             }
-        } else if has_workbook_extension(&name) && !is_ignored_file_name(&name) {
-            found.push(path);
+        };
+        let mut paths: Vec<PathBuf> = entries.filter_map(Result::ok).map(|entry| entry.path()).collect();
+        paths.sort();
+        for path in paths {
+            let name = path
+                .file_name()
+                .map(|name| name.to_string_lossy().into_owned())
+                .unwrap_or_default();
+            let is_link = std::fs::symlink_metadata(&path).is_ok_and(|metadata| metadata.file_type().is_symlink());
+            let wanted = path.is_dir() && self.recursive && !name.starts_with('.')
+                || !path.is_dir() && has_workbook_extension(&name) && !is_ignored_file_name(&name);
+            if !wanted {
+                continue;
+            }
+            if is_link {
+                match path.canonicalize() {
+                    Ok(target) if target.starts_with(self.root) => {}
+                    Ok(_) => {
+                        self.problems.push((
+                            path.clone(),
+                            "a link to a place outside the folder named was not followed".to_string(),
+                        ));
+                        continue;
+                    }
+                    Err(_) => {
+                        self.problems
+                            .push((path.clone(), "a broken link was not followed".to_string()));
+                        continue;
+                    }
+                }
+            }
+            if path.is_dir() {
+                self.folder(&path);
+            } else {
+                self.found.push(path);
+            }
         }
     }
 }

@@ -274,7 +274,22 @@ impl Watcher {
             .file_name()
             .map(|name| name.to_string_lossy().into_owned())
             .unwrap_or_default();
-        self.relative(path).is_some() && service::has_workbook_extension(&name) && !service::is_ignored_file_name(&name)
+        self.relative(path).is_some()
+            && service::has_workbook_extension(&name)
+            && !service::is_ignored_file_name(&name)
+            && self.resolves_inside(path)
+    }
+
+    /// True when `path`, with every link resolved, is still inside the
+    /// watched folder: a link to a file elsewhere is never read (what it
+    /// points to would otherwise be copied into the folder as results).
+    fn resolves_inside(&self, path: &Path) -> bool {
+        let folder = self.folder.canonicalize().unwrap_or_else(|_| self.folder.clone());
+        match path.canonicalize() {
+            Ok(real) => real.starts_with(folder),
+            // Gone already: nothing to read; the caller finds that out.
+            Err(_) => true,
+        }
     }
 
     fn is_folder_file(&self, path: &Path) -> bool {
