@@ -616,3 +616,49 @@ fn a_contrast_nested_thousands_deep_is_a_finding_not_a_crash() {
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert!(!stderr.contains("overflow") && !stderr.contains("panicked"), "{stderr}");
 }
+
+#[test]
+fn newer_error_values_are_error_cells_at_their_address() {
+    use crate::hostile::{sheet_xml, write_xlsx_parts, EMPTY_SHARED_STRINGS};
+    let folder = temp_folder();
+    // Condition / Weight in A1:B21 (invented); B3..B8 hold the newer error values.
+    let errors = [
+        "#SPILL!",
+        "#CALC!",
+        "#FIELD!",
+        "#BLOCKED!",
+        "#UNKNOWN!",
+        "#GETTING_DATA",
+    ];
+    let mut rows = String::from(
+        r#"<row r="1"><c r="A1" t="inlineStr"><is><t>Condition</t></is></c><c r="B1" t="inlineStr"><is><t>Weight</t></is></c></row>"#,
+    );
+    for row in 2..=21_usize {
+        let label = if row % 2 == 0 { "old" } else { "new" };
+        let cell = match errors.get(row.wrapping_sub(3)) {
+            Some(error) => format!(r#"<c r="B{row}" t="e"><v>{error}</v></c>"#),
+            None => format!(r#"<c r="B{row}"><v>{}</v></c>"#, 10.0 + (row % 5) as f64 / 10.0),
+        };
+        rows.push_str(&format!(
+            r#"<row r="{row}"><c r="A{row}" t="inlineStr"><is><t>{label}</t></is></c>{cell}</row>"#
+        ));
+    }
+    write_xlsx_parts(
+        &folder.path().join("newer.xlsx"),
+        &sheet_xml(&rows),
+        EMPTY_SHARED_STRINGS,
+    );
+    let run = trialyst(folder.path(), &["run", "newer.xlsx", "--json", "--no-write"]);
+    no_panic(&run);
+    let line = &json_lines(&run)[0];
+    let findings = line["findings"].as_array().cloned().unwrap_or_default();
+    for (index, error) in errors.iter().enumerate() {
+        let cell = format!("B{}", index + 3);
+        assert!(
+            findings.iter().any(|finding| finding["cell"] == cell.as_str()
+                && finding["message"].as_str().unwrap_or_default().contains(error)),
+            "no finding for {error} at {cell}: {findings:#?}{}",
+            run.report()
+        );
+    }
+}
