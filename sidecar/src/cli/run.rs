@@ -154,38 +154,66 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
             ..base.clone()
         }
     };
+    let stdout = std::io::stdout();
+    let mut failed = problems.len();
+    for (path, message) in &problems {
+        if options.json {
+            let _ = writeln!(
+                stdout.lock(),
+                "{}",
+                json_line(path, &RunOutcome::Failed(message.clone()))
+            );
+        } else {
+            eprintln!("failed {}: {message}", path.display());
+        }
+    }
+    // Each workbook's line is printed as soon as it and every workbook
+    // before it have finished: the output keeps the input order, a long
+    // batch shows its progress in its output, and a batch cut short has
+    // printed what it did. Only lines that finished early wait, as text.
+    let ordered = std::sync::Mutex::new((0usize, std::collections::BTreeMap::<usize, (bool, String)>::new()));
+    let print_line = |index: usize, outcome: &RunOutcome| {
+        let path = &workbooks[index];
+        let line = if options.json {
+            (false, json_line(path, outcome))
+        } else {
+            (matches!(outcome, RunOutcome::Failed(_)), human_line(path, outcome))
+        };
+        let mut ordered = ordered.lock().unwrap_or_else(std::sync::PoisonError::into_inner);
+        ordered.1.insert(index, line);
+        loop {
+            let next = ordered.0;
+            let Some((to_stderr, text)) = ordered.1.remove(&next) else {
+                break;
+            };
+            progress.suspend(|| {
+                if to_stderr {
+                    eprintln!("{text}");
+                } else {
+                    let mut out = stdout.lock();
+                    let _ = writeln!(out, "{text}");
+                    let _ = out.flush();
+                }
+            });
+            ordered.0 += 1;
+        }
+        progress.inc(1);
+    };
     let outcomes = service::batch::run_parallel_with(
         &workbooks,
         &request_of,
         options.out_dir,
         options.write,
         options.jobs,
-        &|| progress.inc(1),
+        &print_line,
     );
     progress.finish_and_clear();
-
-    let stdout = std::io::stdout();
     let mut out = stdout.lock();
-    let mut failed = problems.len();
-    for (path, message) in &problems {
-        if options.json {
-            let _ = writeln!(out, "{}", json_line(path, &RunOutcome::Failed(message.clone())));
-        } else {
-            eprintln!("failed {}: {message}", path.display());
-        }
-    }
     let mut analysed = 0;
-    for (path, outcome) in workbooks.iter().zip(&outcomes) {
+    for outcome in &outcomes {
         match outcome {
             RunOutcome::Analysed(..) => analysed += 1,
             RunOutcome::Failed(_) => failed += 1,
-        }
-        if options.json {
-            let _ = writeln!(out, "{}", json_line(path, outcome));
-        } else if matches!(outcome, RunOutcome::Failed(_)) {
-            eprintln!("{}", human_line(path, outcome));
-        } else {
-            let _ = writeln!(out, "{}", human_line(path, outcome));
         }
     }
     let _ = out.flush();
