@@ -1238,6 +1238,18 @@ fn plain_value(bytes: &[u8], kind: Kind, date_style: bool, parts: &WorkbookParts
     }
 }
 
+/// True for text shaped like a spreadsheet error value: `#`, then up to 30
+/// letters, digits, `_`, `/`, `!` or `?` (`#SPILL!`, `#GETTING_DATA`).
+pub(crate) fn is_error_value_text(text: &str) -> bool {
+    text.strip_prefix('#').is_some_and(|rest| {
+        !rest.is_empty()
+            && rest.len() <= 30
+            && rest
+                .chars()
+                .all(|character| character.is_ascii_alphanumeric() || matches!(character, '_' | '/' | '!' | '?'))
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -1328,16 +1340,4 @@ mod tests {
         }
         assert_eq!(seen, ["S:a:k=\"x>y\":false", "S:b::true", "E:b", "T:t", "C:<z>", "E:a"]);
     }
-}
-
-/// True for text shaped like a spreadsheet error value: `#`, then up to 30
-/// letters, digits, `_`, `/`, `!` or `?` (`#SPILL!`, `#GETTING_DATA`).
-pub(crate) fn is_error_value_text(text: &str) -> bool {
-    text.strip_prefix('#').is_some_and(|rest| {
-        !rest.is_empty()
-            && rest.len() <= 30
-            && rest
-                .chars()
-                .all(|character| character.is_ascii_alphanumeric() || matches!(character, '_' | '/' | '!' | '?'))
-    })
 }
