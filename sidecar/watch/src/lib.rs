@@ -146,7 +146,11 @@ pub fn watch(options: WatchOptions) -> Result<(), WatchError> {
         stop,
         pending: BTreeMap::new(),
     };
-    watcher.state = watcher.store.load();
+    let (state, corrupt) = watcher.store.load_at_start();
+    watcher.state = state;
+    if let Some(reason) = corrupt {
+        watcher.log.event("state", "", &reason);
+    }
     let result = match options.poll {
         Some(interval) => watcher.run_polling(interval),
         None => watcher.run_listening(),
