@@ -512,6 +512,7 @@ fn listen_takes_loopback_addresses_only() {
 
     let mut child = Command::new(trialyst_binary())
         .args(["serve", "--listen", "127.0.0.1:0"])
+        .env("TRIALYST_SERVE_TOKEN", "a secret for this test only")
         .stdin(Stdio::null())
         .stdout(Stdio::null())
         .stderr(Stdio::piped())
@@ -524,6 +525,7 @@ fn listen_takes_loopback_addresses_only() {
     assert!(address.starts_with("127.0.0.1:"), "{line}");
     let mut stream = std::net::TcpStream::connect(&address).expect("the server accepts");
     let _ = stream.set_read_timeout(Some(WAIT));
+    let _ = stream.write_all(b"trialyst-token a secret for this test only\n");
     let initialize = json!({"jsonrpc": "2.0", "id": 1, "method": "initialize", "params": {"capabilities": {}}});
     let _ = stream.write_all(&frame(initialize.to_string().as_bytes()));
     // Wait for the answer before going on, as a client does.

@@ -11,6 +11,7 @@
 
 mod batch;
 mod catalogue;
+mod catalogue_safety;
 mod cli;
 mod common;
 mod design_lead;

@@ -88,12 +88,32 @@ fn find(haystack: &[u8], needle: &[u8]) -> Option<usize> {
     haystack.windows(needle.len()).position(|window| window == needle)
 }
 
+/// True when the bytes just before a `Content-Length` end with a header
+/// line of another name (`Host: ...`, `Origin: ...`): part of the same
+/// header block, from a client that is not ours.
+fn foreign_header_before(skipped: &[u8]) -> bool {
+    let Some(before) = skipped.strip_suffix(b"\r\n") else {
+        return false;
+    };
+    let line = before.rsplit(|byte| *byte == b'\n').next().unwrap_or_default();
+    let Some(colon) = line.iter().position(|byte| *byte == b':') else {
+        return false;
+    };
+    let name = &line[..colon];
+    !name.is_empty()
+        && name.iter().all(|byte| byte.is_ascii_alphanumeric() || *byte == b'-')
+        && !name.eq_ignore_ascii_case(b"content-type")
+}
+
 /// What the header block said.
 enum Header {
     /// A usable length.
     Length(usize),
     /// Unusable, with the reason.
     Bad(String),
+    /// A header the protocol does not have (`Host`, `Origin`, ...): not our
+    /// client; the connection is closed.
+    Foreign,
 }
 
 fn parse_header_block(block: &[u8]) -> Header {
@@ -115,7 +135,9 @@ fn parse_header_block(block: &[u8]) -> Header {
                 Ok(parsed) => length = Some(parsed),
                 Err(_) => return Header::Bad(format!("Content-Length must be a whole number of bytes, not '{value}'")),
             }
-        } else if name.eq_ignore_ascii_case("content-type") {
+        } else if !name.eq_ignore_ascii_case("content-type") {
+            return Header::Foreign;
+        } else {
             let charset = value
                 .split(';')
                 .skip(1)
@@ -206,7 +228,15 @@ pub async fn guard_input<R, W>(
     loop {
         // Header phase: find the start of a header and the end of its block.
         let header = loop {
+            // A web client (a browser made to post to the port) is not ours:
+            // nothing it sent is taken as a message; the connection is closed.
+            if crate::looks_like_http(buffer.trim_ascii_start()) {
+                break Some(Header::Foreign);
+            }
             if let Some(start) = find_ignoring_case(&buffer, CONTENT_LENGTH) {
+                if start > 0 && foreign_header_before(&buffer[..start]) {
+                    break Some(Header::Foreign);
+                }
                 if start > 0 {
                     let skipped_text = String::from_utf8_lossy(&buffer[..start]);
                     let harmless = skipped_text.trim().is_empty()
@@ -265,6 +295,7 @@ pub async fn guard_input<R, W>(
             break;
         };
         let length = match header {
+            Header::Foreign => break,
             Header::Bad(reason) => {
                 let _ = answers.send(error_frame(Value::Null, PARSE_ERROR, reason));
                 continue;
@@ -281,21 +312,11 @@ pub async fn guard_input<R, W>(
                     options.max_message_bytes
                 ),
             ));
-            // Skip the body without keeping it.
-            let mut remaining = length;
-            let from_buffer = remaining.min(buffer.len());
-            buffer.drain(..from_buffer);
-            remaining -= from_buffer;
-            while remaining > 0 && !at_end {
-                match input.read(&mut chunk).await {
-                    Ok(0) | Err(_) => at_end = true,
-                    Ok(read) => {
-                        let used = read.min(remaining);
-                        remaining -= used;
-                        buffer.extend_from_slice(&chunk[used..read]);
-                    }
-                }
-            }
+            // The body is not read as one: whatever follows is skipped as
+            // bytes outside any message (in bounded pieces) up to the next
+            // header, so a length of any size, even 2^64 - 1, costs one
+            // answer and the next message is read as usual.
+            in_garbage = true;
             continue;
         }
 
@@ -506,6 +527,30 @@ mod tests {
             .as_str()
             .unwrap_or("")
             .contains("5000 bytes"));
+    }
+
+    #[tokio::test]
+    async fn a_huge_length_costs_one_answer_and_the_next_message_is_read() {
+        for claimed in ["67108865", "18446744073709551615", "4294967296"] {
+            let mut input = format!("Content-Length: {claimed}\r\n\r\n{{\"jsonrpc\":\"2.0\"}}").into_bytes();
+            input.extend_from_slice(&frame(EXIT));
+            let (forwarded, answers) = run(input, FramingOptions::default()).await;
+            assert_eq!(forwarded, frame(EXIT), "{claimed}");
+            assert_eq!(answers.len(), 1, "{claimed}: {answers:?}");
+        }
+    }
+
+    #[tokio::test]
+    async fn http_requests_and_headers_close_the_input() {
+        let post = b"POST / HTTP/1.1\r\nHost: 127.0.0.1\r\nContent-Type: text/plain\r\nContent-Length: 60\r\n\r\n";
+        let mut input = post.to_vec();
+        input.extend_from_slice(&frame(EXIT));
+        let (forwarded, _) = run(input, FramingOptions::default()).await;
+        assert!(forwarded.is_empty(), "{}", String::from_utf8_lossy(&forwarded));
+        let mut input = b"Origin: http://example.invalid\r\nContent-Length: 2\r\n\r\n{}".to_vec();
+        input.extend_from_slice(&frame(EXIT));
+        let (forwarded, _) = run(input, FramingOptions::default()).await;
+        assert!(forwarded.is_empty(), "{}", String::from_utf8_lossy(&forwarded));
     }
 
     #[tokio::test]

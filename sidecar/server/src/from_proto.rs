@@ -72,27 +72,85 @@ fn optional_text(map: &Map<String, Value>, key: &str, place: &str) -> Result<Opt
 }
 
 /// The path of a workbook, taken exactly as the client wrote it, or from a
-/// `file:` URI given in `uri`.
+/// `file:` URI given in `uri`; either must lie inside the folders the
+/// server was confined to at start ([`confine_to`]).
 fn workbook_path(map: &Map<String, Value>) -> Result<PathBuf, ParamsError> {
     if let Some(text) = optional_text(map, "path", "params")? {
         if text.trim().is_empty() {
             return Err(error("params.path", "the workbook's path must not be empty"));
         }
-        return Ok(PathBuf::from(text));
+        return confined("params.path", PathBuf::from(text));
     }
     if let Some(text) = optional_text(map, "uri", "params")? {
         let uri: Uri = text
             .parse()
             .map_err(|_| error("params.uri", format!("'{text}' is not a URI")))?;
-        return file_path_of(&uri).ok_or_else(|| error("params.uri", format!("'{text}' is not a file: URI")));
+        let path = file_path_of(&uri).ok_or_else(|| {
+            error(
+                "params.uri",
+                format!("'{text}' is not a local file: URI (the host must be empty or localhost, and no %2F, %5C or %00 may stand for a separator or an end)"),
+            )
+        })?;
+        return confined("params.uri", path);
     }
     Err(error("params.path", "missing; give the workbook's path"))
 }
 
-/// The local path of a `file:` URI.
+/// The folders the server may read workbooks in and write results to, set
+/// once at start (`trialyst serve --allow-root`); none set means anywhere.
+static ALLOWED_ROOTS: std::sync::OnceLock<Vec<PathBuf>> = std::sync::OnceLock::new();
+
+/// Confines every path and URI of every request to `roots` for the life of
+/// the process. Called once by `serve` at start; a second call is ignored.
+pub fn confine_to(roots: Vec<PathBuf>) {
+    let _ = ALLOWED_ROOTS.set(roots);
+}
+
+/// The folders the server is confined to (empty: not confined).
+pub fn allowed_roots() -> &'static [PathBuf] {
+    ALLOWED_ROOTS.get().map_or(&[], Vec::as_slice)
+}
+
+/// `path` when the server is not confined or it lies inside an allowed folder.
+fn confined(field: &str, path: PathBuf) -> Result<PathBuf, ParamsError> {
+    let roots = allowed_roots();
+    if roots.is_empty() || service::inside_any(&path, roots) {
+        Ok(path)
+    } else {
+        Err(error(
+            field,
+            format!(
+                "'{}' is outside the folders this server may use ({})",
+                path.display(),
+                roots
+                    .iter()
+                    .map(|root| root.display().to_string())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
+        ))
+    }
+}
+
+/// The local path of a `file:` URI, decoded strictly: the host must be
+/// empty or `localhost` (`file://otherhost/share/x.xlsx` is refused, not read
+/// as a local path), and percent-escapes of a separator (`%2F`, `%5C`) or
+/// of NUL (`%00`) are refused.
 pub fn file_path_of(uri: &Uri) -> Option<PathBuf> {
     let is_file = uri.scheme().as_str().eq_ignore_ascii_case("file");
     if !is_file {
+        return None;
+    }
+    let text = uri.as_str();
+    let after_scheme = &text[text.find(':')? + 1..];
+    if let Some(rest) = after_scheme.strip_prefix("//") {
+        let host = &rest[..rest.find('/').unwrap_or(rest.len())];
+        if !host.is_empty() && !host.eq_ignore_ascii_case("localhost") {
+            return None;
+        }
+    }
+    let lower = after_scheme.to_ascii_lowercase();
+    if ["%2f", "%5c", "%00"].iter().any(|escape| lower.contains(escape)) {
         return None;
     }
     uri.to_file_path().map(|path| path.into_owned())
@@ -482,6 +540,18 @@ mod tests {
         assert_eq!(workbook(json!({"path": 5})), "params.path");
         assert_eq!(workbook(json!({"path": "  "})), "params.path");
         assert_eq!(workbook(json!({"uri": "https://example.org/a.xlsx"})), "params.uri");
+        // Strict decoding: another host, an escaped separator or NUL.
+        for uri in [
+            "file://otherhost/share/a.xlsx",
+            "file:///tmp/a%2F..%2Fb.xlsx",
+            "file:///tmp/a%5cb.xlsx",
+            "file:///tmp/a.xlsx%00.txt",
+        ] {
+            assert_eq!(workbook(json!({ "uri": uri })), "params.uri", "{uri}");
+        }
+        for uri in ["file:///tmp/a%20b.xlsx", "file://localhost/tmp/a.xlsx"] {
+            assert!(file_path_of(&uri.parse().expect("a URI")).is_some(), "{uri}");
+        }
     }
 
     trait ErrField {

@@ -23,6 +23,23 @@ pub mod to_proto;
 #[cfg(test)]
 mod tests;
 
+#[cfg(test)]
+mod secret_tests {
+    use super::*;
+
+    #[test]
+    fn secrets_compare_by_every_byte_and_http_is_recognised() {
+        assert!(same_secret(b"sixteen chars ok", b"sixteen chars ok"));
+        assert!(!same_secret(b"sixteen chars oK", b"sixteen chars ok"));
+        assert!(!same_secret(b"sixteen chars", b"sixteen chars ok"));
+        assert!(!same_secret(b"sixteen chars ok!", b"sixteen chars ok"));
+        assert!(looks_like_http(b"POST /x HTTP/1.1\r\nHost: a"));
+        assert!(looks_like_http(b"GET / HTTP/1.0"));
+        assert!(!looks_like_http(b"Content-Length: 5\r\n\r\n"));
+        assert!(!looks_like_http(b"trialyst-token abc"));
+    }
+}
+
 use std::net::{SocketAddr, ToSocketAddrs};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
@@ -73,6 +90,106 @@ pub enum ServeError {
     /// The runtime could not be started.
     #[error("cannot start the server's runtime")]
     Runtime(#[source] std::io::Error),
+    /// `--listen` without a usable secret in the environment.
+    #[error("--listen needs a secret: set {TOKEN_VARIABLE} to a string of at least {MIN_TOKEN_CHARS} characters that only the client knows (see docs/protocol.md)")]
+    NoToken,
+}
+
+/// The environment variable that holds the secret a TCP client must send first.
+pub const TOKEN_VARIABLE: &str = "TRIALYST_SERVE_TOKEN";
+
+/// The shortest secret accepted.
+pub const MIN_TOKEN_CHARS: usize = 16;
+
+/// The line a TCP client sends before any message: this, a space, the secret, a newline.
+pub const TOKEN_PREFIX: &str = "trialyst-token ";
+
+/// How long a new connection may take to send its secret line.
+pub const TOKEN_TIMEOUT: Duration = Duration::from_secs(5);
+
+/// The longest secret line read.
+const MAX_TOKEN_LINE: usize = 512;
+
+/// Compares two byte strings in time that depends only on their lengths,
+/// not on where they first differ.
+pub fn same_secret(given: &[u8], expected: &[u8]) -> bool {
+    let mut difference = given.len() ^ expected.len();
+    for (index, expected_byte) in expected.iter().enumerate() {
+        let byte = given.get(index).copied().unwrap_or(0);
+        difference |= usize::from(byte ^ expected_byte);
+    }
+    difference == 0
+}
+
+/// True when `bytes` start like an HTTP request (a browser or any web
+/// client): a request line `METHOD target HTTP/1.x`.
+pub fn looks_like_http(bytes: &[u8]) -> bool {
+    const METHODS: [&[u8]; 9] = [
+        b"GET ",
+        b"POST ",
+        b"PUT ",
+        b"HEAD ",
+        b"DELETE ",
+        b"OPTIONS ",
+        b"PATCH ",
+        b"CONNECT ",
+        b"TRACE ",
+    ];
+    let first_line = bytes.split(|byte| *byte == b'\n').next().unwrap_or_default();
+    METHODS.iter().any(|method| first_line.starts_with(method))
+        || first_line
+            .windows(7)
+            .any(|window| window.eq_ignore_ascii_case(b" HTTP/1"))
+}
+
+/// Why a connection was turned away before its session.
+#[derive(Debug, PartialEq, Eq)]
+pub enum Refusal {
+    /// Nothing arrived in time.
+    Silent,
+    /// An HTTP request line.
+    Http,
+    /// The line was not the secret.
+    WrongSecret,
+}
+
+/// Reads the secret line from a new connection. The line ends at the first
+/// newline; nothing after it is read.
+///
+/// # Errors
+///
+/// [`Refusal`]: silent past [`TOKEN_TIMEOUT`], an HTTP request, or not the secret.
+pub async fn check_secret_line<R: AsyncRead + Unpin>(
+    input: &mut R,
+    expected: &str,
+    wait: Duration,
+) -> Result<(), Refusal> {
+    use tokio::io::AsyncReadExt;
+    let mut line = Vec::with_capacity(64);
+    let reading = async {
+        let mut byte = [0u8; 1];
+        while line.len() < MAX_TOKEN_LINE {
+            match input.read(&mut byte).await {
+                Ok(1) if byte[0] == b'\n' => return true,
+                Ok(1) => line.push(byte[0]),
+                _ => return false,
+            }
+        }
+        false
+    };
+    let complete = tokio::time::timeout(wait, reading).await.map_err(|_| Refusal::Silent)?;
+    if looks_like_http(&line) {
+        return Err(Refusal::Http);
+    }
+    if line.last() == Some(&b'\r') {
+        line.pop();
+    }
+    let given = line.strip_prefix(TOKEN_PREFIX.as_bytes()).unwrap_or_default();
+    if complete && same_secret(given, expected.as_bytes()) {
+        Ok(())
+    } else {
+        Err(Refusal::WrongSecret)
+    }
 }
 
 /// Checks a `--listen` address: it must resolve, and only to loopback addresses.
@@ -155,14 +272,27 @@ pub fn serve_stdio() -> Result<i32, ServeError> {
     Ok(code)
 }
 
-/// `trialyst serve --listen ADDRESS`: serves one connection on a loopback
+/// `trialyst serve --listen ADDRESS`: serves one client on a loopback
 /// socket. Prints `listening on ADDRESS` on stderr once ready.
+///
+/// Every connection must first send the line `trialyst-token SECRET`, the
+/// secret being the value of [`TOKEN_VARIABLE`] in the server's
+/// environment (set by the parent that starts it), within
+/// [`TOKEN_TIMEOUT`]. A connection that is silent, speaks HTTP or sends
+/// another line is closed and the server goes on waiting; the first that
+/// passes gets the session, and the server ends with it. Connections made
+/// while a session runs are closed at once.
 ///
 /// # Errors
 ///
-/// [`ServeError`] for a bad or non-loopback address, or a socket that cannot be opened.
+/// [`ServeError`] for a bad or non-loopback address, a missing secret, or a
+/// socket that cannot be opened.
 pub fn serve_tcp(address: &str) -> Result<i32, ServeError> {
     let socket_address = loopback_address(address)?;
+    let token = std::env::var(TOKEN_VARIABLE).unwrap_or_default();
+    if token.chars().count() < MIN_TOKEN_CHARS {
+        return Err(ServeError::NoToken);
+    }
     let runtime = runtime()?;
     let code = runtime.block_on(async {
         let listener = tokio::net::TcpListener::bind(socket_address)
@@ -177,12 +307,55 @@ pub fn serve_tcp(address: &str) -> Result<i32, ServeError> {
         {
             eprintln!("trialyst: listening on {local}");
         }
-        let (stream, _) = listener.accept().await.map_err(|source| ServeError::Listen {
-            address: address.to_string(),
-            source,
-        })?;
+        let token: Arc<str> = token.into();
+        let (admitted_sender, mut admitted) = mpsc::channel::<tokio::net::TcpStream>(1);
+        let session_started = Arc::new(AtomicBool::new(false));
+        let acceptor = {
+            let session_started = session_started.clone();
+            tokio::spawn(async move {
+                loop {
+                    let Ok((mut stream, peer)) = listener.accept().await else {
+                        // A failed accept (too many open files, a reset) costs that connection only.
+                        tokio::time::sleep(Duration::from_millis(50)).await;
+                        continue;
+                    };
+                    if session_started.load(Ordering::SeqCst) {
+                        drop(stream);
+                        continue;
+                    }
+                    let token = token.clone();
+                    let admitted_sender = admitted_sender.clone();
+                    tokio::spawn(async move {
+                        match check_secret_line(&mut stream, &token, TOKEN_TIMEOUT).await {
+                            Ok(()) => {
+                                let _ = admitted_sender.try_send(stream);
+                            }
+                            Err(refusal) => {
+                                #[allow(clippy::print_stderr)]
+                                {
+                                    eprintln!(
+                                        "trialyst: closed a connection from {peer}: {}",
+                                        match refusal {
+                                            Refusal::Silent => "no secret line in time",
+                                            Refusal::Http => "it sent an HTTP request",
+                                            Refusal::WrongSecret => "wrong secret",
+                                        }
+                                    );
+                                }
+                            }
+                        }
+                    });
+                }
+            })
+        };
+        let Some(stream) = admitted.recv().await else {
+            return Ok(EXIT_WITHOUT_SHUTDOWN);
+        };
+        session_started.store(true, Ordering::SeqCst);
         let (reader, writer) = stream.into_split();
-        Ok::<i32, ServeError>(serve_session(reader, writer, ServerOptions::default(), FramingOptions::default()).await)
+        let code = serve_session(reader, writer, ServerOptions::default(), FramingOptions::default()).await;
+        acceptor.abort();
+        Ok::<i32, ServeError>(code)
     });
     runtime.shutdown_background();
     code

@@ -398,12 +398,27 @@ impl Shared {
         let path = read.workbook.path;
         // A relative folder in the request is taken from the workbook's folder,
         // not from the server's working folder (see docs/protocol.md).
-        let output_folder = read
-            .output_folder
-            .map(|folder| service::relative_to_workbook(&path, &folder));
+        let output_folder = read.output_folder;
         let outcome = self
             .run_blocking(&progress, move || {
-                let request = request.with_folder_settings_for(&path, None)?;
+                let mut request = request.with_folder_settings_for(&path, None)?;
+                // A folder from a request, like one from a settings sheet, stays
+                // inside the workbook's folder or a folder the server was given.
+                request.output = service::OutputRules {
+                    name: service::output_name_among_siblings(&path),
+                    allowed_roots: from_proto::allowed_roots().to_vec(),
+                    claimed: None,
+                };
+                let output_folder = match output_folder {
+                    Some(folder) => {
+                        let settings = service::settings::Settings {
+                            out_dir: Some(folder.display().to_string()),
+                            ..service::settings::Settings::default()
+                        };
+                        service::output_folder_for(&path, None, &settings, &request.output.allowed_roots)?
+                    }
+                    None => None,
+                };
                 let written = service::analyse_and_write(&path, &request, output_folder.as_deref(), &mut |_| {})?;
                 let (results, destination) = (written.results, written.results_file);
                 Ok(json!({

@@ -41,14 +41,16 @@ pub fn run_one(path: &Path, request: &AnalysisRequest, out_dir: Option<&Path>, w
 }
 
 /// Analyses workbooks on `jobs` threads; outcomes come back in input order.
-/// `request_of(i)` gives the request of workbook `i`; `done` is called after each.
+/// `request_of(i)` gives the request of workbook `i`; `done(i, outcome)` is
+/// called as each workbook finishes (in the order they finish), so a caller
+/// can print its line at once.
 pub fn run_parallel_with(
     workbooks: &[PathBuf],
     request_of: &(dyn Fn(usize) -> AnalysisRequest + Sync),
     out_dir: Option<&Path>,
     write: bool,
     jobs: usize,
-    done: &(dyn Fn() + Sync),
+    done: &(dyn Fn(usize, &RunOutcome) + Sync),
 ) -> Vec<RunOutcome> {
     let next = AtomicUsize::new(0);
     let slots: Vec<Mutex<Option<RunOutcome>>> = workbooks.iter().map(|_| Mutex::new(None)).collect();
@@ -63,10 +65,10 @@ pub fn run_parallel_with(
                     run_one(&workbooks[index], &request_of(index), out_dir, write)
                 }))
                 .unwrap_or_else(|_| RunOutcome::Failed("internal error while analysing; please report it".into()));
+                done(index, &outcome);
                 if let Ok(mut slot) = slots[index].lock() {
                     *slot = Some(outcome);
                 }
-                done();
             });
         }
     });
@@ -89,7 +91,7 @@ pub fn run_parallel(
     write: bool,
     jobs: usize,
 ) -> Vec<RunOutcome> {
-    run_parallel_with(workbooks, &|_| request.clone(), out_dir, write, jobs, &|| {})
+    run_parallel_with(workbooks, &|_| request.clone(), out_dir, write, jobs, &|_, _| {})
 }
 
 /// The folder settings of each workbook: the nearest `trialyst.toml` from

@@ -47,6 +47,23 @@ pub enum ServiceError {
         /// The system's error.
         source: std::io::Error,
     },
+    /// The `output folder` setting points outside the workbook's folder and
+    /// every folder allowed by the caller.
+    #[error("the output folder '{setting}' ('{}') is outside the workbook's folder; results go only into the workbook's folder or a folder allowed on the command line (--allow-output-root)", folder.display())]
+    OutputOutsideFolder {
+        /// The folder the setting names.
+        folder: PathBuf,
+        /// The setting as written.
+        setting: String,
+    },
+    /// Another input of the same run already wrote this output.
+    #[error("'{}' was already written for '{}' in this run; not replaced", destination.display(), other.display())]
+    OutputCollision {
+        /// The output.
+        destination: PathBuf,
+        /// The input that wrote it.
+        other: PathBuf,
+    },
     /// The results workbook could not be written.
     #[error(transparent)]
     Write(#[from] workbook_io::write::WriteError),
@@ -73,7 +90,8 @@ impl ServiceError {
             Self::NoTable { .. } => "no-table",
             Self::NothingAnalysable { .. } => "nothing-analysable",
             Self::Settings(_) | Self::FolderSettings(_) => "bad-setting",
-            Self::OutputFolder { .. } | Self::Write(_) => "write-failed",
+            Self::OutputFolder { .. } | Self::Write(_) | Self::OutputCollision { .. } => "write-failed",
+            Self::OutputOutsideFolder { .. } => "bad-setting",
             Self::Cancelled => "cancelled",
         }
     }
@@ -234,7 +252,21 @@ pub fn describe_failure(error: &ServiceError) -> FailureReport {
             false,
         ),
         ServiceError::Write(_) => (
-            vec![whole(message.clone(), "Check that the output folder exists and can be written to.")],
+            vec![whole(message.clone(), "Check that the output folder exists and can be written to; a file trialyst did not write, or a read-only one, is never replaced: move it away or choose another output folder.")],
+            false,
+        ),
+        ServiceError::OutputOutsideFolder { .. } => (
+            vec![whole(
+                message.clone(),
+                "Set 'output folder' to a folder inside the workbook's folder, or allow the folder when starting trialyst (--allow-output-root).",
+            )],
+            false,
+        ),
+        ServiceError::OutputCollision { .. } => (
+            vec![whole(
+                message.clone(),
+                "Give the workbooks different names or different output folders.",
+            )],
             false,
         ),
         ServiceError::Cancelled => (vec![whole("the analysis was stopped".into(), "Nothing to fix.")], false),

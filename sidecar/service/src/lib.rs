@@ -39,8 +39,9 @@ pub use failure::{describe_failure, error_chain, FailureReport, Problem, Service
 pub use load::{inspect_workbook, sha256_file, AnalysisRequest, CancelFlag};
 pub use orchestrate::{analyse_grid, analyse_workbook, conditions_of, unit_of, MAX_CONDITIONS, MAX_RESPONSES};
 pub use paths::{
-    collect_workbooks, has_workbook_extension, is_ignored_file_name, output_folder_for, problems_path_for,
-    relative_to_workbook, results_path_for, PROBLEMS_SUFFIX, RESULTS_SUFFIX,
+    collect_workbooks, has_workbook_extension, inside_any, is_ignored_file_name, output_folder_for,
+    output_name_among_siblings, output_names, problems_path_for, problems_path_named, relative_to_workbook,
+    results_path_for, results_path_named, OutputName, OutputRules, PROBLEMS_SUFFIX, RESULTS_SUFFIX,
 };
 pub use results::{
     now_rfc3339, standard_cautions, FactorSummary, Inspection, LeadChoice, LeadKind, ResponseOutcome, ResponseResult,

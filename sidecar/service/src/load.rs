@@ -53,6 +53,8 @@ pub struct AnalysisRequest {
     pub limits: ReadLimits,
     /// Set by the caller to stop the work.
     pub cancel: CancelFlag,
+    /// How the outputs are named and where they may go.
+    pub output: crate::paths::OutputRules,
 }
 
 impl AnalysisRequest {
@@ -80,7 +82,7 @@ pub fn sha256_file(path: &Path) -> Result<(String, u64), ReadError> {
         path: path.to_path_buf(),
         source,
     };
-    let mut file = std::fs::File::open(path).map_err(io_error)?;
+    let mut file = workbook_io::read::open_regular_file(path).map_err(io_error)?;
     let mut hasher = Sha256::new();
     let mut buffer = vec![0u8; 1 << 16];
     let mut total = 0u64;
@@ -126,14 +128,28 @@ fn workbook_findings(workbook: &Workbook) -> Vec<Finding> {
 
 /// Reads the workbook's settings sheet, if it has one, turning bad rows into findings.
 fn sheet_settings(workbook: &mut Workbook, findings: &mut Vec<Finding>) -> Settings {
-    let Some(sheet_name) = workbook
+    let Some((sheet_name, visible)) = workbook
         .sheets()
         .iter()
         .find(|info| is_settings_sheet(&info.name))
-        .map(|info| info.name.clone())
+        .map(|info| (info.name.clone(), info.visible))
     else {
         return Settings::default();
     };
+    if !visible {
+        // Settings a reader of the workbook cannot see still decide where
+        // results go and what is analysed: say so.
+        findings.push(Finding {
+            kind: FindingKind::Setting,
+            sheet: sheet_name.clone(),
+            cell: None,
+            found: "a hidden settings sheet".into(),
+            action: "its settings were applied".into(),
+            message: format!(
+                "the settings sheet '{sheet_name}' is hidden; its settings were applied (unhide it to see them)"
+            ),
+        });
+    }
     let grid = match workbook.read_sheet(&sheet_name, None) {
         Ok(grid) => grid,
         Err(error) => {

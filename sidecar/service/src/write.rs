@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 
 use crate::failure::ServiceError;
 use crate::load::AnalysisRequest;
-use crate::paths::{output_folder_for, results_path_for};
+use crate::paths::{output_folder_for, results_path_named};
 use crate::results::WorkbookResults;
 
 /// What [`analyse_and_write`] produced.
@@ -47,14 +47,21 @@ pub fn analyse_and_write(
     if request.cancel.is_cancelled() {
         return Err(ServiceError::Cancelled);
     }
-    let folder = output_folder_for(workbook, output_folder, &results.settings);
-    if let Some(folder) = &folder {
+    let folder = output_folder_for(
+        workbook,
+        output_folder,
+        &results.settings,
+        &request.output.allowed_roots,
+    )?;
+    let results_file = results_path_named(workbook, folder.as_deref(), &request.output.name);
+    if let Some(folder) = results_file.parent().filter(|folder| !folder.as_os_str().is_empty()) {
         std::fs::create_dir_all(folder).map_err(|source| ServiceError::OutputFolder {
-            folder: folder.clone(),
+            folder: folder.to_path_buf(),
             source,
         })?;
     }
-    let results_file = results_path_for(workbook, folder.as_deref());
+    workbook_io::write::check_replaceable(&results_file, workbook_io::write::ReplaceRule::OnlyOurs)?;
+    request.output.claim(workbook, &results_file)?;
     before_write(&results_file);
     write_results(&results, &results_file)?;
     Ok(WrittenResults { results, results_file })

@@ -13,6 +13,9 @@ pub struct ServeArgs {
     /// Serve one connection on a loopback TCP address (127.0.0.1:PORT) instead of stdio.
     #[arg(long, value_name = "ADDRESS")]
     pub listen: Option<String>,
+    /// Confine every request's paths, URIs and output folders to this folder; repeatable.
+    #[arg(long, value_name = "FOLDER")]
+    pub allow_root: Vec<std::path::PathBuf>,
 }
 
 /// `trialyst plan`.
@@ -51,6 +54,9 @@ pub struct PlanArgs {
     /// The plan workbook to write (default: trial-plan-<plan id>.xlsx here).
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Replace the plan workbook if it exists (without it an existing file is kept).
+    #[arg(long)]
+    pub force: bool,
     /// Print the plan summary as JSON.
     #[arg(long)]
     pub json: bool,
@@ -156,6 +162,9 @@ pub struct RunArgs {
     /// Write a roll-up workbook: one row per workbook and response, and a chart of the verdicts.
     #[arg(long, value_name = "FILE")]
     pub rollup: Option<PathBuf>,
+    /// A folder an `output folder` setting may point into besides each workbook's own folder; repeatable.
+    #[arg(long, value_name = "FOLDER")]
+    pub allow_output_root: Vec<PathBuf>,
     /// Analysis and table options.
     #[command(flatten)]
     pub analysis: AnalysisArgs,

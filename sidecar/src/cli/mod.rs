@@ -60,6 +60,9 @@ pub enum Command {
 
 /// Runs the command line; returns the process exit code.
 pub fn main_with(cli: Cli) -> i32 {
+    if !matches!(cli.command, Command::Serve(_) | Command::Watch(_)) {
+        quiet_on_closed_output();
+    }
     match cli.command {
         Command::Run(args) => run::run_command(args),
         Command::Inspect(args) => inspect::inspect_command(args),
@@ -68,5 +71,20 @@ pub fn main_with(cli: Cli) -> i32 {
         Command::Plan(args) => plan::plan_command(args),
         Command::Size(args) => size::size_command(args),
         Command::Serve(args) => serve::serve_command(&args),
+    }
+}
+
+/// A command whose output is cut short (`trialyst inspect | head -1`) ends
+/// quietly, as other command-line programs do, instead of panicking on the
+/// failed write: the default action of SIGPIPE is restored. Not for `serve`
+/// and `watch`, whose sockets and pipes report a closed peer as an error to
+/// handle.
+fn quiet_on_closed_output() {
+    #[cfg(unix)]
+    #[allow(unsafe_code)]
+    // SAFETY: setting the disposition of SIGPIPE to its default at start,
+    // before any thread is started, affects nothing else in the program.
+    unsafe {
+        libc::signal(libc::SIGPIPE, libc::SIG_DFL);
     }
 }

@@ -72,7 +72,12 @@ pub(crate) fn plan_command(args: PlanArgs) -> i32 {
         .out
         .clone()
         .unwrap_or_else(|| PathBuf::from(format!("trial-plan-{}.xlsx", plan.id)));
-    if let Err(error) = service::plan::write_plan(&plan, &destination) {
+    let replace = if args.force {
+        workbook_io::write::ReplaceRule::AnyWritable
+    } else {
+        workbook_io::write::ReplaceRule::Never
+    };
+    if let Err(error) = service::plan::write_plan_replacing(&plan, &destination, replace) {
         eprintln!("trialyst: {}", error_chain(&error));
         return EXIT_SOME_FAILED;
     }

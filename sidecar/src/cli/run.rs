@@ -80,6 +80,34 @@ struct BatchOptions<'a> {
     pub json: bool,
     /// The roll-up workbook to write.
     pub rollup: Option<&'a Path>,
+    /// Folders an `output folder` setting may point into besides the workbook's folder.
+    pub allowed_output_roots: Vec<PathBuf>,
+}
+
+/// Refuses a roll-up that would replace an input or a results workbook of
+/// this run, or a file we did not write.
+fn check_rollup(rollup: &Path, workbooks: &[PathBuf], planned_outputs: &[PathBuf]) -> Result<(), String> {
+    let target = service::paths::resolve_for_comparison(rollup);
+    if workbooks
+        .iter()
+        .any(|input| service::paths::resolve_for_comparison(input) == target)
+    {
+        return Err(format!(
+            "the roll-up '{}' is one of the workbooks to analyse; choose another file name",
+            rollup.display()
+        ));
+    }
+    if planned_outputs
+        .iter()
+        .any(|output| service::paths::resolve_for_comparison(output) == target)
+    {
+        return Err(format!(
+            "the roll-up '{}' would replace a results workbook of this run; choose another file name",
+            rollup.display()
+        ));
+    }
+    workbook_io::write::check_replaceable(rollup, workbook_io::write::ReplaceRule::OnlyOurs)
+        .map_err(|error| error.to_string())
 }
 
 /// Runs a batch over `paths`; returns the process exit code.
@@ -94,6 +122,19 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
             return EXIT_USAGE;
         }
     };
+    let names = service::output_names(&workbooks, options.out_dir.is_some());
+    if let Some(rollup) = options.rollup {
+        let planned: Vec<PathBuf> = workbooks
+            .iter()
+            .zip(&names)
+            .map(|(input, name)| service::results_path_named(input, options.out_dir, name))
+            .collect();
+        if let Err(message) = check_rollup(rollup, &workbooks, &planned) {
+            eprintln!("trialyst: {message}");
+            return EXIT_USAGE;
+        }
+    }
+    let claimed = std::sync::Arc::new(service::paths::ClaimedOutputs::default());
     let base = AnalysisRequest {
         settings: options.settings.clone(),
         ..AnalysisRequest::default()
@@ -105,8 +146,58 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
     let request_of = |index: usize| -> AnalysisRequest {
         AnalysisRequest {
             folder_settings: chosen[index].map(|which| folder_settings[which].clone()),
+            output: service::OutputRules {
+                name: names[index].clone(),
+                allowed_roots: options.allowed_output_roots.clone(),
+                claimed: Some(claimed.clone()),
+            },
             ..base.clone()
         }
+    };
+    let stdout = std::io::stdout();
+    let mut failed = problems.len();
+    for (path, message) in &problems {
+        if options.json {
+            let _ = writeln!(
+                stdout.lock(),
+                "{}",
+                json_line(path, &RunOutcome::Failed(message.clone()))
+            );
+        } else {
+            eprintln!("failed {}: {message}", path.display());
+        }
+    }
+    // Each workbook's line is printed as soon as it and every workbook
+    // before it have finished: the output keeps the input order, a long
+    // batch shows its progress in its output, and a batch cut short has
+    // printed what it did. Only lines that finished early wait, as text.
+    let ordered = std::sync::Mutex::new((0usize, std::collections::BTreeMap::<usize, (bool, String)>::new()));
+    let print_line = |index: usize, outcome: &RunOutcome| {
+        let path = &workbooks[index];
+        let line = if options.json {
+            (false, json_line(path, outcome))
+        } else {
+            (matches!(outcome, RunOutcome::Failed(_)), human_line(path, outcome))
+        };
+        let mut ordered = ordered.lock().unwrap_or_else(std::sync::PoisonError::into_inner);
+        ordered.1.insert(index, line);
+        loop {
+            let next = ordered.0;
+            let Some((to_stderr, text)) = ordered.1.remove(&next) else {
+                break;
+            };
+            progress.suspend(|| {
+                if to_stderr {
+                    eprintln!("{text}");
+                } else {
+                    let mut out = stdout.lock();
+                    let _ = writeln!(out, "{text}");
+                    let _ = out.flush();
+                }
+            });
+            ordered.0 += 1;
+        }
+        progress.inc(1);
     };
     let outcomes = service::batch::run_parallel_with(
         &workbooks,
@@ -114,32 +205,15 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
         options.out_dir,
         options.write,
         options.jobs,
-        &|| progress.inc(1),
+        &print_line,
     );
     progress.finish_and_clear();
-
-    let stdout = std::io::stdout();
     let mut out = stdout.lock();
-    let mut failed = problems.len();
-    for (path, message) in &problems {
-        if options.json {
-            let _ = writeln!(out, "{}", json_line(path, &RunOutcome::Failed(message.clone())));
-        } else {
-            eprintln!("failed {}: {message}", path.display());
-        }
-    }
     let mut analysed = 0;
-    for (path, outcome) in workbooks.iter().zip(&outcomes) {
+    for outcome in &outcomes {
         match outcome {
             RunOutcome::Analysed(..) => analysed += 1,
             RunOutcome::Failed(_) => failed += 1,
-        }
-        if options.json {
-            let _ = writeln!(out, "{}", json_line(path, outcome));
-        } else if matches!(outcome, RunOutcome::Failed(_)) {
-            eprintln!("{}", human_line(path, outcome));
-        } else {
-            let _ = writeln!(out, "{}", human_line(path, outcome));
         }
     }
     let _ = out.flush();
@@ -200,6 +274,7 @@ pub(crate) fn run_command(args: RunArgs) -> i32 {
         jobs,
         json: args.json,
         rollup: args.rollup.as_deref(),
+        allowed_output_roots: args.allow_output_root.clone(),
     };
     run_batch(&args.paths, args.recursive, &options)
 }

@@ -146,7 +146,11 @@ pub fn watch(options: WatchOptions) -> Result<(), WatchError> {
         stop,
         pending: BTreeMap::new(),
     };
-    watcher.state = watcher.store.load();
+    let (state, corrupt) = watcher.store.load_at_start();
+    watcher.state = state;
+    if let Some(reason) = corrupt {
+        watcher.log.event("state", "", &reason);
+    }
     let result = match options.poll {
         Some(interval) => watcher.run_polling(interval),
         None => watcher.run_listening(),
@@ -274,7 +278,22 @@ impl Watcher {
             .file_name()
             .map(|name| name.to_string_lossy().into_owned())
             .unwrap_or_default();
-        self.relative(path).is_some() && service::has_workbook_extension(&name) && !service::is_ignored_file_name(&name)
+        self.relative(path).is_some()
+            && service::has_workbook_extension(&name)
+            && !service::is_ignored_file_name(&name)
+            && self.resolves_inside(path)
+    }
+
+    /// True when `path`, with every link resolved, is still inside the
+    /// watched folder: a link to a file elsewhere is never read (what it
+    /// points to would otherwise be copied into the folder as results).
+    fn resolves_inside(&self, path: &Path) -> bool {
+        let folder = self.folder.canonicalize().unwrap_or_else(|_| self.folder.clone());
+        match path.canonicalize() {
+            Ok(real) => real.starts_with(folder),
+            // Gone already: nothing to read; the caller finds that out.
+            Err(_) => true,
+        }
     }
 
     fn is_folder_file(&self, path: &Path) -> bool {
@@ -613,7 +632,33 @@ impl Watcher {
             .flatten()
             .map(|(_, settings)| settings)
             .unwrap_or_default();
-        service::output_folder_for(path, self.out_dir.as_deref(), &self.settings.clone().over(&settings))
+        service::output_folder_for(
+            path,
+            self.out_dir.as_deref(),
+            &self.settings.clone().over(&settings),
+            std::slice::from_ref(&self.folder),
+        )
+        .ok()
+        .flatten()
+    }
+
+    /// Where a problems workbook for `path` may go: the worker's answer when
+    /// it lies inside the watched folder (or the output folder given on the
+    /// command line) and ends as a problems workbook, else beside the
+    /// workbook. The worker parses hostile files, so its answer is checked.
+    fn problems_destination(&self, path: &Path, proposed: &Path) -> PathBuf {
+        let mut roots = vec![self.folder.clone()];
+        roots.extend(self.out_dir.clone());
+        let named_as_ours = proposed.file_name().is_some_and(|name| {
+            name.to_string_lossy()
+                .to_lowercase()
+                .ends_with(service::PROBLEMS_SUFFIX)
+        });
+        if named_as_ours && service::inside_any(proposed, &roots) {
+            proposed.to_path_buf()
+        } else {
+            service::problems_path_named(path, None, &service::output_name_among_siblings(path))
+        }
     }
 
     fn process(&mut self, path: &Path, attempts: u32) {
@@ -673,6 +718,7 @@ impl Watcher {
             out_dir: self.out_dir.clone(),
             folder_settings,
             settings: self.settings.clone(),
+            allowed_output_roots: vec![self.folder.clone()],
         });
         let outcome = run_worker(&self.program, &args, self.limits, &self.stop);
         let folder = self.folder.clone();
@@ -696,8 +742,12 @@ impl Watcher {
                 findings,
             }) => {
                 let results_file = PathBuf::from(results_file);
-                let stale = service::problems_path_for(path, results_file.parent());
-                let _ = std::fs::remove_file(stale);
+                let stale = service::problems_path_named(
+                    path,
+                    results_file.parent(),
+                    &service::output_name_among_siblings(path),
+                );
+                workbook_io::write::remove_if_ours(&stale);
                 self.remember(&relative, record("analysed", &results_file));
                 self.log.event(
                     "analysed",
@@ -735,7 +785,8 @@ impl Watcher {
                     );
                     return;
                 }
-                self.write_problems(path, &relative, &report, Path::new(&problems_file), record);
+                let destination = self.problems_destination(path, Path::new(&problems_file));
+                self.write_problems(path, &relative, &report, &destination, record);
             }
             WorkerOutcome::Answered(WorkerMessage::Writing { .. }) => {}
             WorkerOutcome::Crashed(detail) => {
@@ -743,7 +794,11 @@ impl Watcher {
                     "the workbook could not be read safely: {detail}; the reader runs with {} MiB of memory",
                     self.limits.memory_bytes / (1024 * 1024)
                 ));
-                let destination = service::problems_path_for(path, self.output_folder(path).as_deref());
+                let destination = service::problems_path_named(
+                    path,
+                    self.output_folder(path).as_deref(),
+                    &service::output_name_among_siblings(path),
+                );
                 self.write_problems(path, &relative, &report, &destination, record);
             }
             WorkerOutcome::TimedOut => {
@@ -751,7 +806,11 @@ impl Watcher {
                     "the workbook could not be read within the time limit of {} s",
                     self.limits.time.as_secs_f64()
                 ));
-                let destination = service::problems_path_for(path, self.output_folder(path).as_deref());
+                let destination = service::problems_path_named(
+                    path,
+                    self.output_folder(path).as_deref(),
+                    &service::output_name_among_siblings(path),
+                );
                 self.write_problems(path, &relative, &report, &destination, record);
             }
             WorkerOutcome::Stopped => {
@@ -823,8 +882,8 @@ impl Watcher {
             service::report::problems::build_problems_book(&file_name, &service::now_rfc3339(), &report.problems);
         let written = workbook_io::write::write_book(&book, destination);
         // Results of earlier content would now be misleading.
-        let stale = service::results_path_for(path, destination.parent());
-        let _ = std::fs::remove_file(stale);
+        let stale = service::results_path_named(path, destination.parent(), &service::output_name_among_siblings(path));
+        workbook_io::write::remove_if_ours(&stale);
         self.remember(relative, record("problem", destination));
         match written {
             Ok(()) => self.log.event(

@@ -32,11 +32,11 @@ impl Log {
         let mut line = format!("{stamp} {event}");
         if !subject.is_empty() {
             line.push(' ');
-            line.push_str(subject);
+            line.push_str(&escape_controls(subject));
         }
         if !detail.is_empty() {
             line.push_str(": ");
-            line.push_str(&detail.replace(['\n', '\r'], " "));
+            line.push_str(&escape_controls(detail));
         }
         line.push('\n');
         let _ = std::io::stderr().lock().write_all(line.as_bytes());
@@ -47,6 +47,21 @@ impl Log {
             }
         }
     }
+}
+
+/// Text made safe for one log line on a terminal: every control character
+/// (a newline in a file name that would forge a second line, an escape code
+/// that would drive the terminal) is written as `\u{..}`.
+pub fn escape_controls(text: &str) -> String {
+    let mut escaped = String::with_capacity(text.len());
+    for character in text.chars() {
+        if character.is_control() || matches!(character, '\u{2028}' | '\u{2029}') {
+            escaped.push_str(&format!("\\u{{{:x}}}", u32::from(character)));
+        } else {
+            escaped.push(character);
+        }
+    }
+    escaped
 }
 
 fn timestamp() -> String {
@@ -61,4 +76,20 @@ fn timestamp() -> String {
         now.second(),
         now.millisecond()
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::escape_controls;
+
+    #[test]
+    fn control_characters_cannot_forge_a_line_or_reach_the_terminal() {
+        assert_eq!(escape_controls("week 1.xlsx"), "week 1.xlsx");
+        assert_eq!(
+            escape_controls("a.xlsx\n2026-01-01T00:00:00.000Z analysed b.xlsx"),
+            "a.xlsx\\u{a}2026-01-01T00:00:00.000Z analysed b.xlsx"
+        );
+        assert_eq!(escape_controls("\u{1b}[31mred"), "\\u{1b}[31mred");
+        assert_eq!(escape_controls("line\r"), "line\\u{d}");
+    }
 }

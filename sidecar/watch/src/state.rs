@@ -83,6 +83,38 @@ impl StateStore {
         &self.folder
     }
 
+    /// Reads the state at start: a missing file reads as empty; a file that
+    /// cannot be read as state is moved aside to `state.json.corrupt` and
+    /// the state is rebuilt from the folder, with the reason returned so the
+    /// watcher logs it.
+    pub fn load_at_start(&self) -> (State, Option<String>) {
+        let path = self.folder.join(STATE_FILE);
+        let bytes = match std::fs::read(&path) {
+            Ok(bytes) => bytes,
+            Err(error) if error.kind() == std::io::ErrorKind::NotFound => return (State::default(), None),
+            Err(error) => {
+                return (
+                    State::default(),
+                    Some(format!("the state file cannot be read ({error})")),
+                )
+            }
+        };
+        match serde_json::from_slice::<State>(&bytes) {
+            Ok(state) => (state, None),
+            Err(error) => {
+                let aside = self.folder.join(format!("{STATE_FILE}.corrupt"));
+                let _ = std::fs::rename(&path, &aside);
+                (
+                    State::default(),
+                    Some(format!(
+                        "the state file was not valid ({error}); it was moved to {} and the state is rebuilt from the folder",
+                        aside.display()
+                    )),
+                )
+            }
+        }
+    }
+
     /// Reads the state; a missing or unreadable file reads as empty.
     pub fn load(&self) -> State {
         std::fs::read(self.folder.join(STATE_FILE))
@@ -103,8 +135,10 @@ impl StateStore {
                         .ok()
                         .and_then(|modified| modified.elapsed().ok())
                         .is_some_and(|age| age > LOCK_STALE);
-                    if stale {
-                        let _ = std::fs::remove_file(&path);
+                    // A stale lock that cannot be removed (a read-only
+                    // folder) falls through to the wait below instead of
+                    // spinning.
+                    if stale && std::fs::remove_file(&path).is_ok() {
                         continue;
                     }
                     if std::time::Instant::now() > deadline {
@@ -156,5 +190,18 @@ mod tests {
         let other = StateStore::open(folder.path()).expect("the same folder");
         assert_eq!(other.load().files.get("sub/x.xlsx"), Some(&entry));
         assert!(!folder.path().join(STATE_FOLDER).join(LOCK_FILE).exists());
+    }
+
+    #[test]
+    fn a_corrupt_state_is_moved_aside_and_said() {
+        let folder = tempfile::tempdir().expect("a temporary folder");
+        let store = StateStore::open(folder.path()).expect("a state folder");
+        assert_eq!(store.load_at_start().1, None);
+        std::fs::write(store.folder().join(STATE_FILE), b"{not json").expect("written");
+        let (state, said) = store.load_at_start();
+        assert!(state.files.is_empty());
+        assert!(said.is_some_and(|text| text.contains("not valid")));
+        assert!(store.folder().join(format!("{STATE_FILE}.corrupt")).is_file());
+        assert!(!store.folder().join(STATE_FILE).exists());
     }
 }

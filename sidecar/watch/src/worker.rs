@@ -72,6 +72,10 @@ pub struct WorkerRequest {
     pub folder_settings: Option<PathBuf>,
     /// The settings given on the watcher's command line.
     pub settings: Settings,
+    /// Folders beyond the workbook's own that an `output folder` setting may
+    /// point into (the watched folder).
+    #[serde(default)]
+    pub allowed_output_roots: Vec<PathBuf>,
 }
 
 /// The hidden worker command's name.
@@ -104,13 +108,16 @@ pub fn analyse_one(request: &str) {
         let block = vec![1u8; mib << 20];
         std::hint::black_box(&block);
     }
+    let output_name = service::output_name_among_siblings(&args.file);
     // A failure's problems workbook goes where the settings known so far
     // (without the workbook's own) put the results.
     let fail = |error: &service::ServiceError, known: &Settings| {
-        let folder = service::output_folder_for(&args.file, args.out_dir.as_deref(), known);
+        let folder = service::output_folder_for(&args.file, args.out_dir.as_deref(), known, &args.allowed_output_roots)
+            .ok()
+            .flatten();
         emit(&WorkerMessage::Failed {
             report: service::describe_failure(error),
-            problems_file: service::problems_path_for(&args.file, folder.as_deref())
+            problems_file: service::problems_path_named(&args.file, folder.as_deref(), &output_name)
                 .display()
                 .to_string(),
         });
@@ -127,6 +134,11 @@ pub fn analyse_one(request: &str) {
     let request = AnalysisRequest {
         settings,
         folder_settings,
+        output: service::OutputRules {
+            name: output_name.clone(),
+            allowed_roots: args.allowed_output_roots.clone(),
+            claimed: None,
+        },
         ..AnalysisRequest::default()
     };
     let announce = &mut |destination: &Path| {

@@ -34,7 +34,10 @@ pub(crate) fn inspect(path: &Path, limits: &ReadLimits) -> Result<Container, Rea
     if !metadata.is_file() {
         return Err(ReadError::NotAWorkbook {
             path: path.to_path_buf(),
-            detail: "it is not a regular file".into(),
+            detail: format!(
+                "it is not a regular file ({})",
+                super::describe_file_type(metadata.file_type())
+            ),
         });
     }
     if metadata.len() > limits.max_file_bytes {
@@ -45,7 +48,7 @@ pub(crate) fn inspect(path: &Path, limits: &ReadLimits) -> Result<Container, Rea
         });
     }
     let mut head = [0u8; 8];
-    let mut file = File::open(path).map_err(io_error)?;
+    let mut file = super::open_regular_file(path).map_err(io_error)?;
     let read = read_up_to(&mut file, &mut head).map_err(io_error)?;
     let head = &head[..read];
     if head.starts_with(b"PK\x03\x04") || head.starts_with(b"PK\x05\x06") {
@@ -80,10 +83,13 @@ fn read_up_to(file: &mut File, buffer: &mut [u8]) -> std::io::Result<usize> {
 /// A compound-document file is an xls workbook, or an encrypted
 /// (password-protected) xlsx, which is stored as a compound document too.
 fn inspect_compound(path: &Path, limits: &ReadLimits) -> Result<Container, ReadError> {
-    let bytes = std::fs::read(path).map_err(|source| ReadError::Io {
-        path: path.to_path_buf(),
-        source,
-    })?;
+    let mut bytes = Vec::new();
+    super::open_regular_file(path)
+        .and_then(|file| file.take(limits.max_file_bytes).read_to_end(&mut bytes))
+        .map_err(|source| ReadError::Io {
+            path: path.to_path_buf(),
+            source,
+        })?;
     // Directory entry names are UTF-16; "EncryptedPackage" marks an encrypted
     // OOXML package (MS-OFFCRYPTO).
     let marker: Vec<u8> = "EncryptedPackage"
@@ -274,7 +280,7 @@ fn bound_sheet_name(body: &[u8], index: usize) -> String {
 }
 
 fn inspect_zip(path: &Path, limits: &ReadLimits) -> Result<Container, ReadError> {
-    let file = File::open(path).map_err(|source| ReadError::Io {
+    let file = super::open_regular_file(path).map_err(|source| ReadError::Io {
         path: path.to_path_buf(),
         source,
     })?;

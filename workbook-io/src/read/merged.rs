@@ -166,7 +166,7 @@ pub(crate) fn xlsx_merged_areas(path: &std::path::Path, sheet: &str) -> Option<(
     if sheet.contains(['&', '<', '>', '"', '\'']) {
         return None;
     }
-    let file = std::fs::File::open(path).ok()?;
+    let file = super::open_regular_file(path).ok()?;
     let mut archive = zip::ZipArchive::new(BufReader::new(file)).ok()?;
     let part = sheet_part_path(&mut archive, sheet)?;
     let entry = archive.by_name(&part).ok()?;

@@ -399,6 +399,57 @@ fn panic_text(payload: Box<dyn std::any::Any + Send>) -> String {
     format!("the parser stopped on data it could not make sense of ({detail})")
 }
 
+/// Opens `path` for reading only if it is a regular file (after following
+/// links). A FIFO, device or socket is refused before a byte is read: on
+/// Unix the file is opened with `O_NONBLOCK`, so opening a FIFO that no one
+/// writes to does not wait, and the opened handle is checked with `fstat`
+/// (the check and the read use the same file, so a swap in between does
+/// not help).
+///
+/// # Errors
+///
+/// The operating system's error, or `InvalidInput` naming what the file is.
+pub fn open_regular_file(path: &Path) -> std::io::Result<File> {
+    let mut options = std::fs::OpenOptions::new();
+    options.read(true);
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::OpenOptionsExt;
+        options.custom_flags(libc::O_NONBLOCK);
+    }
+    let file = options.open(path)?;
+    let file_type = file.metadata()?.file_type();
+    if !file_type.is_file() {
+        return Err(std::io::Error::new(
+            std::io::ErrorKind::InvalidInput,
+            format!("it is not a regular file ({})", describe_file_type(file_type)),
+        ));
+    }
+    Ok(file)
+}
+
+/// Plain words for a file type that is not a regular file.
+pub(crate) fn describe_file_type(file_type: std::fs::FileType) -> &'static str {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::FileTypeExt;
+        if file_type.is_fifo() {
+            return "a named pipe";
+        }
+        if file_type.is_socket() {
+            return "a socket";
+        }
+        if file_type.is_char_device() || file_type.is_block_device() {
+            return "a device";
+        }
+    }
+    if file_type.is_dir() {
+        "a folder"
+    } else {
+        "not a plain file"
+    }
+}
+
 /// Opens a workbook for reading, after checking its container.
 ///
 /// The file is opened read-only and closed when the [`Workbook`] is dropped;
@@ -410,7 +461,7 @@ fn panic_text(payload: Box<dyn std::any::Any + Send>) -> String {
 /// container bomb, or damaged.
 pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadError> {
     let container = guard::inspect(path, limits)?;
-    let file = File::open(path).map_err(|source| ReadError::Io {
+    let file = open_regular_file(path).map_err(|source| ReadError::Io {
         path: path.to_path_buf(),
         source,
     })?;
@@ -463,7 +514,7 @@ pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadE
 }
 
 fn inner_vba_probe(path: &Path) -> Option<bool> {
-    let file = File::open(path).ok()?;
+    let file = open_regular_file(path).ok()?;
     let archive = zip::ZipArchive::new(BufReader::new(file)).ok()?;
     let has_macros = archive
         .file_names()
@@ -696,7 +747,7 @@ fn table_reference(path: &Path, xlsx: &mut Xlsx<BufReader<File>>, wanted: &str) 
             .any(|name| name.eq_ignore_ascii_case(wanted))
     })?;
     // The table's reference is read from its own part, without loading the sheet.
-    let file = File::open(path).ok()?;
+    let file = open_regular_file(path).ok()?;
     let mut archive = zip::ZipArchive::new(BufReader::new(file)).ok()?;
     let names: Vec<String> = archive
         .file_names()

@@ -19,7 +19,6 @@
 //!
 //! Tests in `read/mod.rs` compare the grids of both paths.
 
-use std::fs::File;
 use std::io::{BufReader, Read, Seek};
 use std::path::Path;
 
@@ -800,7 +799,7 @@ pub(crate) fn read_sheet(
     if sheet.contains(['&', '<', '>', '"', '\'']) {
         return Err(Stop::Decline);
     }
-    let file = File::open(path).map_err(|_| Stop::Decline)?;
+    let file = super::open_regular_file(path).map_err(|_| Stop::Decline)?;
     let mut archive = zip::ZipArchive::new(BufReader::new(file)).map_err(|_| Stop::Decline)?;
     if archive.index_for_name("xl/workbook.xml").is_none() {
         return Err(Stop::Decline);
@@ -1215,8 +1214,15 @@ fn plain_value(bytes: &[u8], kind: Kind, date_style: bool, parts: &WorkbookParts
             _ => Err(Stop::Decline),
         },
         Kind::Error => {
-            let error: calamine::CellErrorType = bytes_str(bytes)?.parse().map_err(|_| Stop::Decline)?;
-            Ok(Value::Error(error.to_string()))
+            let text = bytes_str(bytes)?.trim();
+            match text.parse::<calamine::CellErrorType>() {
+                Ok(error) => Ok(Value::Error(error.to_string())),
+                // Newer error values (#SPILL!, #CALC!, #FIELD!, #BLOCKED!,
+                // #UNKNOWN!, #GETTING_DATA, ...) that calamine does not know
+                // are error cells at their address all the same.
+                Err(_) if is_error_value_text(text) => Ok(Value::Error(text.to_string())),
+                Err(_) => Err(Stop::Decline),
+            }
         }
         _ => {
             if bytes.is_empty() {
@@ -1230,6 +1236,18 @@ fn plain_value(bytes: &[u8], kind: Kind, date_style: bool, parts: &WorkbookParts
             }
         }
     }
+}
+
+/// True for text shaped like a spreadsheet error value: `#`, then up to 30
+/// letters, digits, `_`, `/`, `!` or `?` (`#SPILL!`, `#GETTING_DATA`).
+pub(crate) fn is_error_value_text(text: &str) -> bool {
+    text.strip_prefix('#').is_some_and(|rest| {
+        !rest.is_empty()
+            && rest.len() <= 30
+            && rest
+                .chars()
+                .all(|character| character.is_ascii_alphanumeric() || matches!(character, '_' | '/' | '!' | '?'))
+    })
 }
 
 #[cfg(test)]

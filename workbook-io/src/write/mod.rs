@@ -286,6 +286,94 @@ pub struct WriteOptions {
     /// A fixed creation date written into the document properties instead of
     /// the current time, so that the same book gives the same bytes.
     pub created: Option<CreationDate>,
+    /// Which existing file at the destination may be replaced.
+    pub replace: ReplaceRule,
+}
+
+/// Which existing file at a destination a write may replace.
+///
+/// Rule (see DEVELOPERS.md, "Nothing lost"): a write never replaces a file we
+/// did not write. Every workbook we write carries the custom document
+/// property [`PROVENANCE_PROPERTY`]; a destination that exists and lacks it,
+/// is read-only, or is not a regular file is refused with
+/// [`WriteError::WouldReplace`].
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub enum ReplaceRule {
+    /// Replace only a writable regular file that carries our provenance (the default).
+    #[default]
+    OnlyOurs,
+    /// Never replace an existing file (`plan` without `--force`).
+    Never,
+    /// Replace a writable regular file whatever wrote it (`plan --force`).
+    AnyWritable,
+}
+
+/// The name of the custom document property every workbook we write carries.
+pub const PROVENANCE_PROPERTY: &str = "trialyst";
+
+/// The value of [`PROVENANCE_PROPERTY`].
+pub const PROVENANCE_VALUE: &str = "written by trialyst";
+
+/// True when the xlsx file at `path` carries our provenance property. Reads
+/// at most the first 64 KiB of its `docProps/custom.xml` part; any problem
+/// opening it means "no".
+pub fn has_our_provenance(path: &Path) -> bool {
+    use std::io::Read;
+    let Ok(file) = crate::read::open_regular_file(path) else {
+        return false;
+    };
+    let Ok(mut archive) = zip::ZipArchive::new(std::io::BufReader::new(file)) else {
+        return false;
+    };
+    let Ok(part) = archive.by_name("docProps/custom.xml") else {
+        return false;
+    };
+    let mut text = String::new();
+    if part.take(64 * 1024).read_to_string(&mut text).is_err() {
+        return false;
+    }
+    text.contains(&format!("name=\"{PROVENANCE_PROPERTY}\"")) && text.contains(PROVENANCE_VALUE)
+}
+
+/// Removes `path` when it is a writable regular file we wrote (a stale
+/// output); anything else is left alone. Returns true when it was removed.
+pub fn remove_if_ours(path: &Path) -> bool {
+    check_replaceable(path, ReplaceRule::OnlyOurs).is_ok() && path.is_file() && std::fs::remove_file(path).is_ok()
+}
+
+/// Checks that a write to `destination` may go ahead under `rule`.
+///
+/// # Errors
+///
+/// [`WriteError::WouldReplace`] naming the file and why.
+pub fn check_replaceable(destination: &Path, rule: ReplaceRule) -> Result<(), WriteError> {
+    let refuse = |reason: &str| WriteError::WouldReplace {
+        path: destination.to_path_buf(),
+        reason: reason.to_string(),
+    };
+    let metadata = match std::fs::symlink_metadata(destination) {
+        Ok(metadata) => metadata,
+        Err(error) if error.kind() == std::io::ErrorKind::NotFound => return Ok(()),
+        Err(error) => {
+            return Err(WriteError::Io {
+                path: destination.to_path_buf(),
+                source: error,
+            })
+        }
+    };
+    if !metadata.file_type().is_file() {
+        return Err(refuse("it is not a regular file (a folder, link or device)"));
+    }
+    if rule == ReplaceRule::Never {
+        return Err(refuse("it already exists (use --force to replace it)"));
+    }
+    if metadata.permissions().readonly() {
+        return Err(refuse("it is read-only"));
+    }
+    if rule == ReplaceRule::OnlyOurs && !has_our_provenance(destination) {
+        return Err(refuse("it was not written by trialyst"));
+    }
+    Ok(())
 }
 
 impl Sheet {
@@ -405,6 +493,14 @@ pub enum WriteError {
         #[source]
         source: std::io::Error,
     },
+    /// The destination holds a file this write must not replace.
+    #[error("refusing to replace '{}': {reason}", path.display())]
+    WouldReplace {
+        /// The destination.
+        path: PathBuf,
+        /// Why it is kept.
+        reason: String,
+    },
 }
 
 struct Looks {
@@ -483,10 +579,12 @@ fn clip_text(text: &str) -> &str {
 fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError> {
     let looks = Looks::new();
     let mut workbook = XlsxWorkbook::new();
+    let mut properties = DocProperties::new().set_custom_property(PROVENANCE_PROPERTY, PROVENANCE_VALUE);
     if let Some(date) = options.created {
         let created = ExcelDateTime::from_ymd(date.year, date.month, date.day)?;
-        workbook.set_properties(&DocProperties::new().set_creation_datetime(&created));
+        properties = properties.set_creation_datetime(&created);
     }
+    workbook.set_properties(&properties);
     let mut number_formats: std::collections::HashMap<(NumberFormat, Look, bool), Format> =
         std::collections::HashMap::new();
     for sheet in &book.sheets {
@@ -707,7 +805,8 @@ pub fn to_bytes_with(book: &Book, options: &WriteOptions, destination: &Path) ->
 ///
 /// # Errors
 ///
-/// [`WriteError::Build`] or [`WriteError::Io`].
+/// [`WriteError::Build`] or [`WriteError::Io`]; [`WriteError::WouldReplace`]
+/// when the destination holds a file we did not write ([`ReplaceRule::OnlyOurs`]).
 pub fn write_book(book: &Book, destination: &Path) -> Result<(), WriteError> {
     write_book_with(book, &WriteOptions::default(), destination)
 }
@@ -718,6 +817,7 @@ pub fn write_book(book: &Book, destination: &Path) -> Result<(), WriteError> {
 ///
 /// [`WriteError::Build`] or [`WriteError::Io`].
 pub fn write_book_with(book: &Book, options: &WriteOptions, destination: &Path) -> Result<(), WriteError> {
+    check_replaceable(destination, options.replace)?;
     let bytes = to_bytes_with(book, options, destination)?;
     write_atomically(&bytes, destination)
 }
@@ -779,6 +879,38 @@ mod tests {
     }
 
     #[test]
+    fn only_our_own_writable_files_are_replaced() {
+        let folder = tempfile::tempdir().expect("a temporary folder");
+        let ours = folder.path().join("ours.xlsx");
+        let book = Book {
+            sheets: vec![Sheet::new("One")],
+        };
+        write_book(&book, &ours).expect("written");
+        assert!(has_our_provenance(&ours));
+        // Ours is replaced; a second write succeeds.
+        write_book(&book, &ours).expect("replaced");
+        // A file of someone else's is kept, whatever it holds.
+        let theirs = folder.path().join("theirs.xlsx");
+        std::fs::write(&theirs, b"their own notes").expect("written");
+        let refused = write_book(&book, &theirs).expect_err("kept");
+        assert!(refused.to_string().contains("not written by trialyst"), "{refused}");
+        assert_eq!(std::fs::read(&theirs).expect("there"), b"their own notes");
+        // Never: even ours is kept; any writable: theirs is replaced.
+        assert!(check_replaceable(&ours, ReplaceRule::Never).is_err());
+        assert!(check_replaceable(&theirs, ReplaceRule::AnyWritable).is_ok());
+        // Read-only: kept under every rule but an explicit one.
+        let mut permissions = std::fs::metadata(&ours).expect("there").permissions();
+        permissions.set_readonly(true);
+        std::fs::set_permissions(&ours, permissions).expect("made read-only");
+        let refused = write_book(&book, &ours).expect_err("kept");
+        assert!(refused.to_string().contains("read-only"), "{refused}");
+        // A folder in the way is not a file to replace.
+        let refused = write_book(&book, folder.path()).expect_err("kept");
+        assert!(refused.to_string().contains("not a regular file"), "{refused}");
+        assert!(!remove_if_ours(&theirs) && theirs.exists());
+    }
+
+    #[test]
     fn fixed_date_gives_the_same_bytes_and_number_only_is_written() {
         let options = WriteOptions {
             created: Some(CreationDate {
@@ -786,6 +918,7 @@ mod tests {
                 month: 3,
                 day: 9,
             }),
+            ..WriteOptions::default()
         };
         let destination = Path::new("plan.xlsx");
         let first = to_bytes_with(&sample_book(), &options, destination).expect("built");

@@ -68,11 +68,17 @@ pub enum ContrastError {
     },
 }
 
+/// The deepest nesting of parentheses read; deeper text is refused with a
+/// message instead of exhausting the stack (the parser recurses once per level).
+pub const MAX_NESTING: usize = 64;
+
 struct Parser<'a> {
     text: &'a str,
     chars: Vec<char>,
     position: usize,
     conditions: &'a [String],
+    /// Parentheses open at the current position.
+    depth: usize,
 }
 
 impl<'a> Parser<'a> {
@@ -225,7 +231,14 @@ impl<'a> Parser<'a> {
         let mut vector = match self.peek() {
             Some('(') => {
                 self.position += 1;
+                self.depth += 1;
+                if self.depth > MAX_NESTING {
+                    return Err(self.error(format!(
+                        "parentheses are nested more than {MAX_NESTING} deep; write the combination more simply"
+                    )));
+                }
                 let inner = self.expression()?;
+                self.depth -= 1;
                 if self.peek() != Some(')') {
                     return Err(self.error("expected ')'"));
                 }
@@ -293,6 +306,7 @@ pub fn parse_contrast(text: &str, conditions: &[String]) -> Result<Contrast, Con
         chars: expression.chars().collect(),
         position: 0,
         conditions,
+        depth: 0,
     };
     if parser.peek().is_none() {
         return Err(parser.error("the expression is empty"));
@@ -405,5 +419,18 @@ mod tests {
             parse_contrast("", &conditions),
             Err(ContrastError::Syntax { .. })
         ));
+    }
+
+    #[test]
+    fn deep_nesting_is_refused_with_a_message_not_a_stack_overflow() {
+        let conditions = names(&["A", "B"]);
+        // 64 levels are read; 5,000 (a hostile settings cell) are refused.
+        let fine = format!("{}A - B{}", "(".repeat(MAX_NESTING), ")".repeat(MAX_NESTING));
+        assert!(parse_contrast(&fine, &conditions).is_ok());
+        let hostile = format!("{}A - B{}", "(".repeat(5_000), ")".repeat(5_000));
+        let Err(error) = parse_contrast(&hostile, &conditions) else {
+            panic!("5,000 levels must be refused");
+        };
+        assert!(error.to_string().contains("nested more than 64 deep"), "{error}");
     }
 }

@@ -50,6 +50,7 @@ pub fn write_options(plan: &Plan) -> WriteOptions {
             Some((year, month, day)) => CreationDate { year, month, day },
             None => UNDATED,
         }),
+        replace: workbook_io::write::ReplaceRule::Never,
     }
 }
 

@@ -84,6 +84,22 @@ pub fn plan_bytes(plan: &Plan, destination: &Path) -> Result<Vec<u8>, workbook_i
 ///
 /// [`workbook_io::write::WriteError`].
 pub fn write_plan(plan: &Plan, destination: &Path) -> Result<(), workbook_io::write::WriteError> {
+    write_plan_replacing(plan, destination, workbook_io::write::ReplaceRule::Never)
+}
+
+/// Writes the plan workbook atomically; `replace` says which existing file
+/// may be replaced (`plan --force`: any writable file; else none).
+///
+/// # Errors
+///
+/// [`workbook_io::write::WriteError`]; `WouldReplace` when the destination
+/// exists and `replace` keeps it.
+pub fn write_plan_replacing(
+    plan: &Plan,
+    destination: &Path,
+    replace: workbook_io::write::ReplaceRule,
+) -> Result<(), workbook_io::write::WriteError> {
+    workbook_io::write::check_replaceable(destination, replace)?;
     let bytes = plan_bytes(plan, destination)?;
     workbook_io::write::write_atomically(&bytes, destination)
 }
