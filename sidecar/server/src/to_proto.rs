@@ -3,8 +3,10 @@
 //! Result tables: the report model ([`service::report::build_results_book`])
 //! is the one place that decides what the results tables hold; here each of
 //! its sheets is laid out as a 2-D array of values with a matching 2-D array
-//! of number formats, ready for an add-in to paste into a new sheet. Charts
-//! are left to the add-in.
+//! of number formats, ready for an add-in to paste into a new sheet. Each
+//! chart of the sheet is described as data: its kind, titles, place and
+//! the cell ranges of its series, for the add-in to draw with its own
+//! chart objects.
 //!
 //! Diagnostics: each data finding becomes a diagnostic at its cell (row and
 //! column as the position), with the sheet and A1 address in its message and
@@ -13,8 +15,9 @@
 use serde_json::{json, Value as Json};
 use tower_lsp_server::ls_types::{Diagnostic, DiagnosticSeverity, NumberOrString, Position, Range};
 use workbook_io::cell::{parse_a1, parse_a1_range};
+use workbook_io::cell::{CellPos, CellRect};
 use workbook_io::layout::{Finding, FindingKind};
-use workbook_io::write::{Book, Look, NumberFormat, Sheet, Value};
+use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Sheet, SheetRange, Value};
 
 /// The name under which diagnostics are published.
 pub const DIAGNOSTIC_SOURCE: &str = "trialyst";
@@ -58,6 +61,44 @@ pub fn sheet_table(sheet: &Sheet) -> Json {
         "headerRows": header_rows,
         "columnWidths": sheet.widths.iter().map(|(col, width)| json!([col, width])).collect::<Vec<_>>(),
         "frozenRows": sheet.frozen_rows,
+        "charts": sheet.charts.iter().map(chart_description).collect::<Vec<_>>(),
+    })
+}
+
+/// A range of a chart's data as its sheet and A1 address.
+fn range_description(range: &SheetRange) -> Json {
+    let rect = CellRect {
+        first: CellPos::new(range.first_row, u32::from(range.first_col)),
+        last: CellPos::new(range.last_row, u32::from(range.last_col)),
+    };
+    json!({ "sheet": range.sheet, "range": rect.a1() })
+}
+
+/// One chart as data: kind (`points`, `lines`, `scatter`, `columns`),
+/// titles, the top-left cell it sits at, its size in pixels and its series.
+pub fn chart_description(chart: &ChartSpec) -> Json {
+    let kind = match chart.kind {
+        ChartKind::Points => "points",
+        ChartKind::Lines => "lines",
+        ChartKind::Scatter => "scatter",
+        ChartKind::Columns => "columns",
+    };
+    let anchor = CellPos::new(chart.anchor.0, u32::from(chart.anchor.1));
+    json!({
+        "kind": kind,
+        "title": chart.title,
+        "xTitle": chart.x_title,
+        "yTitle": chart.y_title,
+        "anchor": anchor.a1(),
+        "size": [chart.size.0, chart.size.1],
+        "series": chart.series.iter().map(|series| json!({
+            "name": series.name,
+            "categories": range_description(&series.categories),
+            "values": range_description(&series.values),
+            "barPlus": series.bar_plus.as_ref().map(range_description),
+            "barMinus": series.bar_minus.as_ref().map(range_description),
+            "labels": series.labels.as_ref().map(range_description),
+        })).collect::<Vec<_>>(),
     })
 }
 
