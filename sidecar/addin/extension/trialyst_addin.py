@@ -378,13 +378,14 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         size = sum(len(row) for row in cells)
         answer = self.run_request(sidecar, method, params, "%s %d values" % ("inspecting" if findings_only else "analysing", size))
         findings = answer["findings"] if findings_only else answer["results"].get("findings", [])
+        kind = "inspect" if findings_only else "analyse"
+        # A rerun replaces the sheets and marks of the former run.
+        document.getCurrentController().setActiveSheet(sheet)
+        trialyst_sheets.remove_own_sheets(document, "inspect")
+        trialyst_sheets.remove_own_sheets(document, "analyse")
+        trialyst_sheets.clear_all_marks(document)
         document.lockControllers()
         try:
-            kind = "inspect" if findings_only else "analyse"
-            # A rerun replaces the sheets and marks of the former run.
-            trialyst_sheets.remove_own_sheets(document, "inspect")
-            trialyst_sheets.remove_own_sheets(document, "analyse")
-            trialyst_sheets.clear_all_marks(document)
             controller = document.getCurrentController()
             names = []
             cache = {}
@@ -397,7 +398,17 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         finally:
             document.unlockControllers()
         self.status_text("trialyst: %d sheets written, %d data problems marked" % (len(names), comments))
-        return {"sheets": names, "findings": len(findings), "comments": comments, "sidecarPid": sidecar.pid}
+        for problem in trialyst_sheets.CHART_PROBLEMS:
+            self.log("chart not drawn: " + problem)
+        charts_missed = len(trialyst_sheets.CHART_PROBLEMS)
+        del trialyst_sheets.CHART_PROBLEMS[:]
+        return {
+            "sheets": names,
+            "findings": len(findings),
+            "comments": comments,
+            "chartsNotDrawn": charts_missed,
+            "sidecarPid": sidecar.pid,
+        }
 
     def inspect(self, arguments):
         return self.analyse(arguments, findings_only=True)

@@ -27,6 +27,8 @@ PROBLEMS_SHEET = "Data problems"
 #: Width of one character, in 1/100 mm (Liberation Sans 10 pt).
 CHARACTER_WIDTH = 205
 BOLD = 150.0
+#: Charts that could not be drawn in the last run, for the log.
+CHART_PROBLEMS = []
 #: A result sheet's name may not exceed this (the xlsx limit).
 MAX_SHEET_NAME = 31
 
@@ -60,6 +62,9 @@ def remove_own_sheets(document, prefix=""):
     for entry in own_sheets(document):
         kind, _, name = entry.partition("\t")
         if kind == prefix and sheets.hasByName(name):
+            charts = sheets.getByName(name).getCharts()
+            for chart_name in charts.getElementNames():
+                charts.removeByName(chart_name)
             sheets.removeByName(name)
         elif kind != prefix:
             kept.append(entry)
@@ -119,7 +124,7 @@ def write_table(document, controller, table, kind, format_cache):
         run_start = 0
         run_code = None
         for row in range(n_rows + 1):
-            code = formats[row][col] if row < n_rows and col < len(formats[row]) else None
+            code = formats[row][col] if row < len(formats) and col < len(formats[row]) else None
             if code != run_code:
                 if run_code not in (None, "General"):
                     key = number_format_key(document, run_code, format_cache)
@@ -137,7 +142,11 @@ def write_table(document, controller, table, kind, format_cache):
         controller.setActiveSheet(sheet)
         controller.freezeAtPosition(0, frozen)
     for number, chart in enumerate(table.get("charts") or [], 1):
-        add_chart(document, sheet, name, chart, number)
+        try:
+            add_chart(document, sheet, name, chart, number)
+        except Exception as error:
+            # A chart the office cannot draw leaves the tables in place.
+            CHART_PROBLEMS.append("%s chart %d: %s" % (name, number, getattr(error, "Message", error)))
     return name
 
 
