@@ -125,7 +125,8 @@ class Office:
 
     def kill(self):
         if self.process and self.process.poll() is None:
-            os.kill(self.process.pid, signal.SIGKILL)
+            # The office's whole process group (the launcher and soffice.bin).
+            os.killpg(os.getpgid(self.process.pid), signal.SIGKILL)
             self.process.wait(10)
 
 

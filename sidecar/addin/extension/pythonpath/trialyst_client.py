@@ -147,6 +147,10 @@ class Sidecar:
         flags = {}
         if os.name == "nt":
             flags["creationflags"] = getattr(subprocess, "CREATE_NO_WINDOW", 0)
+        else:
+            # Its own session: signals meant for the office's process group
+            # do not reach it; it ends when its input closes.
+            flags["start_new_session"] = True
         try:
             self.process = subprocess.Popen(
                 [self.program, "serve"],
