@@ -365,6 +365,7 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
     # -- commands ------------------------------------------------------
     def analyse(self, arguments, findings_only=False):
         document = self.document()
+        started = time.perf_counter()
         sheet, cells, origin = self.selection_cells(document)
         sidecar = self.sidecar(document)
         params = {
@@ -376,8 +377,10 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         }
         method = "trialyst/inspectCells" if findings_only else "trialyst/analyseCells"
         size = sum(len(row) for row in cells)
+        read_done = time.perf_counter()
         answer = self.run_request(sidecar, method, params, "%s %d values" % ("inspecting" if findings_only else "analysing", size))
         findings = answer["findings"] if findings_only else answer["results"].get("findings", [])
+        answered = time.perf_counter()
         kind = "inspect" if findings_only else "analyse"
         # A rerun replaces the sheets and marks of the former run.
         document.getCurrentController().setActiveSheet(sheet)
@@ -407,6 +410,9 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
             "findings": len(findings),
             "comments": comments,
             "chartsNotDrawn": charts_missed,
+            "readMs": round((read_done - started) * 1000.0, 1),
+            "requestMs": round((answered - read_done) * 1000.0, 1),
+            "writeMs": round((time.perf_counter() - answered) * 1000.0, 1),
             "sidecarPid": sidecar.pid,
         }
 

@@ -203,6 +203,17 @@ fn service_error(error: &ServiceError) -> Error {
     }
 }
 
+/// The answer to `trialyst/analyseCells`: the results document and the
+/// result tables, serialised once, by the library, into the reply (no JSON
+/// tree built and copied on the way).
+#[derive(serde::Serialize)]
+pub struct CellsAnswer {
+    /// The results document.
+    pub results: service::WorkbookResults,
+    /// The result tables.
+    pub tables: Vec<to_proto::SheetTable>,
+}
+
 /// A request that was valid in form but could not be answered, with its kind.
 fn request_failed(message: &str, kind: &str) -> Error {
     Error {
@@ -215,10 +226,11 @@ fn request_failed(message: &str, kind: &str) -> Error {
 /// Runs a handler body in a task of its own, turning a panic into an
 /// `InternalError` answer. The body gets a cancel flag that is raised if
 /// the request is cancelled (its future dropped).
-async fn guarded<F, Fut>(body: F) -> Result<Json>
+async fn guarded<F, Fut, T>(body: F) -> Result<T>
 where
     F: FnOnce(CancelFlag) -> Fut,
-    Fut: Future<Output = Result<Json>> + Send + 'static,
+    Fut: Future<Output = Result<T>> + Send + 'static,
+    T: Send + 'static,
 {
     let cancel = CancelFlag::new();
     let _raise_on_drop = CancelOnDrop(cancel.clone());
@@ -386,8 +398,10 @@ impl Shared {
         serde_json::to_value(&results).map_err(|_| internal_error("the results could not be encoded"))
     }
 
-    async fn analyse_cells(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
+    async fn analyse_cells(&self, params: Json, cancel: CancelFlag) -> Result<CellsAnswer> {
         let read = from_proto::cells_params(&params).map_err(params_error)?;
+        // The request's cells are in the grid now; the JSON tree goes.
+        drop(params);
         let what = format!("analysing {} cell values", read.n_cells);
         let large = read.n_cells >= self.options.progress_above_cells;
         let progress = self
@@ -398,8 +412,7 @@ impl Shared {
                 let results = service::analyse_grid(&read.grid, &read.settings, &read.source_name, &cancel)?;
                 // The tables come from the report model, the one place that lays them out.
                 let tables = to_proto::book_tables(&service::report::build_results_book(&results));
-                let results = serde_json::to_value(&results).unwrap_or(Json::Null);
-                Ok::<Json, ServiceError>(json!({ "results": results, "tables": tables }))
+                Ok::<CellsAnswer, ServiceError>(CellsAnswer { results, tables })
             })
             .await?;
         progress.report("analysed; preparing the answer".into()).await;
@@ -534,7 +547,7 @@ impl Backend {
         guarded(move |cancel| async move { shared.analyse(params, cancel).await }).await
     }
 
-    async fn analyse_cells(&self, params: Json) -> Result<Json> {
+    async fn analyse_cells(&self, params: Json) -> Result<CellsAnswer> {
         let shared = self.shared.clone();
         guarded(move |cancel| async move { shared.analyse_cells(params, cancel).await }).await
     }

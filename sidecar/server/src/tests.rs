@@ -266,7 +266,7 @@ async fn lifecycle_and_exit_codes() {
     assert_eq!(answer["result"]["serverInfo"]["name"], "trialyst");
     assert_eq!(answer["result"]["serverInfo"]["version"], service::TOOL_VERSION);
     let ours = &answer["result"]["capabilities"]["experimental"]["trialyst"];
-    assert_eq!(ours["requests"].as_array().map(Vec::len), Some(4), "{answer}");
+    assert_eq!(ours["requests"].as_array().map(Vec::len), Some(7), "{answer}");
     assert_eq!(ours["resultsFormatVersion"], service::RESULTS_FORMAT_VERSION);
     // JSON-RPC 2.0, section 5.1: -32601 method not found.
     let unknown = client.request("trialyst/noSuchThing", json!({})).await;
@@ -414,7 +414,10 @@ async fn bad_params_and_bad_paths_get_clear_errors() {
         // JSON-RPC 2.0, section 5.1: -32602 invalid params.
         assert_eq!(error_code(&answer), -32602, "{method}: {answer}");
         let field = answer["error"]["data"]["field"].as_str().unwrap_or("");
-        assert!(field == "params.path" || field == "params.cells", "{answer}");
+        assert!(
+            ["params.path", "params.cells", "params.factors", "params.sd"].contains(&field),
+            "{answer}"
+        );
     }
     let answer = client.request(methods[2], json!({"cells": [[1, 2], "row"]})).await;
     assert_eq!(answer["error"]["data"]["field"], "params.cells[1]");
