@@ -382,24 +382,38 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         findings = answer["findings"] if findings_only else answer["results"].get("findings", [])
         answered = time.perf_counter()
         kind = "inspect" if findings_only else "analyse"
-        # A rerun replaces the sheets and marks of the former run.
-        document.getCurrentController().setActiveSheet(sheet)
-        trialyst_sheets.remove_own_sheets(document, "inspect")
-        trialyst_sheets.remove_own_sheets(document, "analyse")
-        trialyst_sheets.clear_all_marks(document)
-        document.lockControllers()
+        trialyst_sheets.PHASES.clear()
+        # A rerun replaces the sheets and marks of the former run. Nothing of
+        # it goes to the undo list (recording copies of whole sheets is most
+        # of the time otherwise); the user's own edits stay undoable.
+        undo = document.getUndoManager()
+        undo.lock()
         try:
-            controller = document.getCurrentController()
-            names = []
-            cache = {}
-            if not findings_only:
-                names, _, cache = self.write_tables(document, answer["tables"], kind)
-            comments = trialyst_sheets.mark_findings(document, findings)
-            if findings:
-                names.append(trialyst_sheets.write_problems_sheet(document, controller, findings, kind, cache))
-            controller.setActiveSheet(document.getSheets().getByName(names[0]) if names else sheet)
+            document.getCurrentController().setActiveSheet(sheet)
+            trialyst_sheets.remove_own_sheets(document, "inspect")
+            trialyst_sheets.remove_own_sheets(document, "analyse")
+            started_marks = time.perf_counter()
+            trialyst_sheets.clear_all_marks(document)
+            trialyst_sheets.timed("clear marks", started_marks)
+            document.lockControllers()
+            try:
+                controller = document.getCurrentController()
+                names = []
+                cache = {}
+                started_tables = time.perf_counter()
+                if not findings_only:
+                    names, _, cache = self.write_tables(document, answer["tables"], kind)
+                trialyst_sheets.timed("tables", started_tables)
+                started_marks = time.perf_counter()
+                comments = trialyst_sheets.mark_findings(document, findings)
+                if findings:
+                    names.append(trialyst_sheets.write_problems_sheet(document, controller, findings, kind, cache))
+                trialyst_sheets.timed("marks", started_marks)
+                controller.setActiveSheet(document.getSheets().getByName(names[0]) if names else sheet)
+            finally:
+                document.unlockControllers()
         finally:
-            document.unlockControllers()
+            undo.unlock()
         self.status_text("trialyst: %d sheets written, %d data problems marked" % (len(names), comments))
         for problem in trialyst_sheets.CHART_PROBLEMS:
             self.log("chart not drawn: " + problem)
@@ -413,6 +427,7 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
             "readMs": round((read_done - started) * 1000.0, 1),
             "requestMs": round((answered - read_done) * 1000.0, 1),
             "writeMs": round((time.perf_counter() - answered) * 1000.0, 1),
+            "writeParts": dict(trialyst_sheets.PHASES),
             "sidecarPid": sidecar.pid,
         }
 

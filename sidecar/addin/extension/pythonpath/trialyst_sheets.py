@@ -7,6 +7,7 @@ thread of trialyst_client).
 """
 
 import json
+import time
 
 import uno
 from com.sun.star.awt import Rectangle
@@ -27,6 +28,14 @@ PROBLEMS_SHEET = "Data problems"
 #: Width of one character, in 1/100 mm (Liberation Sans 10 pt).
 CHARACTER_WIDTH = 205
 BOLD = 150.0
+#: Milliseconds spent in each part of writing, for the command's result.
+PHASES = {}
+
+
+def timed(phase, started):
+    PHASES[phase] = round(PHASES.get(phase, 0.0) + (time.perf_counter() - started) * 1000.0, 1)
+
+
 #: Charts that could not be drawn in the last run, for the log.
 CHART_PROBLEMS = []
 #: A result sheet's name may not exceed this (the xlsx limit).
@@ -57,6 +66,7 @@ def own_sheets(document):
 def remove_own_sheets(document, prefix=""):
     """Removes the sheets a former run of the same kind wrote. `prefix`
     selects the kind ('' for analysis sheets, 'Plan' ...)."""
+    started = time.perf_counter()
     sheets = document.getSheets()
     kept = []
     for entry in own_sheets(document):
@@ -69,6 +79,7 @@ def remove_own_sheets(document, prefix=""):
         elif kind != prefix:
             kept.append(entry)
     set_user_property(document, OWN_SHEETS_PROPERTY, "\n".join(kept))
+    timed("remove", started)
 
 
 def free_sheet_name(sheets, wanted):
@@ -138,15 +149,19 @@ def write_table(document, controller, table, kind, format_cache):
         if col < columns.getCount():
             columns.getByIndex(int(col)).Width = int(width * CHARACTER_WIDTH)
     frozen = int(table.get("frozenRows") or 0)
+    started = time.perf_counter()
     if frozen and controller is not None:
         controller.setActiveSheet(sheet)
         controller.freezeAtPosition(0, frozen)
+    timed("freeze", started)
+    started = time.perf_counter()
     for number, chart in enumerate(table.get("charts") or [], 1):
         try:
             add_chart(document, sheet, name, chart, number)
         except Exception as error:
             # A chart the office cannot draw leaves the tables in place.
             CHART_PROBLEMS.append("%s chart %d: %s" % (name, number, getattr(error, "Message", error)))
+    timed("charts", started)
     return name
 
 
