@@ -383,15 +383,16 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         answered = time.perf_counter()
         kind = "inspect" if findings_only else "analyse"
         trialyst_sheets.PHASES.clear()
-        # A rerun replaces the sheets and marks of the former run. Nothing of
-        # it goes to the undo list (recording copies of whole sheets is most
-        # of the time otherwise); the user's own edits stay undoable.
+        # A rerun replaces the sheets and marks of the former run. The new
+        # sheets do not go to the undo list; the user's own edits stay undoable.
+        # (Removing sheets while the undo list is locked stops the office, so
+        # the removal stays outside the lock.)
+        document.getCurrentController().setActiveSheet(sheet)
+        trialyst_sheets.remove_own_sheets(document, "inspect")
+        trialyst_sheets.remove_own_sheets(document, "analyse")
         undo = document.getUndoManager()
         undo.lock()
         try:
-            document.getCurrentController().setActiveSheet(sheet)
-            trialyst_sheets.remove_own_sheets(document, "inspect")
-            trialyst_sheets.remove_own_sheets(document, "analyse")
             started_marks = time.perf_counter()
             trialyst_sheets.clear_all_marks(document)
             trialyst_sheets.timed("clear marks", started_marks)

@@ -472,6 +472,8 @@ def dispatch_through_menu(office, document):
         # container (with the add-on entries merged) is searched instead.
         command = find_command(element.getSettings(True), "org.trialyst.addin:inspect")
         if command is None:
+            types = [t.typeName for t in getattr(menubar, "Types", ())] if menubar is not None else None
+            print("menu bar element: %s; real interface types: %s" % (element.ResourceURL, types))
             return None
         answer = office.dispatcher.executeDispatch(frame, command, "", 0, ())
         answer = getattr(answer, "Result", answer)
