@@ -360,6 +360,7 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         active = controller.getActiveSheet()
         cache = {}
         names = [trialyst_sheets.write_table(document, controller, table, kind, cache) for table in tables]
+        trialyst_sheets.draw_charts(document, tables, names)
         return names, active, cache
 
     # -- commands ------------------------------------------------------
@@ -385,11 +386,11 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         trialyst_sheets.PHASES.clear()
         # A rerun replaces the sheets and marks of the former run. The new
         # sheets do not go to the undo list; the user's own edits stay undoable.
-        # (Removing sheets while the undo list is locked stops the office, so
-        # the removal stays outside the lock.)
+        # The former run's sheets are emptied and filled again (removing and
+        # inserting sheets is slow); removing sheets while the undo list is
+        # locked stops the office, so clearing and removal stay outside it.
         document.getCurrentController().setActiveSheet(sheet)
-        trialyst_sheets.remove_own_sheets(document, "inspect")
-        trialyst_sheets.remove_own_sheets(document, "analyse")
+        trialyst_sheets.clear_own_sheets(document, ("inspect", "analyse"))
         undo = document.getUndoManager()
         undo.lock()
         try:
@@ -415,6 +416,7 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
                 document.unlockControllers()
         finally:
             undo.unlock()
+        trialyst_sheets.remove_unused_sheets(document)
         self.status_text("trialyst: %d sheets written, %d data problems marked" % (len(names), comments))
         for problem in trialyst_sheets.CHART_PROBLEMS:
             self.log("chart not drawn: " + problem)

@@ -65,7 +65,7 @@ def own_sheets(document):
 
 def remove_own_sheets(document, prefix=""):
     """Removes the sheets a former run of the same kind wrote. `prefix`
-    selects the kind ('' for analysis sheets, 'Plan' ...)."""
+    selects the kind ('analyse', 'inspect', 'plan', 'size')."""
     started = time.perf_counter()
     sheets = document.getSheets()
     kept = []
@@ -79,6 +79,45 @@ def remove_own_sheets(document, prefix=""):
         elif kind != prefix:
             kept.append(entry)
     set_user_property(document, OWN_SHEETS_PROPERTY, "\n".join(kept))
+    timed("remove", started)
+
+
+#: Sheets of a former run, cleared and kept for the next run to fill
+#: (inserting and removing sheets is the slow part of writing).
+REUSABLE = {}
+
+
+def clear_own_sheets(document, kinds):
+    """Empties the sheets a former run of these kinds wrote (values,
+    formats, charts) and keeps them for reuse; returns how many."""
+    started = time.perf_counter()
+    sheets = document.getSheets()
+    kept = []
+    REUSABLE.clear()
+    for entry in own_sheets(document):
+        kind, _, name = entry.partition("\t")
+        if kind in kinds and sheets.hasByName(name):
+            sheet = sheets.getByName(name)
+            charts = sheet.getCharts()
+            for chart_name in charts.getElementNames():
+                charts.removeByName(chart_name)
+            sheet.clearContents(1023)  # every com.sun.star.sheet.CellFlags
+            REUSABLE[name] = sheet
+        elif kind not in kinds:
+            kept.append(entry)
+    set_user_property(document, OWN_SHEETS_PROPERTY, "\n".join(kept))
+    timed("clear", started)
+    return len(REUSABLE)
+
+
+def remove_unused_sheets(document):
+    """Removes the cleared sheets of a former run that this run did not fill."""
+    started = time.perf_counter()
+    sheets = document.getSheets()
+    for name in list(REUSABLE):
+        if sheets.hasByName(name):
+            sheets.removeByName(name)
+    REUSABLE.clear()
     timed("remove", started)
 
 
@@ -105,10 +144,15 @@ def number_format_key(document, code, cache):
 
 
 def add_sheet(document, name, kind, position=None):
-    """A new sheet recorded as the add-in's own; returns (sheet, name)."""
+    """A new sheet recorded as the add-in's own (a cleared one of the former
+    run when it had this name); returns (sheet, name)."""
     sheets = document.getSheets()
-    name = free_sheet_name(sheets, name)
-    sheets.insertNewByName(name, sheets.getCount() if position is None else position)
+    if name[:MAX_SHEET_NAME] in REUSABLE:
+        name = name[:MAX_SHEET_NAME]
+        del REUSABLE[name]
+    else:
+        name = free_sheet_name(sheets, name)
+        sheets.insertNewByName(name, sheets.getCount() if position is None else position)
     entries = own_sheets(document)
     entries.append("%s\t%s" % (kind, name))
     set_user_property(document, OWN_SHEETS_PROPERTY, "\n".join(entries))
@@ -154,31 +198,40 @@ def write_table(document, controller, table, kind, format_cache):
         controller.setActiveSheet(sheet)
         controller.freezeAtPosition(0, frozen)
     timed("freeze", started)
-    started = time.perf_counter()
-    for number, chart in enumerate(table.get("charts") or [], 1):
-        try:
-            add_chart(document, sheet, name, chart, number)
-        except Exception as error:
-            # A chart the office cannot draw leaves the tables in place.
-            CHART_PROBLEMS.append("%s chart %d: %s" % (name, number, getattr(error, "Message", error)))
-    timed("charts", started)
     return name
 
 
-def range_address(document, description, default_sheet_index):
+def draw_charts(document, tables, names):
+    """The charts of each table, drawn once every table is written (a
+    chart's data may sit on a sheet written after its own)."""
+    started = time.perf_counter()
+    renamed = {table["name"]: name for table, name in zip(tables, names)}
+    for table, name in zip(tables, names):
+        sheet = document.getSheets().getByName(name)
+        for number, chart in enumerate(table.get("charts") or [], 1):
+            try:
+                add_chart(document, sheet, name, chart, number, renamed)
+            except Exception as error:
+                # A chart the office cannot draw leaves the tables in place.
+                CHART_PROBLEMS.append("%s chart %d: %s" % (name, number, getattr(error, "Message", error)))
+    timed("charts", started)
+
+
+def range_address(document, description, default_sheet_index, renamed):
     sheets = document.getSheets()
+    wanted = renamed.get(description.get("sheet"), description.get("sheet"))
     text = description["range"]
     first, _, last = text.partition(":")
     first_row, first_col = parse_a1(first)
     last_row, last_col = parse_a1(last or first)
     index = default_sheet_index
     for position in range(sheets.getCount()):
-        if sheets.getByIndex(position).getName() == description.get("sheet"):
+        if sheets.getByIndex(position).getName() == wanted:
             index = position
     return CellRangeAddress(index, first_col, first_row, last_col, last_row)
 
 
-def add_chart(document, sheet, sheet_name, chart, number):
+def add_chart(document, sheet, sheet_name, chart, number, renamed):
     """A chart described as data, drawn with Calc's own chart objects: one
     series per described series, categories from the first."""
     series = chart.get("series") or []
@@ -190,8 +243,8 @@ def add_chart(document, sheet, sheet_name, chart, number):
     position = anchor_cell.Position
     width_px, height_px = chart.get("size") or [480, 288]
     rectangle = Rectangle(position.X, position.Y, int(width_px * 26.5), int(height_px * 26.5))
-    ranges = [range_address(document, series[0]["categories"], index)]
-    ranges += [range_address(document, item["values"], index) for item in series]
+    ranges = [range_address(document, series[0]["categories"], index, renamed)]
+    ranges += [range_address(document, item["values"], index, renamed) for item in series]
     charts = sheet.getCharts()
     chart_name = "trialyst chart %d" % number
     if charts.hasByName(chart_name):
