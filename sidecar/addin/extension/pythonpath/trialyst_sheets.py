@@ -257,7 +257,10 @@ def add_chart(document, sheet, sheet_name, chart, number, renamed):
         "columns": "com.sun.star.chart.BarDiagram",
     }.get(kind, "com.sun.star.chart.LineDiagram")
     embedded.setDiagram(embedded.createInstance(diagram_service))
-    if kind == "points":
+    if kind in ("points", "lines", "scatter"):
+        # Markers at every point (com.sun.star.chart.ChartSymbolType.AUTO).
+        embedded.getDiagram().SymbolType = -1
+    if kind in ("points", "scatter"):
         embedded.getDiagram().Lines = False
     embedded.HasMainTitle = True
     embedded.getTitle().String = chart.get("title", "")
