@@ -275,7 +275,8 @@ def run_checks(office, arguments, work):
 
     # Picture for the README: the first result sheet as PNG.
     if arguments.picture:
-        shown = document.getSheets().getByName(sheets[0])
+        # The table of conditions: numbers in their formats, bold headers.
+        shown = document.getSheets().getByName("Conditions" if "Conditions" in sheets else sheets[0])
         controller.setActiveSheet(shown)
         cursor = shown.createCursor()
         cursor.gotoEndOfUsedArea(False)
