@@ -259,7 +259,7 @@ def add_chart(document, sheet, sheet_name, chart, number, renamed):
     embedded.setDiagram(embedded.createInstance(diagram_service))
     if kind in ("points", "lines", "scatter"):
         # Markers at every point (com.sun.star.chart.ChartSymbolType.AUTO).
-        embedded.getDiagram().SymbolType = -1
+        embedded.getDiagram().SymbolType = -2
     if kind in ("points", "scatter"):
         embedded.getDiagram().Lines = False
     embedded.HasMainTitle = True
