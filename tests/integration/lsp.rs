@@ -340,7 +340,7 @@ fn a_whole_session_over_stdio() {
     assert!(results_file.is_file());
     crate::common::keep_output(&results_file);
 
-    let unknown = session.request("trialyst/planTrial", json!({}));
+    let unknown = session.request("trialyst/noSuchThing", json!({}));
     // JSON-RPC 2.0, section 5.1: -32601 method not found.
     assert_eq!(error_code(&unknown), -32601);
 

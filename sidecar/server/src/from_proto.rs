@@ -30,7 +30,7 @@ impl std::fmt::Display for ParamsError {
     }
 }
 
-fn error(field: impl Into<String>, problem: impl Into<String>) -> ParamsError {
+pub(crate) fn error(field: impl Into<String>, problem: impl Into<String>) -> ParamsError {
     ParamsError {
         field: field.into(),
         problem: problem.into(),
@@ -38,7 +38,7 @@ fn error(field: impl Into<String>, problem: impl Into<String>) -> ParamsError {
 }
 
 /// A short description of a JSON value, for messages.
-fn describe(value: &Value) -> String {
+pub(crate) fn describe(value: &Value) -> String {
     match value {
         Value::Null => "null".into(),
         Value::Bool(flag) => format!("{flag}"),
@@ -157,7 +157,7 @@ pub fn file_path_of(uri: &Uri) -> Option<PathBuf> {
 }
 
 /// The progress token a client put in `workDoneToken`, if any.
-fn work_done_token(map: &Map<String, Value>) -> Result<Option<ProgressToken>, ParamsError> {
+pub(crate) fn work_done_token(map: &Map<String, Value>) -> Result<Option<ProgressToken>, ParamsError> {
     match map.get("workDoneToken") {
         None | Some(Value::Null) => Ok(None),
         Some(Value::String(text)) => Ok(Some(NumberOrString::String(text.clone()))),

@@ -17,6 +17,7 @@
 pub mod documents;
 pub mod framing;
 pub mod from_proto;
+pub mod planning;
 pub mod server;
 pub mod to_proto;
 

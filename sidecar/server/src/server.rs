@@ -26,6 +26,7 @@ use workbook_io::ReadError;
 
 use super::documents::{self, DocumentEvent};
 use super::from_proto::{self, ParamsError};
+use super::planning;
 use super::to_proto;
 use service::{self, AnalysisRequest, CancelFlag, ServiceError};
 
@@ -40,8 +41,22 @@ pub mod methods {
     pub const ANALYSE_CELLS: &str = "trialyst/analyseCells";
     /// Writes the results workbook beside the workbook or in a folder.
     pub const WRITE_RESULTS: &str = "trialyst/writeResults";
+    /// Detected table and findings of cell values sent by the client, no analysis.
+    pub const INSPECT_CELLS: &str = "trialyst/inspectCells";
+    /// A plan for the next trial, as tables to paste.
+    pub const PLAN_TRIAL: &str = "trialyst/planTrial";
+    /// Power and runs needed for the next trial, as tables to paste.
+    pub const SIZE_TRIAL: &str = "trialyst/sizeTrial";
     /// Every one of them.
-    pub const ALL: [&str; 4] = [INSPECT_WORKBOOK, ANALYSE_WORKBOOK, ANALYSE_CELLS, WRITE_RESULTS];
+    pub const ALL: [&str; 7] = [
+        INSPECT_WORKBOOK,
+        ANALYSE_WORKBOOK,
+        ANALYSE_CELLS,
+        WRITE_RESULTS,
+        INSPECT_CELLS,
+        PLAN_TRIAL,
+        SIZE_TRIAL,
+    ];
 }
 
 /// The LSP code for a request that was well-formed but failed (LSP 3.17).
@@ -119,7 +134,10 @@ pub fn build_service(
     .custom_method(methods::INSPECT_WORKBOOK, Backend::inspect_workbook)
     .custom_method(methods::ANALYSE_WORKBOOK, Backend::analyse_workbook)
     .custom_method(methods::ANALYSE_CELLS, Backend::analyse_cells)
-    .custom_method(methods::WRITE_RESULTS, Backend::write_results);
+    .custom_method(methods::WRITE_RESULTS, Backend::write_results)
+    .custom_method(methods::INSPECT_CELLS, Backend::inspect_cells)
+    .custom_method(methods::PLAN_TRIAL, Backend::plan_trial)
+    .custom_method(methods::SIZE_TRIAL, Backend::size_trial);
     #[cfg(test)]
     let builder = if with_panic_method {
         builder.custom_method("test/panic", Backend::panic_for_test)
@@ -185,13 +203,34 @@ fn service_error(error: &ServiceError) -> Error {
     }
 }
 
+/// The answer to `trialyst/analyseCells`: the results document and the
+/// result tables, serialised once, by the library, into the reply (no JSON
+/// tree built and copied on the way).
+#[derive(serde::Serialize)]
+pub struct CellsAnswer {
+    /// The results document.
+    pub results: service::WorkbookResults,
+    /// The result tables.
+    pub tables: Vec<to_proto::SheetTable>,
+}
+
+/// A request that was valid in form but could not be answered, with its kind.
+fn request_failed(message: &str, kind: &str) -> Error {
+    Error {
+        code: ErrorCode::ServerError(REQUEST_FAILED),
+        message: message.to_string().into(),
+        data: Some(json!({ "kind": kind })),
+    }
+}
+
 /// Runs a handler body in a task of its own, turning a panic into an
 /// `InternalError` answer. The body gets a cancel flag that is raised if
 /// the request is cancelled (its future dropped).
-async fn guarded<F, Fut>(body: F) -> Result<Json>
+async fn guarded<F, Fut, T>(body: F) -> Result<T>
 where
     F: FnOnce(CancelFlag) -> Fut,
-    Fut: Future<Output = Result<Json>> + Send + 'static,
+    Fut: Future<Output = Result<T>> + Send + 'static,
+    T: Send + 'static,
 {
     let cancel = CancelFlag::new();
     let _raise_on_drop = CancelOnDrop(cancel.clone());
@@ -359,8 +398,10 @@ impl Shared {
         serde_json::to_value(&results).map_err(|_| internal_error("the results could not be encoded"))
     }
 
-    async fn analyse_cells(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
+    async fn analyse_cells(&self, params: Json, cancel: CancelFlag) -> Result<CellsAnswer> {
         let read = from_proto::cells_params(&params).map_err(params_error)?;
+        // The request's cells are in the grid now; the JSON tree goes.
+        drop(params);
         let what = format!("analysing {} cell values", read.n_cells);
         let large = read.n_cells >= self.options.progress_above_cells;
         let progress = self
@@ -371,13 +412,83 @@ impl Shared {
                 let results = service::analyse_grid(&read.grid, &read.settings, &read.source_name, &cancel)?;
                 // The tables come from the report model, the one place that lays them out.
                 let tables = to_proto::book_tables(&service::report::build_results_book(&results));
-                let results = serde_json::to_value(&results).unwrap_or(Json::Null);
-                Ok::<Json, ServiceError>(json!({ "results": results, "tables": tables }))
+                Ok::<CellsAnswer, ServiceError>(CellsAnswer { results, tables })
             })
             .await?;
         progress.report("analysed; preparing the answer".into()).await;
         self.finish(progress, &what, &outcome).await;
         outcome.map_err(|error| service_error(&error))
+    }
+
+    async fn inspect_cells(&self, params: Json) -> Result<Json> {
+        let read = from_proto::cells_params(&params).map_err(params_error)?;
+        let what = format!("inspecting {} cell values", read.n_cells);
+        let large = read.n_cells >= self.options.progress_above_cells;
+        let progress = self
+            .begin_progress(read.work_done_token.clone(), large, what.clone())
+            .await;
+        let outcome = self
+            .run_blocking(&progress, move || {
+                let inspection = service::inspect_grid(&read.grid, &read.settings, &read.source_name)?;
+                Ok::<Json, ServiceError>(serde_json::to_value(&inspection).unwrap_or(Json::Null))
+            })
+            .await?;
+        self.finish(progress, &what, &outcome).await;
+        outcome.map_err(|error| service_error(&error))
+    }
+
+    async fn plan_trial(&self, params: Json) -> Result<Json> {
+        let read = planning::plan_params(&params).map_err(params_error)?;
+        let what = "planning a trial".to_string();
+        let progress = self
+            .begin_progress(read.work_done_token.clone(), false, what.clone())
+            .await;
+        let request = read.request;
+        let outcome = self
+            .run_blocking(&progress, move || {
+                let plan = service::plan::make_plan(&request)?;
+                let book = service::plan::book::plan_book(&plan);
+                Ok::<Json, service::plan::PlanError>(json!({
+                    "plan": serde_json::to_value(service::plan::summarise(&plan, None)).unwrap_or(Json::Null),
+                    "tables": to_proto::book_tables(&book),
+                }))
+            })
+            .await?;
+        progress
+            .finish(if outcome.is_ok() {
+                "done".into()
+            } else {
+                "failed".into()
+            })
+            .await;
+        outcome.map_err(|error| request_failed(&error.to_string(), "bad-plan"))
+    }
+
+    async fn size_trial(&self, params: Json) -> Result<Json> {
+        let read = planning::size_params(&params).map_err(params_error)?;
+        let what = "sizing a trial".to_string();
+        let progress = self
+            .begin_progress(read.work_done_token.clone(), false, what.clone())
+            .await;
+        let request = read.request;
+        let outcome = self
+            .run_blocking(&progress, move || {
+                let answer = service::plan::size_answer(&request)?;
+                let book = service::plan::size_book(&answer);
+                Ok::<Json, service::plan::SizeError>(json!({
+                    "answer": serde_json::to_value(&answer).unwrap_or(Json::Null),
+                    "tables": to_proto::book_tables(&book),
+                }))
+            })
+            .await?;
+        progress
+            .finish(if outcome.is_ok() {
+                "done".into()
+            } else {
+                "failed".into()
+            })
+            .await;
+        outcome.map_err(|error| request_failed(&error.to_string(), "bad-size-question"))
     }
 
     async fn write(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
@@ -451,7 +562,7 @@ impl Backend {
         guarded(move |cancel| async move { shared.analyse(params, cancel).await }).await
     }
 
-    async fn analyse_cells(&self, params: Json) -> Result<Json> {
+    async fn analyse_cells(&self, params: Json) -> Result<CellsAnswer> {
         let shared = self.shared.clone();
         guarded(move |cancel| async move { shared.analyse_cells(params, cancel).await }).await
     }
@@ -459,6 +570,21 @@ impl Backend {
     async fn write_results(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
         guarded(move |cancel| async move { shared.write(params, cancel).await }).await
+    }
+
+    async fn inspect_cells(&self, params: Json) -> Result<Json> {
+        let shared = self.shared.clone();
+        guarded(move |_| async move { shared.inspect_cells(params).await }).await
+    }
+
+    async fn plan_trial(&self, params: Json) -> Result<Json> {
+        let shared = self.shared.clone();
+        guarded(move |_| async move { shared.plan_trial(params).await }).await
+    }
+
+    async fn size_trial(&self, params: Json) -> Result<Json> {
+        let shared = self.shared.clone();
+        guarded(move |_| async move { shared.size_trial(params).await }).await
     }
 
     #[cfg(test)]

@@ -266,7 +266,7 @@ async fn lifecycle_and_exit_codes() {
     assert_eq!(answer["result"]["serverInfo"]["name"], "trialyst");
     assert_eq!(answer["result"]["serverInfo"]["version"], service::TOOL_VERSION);
     let ours = &answer["result"]["capabilities"]["experimental"]["trialyst"];
-    assert_eq!(ours["requests"].as_array().map(Vec::len), Some(4), "{answer}");
+    assert_eq!(ours["requests"].as_array().map(Vec::len), Some(7), "{answer}");
     assert_eq!(ours["resultsFormatVersion"], service::RESULTS_FORMAT_VERSION);
     // JSON-RPC 2.0, section 5.1: -32601 method not found.
     let unknown = client.request("trialyst/noSuchThing", json!({})).await;
@@ -414,7 +414,10 @@ async fn bad_params_and_bad_paths_get_clear_errors() {
         // JSON-RPC 2.0, section 5.1: -32602 invalid params.
         assert_eq!(error_code(&answer), -32602, "{method}: {answer}");
         let field = answer["error"]["data"]["field"].as_str().unwrap_or("");
-        assert!(field == "params.path" || field == "params.cells", "{answer}");
+        assert!(
+            ["params.path", "params.cells", "params.factors", "params.sd"].contains(&field),
+            "{answer}"
+        );
     }
     let answer = client.request(methods[2], json!({"cells": [[1, 2], "row"]})).await;
     assert_eq!(answer["error"]["data"]["field"], "params.cells[1]");
@@ -650,4 +653,86 @@ fn listen_addresses_must_be_loopback() {
         super::loopback_address("nonsense"),
         Err(super::ServeError::BadAddress { .. })
     ));
+}
+
+#[tokio::test]
+async fn plan_size_and_inspect_cells_answer_as_the_service_does() {
+    let mut client = TestClient::start(ServerOptions::default());
+    let _ = client.initialize(json!({})).await;
+    // Plan: the same request through the service directly is the reference.
+    let answer = client
+        .request(
+            super::server::methods::PLAN_TRIAL,
+            json!({"factors": [{"name": "Temperature", "levels": [160, 180]}, {"name": "Line", "levels": ["North", "South"]}],
+                   "responses": ["Yield"], "replicates": 2, "seed": 7}),
+        )
+        .await;
+    let request = service::plan::PlanRequest {
+        factors: vec![
+            service::plan::FactorSpec::new("Temperature", &["160", "180"]),
+            service::plan::FactorSpec::new("Line", &["North", "South"]),
+        ],
+        responses: vec!["Yield".into()],
+        replicates: 2,
+        blocks: 1,
+        seed: Some(7),
+        ..service::plan::PlanRequest::default()
+    };
+    let plan = service::plan::make_plan(&request).expect("a valid plan");
+    assert_eq!(answer["result"]["plan"]["runs"], plan.runs.len(), "{answer}");
+    let book = service::plan::book::plan_book(&plan);
+    let first = book.sheets.iter().find(|sheet| !sheet.hidden).expect("a visible sheet");
+    assert_eq!(answer["result"]["tables"][0]["name"], first.name.as_str());
+    // A plan that cannot be made is a failed request with its reason.
+    let refused = client
+        .request(
+            super::server::methods::PLAN_TRIAL,
+            json!({"factors": [{"name": "Temperature", "levels": [160, 180]}], "responses": []}),
+        )
+        .await;
+    assert_eq!(error_code(&refused), -32803, "{refused}");
+    assert_eq!(refused["error"]["data"]["kind"], "bad-plan");
+    // Size: the service's answer to the same question.
+    let answer = client
+        .request(
+            super::server::methods::SIZE_TRIAL,
+            json!({"conditions": 3, "smallestDifference": 1.0, "sd": 0.5}),
+        )
+        .await;
+    let direct = service::plan::size_answer(&service::plan::SizeRequest {
+        design: service::plan::size::SizeDesign::OneWay {
+            conditions: 3,
+            effect: service::plan::size::OneWayEffect::SmallestDifference(1.0),
+        },
+        sd: service::plan::size::SdSource::Given(0.5),
+        alpha: 0.05,
+        power: 0.8,
+        half_width: None,
+    })
+    .expect("answerable");
+    assert_eq!(
+        answer["result"]["answer"]["needed"]["count"], direct.needed.count,
+        "{answer}"
+    );
+    let size_charts = answer["result"]["tables"][0]["charts"]
+        .as_array()
+        .map(Vec::len)
+        .unwrap_or(0);
+    let book = service::plan::size_book(&direct);
+    assert_eq!(size_charts, book.sheets[0].charts.len());
+    if let Some(chart) = answer["result"]["tables"][0]["charts"].get(0) {
+        assert!(chart["series"][0]["values"]["range"]
+            .as_str()
+            .is_some_and(|range| range.contains(':')));
+    }
+    // Inspect cells: findings, no analysis.
+    let answer = client
+        .request(
+            super::server::methods::INSPECT_CELLS,
+            json!({"cells": [["A", "B"], [1.0, "n/a"], [2.0, 3.0], [1.5, 3.5]], "origin": "B2", "sheet": "S"}),
+        )
+        .await;
+    assert_eq!(answer["result"]["findings"][0]["cell"], "C3", "{answer}");
+    assert!(answer["result"].get("responses").is_none());
+    assert!(client.finish().await == 0);
 }

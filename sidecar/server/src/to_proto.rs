@@ -3,34 +3,74 @@
 //! Result tables: the report model ([`service::report::build_results_book`])
 //! is the one place that decides what the results tables hold; here each of
 //! its sheets is laid out as a 2-D array of values with a matching 2-D array
-//! of number formats, ready for an add-in to paste into a new sheet. Charts
-//! are left to the add-in.
+//! of number formats, ready for an add-in to paste into a new sheet. Each
+//! chart of the sheet is described as data: its kind, titles, place and
+//! the cell ranges of its series, for the add-in to draw with its own
+//! chart objects.
 //!
 //! Diagnostics: each data finding becomes a diagnostic at its cell (row and
 //! column as the position), with the sheet and A1 address in its message and
 //! in its `data`.
 
+use serde::Serialize;
 use serde_json::{json, Value as Json};
 use tower_lsp_server::ls_types::{Diagnostic, DiagnosticSeverity, NumberOrString, Position, Range};
 use workbook_io::cell::{parse_a1, parse_a1_range};
+use workbook_io::cell::{CellPos, CellRect};
 use workbook_io::layout::{Finding, FindingKind};
-use workbook_io::write::{Book, Look, NumberFormat, Sheet, Value};
+use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Sheet, SheetRange, Value};
 
 /// The name under which diagnostics are published.
 pub const DIAGNOSTIC_SOURCE: &str = "trialyst";
 
+/// One value of a result table as sent: text, a number or nothing.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(untagged)]
+pub enum TableValue {
+    /// Text (and numbers that are not finite, in words).
+    Text(String),
+    /// A finite number.
+    Number(f64),
+    /// An empty cell.
+    Blank,
+}
+
+/// One results sheet as rows of values and rows of number formats,
+/// serialised straight into the answer (no intermediate JSON tree).
+#[derive(Debug, Clone, Serialize)]
+#[serde(rename_all = "camelCase")]
+pub struct SheetTable {
+    /// The sheet's name.
+    pub name: String,
+    /// Rows of values, top row first.
+    pub values: Vec<Vec<TableValue>>,
+    /// A number-format code for each value.
+    pub number_formats: Vec<Vec<String>>,
+    /// Rows (zero-based) that hold column headers.
+    pub header_rows: Vec<u32>,
+    /// Column widths in characters, as (column, width).
+    pub column_widths: Vec<(u16, f64)>,
+    /// Rows to freeze at the top.
+    pub frozen_rows: u32,
+    /// The sheet's charts, described as data.
+    pub charts: Vec<Json>,
+}
+
 /// One results sheet as rows of values and rows of number formats.
-pub fn sheet_table(sheet: &Sheet) -> Json {
+pub fn sheet_table(sheet: &Sheet) -> SheetTable {
     let n_rows = sheet.cells.iter().map(|placed| placed.row + 1).max().unwrap_or(0) as usize;
     let n_cols = sheet.cells.iter().map(|placed| placed.col + 1).max().unwrap_or(0) as usize;
-    let mut values = vec![vec![Json::Null; n_cols]; n_rows];
-    let mut formats = vec![vec![Json::from(NumberFormat::General.code()); n_cols]; n_rows];
+    let general = || NumberFormat::General.code();
+    let mut values = vec![vec![TableValue::Blank; n_cols]; n_rows];
+    let mut formats = vec![vec![general(); n_cols]; n_rows];
     let mut header_rows: Vec<u32> = Vec::new();
     for placed in &sheet.cells {
         let (row, col) = (placed.row as usize, placed.col as usize);
         let (value, format) = match &placed.value {
-            Value::Text(text) => (Json::from(text.as_str()), NumberFormat::General.code()),
-            Value::Number(number, number_format) if number.is_finite() => (Json::from(*number), number_format.code()),
+            Value::Text(text) => (TableValue::Text(text.clone()), general()),
+            Value::Number(number, number_format) if number.is_finite() => {
+                (TableValue::Number(*number), number_format.code())
+            }
             // As in the results workbook, a number that is not finite is shown in words.
             Value::Number(number, _) => {
                 let shown = if number.is_nan() {
@@ -40,38 +80,74 @@ pub fn sheet_table(sheet: &Sheet) -> Json {
                 } else {
                     "-infinity"
                 };
-                (Json::from(shown), NumberFormat::General.code())
+                (TableValue::Text(shown.to_string()), general())
             }
-            Value::Link { text, .. } => (Json::from(text.as_str()), NumberFormat::General.code()),
-            Value::Blank => (Json::Null, NumberFormat::General.code()),
+            Value::Link { text, .. } => (TableValue::Text(text.clone()), general()),
+            Value::Blank => (TableValue::Blank, general()),
         };
         values[row][col] = value;
-        formats[row][col] = Json::from(format);
+        formats[row][col] = format;
         if placed.look == Look::ColumnHeader && header_rows.last() != Some(&placed.row) {
             header_rows.push(placed.row);
         }
     }
-    json!({
-        "name": sheet.name,
-        "values": values,
-        "numberFormats": formats,
-        "headerRows": header_rows,
-        "columnWidths": sheet.widths.iter().map(|(col, width)| json!([col, width])).collect::<Vec<_>>(),
-        "frozenRows": sheet.frozen_rows,
-    })
+    SheetTable {
+        name: sheet.name.clone(),
+        values,
+        number_formats: formats,
+        header_rows,
+        column_widths: sheet.widths.clone(),
+        frozen_rows: sheet.frozen_rows,
+        charts: sheet.charts.iter().map(chart_description).collect(),
+    }
 }
 
 /// Every visible sheet of a results book as a table.
-pub fn book_tables(book: &Book) -> Json {
+pub fn book_tables(book: &Book) -> Vec<SheetTable> {
     // A hidden sheet (the results document) is for programs reading the
     // file; the client already has the results in the answer.
-    Json::Array(
-        book.sheets
-            .iter()
-            .filter(|sheet| !sheet.hidden)
-            .map(sheet_table)
-            .collect(),
-    )
+    book.sheets
+        .iter()
+        .filter(|sheet| !sheet.hidden)
+        .map(sheet_table)
+        .collect()
+}
+
+/// A range of a chart's data as its sheet and A1 address.
+fn range_description(range: &SheetRange) -> Json {
+    let rect = CellRect {
+        first: CellPos::new(range.first_row, u32::from(range.first_col)),
+        last: CellPos::new(range.last_row, u32::from(range.last_col)),
+    };
+    json!({ "sheet": range.sheet, "range": rect.a1() })
+}
+
+/// One chart as data: kind (`points`, `lines`, `scatter`, `columns`),
+/// titles, the top-left cell it sits at, its size in pixels and its series.
+pub fn chart_description(chart: &ChartSpec) -> Json {
+    let kind = match chart.kind {
+        ChartKind::Points => "points",
+        ChartKind::Lines => "lines",
+        ChartKind::Scatter => "scatter",
+        ChartKind::Columns => "columns",
+    };
+    let anchor = CellPos::new(chart.anchor.0, u32::from(chart.anchor.1));
+    json!({
+        "kind": kind,
+        "title": chart.title,
+        "xTitle": chart.x_title,
+        "yTitle": chart.y_title,
+        "anchor": anchor.a1(),
+        "size": [chart.size.0, chart.size.1],
+        "series": chart.series.iter().map(|series| json!({
+            "name": series.name,
+            "categories": range_description(&series.categories),
+            "values": range_description(&series.values),
+            "barPlus": series.bar_plus.as_ref().map(range_description),
+            "barMinus": series.bar_minus.as_ref().map(range_description),
+            "labels": series.labels.as_ref().map(range_description),
+        })).collect::<Vec<_>>(),
+    })
 }
 
 fn kind_name(kind: FindingKind) -> String {
@@ -162,7 +238,7 @@ mod tests {
             ],
         );
         sheet.put(4, 3, Value::p_value(0.01), Look::Plain);
-        let table = sheet_table(&sheet);
+        let table = serde_json::to_value(sheet_table(&sheet)).unwrap_or(Json::Null);
         assert_eq!(table["values"].as_array().map(Vec::len), Some(5));
         assert_eq!(table["values"][0][1], "mean");
         assert_eq!(table["values"][1][1], 1.25);

@@ -37,7 +37,9 @@ pub mod write;
 
 pub use failure::{describe_failure, error_chain, FailureReport, Problem, ServiceError};
 pub use load::{inspect_workbook, sha256_file, AnalysisRequest, CancelFlag};
-pub use orchestrate::{analyse_grid, analyse_workbook, conditions_of, unit_of, MAX_CONDITIONS, MAX_RESPONSES};
+pub use orchestrate::{
+    analyse_grid, analyse_workbook, conditions_of, inspect_grid, unit_of, MAX_CONDITIONS, MAX_RESPONSES,
+};
 pub use paths::{
     collect_workbooks, has_workbook_extension, inside_any, is_ignored_file_name, output_folder_for,
     output_name_among_siblings, output_names, problems_path_for, problems_path_named, relative_to_workbook,

@@ -12,8 +12,8 @@ use workbook_io::{SheetGrid, SheetInfo};
 use crate::failure::ServiceError;
 use crate::load::{load, settings_sources, summarise_table, table_request, CancelFlag, Loaded};
 use crate::results::{
-    now_rfc3339, standard_cautions, LeadChoice, LeadKind, ResponseOutcome, ResponseResult, SourceInfo, Timings,
-    WorkbookResults, RESULTS_FORMAT_VERSION, TOOL_NAME, TOOL_VERSION,
+    now_rfc3339, standard_cautions, Inspection, LeadChoice, LeadKind, ResponseOutcome, ResponseResult, SourceInfo,
+    Timings, WorkbookResults, RESULTS_FORMAT_VERSION, TOOL_NAME, TOOL_VERSION,
 };
 use crate::settings::Settings;
 use crate::AnalysisRequest;
@@ -71,9 +71,32 @@ pub fn analyse_grid(
     source_name: &str,
     cancel: &CancelFlag,
 ) -> Result<WorkbookResults, ServiceError> {
-    let path = PathBuf::from(source_name);
+    let loaded = load_grid(grid, settings, source_name)?;
+    analyse_loaded(Path::new(source_name), loaded, cancel)
+}
+
+/// What would be analysed in cells that a client sent: the table found and
+/// every data problem with its cell, without analysing (the add-in's
+/// "findings only" command).
+///
+/// # Errors
+///
+/// [`ServiceError::NoTable`] when the cells hold no trial table.
+pub fn inspect_grid(grid: &SheetGrid, settings: &Settings, source_name: &str) -> Result<Inspection, ServiceError> {
+    let loaded = load_grid(grid, settings, source_name)?;
+    Ok(Inspection {
+        source: loaded.source,
+        sheets: loaded.sheets,
+        table: summarise_table(&loaded.table),
+        settings: loaded.settings,
+        findings: loaded.findings,
+    })
+}
+
+/// The table of cells sent by a client, as loading a workbook would give it.
+fn load_grid(grid: &SheetGrid, settings: &Settings, source_name: &str) -> Result<Loaded, ServiceError> {
     let table = detect_table(grid, &table_request(settings, None)).map_err(|error| ServiceError::NoTable {
-        path: path.clone(),
+        path: PathBuf::from(source_name),
         reasons: error.to_string(),
     })?;
     let mut table = table;
@@ -87,7 +110,7 @@ pub fn analyse_grid(
         sheet: table.sheet.clone(),
         range: table.area.a1(),
     };
-    let loaded = Loaded {
+    Ok(Loaded {
         source,
         sheets: vec![SheetInfo {
             name: grid.name.clone(),
@@ -98,8 +121,7 @@ pub fn analyse_grid(
         settings_sources: settings_sources(settings, &Settings::default(), &Settings::default()),
         findings,
         timings: Timings::default(),
-    };
-    analyse_loaded(&path, loaded, cancel)
+    })
 }
 
 /// The conditions of a table: one factor's levels, or the observed

@@ -11,8 +11,10 @@ use serde::Serialize;
 use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
 
 use crate::report::document::{read_results_document, DocumentError};
+/// What a one-factor size question should detect (re-exported for front ends).
+pub use engine::analysis::power::OneWayEffect;
 use engine::analysis::power::{
-    check_one_way, one_way_power, one_way_runs_needed, pairs_plan, two_level_effect_power, OneWayEffect, PAIRS_METHOD,
+    check_one_way, one_way_power, one_way_runs_needed, pairs_plan, two_level_effect_power, PAIRS_METHOD,
 };
 use engine::stats::two_level::{minimum_aberration_design, DefiningRelation, DEFAULT_SEARCH_BUDGET};
 use engine::stats::StatsError;

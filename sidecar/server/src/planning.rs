@@ -1,0 +1,278 @@
+//! The params of the plan and size requests (`trialyst/planTrial`,
+//! `trialyst/sizeTrial`), checked by hand into the service's request types.
+//!
+//! The plans and answers themselves come from [`service::plan`]; this module
+//! only reads fields, naming the field in every error.
+
+use serde_json::{Map, Value};
+use tower_lsp_server::ls_types::ProgressToken;
+
+use super::from_proto::{describe, error, params_object, work_done_token, ParamsError};
+use service::plan::size::{OneWayEffect, SdSource, SizeDesign};
+use service::plan::{FactorSpec, PlanRequest, SizeRequest};
+
+/// Level of the test when the client gives none (as `trialyst size`).
+pub const DEFAULT_ALPHA: f64 = 0.05;
+/// Wanted power when the client gives none (as `trialyst size`).
+pub const DEFAULT_POWER: f64 = 0.8;
+
+/// What `trialyst/planTrial` carries.
+#[derive(Debug, Clone)]
+pub struct PlanParams {
+    /// The plan asked for.
+    pub request: PlanRequest,
+    /// The client's progress token.
+    pub work_done_token: Option<ProgressToken>,
+}
+
+/// What `trialyst/sizeTrial` carries.
+#[derive(Debug, Clone)]
+pub struct SizeParams {
+    /// The question asked.
+    pub request: SizeRequest,
+    /// The client's progress token.
+    pub work_done_token: Option<ProgressToken>,
+}
+
+fn optional_count(map: &Map<String, Value>, key: &str) -> Result<Option<usize>, ParamsError> {
+    match map.get(key) {
+        None | Some(Value::Null) => Ok(None),
+        Some(Value::Number(number)) => match number.as_u64().and_then(|whole| usize::try_from(whole).ok()) {
+            Some(whole) => Ok(Some(whole)),
+            None => Err(error(
+                format!("params.{key}"),
+                format!("expected a whole number of 0 or more, got {}", describe(&map[key])),
+            )),
+        },
+        Some(other) => Err(error(
+            format!("params.{key}"),
+            format!("expected a whole number, got {}", describe(other)),
+        )),
+    }
+}
+
+fn optional_number(map: &Map<String, Value>, key: &str) -> Result<Option<f64>, ParamsError> {
+    match map.get(key) {
+        None | Some(Value::Null) => Ok(None),
+        Some(Value::Number(number)) => Ok(number.as_f64()),
+        Some(Value::String(text)) if text.trim().parse::<f64>().is_ok() => Ok(text.trim().parse::<f64>().ok()),
+        Some(other) => Err(error(
+            format!("params.{key}"),
+            format!("expected a number, got {}", describe(other)),
+        )),
+    }
+}
+
+fn optional_flag(map: &Map<String, Value>, key: &str) -> Result<Option<bool>, ParamsError> {
+    match map.get(key) {
+        None | Some(Value::Null) => Ok(None),
+        Some(Value::Bool(flag)) => Ok(Some(*flag)),
+        Some(other) => Err(error(
+            format!("params.{key}"),
+            format!("expected true or false, got {}", describe(other)),
+        )),
+    }
+}
+
+/// A value of a list as text (a level may be sent as a number).
+fn item_text(value: &Value, field: &str) -> Result<String, ParamsError> {
+    match value {
+        Value::String(text) => Ok(text.trim().to_string()),
+        Value::Number(number) => Ok(number.to_string()),
+        other => Err(error(
+            field,
+            format!("expected text or a number, got {}", describe(other)),
+        )),
+    }
+}
+
+fn text_list(map: &Map<String, Value>, key: &str) -> Result<Vec<String>, ParamsError> {
+    match map.get(key) {
+        None | Some(Value::Null) => Ok(Vec::new()),
+        Some(Value::Array(items)) => items
+            .iter()
+            .enumerate()
+            .map(|(index, item)| item_text(item, &format!("params.{key}[{index}]")))
+            .collect(),
+        Some(Value::String(text)) => Ok(vec![text.trim().to_string()]),
+        Some(other) => Err(error(
+            format!("params.{key}"),
+            format!("expected a list of texts, got {}", describe(other)),
+        )),
+    }
+}
+
+/// One factor: `{"name": "Temperature", "levels": [160, 180]}`.
+fn factor(value: &Value, field: &str) -> Result<FactorSpec, ParamsError> {
+    let Value::Object(map) = value else {
+        return Err(error(
+            field,
+            format!(
+                "expected an object with a name and levels, such as {{\"name\": \"Temperature\", \"levels\": [160, 180]}}, got {}",
+                describe(value)
+            ),
+        ));
+    };
+    let name = match map.get("name") {
+        Some(Value::String(text)) if !text.trim().is_empty() => text.clone(),
+        _ => return Err(error(format!("{field}.name"), "missing; every factor needs a name")),
+    };
+    let levels = match map.get("levels") {
+        Some(Value::Array(items)) => items
+            .iter()
+            .enumerate()
+            .map(|(index, item)| item_text(item, &format!("{field}.levels[{index}]")))
+            .collect::<Result<Vec<String>, ParamsError>>()?,
+        Some(other) => {
+            return Err(error(
+                format!("{field}.levels"),
+                format!("expected a list of levels, got {}", describe(other)),
+            ))
+        }
+        None => return Err(error(format!("{field}.levels"), "missing; give the factor's levels")),
+    };
+    let level_texts: Vec<&str> = levels.iter().map(String::as_str).collect();
+    Ok(FactorSpec::new(&name, &level_texts))
+}
+
+/// Reads the params of `trialyst/planTrial`: `factors` (each a name and its
+/// levels), `responses`, and optional `replicates`, `centrePoints`,
+/// `blocks`, `fractionRuns`, `generators`, `seed`, `date`.
+///
+/// # Errors
+///
+/// [`ParamsError`] naming the field.
+pub fn plan_params(params: &Value) -> Result<PlanParams, ParamsError> {
+    let map = params_object(params)?;
+    let factors = match map.get("factors") {
+        Some(Value::Array(items)) => items
+            .iter()
+            .enumerate()
+            .map(|(index, item)| factor(item, &format!("params.factors[{index}]")))
+            .collect::<Result<Vec<FactorSpec>, ParamsError>>()?,
+        Some(other) => {
+            return Err(error(
+                "params.factors",
+                format!("expected a list of factors, got {}", describe(other)),
+            ))
+        }
+        None => return Err(error("params.factors", "missing; give the factors and their levels")),
+    };
+    let seed = match map.get("seed") {
+        None | Some(Value::Null) => None,
+        Some(Value::Number(number)) if number.as_u64().is_some() => number.as_u64(),
+        Some(other) => {
+            return Err(error(
+                "params.seed",
+                format!("expected a whole number of 0 or more, got {}", describe(other)),
+            ))
+        }
+    };
+    let date = match map.get("date") {
+        None | Some(Value::Null) => None,
+        Some(value) => Some(item_text(value, "params.date")?),
+    };
+    let request = PlanRequest {
+        factors,
+        responses: text_list(map, "responses")?,
+        replicates: optional_count(map, "replicates")?.unwrap_or(1),
+        centre_points: optional_count(map, "centrePoints")?.unwrap_or(0),
+        blocks: optional_count(map, "blocks")?.unwrap_or(1),
+        fraction_runs: optional_count(map, "fractionRuns")?,
+        generators: text_list(map, "generators")?,
+        seed,
+        date,
+    };
+    Ok(PlanParams {
+        request,
+        work_done_token: work_done_token(map)?,
+    })
+}
+
+/// Reads the params of `trialyst/sizeTrial`. A one-factor trial gives
+/// `conditions` and `smallestDifference`, or `means`; a two-level trial
+/// gives `factors` (a count) and `effect`, with optional
+/// `runsPerReplicate`, `centrePoints` and `mainEffectsOnly`. Both give
+/// `sd`, and optionally `alpha`, `power` and (one factor) `halfWidth`.
+///
+/// # Errors
+///
+/// [`ParamsError`] naming the field.
+pub fn size_params(params: &Value) -> Result<SizeParams, ParamsError> {
+    let map = params_object(params)?;
+    let sd = optional_number(map, "sd")?.ok_or_else(|| {
+        error(
+            "params.sd",
+            "missing; give the standard deviation of a single run (from the last trial or a guess)",
+        )
+    })?;
+    let two_level = optional_count(map, "factors")?;
+    let design = match two_level {
+        Some(factors) => SizeDesign::TwoLevel {
+            factors,
+            runs_per_replicate: optional_count(map, "runsPerReplicate")?,
+            centre_points: optional_count(map, "centrePoints")?.unwrap_or(0),
+            interactions: !optional_flag(map, "mainEffectsOnly")?.unwrap_or(false),
+            effect: optional_number(map, "effect")?.ok_or_else(|| {
+                error(
+                    "params.effect",
+                    "missing; a two-level trial needs the effect worth detecting (high minus low)",
+                )
+            })?,
+        },
+        None => {
+            let means = match map.get("means") {
+                None | Some(Value::Null) => Vec::new(),
+                Some(Value::Array(items)) => items
+                    .iter()
+                    .enumerate()
+                    .map(|(index, item)| {
+                        item.as_f64().ok_or_else(|| {
+                            error(
+                                format!("params.means[{index}]"),
+                                format!("expected a number, got {}", describe(item)),
+                            )
+                        })
+                    })
+                    .collect::<Result<Vec<f64>, ParamsError>>()?,
+                Some(other) => {
+                    return Err(error(
+                        "params.means",
+                        format!("expected a list of numbers, got {}", describe(other)),
+                    ))
+                }
+            };
+            let difference = optional_number(map, "smallestDifference")?;
+            let effect = match (difference, means.is_empty()) {
+                (Some(delta), true) => OneWayEffect::SmallestDifference(delta),
+                (None, false) => OneWayEffect::Means(means),
+                (Some(_), false) => {
+                    return Err(error("params.means", "give either smallestDifference or means, not both"))
+                }
+                (None, true) => {
+                    return Err(error(
+                        "params.smallestDifference",
+                        "missing; give the smallest difference worth detecting, or means, or factors and effect for a two-level trial",
+                    ))
+                }
+            };
+            let conditions = match (optional_count(map, "conditions")?, &effect) {
+                (Some(count), _) => count,
+                (None, OneWayEffect::Means(means)) => means.len(),
+                (None, _) => return Err(error("params.conditions", "missing; give the number of conditions")),
+            };
+            SizeDesign::OneWay { conditions, effect }
+        }
+    };
+    let request = SizeRequest {
+        design,
+        sd: SdSource::Given(sd),
+        alpha: optional_number(map, "alpha")?.unwrap_or(DEFAULT_ALPHA),
+        power: optional_number(map, "power")?.unwrap_or(DEFAULT_POWER),
+        half_width: optional_number(map, "halfWidth")?,
+    };
+    Ok(SizeParams {
+        request,
+        work_done_token: work_done_token(map)?,
+    })
+}
