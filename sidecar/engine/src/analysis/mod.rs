@@ -8,4 +8,5 @@ pub mod factorial;
 pub mod letters;
 pub mod oneway;
 pub mod power;
+pub mod surface;
 pub mod verdict;
