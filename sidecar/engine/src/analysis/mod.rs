@@ -6,6 +6,7 @@ pub mod comparisons;
 pub mod contrast;
 pub mod factorial;
 pub mod letters;
+pub mod next_trial;
 pub mod oneway;
 pub mod power;
 pub mod surface;
