@@ -4,6 +4,7 @@
 pub mod assessment;
 pub mod comparisons;
 pub mod contrast;
+pub mod desirability;
 pub mod factorial;
 pub mod letters;
 pub mod next_trial;
