@@ -749,4 +749,6 @@ pub fn recommend_after_surface(outcome: &SurfaceOutcome) -> Recommendation {
 }
 
 #[cfg(test)]
+mod loop_tests;
+#[cfg(test)]
 mod tests;
