@@ -68,6 +68,18 @@ fn analyse(case: &ReferenceCase, direction: Option<Direction>) -> SurfaceOutcome
     .expect("fit")
 }
 
+/// The fit of `data` with a direction, at 95% confidence.
+fn fit_towards(data: &SurfaceData, direction: Direction) -> SurfaceOutcome {
+    analyse_surface(
+        data,
+        &SurfaceOptions {
+            confidence: 0.95,
+            direction: Some(direction),
+        },
+    )
+    .expect("fit")
+}
+
 /// Every value of the case to at least `digits` correct digits; returns the smallest LRE.
 #[allow(clippy::print_stdout)]
 fn check_case(name: &str, case: &ReferenceCase, digits: f64) -> f64 {
@@ -181,14 +193,7 @@ fn a_maximum_inside_the_region_is_recommended_with_its_kind_and_eigenvalues() {
     // B = [[-2, 0.5], [0.5, -3]]: eigenvalues (-5 ± √2)/2 = -1.7929, -3.2071 (algebra).
     // b = (1, -1): x_s = -B⁻¹ b / 2 = (5/23, -3/23) (algebra: det B = 23/4).
     let data = exact_surface([1.0, -1.0], 1.0, [-2.0, -3.0], &SMALL_NOISE);
-    let outcome = analyse_surface(
-        &data,
-        &SurfaceOptions {
-            confidence: 0.95,
-            direction: Some(Direction::HigherIsBetter),
-        },
-    )
-    .expect("fit");
+    let outcome = fit_towards(&data, Direction::HigherIsBetter);
     let point = outcome.stationary.as_ref().expect("stationary");
     assert_eq!(point.kind, StationaryKind::Maximum);
     assert!(point.inside_region);
@@ -216,14 +221,7 @@ fn a_maximum_inside_the_region_is_recommended_with_its_kind_and_eigenvalues() {
 fn a_saddle_is_read_as_one_and_the_ridge_is_followed() {
     // B = diag(2, -3): a saddle (eigenvalues of both signs).
     let data = exact_surface([1.0, 1.0], 0.0, [2.0, -3.0], &SMALL_NOISE);
-    let outcome = analyse_surface(
-        &data,
-        &SurfaceOptions {
-            confidence: 0.95,
-            direction: Some(Direction::HigherIsBetter),
-        },
-    )
-    .expect("fit");
+    let outcome = fit_towards(&data, Direction::HigherIsBetter);
     assert_eq!(
         outcome.stationary.as_ref().expect("stationary").kind,
         StationaryKind::Saddle
@@ -246,14 +244,7 @@ fn a_saddle_is_read_as_one_and_the_ridge_is_followed() {
 fn a_maximum_outside_the_region_leads_to_ridge_analysis() {
     // b = (6, 0), B = diag(-1, -2): maximum at x1 = 3, beyond the radius √2.
     let data = exact_surface([6.0, 0.0], 0.0, [-1.0, -2.0], &SMALL_NOISE);
-    let outcome = analyse_surface(
-        &data,
-        &SurfaceOptions {
-            confidence: 0.95,
-            direction: Some(Direction::HigherIsBetter),
-        },
-    )
-    .expect("fit");
+    let outcome = fit_towards(&data, Direction::HigherIsBetter);
     let point = outcome.stationary.as_ref().expect("stationary");
     assert_eq!(point.kind, StationaryKind::Maximum);
     assert!(!point.inside_region && (point.coded[0] - 3.0).abs() < 0.05);
@@ -264,14 +255,7 @@ fn a_maximum_outside_the_region_leads_to_ridge_analysis() {
         .as_deref()
         .is_some_and(|why| why.contains("outside")));
     // Lowest instead: the ridge goes the other way.
-    let lowest = analyse_surface(
-        &data,
-        &SurfaceOptions {
-            confidence: 0.95,
-            direction: Some(Direction::LowerIsBetter),
-        },
-    )
-    .expect("fit");
+    let lowest = fit_towards(&data, Direction::LowerIsBetter);
     assert!(lowest.ridge.last().expect("ridge").coded[0] < -1.0);
 }
 
