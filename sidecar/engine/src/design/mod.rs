@@ -7,6 +7,7 @@
 //! plan.
 
 pub mod random;
+pub mod surface;
 
 use std::fmt;
 

@@ -1,0 +1,297 @@
+//! The second-order analysis checked against statsmodels 0.15.0 OLS and
+//! numpy 2.4.6 (`reference_values.rs`, made by
+//! `testdata/make_surface_reference.py`), and on surfaces known by
+//! construction (exact quadratics, where the stationary point and the
+//! eigenvalues follow by algebra).
+
+use super::*;
+use crate::analysis::surface::reference_values::{
+    FOUR_FACTORS_THREE_BLOCKS, THREE_FACTORS_TWO_BLOCKS, TWO_FACTORS_TWO_BLOCKS,
+};
+
+/// One random quadratic surface with blocks and the reference library's answers.
+pub struct ReferenceCase {
+    pub centre: &'static [f64],
+    pub half_range: &'static [f64],
+    pub settings: &'static [&'static [f64]],
+    pub blocks: &'static [usize],
+    pub values: &'static [f64],
+    pub intercept: f64,
+    pub coefficients: &'static [f64],
+    pub standard_errors: &'static [f64],
+    pub sequential_ss: &'static [f64],
+    pub blocks_ss: f64,
+    pub residual_ss: f64,
+    pub residual_df: usize,
+    pub pure_error_ss: f64,
+    pub pure_error_df: usize,
+    pub lack_of_fit_f: f64,
+    pub stationary_coded: &'static [f64],
+    pub eigenvalues: &'static [f64],
+    pub point: &'static [f64],
+    pub prediction: [f64; 5],
+}
+
+/// Log relative error: correct significant digits (common practice for
+/// reference checks, as in the NIST StRD reports).
+fn lre(value: f64, reference: f64) -> f64 {
+    if value == reference {
+        return 16.0;
+    }
+    if reference == 0.0 {
+        return -value.abs().log10();
+    }
+    (-((value - reference).abs() / reference.abs()).log10()).min(16.0)
+}
+
+fn analyse(case: &ReferenceCase, direction: Option<Direction>) -> SurfaceOutcome {
+    let k = case.centre.len();
+    let data = SurfaceData {
+        factor_names: (0..k).map(|i| format!("X{}", i + 1)).collect(),
+        coding: case
+            .centre
+            .iter()
+            .copied()
+            .zip(case.half_range.iter().copied())
+            .collect(),
+        settings: case.settings.iter().map(|row| row.to_vec()).collect(),
+        blocks: case.blocks.to_vec(),
+        values: case.values.to_vec(),
+    };
+    analyse_surface(
+        &data,
+        &SurfaceOptions {
+            confidence: 0.95,
+            direction,
+        },
+    )
+    .expect("fit")
+}
+
+/// The fit of `data` with a direction, at 95% confidence.
+fn fit_towards(data: &SurfaceData, direction: Direction) -> SurfaceOutcome {
+    analyse_surface(
+        data,
+        &SurfaceOptions {
+            confidence: 0.95,
+            direction: Some(direction),
+        },
+    )
+    .expect("fit")
+}
+
+/// Every value of the case to at least `digits` correct digits; returns the smallest LRE.
+#[allow(clippy::print_stdout)]
+fn check_case(name: &str, case: &ReferenceCase, digits: f64) -> f64 {
+    let outcome = analyse(case, None);
+    let mut worst = f64::INFINITY;
+    let mut check = |what: &str, value: f64, reference: f64| {
+        let found = lre(value, reference);
+        assert!(
+            found >= digits,
+            "{name} {what}: {value} vs {reference} (LRE {found:.1})"
+        );
+        worst = worst.min(found);
+    };
+    check("intercept", outcome.coefficients[0].estimate, case.intercept);
+    for (index, (&reference, &se)) in case.coefficients.iter().zip(case.standard_errors).enumerate() {
+        let line = &outcome.coefficients[index + 1];
+        check(&line.term, line.estimate, reference);
+        check(&format!("se {}", line.term), line.se.expect("se"), se);
+    }
+    let line = |source: &str| outcome.anova.iter().find(|line| line.source == source).expect(source);
+    check("blocks ss", line("Blocks").sum_sq, case.blocks_ss);
+    check("linear ss", line("Linear").sum_sq, case.sequential_ss[0]);
+    check("interaction ss", line("Interaction").sum_sq, case.sequential_ss[1]);
+    check("square ss", line("Square").sum_sq, case.sequential_ss[2]);
+    check("residual ss", line("Residual").sum_sq, case.residual_ss);
+    assert_eq!(outcome.residual_df, case.residual_df);
+    check("pure error ss", line("Pure error").sum_sq, case.pure_error_ss);
+    assert_eq!(line("Pure error").df, case.pure_error_df);
+    check(
+        "lack of fit F",
+        line("Lack of fit").f_value.expect("F"),
+        case.lack_of_fit_f,
+    );
+    let stationary = outcome.stationary.as_ref().expect("stationary point");
+    for (value, reference) in stationary.coded.iter().zip(case.stationary_coded) {
+        check("stationary point", *value, *reference);
+    }
+    for (value, reference) in stationary.eigenvalues.iter().zip(case.eigenvalues) {
+        check("eigenvalue", *value, *reference);
+    }
+    let prediction = outcome.predict(case.point).expect("prediction");
+    let found = [
+        prediction.predicted,
+        prediction.mean_low,
+        prediction.mean_high,
+        prediction.new_run_low,
+        prediction.new_run_high,
+    ];
+    for (value, reference) in found.iter().zip(case.prediction) {
+        check("prediction", *value, reference);
+    }
+    println!("{name}: smallest LRE {worst:.1}");
+    worst
+}
+
+#[test]
+fn random_surfaces_with_blocks_match_the_reference_library() {
+    // Ten correct digits or more for every value (the t quantile behind the
+    // intervals is itself good to about 13).
+    check_case("two factors, two blocks", &TWO_FACTORS_TWO_BLOCKS, 10.0);
+    check_case("three factors, two blocks", &THREE_FACTORS_TWO_BLOCKS, 10.0);
+    check_case("four factors, three blocks", &FOUR_FACTORS_THREE_BLOCKS, 10.0);
+}
+
+/// A rotatable two-factor central composite plan with five centre runs,
+/// filled from a known quadratic (coded units) plus small fixed deviations.
+fn exact_surface(linear: [f64; 2], interaction: f64, squares: [f64; 2], noise: &[f64]) -> SurfaceData {
+    let alpha = 2f64.sqrt();
+    let mut coded = vec![
+        [-1.0, -1.0],
+        [1.0, -1.0],
+        [-1.0, 1.0],
+        [1.0, 1.0],
+        [-alpha, 0.0],
+        [alpha, 0.0],
+        [0.0, -alpha],
+        [0.0, alpha],
+    ];
+    coded.extend(std::iter::repeat_n([0.0, 0.0], 5));
+    let coding = vec![(100.0, 10.0), (5.0, 0.5)];
+    let values = coded
+        .iter()
+        .enumerate()
+        .map(|(index, x)| {
+            50.0 + linear[0] * x[0]
+                + linear[1] * x[1]
+                + interaction * x[0] * x[1]
+                + squares[0] * x[0] * x[0]
+                + squares[1] * x[1] * x[1]
+                + noise.get(index).copied().unwrap_or(0.0)
+        })
+        .collect();
+    SurfaceData {
+        factor_names: vec!["Temperature".into(), "Pressure".into()],
+        settings: coded
+            .iter()
+            .map(|x| vec![100.0 + 10.0 * x[0], 5.0 + 0.5 * x[1]])
+            .collect(),
+        coding,
+        blocks: Vec::new(),
+        values,
+    }
+}
+
+const SMALL_NOISE: [f64; 13] = [
+    0.01, -0.02, 0.015, 0.0, -0.01, 0.02, -0.015, 0.005, 0.01, -0.01, 0.0, 0.02, -0.02,
+];
+
+#[test]
+fn a_maximum_inside_the_region_is_recommended_with_its_kind_and_eigenvalues() {
+    // B = [[-2, 0.5], [0.5, -3]]: eigenvalues (-5 ± √2)/2 = -1.7929, -3.2071 (algebra).
+    // b = (1, -1): x_s = -B⁻¹ b / 2 = (5/23, -3/23) (algebra: det B = 23/4).
+    let data = exact_surface([1.0, -1.0], 1.0, [-2.0, -3.0], &SMALL_NOISE);
+    let outcome = fit_towards(&data, Direction::HigherIsBetter);
+    let point = outcome.stationary.as_ref().expect("stationary");
+    assert_eq!(point.kind, StationaryKind::Maximum);
+    assert!(point.inside_region);
+    assert!(
+        (point.coded[0] - 5.0 / 23.0).abs() < 0.01 && (point.coded[1] + 3.0 / 23.0).abs() < 0.01,
+        "{:?}",
+        point.coded
+    );
+    assert!((point.real[0] - (100.0 + 50.0 / 23.0)).abs() < 0.1 && (point.real[1] - (5.0 - 1.5 / 23.0)).abs() < 0.005);
+    assert!((point.eigenvalues[0] - (-5.0 + 2f64.sqrt()) / 2.0).abs() < 0.02);
+    assert!((point.eigenvalues[1] - (-5.0 - 2f64.sqrt()) / 2.0).abs() < 0.02);
+    let recommended = outcome.recommended.as_ref().expect("recommended");
+    assert!(recommended
+        .coded
+        .iter()
+        .zip(&point.coded)
+        .all(|(a, b)| (a - b).abs() < 1e-12));
+    assert!(recommended.new_run_low < recommended.mean_low && recommended.mean_high < recommended.new_run_high);
+    assert!(outcome.ridge.is_empty());
+    // The centre runs give pure error, so lack of fit is tested.
+    assert!(outcome.anova.iter().any(|line| line.source == "Lack of fit"));
+}
+
+#[test]
+fn a_saddle_is_read_as_one_and_the_ridge_is_followed() {
+    // B = diag(2, -3): a saddle (eigenvalues of both signs).
+    let data = exact_surface([1.0, 1.0], 0.0, [2.0, -3.0], &SMALL_NOISE);
+    let outcome = fit_towards(&data, Direction::HigherIsBetter);
+    assert_eq!(
+        outcome.stationary.as_ref().expect("stationary").kind,
+        StationaryKind::Saddle
+    );
+    assert_eq!(outcome.ridge.len(), RIDGE_STEPS + 1);
+    // Each ridge point lies on its sphere and beats every other point of the sphere tried.
+    for ridge in &outcome.ridge {
+        let norm = ridge.coded.iter().map(|x| x * x).sum::<f64>().sqrt();
+        assert!((norm - ridge.radius).abs() < 1e-6 * (1.0 + ridge.radius));
+        for step in 0..360 {
+            let angle = f64::from(step).to_radians();
+            let other = [ridge.radius * angle.cos(), ridge.radius * angle.sin()];
+            assert!(outcome.predict_coded(&other) <= ridge.predicted + 1e-9);
+        }
+    }
+    assert!(outcome.recommended.is_some() && outcome.recommended_reason.is_some());
+}
+
+#[test]
+fn a_maximum_outside_the_region_leads_to_ridge_analysis() {
+    // b = (6, 0), B = diag(-1, -2): maximum at x1 = 3, beyond the radius √2.
+    let data = exact_surface([6.0, 0.0], 0.0, [-1.0, -2.0], &SMALL_NOISE);
+    let outcome = fit_towards(&data, Direction::HigherIsBetter);
+    let point = outcome.stationary.as_ref().expect("stationary");
+    assert_eq!(point.kind, StationaryKind::Maximum);
+    assert!(!point.inside_region && (point.coded[0] - 3.0).abs() < 0.05);
+    let last = outcome.ridge.last().expect("ridge");
+    assert!((last.coded[0] - 2f64.sqrt()).abs() < 0.02 && last.coded[1].abs() < 0.02);
+    assert!(outcome
+        .recommended_reason
+        .as_deref()
+        .is_some_and(|why| why.contains("outside")));
+    // Lowest instead: the ridge goes the other way.
+    let lowest = fit_towards(&data, Direction::LowerIsBetter);
+    assert!(lowest.ridge.last().expect("ridge").coded[0] < -1.0);
+}
+
+#[test]
+fn runs_that_cannot_fit_the_squares_are_refused() {
+    // A two-level plan with centre runs cannot separate the two squares.
+    let mut settings = Vec::new();
+    for a in [90.0, 110.0] {
+        for b in [4.5, 5.5] {
+            settings.push(vec![a, b]);
+            settings.push(vec![a, b]);
+        }
+    }
+    settings.extend(std::iter::repeat_n(vec![100.0, 5.0], 4));
+    let values = (0..settings.len()).map(|index| index as f64).collect();
+    let data = SurfaceData {
+        factor_names: vec!["A".into(), "B".into()],
+        coding: vec![(100.0, 10.0), (5.0, 0.5)],
+        settings,
+        blocks: Vec::new(),
+        values,
+    };
+    let error = analyse_surface(&data, &SurfaceOptions::default()).expect_err("squares aliased");
+    assert!(
+        matches!(error, SurfaceError::NotEstimable { ref term } if term == "B²"),
+        "{error}"
+    );
+}
+
+#[test]
+fn coding_from_settings_reads_composite_and_three_level_plans() {
+    // Five settings (central composite): the second and fourth are the cube.
+    assert_eq!(
+        coding_from_settings(&[80.0, 90.0, 100.0, 110.0, 120.0, 100.0]),
+        Some((100.0, 10.0))
+    );
+    assert_eq!(coding_from_settings(&[90.0, 100.0, 110.0]), Some((100.0, 10.0)));
+    assert_eq!(coding_from_settings(&[5.0, 5.0]), None);
+}
