@@ -22,5 +22,6 @@ mod hostile;
 mod lsp;
 mod nist;
 mod plan;
+mod print_layout;
 mod results_snapshot;
 mod watch;
