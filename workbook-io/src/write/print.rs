@@ -284,17 +284,21 @@ pub fn plan_sheet(sheet: &Sheet) -> SheetPrint {
             page_start = row;
             used = 0.0;
         }
-        // At the start of a run of filled rows, see whether the whole run fits.
+        // At the start of a run of filled rows, see whether the whole run fits. A run
+        // that moves takes the blank row above it along: spreadsheet programs place a
+        // chart by its own measure of the rows above it, so a chart that starts right at
+        // a break can show its top edge at the foot of the page before.
         if filled(row) && (row == 0 || !filled(row - 1)) && row > page_start {
             let mut end = row;
             while end < last_row && filled(end + 1) && !forced.contains(&(end + 1)) {
                 end += 1;
             }
             let run: f64 = (row..=end).map(height_of).sum();
-            if used + run > capacity_of(page_start) && run <= capacity_of(row) {
-                breaks.push(row);
-                page_start = row;
-                used = 0.0;
+            if used + run > capacity_of(page_start) && run + height_of(row - 1) <= capacity_of(row) {
+                let at = if row - 1 > page_start { row - 1 } else { row };
+                breaks.push(at);
+                page_start = at;
+                used = (at..row).map(height_of).sum();
             }
         }
         // A chart starting here moves whole to the next page when it does not fit.
@@ -304,6 +308,9 @@ pub fn plan_sheet(sheet: &Sheet) -> SheetPrint {
                 if used + span > capacity_of(page_start) {
                     let mut at = row;
                     while at > page_start + 1 && keeps_with_next(at - 1) {
+                        at -= 1;
+                    }
+                    if at == row && at > page_start + 1 && !filled(at - 1) {
                         at -= 1;
                     }
                     breaks.push(at);
@@ -414,7 +421,7 @@ mod tests {
         });
         let print = plan_sheet(&sheet);
         // 25 rows of 15 pt and a 225-pt chart do not fit one landscape page at 100%
-        // (about 450 pt), so the chart starts a page.
-        assert_eq!(print.breaks, vec![26]);
+        // (about 450 pt), so the chart starts a page, with the blank row above it.
+        assert_eq!(print.breaks, vec![25]);
     }
 }
