@@ -21,6 +21,7 @@ mod golden_plan;
 mod hostile;
 mod lsp;
 mod nist;
+mod options;
 mod plan;
 mod print_layout;
 mod results_snapshot;

@@ -616,5 +616,8 @@ mod tests {
         assert_eq!(unit_of("Thickness (mm)"), Some("mm".into()));
         assert_eq!(unit_of("Yield [%]"), Some("%".into()));
         assert_eq!(unit_of("Yield"), None);
+        // A repeated header renamed with a number keeps the unit of the header it repeats.
+        assert_eq!(unit_of("Tensile strength (MPa) (2)"), Some("MPa".into()));
+        assert_eq!(unit_of("Yield (2)"), None);
     }
 }

@@ -796,10 +796,13 @@ fn build_chart(spec: &ChartSpec, height: u32, cells: &CellLookup<'_>) -> Chart {
             {
                 let (min, max) = axis_around(low, high);
                 chart.x_axis().set_min(min).set_max(max);
-                // The value axis crosses at the left edge, so labels stay clear of points.
+                // Each axis sits at the other's low end (the vertical one at the left, the
+                // horizontal one at the foot), so their labels stay clear of the points.
+                chart.x_axis().set_crossing(rust_xlsxwriter::ChartAxisCrossing::Min);
                 chart.y_axis().set_crossing(rust_xlsxwriter::ChartAxisCrossing::Min);
             }
             chart.x_axis().set_label_position(ChartAxisLabelPosition::Low);
+            chart.y_axis().set_label_position(ChartAxisLabelPosition::Low);
         }
     }
     // Category labels: turned when they are too long to stand side by side.
