@@ -648,6 +648,29 @@ fn provenance_sheet(results: &WorkbookResults) -> Sheet {
     for contrast in &results.settings.contrasts {
         rows.push(("contrast".into(), contrast.clone()));
     }
+    // Which way is better, for every response and per response, as the analysis used it.
+    let direction_text = |direction: &engine::options::Direction| match direction {
+        engine::options::Direction::HigherIsBetter => "higher is better".to_string(),
+        engine::options::Direction::LowerIsBetter => "lower is better".to_string(),
+        engine::options::Direction::Target(target) => format!("nearest to {target} is better"),
+    };
+    rows.push((
+        "direction".into(),
+        results
+            .settings
+            .direction
+            .as_ref()
+            .map_or_else(|| "not given (no best condition is chosen)".to_string(), direction_text),
+    ));
+    for named in &results.settings.response_directions {
+        rows.push((
+            format!("direction for '{}'", named.response),
+            direction_text(&named.direction),
+        ));
+    }
+    if let Some(control) = &results.settings.control {
+        rows.push(("control".into(), control.clone()));
+    }
     for (key, origin) in &results.settings_sources {
         rows.push((format!("setting '{key}' from"), origin.clone()));
     }
