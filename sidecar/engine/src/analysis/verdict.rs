@@ -524,8 +524,26 @@ pub fn read_factorial(
             .unwrap_or_default();
         details.push(format!("{capitalised}."));
     }
+    // The headline already gives the largest effect, and the lines below give the
+    // highest and lowest combinations: the reading's own sentences for them are not
+    // repeated.
+    let headline_effect = sizes
+        .first()
+        .and_then(|size| size.label.split(" from ").next())
+        .map(|factor| format!("Moving {factor} from its low to its high level"));
     for line in &outcome.summary {
         if direction.is_none() && (line.starts_with("Recommended settings") || line.contains(" is best (")) {
+            continue;
+        }
+        if headline_effect
+            .as_ref()
+            .is_some_and(|start| line.starts_with(start.as_str()))
+        {
+            continue;
+        }
+        if direction.is_none()
+            && (line.starts_with("No direction was given") || line.starts_with("Among the combinations run"))
+        {
             continue;
         }
         details.push(line.clone());
