@@ -217,6 +217,9 @@ pub(crate) struct Loaded {
     pub(crate) table: TrialTable,
     pub(crate) settings: Settings,
     pub(crate) settings_sources: Vec<(String, String)>,
+    /// The responses named by directions in the request itself (command line or
+    /// protocol): one naming no response is a mistake in the request.
+    pub(crate) requested_directions: Vec<String>,
     pub(crate) findings: Vec<Finding>,
     pub(crate) timings: Timings,
 }
@@ -379,7 +382,13 @@ fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> R
                         reasons: error.to_string(),
                     });
                 }
-                reasons.push(error.to_string());
+                // The failure already says "no trial table found"; each sheet's reason
+                // says only what was looked for there.
+                reasons.push(
+                    error
+                        .to_string()
+                        .replacen(": no trial table found; looked for ", ": looked for ", 1),
+                );
             }
         }
     }
@@ -416,6 +425,12 @@ fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> R
         table,
         settings,
         settings_sources: sources,
+        requested_directions: request
+            .settings
+            .response_directions
+            .iter()
+            .map(|named| named.response.clone())
+            .collect(),
         findings,
         timings: Timings::default(),
     })

@@ -18,6 +18,8 @@ use crate::results::{
 use crate::settings::Settings;
 use crate::AnalysisRequest;
 use engine::analysis::contrast::parse_contrasts;
+
+use crate::settings::NAMES_NOTHING;
 use engine::analysis::oneway::{fit_one_way, OneWayError, OneWayFit};
 
 /// Most conditions compared in one response. Every pair of conditions is
@@ -39,6 +41,11 @@ pub fn unit_of(header: &str) -> Option<String> {
         if trimmed.ends_with(close) {
             if let Some(start) = trimmed.rfind(open) {
                 let unit = trimmed[start + 1..trimmed.len() - 1].trim();
+                // "(2)" is the number given to a repeated header, not a unit: the unit,
+                // if any, is in the header before it ("Tensile strength (MPa) (2)").
+                if !unit.is_empty() && unit.chars().all(|c| c.is_ascii_digit()) {
+                    return unit_of(&trimmed[..start]);
+                }
                 if !unit.is_empty() && unit.len() <= 20 {
                     return Some(unit.to_string());
                 }
@@ -119,6 +126,12 @@ fn load_grid(grid: &SheetGrid, settings: &Settings, source_name: &str) -> Result
         table,
         settings: settings.clone(),
         settings_sources: settings_sources(settings, &Settings::default(), &Settings::default()),
+        // Cells sent with their settings: every setting is the caller's own.
+        requested_directions: settings
+            .response_directions
+            .iter()
+            .map(|named| named.response.clone())
+            .collect(),
         findings,
         timings: Timings::default(),
     })
@@ -174,6 +187,7 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
         mut table,
         settings,
         settings_sources,
+        requested_directions,
         mut findings,
         mut timings,
         ..
@@ -199,18 +213,21 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
     }
     let (condition_factor, condition_names, groups) = conditions_of(&table);
     let confidence = settings.confidence_level();
+    // A contrast, a direction or a control that names nothing in the table is a mistake
+    // in the request, not in the data: it stops the analysis with the names that would
+    // work (a usage error on the command line, InvalidParams in the protocol).
+    let quoted =
+        |names: &mut dyn Iterator<Item = &str>| names.map(|name| format!("'{name}'")).collect::<Vec<_>>().join(", ");
     let mut contrasts = Vec::new();
     for text in &settings.contrasts {
         match parse_contrasts(text, &condition_names) {
             Ok(mut parsed) => contrasts.append(&mut parsed),
-            Err(error) => findings.push(Finding {
-                kind: FindingKind::Setting,
-                sheet: String::new(),
-                cell: None,
-                found: text.clone(),
-                action: "the contrast was left out".into(),
-                message: error.to_string(),
-            }),
+            Err(error) => {
+                // The parser's message names the contrast and lists the conditions.
+                return Err(ServiceError::Settings(format!(
+                    "{error} (the contrast {NAMES_NOTHING} it can use)"
+                )));
+            }
         }
     }
     for named in &settings.response_directions {
@@ -219,6 +236,14 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             .iter()
             .any(|response| crate::settings::names_response(&named.response, &response.name))
         {
+            let responses = quoted(&mut table.responses.iter().map(|response| response.name.as_str()));
+            if requested_directions.contains(&named.response) {
+                return Err(ServiceError::Settings(format!(
+                    "the direction for '{}' {NAMES_NOTHING}: there is no response of that name (the responses are {responses})",
+                    named.response,
+                )));
+            }
+            // From a settings sheet or folder file shared by several workbooks: a note.
             findings.push(Finding {
                 kind: FindingKind::Setting,
                 sheet: String::new(),
@@ -226,16 +251,18 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
                 found: format!("direction for '{}'", named.response),
                 action: "the direction was not used".into(),
                 message: format!(
-                    "a direction was given for '{}', but the table has no response of that name (responses: {})",
+                    "a direction was given for '{}', but the table has no response of that name (responses: {responses})",
                     named.response,
-                    table
-                        .responses
-                        .iter()
-                        .map(|response| format!("'{}'", response.name))
-                        .collect::<Vec<_>>()
-                        .join(", ")
                 ),
             });
+        }
+    }
+    if let Some(control) = &settings.control {
+        if !condition_names.iter().any(|name| name == control) {
+            return Err(ServiceError::Settings(format!(
+                "the control '{control}' {NAMES_NOTHING}: it is not one of the conditions (the conditions are {})",
+                quoted(&mut condition_names.iter().map(String::as_str))
+            )));
         }
     }
     let mut responses = Vec::new();
@@ -271,7 +298,7 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
                     kind: FindingKind::TooFewValues,
                     sheet: table.sheet.clone(),
                     cell,
-                    found: format!("{count} value(s)"),
+                    found: engine::analysis::verdict::count_of(count, "value"),
                     action: action.into(),
                     message: format!(
                         "condition '{}' {detail} for '{}'; its spread cannot be judged on its own",
@@ -726,5 +753,8 @@ mod tests {
         assert_eq!(unit_of("Thickness (mm)"), Some("mm".into()));
         assert_eq!(unit_of("Yield [%]"), Some("%".into()));
         assert_eq!(unit_of("Yield"), None);
+        // A repeated header renamed with a number keeps the unit of the header it repeats.
+        assert_eq!(unit_of("Tensile strength (MPa) (2)"), Some("MPa".into()));
+        assert_eq!(unit_of("Yield (2)"), None);
     }
 }

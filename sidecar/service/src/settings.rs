@@ -194,21 +194,31 @@ fn list(value: &str) -> Vec<String> {
 ///
 /// Returns `None` for anything outside (0, 1) after that reading.
 pub fn parse_confidence(value: &str) -> Option<f64> {
+    const CONFIDENCE_RANGE: std::ops::Range<f64> = 0.5..1.0;
     let text = value.trim();
     let (number_text, percent) = match text.strip_suffix('%') {
         Some(stripped) => (stripped.trim(), true),
         None => (text, false),
     };
     let number: f64 = number_text.parse().ok()?;
-    // A bare number above 1 is read as a percentage only where it plausibly is
-    // one (50 to 100); 1.5 is more likely a typing slip than 1.5%.
+    // Three forms only: a fraction (0.95), a bare percentage (95) or a percentage with
+    // its sign (95%), each at least 50% and below 100%. A confidence below 50% is a
+    // typing slip ("0.5%" meant 95%? 99.5%?), never a level anyone wants.
     let level = if percent || (50.0..100.0).contains(&number) {
         number / 100.0
     } else {
         number
     };
-    (level > 0.0 && level < 1.0).then_some(level)
+    (CONFIDENCE_RANGE.contains(&level)).then_some(level)
 }
+
+/// Said of a contrast, a direction or a control that names no condition or response of
+/// the table; front ends treat such a failure as a mistake in the request (the command
+/// line's usage error, the protocol's InvalidParams).
+pub const NAMES_NOTHING: &str = "names nothing in the table";
+
+/// The forms a confidence level may take, for messages.
+pub const CONFIDENCE_FORMS: &str = "a level from 50% up to (not including) 100%, written 0.95, 95 or 95%";
 
 /// Reads a direction: `higher`, `lower`, or `target 12.5`.
 pub fn parse_direction(value: &str) -> Option<Direction> {
@@ -289,11 +299,11 @@ impl Settings {
                 "value name" => settings.value_name = Some(value.to_string()).filter(|text| !text.is_empty()),
                 "confidence" => match parse_confidence(value) {
                     Some(level) => settings.confidence = Some(level),
-                    None => errors.push(bad("a level between 0 and 1, such as 0.95 or 95%")),
+                    None => errors.push(bad(CONFIDENCE_FORMS)),
                 },
                 "family confidence" => match parse_confidence(value) {
                     Some(level) => settings.family_confidence = Some(level),
-                    None => errors.push(bad("a level between 0 and 1, such as 0.95 or 95%")),
+                    None => errors.push(bad(CONFIDENCE_FORMS)),
                 },
                 "contrast" | "contrasts" => {
                     if !value.is_empty() {
@@ -454,6 +464,11 @@ mod tests {
         assert_eq!(parse_direction("Lower is better"), Some(Direction::LowerIsBetter));
         assert_eq!(parse_confidence("95"), Some(0.95));
         assert_eq!(parse_confidence("0"), None);
+        assert_eq!(parse_confidence("0.95"), Some(0.95));
+        assert_eq!(parse_confidence("95%"), Some(0.95));
+        assert_eq!(parse_confidence("0.5%"), None);
+        assert_eq!(parse_confidence("0.3"), None);
+        assert_eq!(parse_confidence("100"), None);
         assert_eq!(parse_interaction_order("2"), Some(Some(2)));
         assert_eq!(parse_interaction_order("All"), Some(None));
         assert_eq!(parse_interaction_order("0"), None);

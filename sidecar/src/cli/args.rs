@@ -157,8 +157,8 @@ pub struct RunArgs {
     #[arg(long)]
     pub no_write: bool,
     /// Workbooks analysed at once (default: the number of cores).
-    #[arg(long)]
-    pub jobs: Option<usize>,
+    #[arg(long, value_parser = parse_jobs)]
+    pub jobs: Option<u64>,
     /// Write a roll-up workbook: one row per workbook and response, and a chart of the verdicts.
     #[arg(long, value_name = "FILE")]
     pub rollup: Option<PathBuf>,
@@ -271,6 +271,16 @@ pub(crate) fn table_settings(table: &TableArgs) -> Result<Settings, UsageError> 
     })
 }
 
+/// Reads `--jobs`: a whole number of at least 1.
+fn parse_jobs(text: &str) -> Result<u64, String> {
+    match text.trim().parse::<u64>() {
+        Ok(jobs) if jobs >= 1 => Ok(jobs),
+        _ => Err(format!(
+            "give the number of workbooks to analyse at once, 1 or more, not '{text}'"
+        )),
+    }
+}
+
 /// The settings given by analysis options on the command line.
 ///
 /// # Errors
@@ -281,7 +291,8 @@ pub fn analysis_settings(args: &AnalysisArgs) -> Result<Settings, UsageError> {
     if let Some(text) = &args.confidence {
         settings.confidence = Some(parse_confidence(text).ok_or_else(|| {
             UsageError(format!(
-                "--confidence must be between 0 and 1 (or a percentage), not '{text}'"
+                "--confidence must be {}, not '{text}'",
+                service::settings::CONFIDENCE_FORMS
             ))
         })?);
     }

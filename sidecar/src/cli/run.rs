@@ -56,9 +56,9 @@ pub(crate) fn human_line(path: &Path, outcome: &RunOutcome) -> String {
                 .map(|path| format!(" -> {}", path.display()))
                 .unwrap_or_default();
             format!(
-                "analysed {}{target} ({} finding(s))\n  {}",
+                "analysed {}{target} ({})\n  {}",
                 path.display(),
-                results.findings.len(),
+                engine::analysis::verdict::count_of(results.findings.len(), "finding"),
                 verdicts.join("\n  ")
             )
         }
@@ -233,12 +233,24 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
     } else {
         0.0
     };
-    eprintln!("trialyst: {analysed} analysed, {failed} failed in {seconds:.1} s ({rate:.0} workbooks/s){rollup_note}");
+    // A speed only means something for workbooks that were analysed.
+    let speed = if analysed > 0 {
+        format!(" ({rate:.0} workbooks/s)")
+    } else {
+        String::new()
+    };
+    eprintln!("trialyst: {analysed} analysed, {failed} failed in {seconds:.1} s{speed}{rollup_note}");
     if workbooks.is_empty() && problems.is_empty() {
         eprintln!("trialyst: no workbooks found in the paths given");
         return EXIT_SOME_FAILED;
     }
-    if failed > 0 {
+    // A contrast, direction or control naming nothing in the table is a usage error.
+    let names_nothing = outcomes.iter().any(
+        |outcome| matches!(outcome, RunOutcome::Failed(message) if message.contains(service::settings::NAMES_NOTHING)),
+    );
+    if names_nothing {
+        EXIT_USAGE
+    } else if failed > 0 {
         EXIT_SOME_FAILED
     } else {
         EXIT_OK
@@ -265,6 +277,7 @@ pub(crate) fn run_command(args: RunArgs) -> i32 {
     }
     let jobs = args
         .jobs
+        .map(|jobs| usize::try_from(jobs).unwrap_or(usize::MAX))
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
         .max(1);
     let options = BatchOptions {

@@ -74,7 +74,13 @@ pub(crate) fn size_command(args: SizeArgs) -> i32 {
         Ok(answer) => answer,
         Err(error) => {
             eprintln!("trialyst: {}", error_chain(&error));
-            return EXIT_SOME_FAILED;
+            // An input outside what the computation accepts (one condition, a power of
+            // 1) is a usage error like any other bad option.
+            return if matches!(error, service::plan::SizeError::Stats(_)) {
+                EXIT_USAGE
+            } else {
+                EXIT_SOME_FAILED
+            };
         }
     };
     if let Some(out) = &args.out {

@@ -753,10 +753,19 @@ impl Watcher {
                     "analysed",
                     &relative,
                     &format!(
-                        "{} finding(s) -> {}; {}",
-                        findings,
+                        "{} -> {}; {}",
+                        if findings == 1 {
+                            "1 finding".to_string()
+                        } else {
+                            format!("{findings} findings")
+                        },
                         self.shown(&results_file),
-                        verdicts.join("; ")
+                        // Each verdict is a sentence; joined, they lose their own full stops.
+                        verdicts
+                            .iter()
+                            .map(|verdict| verdict.trim_end_matches('.'))
+                            .collect::<Vec<_>>()
+                            .join("; ")
                     ),
                 );
             }

@@ -4,6 +4,7 @@
 
 pub mod blessing;
 pub mod corpus;
+pub mod print_check;
 pub mod shapes;
 
 use std::path::{Path, PathBuf};
@@ -181,6 +182,7 @@ pub fn trialyst(folder: &Path, args: &[&str]) -> Run {
     );
     let before = workbook_snapshot(folder);
     let results_before = results_workbooks_under(folder);
+    let written_before = our_workbooks_under(folder);
     let output = Command::new(&binary)
         .args(args)
         .current_dir(folder)
@@ -190,6 +192,12 @@ pub fn trialyst(folder: &Path, args: &[&str]) -> Run {
     for (path, modified) in results_workbooks_under(folder) {
         if !results_before.contains(&(path.clone(), modified)) {
             check_named_sheets_exist(&path);
+        }
+    }
+    // Every workbook the run wrote prints well (checked on the xlsx itself).
+    for (path, modified) in our_workbooks_under(folder) {
+        if !written_before.contains(&(path.clone(), modified)) {
+            print_check::assert_prints_well(&path);
         }
     }
     Run {
@@ -357,18 +365,28 @@ pub fn zip_entry_names(path: &Path) -> Vec<String> {
 /// its sub-folders a few levels down, with its modification time, so that
 /// [`trialyst`] can check each one a run writes.
 pub fn results_workbooks_under(folder: &Path) -> Vec<(PathBuf, Option<std::time::SystemTime>)> {
+    our_workbooks_under(folder)
+        .into_iter()
+        .filter(|(path, _)| {
+            path.file_name()
+                .is_some_and(|name| name.to_string_lossy().ends_with(service::RESULTS_SUFFIX))
+        })
+        .collect()
+}
+
+/// Every xlsx under `folder` (three levels down) that is not a lock or temporary file,
+/// with its modification time: after a run, the new or changed ones are the program's.
+pub fn our_workbooks_under(folder: &Path) -> Vec<(PathBuf, Option<std::time::SystemTime>)> {
     fn walk(folder: &Path, depth: u32, found: &mut Vec<(PathBuf, Option<std::time::SystemTime>)>) {
         let Ok(entries) = std::fs::read_dir(folder) else {
             return;
         };
         for entry in entries.filter_map(Result::ok) {
             let path = entry.path();
+            let name = entry.file_name().to_string_lossy().into_owned();
             if path.is_dir() && depth > 0 {
                 walk(&path, depth - 1, found);
-            } else if path
-                .file_name()
-                .is_some_and(|name| name.to_string_lossy().ends_with(service::RESULTS_SUFFIX))
-            {
+            } else if name.ends_with(".xlsx") && !name.starts_with(['~', '.']) {
                 let modified = std::fs::metadata(&path).and_then(|meta| meta.modified()).ok();
                 found.push((path, modified));
             }

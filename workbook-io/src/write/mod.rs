@@ -6,12 +6,16 @@
 //! written to a hidden temporary name in the destination folder and renamed
 //! into place, so a results file is either complete or absent.
 
+use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
+pub mod print;
+
 use rust_xlsxwriter::{
-    Chart, ChartDataLabel, ChartErrorBars, ChartErrorBarsType, ChartFormat, ChartLine, ChartMarker, ChartMarkerType,
-    ChartRange, ChartSolidFill, Color, DataValidation, DataValidationErrorStyle, DataValidationRule, DocProperties,
-    ExcelDateTime, Format, FormatAlign, FormatBorder, Formula, Workbook as XlsxWorkbook, XlsxError,
+    Chart, ChartAxisLabelPosition, ChartDataLabel, ChartEmptyCells, ChartErrorBars, ChartErrorBarsType, ChartFont,
+    ChartFormat, ChartLine, ChartMarker, ChartMarkerType, ChartRange, ChartSolidFill, Color, DataValidation,
+    DataValidationErrorStyle, DataValidationRule, DocProperties, ExcelDateTime, Format, FormatAlign, FormatBorder,
+    Formula, Workbook as XlsxWorkbook, XlsxError,
 };
 
 /// The longest text a cell may hold in xlsx.
@@ -238,11 +242,10 @@ pub struct Sheet {
     pub heights: Vec<(u32, f64)>,
     /// Areas where typing is limited to numbers.
     pub number_only: Vec<NumberOnly>,
-    /// Printed in portrait rather than landscape (still fitted to the page width).
+    /// Printed in portrait rather than landscape.
     pub portrait: bool,
-    /// Rows, zero-based, that start a new printed page. A sheet with breaks
-    /// is printed at 100% rather than fitted to the page width, so its
-    /// columns must fit the page by themselves.
+    /// Rows, zero-based, that must start a new printed page; the writer adds the
+    /// other breaks itself (see [`print`]).
     pub page_breaks: Vec<u32>,
     /// Hidden from the sheet tabs (the spreadsheet's "unhide" shows it). A
     /// hidden sheet must not be the book's first: the first sheet is the
@@ -514,15 +517,24 @@ struct Looks {
     verdict: Format,
     key: Format,
     paragraph: Format,
+    link: Format,
 }
 
 impl Looks {
     fn new() -> Self {
         let ink = Color::RGB(0x1F2A44);
         Self {
-            plain: Format::new(),
-            title: Format::new().set_bold().set_font_size(15).set_font_color(ink),
-            heading: Format::new().set_bold().set_font_size(12).set_font_color(ink),
+            plain: Format::new().set_align(FormatAlign::Top),
+            title: Format::new()
+                .set_bold()
+                .set_font_size(15)
+                .set_font_color(ink)
+                .set_align(FormatAlign::Top),
+            heading: Format::new()
+                .set_bold()
+                .set_font_size(12)
+                .set_font_color(ink)
+                .set_align(FormatAlign::Top),
             column_header: Format::new()
                 .set_bold()
                 .set_text_wrap()
@@ -535,18 +547,26 @@ impl Looks {
                 .set_text_wrap()
                 .set_align(FormatAlign::Top)
                 .set_font_color(Color::RGB(0x505A64)),
-            note_line: Format::new().set_italic().set_font_color(Color::RGB(0x505A64)),
+            note_line: Format::new()
+                .set_italic()
+                .set_font_color(Color::RGB(0x505A64))
+                .set_align(FormatAlign::Top),
             caution: Format::new()
                 .set_bold()
                 .set_font_color(Color::RGB(0x8A3B00))
-                .set_text_wrap(),
+                .set_text_wrap()
+                .set_align(FormatAlign::Top),
             verdict: Format::new()
                 .set_bold()
                 .set_font_size(12)
                 .set_text_wrap()
                 .set_align(FormatAlign::Top),
-            key: Format::new().set_bold(),
+            key: Format::new().set_bold().set_align(FormatAlign::Top),
             paragraph: Format::new().set_text_wrap().set_align(FormatAlign::Top),
+            link: Format::new()
+                .set_font_color(Color::RGB(0x0563C1))
+                .set_underline(rust_xlsxwriter::FormatUnderline::Single)
+                .set_align(FormatAlign::Top),
         }
     }
 
@@ -587,38 +607,40 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
     workbook.set_properties(&properties);
     let mut number_formats: std::collections::HashMap<(NumberFormat, Look, bool), Format> =
         std::collections::HashMap::new();
+    let cells = CellLookup::new(book);
     for sheet in &book.sheets {
         let worksheet = workbook.add_worksheet();
         worksheet.set_name(&sheet.name)?;
         for (col, width) in &sheet.widths {
             worksheet.set_column_width(*col, *width)?;
         }
-        // Printed, every sheet fits the page width, in landscape unless asked otherwise.
+        // Printed in landscape unless asked otherwise, at a scale and with page breaks
+        // planned so that it prints alike on A4 and Letter (see `print`).
         if sheet.portrait {
             worksheet.set_portrait();
         } else {
             worksheet.set_landscape();
         }
-        // Spreadsheet programs ignore manual page breaks on a sheet scaled to
-        // fit, so a sheet with breaks is printed at its own size (its columns
-        // are chosen to fit the page).
-        if sheet.page_breaks.is_empty() {
-            worksheet.set_print_fit_to_pages(1, 0);
-        } else {
-            let mut breaks: Vec<u32> = sheet.page_breaks.iter().copied().filter(|&row| row > 0).collect();
-            breaks.sort_unstable();
-            breaks.dedup();
-            // The file format holds at most 1,023 manual breaks a sheet.
-            breaks.truncate(1_023);
-            worksheet.set_page_breaks(&breaks)?;
+        let layout = print::plan_sheet(sheet);
+        worksheet.set_print_scale(layout.scale);
+        if !layout.breaks.is_empty() {
+            worksheet.set_page_breaks(&layout.breaks)?;
+        }
+        if sheet.frozen_rows > 0 {
+            worksheet.set_repeat_rows(0, sheet.frozen_rows - 1)?;
         }
         // Rows given a height hold paragraphs: their notes wrap; elsewhere a
         // note is one line (a wrapped note in a narrow table column would be
         // cut off at the row's height).
         let paragraph_rows: std::collections::HashSet<u32> = sheet.heights.iter().map(|(row, _)| *row).collect();
-        for (row, height) in &sheet.heights {
+        for (row, height) in &layout.heights {
             worksheet.set_row_height(*row, *height)?;
         }
+        let merged: HashMap<(u32, u16), u16> = layout
+            .merges
+            .iter()
+            .map(|(row, col, last)| ((*row, *col), *last))
+            .collect();
         if sheet.frozen_rows > 0 {
             worksheet.set_freeze_panes(sheet.frozen_rows, 0)?;
         }
@@ -631,6 +653,15 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
             } else {
                 looks.get(placed.look)
             };
+            if let (Some(last), Value::Text(text)) = (merged.get(&(placed.row, placed.col)), &placed.value) {
+                let wrapped = format.clone().set_text_wrap().set_align(FormatAlign::Top);
+                if *last > placed.col {
+                    worksheet.merge_range(placed.row, placed.col, placed.row, *last, clip_text(text), &wrapped)?;
+                } else {
+                    worksheet.write_string_with_format(placed.row, placed.col, clip_text(text), &wrapped)?;
+                }
+                continue;
+            }
             match &placed.value {
                 Value::Text(text) => {
                     worksheet.write_string_with_format(placed.row, placed.col, clip_text(text), format)?;
@@ -640,6 +671,9 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
                         .entry((*number_format, placed.look, paragraph_rows.contains(&placed.row)))
                         .or_insert_with(|| format.clone().set_num_format(number_format.code()));
                     worksheet.write_number_with_format(placed.row, placed.col, *number, &*with_number)?;
+                }
+                Value::Number(_, _) if cells.is_plotted(&sheet.name, placed.row, placed.col) => {
+                    // Left blank so that the chart leaves a gap instead of drawing 0.
                 }
                 Value::Number(number, _) => {
                     let shown = if number.is_nan() {
@@ -653,7 +687,7 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
                 }
                 Value::Link { target, text } => {
                     let url = rust_xlsxwriter::Url::new(target.as_str()).set_text(clip_text(text));
-                    worksheet.write_url(placed.row, placed.col, url)?;
+                    worksheet.write_url_with_format(placed.row, placed.col, url, &looks.link)?;
                 }
                 Value::Blank => {}
             }
@@ -678,8 +712,8 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
                 &validation,
             )?;
         }
-        for spec in &sheet.charts {
-            let chart = build_chart(spec);
+        for (spec, height) in sheet.charts.iter().zip(&layout.chart_heights) {
+            let chart = build_chart(spec, *height, &cells);
             worksheet.insert_chart(spec.anchor.0, spec.anchor.1, &chart)?;
         }
     }
@@ -688,18 +722,204 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
 
 const SERIES_COLOURS: [u32; 6] = [0x2F5D8C, 0xC0504D, 0x4E8F3A, 0x8064A2, 0xD08A20, 0x3A8FA0];
 
-fn build_chart(spec: &ChartSpec) -> Chart {
+/// Every cell of a book by sheet, row and column, for charts that need the numbers and
+/// labels their ranges hold.
+struct CellLookup<'book> {
+    cells: HashMap<(&'book str, u32, u16), &'book Value>,
+    /// Cells that a chart plots as values: a non-finite number there is left blank (a
+    /// gap in the chart) rather than written as text, which charts draw as 0.
+    plotted: std::collections::HashSet<(&'book str, u32, u16)>,
+}
+
+impl<'book> CellLookup<'book> {
+    fn new(book: &'book Book) -> Self {
+        let mut cells = HashMap::new();
+        let mut plotted = std::collections::HashSet::new();
+        for sheet in &book.sheets {
+            for placed in &sheet.cells {
+                cells.insert((sheet.name.as_str(), placed.row, placed.col), &placed.value);
+            }
+            for chart in &sheet.charts {
+                for series in &chart.series {
+                    for (row, col) in series.values.cells() {
+                        plotted.insert((series.values.sheet.as_str(), row, col));
+                    }
+                }
+            }
+        }
+        Self { cells, plotted }
+    }
+
+    fn number(&self, sheet: &str, row: u32, col: u16) -> Option<f64> {
+        match self.cells.get(&(sheet, row, col)) {
+            Some(Value::Number(number, _)) if number.is_finite() => Some(*number),
+            _ => None,
+        }
+    }
+
+    fn text(&self, sheet: &str, row: u32, col: u16) -> String {
+        match self.cells.get(&(sheet, row, col)) {
+            Some(Value::Text(text)) => text.clone(),
+            Some(Value::Link { text, .. }) => text.clone(),
+            Some(Value::Number(number, _)) if number.is_finite() => number.to_string(),
+            _ => String::new(),
+        }
+    }
+
+    fn is_plotted(&self, sheet: &str, row: u32, col: u16) -> bool {
+        self.plotted.contains(&(sheet, row, col))
+    }
+}
+
+impl SheetRange {
+    /// The (row, column) of every cell of the range, row by row.
+    pub fn cells(&self) -> impl Iterator<Item = (u32, u16)> + '_ {
+        (self.first_row..=self.last_row)
+            .flat_map(move |row| (self.first_col..=self.last_col).map(move |col| (row, col)))
+    }
+}
+
+/// A value axis from `low` to `high` widened by a twentieth of the span on each side and
+/// rounded out to a step of 1, 2 or 5 times a power of ten (common practice for chart
+/// axes), so that the data and their intervals fill the chart instead of sitting on a
+/// line far from an axis forced to 0.
+pub fn axis_around(low: f64, high: f64) -> (f64, f64) {
+    let span = high - low;
+    let pad = if span > 0.0 {
+        span / 20.0
+    } else if low != 0.0 {
+        low.abs() / 10.0
+    } else {
+        1.0
+    };
+    let (low, high) = (low - pad, high + pad);
+    let rough = (high - low) / 6.0;
+    let power = 10f64.powf(rough.log10().floor());
+    let step = [1.0, 2.0, 5.0, 10.0]
+        .iter()
+        .map(|factor| factor * power)
+        .find(|step| *step >= rough)
+        .unwrap_or(10.0 * power);
+    ((low / step).floor() * step, (high / step).ceil() * step)
+}
+
+/// The least and greatest of a series' plotted values and, where it has interval bars,
+/// of the bars' ends.
+fn series_extent(series: &Series, cells: &CellLookup<'_>) -> Option<(f64, f64)> {
+    let sheet = series.values.sheet.as_str();
+    let mut extent: Option<(f64, f64)> = None;
+    let mut widen = |value: f64| {
+        extent = Some(extent.map_or((value, value), |(low, high)| (low.min(value), high.max(value))));
+    };
+    for (index, (row, col)) in series.values.cells().enumerate() {
+        let Some(value) = cells.number(sheet, row, col) else {
+            continue;
+        };
+        widen(value);
+        let bar = |range: &Option<SheetRange>| {
+            range.as_ref().and_then(|range| {
+                range
+                    .cells()
+                    .nth(index)
+                    .and_then(|(row, col)| cells.number(&range.sheet, row, col))
+            })
+        };
+        if let Some(plus) = bar(&series.bar_plus) {
+            widen(value + plus);
+        }
+        if let Some(minus) = bar(&series.bar_minus) {
+            widen(value - minus);
+        }
+    }
+    extent
+}
+
+fn build_chart(spec: &ChartSpec, height: u32, cells: &CellLookup<'_>) -> Chart {
     let mut chart = match spec.kind {
         ChartKind::Points | ChartKind::Lines => Chart::new_line(),
         ChartKind::Scatter => Chart::new_scatter(),
         ChartKind::Columns => Chart::new_column(),
     };
-    chart.title().set_name(&spec.title);
-    chart.x_axis().set_name(&spec.x_title);
-    chart.y_axis().set_name(&spec.y_title);
-    chart.set_width(spec.size.0).set_height(spec.size.1);
+    // The chart's title no larger than a sheet heading.
+    chart
+        .title()
+        .set_name(&spec.title)
+        .set_font(ChartFont::new().set_size(12).set_bold());
+    // Chart text at 11 pt, like the sheet's, so that it stays legible at the smallest
+    // print scale.
+    let mut axis_font = ChartFont::new();
+    axis_font.set_size(11);
+    let mut name_font = axis_font.clone();
+    name_font.set_bold();
+    chart
+        .x_axis()
+        .set_name(&spec.x_title)
+        .set_name_font(&name_font)
+        .set_font(&axis_font);
+    chart
+        .y_axis()
+        .set_name(&spec.y_title)
+        .set_name_font(&name_font)
+        .set_font(&axis_font);
+    chart.legend().set_font(&axis_font);
+    chart.set_width(spec.size.0).set_height(height);
+    chart.show_empty_cells_as(ChartEmptyCells::Gaps);
     if spec.series.len() <= 1 {
         chart.legend().set_hidden();
+    }
+    // Value axes around the data and their intervals (counts in columns keep their 0).
+    if spec.kind != ChartKind::Columns {
+        let extent = spec
+            .series
+            .iter()
+            .filter_map(|series| series_extent(series, cells))
+            .reduce(|(a, b), (c, d)| (a.min(c), b.max(d)));
+        if let Some((low, high)) = extent {
+            let (min, max) = axis_around(low, high);
+            chart.y_axis().set_min(min).set_max(max);
+        }
+        if spec.kind == ChartKind::Scatter {
+            let xs: Vec<f64> = spec
+                .series
+                .iter()
+                .flat_map(|series| {
+                    series
+                        .categories
+                        .cells()
+                        .filter_map(|(row, col)| cells.number(&series.categories.sheet, row, col))
+                        .collect::<Vec<_>>()
+                })
+                .collect();
+            if let (Some(low), Some(high)) = (xs.iter().copied().reduce(f64::min), xs.iter().copied().reduce(f64::max))
+            {
+                let (min, max) = axis_around(low, high);
+                chart.x_axis().set_min(min).set_max(max);
+                // Each axis sits at the other's low end (the vertical one at the left, the
+                // horizontal one at the foot), so their labels stay clear of the points.
+                chart.x_axis().set_crossing(rust_xlsxwriter::ChartAxisCrossing::Min);
+                chart.y_axis().set_crossing(rust_xlsxwriter::ChartAxisCrossing::Min);
+            }
+            chart.x_axis().set_label_position(ChartAxisLabelPosition::Low);
+            chart.y_axis().set_label_position(ChartAxisLabelPosition::Low);
+        }
+    }
+    // Category labels: turned when they are too long to stand side by side.
+    if spec.kind != ChartKind::Scatter {
+        if let Some(series) = spec.series.first() {
+            let labels: Vec<String> = series
+                .categories
+                .cells()
+                .map(|(row, col)| cells.text(&series.categories.sheet, row, col))
+                .collect();
+            let longest = labels.iter().map(|label| label.chars().count()).max().unwrap_or(0);
+            // About 6 pixels a character at the axis's 10-pt type.
+            let room = f64::from(spec.size.0.saturating_sub(80)) / labels.len().max(1) as f64 / 6.0;
+            if longest as f64 > room {
+                let mut turned = axis_font.clone();
+                turned.set_rotation(-45);
+                chart.x_axis().set_font(&turned);
+            }
+        }
     }
     for (index, series_spec) in spec.series.iter().enumerate() {
         let colour = Color::RGB(SERIES_COLOURS[index % SERIES_COLOURS.len()]);
@@ -741,13 +961,20 @@ fn build_chart(spec: &ChartSpec) -> Chart {
             series.set_y_error_bars(&bars);
         }
         if let Some(labels) = &series_spec.labels {
-            // One label per point, each taking its text from one cell of the range.
-            let custom: Vec<ChartDataLabel> = (labels.first_row..=labels.last_row)
-                .flat_map(|row| (labels.first_col..=labels.last_col).map(move |col| (row, col)))
+            // One label per point with the text of its cell written into the chart
+            // itself: spreadsheet programs differ in showing labels that refer to cells,
+            // and some show the plotted value instead.
+            let custom: Vec<ChartDataLabel> = labels
+                .cells()
                 .map(|(row, col)| {
-                    ChartDataLabel::new()
-                        .set_value((labels.sheet.as_str(), row, col, row, col))
-                        .to_custom()
+                    let text = cells.text(&labels.sheet, row, col);
+                    let mut label = ChartDataLabel::new();
+                    if text.is_empty() {
+                        label.set_hidden();
+                    } else {
+                        label.set_value(text.as_str()).set_font(&axis_font);
+                    }
+                    label.to_custom()
                 })
                 .collect();
             series.set_custom_data_labels(&custom);

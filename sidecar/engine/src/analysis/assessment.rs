@@ -602,17 +602,17 @@ fn model_checks(
     }
     if let Some(normality) = &normality {
         readings.push(if normality.p < NON_NORMAL_P {
-            format!("Normality: the residuals are clearly not normal ({} p = {:.4}); see the probability plot.", normality.test, normality.p)
+            format!("Normality: the residuals are clearly not normal ({} {}); see the probability plot.", normality.test, crate::analysis::verdict::p_equals(normality.p))
         } else if normality.p < 0.05 {
-            format!("Normality: the residuals depart a little from normal ({} p = {:.3}); with moderate groups the ANOVA is robust to this.", normality.test, normality.p)
+            format!("Normality: the residuals depart a little from normal ({} {}); with moderate groups the ANOVA is robust to this.", normality.test, crate::analysis::verdict::p_equals(normality.p))
         } else {
-            format!("Normality: no sign that the residuals are not normal ({} p = {:.3}).", normality.test, normality.p)
+            format!("Normality: no sign that the residuals are not normal ({} {}).", normality.test, crate::analysis::verdict::p_equals(normality.p))
         });
     }
     readings.push(if outliers.is_empty() {
         "Outliers: no value stands out beyond what chance allows (externally studentized residuals, Bonferroni bound at 5%).".into()
     } else {
-        format!("Outliers: {} value(s) stand out beyond what chance allows; check them at their cells before trusting the comparison.", outliers.len())
+        format!("Outliers: {} beyond what chance allows; check {} at {} before trusting the comparison.", if outliers.len() == 1 { "1 value stands out".to_string() } else { format!("{} values stand out", outliers.len()) }, if outliers.len() == 1 { "it" } else { "them" }, if outliers.len() == 1 { "its cell" } else { "their cells" })
     });
     ModelChecks {
         levene: levene_test,

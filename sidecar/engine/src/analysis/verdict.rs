@@ -46,14 +46,26 @@ pub fn round_for_text(value: f64, digits: usize) -> String {
     }
 }
 
-/// Formats a p-value for a sentence.
-pub fn p_for_text(p: f64) -> String {
+/// A p-value for a sentence, with its relation: "p = 0.032", "p < 0.0001" (below what
+/// four decimals show), or "p not defined".
+pub fn p_equals(p: f64) -> String {
     if p.is_nan() {
-        "not defined".into()
+        "p not defined".into()
     } else if p < 0.0001 {
-        "below 0.0001".into()
+        "p < 0.0001".into()
     } else {
-        round_for_text(p, 2)
+        format!("p = {}", round_for_text(p, 2))
+    }
+}
+
+/// "1 value", "2 values": a count with its noun in the singular or the plural (the
+/// plural made by adding "s").
+pub fn count_of(count: impl TryInto<u64>, noun: &str) -> String {
+    let count: u64 = count.try_into().unwrap_or(u64::MAX);
+    if count == 1 {
+        format!("1 {noun}")
+    } else {
+        format!("{count} {noun}s")
     }
 }
 
@@ -106,15 +118,33 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment:
     let conditions_differ = if p.is_nan() { None } else { Some(p < alpha) };
     let headline = match conditions_differ {
         Some(true) => format!(
-            "The conditions differ in {response}: the trial shows it at {percent}% confidence (p = {}).",
-            p_for_text(p)
+            "The conditions differ in {response}: the trial shows it at {percent}% confidence ({}).",
+            p_equals(p)
         ),
         Some(false) => format!(
-            "The trial does not show that the conditions differ in {response} at {percent}% confidence (p = {}); differences this size could be chance.",
-            p_for_text(p)
+            "The trial does not show that the conditions differ in {response} at {percent}% confidence ({}); differences this size could be chance.",
+            p_equals(p)
         ),
+        None if single_values => format!(
+            "Whether the conditions differ in {response} cannot be judged: there is no spread within conditions to compare against (each condition needs repeated runs)."
+        ),
+        None if fit.conditions.iter().all(|condition| condition.sd == 0.0 || condition.n <= 1) => {
+            let all_alike = fit
+                .conditions
+                .windows(2)
+                .all(|pair| pair[0].mean == pair[1].mean);
+            if all_alike {
+                format!(
+                    "Whether the conditions differ in {response} cannot be judged: every value in the column is the same, so there is nothing to compare. Check that the column holds the measurements (the 'responses' setting names the columns to analyse)."
+                )
+            } else {
+                format!(
+                    "Whether the conditions differ in {response} cannot be judged: the values repeat exactly within each condition, so there is no run-to-run spread to compare the differences against. Check the measurement's resolution or that the values were not copied down."
+                )
+            }
+        }
         None => format!(
-            "Whether the conditions differ in {response} cannot be judged: there is no spread within conditions to compare against (each needs repeated values)."
+            "Whether the conditions differ in {response} cannot be judged: the analysis gives no p-value (there is no spread within conditions to compare against)."
         ),
     };
     let mut details = Vec::new();
@@ -130,13 +160,13 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment:
         fit.conditions.iter().min_by(|a, b| a.mean.total_cmp(&b.mean)),
     ) {
         details.push(format!(
-            "Highest average: {} ({}, from {} values). Lowest average: {} ({}, from {} values).",
+            "Highest average: {} ({}, from {}). Lowest average: {} ({}, from {}).",
             highest.name,
             with_unit(highest.mean, unit),
-            highest.n,
+            count_of(highest.n, "value"),
             lowest.name,
             with_unit(lowest.mean, unit),
-            lowest.n
+            count_of(lowest.n, "value")
         ));
     }
     let family = assessment.and_then(lead_family);
@@ -478,7 +508,7 @@ pub fn read_factorial(
         Some(false) => format!(
             "The factorial model does not show that any of the {} factors or their interactions affects {response} at {percent}% confidence{}; differences this size could be chance.",
             treatments.len(),
-            smallest_p.map_or_else(String::new, |p| format!(" (smallest p = {})", p_for_text(p)))
+            smallest_p.map_or_else(String::new, |p| format!(" (smallest {})", p_equals(p)))
         ),
         None => format!(
             "Whether the factors affect {response} cannot be judged: the factorial model has no error to test against (no replicates, centre points or spare degrees of freedom)."
@@ -494,8 +524,26 @@ pub fn read_factorial(
             .unwrap_or_default();
         details.push(format!("{capitalised}."));
     }
+    // The headline already gives the largest effect, and the lines below give the
+    // highest and lowest combinations: the reading's own sentences for them are not
+    // repeated.
+    let headline_effect = sizes
+        .first()
+        .and_then(|size| size.label.split(" from ").next())
+        .map(|factor| format!("Moving {factor} from its low to its high level"));
     for line in &outcome.summary {
         if direction.is_none() && (line.starts_with("Recommended settings") || line.contains(" is best (")) {
+            continue;
+        }
+        if headline_effect
+            .as_ref()
+            .is_some_and(|start| line.starts_with(start.as_str()))
+        {
+            continue;
+        }
+        if direction.is_none()
+            && (line.starts_with("No direction was given") || line.starts_with("Among the combinations run"))
+        {
             continue;
         }
         details.push(line.clone());
@@ -549,9 +597,9 @@ pub fn read_factorial(
             if let Some(best) = best {
                 let settings = describe(best);
                 details.push(format!(
-                    "Best settings among the combinations run: {settings} (average {}, from {} value(s)).",
+                    "Best settings among the combinations run: {settings} (average {}, from {}).",
                     with_unit(best.mean, unit),
-                    best.n
+                    count_of(best.n, "value")
                 ));
                 best_settings = Some(settings);
             }
@@ -604,8 +652,14 @@ mod tests {
         assert_eq!(round_for_text(1234.5678, 4), "1235");
         assert_eq!(round_for_text(0.00012345, 3), "0.000123");
         assert_eq!(round_for_text(2.0, 4), "2");
-        assert_eq!(p_for_text(0.00001), "below 0.0001");
-        assert_eq!(p_for_text(0.0321), "0.032");
+        // Wording of p-values in sentences (common practice: "p < 0.0001" below four
+        // decimals, two significant digits otherwise).
+        assert_eq!(p_equals(0.00001), "p < 0.0001");
+        assert_eq!(p_equals(0.0321), "p = 0.032");
+        assert_eq!(count_of(1, "value"), "1 value");
+        assert_eq!(count_of(3, "value"), "3 values");
+        assert_eq!(count_of(1, "value"), "1 value");
+        assert_eq!(count_of(3, "value"), "3 values");
     }
 
     #[test]

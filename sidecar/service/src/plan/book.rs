@@ -313,6 +313,8 @@ const FACTOR_KEY: &str = "factor";
 
 fn plan_sheet(plan: &Plan) -> Sheet {
     let mut sheet = Sheet::new(PLAN_SHEET);
+    // Wide enough for the keys ("centre points") and factor names to print whole.
+    sheet.widths = (0..16u16).map(|col| (col, 14.0)).collect();
     sheet.put(
         0,
         0,

@@ -114,10 +114,10 @@ pub fn assessment_sheets(results: &WorkbookResults, places_of: &dyn Fn(&str) -> 
     ];
     let mut checks = Sheet::new(names::CHECKS);
     checks.widths = vec![
-        (0, 52.0),
-        (1, 14.0),
-        (2, 14.0),
-        (3, 14.0),
+        (0, 40.0),
+        (1, 12.0),
+        (2, 12.0),
+        (3, 12.0),
         (4, 12.0),
         (6, 12.0),
         (7, 12.0),

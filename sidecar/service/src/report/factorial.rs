@@ -452,12 +452,12 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
             *row,
             0,
             Value::text(format!(
-                "{} by {}: model means (interaction p = {})",
+                "{} by {}: model means (interaction {})",
                 table.x_factor,
                 table.trace_factor,
                 table
                     .interaction_p
-                    .map_or_else(|| "not tested".to_string(), engine::analysis::verdict::p_for_text)
+                    .map_or_else(|| "not tested".to_string(), engine::analysis::verdict::p_equals)
             )),
             Look::Key,
         );
@@ -702,9 +702,9 @@ fn two_level_effects(
                 round_for_text(curvature.difference, 4),
                 match (curvature.se, curvature.p_value) {
                     (Some(se), Some(p)) => format!(
-                        " (SE {}, p = {})",
+                        " (SE {}, {})",
                         round_for_text(se, 3),
-                        engine::analysis::verdict::p_for_text(p)
+                        engine::analysis::verdict::p_equals(p)
                     ),
                     _ => " (not tested: fewer than two centre points)".to_string(),
                 }

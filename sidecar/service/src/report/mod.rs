@@ -197,19 +197,20 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
         summary_row += 1;
     }
 
+    // Narrow enough for the twelve columns to print on one page width (headers wrap).
     conditions.widths = vec![
-        (0, 26.0),
-        (1, 8.0),
-        (2, 12.0),
-        (3, 12.0),
-        (4, 12.0),
-        (5, 12.0),
-        (6, 12.0),
-        (7, 12.0),
-        (8, 14.0),
-        (9, 14.0),
-        (10, 14.0),
-        (11, 12.0),
+        (0, 22.0),
+        (1, 6.0),
+        (2, 10.0),
+        (3, 10.0),
+        (4, 10.0),
+        (5, 10.0),
+        (6, 10.0),
+        (7, 10.0),
+        (8, 11.0),
+        (9, 11.0),
+        (10, 11.0),
+        (11, 9.0),
     ];
     anova.widths = vec![(0, 40.0), (1, 8.0), (2, 18.0), (3, 16.0), (4, 12.0), (5, 12.0)];
     pairs.widths = vec![
@@ -595,7 +596,13 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
 /// The data-problems sheet: one row per finding with its place.
 pub fn findings_sheet(findings: &[workbook_io::layout::Finding]) -> Sheet {
     let mut sheet = Sheet::new(names::FINDINGS);
-    sheet.widths = vec![(0, 18.0), (1, 20.0), (2, 22.0), (3, 34.0), (4, 90.0)];
+    // Wrapped columns narrow enough to print on one page width.
+    let widths = [16.0, 16.0, 22.0, 30.0, 50.0];
+    sheet.widths = widths
+        .iter()
+        .enumerate()
+        .map(|(col, width)| (col as u16, *width))
+        .collect();
     sheet.frozen_rows = 1;
     let rows: Vec<Vec<Value>> = findings
         .iter()
@@ -614,7 +621,13 @@ pub fn findings_sheet(findings: &[workbook_io::layout::Finding]) -> Sheet {
             ]
         })
         .collect();
-    let next = sheet.table(0, 0, &["place", "kind", "found", "what was done", "explanation"], rows);
+    let next = sheet.wrapped_table(
+        0,
+        0,
+        &["place", "kind", "found", "what was done", "explanation"],
+        rows,
+        &widths,
+    );
     if findings.is_empty() {
         sheet.put(next, 0, Value::text("No data problems were found."), Look::Note);
     }
@@ -645,6 +658,29 @@ fn provenance_sheet(results: &WorkbookResults) -> Sheet {
     rows.push(("confidence".into(), format!("{}", results.settings.confidence_level())));
     for contrast in &results.settings.contrasts {
         rows.push(("contrast".into(), contrast.clone()));
+    }
+    // Which way is better, for every response and per response, as the analysis used it.
+    let direction_text = |direction: &engine::options::Direction| match direction {
+        engine::options::Direction::HigherIsBetter => "higher is better".to_string(),
+        engine::options::Direction::LowerIsBetter => "lower is better".to_string(),
+        engine::options::Direction::Target(target) => format!("nearest to {target} is better"),
+    };
+    rows.push((
+        "direction".into(),
+        results
+            .settings
+            .direction
+            .as_ref()
+            .map_or_else(|| "not given (no best condition is chosen)".to_string(), direction_text),
+    ));
+    for named in &results.settings.response_directions {
+        rows.push((
+            format!("direction for '{}'", named.response),
+            direction_text(&named.direction),
+        ));
+    }
+    if let Some(control) = &results.settings.control {
+        rows.push(("control".into(), control.clone()));
     }
     for (key, origin) in &results.settings_sources {
         rows.push((format!("setting '{key}' from"), origin.clone()));

@@ -153,12 +153,21 @@ fn response_row(entry: &RollupEntry<'_>, response: &ResponseResult, findings: us
     // As many decimals as the results workbook shows for this response.
     let places = super::decimals_for(fit);
     let (pair_text, difference, low, high) = match largest {
-        Some(pair) => (
-            Value::text(format!("{} minus {}", pair.first, pair.second)),
-            Value::Number(pair.difference, NumberFormat::Decimals(places)),
-            Value::Number(pair.low, NumberFormat::Decimals(places)),
-            Value::Number(pair.high, NumberFormat::Decimals(places)),
-        ),
+        // The Summary's convention: the higher average minus the lower, so the difference
+        // and its interval read as positive amounts.
+        Some(pair) => {
+            let (first, second, difference, low, high) = if pair.difference >= 0.0 {
+                (&pair.first, &pair.second, pair.difference, pair.low, pair.high)
+            } else {
+                (&pair.second, &pair.first, -pair.difference, -pair.high, -pair.low)
+            };
+            (
+                Value::text(format!("{first} minus {second}")),
+                Value::Number(difference, NumberFormat::Decimals(places)),
+                Value::Number(low, NumberFormat::Decimals(places)),
+                Value::Number(high, NumberFormat::Decimals(places)),
+            )
+        }
         None => (Value::Blank, Value::Blank, Value::Blank, Value::Blank),
     };
     vec![

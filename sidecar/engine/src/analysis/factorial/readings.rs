@@ -3,7 +3,7 @@
 
 use std::collections::BTreeSet;
 
-use crate::analysis::verdict::{p_for_text, round_for_text};
+use crate::analysis::verdict::{p_equals, round_for_text};
 use crate::options::Direction;
 use crate::stats::linear_model::FactorialFit;
 
@@ -80,10 +80,10 @@ pub(super) fn read_model(
             None => "without a test",
         };
         let mut sentence = format!(
-            "{} accounts for {}% of the variation in {response} ({shown} beyond chance, p = {}).",
+            "{} accounts for {}% of the variation in {response} ({shown} beyond chance, {}).",
             line.source.replace(':', " × "),
             round_for_text(share, 2),
-            p_for_text(line.p_value.unwrap_or(f64::NAN))
+            p_equals(line.p_value.unwrap_or(f64::NAN))
         );
         if !line.source.contains(':') {
             if let Some(means) = model.ls_means.iter().find(|means| means.factor == line.source) {
@@ -127,13 +127,13 @@ pub(super) fn read_model(
                 })
                 .collect();
             reading.push(format!(
-                "The {} level of {} depends on {} ({} × {} interaction, p = {}): {}.",
+                "The {} level of {} depends on {} ({} × {} interaction, {}): {}.",
                 direction_words(direction),
                 table.x_factor,
                 table.trace_factor,
                 table.x_factor,
                 table.trace_factor,
-                p_for_text(table.interaction_p.unwrap_or(f64::NAN)),
+                p_equals(table.interaction_p.unwrap_or(f64::NAN)),
                 parts.join("; ")
             ));
             continue;
@@ -160,21 +160,21 @@ pub(super) fn read_model(
                 })
                 .collect();
             reading.push(format!(
-                "The {} level of {} depends on {} ({} × {} interaction, p = {}): {}.",
+                "The {} level of {} depends on {} ({} × {} interaction, {}): {}.",
                 direction_words(direction),
                 table.trace_factor,
                 table.x_factor,
                 table.trace_factor,
                 table.x_factor,
-                p_for_text(table.interaction_p.unwrap_or(f64::NAN)),
+                p_equals(table.interaction_p.unwrap_or(f64::NAN)),
                 parts.join("; ")
             ));
         } else {
             reading.push(format!(
-                "{} and {} interact (p = {}), but the {} level of each is the same whatever the other is set to.",
+                "{} and {} interact ({}), but the {} level of each is the same whatever the other is set to.",
                 table.x_factor,
                 table.trace_factor,
-                p_for_text(table.interaction_p.unwrap_or(f64::NAN)),
+                p_equals(table.interaction_p.unwrap_or(f64::NAN)),
                 direction_words(direction)
             ));
         }
@@ -209,7 +209,12 @@ pub(super) fn manager_summary(input: &SummaryInput<'_>) -> Vec<String> {
             let letters = effect.name.chars().count();
             if letters == 1 {
                 let change = if effect.effect >= 0.0 { "raises" } else { "lowers" };
-                let interval = match (effect.low, effect.high) {
+                // A lowering is said as a positive amount, and so is its interval.
+                let bounds = match (effect.low, effect.high) {
+                    (Some(low), Some(high)) if effect.effect < 0.0 => (Some(-high), Some(-low)),
+                    other => other,
+                };
+                let interval = match bounds {
                     (Some(low), Some(high)) => format!(
                         " ({percent}% interval {} to {})",
                         round_for_text(low, 3),

@@ -1,7 +1,7 @@
 //! Residual checks of the reduced model: normality tests on an even spread of at most
 //! [`RESIDUAL_CHECK_MAX`](super::RESIDUAL_CHECK_MAX) residuals and the largest residual.
 
-use crate::analysis::verdict::p_for_text;
+use crate::analysis::verdict::p_equals;
 use crate::stats::normality::check_normality;
 
 use super::reduced::ReducedInput;
@@ -71,11 +71,11 @@ pub(super) fn residual_check_with(
                 "Anderson-Darling"
             };
             let reading = if p < 0.01 {
-                format!("The residuals of the reduced model do not look normal ({test} p = {}); intervals and p-values may be off, look at the largest residuals and consider a transformation.", p_for_text(p))
+                format!("The residuals of the reduced model do not look normal ({test} {}); intervals and p-values may be off, look at the largest residuals and consider a transformation.", p_equals(p))
             } else {
                 format!(
-                    "The residuals of the reduced model are consistent with a normal distribution ({test} p = {}).",
-                    p_for_text(p)
+                    "The residuals of the reduced model are consistent with a normal distribution ({test} {}).",
+                    p_equals(p)
                 )
             };
             (

@@ -1,7 +1,7 @@
 //! Two-level screening: the design found in the runs, effects with alias chains, Lenth's
 //! method, curvature from centre points and advice on aliasing.
 
-use crate::analysis::verdict::{p_for_text, round_for_text};
+use crate::analysis::verdict::{p_equals, round_for_text};
 use crate::stats::two_level::{detect_design, resolution_numeral, DesignKind, DesignSummary, Word, FACTOR_LETTERS};
 use crate::stats::two_level_analysis::{
     analyse_two_level_in_layout, contrast_effect, AnalysisOptions, RunLayout, TwoLevelAnalysis,
@@ -602,8 +602,8 @@ pub(super) fn two_level_cautions(two: &TwoLevelOutcome, has_blocks: bool, alpha:
     if let Some(curvature) = &two.curvature {
         if curvature.p_value.is_some_and(|p| p < alpha) {
             cautions.push(format!(
-                "The centre points differ from the average of the corners (p = {}): the response curves between the levels, so predictions between the levels are not reliable from this trial.",
-                p_for_text(curvature.p_value.unwrap_or(f64::NAN))
+                "The centre points differ from the average of the corners ({}): the response curves between the levels, so predictions between the levels are not reliable from this trial.",
+                p_equals(curvature.p_value.unwrap_or(f64::NAN))
             ));
         }
     }
