@@ -200,14 +200,12 @@ pub fn fit_one_way_in_blocks(
                 .enumerate()
                 .filter_map(move |(block_position, &block)| {
                     let cell = &cells[condition * n_blocks + block];
-                    (cell.n > 0).then(|| {
-                        (
-                            condition_position,
-                            block_position,
-                            cell.n as f64,
-                            cell.mean - grand_mean,
-                        )
-                    })
+                    (cell.n > 0).then_some((
+                        condition_position,
+                        block_position,
+                        cell.n as f64,
+                        cell.mean - grand_mean,
+                    ))
                 })
         })
         .collect();

@@ -404,12 +404,11 @@ pub(crate) fn fit_one_way_sharing(
         let mut estimate = 0.0;
         let mut variance_factor = 0.0;
         let coefficient_of = |position: usize| contrast.coefficients.get(kept[position]).copied().unwrap_or(0.0);
-        for position in 0..k_kept {
+        for (position, condition) in conditions.iter().enumerate() {
             let coefficient = coefficient_of(position);
-            estimate += coefficient * conditions[position].mean;
+            estimate += coefficient * condition.mean;
             for other in 0..k_kept {
-                variance_factor +=
-                    coefficient * coefficient_of(other) * mean_covariance(position, other, conditions[position].n);
+                variance_factor += coefficient * coefficient_of(other) * mean_covariance(position, other, condition.n);
             }
         }
         let se = pooled_sd * variance_factor.sqrt();
