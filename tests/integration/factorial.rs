@@ -635,3 +635,52 @@ fn comparisons_in_a_blocked_trial_use_the_blocked_error() {
     assert!(plain_fit.blocks.is_none());
     assert!(plain_fit.pooled_sd > 3.0 * fit.pooled_sd);
 }
+
+/// A replicated 2^2 trial (invented: bond strength against oven temperature and
+/// pressure) with one run typed at 175 where the plan has 160 and 180: the run is a data
+/// problem at its cell and is left out of the factorial model, so Temperature keeps its
+/// two levels and the two-level analysis runs (common practice: never recode silently).
+#[test]
+fn a_run_at_an_unplanned_setting_is_reported_and_left_out_of_the_factorial_model() {
+    let settings = [
+        (160.0, 2.0, 31.2),
+        (180.0, 2.0, 35.9),
+        (160.0, 4.0, 33.0),
+        (180.0, 4.0, 38.1),
+        (160.0, 2.0, 30.8),
+        (175.0, 2.0, 35.1),
+        (160.0, 4.0, 33.4),
+        (180.0, 4.0, 37.7),
+    ];
+    let rows: Vec<Vec<Cell>> = settings
+        .iter()
+        .map(|&(temperature, pressure, strength)| {
+            vec![
+                Cell::Number(temperature),
+                Cell::Number(pressure),
+                Cell::Number(strength),
+            ]
+        })
+        .collect();
+    let folder = tempfile::tempdir().expect("temp folder");
+    let path = folder.path().join("bond.xlsx");
+    write_workbook(
+        &path,
+        &["Temperature", "Pressure", "Bond strength (N)"],
+        &rows,
+        &[("factors", "Temperature, Pressure")],
+    );
+    let results = analyse_workbook(&path, &AnalysisRequest::default()).expect("analysed");
+    let departure = results
+        .findings
+        .iter()
+        .find(|finding| finding.kind == workbook_io::layout::FindingKind::PlanDeparture)
+        .expect("the run at 175 is reported");
+    assert_eq!(departure.cell.as_deref(), Some("A7"), "{departure:?}");
+    assert!(departure.message.contains("175"), "{}", departure.message);
+    let factorial = results.responses[0].factorial.as_ref().expect("factorial outcome");
+    let temperature = &factorial.factors[0];
+    assert_eq!(temperature.levels, vec!["160".to_string(), "180".to_string()]);
+    assert!(factorial.two_level.is_some(), "the two-level analysis runs");
+    assert_eq!(factorial.n_values, 7);
+}

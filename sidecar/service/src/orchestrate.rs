@@ -265,13 +265,14 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             )));
         }
     }
+    let off_plan = off_plan_runs(&table, &mut findings);
     let mut responses = Vec::new();
     for (response_index, response) in table.responses.iter().enumerate() {
         if cancel.is_cancelled() {
             return Err(ServiceError::Cancelled);
         }
         let direction = settings.direction_for(&response.name);
-        let factorial = factorial_of(&table, response_index, &settings, direction);
+        let factorial = factorial_of(&table, response_index, &settings, direction, &off_plan);
         // Conditions with fewer than two usable values are reported here, per response;
         // in a factorial trial one run per combination is the design, so only
         // combinations with no usable value are (see `replication_finding` for the rest).
@@ -554,6 +555,69 @@ fn fit_conditions(
     }
 }
 
+/// Runs made at a setting the rest of the trial does not use (see
+/// [`engine::analysis::off_plan`]): a finding at each one's cell, and their records, which
+/// the factorial model leaves out (the comparison of the combinations run keeps them).
+fn off_plan_runs(table: &TrialTable, findings: &mut Vec<Finding>) -> Vec<usize> {
+    use engine::analysis::off_plan::{off_plan_levels, SettingsColumn};
+    let treatments: Vec<&workbook_io::layout::Factor> =
+        table.factors.iter().filter(|factor| !factor.is_block).collect();
+    if treatments.len() < 2 {
+        return Vec::new();
+    }
+    let columns: Vec<SettingsColumn<'_>> = treatments
+        .iter()
+        .map(|factor| SettingsColumn {
+            levels: &factor.levels,
+            level_of_record: &factor.level_of_record,
+        })
+        .collect();
+    let mut records = Vec::new();
+    for found in off_plan_levels(&columns) {
+        let factor = treatments[found.factor];
+        let planned = found
+            .planned
+            .iter()
+            .map(|value| value.to_string())
+            .collect::<Vec<_>>()
+            .join(", ");
+        for record in (0..table.n_records()).filter(|&record| factor.level_of_record[record] as usize == found.level) {
+            records.push(record);
+            let cell = factor.column.and_then(|column| {
+                table
+                    .record_rows
+                    .get(record)
+                    .map(|&row| workbook_io::CellPos::new(row, column).a1())
+            });
+            // The trial plan's own check may already have reported this cell.
+            if let Some(reported) = findings.iter_mut().find(|finding| {
+                finding.kind == FindingKind::PlanDeparture && finding.sheet == table.sheet && finding.cell == cell
+            }) {
+                reported.message = format!(
+                    "{}; the factorial model leaves this run out, since no other run has '{}' at {} (the comparison of the combinations run keeps it)",
+                    reported.message.trim_end_matches('.').replace("; the analysis uses ", "; the comparison of combinations uses "),
+                    factor.name,
+                    factor.levels[found.level]
+                );
+                continue;
+            }
+            findings.push(Finding {
+                kind: FindingKind::PlanDeparture,
+                sheet: table.sheet.clone(),
+                cell,
+                found: format!("{} = {}", factor.name, factor.levels[found.level]),
+                action: "left out of the factorial model; kept in the comparison of the combinations run".into(),
+                message: format!(
+                    "this run has '{}' at {}, a setting no other run uses (the others use {planned}); it was left out of the factorial model so that it does not count as a level of its own. Correct the cell if the run was made at a planned setting",
+                    factor.name, factor.levels[found.level]
+                ),
+            });
+        }
+    }
+    records.sort_unstable();
+    records
+}
+
 /// The factorial analysis of one response, with the engine's record numbers
 /// turned into cells.
 fn factorial_of(
@@ -561,9 +625,29 @@ fn factorial_of(
     response_index: usize,
     settings: &Settings,
     direction: Option<engine::options::Direction>,
+    off_plan: &[usize],
 ) -> Option<engine::analysis::factorial::FactorialOutcome> {
     use engine::analysis::factorial::{analyse_factorial, FactorData, FactorialData, FactorialOptions};
     let response = table.responses.get(response_index)?;
+    // Runs at a setting off the plan are left out of the factorial model.
+    let kept_values: Vec<f64>;
+    let values: &[f64] = if off_plan.is_empty() {
+        &response.values
+    } else {
+        kept_values = response
+            .values
+            .iter()
+            .enumerate()
+            .map(|(record, &value)| {
+                if off_plan.binary_search(&record).is_ok() {
+                    f64::NAN
+                } else {
+                    value
+                }
+            })
+            .collect();
+        &kept_values
+    };
     let data = FactorialData {
         factors: table
             .factors
@@ -576,7 +660,7 @@ fn factorial_of(
             })
             .collect(),
         response_name: &response.name,
-        values: &response.values,
+        values,
     };
     let options = FactorialOptions {
         confidence: settings.confidence_level(),

@@ -9,6 +9,7 @@ pub mod desirability;
 pub mod factorial;
 pub mod letters;
 pub mod next_trial;
+pub mod off_plan;
 pub mod oneway;
 pub mod power;
 pub mod surface;
