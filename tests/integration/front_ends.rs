@@ -26,9 +26,24 @@ const RESULTS_IN_FOLDER: &str = "out/bath trial.results.xlsx";
 fn trial_folder(root: &Path, name: &str) -> PathBuf {
     let folder = root.join(name);
     std::fs::create_dir_all(&folder).expect("a folder");
-    // Invented coating thicknesses from three plating baths, in micrometres.
+    // Invented coating thicknesses from three plating baths, in micrometres. Written once
+    // and copied, so every front end reads the same bytes (a workbook written again in
+    // another second carries another creation time).
+    static SOURCE: std::sync::OnceLock<(tempfile::TempDir, PathBuf)> = std::sync::OnceLock::new();
+    let (_, source) = SOURCE.get_or_init(|| {
+        let kept = temp_folder();
+        let source = kept.path().join("bath trial.xlsx");
+        write_trial(&source);
+        (kept, source)
+    });
+    std::fs::copy(source, folder.join("bath trial.xlsx")).expect("the trial copied");
+    std::fs::write(folder.join("trialyst.toml"), FOLDER_SETTINGS).expect("folder settings written");
+    folder
+}
+
+fn write_trial(path: &Path) {
     write_rows(
-        &folder.join("bath trial.xlsx"),
+        path,
         "Runs",
         &long_rows(
             "Bath",
@@ -40,8 +55,6 @@ fn trial_folder(root: &Path, name: &str) -> PathBuf {
             ],
         ),
     );
-    std::fs::write(folder.join("trialyst.toml"), FOLDER_SETTINGS).expect("folder settings written");
-    folder
 }
 
 /// The results document kept in the results workbook's hidden sheet.
