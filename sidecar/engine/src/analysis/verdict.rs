@@ -548,37 +548,47 @@ pub fn read_factorial(
         }
         details.push(line.clone());
     }
-    let cells: Vec<&CellLine> = model
+    // The combinations run, blocks pooled: (settings in words, average, values).
+    let mut cells: Vec<(String, f64, usize)> = Vec::new();
+    for cell in model
         .map(|model| {
             model
                 .cells
                 .iter()
                 .filter(|cell| cell.n > 0 && cell.mean.is_finite())
-                .collect()
+                .collect::<Vec<&CellLine>>()
         })
-        .unwrap_or_default();
-    let describe = |cell: &CellLine| {
-        outcome
+        .unwrap_or_default()
+    {
+        let settings = outcome
             .factors
             .iter()
             .zip(&cell.levels)
             .filter(|(factor, _)| !factor.is_block)
             .map(|(factor, level)| format!("{} {level}", factor.name))
             .collect::<Vec<_>>()
-            .join(", ")
-    };
+            .join(", ");
+        match cells.iter_mut().find(|(known, _, _)| *known == settings) {
+            Some((_, mean, n)) => {
+                let total = *n + cell.n;
+                *mean += (cell.mean - *mean) * cell.n as f64 / total as f64;
+                *n = total;
+            }
+            None => cells.push((settings, cell.mean, cell.n)),
+        }
+    }
     let mut best_settings = None;
     match direction {
         None => {
-            let highest = cells.iter().max_by(|a, b| a.mean.total_cmp(&b.mean));
-            let lowest = cells.iter().min_by(|a, b| a.mean.total_cmp(&b.mean));
+            let highest = cells.iter().max_by(|a, b| a.1.total_cmp(&b.1));
+            let lowest = cells.iter().min_by(|a, b| a.1.total_cmp(&b.1));
             if let (Some(highest), Some(lowest)) = (highest, lowest) {
                 details.push(format!(
                     "Highest {response} among the combinations run: {} ({}); lowest: {} ({}). No best settings are chosen without a direction: set one for {response} (higher, lower or a target).",
-                    describe(highest),
-                    with_unit(highest.mean, unit),
-                    describe(lowest),
-                    with_unit(lowest.mean, unit)
+                    highest.0,
+                    with_unit(highest.1, unit),
+                    lowest.0,
+                    with_unit(lowest.1, unit)
                 ));
             }
         }
@@ -588,20 +598,19 @@ pub fn read_factorial(
                 Direction::LowerIsBetter => candidate < incumbent,
                 Direction::Target(target) => (candidate - target).abs() < (incumbent - target).abs(),
             };
-            let mut best: Option<&CellLine> = None;
+            let mut best: Option<&(String, f64, usize)> = None;
             for cell in &cells {
-                if best.is_none_or(|incumbent| better(cell.mean, incumbent.mean)) {
+                if best.is_none_or(|incumbent| better(cell.1, incumbent.1)) {
                     best = Some(cell);
                 }
             }
-            if let Some(best) = best {
-                let settings = describe(best);
+            if let Some((settings, mean, n)) = best {
                 details.push(format!(
                     "Best settings among the combinations run: {settings} (average {}, from {}).",
-                    with_unit(best.mean, unit),
-                    count_of(best.n, "value")
+                    with_unit(*mean, unit),
+                    count_of(*n, "value")
                 ));
-                best_settings = Some(settings);
+                best_settings = Some(settings.clone());
             }
             if let Some(prediction) = outcome.reduced.as_ref().and_then(|reduced| reduced.best.as_ref()) {
                 if !prediction.was_run {

@@ -355,11 +355,19 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
         conditions.put(
             conditions_row,
             0,
-            Value::text(format!(
-                "Intervals for each mean use the pooled SD ({}) on {} degrees of freedom; SD and SE are each condition's own.",
-                round_for_text(fit.pooled_sd, 4),
-                fit.pooled_df
-            )),
+            Value::text(match &fit.blocks {
+                None => format!(
+                    "Intervals for each mean use the pooled SD ({}) on {} degrees of freedom; SD and SE are each condition's own.",
+                    round_for_text(fit.pooled_sd, 4),
+                    fit.pooled_df
+                ),
+                Some(blocks) => format!(
+                    "The trial was run in blocks ({}): each block's shift was taken out first, so these are the averages over the blocks, and SD, SE, min, median and max are of the values with their block's shift taken off. Intervals use the SD within conditions and blocks ({}) on {} degrees of freedom.",
+                    blocks.factor,
+                    round_for_text(fit.pooled_sd, 4),
+                    fit.pooled_df
+                ),
+            }),
             Look::Note,
         );
         conditions_row += 1;
