@@ -411,7 +411,11 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             }
             None => (one_way_verdict, None),
         };
+        let next_trial = factorial
+            .as_ref()
+            .and_then(|outcome| next_trial_after_screen(&table, outcome, direction));
         responses.push(ResponseResult {
+            next_trial,
             name: response.name.clone(),
             assessment,
             unit,
@@ -603,6 +607,83 @@ fn factorial_of(
         largest.cell = Some(place(largest.record));
     }
     Some(outcome)
+}
+
+/// What to run after a two-level screen, in one sentence (the engine's
+/// recommendation and its reason), when the factorial analysis read a full
+/// factorial or regular fraction and every treatment factor's low and high
+/// levels are numbers. The settings come from the level labels; the direction
+/// from the response's direction setting.
+fn next_trial_after_screen(
+    table: &TrialTable,
+    outcome: &engine::analysis::factorial::FactorialOutcome,
+    direction: Option<engine::options::Direction>,
+) -> Option<String> {
+    use engine::analysis::next_trial::{recommend_after_screen, ScreenEffect, ScreenSummary};
+    use engine::design::surface::SurfaceFactor;
+    use engine::stats::two_level::{DefiningRelation, Word};
+    let two = outcome.two_level.as_ref()?;
+    let mut treatments: Vec<(char, &engine::analysis::factorial::TwoLevelCoding, &str)> = outcome
+        .factors
+        .iter()
+        .filter(|factor| !factor.is_block)
+        .map(|factor| Some((factor.letter?, factor.coding.as_ref()?, factor.name.as_str())))
+        .collect::<Option<_>>()?;
+    treatments.sort_by_key(|(letter, _, _)| *letter);
+    let number = |label: &str| label.trim().parse::<f64>().ok().filter(|value| value.is_finite());
+    let factors: Vec<SurfaceFactor> = treatments
+        .iter()
+        .map(|(_, coding, name)| {
+            let (low, high) = (number(&coding.low)?, number(&coding.high)?);
+            (low < high).then(|| SurfaceFactor::new(name, low, high))
+        })
+        .collect::<Option<_>>()?;
+    let relation = match two.design.kind.as_str() {
+        "full factorial" => DefiningRelation::full_factorial(factors.len()).ok()?,
+        "regular fraction" => {
+            let generators: Vec<&str> = two.design.generators.iter().map(String::as_str).collect();
+            DefiningRelation::from_text(factors.len(), &generators).ok()?
+        }
+        _ => return None,
+    };
+    let effects = two
+        .effects
+        .iter()
+        .filter(|effect| !effect.in_error)
+        .map(|effect| {
+            Some(ScreenEffect {
+                word: Word::parse(&effect.name).ok()?,
+                effect: effect.effect,
+                active: effect.active,
+            })
+        })
+        .collect::<Option<Vec<_>>>()?;
+    let effect_se = two
+        .effects
+        .iter()
+        .find_map(|effect| effect.se)
+        .or_else(|| two.lenth.as_ref().map(|lenth| lenth.pse));
+    let blocks = table
+        .factors
+        .iter()
+        .filter(|factor| factor.is_block)
+        .map(|factor| factor.levels.len())
+        .max()
+        .unwrap_or(1);
+    let summary = ScreenSummary {
+        factors,
+        relation,
+        effects,
+        effect_se,
+        error_df: two.error.df,
+        curvature_p: two.curvature.as_ref().and_then(|curvature| curvature.p_value),
+        cube_runs: two.design.n_runs,
+        centre_runs: two.curvature.as_ref().map_or(0, |curvature| curvature.n_centre),
+        blocks,
+        direction,
+        alpha: 1.0 - outcome.confidence,
+    };
+    Some(recommend_after_screen(&summary).reason)
 }
 
 /// Which analysis leads a response, and why, in one sentence: the factorial model
