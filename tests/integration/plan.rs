@@ -440,3 +440,104 @@ fn size_names_the_file_when_the_results_lack_what_it_needs() {
         "{text}"
     );
 }
+
+/// The numbers in one column of the Runs sheet, below its header.
+fn settings_in(sheets: &mut Sheets, header: &str) -> Vec<f64> {
+    let rows = runs_sheet(sheets);
+    let column = column_of(rows, header);
+    rows[3..]
+        .iter()
+        .filter_map(|row| match row.get(column) {
+            Some(Data::Float(number)) => Some(*number),
+            Some(Data::Int(number)) => Some(*number as f64),
+            _ => None,
+        })
+        .collect()
+}
+
+const SURFACE_FACTORS: &[&str] = &[
+    "--factor",
+    "Temperature=160,180",
+    "--factor",
+    "Time=20,30",
+    "--factor",
+    "Pressure=2,3",
+    "--response",
+    "Yield (%)",
+    "--centre-points",
+    "3",
+    "--seed",
+    "7",
+];
+
+#[test]
+fn central_composite_and_box_behnken_plans_are_written_and_read_back() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    // Three factors, rotatable: a 2^3 cube (8 runs), 6 axial runs at
+    // alpha = 8^(1/4) = 1.682 (Box and Hunter 1957; NIST/SEMATECH e-Handbook
+    // 5.3.3.6.1 lists 1.682 for three factors) and 3 centre runs with the cube and
+    // 3 with the axial runs: 20 runs.
+    let mut args = vec![
+        "plan",
+        "--design",
+        "central-composite",
+        "--limit",
+        "Temperature=150,195",
+    ];
+    args.extend(SURFACE_FACTORS);
+    args.extend(["--json", "--out", "composite.xlsx"]);
+    let summary = json_of(&run_in(folder.path(), &args));
+    assert_eq!(summary["runs"], 20, "{summary}");
+    assert_eq!(summary["kind"], "central composite plan");
+    let mut sheets = read_all(&folder.path().join("composite.xlsx"));
+    let temperature = settings_in(&mut sheets, "Temperature");
+    assert_eq!(temperature.len(), 20);
+    let alpha = 8f64.powf(0.25);
+    let lowest = temperature.iter().copied().fold(f64::INFINITY, f64::min);
+    let highest = temperature.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    assert!((lowest - (170.0 - 10.0 * alpha)).abs() < 1e-6, "{temperature:?}");
+    assert!((highest - (170.0 + 10.0 * alpha)).abs() < 1e-6, "{temperature:?}");
+    assert!(lowest >= 150.0 && highest <= 195.0);
+    // Two runs per factor on its axis, the others at their centres.
+    let axial = temperature
+        .iter()
+        .filter(|value| (**value - 170.0).abs() > 10.5)
+        .count();
+    assert_eq!(axial, 2);
+    let time = settings_in(&mut sheets, "Time");
+    assert_eq!(time.iter().filter(|value| (**value - 25.0).abs() < 1e-9).count(), 4 + 6);
+
+    // A limit the axial runs would pass is refused, naming the factor.
+    let mut args = vec![
+        "plan",
+        "--design",
+        "central-composite",
+        "--limit",
+        "Temperature=155,185",
+    ];
+    args.extend(SURFACE_FACTORS);
+    args.extend(["--out", "refused.xlsx"]);
+    let output = Command::new(trialyst())
+        .args(&args)
+        .current_dir(folder.path())
+        .output()
+        .expect("trialyst runs");
+    assert_eq!(output.status.code(), Some(2));
+    let message = String::from_utf8_lossy(&output.stderr);
+    assert!(message.contains("Temperature"), "{message}");
+    assert!(!folder.path().join("refused.xlsx").exists());
+
+    // Box-Behnken, three factors: 12 edge runs (each pair of factors at +-1, the
+    // third at its centre) and 3 centre runs, 15 in all (Box and Behnken 1960); every
+    // setting is low, centre or high.
+    let mut args = vec!["plan", "--design", "box-behnken"];
+    args.extend(SURFACE_FACTORS);
+    args.extend(["--json", "--out", "edges.xlsx"]);
+    let summary = json_of(&run_in(folder.path(), &args));
+    assert_eq!(summary["runs"], 15, "{summary}");
+    let mut sheets = read_all(&folder.path().join("edges.xlsx"));
+    let temperature = settings_in(&mut sheets, "Temperature");
+    assert_eq!(temperature.len(), 15);
+    assert!(temperature.iter().all(|value| [160.0, 170.0, 180.0].contains(value)));
+    assert_eq!(temperature.iter().filter(|value| **value == 170.0).count(), 4 + 3);
+}
