@@ -541,3 +541,49 @@ fn central_composite_and_box_behnken_plans_are_written_and_read_back() {
     assert!(temperature.iter().all(|value| [160.0, 170.0, 180.0].contains(value)));
     assert_eq!(temperature.iter().filter(|value| **value == 170.0).count(), 4 + 3);
 }
+
+#[test]
+fn filled_central_composite_plan_gets_a_second_order_reading() {
+    // An invented yield with its highest point at temperature 173, time 24 and
+    // pressure 2.5 (coded 0.3, -0.2, 0) and a small wobble: the second-order fit of a
+    // rotatable central composite plan should put a maximum near there, inside the
+    // region (canonical analysis, Box and Wilson 1951), and recommend confirming it.
+    let folder = tempfile::tempdir().expect("temp dir");
+    let mut args = vec!["plan", "--design", "central-composite"];
+    args.extend(SURFACE_FACTORS);
+    args.extend(["--out", "composite.xlsx"]);
+    run_in(folder.path(), &args);
+    let mut sheets = read_all(&folder.path().join("composite.xlsx"));
+    let rows = runs_sheet(&mut sheets);
+    let columns = ["Temperature", "Time", "Pressure"].map(|name| column_of(rows, name));
+    let result = column_of(rows, "Yield (%)");
+    for (index, row) in rows.iter_mut().enumerate().skip(3) {
+        let real = columns.map(|column| match &row[column] {
+            Data::Float(value) => *value,
+            other => panic!("setting {other:?}"),
+        });
+        let coded = [(real[0] - 170.0) / 10.0, (real[1] - 25.0) / 5.0, (real[2] - 2.5) / 0.5];
+        let value = 80.0 - 2.0 * (coded[0] - 0.3).powi(2) - 3.0 * (coded[1] + 0.2).powi(2) - 1.5 * coded[2].powi(2)
+            + [0.05, -0.04, 0.03, -0.05, 0.02][index % 5];
+        while row.len() <= result {
+            row.push(Data::Empty);
+        }
+        row[result] = Data::Float(value);
+    }
+    write_all(&sheets, &folder.path().join("filled.xlsx"));
+    let output = run_in(
+        folder.path(),
+        &["run", "--json", "--no-write", "--direction", "higher", "filled.xlsx"],
+    );
+    let results = json_of(&output);
+    let response = &results["responses"][0];
+    let reading = response["second_order"].as_str().unwrap_or_default();
+    assert!(reading.contains("a maximum"), "{response}");
+    assert!(reading.contains("inside the region"), "{reading}");
+    // Settings to four figures: 173.0, 24.01 and 2.500 for this fit.
+    assert!(reading.contains("Temperature 173.0,"), "{reading}");
+    assert!(reading.contains("Time 24.0"), "{reading}");
+    assert!(reading.contains("Pressure 2.50"), "{reading}");
+    let next = response["next_trial"].as_str().unwrap_or_default();
+    assert!(next.contains("confirm"), "{next}");
+}

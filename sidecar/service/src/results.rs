@@ -116,6 +116,11 @@ pub struct ResponseResult {
     /// read a two-level design whose factor settings are numbers.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub next_trial: Option<String>,
+    /// After a response-surface trial (every treatment factor numeric with three or
+    /// five settings and centre runs, as a central composite or Box-Behnken plan
+    /// has): the second-order fit's stationary point and its kind, in one sentence.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub second_order: Option<String>,
     /// The outcome.
     #[serde(flatten)]
     pub outcome: ResponseOutcome,
