@@ -110,6 +110,22 @@ pub(crate) fn write_all(sheets: &Sheets, path: &Path) {
     workbook.save(path).expect("filled workbook saved");
 }
 
+/// Every text cell of one sheet, row by row.
+fn text_cells(sheets: &Sheets, sheet: &str) -> Vec<String> {
+    sheets
+        .iter()
+        .find(|(name, _)| name == sheet)
+        .unwrap_or_else(|| panic!("no sheet '{sheet}'"))
+        .1
+        .iter()
+        .flatten()
+        .filter_map(|cell| match cell {
+            Data::String(text) => Some(text.clone()),
+            _ => None,
+        })
+        .collect()
+}
+
 pub(crate) fn runs_sheet(sheets: &mut Sheets) -> &mut Vec<Vec<Data>> {
     &mut sheets
         .iter_mut()
@@ -231,19 +247,7 @@ fn fraction_plan_records_its_design() {
     assert_eq!(summary["resolution"], "III");
     assert_eq!(summary["generators"].as_array().map(Vec::len), Some(4));
     let sheets = read_all(&folder.path().join("fraction.xlsx"));
-    let design = &sheets
-        .iter()
-        .find(|(name, _)| name == "Design")
-        .expect("design sheet")
-        .1;
-    let text: Vec<String> = design
-        .iter()
-        .flatten()
-        .filter_map(|cell| match cell {
-            Data::String(text) => Some(text.clone()),
-            _ => None,
-        })
-        .collect();
+    let text = text_cells(&sheets, "Design");
     assert!(text.iter().any(|cell| cell.starts_with("I = ")), "{text:?}");
     // In a resolution III design a main effect's chain holds two-factor
     // interactions: the alias table lists A with some of them.
@@ -573,7 +577,7 @@ fn filled_central_composite_plan_gets_a_second_order_reading() {
     write_all(&sheets, &folder.path().join("filled.xlsx"));
     let output = run_in(
         folder.path(),
-        &["run", "--json", "--no-write", "--direction", "higher", "filled.xlsx"],
+        &["run", "--json", "--direction", "higher", "filled.xlsx"],
     );
     let results = json_of(&output);
     let response = &results["responses"][0];
@@ -586,4 +590,12 @@ fn filled_central_composite_plan_gets_a_second_order_reading() {
     assert!(reading.contains("Pressure 2.50"), "{reading}");
     let next = response["next_trial"].as_str().unwrap_or_default();
     assert!(next.contains("confirm"), "{next}");
+    // Both sentences stand on the Summary sheet of the results workbook.
+    let written = read_all(&folder.path().join("filled.results.xlsx"));
+    let summary = text_cells(&written, "Summary");
+    assert!(summary.iter().any(|line| line == reading), "{summary:?}");
+    assert!(
+        summary.iter().any(|line| line == &format!("Next trial: {next}")),
+        "{summary:?}"
+    );
 }
