@@ -452,14 +452,10 @@ fn chain_of(two: &engine::analysis::factorial::TwoLevelOutcome, name: &str) -> S
     two.effects.iter().find(|e| e.name == name).expect(name).aliases.clone()
 }
 
-#[test]
-fn aliased_active_interactions_get_a_fold_over() {
-    // 2^(4-1) IV with D = ABC: AB is aliased with CD. A response driven by A, B and
-    // their interaction makes the AB + CD chain active and ambiguous.
-    let folder = tempfile::tempdir().expect("temp dir");
-    let path = folder.path().join("fold.xlsx");
-    let runs = fraction_runs(3, &["ABC"]);
-    let rows: Vec<Vec<Cell>> = runs
+/// A 2^(4-1) IV with D = ABC (settings -1/+1) whose response is driven by A, B and
+/// their interaction, so the AB + CD chain is active and ambiguous.
+fn write_aliased_interaction(path: &Path) {
+    let rows: Vec<Vec<Cell>> = fraction_runs(3, &["ABC"])
         .iter()
         .enumerate()
         .map(|(index, run)| {
@@ -470,11 +466,20 @@ fn aliased_active_interactions_get_a_fold_over() {
         })
         .collect();
     write_workbook(
-        &path,
+        path,
         &["A1", "B1", "C1", "D1", "Y"],
         &rows,
         &[("factor", "A1, B1, C1, D1")],
     );
+}
+
+#[test]
+fn aliased_active_interactions_get_a_fold_over() {
+    // 2^(4-1) IV with D = ABC: AB is aliased with CD. A response driven by A, B and
+    // their interaction makes the AB + CD chain active and ambiguous.
+    let folder = tempfile::tempdir().expect("temp dir");
+    let path = folder.path().join("fold.xlsx");
+    write_aliased_interaction(&path);
     let outcome = analyse(&path, Settings::default());
     let two = outcome.two_level.as_ref().expect("two-level");
     assert_eq!(chain_of(two, "AB"), "AB + CD");
@@ -527,6 +532,9 @@ fn binary_writes_factorial_sheets_and_json() {
     assert!(output.status.success(), "{context}");
     let line = String::from_utf8_lossy(&output.stdout);
     let json: serde_json::Value = serde_json::from_str(line.lines().next().unwrap_or_default()).expect(&context);
+    // Settings "off"/"on" are not numbers: no next trial can be placed, and the
+    // optional field is left out of the document.
+    assert!(json["responses"][0].get("next_trial").is_none(), "{context}");
     let factorial = &json["responses"][0]["factorial"];
     // "off" sorts before "on", so "off" is -1 and the effects keep the NIST signs.
     let first = &factorial["two_level"]["effects"][0];
@@ -683,4 +691,85 @@ fn a_run_at_an_unplanned_setting_is_reported_and_left_out_of_the_factorial_model
     assert_eq!(temperature.levels, vec!["160".to_string(), "180".to_string()]);
     assert!(factorial.two_level.is_some(), "the two-level analysis runs");
     assert_eq!(factorial.n_values, 7);
+
+/// The one-sentence next-trial recommendation of a screening workbook analysed
+/// through the service.
+fn next_trial_of(path: &Path, settings: Settings) -> Option<String> {
+    let request = AnalysisRequest {
+        settings,
+        ..AnalysisRequest::default()
+    };
+    let results = analyse_workbook(path, &request).expect("analysed");
+    results.responses[0].next_trial.clone()
+}
+
+/// A 2^3 full factorial in real settings (temperature 150/170, time 20/30, pressure
+/// 2/3) with four centre runs (160, 25, 2.5); `response` gives the value from the coded
+/// settings and the run's index.
+fn screen_with_centre(path: &Path, response: impl Fn(&[f64], usize) -> f64, direction: &str) {
+    let real = |coded: &[f64]| vec![160.0 + 10.0 * coded[0], 25.0 + 5.0 * coded[1], 2.5 + 0.5 * coded[2]];
+    let mut coded_runs = fraction_runs(3, &[]);
+    coded_runs.extend(std::iter::repeat_n(vec![0.0, 0.0, 0.0], 4));
+    let rows: Vec<Vec<Cell>> = coded_runs
+        .iter()
+        .enumerate()
+        .map(|(index, coded)| {
+            let mut cells: Vec<Cell> = real(coded).into_iter().map(Cell::Number).collect();
+            cells.push(Cell::Number(response(coded, index)));
+            cells
+        })
+        .collect();
+    write_workbook(
+        path,
+        &["Temperature", "Time", "Pressure", "Yield"],
+        &rows,
+        &[("factor", "Temperature, Time, Pressure"), ("direction", direction)],
+    );
+}
+
+#[test]
+fn screening_results_name_the_next_trial() {
+    // The kinds of next step follow the order of sequential experimentation (Box,
+    // Hunter and Hunter, "Statistics for Experimenters", 2nd ed., ch. 6 and 12, from
+    // memory): aliased active effects -> fold-over; curvature -> complete a central
+    // composite; clear first-order effects, no curvature -> steepest ascent/descent.
+    let folder = tempfile::tempdir().expect("temp dir");
+
+    // 2^(4-1) IV with D = ABC and an active AB + CD chain: a fold-over.
+    let path = folder.path().join("fold.xlsx");
+    write_aliased_interaction(&path);
+    let sentence = next_trial_of(&path, Settings::default()).expect("a recommendation");
+    assert!(sentence.contains("fold-over"), "{sentence}");
+
+    // Linear in temperature and time, centre runs on the plane: steepest ascent when
+    // higher is better, descent when lower is, the first step moving temperature (the
+    // larger effect) up or down.
+    let wobble = [0.3, -0.2, 0.1, -0.25, 0.15, -0.1, 0.2, -0.3, 0.25, -0.15, 0.05, -0.2];
+    for (direction, path_kind, first_move) in [
+        ("higher", "steepest ascent", "Temperature +"),
+        ("lower", "steepest descent", "Temperature -"),
+    ] {
+        let path = folder.path().join(format!("climb-{direction}.xlsx"));
+        screen_with_centre(
+            &path,
+            |coded, index| 60.0 + 8.0 * coded[0] + 5.0 * coded[1] + wobble[index],
+            direction,
+        );
+        let sentence = next_trial_of(&path, Settings::default()).expect("a recommendation");
+        assert!(sentence.contains(path_kind), "{sentence}");
+        assert!(sentence.contains(first_move), "{sentence}");
+    }
+
+    // Centre runs well above the corners: curvature, so complete a central composite.
+    let path = folder.path().join("curved.xlsx");
+    screen_with_centre(
+        &path,
+        |coded, index| {
+            let centre = coded.iter().all(|value| *value == 0.0);
+            60.0 + 8.0 * coded[0] + if centre { 12.0 } else { 0.0 } + wobble[index]
+        },
+        "higher",
+    );
+    let sentence = next_trial_of(&path, Settings::default()).expect("a recommendation");
+    assert!(sentence.contains("central composite"), "{sentence}");
 }

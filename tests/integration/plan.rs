@@ -110,6 +110,22 @@ pub(crate) fn write_all(sheets: &Sheets, path: &Path) {
     workbook.save(path).expect("filled workbook saved");
 }
 
+/// Every text cell of one sheet, row by row.
+fn text_cells(sheets: &Sheets, sheet: &str) -> Vec<String> {
+    sheets
+        .iter()
+        .find(|(name, _)| name == sheet)
+        .unwrap_or_else(|| panic!("no sheet '{sheet}'"))
+        .1
+        .iter()
+        .flatten()
+        .filter_map(|cell| match cell {
+            Data::String(text) => Some(text.clone()),
+            _ => None,
+        })
+        .collect()
+}
+
 pub(crate) fn runs_sheet(sheets: &mut Sheets) -> &mut Vec<Vec<Data>> {
     &mut sheets
         .iter_mut()
@@ -231,19 +247,7 @@ fn fraction_plan_records_its_design() {
     assert_eq!(summary["resolution"], "III");
     assert_eq!(summary["generators"].as_array().map(Vec::len), Some(4));
     let sheets = read_all(&folder.path().join("fraction.xlsx"));
-    let design = &sheets
-        .iter()
-        .find(|(name, _)| name == "Design")
-        .expect("design sheet")
-        .1;
-    let text: Vec<String> = design
-        .iter()
-        .flatten()
-        .filter_map(|cell| match cell {
-            Data::String(text) => Some(text.clone()),
-            _ => None,
-        })
-        .collect();
+    let text = text_cells(&sheets, "Design");
     assert!(text.iter().any(|cell| cell.starts_with("I = ")), "{text:?}");
     // In a resolution III design a main effect's chain holds two-factor
     // interactions: the alias table lists A with some of them.
@@ -438,5 +442,160 @@ fn size_names_the_file_when_the_results_lack_what_it_needs() {
     assert!(
         text.contains("filled.results.xlsx") && text.contains("no response 'Hardness'"),
         "{text}"
+    );
+}
+
+/// The numbers in one column of the Runs sheet, below its header.
+fn settings_in(sheets: &mut Sheets, header: &str) -> Vec<f64> {
+    let rows = runs_sheet(sheets);
+    let column = column_of(rows, header);
+    rows[3..]
+        .iter()
+        .filter_map(|row| match row.get(column) {
+            Some(Data::Float(number)) => Some(*number),
+            Some(Data::Int(number)) => Some(*number as f64),
+            _ => None,
+        })
+        .collect()
+}
+
+const SURFACE_FACTORS: &[&str] = &[
+    "--factor",
+    "Temperature=160,180",
+    "--factor",
+    "Time=20,30",
+    "--factor",
+    "Pressure=2,3",
+    "--response",
+    "Yield (%)",
+    "--centre-points",
+    "3",
+    "--seed",
+    "7",
+];
+
+#[test]
+fn central_composite_and_box_behnken_plans_are_written_and_read_back() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    // Three factors, rotatable: a 2^3 cube (8 runs), 6 axial runs at
+    // alpha = 8^(1/4) = 1.682 (Box and Hunter 1957; NIST/SEMATECH e-Handbook
+    // 5.3.3.6.1 lists 1.682 for three factors) and 3 centre runs with the cube and
+    // 3 with the axial runs: 20 runs.
+    let mut args = vec![
+        "plan",
+        "--design",
+        "central-composite",
+        "--limit",
+        "Temperature=150,195",
+    ];
+    args.extend(SURFACE_FACTORS);
+    args.extend(["--json", "--out", "composite.xlsx"]);
+    let summary = json_of(&run_in(folder.path(), &args));
+    assert_eq!(summary["runs"], 20, "{summary}");
+    assert_eq!(summary["kind"], "central composite plan");
+    let mut sheets = read_all(&folder.path().join("composite.xlsx"));
+    let temperature = settings_in(&mut sheets, "Temperature");
+    assert_eq!(temperature.len(), 20);
+    let alpha = 8f64.powf(0.25);
+    let lowest = temperature.iter().copied().fold(f64::INFINITY, f64::min);
+    let highest = temperature.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    assert!((lowest - (170.0 - 10.0 * alpha)).abs() < 1e-6, "{temperature:?}");
+    assert!((highest - (170.0 + 10.0 * alpha)).abs() < 1e-6, "{temperature:?}");
+    assert!(lowest >= 150.0 && highest <= 195.0);
+    // Two runs per factor on its axis, the others at their centres.
+    let axial = temperature
+        .iter()
+        .filter(|value| (**value - 170.0).abs() > 10.5)
+        .count();
+    assert_eq!(axial, 2);
+    let time = settings_in(&mut sheets, "Time");
+    assert_eq!(time.iter().filter(|value| (**value - 25.0).abs() < 1e-9).count(), 4 + 6);
+
+    // A limit the axial runs would pass is refused, naming the factor.
+    let mut args = vec![
+        "plan",
+        "--design",
+        "central-composite",
+        "--limit",
+        "Temperature=155,185",
+    ];
+    args.extend(SURFACE_FACTORS);
+    args.extend(["--out", "refused.xlsx"]);
+    let output = Command::new(trialyst())
+        .args(&args)
+        .current_dir(folder.path())
+        .output()
+        .expect("trialyst runs");
+    assert_eq!(output.status.code(), Some(2));
+    let message = String::from_utf8_lossy(&output.stderr);
+    assert!(message.contains("Temperature"), "{message}");
+    assert!(!folder.path().join("refused.xlsx").exists());
+
+    // Box-Behnken, three factors: 12 edge runs (each pair of factors at +-1, the
+    // third at its centre) and 3 centre runs, 15 in all (Box and Behnken 1960); every
+    // setting is low, centre or high.
+    let mut args = vec!["plan", "--design", "box-behnken"];
+    args.extend(SURFACE_FACTORS);
+    args.extend(["--json", "--out", "edges.xlsx"]);
+    let summary = json_of(&run_in(folder.path(), &args));
+    assert_eq!(summary["runs"], 15, "{summary}");
+    let mut sheets = read_all(&folder.path().join("edges.xlsx"));
+    let temperature = settings_in(&mut sheets, "Temperature");
+    assert_eq!(temperature.len(), 15);
+    assert!(temperature.iter().all(|value| [160.0, 170.0, 180.0].contains(value)));
+    assert_eq!(temperature.iter().filter(|value| **value == 170.0).count(), 4 + 3);
+}
+
+#[test]
+fn filled_central_composite_plan_gets_a_second_order_reading() {
+    // An invented yield with its highest point at temperature 173, time 24 and
+    // pressure 2.5 (coded 0.3, -0.2, 0) and a small wobble: the second-order fit of a
+    // rotatable central composite plan should put a maximum near there, inside the
+    // region (canonical analysis, Box and Wilson 1951), and recommend confirming it.
+    let folder = tempfile::tempdir().expect("temp dir");
+    let mut args = vec!["plan", "--design", "central-composite"];
+    args.extend(SURFACE_FACTORS);
+    args.extend(["--out", "composite.xlsx"]);
+    run_in(folder.path(), &args);
+    let mut sheets = read_all(&folder.path().join("composite.xlsx"));
+    let rows = runs_sheet(&mut sheets);
+    let columns = ["Temperature", "Time", "Pressure"].map(|name| column_of(rows, name));
+    let result = column_of(rows, "Yield (%)");
+    for (index, row) in rows.iter_mut().enumerate().skip(3) {
+        let real = columns.map(|column| match &row[column] {
+            Data::Float(value) => *value,
+            other => panic!("setting {other:?}"),
+        });
+        let coded = [(real[0] - 170.0) / 10.0, (real[1] - 25.0) / 5.0, (real[2] - 2.5) / 0.5];
+        let value = 80.0 - 2.0 * (coded[0] - 0.3).powi(2) - 3.0 * (coded[1] + 0.2).powi(2) - 1.5 * coded[2].powi(2)
+            + [0.05, -0.04, 0.03, -0.05, 0.02][index % 5];
+        while row.len() <= result {
+            row.push(Data::Empty);
+        }
+        row[result] = Data::Float(value);
+    }
+    write_all(&sheets, &folder.path().join("filled.xlsx"));
+    let output = run_in(
+        folder.path(),
+        &["run", "--json", "--direction", "higher", "filled.xlsx"],
+    );
+    let results = json_of(&output);
+    let response = &results["responses"][0];
+    let reading = response["second_order"].as_str().unwrap_or_default();
+    assert!(reading.contains("a maximum"), "{response}");
+    assert!(reading.contains("inside the region"), "{reading}");
+    // Settings to four figures: 173.0, 24.01 and 2.500 for this fit.
+    assert!(reading.contains("Temperature 173.0,"), "{reading}");
+    assert!(reading.contains("Time 24.0"), "{reading}");
+    assert!(reading.contains("Pressure 2.50"), "{reading}");
+    let next = response["next_trial"].as_str().unwrap_or_default();
+    assert!(next.contains("confirm"), "{next}");
+    // Both sentences stand on the Summary sheet of the results workbook.
+    let written = read_all(&folder.path().join("filled.results.xlsx"));
+    let summary = text_cells(&written, "Summary");
+    assert!(summary.iter().any(|line| line == reading), "{summary:?}");
+    assert!(
+        summary.iter().any(|line| line == &format!("Next trial: {next}")),
+        "{summary:?}"
     );
 }

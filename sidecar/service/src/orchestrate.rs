@@ -412,7 +412,14 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             }
             None => (one_way_verdict, None),
         };
+        let (second_order, after_surface) = second_order_of(&table, response_index, &settings, direction).unzip();
+        let next_trial = factorial
+            .as_ref()
+            .and_then(|outcome| next_trial_after_screen(&table, outcome, direction))
+            .or(after_surface);
         responses.push(ResponseResult {
+            next_trial,
+            second_order,
             name: response.name.clone(),
             assessment,
             unit,
@@ -687,6 +694,182 @@ fn factorial_of(
         largest.cell = Some(place(largest.record));
     }
     Some(outcome)
+}
+
+/// What to run after a two-level screen, in one sentence (the engine's
+/// recommendation and its reason), when the factorial analysis read a full
+/// factorial or regular fraction and every treatment factor's low and high
+/// levels are numbers. The settings come from the level labels; the direction
+/// from the response's direction setting.
+fn next_trial_after_screen(
+    table: &TrialTable,
+    outcome: &engine::analysis::factorial::FactorialOutcome,
+    direction: Option<engine::options::Direction>,
+) -> Option<String> {
+    use engine::analysis::next_trial::{recommend_after_screen, ScreenEffect, ScreenSummary};
+    use engine::design::surface::SurfaceFactor;
+    use engine::stats::two_level::{DefiningRelation, Word};
+    let two = outcome.two_level.as_ref()?;
+    let mut treatments: Vec<(char, &engine::analysis::factorial::TwoLevelCoding, &str)> = outcome
+        .factors
+        .iter()
+        .filter(|factor| !factor.is_block)
+        .map(|factor| Some((factor.letter?, factor.coding.as_ref()?, factor.name.as_str())))
+        .collect::<Option<_>>()?;
+    treatments.sort_by_key(|(letter, _, _)| *letter);
+    let number = |label: &str| label.trim().parse::<f64>().ok().filter(|value| value.is_finite());
+    let factors: Vec<SurfaceFactor> = treatments
+        .iter()
+        .map(|(_, coding, name)| {
+            let (low, high) = (number(&coding.low)?, number(&coding.high)?);
+            (low < high).then(|| SurfaceFactor::new(name, low, high))
+        })
+        .collect::<Option<_>>()?;
+    let relation = match two.design.kind.as_str() {
+        "full factorial" => DefiningRelation::full_factorial(factors.len()).ok()?,
+        "regular fraction" => {
+            let generators: Vec<&str> = two.design.generators.iter().map(String::as_str).collect();
+            DefiningRelation::from_text(factors.len(), &generators).ok()?
+        }
+        _ => return None,
+    };
+    let effects = two
+        .effects
+        .iter()
+        .filter(|effect| !effect.in_error)
+        .map(|effect| {
+            Some(ScreenEffect {
+                word: Word::parse(&effect.name).ok()?,
+                effect: effect.effect,
+                active: effect.active,
+            })
+        })
+        .collect::<Option<Vec<_>>>()?;
+    let effect_se = two
+        .effects
+        .iter()
+        .find_map(|effect| effect.se)
+        .or_else(|| two.lenth.as_ref().map(|lenth| lenth.pse));
+    let blocks = table
+        .factors
+        .iter()
+        .filter(|factor| factor.is_block)
+        .map(|factor| factor.levels.len())
+        .max()
+        .unwrap_or(1);
+    let summary = ScreenSummary {
+        factors,
+        relation,
+        effects,
+        effect_se,
+        error_df: two.error.df,
+        curvature_p: two.curvature.as_ref().and_then(|curvature| curvature.p_value),
+        cube_runs: two.design.n_runs,
+        centre_runs: two.curvature.as_ref().map_or(0, |curvature| curvature.n_centre),
+        blocks,
+        direction,
+        alpha: 1.0 - outcome.confidence,
+    };
+    Some(recommend_after_screen(&summary).reason)
+}
+
+/// The second-order analysis of a response-surface trial, in two sentences: the
+/// stationary point with its kind, and the engine's recommendation after it. Run
+/// when there are two or more treatment factors, every one with three or five
+/// numeric settings (a Box-Behnken or face-centred plan, or a central composite
+/// plan with its axial settings), and at least one record has every factor at its
+/// middle setting (a centre run).
+fn second_order_of(
+    table: &TrialTable,
+    response_index: usize,
+    settings: &Settings,
+    direction: Option<engine::options::Direction>,
+) -> Option<(String, String)> {
+    use engine::analysis::next_trial::recommend_after_surface;
+    use engine::analysis::surface::{analyse_surface, coding_from_settings, SurfaceData, SurfaceOptions};
+    let response = table.responses.get(response_index)?;
+    let treatments: Vec<_> = table.factors.iter().filter(|factor| !factor.is_block).collect();
+    if treatments.len() < 2 {
+        return None;
+    }
+    let numbers: Vec<Vec<f64>> = treatments
+        .iter()
+        .map(|factor| {
+            let levels: Vec<f64> = factor
+                .levels
+                .iter()
+                .map(|label| label.trim().parse::<f64>().ok().filter(|value| value.is_finite()))
+                .collect::<Option<_>>()?;
+            matches!(levels.len(), 3 | 5).then_some(levels)
+        })
+        .collect::<Option<_>>()?;
+    let record_settings: Vec<Vec<f64>> = (0..response.values.len())
+        .map(|record| {
+            treatments
+                .iter()
+                .zip(&numbers)
+                .map(|(factor, levels)| levels[factor.level_of_record[record] as usize])
+                .collect()
+        })
+        .collect();
+    let coding: Vec<(f64, f64)> = (0..treatments.len())
+        .map(|column| {
+            let values: Vec<f64> = record_settings.iter().map(|row| row[column]).collect();
+            coding_from_settings(&values)
+        })
+        .collect::<Option<_>>()?;
+    let has_centre = record_settings.iter().any(|row| {
+        row.iter()
+            .zip(&coding)
+            .all(|(value, (centre, half))| (value - centre).abs() <= 1e-9 * half.abs().max(1.0))
+    });
+    if !has_centre {
+        return None;
+    }
+    let blocks = table
+        .factors
+        .iter()
+        .find(|factor| factor.is_block)
+        .map(|block| block.level_of_record.iter().map(|&level| level as usize).collect())
+        .unwrap_or_default();
+    let data = SurfaceData {
+        factor_names: treatments.iter().map(|factor| factor.name.clone()).collect(),
+        coding,
+        settings: record_settings,
+        blocks,
+        values: response.values.clone(),
+    };
+    let options = SurfaceOptions {
+        confidence: settings.confidence_level(),
+        direction,
+    };
+    let outcome = analyse_surface(&data, &options).ok()?;
+    let point = outcome.stationary.as_ref()?;
+    let sentence = format!(
+        "The second-order fit (R² {:.3}) has its stationary point, {}, at {}, predicted {:.4}, {} the region of the runs.",
+        outcome.r_squared,
+        point.kind.words(),
+        outcome
+            .factor_names
+            .iter()
+            .zip(&point.real)
+            .map(|(name, value)| format!("{name} {}", four_figures(*value)))
+            .collect::<Vec<_>>()
+            .join(", "),
+        point.predicted,
+        if point.inside_region { "inside" } else { "outside" }
+    );
+    Some((sentence, recommend_after_surface(&outcome).reason))
+}
+
+/// A setting to four significant figures, for a sentence.
+fn four_figures(value: f64) -> String {
+    let decimals = if value == 0.0 {
+        0
+    } else {
+        (3 - value.abs().log10().floor() as i32).max(0) as usize
+    };
+    format!("{value:.decimals$}")
 }
 
 /// Which analysis leads a response, and why, in one sentence: the factorial model

@@ -110,6 +110,17 @@ pub struct ResponseResult {
     /// The one-way comparison of all combinations, read as a detail, when the
     /// factorial model leads (otherwise `verdict` is this reading).
     pub one_way_verdict: Option<engine::analysis::verdict::Verdict>,
+    /// What to run next after a two-level screen, and why, in one sentence: a
+    /// fold-over, the path of steepest ascent or descent, runs completing a central
+    /// composite plan, or more replicates. Present only when the factorial analysis
+    /// read a two-level design whose factor settings are numbers.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub next_trial: Option<String>,
+    /// After a response-surface trial (every treatment factor numeric with three or
+    /// five settings and centre runs, as a central composite or Box-Behnken plan
+    /// has): the second-order fit's stationary point and its kind, in one sentence.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub second_order: Option<String>,
     /// The outcome.
     #[serde(flatten)]
     pub outcome: ResponseOutcome,

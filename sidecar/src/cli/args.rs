@@ -60,6 +60,18 @@ pub struct PlanArgs {
     /// Print the plan summary as JSON.
     #[arg(long)]
     pub json: bool,
+    /// A response-surface plan instead of a factorial: "central-composite" or
+    /// "box-behnken" (each factor gives its low and high settings).
+    #[arg(long)]
+    pub design: Option<String>,
+    /// How far out the axial runs of a central composite plan go: "rotatable"
+    /// (default), "orthogonal-blocks", "faces" or a distance in coded units.
+    #[arg(long)]
+    pub axial: Option<String>,
+    /// The settings a factor can reach, e.g. "Temperature=150,195"; leave a side
+    /// empty for no limit ("Temperature=,195"); repeatable.
+    #[arg(long)]
+    pub limit: Vec<String>,
 }
 
 /// `trialyst size`.

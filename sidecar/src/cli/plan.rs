@@ -18,6 +18,83 @@ fn parse_factor_arg(text: &str) -> Result<service::plan::FactorSpec, UsageError>
     Ok(service::plan::FactorSpec::new(name, &levels))
 }
 
+/// The response-surface plan asked for with `--design`, `--axial` and `--limit`,
+/// or `None` for the factorial plans.
+fn surface_design(
+    args: &PlanArgs,
+) -> Result<Option<(service::plan::SurfaceDesign, Vec<service::plan::FactorLimits>)>, UsageError> {
+    use engine::design::surface::AxialDistance;
+    use service::plan::SurfaceDesign;
+    let Some(design) = args.design.as_deref() else {
+        if args.axial.is_some() || !args.limit.is_empty() {
+            return Err(UsageError(
+                "--axial and --limit go with --design central-composite or --design box-behnken".into(),
+            ));
+        }
+        return Ok(None);
+    };
+    let axial = match args.axial.as_deref().map(str::trim) {
+        None | Some("rotatable") => AxialDistance::Rotatable,
+        Some("orthogonal-blocks") => AxialDistance::OrthogonalBlocking,
+        Some("faces") => AxialDistance::FaceCentred,
+        Some(text) => match text.parse::<f64>() {
+            Ok(distance) if distance.is_finite() && distance > 0.0 => AxialDistance::Given(distance),
+            _ => {
+                return Err(UsageError(format!(
+                    "--axial '{text}': write rotatable, orthogonal-blocks, faces or a positive distance in coded units, e.g. 1.5"
+                )))
+            }
+        },
+    };
+    let design = match design.trim() {
+        "central-composite" => SurfaceDesign::CentralComposite(axial),
+        "box-behnken" if args.axial.is_none() => SurfaceDesign::BoxBehnken,
+        "box-behnken" => {
+            return Err(UsageError(
+                "--axial goes with --design central-composite; a Box-Behnken plan has no axial runs".into(),
+            ))
+        }
+        other => {
+            return Err(UsageError(format!(
+                "--design '{other}': write central-composite or box-behnken"
+            )))
+        }
+    };
+    let limits = args
+        .limit
+        .iter()
+        .map(|text| parse_limit_arg(text))
+        .collect::<Result<_, _>>()?;
+    Ok(Some((design, limits)))
+}
+
+/// Reads `Name=lowest,highest` (either side may be empty).
+fn parse_limit_arg(text: &str) -> Result<service::plan::FactorLimits, UsageError> {
+    let usage = || {
+        UsageError(format!(
+            "--limit '{text}': write the name, '=' and the lowest and highest settings the process can reach, e.g. \"Temperature=150,195\" (leave a side empty for no limit)"
+        ))
+    };
+    let (name, bounds) = text.split_once('=').ok_or_else(usage)?;
+    let (lower, upper) = bounds.split_once(',').ok_or_else(usage)?;
+    let bound = |side: &str| -> Result<Option<f64>, UsageError> {
+        match side.trim() {
+            "" => Ok(None),
+            number => number
+                .parse::<f64>()
+                .ok()
+                .filter(|value| value.is_finite())
+                .map(Some)
+                .ok_or_else(usage),
+        }
+    };
+    Ok(service::plan::FactorLimits {
+        factor: name.trim().to_string(),
+        lower: bound(lower)?,
+        upper: bound(upper)?,
+    })
+}
+
 /// The plan request: the TOML file given, if any, overridden by the options.
 fn plan_request(args: &PlanArgs) -> Result<service::plan::PlanRequest, String> {
     let mut request = match &args.from {
@@ -61,7 +138,18 @@ pub(crate) fn plan_command(args: PlanArgs) -> i32 {
             return EXIT_USAGE;
         }
     };
-    let plan = match service::plan::make_plan(&request) {
+    let surface = match surface_design(&args) {
+        Ok(surface) => surface,
+        Err(error) => {
+            eprintln!("trialyst: {error}");
+            return EXIT_USAGE;
+        }
+    };
+    let made = match surface {
+        Some((design, limits)) => service::plan::make_surface_plan(design, &request, &limits),
+        None => service::plan::make_plan(&request),
+    };
+    let plan = match made {
         Ok(plan) => plan,
         Err(error) => {
             eprintln!("trialyst: {}", error_chain(&error));

@@ -46,9 +46,15 @@ pub(crate) fn human_line(path: &Path, outcome: &RunOutcome) -> String {
             let verdicts: Vec<String> = results
                 .responses
                 .iter()
-                .map(|response| match &response.verdict {
-                    Some(verdict) => format!("{}: {}", response.name, verdict.headline),
-                    None => format!("{}: not analysed", response.name),
+                .map(|response| {
+                    let line = match &response.verdict {
+                        Some(verdict) => format!("{}: {}", response.name, verdict.headline),
+                        None => format!("{}: not analysed", response.name),
+                    };
+                    match &response.next_trial {
+                        Some(next_trial) => format!("{line}\n    Next trial: {next_trial}"),
+                        None => line,
+                    }
                 })
                 .collect();
             let target = written

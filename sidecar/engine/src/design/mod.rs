@@ -189,6 +189,10 @@ pub enum DesignKind {
     FullFactorial,
     /// A regular two-level fraction `2^(k-p)`.
     TwoLevelFraction,
+    /// A central composite plan (cube, axial and centre runs).
+    CentralComposite,
+    /// A Box-Behnken plan.
+    BoxBehnken,
 }
 
 impl fmt::Display for DesignKind {
@@ -197,6 +201,8 @@ impl fmt::Display for DesignKind {
             DesignKind::OneFactor => "one-factor plan",
             DesignKind::FullFactorial => "full factorial",
             DesignKind::TwoLevelFraction => "two-level fraction",
+            DesignKind::CentralComposite => "central composite plan",
+            DesignKind::BoxBehnken => "Box-Behnken plan",
         })
     }
 }
@@ -308,7 +314,14 @@ impl Plan {
     }
 
     /// The plan definition as canonical text: the same text for the same plan.
+    /// Response-surface plans add their kind (a face-centred plan and a
+    /// three-level factorial can share their levels); other plans' text is as it
+    /// always was, so their ids do not change.
     pub fn definition_text(&self) -> String {
+        let kind = match self.kind {
+            DesignKind::CentralComposite | DesignKind::BoxBehnken => format!("\ndesign {}", self.kind),
+            _ => String::new(),
+        };
         definition_text(
             &self.factors,
             &self.responses,
@@ -322,7 +335,7 @@ impl Plan {
                 .as_slice(),
             self.seed,
             self.date,
-        )
+        ) + &kind
     }
 }
 
@@ -919,12 +932,79 @@ pub fn make_plan(request: &PlanRequest) -> Result<Plan, PlanError> {
         blocking,
         runs: ordered,
     };
+    plan.id = plan_id(&plan);
+    Ok(plan)
+}
+
+/// A plan's id: `TP-` and the first five bytes of the SHA-256 of its definition text.
+fn plan_id(plan: &Plan) -> String {
     let digest = Sha256::digest(plan.definition_text().as_bytes());
-    plan.id = format!(
+    format!(
         "TP-{}",
         digest[..5].iter().map(|byte| format!("{byte:02X}")).collect::<String>()
-    );
-    Ok(plan)
+    )
+}
+
+/// A response-surface plan as a [`Plan`], so it is written, kept and checked like
+/// every other plan: each factor's levels are the distinct real settings its runs
+/// use (in increasing order, written the shortest way), each run names its level;
+/// centre runs are marked; `centre_points` is the number of centre runs in the
+/// whole plan.
+pub fn plan_from_surface(surface: &surface::SurfacePlan, responses: &[String], date: Option<(u16, u8, u8)>) -> Plan {
+    let settings_of = |factor: usize| {
+        let mut values: Vec<f64> = surface.runs.iter().map(|run| run.real[factor]).collect();
+        values.sort_by(f64::total_cmp);
+        values.dedup();
+        values
+    };
+    let levels: Vec<Vec<f64>> = (0..surface.factors.len()).map(settings_of).collect();
+    let factors = surface
+        .factors
+        .iter()
+        .zip(&levels)
+        .map(|(factor, values)| {
+            let texts: Vec<String> = values.iter().map(|value| format_number(*value)).collect();
+            let texts: Vec<&str> = texts.iter().map(String::as_str).collect();
+            FactorSpec::new(&factor.name, &texts)
+        })
+        .collect();
+    let runs: Vec<PlannedRun> = surface
+        .runs
+        .iter()
+        .map(|run| PlannedRun {
+            run_order: run.run_order,
+            standard_order: run.standard_order,
+            replicate: 1,
+            block: run.block,
+            settings: run
+                .real
+                .iter()
+                .zip(&levels)
+                .map(|(value, values)| Setting::Level(values.iter().position(|level| level == value).unwrap_or(0)))
+                .collect(),
+            is_centre: run.point == surface::PointKind::Centre,
+        })
+        .collect();
+    let mut plan = Plan {
+        id: String::new(),
+        seed: surface.seed,
+        seed_from_clock: surface.seed_from_clock,
+        date,
+        kind: match surface.kind {
+            surface::SurfaceKind::CentralComposite => DesignKind::CentralComposite,
+            surface::SurfaceKind::BoxBehnken => DesignKind::BoxBehnken,
+        },
+        factors,
+        responses: responses.iter().map(|name| name.trim().to_string()).collect(),
+        replicates: 1,
+        centre_points: runs.iter().filter(|run| run.is_centre).count(),
+        n_blocks: surface.n_blocks,
+        fraction: None,
+        blocking: None,
+        runs,
+    };
+    plan.id = plan_id(&plan);
+    plan
 }
 
 #[cfg(test)]

@@ -238,7 +238,12 @@ fn design_sheet(plan: &Plan) -> Sheet {
             },
         ));
     }
-    if plan.kind == DesignKind::OneFactor || plan.fraction.is_none() {
+    if matches!(plan.kind, DesignKind::CentralComposite | DesignKind::BoxBehnken) {
+        rows.push((
+            "aliases".into(),
+            "none among the terms of a second-order model: each factor's straight-line and curved terms and every two-factor interaction can be estimated on its own".into(),
+        ));
+    } else if plan.kind == DesignKind::OneFactor || plan.fraction.is_none() {
         rows.push((
             "aliases".into(),
             "none: every combination of levels is run, so every effect can be estimated on its own".into(),

@@ -116,6 +116,100 @@ pub fn plan_to_file(request: &PlanRequest, destination: &Path) -> Result<PlanSum
     Ok(summarise(&plan, Some(destination)))
 }
 
+/// Which response-surface plan `trialyst plan --design` asks for.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SurfaceDesign {
+    /// A central composite plan with this axial distance rule.
+    CentralComposite(engine::design::surface::AxialDistance),
+    /// A Box-Behnken plan.
+    BoxBehnken,
+}
+
+/// The limits of one factor: the lowest and highest settings the process can reach.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FactorLimits {
+    /// The factor's name.
+    pub factor: String,
+    /// The lowest setting, if limited.
+    pub lower: Option<f64>,
+    /// The highest setting, if limited.
+    pub upper: Option<f64>,
+}
+
+/// A response-surface plan from a plan request: every factor gives two numeric
+/// levels (its low and high settings, coded -1 and +1); `limits` bound the
+/// settings a central composite plan's axial runs may reach. The request's
+/// centre points go in each cube block (and with the axial runs); two or more
+/// blocks put the axial runs in a block of their own and split the cube into the
+/// rest (central composite), or split a four-factor Box-Behnken plan.
+///
+/// # Errors
+///
+/// [`PlanError`]: a factor without two numeric levels, limits naming no
+/// factor, or what the engine refuses (too many runs, limits passed, blocks).
+pub fn make_surface_plan(
+    design: SurfaceDesign,
+    request: &PlanRequest,
+    limits: &[FactorLimits],
+) -> Result<Plan, PlanError> {
+    use engine::design::surface::{
+        make_box_behnken, make_central_composite, BoxBehnkenRequest, CompositeRequest, CubePart, SurfaceFactor,
+    };
+    if request.factors.is_empty() {
+        return Err(PlanError::NoFactors);
+    }
+    if request.responses.is_empty() {
+        return Err(PlanError::NoResponse);
+    }
+    for limit in limits {
+        if !request.factors.iter().any(|factor| factor.name == limit.factor) {
+            return Err(PlanError::BadFactor {
+                factor: limit.factor.clone(),
+                rule: "limits were given for it, but no factor has this name".into(),
+            });
+        }
+    }
+    let factors = request
+        .factors
+        .iter()
+        .map(|spec| {
+            let numbers: Vec<f64> = spec.levels.iter().filter_map(|level| level.number).collect();
+            match (numbers.as_slice(), spec.levels.len()) {
+                ([low, high], 2) if low != high => {
+                    let limit = limits.iter().find(|limit| limit.factor == spec.name);
+                    Ok(SurfaceFactor::new(&spec.name, low.min(*high), low.max(*high))
+                        .with_limits(limit.and_then(|l| l.lower), limit.and_then(|l| l.upper)))
+                }
+                _ => Err(PlanError::BadFactor {
+                    factor: spec.name.clone(),
+                    rule: "a response-surface plan needs two different numbers, the low and high settings, e.g. \"Temperature=160,180\"".into(),
+                }),
+            }
+        })
+        .collect::<Result<Vec<_>, _>>()?;
+    let date = request.date.as_deref().map(engine::design::parse_date).transpose()?;
+    let blocks = request.blocks.max(1);
+    let surface = match design {
+        SurfaceDesign::CentralComposite(axial) => make_central_composite(&CompositeRequest {
+            factors,
+            axial,
+            cube: CubePart::ResolutionFive,
+            cube_blocks: if blocks > 1 { blocks - 1 } else { 1 },
+            axial_block: blocks > 1,
+            cube_centre_points: request.centre_points,
+            axial_centre_points: request.centre_points,
+            seed: request.seed,
+        })?,
+        SurfaceDesign::BoxBehnken => make_box_behnken(&BoxBehnkenRequest {
+            factors,
+            blocks,
+            centre_points: request.centre_points,
+            seed: request.seed,
+        })?,
+    };
+    Ok(engine::design::plan_from_surface(&surface, &request.responses, date))
+}
+
 /// Why `plan_to_file` failed.
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]

@@ -269,6 +269,20 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
             summary_row += 1;
             summary.paragraph(summary_row, 0, response.lead.reason.clone(), Look::Note, SUMMARY_WIDTH);
             summary_row += 1;
+            if let Some(second_order) = &response.second_order {
+                summary.paragraph(summary_row, 0, second_order.clone(), Look::Plain, SUMMARY_WIDTH);
+                summary_row += 1;
+            }
+            if let Some(next_trial) = &response.next_trial {
+                summary.paragraph(
+                    summary_row,
+                    0,
+                    format!("Next trial: {next_trial}"),
+                    Look::Plain,
+                    SUMMARY_WIDTH,
+                );
+                summary_row += 1;
+            }
             for line in &verdict.details {
                 summary.paragraph(summary_row, 0, line.clone(), Look::Plain, SUMMARY_WIDTH);
                 summary_row += 1;
