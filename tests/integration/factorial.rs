@@ -691,6 +691,7 @@ fn a_run_at_an_unplanned_setting_is_reported_and_left_out_of_the_factorial_model
     assert_eq!(temperature.levels, vec!["160".to_string(), "180".to_string()]);
     assert!(factorial.two_level.is_some(), "the two-level analysis runs");
     assert_eq!(factorial.n_values, 7);
+}
 
 /// The one-sentence next-trial recommendation of a screening workbook analysed
 /// through the service.
