@@ -33,7 +33,8 @@ pub struct PlanArgs {
     /// Copies of the whole design (one-factor plans: runs per condition).
     #[arg(long)]
     pub replicates: Option<usize>,
-    /// Centre runs in each block (two-level plans with numeric factors).
+    /// Centre runs in each block (two-level plans with numeric factors; response-surface
+    /// plans get 3 in the cube part and 3 with the axial runs when none are given).
     #[arg(long)]
     pub centre_points: Option<usize>,
     /// Number of blocks: one per replicate, or each replicate split in 2, 4, 8 ...

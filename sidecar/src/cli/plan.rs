@@ -129,6 +129,9 @@ fn plan_request(args: &PlanArgs) -> Result<service::plan::PlanRequest, String> {
     Ok(request)
 }
 
+/// Centre runs of a response-surface plan when none are asked for.
+const SURFACE_CENTRE_POINTS: usize = 3;
+
 /// `trialyst plan`: checks the request, writes the plan workbook; returns the exit code.
 pub(crate) fn plan_command(args: PlanArgs) -> i32 {
     let request = match plan_request(&args) {
@@ -145,6 +148,12 @@ pub(crate) fn plan_command(args: PlanArgs) -> i32 {
             return EXIT_USAGE;
         }
     };
+    let mut request = request;
+    if surface.is_some() && args.centre_points.is_none() && request.centre_points == 0 {
+        // A response-surface plan needs centre runs for its error and its curvature;
+        // three to six in all is common practice, and the cube part and the axial part get these each.
+        request.centre_points = SURFACE_CENTRE_POINTS;
+    }
     let made = match surface {
         Some((design, limits)) => service::plan::make_surface_plan(design, &request, &limits),
         None => service::plan::make_plan(&request),

@@ -658,7 +658,7 @@ pub fn recommend_after_screen(summary: &ScreenSummary) -> Recommendation {
                     .iter()
                     .zip(&path.real_step)
                     .filter(|(_, step)| **step != 0.0)
-                    .map(|(factor, step)| format!("{} {:+}", factor.name, step))
+                    .map(|(factor, step)| format!("{} {}{}", factor.name, if *step >= 0.0 { "+" } else { "" }, setting_in_words(*step)))
                     .collect::<Vec<_>>()
                     .join(", "),
                 path.stop_reason,
@@ -729,7 +729,7 @@ pub fn recommend_after_surface(outcome: &SurfaceOutcome) -> Recommendation {
                 .factor_names
                 .iter()
                 .zip(&confirm.real)
-                .map(|(name, value)| format!("{name} {}", crate::design::format_number(round_setting(*value))))
+                .map(|(name, value)| format!("{name} {}", setting_in_words(*value)))
                 .collect::<Vec<_>>()
                 .join(", "),
             confirm.low,
@@ -752,3 +752,14 @@ pub fn recommend_after_surface(outcome: &SurfaceOutcome) -> Recommendation {
 mod loop_tests;
 #[cfg(test)]
 mod tests;
+
+/// A setting in a sentence: five significant figures, as a person would dial it in (the
+/// plan workbooks keep the full value).
+fn setting_in_words(value: f64) -> String {
+    if value == 0.0 || !value.is_finite() {
+        return format!("{value}");
+    }
+    let digits = 5 - (value.abs().log10().floor() as i32) - 1;
+    let scale = 10f64.powi(digits);
+    format!("{}", (value * scale).round() / scale)
+}
