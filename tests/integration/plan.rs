@@ -544,6 +544,19 @@ fn central_composite_and_box_behnken_plans_are_written_and_read_back() {
     assert_eq!(temperature.len(), 15);
     assert!(temperature.iter().all(|value| [160.0, 170.0, 180.0].contains(value)));
     assert_eq!(temperature.iter().filter(|value| **value == 170.0).count(), 4 + 3);
+
+    // With no centre runs asked for, a response-surface plan still gets 3 with the cube
+    // and 3 with the axial runs (three to six in all is common practice).
+    let without: Vec<&str> = SURFACE_FACTORS
+        .iter()
+        .copied()
+        .filter(|arg| *arg != "--centre-points" && *arg != "3")
+        .collect();
+    let mut args = vec!["plan", "--design", "central-composite"];
+    args.extend(without);
+    args.extend(["--json", "--out", "default-centre.xlsx"]);
+    let summary = json_of(&run_in(folder.path(), &args));
+    assert_eq!(summary["runs"], 20, "{summary}");
 }
 
 #[test]
