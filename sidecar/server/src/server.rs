@@ -439,48 +439,47 @@ impl Shared {
 
     async fn plan_trial(&self, params: Json) -> Result<Json> {
         let read = planning::plan_params(&params).map_err(params_error)?;
-        let what = "planning a trial".to_string();
-        let progress = self
-            .begin_progress(read.work_done_token.clone(), false, what.clone())
-            .await;
         let request = read.request;
-        let outcome = self
-            .run_blocking(&progress, move || {
-                let plan = service::plan::make_plan(&request)?;
-                let book = service::plan::book::plan_book(&plan);
-                Ok::<Json, service::plan::PlanError>(json!({
-                    "plan": serde_json::to_value(service::plan::summarise(&plan, None)).unwrap_or(Json::Null),
-                    "tables": to_proto::book_tables(&book),
-                }))
-            })
-            .await?;
-        progress
-            .finish(if outcome.is_ok() {
-                "done".into()
-            } else {
-                "failed".into()
-            })
-            .await;
-        outcome.map_err(|error| request_failed(&error.to_string(), "bad-plan"))
+        self.planning_work(read.work_done_token, "planning a trial", "bad-plan", move || {
+            let plan = service::plan::make_plan(&request)?;
+            let book = service::plan::book::plan_book(&plan);
+            Ok::<Json, service::plan::PlanError>(json!({
+                "plan": serde_json::to_value(service::plan::summarise(&plan, None)).unwrap_or(Json::Null),
+                "tables": to_proto::book_tables(&book),
+            }))
+        })
+        .await
     }
 
     async fn size_trial(&self, params: Json) -> Result<Json> {
         let read = planning::size_params(&params).map_err(params_error)?;
-        let what = "sizing a trial".to_string();
-        let progress = self
-            .begin_progress(read.work_done_token.clone(), false, what.clone())
-            .await;
         let request = read.request;
-        let outcome = self
-            .run_blocking(&progress, move || {
-                let answer = service::plan::size_answer(&request)?;
-                let book = service::plan::size_book(&answer);
-                Ok::<Json, service::plan::SizeError>(json!({
-                    "answer": serde_json::to_value(&answer).unwrap_or(Json::Null),
-                    "tables": to_proto::book_tables(&book),
-                }))
-            })
-            .await?;
+        self.planning_work(read.work_done_token, "sizing a trial", "bad-size-question", move || {
+            let answer = service::plan::size_answer(&request)?;
+            let book = service::plan::size_book(&answer);
+            Ok::<Json, service::plan::SizeError>(json!({
+                "answer": serde_json::to_value(&answer).unwrap_or(Json::Null),
+                "tables": to_proto::book_tables(&book),
+            }))
+        })
+        .await
+    }
+
+    /// A planning request (plan or size): the work off the protocol's thread with
+    /// progress, and a failure answered with its kind.
+    async fn planning_work<E, W>(
+        &self,
+        token: Option<ProgressToken>,
+        what: &str,
+        failure_kind: &str,
+        work: W,
+    ) -> Result<Json>
+    where
+        E: std::fmt::Display + Send + 'static,
+        W: FnOnce() -> std::result::Result<Json, E> + Send + 'static,
+    {
+        let progress = self.begin_progress(token, false, what.to_string()).await;
+        let outcome = self.run_blocking(&progress, work).await?;
         progress
             .finish(if outcome.is_ok() {
                 "done".into()
@@ -488,7 +487,7 @@ impl Shared {
                 "failed".into()
             })
             .await;
-        outcome.map_err(|error| request_failed(&error.to_string(), "bad-size-question"))
+        outcome.map_err(|error| request_failed(&error.to_string(), failure_kind))
     }
 
     async fn write(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
