@@ -56,9 +56,6 @@ pub struct TrialCase {
     /// Whether the design planned one run per combination (no "too few values" finding
     /// per run is expected).
     pub one_run_per_combination: bool,
-    /// Whether the expectation rests on the engine's block-aware two-level analysis
-    /// (effects confounded with blocks never read as effects).
-    pub needs_block_aware_engine: bool,
 }
 
 /// One run: the factor levels, then the value (`None` when missing).
@@ -283,7 +280,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: strings(&["Time", "Speed"]),
         expects_best: true,
         one_run_per_combination: true,
-        needs_block_aware_engine: false,
     });
 
     // 2. 2^(5-1) (E = ABCD) with four centre points, direction higher.
@@ -307,7 +303,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: strings(&["Time", "Flow"]),
         expects_best: true,
         one_run_per_combination: true,
-        needs_block_aware_engine: false,
     });
 
     // 3. 2^(4-1) (D = ABC) with four centre points and no direction.
@@ -331,7 +326,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: strings(&["Pressure", "Speed"]),
         expects_best: false,
         one_run_per_combination: true,
-        needs_block_aware_engine: false,
     });
 
     // 4. Unreplicated 2^4 in two days (blocks): ABCD confounded with days, no shift
@@ -356,7 +350,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: strings(&["Pressure", "Speed", "Temperature × Pressure × Time × Speed"]),
         expects_best: true,
         one_run_per_combination: true,
-        needs_block_aware_engine: true,
     });
 
     // 5. The same blocked plan with a large day shift: the interaction confounded with
@@ -380,7 +373,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: strings(&["Pressure", "Speed", "Temperature × Pressure × Time × Speed"]),
         expects_best: true,
         one_run_per_combination: true,
-        needs_block_aware_engine: true,
     });
 
     // 6. A text factor in a replicated 2^3: supplier East/West.
@@ -410,7 +402,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: strings(&["Pressure"]),
         expects_best: true,
         one_run_per_combination: false,
-        needs_block_aware_engine: false,
     });
 
     // 7. A replicated general factorial: three ovens by two lines, three runs each.
@@ -433,7 +424,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: strings(&["Line"]),
         expects_best: true,
         one_run_per_combination: false,
-        needs_block_aware_engine: false,
     });
 
     // 8. Unbalanced: the same shape with two to five runs per cell.
@@ -456,7 +446,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: strings(&["Oven"]),
         expects_best: true,
         one_run_per_combination: false,
-        needs_block_aware_engine: false,
     });
 
     // 9. A replicated 2^3 with one run's value missing (a blank cell).
@@ -481,7 +470,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: strings(&["Temperature"]),
         expects_best: true,
         one_run_per_combination: false,
-        needs_block_aware_engine: false,
     });
 
     // 10. A factor beside blocks: three recipes on each of four shifts.
@@ -510,7 +498,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: Vec::new(),
         expects_best: true,
         one_run_per_combination: true,
-        needs_block_aware_engine: false,
     });
 
     // 11. One-way with a control and a direction.
@@ -534,7 +521,6 @@ pub fn corpus() -> Vec<TrialCase> {
         must_not_find: Vec::new(),
         expects_best: true,
         one_run_per_combination: false,
-        needs_block_aware_engine: false,
     });
     cases
 }

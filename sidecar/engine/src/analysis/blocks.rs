@@ -76,13 +76,15 @@ pub struct BlocksRemoved {
     /// row-major, conditions in the fit's order).
     #[serde(skip)]
     pub mean_covariance: Vec<f64>,
+    /// Number of conditions in the fit (the side of `mean_covariance`).
+    #[serde(skip)]
+    pub n_conditions: usize,
 }
 
 impl BlocksRemoved {
     /// The variance of the difference of two adjusted means over the error variance.
     pub fn difference_variance_factor(&self, first: usize, second: usize) -> f64 {
-        let k = (self.mean_covariance.len() as f64).sqrt().round() as usize;
-        let at = |row: usize, column: usize| self.mean_covariance[row * k + column];
+        let at = |row: usize, column: usize| self.mean_covariance[row * self.n_conditions + column];
         at(first, first) + at(second, second) - 2.0 * at(first, second)
     }
 }
@@ -387,6 +389,7 @@ pub fn fit_one_way_in_blocks(
             })
             .collect(),
         mean_covariance,
+        n_conditions: k,
     });
     Ok(fit)
 }
