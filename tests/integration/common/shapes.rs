@@ -1263,5 +1263,52 @@ pub fn shapes() -> Vec<ShapeCase> {
         said(expected("Measurements", "A3", &["Gate"], &["Sink depth"], 18)),
     ));
 
+    cases.extend(more_shapes(&mut noise));
+    cases
+}
+
+/// Shapes added after the first 47: numbers as condition names, summary rows made by
+/// formulas, hidden helper columns, settings columns that do not form a design, wide
+/// condition names differing in case or spacing.
+fn more_shapes(noise: &mut Noise) -> Vec<ShapeCase> {
+    let mut cases = Vec::new();
+
+    // 48. A wide table whose conditions are cure temperatures, under a title cell.
+    let mut sheet = SheetSpec::new("Cure");
+    sheet.put(0, 0, t("Cure temperature (deg C)"));
+    for (offset, setting) in [160.0, 170.0, 180.0].iter().enumerate() {
+        sheet.put(1, offset as u16, n(*setting));
+    }
+    for (row, values) in wide_rows(noise, 3, 6, 31.0, 1.2).into_iter().enumerate() {
+        for (col, cell) in values.into_iter().enumerate() {
+            if let Some(cell) = cell {
+                sheet.put(2 + row as u32, col as u16, cell);
+            }
+        }
+    }
+    cases.push(case(
+        "wide-numeric-headers-titled",
+        vec![sheet],
+        said(wide_expected("Cure", "A2", &["160", "170", "180"], 18)),
+    ));
+
+    // 49. Numbers as condition names with no title, falling from left to right.
+    let mut sheet = SheetSpec::new("Gap");
+    for (offset, setting) in [0.8, 0.6, 0.4, 0.2].iter().enumerate() {
+        sheet.put(0, offset as u16 + 1, n(*setting));
+    }
+    for (row, values) in wide_rows(noise, 4, 5, 12.0, 0.9).into_iter().enumerate() {
+        for (col, cell) in values.into_iter().enumerate() {
+            if let Some(cell) = cell {
+                sheet.put(1 + row as u32, col as u16 + 1, cell);
+            }
+        }
+    }
+    cases.push(case(
+        "wide-numeric-headers-falling",
+        vec![sheet],
+        said(wide_expected("Gap", "B1", &["0.8", "0.6", "0.4", "0.2"], 20)),
+    ));
+
     cases
 }

@@ -167,7 +167,84 @@ pub(super) fn find_header_row(
             best = Some((index, weight));
         }
     }
+    // A lone title (or nothing) above a row of numbers naming the conditions.
+    let lone_title = best.filter(|(index, _)| rows[*index].1 - rows[*index].0 == 1);
+    if best.is_none() || lone_title.is_some() {
+        let below = lone_title.map_or(0, |(index, _)| index + 1);
+        if let Some(index) = numeric_header_row(cells, rows, below, lone_title.is_some()) {
+            return Some(index);
+        }
+    }
     best.map(|(index, _)| index)
+}
+
+/// A row of numbers that names the conditions of a wide table (settings such as 160, 170,
+/// 180 over columns of measurements): the first row holding a number at or after `from`,
+/// of two or more numbers only, all different and rising or falling from left to right,
+/// with two or more rows of numbers below in its columns; and told from a first row of
+/// measurements by a title cell above it, or by whole numbers over measurements with
+/// fractions, or by values farther outside the range of the numbers below each of them
+/// than that range is wide.
+pub(super) fn numeric_header_row(
+    cells: &[(CellPos, CellValue)],
+    rows: &[(usize, usize)],
+    from: usize,
+    titled: bool,
+) -> Option<usize> {
+    let index = (from..rows.len().min(from + 200)).find(|index| {
+        cells[rows[*index].0..rows[*index].1]
+            .iter()
+            .any(|(_, value)| matches!(value, CellValue::Number(_)))
+    })?;
+    let row_cells = &cells[rows[index].0..rows[index].1];
+    let mut settings: Vec<(u32, f64)> = Vec::with_capacity(row_cells.len());
+    for (pos, value) in row_cells {
+        match value {
+            CellValue::Number(number) if number.is_finite() => settings.push((pos.col, *number)),
+            _ => return None,
+        }
+    }
+    if settings.len() < 2 {
+        return None;
+    }
+    let rising = settings.windows(2).all(|pair| pair[1].1 > pair[0].1);
+    let falling = settings.windows(2).all(|pair| pair[1].1 < pair[0].1);
+    if !rising && !falling {
+        return None;
+    }
+    // The numbers below, in the header's columns, over the next rows (bounded).
+    let mut ranges: Vec<(f64, f64)> = vec![(f64::INFINITY, f64::NEG_INFINITY); settings.len()];
+    let mut data_rows = 0;
+    let mut fractions = false;
+    let mut outside_columns = 0;
+    for span in rows.iter().skip(index + 1).take(50) {
+        let mut in_header_columns = false;
+        for (pos, value) in &cells[span.0..span.1] {
+            let Ok(slot) = settings.binary_search_by_key(&pos.col, |(col, _)| *col) else {
+                continue;
+            };
+            if let CellValue::Number(number) = value {
+                in_header_columns = true;
+                fractions |= number.fract() != 0.0;
+                let range = &mut ranges[slot];
+                *range = (range.0.min(*number), range.1.max(*number));
+            }
+        }
+        if in_header_columns {
+            data_rows += 1;
+        } else {
+            outside_columns += 1;
+        }
+    }
+    if data_rows < 2 || outside_columns > data_rows {
+        return None;
+    }
+    let whole_settings = settings.iter().all(|(_, number)| number.fract() == 0.0);
+    let outside = settings
+        .iter()
+        .zip(&ranges)
+        .all(|((_, number), (low, high))| low <= high && (low - number).max(number - high) > high - low);
+    (outside || (whole_settings && (titled || fractions))).then_some(index)
 }
 
 /// The header names of the table: merged header cells spread over their columns,

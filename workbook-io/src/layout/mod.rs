@@ -95,6 +95,36 @@ fn detect_table_cells(
     let header_row = cells[rows[header_index].0].0.row;
     let mut findings = Findings::default();
     let mut choices: Vec<String> = Vec::new();
+    let header_span = rows[header_index];
+    if cells[header_span.0..header_span.1]
+        .iter()
+        .all(|(_, value)| matches!(value, CellValue::Number(_)))
+    {
+        let names: Vec<String> = cells[header_span.0..header_span.1]
+            .iter()
+            .map(|(_, value)| grid.display(*value))
+            .collect();
+        let title = header_index
+            .checked_sub(1)
+            .map(|above| &cells[rows[above].0..rows[above].1])
+            .filter(|above| above.len() == 1)
+            .and_then(|above| match above[0].1 {
+                CellValue::Text(index) => Some(format!(" under the title '{}'", grid.text(index).trim())),
+                _ => None,
+            })
+            .unwrap_or_default();
+        let area = CellRect {
+            first: cells[header_span.0].0,
+            last: cells[header_span.1 - 1].0,
+        };
+        let line = format!(
+            "the numbers in row {} ({}){title} were read as the names of the conditions, one column each; set `range` to start the table elsewhere",
+            header_row + 1,
+            names.join(", ")
+        );
+        findings.push(choice_finding(&sheet, area, "numbers as condition names", &line));
+        choices.push(line);
+    }
     let first_header_col = cells[rows[header_index].0].0.col;
 
     // Rows of text only between the header and the first number (units, notes) belong

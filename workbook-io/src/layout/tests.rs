@@ -1102,27 +1102,89 @@ fn dates_are_shown_as_dates() {
     assert_eq!(super::cells::date_text(45_351.0), "2024-02-29");
 }
 
-/// Cases where today's detection differs from what a person reading the grid would
-/// take; each states the reader's answer. Run with `--ignored` to see the gaps.
-fn known_gaps() -> Vec<Case> {
-    vec![Case {
-        name: "gap: wide conditions named by numbers in the header row",
-        rows: &[&["160", "180"], &["1.2", "2.0"], &["1.4", "2.1"], &["1.3", "2.2"]],
-        merged: &[],
-        request: TableRequest::default(),
-        expect: Expected::Table(TableExpect {
-            layout: Layout::Wide,
-            area: "A1:B4",
-            factors: &[("condition", &["160", "180"], false)],
-            responses: &["value"],
-            records: 6,
-            findings: &[],
-        }),
-    }]
+/// Wide tables whose conditions are named by numbers (settings over columns of
+/// measurements); the former known gap comes first.
+fn numeric_headers() -> Vec<Case> {
+    vec![
+        Case {
+            name: "wide conditions named by numbers in the header row",
+            rows: &[&["160", "180"], &["1.2", "2.0"], &["1.4", "2.1"], &["1.3", "2.2"]],
+            merged: &[],
+            request: TableRequest::default(),
+            expect: Expected::Table(TableExpect {
+                layout: Layout::Wide,
+                area: "A1:B4",
+                factors: &[("condition", &["160", "180"], false)],
+                responses: &["value"],
+                records: 6,
+                findings: &[],
+            }),
+        },
+        Case {
+            name: "numbers as condition names under a title cell naming the factor",
+            rows: &[
+                &["Press force (kN)"],
+                &["", "20", "25", "30"],
+                &["", "41", "44", "47"],
+                &["", "40", "45", "48"],
+                &["", "42", "43", "46"],
+            ],
+            merged: &[],
+            request: TableRequest::default(),
+            expect: Expected::Table(TableExpect {
+                layout: Layout::Wide,
+                area: "B2:D5",
+                factors: &[("condition", &["20", "25", "30"], false)],
+                responses: &["value"],
+                records: 9,
+                findings: &[],
+            }),
+        },
+        Case {
+            name: "falling settings with fractions, outside the range of the values below",
+            rows: &[
+                &["2.5", "1.5", "0.5"],
+                &["12.1", "13.4", "15.0"],
+                &["12.4", "13.1", "14.8"],
+                &["", "13.3", "15.2"],
+            ],
+            merged: &[],
+            request: TableRequest::default(),
+            expect: Expected::Table(TableExpect {
+                layout: Layout::Wide,
+                area: "A1:C4",
+                factors: &[("condition", &["2.5", "1.5", "0.5"], false)],
+                responses: &["value"],
+                records: 8,
+                findings: &[],
+            }),
+        },
+        Case {
+            name: "rows of numbers alone, the first like the others, are not a table",
+            rows: &[&["12.1", "13.4"], &["12.4", "13.1"], &["12.2", "13.3"]],
+            merged: &[],
+            request: TableRequest::default(),
+            expect: Expected::NoTable,
+        },
+        Case {
+            name: "a first row of numbers out of order is not a header of settings",
+            rows: &[&["170", "160", "180"], &["1.2", "2.0", "1.5"], &["1.4", "2.1", "1.6"]],
+            merged: &[],
+            request: TableRequest::default(),
+            expect: Expected::NoTable,
+        },
+    ]
 }
 
 #[test]
-#[ignore = "known detection gaps: the expected answers are what a reader would take, not what detection gives today"]
-fn known_detection_gaps() {
-    run_cases(&known_gaps());
+fn numbers_in_the_header_row_name_the_conditions() {
+    run_cases(&numeric_headers());
+    // The choice is said with the numbers read as names.
+    let sheet = grid(&[&["160", "180"], &["1.2", "2.0"], &["1.4", "2.1"]], &[]);
+    let table = detect_table(&sheet, &TableRequest::default()).expect("a wide table");
+    assert!(
+        table.choices.iter().any(|line| line.contains("row 1 (160, 180)")),
+        "{:?}",
+        table.choices
+    );
 }
