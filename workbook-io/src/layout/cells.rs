@@ -36,11 +36,18 @@ pub(super) fn hidden_findings(grid: &SheetGrid, table: &TrialTable) -> Vec<Findi
             ),
         });
     }
+    // Hidden columns left out as helper columns have a finding of their own; these
+    // are the hidden columns whose values the table uses.
+    let used = |col: u32| {
+        table.level_columns.contains(&col)
+            || table.factors.iter().any(|factor| factor.column == Some(col))
+            || table.responses.iter().any(|response| response.column == Some(col))
+    };
     let cols: Vec<u32> = grid
         .hidden_cols
         .iter()
         .copied()
-        .filter(|col| (area.first.col..=area.last.col).contains(col))
+        .filter(|col| (area.first.col..=area.last.col).contains(col) && used(*col))
         .collect();
     if let Some(&first) = cols.first() {
         let letters: Vec<String> = cols.iter().take(20).map(|&col| column_letters(col)).collect();

@@ -25,6 +25,8 @@ pub(super) struct ColumnCounts {
     pub(super) n_settings: usize,
     /// True when the column holds more distinct numbers than `settings` keeps.
     pub(super) many_numbers: bool,
+    /// Numbers made by formulas that summarise other cells (AVERAGE, SUM...).
+    pub(super) summary_formulas: usize,
 }
 
 /// Distinct numbers kept per column to recognise design settings.
@@ -387,6 +389,9 @@ pub(super) fn count_columns(
                 counts.last_number = Some(*number);
                 counts.numbers += 1;
                 counts.note_number(*number);
+                if !grid.summary_formulas.is_empty() && super::formulas::summary_formula_at(grid, *pos).is_some() {
+                    counts.summary_formulas += 1;
+                }
             }
             CellValue::Text(text_index) => {
                 counts.texts += 1;

@@ -14,6 +14,7 @@
 mod blocks;
 mod cells;
 mod choose;
+mod formulas;
 mod header;
 mod long;
 mod roles;
@@ -31,7 +32,7 @@ use crate::read::SheetGrid;
 use cells::{hidden_findings, number_list};
 use header::{column_finding, count_columns, empty_column_findings, find_header_row, header_names, row_spans};
 use long::{build_long, label_factor_columns, measured_columns};
-use roles::{context_reason, design_columns, is_notes_column, is_summary_word, short_reason};
+use roles::{context_reason, design_columns, is_notes_column, is_summary_word, short_reason, HIDDEN_REASON};
 use wide::build_wide;
 
 /// Finds the trial table in a sheet's cells: the table that looks most like trial data
@@ -77,6 +78,19 @@ fn detect_table_cells(
         (false, Some(block)) => block,
         (false, None) => &grid.cells,
     };
+    // Rows made by summary formulas are left out before the table is read.
+    let formula_rows = formulas::summary_formula_rows(grid, cells);
+    let without_formula_rows: Vec<(CellPos, CellValue)>;
+    let cells: &[(CellPos, CellValue)] = if formula_rows.is_empty() {
+        cells
+    } else {
+        without_formula_rows = cells
+            .iter()
+            .copied()
+            .filter(|(pos, _)| formula_rows.binary_search_by_key(&pos.row, |row| row.row).is_err())
+            .collect();
+        &without_formula_rows
+    };
     if cells.is_empty() {
         return Err(LayoutError::NoTable {
             sheet,
@@ -95,6 +109,11 @@ fn detect_table_cells(
     let header_row = cells[rows[header_index].0].0.row;
     let mut findings = Findings::default();
     let mut choices: Vec<String> = Vec::new();
+    let (formula_findings, formula_line) = formulas::summary_formula_findings(&sheet, &formula_rows);
+    for finding in formula_findings {
+        findings.push(finding);
+    }
+    choices.extend(formula_line);
     let header_span = rows[header_index];
     if cells[header_span.0..header_span.1]
         .iter()
@@ -300,6 +319,8 @@ fn detect_table_cells(
         .map(|index| {
             if named(index) || columns[index].counts.non_empty() == 0 {
                 None
+            } else if grid.hidden_cols.binary_search(&columns[index].col).is_ok() {
+                Some(HIDDEN_REASON)
             } else {
                 context_reason(&columns[index], n_data_rows)
             }

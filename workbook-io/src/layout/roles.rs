@@ -79,6 +79,9 @@ fn words(header: &str) -> Vec<String> {
         .collect()
 }
 
+/// The reason given for a column the sheet hides: a helper column, kept as context.
+pub(super) const HIDDEN_REASON: &str = "is hidden in the sheet (a helper column)";
+
 /// Why a column is context rather than a condition or a measurement, if it is: dates and
 /// times by their values; notes, operators, shifts and replicates by their header words;
 /// run, order, sample, panel, batch and lot numbers by a header of such words alone,
@@ -86,6 +89,9 @@ fn words(header: &str) -> Vec<String> {
 pub(super) fn context_reason(column: &HeaderColumn, n_rows: usize) -> Option<&'static str> {
     let counts = &column.counts;
     let filled = counts.non_empty();
+    if counts.summary_formulas > 0 && counts.summary_formulas == counts.numbers {
+        return Some("holds formulas that summarise other cells (AVERAGE, SUM and the like), not measurements");
+    }
     if counts.dates > 0 && counts.dates * 2 >= filled {
         return Some("holds dates or times");
     }
@@ -129,6 +135,10 @@ pub(super) fn context_reason(column: &HeaderColumn, n_rows: usize) -> Option<&'s
 pub(super) fn short_reason(reason: &str) -> &'static str {
     if reason.starts_with("holds dates") {
         "dates or times"
+    } else if reason.starts_with("is hidden") {
+        "hidden helper column"
+    } else if reason.contains("summarise other cells") {
+        "summary formulas"
     } else if reason.contains("notes") {
         "notes"
     } else if reason.starts_with("counts up") {

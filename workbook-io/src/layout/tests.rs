@@ -59,6 +59,7 @@ fn grid(rows: &[&[&str]], merged: &[&str]) -> SheetGrid {
             .collect(),
         hidden_rows: Vec::new(),
         hidden_cols: Vec::new(),
+        summary_formulas: Vec::new(),
     }
 }
 
@@ -1187,4 +1188,133 @@ fn numbers_in_the_header_row_name_the_conditions() {
         "{:?}",
         table.choices
     );
+}
+
+/// The cell at an A1 address, for the formula and hidden-column cases.
+fn at(a1: &str) -> CellPos {
+    crate::cell::parse_a1(a1).expect("an A1 address")
+}
+
+#[test]
+fn rows_of_summary_formulas_are_left_out_wherever_they_stand() {
+    // A long table with an unlabelled AVERAGE row at its foot and a SUBTOTAL row between
+    // the suppliers: neither is a record (common practice: summaries are not measurements).
+    let mut sheet = grid(
+        &[
+            &["Supplier", "Strength"],
+            &["North", "40.1"],
+            &["North", "40.5"],
+            &["", "40.3"],
+            &["South", "41.9"],
+            &["South", "42.2"],
+            &["", "41.2"],
+        ],
+        &[],
+    );
+    sheet.summary_formulas = vec![(at("B4"), "SUBTOTAL"), (at("B7"), "AVERAGE")];
+    let table = detect_table(&sheet, &TableRequest::default()).expect("a long table");
+    assert_eq!(table.n_records(), 4);
+    assert_eq!(table.factors[0].levels, ["North", "South"]);
+    let summary: Vec<String> = table
+        .findings
+        .iter()
+        .filter(|finding| finding.kind == SummaryRow)
+        .map(|finding| finding.message.clone())
+        .collect();
+    assert_eq!(summary.len(), 2, "{summary:?}");
+    assert!(summary[0].contains("SUBTOTAL in B4"), "{summary:?}");
+    assert!(summary[1].contains("AVERAGE in B7"), "{summary:?}");
+    assert!(
+        table
+            .choices
+            .iter()
+            .any(|line| line.contains("row(s) 4, 7 hold summary formulas")),
+        "{:?}",
+        table.choices
+    );
+    // The same grid without the formulas noted reads the rows as records with blank
+    // labels (no label says summary), so the formulas are what told them apart.
+    sheet.summary_formulas.clear();
+    let plain = detect_table(&sheet, &TableRequest::default()).expect("a long table");
+    assert!(!plain.findings.iter().any(|finding| finding.kind == SummaryRow));
+    assert!(plain.findings.iter().any(|finding| finding.kind == BlankLabel));
+}
+
+#[test]
+fn a_column_of_summary_formulas_beside_a_wide_table_is_left_out() {
+    let mut sheet = grid(
+        &[
+            &["Oven 1", "Oven 2", "Oven 3", "Spread"],
+            &["85.1", "86.0", "84.2", "1.8"],
+            &["85.4", "86.3", "84.9", "1.4"],
+            &["84.8", "85.7", "84.5", "1.2"],
+        ],
+        &[],
+    );
+    sheet.summary_formulas = vec![(at("D2"), "MAX"), (at("D3"), "MAX"), (at("D4"), "MAX")];
+    let table = detect_table(&sheet, &TableRequest::default()).expect("a wide table");
+    assert_eq!(table.layout, Layout::Wide);
+    assert_eq!(table.factors[0].levels, ["Oven 1", "Oven 2", "Oven 3"]);
+    assert_eq!(table.n_records(), 9);
+    assert!(
+        table
+            .choices
+            .iter()
+            .any(|line| line.contains("Spread (summary formulas)")),
+        "{:?}",
+        table.choices
+    );
+}
+
+#[test]
+fn hidden_helper_columns_are_kept_as_context_unless_named() {
+    let rows: &[&[&str]] = &[
+        &["Tip", "Calc", "Bead width"],
+        &["S", "0.912", "0.35"],
+        &["S", "0.933", "0.36"],
+        &["M", "0.951", "0.41"],
+        &["M", "0.947", "0.40"],
+        &["L", "0.982", "0.47"],
+        &["L", "0.975", "0.46"],
+    ];
+    let mut sheet = grid(rows, &[]);
+    // Shown, the column is a second measurement.
+    let shown = detect_table(&sheet, &TableRequest::default()).expect("a long table");
+    let names: Vec<&str> = shown.responses.iter().map(|response| response.name.as_str()).collect();
+    assert_eq!(names, ["Calc", "Bead width"]);
+    // Hidden, it is a helper column: context, said in the choice line and a finding.
+    sheet.hidden_cols = vec![1];
+    let hidden = detect_table(&sheet, &TableRequest::default()).expect("a long table");
+    let names: Vec<&str> = hidden.responses.iter().map(|response| response.name.as_str()).collect();
+    assert_eq!(names, ["Bead width"]);
+    assert!(
+        hidden
+            .choices
+            .iter()
+            .any(|line| line.contains("Calc (hidden helper column)") && line.contains("`response`")),
+        "{:?}",
+        hidden.choices
+    );
+    assert!(hidden
+        .findings
+        .iter()
+        .any(|finding| finding.kind == IdentifierColumn && finding.cell.as_deref() == Some("B1")));
+    assert!(!hidden
+        .findings
+        .iter()
+        .any(|finding| finding.kind == FindingKind::HiddenCells));
+    // Named, it is analysed, and the finding says its values are hidden.
+    let named = detect_table(
+        &sheet,
+        &TableRequest {
+            responses: vec!["Calc".to_string()],
+            ..TableRequest::default()
+        },
+    )
+    .expect("a long table");
+    assert_eq!(named.responses[0].name, "Calc");
+    assert!(named
+        .findings
+        .iter()
+        .any(|finding| finding.kind == FindingKind::HiddenCells));
 }

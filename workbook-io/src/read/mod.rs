@@ -182,6 +182,108 @@ pub struct SheetGrid {
     pub hidden_rows: Vec<u32>,
     /// Columns (zero-based) hidden in the sheet, in order, where the format reports them (xlsx).
     pub hidden_cols: Vec<u32>,
+    /// Cells whose formula summarises other cells (AVERAGE, SUM, STDEV, MIN, MAX, MEDIAN,
+    /// COUNT, SUBTOTAL and the like, outermost or inside ROUND or IFERROR), with the
+    /// function's name, in row-major order; read where the sheet's formulas are read
+    /// (xlsx through this crate's own reader), at most [`MAX_SUMMARY_FORMULAS`].
+    pub summary_formulas: Vec<(CellPos, &'static str)>,
+}
+
+/// Most summary-formula cells kept per sheet (a bound on memory; a sheet of more
+/// summaries than this has its first ones kept).
+pub const MAX_SUMMARY_FORMULAS: usize = 1 << 20;
+
+/// Functions whose formulas summarise a range rather than compute a record's value.
+const SUMMARY_FUNCTIONS: &[&str] = &[
+    "AVERAGE",
+    "AVERAGEA",
+    "AVERAGEIF",
+    "AVERAGEIFS",
+    "SUM",
+    "SUMIF",
+    "SUMIFS",
+    "STDEV",
+    "STDEV.S",
+    "STDEV.P",
+    "STDEVA",
+    "STDEVP",
+    "STDEVPA",
+    "VAR",
+    "VAR.S",
+    "VAR.P",
+    "VARA",
+    "VARP",
+    "MIN",
+    "MINA",
+    "MINIFS",
+    "MAX",
+    "MAXA",
+    "MAXIFS",
+    "MEDIAN",
+    "MODE",
+    "MODE.SNGL",
+    "COUNT",
+    "COUNTA",
+    "COUNTIF",
+    "COUNTIFS",
+    "SUBTOTAL",
+    "AGGREGATE",
+    "GEOMEAN",
+    "HARMEAN",
+    "TRIMMEAN",
+    "AVEDEV",
+    "DEVSQ",
+    "PERCENTILE",
+    "PERCENTILE.INC",
+    "QUARTILE",
+    "QUARTILE.INC",
+    "LARGE",
+    "SMALL",
+];
+
+/// Functions that wrap a summary without changing what it is.
+const WRAPPING_FUNCTIONS: &[&str] = &["ROUND", "ROUNDUP", "ROUNDDOWN", "IFERROR", "ABS", "FIXED"];
+
+/// The summary function a formula's text starts with (`AVERAGE(B2:B9)`,
+/// `=_xlfn.STDEV.S(C2:C9)`, `ROUND(AVERAGE(B2:B9),1)`), if any.
+pub(crate) fn summary_function(formula: &[u8]) -> Option<&'static str> {
+    let mut rest = formula;
+    for _ in 0..3 {
+        while let [first, tail @ ..] = rest {
+            if first.is_ascii_whitespace() || *first == b'=' || *first == b'+' {
+                rest = tail;
+            } else {
+                break;
+            }
+        }
+        for prefix in [&b"_xlfn."[..], &b"_xlws."[..]] {
+            if rest.len() >= prefix.len() && rest[..prefix.len()].eq_ignore_ascii_case(prefix) {
+                rest = &rest[prefix.len()..];
+            }
+        }
+        let name_len = rest
+            .iter()
+            .take_while(|byte| byte.is_ascii_alphanumeric() || **byte == b'.')
+            .count();
+        if rest.get(name_len) != Some(&b'(') || name_len == 0 {
+            return None;
+        }
+        let name = &rest[..name_len];
+        if let Some(found) = SUMMARY_FUNCTIONS
+            .iter()
+            .find(|function| function.as_bytes().eq_ignore_ascii_case(name))
+        {
+            return Some(found);
+        }
+        if !WRAPPING_FUNCTIONS
+            .iter()
+            .any(|function| function.as_bytes().eq_ignore_ascii_case(name))
+        {
+            return None;
+        }
+        rest = &rest[name_len + 1..];
+    }
+    None
 }
 
 impl SheetGrid {
@@ -308,7 +410,27 @@ impl GridBuilder {
         self.push(row, col, value)
     }
 
+    /// Notes a cell whose formula summarises other cells.
+    fn note_summary_formula(&mut self, row: u32, col: u32, function: &'static str) {
+        let pos = CellPos::new(row, col);
+        if self.grid.summary_formulas.len() >= MAX_SUMMARY_FORMULAS
+            || self.window.is_some_and(|window| !window.contains(pos))
+        {
+            return;
+        }
+        self.grid.summary_formulas.push((pos, function));
+    }
+
     fn finish(mut self) -> SheetGrid {
+        if !self
+            .grid
+            .summary_formulas
+            .windows(2)
+            .all(|pair| (pair[0].0.row, pair[0].0.col) < (pair[1].0.row, pair[1].0.col))
+        {
+            self.grid.summary_formulas.sort_by_key(|(pos, _)| (pos.row, pos.col));
+            self.grid.summary_formulas.dedup_by_key(|(pos, _)| *pos);
+        }
         if !self.sorted {
             self.grid.cells.sort_by_key(|(pos, _)| (pos.row, pos.col));
             self.grid.cells.dedup_by_key(|(pos, _)| *pos);

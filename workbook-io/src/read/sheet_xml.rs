@@ -874,6 +874,9 @@ pub(crate) fn read_sheet(
     })
 }
 
+/// Shared formula groups whose function is remembered (`si` indices below this).
+const MAX_SHARED_GROUPS: usize = 1 << 16;
+
 /// Parts at least this large are inflated on a thread of their own.
 const THREAD_ABOVE_BYTES: u64 = 8 << 20;
 
@@ -1012,6 +1015,8 @@ fn read_cells<R: Read>(
         }
     }
     let mut shared_index: Vec<u32> = vec![u32::MAX; parts.strings.len()];
+    // The summary function of each shared formula group, by its `si` index.
+    let mut shared_functions: Vec<Option<&'static str>> = Vec::new();
     let mut row_index: u32 = 0;
     let mut col_index: u32 = 0;
     let mut text = String::new();
@@ -1059,7 +1064,7 @@ fn read_cells<R: Read>(
                 if !quick {
                     loop {
                         match scanner.next()? {
-                            Token::Start { name, empty, .. } => {
+                            Token::Start { name, attrs, empty } => {
                                 let child = scanner.bytes(name);
                                 if same(child, b"v") {
                                     value = read_v(&mut scanner, kind, date_style, parts, &mut text)?;
@@ -1072,10 +1077,39 @@ fn read_cells<R: Read>(
                                     }
                                     value = Value::Inline;
                                 } else if same(child, b"f") {
+                                    // Summary formulas (AVERAGE, SUM...) are noted; a shared
+                                    // formula's followers take their master's function.
+                                    let attributes = scanner.bytes(attrs);
+                                    let shared = attribute(attributes, b"t") == Some(b"shared".as_slice());
+                                    let group = if shared {
+                                        attribute(attributes, b"si").and_then(parse_index)
+                                    } else {
+                                        None
+                                    };
+                                    let mut function = None;
                                     if empty {
                                         scanner.next()?;
+                                        function =
+                                            group.and_then(|group| shared_functions.get(group).copied().flatten());
                                     } else {
-                                        scanner.skip_element(b"f")?;
+                                        match scanner.next()? {
+                                            Token::Text(range) => {
+                                                function = super::summary_function(scanner.bytes(range));
+                                                if let Some(group) = group.filter(|group| *group < MAX_SHARED_GROUPS) {
+                                                    if shared_functions.len() <= group {
+                                                        shared_functions.resize(group + 1, None);
+                                                    }
+                                                    shared_functions[group] = function;
+                                                }
+                                                scanner.skip_element(b"f")?;
+                                            }
+                                            Token::End { name } if scanner.name_is(name, b"f") => {}
+                                            Token::Eof => return Err(Stop::Decline),
+                                            _ => scanner.skip_element(b"f")?,
+                                        }
+                                    }
+                                    if let Some(function) = function {
+                                        builder.note_summary_formula(row, col, function);
                                     }
                                     value = Value::Empty;
                                 } else {

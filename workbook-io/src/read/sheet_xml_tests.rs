@@ -261,3 +261,57 @@ fn cell_cap_and_window_hold_on_the_direct_path() {
     assert_same(&fast, &slow, "window");
     assert_eq!(fast.cells.len(), 6);
 }
+
+#[test]
+fn summary_formulas_are_noted_with_their_function() {
+    // Formula text as the sheet format stores it (no leading '='; newer functions with
+    // the `_xlfn.` prefix; shared formulas written once with `si` and referred to after).
+    let sheet = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
+<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData>
+<row r="1"><c r="A1"><v>1</v></c><c r="B1"><v>4</v></c><c r="C1"><f>ROUND(_xlfn.STDEV.S(A1:A3),2)</f><v>1</v></c></row>
+<row r="2"><c r="A2"><v>2</v></c><c r="B2"><v>5</v></c><c r="C2"><f>A2*2</f><v>4</v></c></row>
+<row r="3"><c r="A3"><v>3</v></c><c r="B3"><v>6</v></c><c r="C3"><f>IF(A3&lt;2,SUM(A1:A2),0)</f><v>0</v></c></row>
+<row r="4"><c r="A4"><f t="shared" ref="A4:B4" si="0">AVERAGE(A1:A3)</f><v>2</v></c><c r="B4"><f t="shared" si="0"/><v>5</v></c><c r="C4"><f></f><v>7</v></c></row>
+</sheetData></worksheet>"#;
+    let folder = tempfile::tempdir().expect("temporary folder");
+    let path = folder.path().join("formulas.xlsx");
+    handmade(&path, sheet, SHARED, STYLES);
+    compare_all(&path);
+    let mut workbook = open_workbook(&path, &ReadLimits::default()).expect("opens");
+    let grid = workbook.read_sheet("Data", None).expect("reads");
+    let noted: Vec<(String, &str)> = grid
+        .summary_formulas
+        .iter()
+        .map(|(pos, function)| (pos.a1(), *function))
+        .collect();
+    assert_eq!(
+        noted,
+        [
+            ("C1".to_string(), "STDEV.S"),
+            ("A4".to_string(), "AVERAGE"),
+            ("B4".to_string(), "AVERAGE")
+        ]
+    );
+    // The cached values are read as before.
+    assert_eq!(
+        grid.get(crate::cell::parse_a1("B4").expect("a1")),
+        Some(CellValue::Number(5.0))
+    );
+}
+
+#[test]
+fn summary_functions_are_told_from_record_formulas() {
+    use super::summary_function;
+    assert_eq!(summary_function(b"AVERAGE(B2:B9)"), Some("AVERAGE"));
+    assert_eq!(summary_function(b"=average(B2:B9)"), Some("AVERAGE"));
+    assert_eq!(summary_function(b" SUBTOTAL(9,B2:B9)"), Some("SUBTOTAL"));
+    assert_eq!(summary_function(b"_xlfn.STDEV.S(B2:B9)"), Some("STDEV.S"));
+    assert_eq!(
+        summary_function(b"IFERROR(ROUND(MEDIAN(B2:B9),1),\"\")"),
+        Some("MEDIAN")
+    );
+    assert_eq!(summary_function(b"B2/C2"), None);
+    assert_eq!(summary_function(b"ROUND(B2*1.8+32,1)"), None);
+    assert_eq!(summary_function(b"SUMPRODUCT(B2:B9,C2:C9)"), None);
+    assert_eq!(summary_function(b""), None);
+}
