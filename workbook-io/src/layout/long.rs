@@ -202,6 +202,7 @@ pub(super) fn build_long(
         responses,
         record_rows,
         level_columns: Vec::new(),
+        record_cols: Vec::new(),
         findings: findings.into_vec(),
         choices: Vec::new(),
     }

@@ -32,7 +32,9 @@ use crate::read::SheetGrid;
 use cells::{hidden_findings, number_list};
 use header::{column_finding, count_columns, empty_column_findings, find_header_row, header_names, row_spans};
 use long::{build_long, label_factor_columns, measured_columns};
-use roles::{context_reason, design_columns, is_notes_column, is_summary_word, short_reason, HIDDEN_REASON};
+use roles::{
+    context_reason, design_columns, design_pattern, is_notes_column, is_summary_word, short_reason, HIDDEN_REASON,
+};
 use wide::build_wide;
 
 /// Finds the trial table in a sheet's cells: the table that looks most like trial data
@@ -357,6 +359,8 @@ fn detect_table_cells(
     let factors_named = !request.factors.is_empty();
     let mut design_found: Vec<usize> = Vec::new();
     let mut context_fallback = false;
+    // Settings columns kept as context because they form no design beside label factors.
+    let mut not_design: Vec<usize> = Vec::new();
     let layout = match request.layout {
         Some(layout) => layout,
         None if factors_named => Layout::Long,
@@ -371,6 +375,37 @@ fn detect_table_cells(
                 .filter(|index| columns[*index].counts.is_numeric() && !named(*index))
                 .collect();
             design_found = design_columns(&columns, &numeric_free);
+            if let Err(missing) = design_pattern(&columns, &design_found, data_cells) {
+                let names: Vec<&str> = design_found.iter().map(|index| columns[*index].name.as_str()).collect();
+                // Beside label factors they are kept as context; alone, they stay the
+                // factors (a trial varying one setting at a time), said either way.
+                let line = if factors_found.is_empty() {
+                    format!(
+                        "the columns {} hold a few repeated settings each but do not form a factorial or central composite pattern ({missing}); they were read as factors all the same, and their effects may not be separable; set `factor` and `response` to choose other columns",
+                        names.join(", ")
+                    )
+                } else {
+                    format!(
+                        "the columns {} hold a few repeated settings each but do not form a factorial or central composite pattern ({missing}), so they were kept as context, neither factors nor measurements; set `factor` to read them as factors",
+                        names.join(", ")
+                    )
+                };
+                let area = CellRect {
+                    first: CellPos::new(header_row, first_col),
+                    last: CellPos::new(header_row, last_col),
+                };
+                findings.push(choice_finding(&sheet, area, "settings without a design", &line));
+                choices.push(line);
+                if !factors_found.is_empty() {
+                    for &index in &design_found {
+                        set_aside.push(SetAside {
+                            name: columns[index].name.clone(),
+                            reason: "settings without a design".into(),
+                        });
+                    }
+                    not_design = std::mem::take(&mut design_found);
+                }
+            }
             factors_found.extend(design_found.iter().copied());
             if factors_found.is_empty() {
                 // Only context labels: the best of them stand as the factors.
@@ -405,7 +440,9 @@ fn detect_table_cells(
     let mut table = match layout {
         Layout::Long => {
             if response_columns.is_empty() {
-                let excluded: Vec<usize> = (0..columns.len()).filter(|index| is_context(*index)).collect();
+                let excluded: Vec<usize> = (0..columns.len())
+                    .filter(|index| is_context(*index) || not_design.contains(index))
+                    .collect();
                 response_columns =
                     measured_columns(&sheet, header_row, &columns, &factor_columns, &excluded, &mut findings);
                 if factors_named {

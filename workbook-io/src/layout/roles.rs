@@ -201,3 +201,97 @@ pub(super) fn design_columns(columns: &[HeaderColumn], candidates: &[usize]) -> 
         .filter(|&index| is_setting(index) && columns[index].col < last_measured)
         .collect()
 }
+
+/// Whether numeric settings columns form a design, as full and fractional factorials,
+/// Plackett-Burman screens and central composite plans do: among the rows where every
+/// column stands at one of its two cube settings (the lowest and highest of two to four
+/// settings; the second and fourth of five, inside a composite plan's axial settings),
+/// every pair of columns shows all four combinations of their cube settings (common
+/// practice: a two-level orthogonal array has every pair's combinations; a plan that
+/// varies one column at a time has none). One column is a design by itself. On failure,
+/// the first pair and combination missing, in words.
+pub(super) fn design_pattern(
+    columns: &[HeaderColumn],
+    design: &[usize],
+    data_cells: &[(crate::cell::CellPos, crate::cell::CellValue)],
+) -> Result<(), String> {
+    if design.len() < 2 {
+        return Ok(());
+    }
+    let cube: Vec<(f64, f64)> = design
+        .iter()
+        .map(|&index| {
+            let mut settings = columns[index].counts.distinct_numbers().to_vec();
+            settings.sort_by(f64::total_cmp);
+            if settings.len() == 5 {
+                (settings[1], settings[3])
+            } else {
+                (settings[0], settings[settings.len() - 1])
+            }
+        })
+        .collect();
+    let slot_of_col: std::collections::HashMap<u32, usize> = design
+        .iter()
+        .enumerate()
+        .map(|(slot, &index)| (columns[index].col, slot))
+        .collect();
+    // Each row's side (0 low, 1 high, 2 elsewhere or missing) of each column.
+    let mut seen = vec![[false; 4]; design.len() * design.len()];
+    let mut sides = vec![2u8; design.len()];
+    let mut row = None;
+    let mut note_row = |sides: &mut Vec<u8>| {
+        if sides.iter().all(|side| *side < 2) {
+            for first in 0..sides.len() {
+                for second in first + 1..sides.len() {
+                    seen[first * sides.len() + second][(2 * sides[first] + sides[second]) as usize] = true;
+                }
+            }
+        }
+        sides.iter_mut().for_each(|side| *side = 2);
+    };
+    for (pos, value) in data_cells {
+        if row != Some(pos.row) {
+            if row.is_some() {
+                note_row(&mut sides);
+            }
+            row = Some(pos.row);
+        }
+        let (Some(&slot), crate::cell::CellValue::Number(number)) = (slot_of_col.get(&pos.col), value) else {
+            continue;
+        };
+        let (low, high) = cube[slot];
+        sides[slot] = if *number == low {
+            0
+        } else if *number == high {
+            1
+        } else {
+            2
+        };
+    }
+    if row.is_some() {
+        note_row(&mut sides);
+    }
+    for first in 0..design.len() {
+        for second in first + 1..design.len() {
+            let combinations = &seen[first * design.len() + second];
+            if let Some(missing) = combinations.iter().position(|found| !found) {
+                let setting = |slot: usize, high: bool| {
+                    let (low_value, high_value) = cube[slot];
+                    if high {
+                        high_value
+                    } else {
+                        low_value
+                    }
+                };
+                return Err(format!(
+                    "{} = {} never meets {} = {}",
+                    columns[design[first]].name,
+                    setting(first, missing >= 2),
+                    columns[design[second]].name,
+                    setting(second, missing % 2 == 1)
+                ));
+            }
+        }
+    }
+    Ok(())
+}

@@ -1318,3 +1318,116 @@ fn hidden_helper_columns_are_kept_as_context_unless_named() {
         .iter()
         .any(|finding| finding.kind == FindingKind::HiddenCells));
 }
+
+#[test]
+fn settings_columns_are_factors_only_when_they_form_a_design() {
+    // A half fraction 2^(3-1) (C = AB) with a centre run: every pair of columns meets in
+    // all four combinations (a two-level orthogonal array; common practice).
+    let fraction = grid(
+        &[
+            &["Temp", "Time", "Speed", "Yield"],
+            &["150", "10", "300", "61.2"],
+            &["170", "10", "200", "66.0"],
+            &["150", "20", "200", "63.1"],
+            &["170", "20", "300", "70.4"],
+            &["160", "15", "250", "65.2"],
+            &["150", "10", "300", "60.8"],
+            &["170", "10", "200", "66.9"],
+            &["150", "20", "200", "62.7"],
+            &["170", "20", "300", "71.0"],
+        ],
+        &[],
+    );
+    let table = detect_table(&fraction, &TableRequest::default()).expect("a long table");
+    let factor_names: Vec<&str> = table.factors.iter().map(|factor| factor.name.as_str()).collect();
+    assert_eq!(factor_names, ["Temp", "Time", "Speed"]);
+    // One column changed at a time: Temp = 170 never meets Time = 20, no design.
+    let one_at_a_time = grid(
+        &[
+            &["Temp", "Time", "Yield"],
+            &["150", "10", "61.2"],
+            &["150", "10", "61.9"],
+            &["170", "10", "66.0"],
+            &["170", "10", "66.4"],
+            &["150", "20", "63.1"],
+            &["150", "20", "62.5"],
+        ],
+        &[],
+    );
+    // Alone, they stay the factors, with the missing pattern said.
+    let table = detect_table(&one_at_a_time, &TableRequest::default()).expect("a table");
+    let factor_names: Vec<&str> = table.factors.iter().map(|factor| factor.name.as_str()).collect();
+    assert_eq!(factor_names, ["Temp", "Time"]);
+    assert!(
+        table.choices.iter().any(|line| line.contains("do not form a factorial")
+            && line.contains("Temp = 170 never meets Time = 20")
+            && line.contains("`factor`")),
+        "{:?}",
+        table.choices
+    );
+    // Beside a label factor, they are context: neither factors nor measurements.
+    let beside_label = grid(
+        &[
+            &["Line", "Temp", "Time", "Yield"],
+            &["East", "150", "10", "61.2"],
+            &["East", "150", "10", "61.9"],
+            &["East", "170", "10", "66.0"],
+            &["West", "170", "10", "66.4"],
+            &["West", "150", "20", "63.1"],
+            &["West", "150", "20", "62.5"],
+        ],
+        &[],
+    );
+    let table = detect_table(&beside_label, &TableRequest::default()).expect("a long table");
+    let factor_names: Vec<&str> = table.factors.iter().map(|factor| factor.name.as_str()).collect();
+    assert_eq!(factor_names, ["Line"]);
+    let response_names: Vec<&str> = table.responses.iter().map(|response| response.name.as_str()).collect();
+    assert_eq!(response_names, ["Yield"]);
+    assert!(
+        table
+            .choices
+            .iter()
+            .any(|line| line.contains("kept as context, neither factors nor measurements")),
+        "{:?}",
+        table.choices
+    );
+    // Named as factors, they are read as factors all the same.
+    let named = detect_table(&one_at_a_time, &factors(&["Temp", "Time"])).expect("a long table");
+    assert_eq!(named.factors.len(), 2);
+    assert_eq!(named.responses[0].name, "Yield");
+}
+
+#[test]
+fn wide_condition_names_written_alike_are_one_condition() {
+    let sheet = grid(
+        &[
+            &["Die A", "die  a", "Die B"],
+            &["3.1", "3.3", "4.0"],
+            &["3.2", "3.0", "4.2"],
+            &["3.4", "", "4.1"],
+        ],
+        &[],
+    );
+    let table = detect_table(&sheet, &TableRequest::default()).expect("a wide table");
+    assert_eq!(table.factors[0].levels, ["Die A", "Die B"]);
+    assert_eq!(table.n_records(), 8);
+    // Records of the merged condition keep their own cells.
+    let cells: Vec<String> = (0..table.n_records())
+        .filter(|record| table.factors[0].level_of_record[*record] == 0)
+        .map(|record| table.value_cell(0, record).a1())
+        .collect();
+    assert_eq!(cells, ["A2", "B2", "A3", "B3", "A4"]);
+    let merged: Vec<&super::Finding> = table
+        .findings
+        .iter()
+        .filter(|finding| finding.kind == SimilarLabels)
+        .collect();
+    assert_eq!(merged.len(), 1);
+    assert_eq!(merged[0].cell.as_deref(), Some("A1:B1"));
+    assert!(merged[0].message.contains("'Die A', 'die  a'"), "{}", merged[0].message);
+    assert!(
+        table.choices.iter().any(|line| line.contains("Die A | die  a")),
+        "{:?}",
+        table.choices
+    );
+}

@@ -200,9 +200,13 @@ pub struct TrialTable {
     /// For each record, its sheet row (zero-based).
     #[serde(skip)]
     pub record_rows: Vec<u32>,
-    /// For a wide table, the column of each level of the single factor.
+    /// For a wide table, the column of each level of the single factor (the first, when
+    /// condition names written alike were merged).
     #[serde(skip)]
     pub level_columns: Vec<u32>,
+    /// For a wide table, each record's column (empty for a long table).
+    #[serde(skip)]
+    pub record_cols: Vec<u32>,
     /// Data problems found while reading.
     pub findings: Vec<Finding>,
     /// Each choice detection made, in one line with the setting that would change it.
@@ -221,10 +225,13 @@ impl TrialTable {
         let row = self.record_rows[record];
         match self.layout {
             Layout::Long => CellPos::new(row, self.responses[response_index].column.unwrap_or(0)),
-            Layout::Wide => {
-                let level = self.factors[0].level_of_record[record] as usize;
-                CellPos::new(row, self.level_columns[level])
-            }
+            Layout::Wide => match self.record_cols.get(record) {
+                Some(&col) => CellPos::new(row, col),
+                None => {
+                    let level = self.factors[0].level_of_record[record] as usize;
+                    CellPos::new(row, self.level_columns[level])
+                }
+            },
         }
     }
 }

@@ -334,6 +334,7 @@ mod tests {
             }],
             record_rows,
             level_columns: Vec::new(),
+            record_cols: Vec::new(),
             findings: Vec::new(),
             choices: Vec::new(),
         }
