@@ -1310,5 +1310,116 @@ fn more_shapes(noise: &mut Noise) -> Vec<ShapeCase> {
         said(wide_expected("Gap", "B1", &["0.8", "0.6", "0.4", "0.2"], 20)),
     ));
 
+    // 50. AVERAGE and STDEV formula rows under a long table, labelled in words that do
+    // not say summary.
+    let mut sheet = SheetSpec::new("Peel");
+    let mut rows = one_factor_rows(noise, &["Primer A", "Primer B", "Primer C"], 6, 9.0, 0.6);
+    rows.push(vec![
+        Some(t("All primers")),
+        Some(Cell::Formula("=AVERAGE(B2:B19)".into(), 9.6)),
+    ]);
+    rows.push(vec![
+        Some(t("Spread (s)")),
+        Some(Cell::Formula("=STDEV(B2:B19)".into(), 0.7)),
+    ]);
+    sheet.table(0, 0, &["Primer", "Peel force"], &rows);
+    cases.push(case(
+        "formula-rows-plain-labels",
+        vec![sheet],
+        said(expected("Peel", "A1", &["Primer"], &["Peel force"], 18)),
+    ));
+
+    // 51. A wide table with a spread column of formulas beside it and an average row of
+    // formulas between the data and a late record.
+    let mut sheet = SheetSpec::new("Nozzles");
+    let mut rows: Vec<Vec<Option<Cell>>> = wide_rows(noise, 3, 7, 2.4, 0.15)
+        .into_iter()
+        .enumerate()
+        .map(|(index, mut row)| {
+            row.push(Some(Cell::Formula(
+                format!("=MAX(A{r}:C{r})-MIN(A{r}:C{r})", r = index + 2),
+                0.3,
+            )));
+            row
+        })
+        .collect();
+    rows.push(
+        ["A", "B", "C"]
+            .iter()
+            .map(|col| Some(Cell::Formula(format!("=ROUND(AVERAGE({col}2:{col}8),2)"), 2.5)))
+            .collect(),
+    );
+    sheet.table(0, 0, &["Nozzle 1", "Nozzle 2", "Nozzle 3", "Spread"], &rows);
+    cases.push(case(
+        "wide-formula-column-and-row",
+        vec![sheet],
+        said(wide_expected(
+            "Nozzles",
+            "A1",
+            &["Nozzle 1", "Nozzle 2", "Nozzle 3"],
+            21,
+        )),
+    ));
+
+    // 52. A hidden numeric helper column between the factor and the measurement.
+    let mut sheet = SheetSpec::new("Trial");
+    let rows: Vec<Vec<Option<Cell>>> = one_factor_rows(noise, &["Mesh 40", "Mesh 60", "Mesh 80"], 5, 71.0, 2.0)
+        .into_iter()
+        .map(|mut row| {
+            let helper = Cell::Number(round(0.9 + noise.normal(0.05), 4));
+            row.insert(1, Some(helper));
+            row
+        })
+        .collect();
+    sheet.table(0, 0, &["Mesh", "Factor calc", "Throughput"], &rows);
+    sheet.hidden_cols.push(1);
+    cases.push(case(
+        "hidden-numeric-helper",
+        vec![sheet],
+        said(expected("Trial", "A1", &["Mesh"], &["Throughput"], 15)),
+    ));
+
+    // 53. Two settings changed one at a time beside a label factor: not a design.
+    let mut sheet = SheetSpec::new("Coating");
+    let settings = [
+        (80.0, 2.0),
+        (80.0, 2.0),
+        (95.0, 2.0),
+        (95.0, 2.0),
+        (80.0, 3.0),
+        (80.0, 3.0),
+    ];
+    let mut rows = Vec::new();
+    for booth in ["Booth 1", "Booth 2"] {
+        for (temperature, passes) in settings {
+            rows.push(vec![
+                Some(t(booth)),
+                Some(n(temperature)),
+                Some(n(passes)),
+                Some(n(round(55.0 + passes * 4.0 + noise.normal(1.0), 1))),
+            ]);
+        }
+    }
+    sheet.table(0, 0, &["Booth", "Oven temp", "Passes", "Film build"], &rows);
+    cases.push(case(
+        "settings-without-design",
+        vec![sheet],
+        said(expected("Coating", "A1", &["Booth"], &["Film build"], 12)),
+    ));
+
+    // 54. A wide table whose condition names differ in case and spacing.
+    let mut sheet = SheetSpec::new("Wide");
+    sheet.table(
+        0,
+        0,
+        &["Resin X", "resin x", "Resin  Y", "Resin Y"],
+        &wide_rows(noise, 4, 4, 18.0, 0.8),
+    );
+    cases.push(case(
+        "wide-names-differ-in-case",
+        vec![sheet],
+        said(wide_expected("Wide", "A1", &["Resin X", "Resin  Y"], 16)),
+    ));
+
     cases
 }

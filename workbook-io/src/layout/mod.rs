@@ -611,6 +611,37 @@ fn detect_table_cells(
                 findings.push(choice_finding(&sheet, header_area, "the columns", &line));
                 choices.push(line);
             }
+            // A condition name told apart from an earlier one by case alone was renamed as
+            // a duplicate header; it is one condition with the earlier one, under its own
+            // spelling (the merge is said by the wide reading).
+            let mut names: Vec<String> = Vec::with_capacity(condition_columns.len());
+            let mut restored: Vec<String> = Vec::new();
+            for &index in &condition_columns {
+                let column = &columns[index];
+                let cell = CellPos::new(header_row, column.col);
+                let original = grid
+                    .get(cell)
+                    .map(|value| cells::value_text(grid, value).trim().to_string())
+                    .filter(|original| {
+                        *original != column.name
+                            && names.iter().any(|earlier| {
+                                earlier != original && cells::label_key(earlier) == cells::label_key(original)
+                            })
+                    });
+                match original {
+                    Some(original) => {
+                        restored.push(cell.a1());
+                        names.push(original);
+                    }
+                    None => names.push(column.name.clone()),
+                }
+            }
+            if !restored.is_empty() {
+                findings.retain(|finding| {
+                    finding.kind != FindingKind::DuplicateHeader
+                        || !finding.cell.as_ref().is_some_and(|cell| restored.contains(cell))
+                });
+            }
             let response_name = request
                 .wide_response_name
                 .clone()
@@ -623,6 +654,7 @@ fn detect_table_cells(
                 data_cells,
                 &columns,
                 &condition_columns,
+                names,
                 response_name,
                 findings,
             )

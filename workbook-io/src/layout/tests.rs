@@ -1401,32 +1401,35 @@ fn settings_columns_are_factors_only_when_they_form_a_design() {
 fn wide_condition_names_written_alike_are_one_condition() {
     let sheet = grid(
         &[
-            &["Die A", "die  a", "Die B"],
-            &["3.1", "3.3", "4.0"],
-            &["3.2", "3.0", "4.2"],
-            &["3.4", "", "4.1"],
+            &["Die A", "die  A", "Die B", "DIE B"],
+            &["3.1", "3.3", "4.0", "4.4"],
+            &["3.2", "3.0", "4.2", "4.3"],
+            &["3.4", "", "4.1", ""],
         ],
         &[],
     );
     let table = detect_table(&sheet, &TableRequest::default()).expect("a wide table");
     assert_eq!(table.factors[0].levels, ["Die A", "Die B"]);
-    assert_eq!(table.n_records(), 8);
+    assert_eq!(table.n_records(), 10);
     // Records of the merged condition keep their own cells.
     let cells: Vec<String> = (0..table.n_records())
         .filter(|record| table.factors[0].level_of_record[*record] == 0)
         .map(|record| table.value_cell(0, record).a1())
         .collect();
     assert_eq!(cells, ["A2", "B2", "A3", "B3", "A4"]);
+    // Case alone is not a duplicate header here: the names are merged, not renamed.
     let merged: Vec<&super::Finding> = table
         .findings
         .iter()
         .filter(|finding| finding.kind == SimilarLabels)
         .collect();
-    assert_eq!(merged.len(), 1);
+    assert_eq!(merged.len(), 2);
     assert_eq!(merged[0].cell.as_deref(), Some("A1:B1"));
-    assert!(merged[0].message.contains("'Die A', 'die  a'"), "{}", merged[0].message);
+    assert!(merged[0].message.contains("'Die A', 'die  A'"), "{}", merged[0].message);
+    assert_eq!(merged[1].cell.as_deref(), Some("C1:D1"));
+    assert!(!table.findings.iter().any(|finding| finding.kind == DuplicateHeader));
     assert!(
-        table.choices.iter().any(|line| line.contains("Die A | die  a")),
+        table.choices.iter().any(|line| line.contains("Die A | die  A")),
         "{:?}",
         table.choices
     );

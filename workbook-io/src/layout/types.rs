@@ -115,6 +115,11 @@ impl Findings {
         }
     }
 
+    /// Keeps the listed findings `keep` accepts.
+    pub fn retain(&mut self, keep: impl FnMut(&Finding) -> bool) {
+        self.listed.retain(keep);
+    }
+
     /// Total number of findings, listed or not.
     pub fn total(&self) -> usize {
         self.listed.len() + self.unlisted

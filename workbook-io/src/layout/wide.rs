@@ -16,14 +16,11 @@ pub(super) fn build_wide(
     data_cells: &[(CellPos, CellValue)],
     columns: &[HeaderColumn],
     condition_columns: &[usize],
+    names: Vec<String>,
     response_name: String,
     mut findings: Findings,
 ) -> TrialTable {
     let level_columns: Vec<u32> = condition_columns.iter().map(|&index| columns[index].col).collect();
-    let names: Vec<String> = condition_columns
-        .iter()
-        .map(|&index| columns[index].name.clone())
-        .collect();
     // Condition names equal but for case, spacing or accent encoding are one condition,
     // named by its first spelling.
     let mut levels: Vec<String> = Vec::new();
