@@ -50,7 +50,13 @@ pub fn detect_table(grid: &SheetGrid, request: &TableRequest) -> Result<TrialTab
         (None, Some(blocks)) => choose::best_block(grid, request, &blocks)?,
         _ => detect_table_cells(grid, request, None)?,
     };
-    table.findings.extend(hidden_findings(grid, &table));
+    let hidden = hidden_findings(grid, &table);
+    // Hidden cells whose values were used are a choice too (hidden helper columns
+    // left out are said in the columns' line).
+    for finding in &hidden {
+        table.choices.push(finding.message.clone());
+    }
+    table.findings.extend(hidden);
     Ok(table)
 }
 

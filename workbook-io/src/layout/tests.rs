@@ -1317,6 +1317,19 @@ fn hidden_helper_columns_are_kept_as_context_unless_named() {
         .findings
         .iter()
         .any(|finding| finding.kind == FindingKind::HiddenCells));
+    assert!(named
+        .choices
+        .iter()
+        .any(|line| line.contains("column(s) B of the table are hidden")));
+    // Hidden rows are records all the same, said in a choice line.
+    sheet.hidden_cols.clear();
+    sheet.hidden_rows = vec![2];
+    let rows_hidden = detect_table(&sheet, &TableRequest::default()).expect("a long table");
+    assert_eq!(rows_hidden.n_records(), 6);
+    assert!(rows_hidden
+        .choices
+        .iter()
+        .any(|line| line.contains("row(s) 3 of the table are hidden")));
 }
 
 #[test]
