@@ -785,12 +785,13 @@ fn hidden_rows_and_columns_of_the_table_are_named() {
         "Trial!A5:C5",
         &["5-6", "hidden"],
     );
+    // The hidden column is a helper column: kept as context unless named.
     expect_finding(
         folder.path(),
         "hidden.xlsx",
-        "hidden-cells",
-        "Trial!C1:C9",
-        &["column(s) C", "hidden"],
+        "identifier-column",
+        "Trial!C1",
+        &["'Haze'", "hidden in the sheet", "name it as a factor or response"],
     );
 }
 
