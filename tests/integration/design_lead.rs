@@ -98,6 +98,23 @@ fn check_document(case: &TrialCase, document: &Value) -> String {
                 .as_array()
                 .map(|all| all.iter().filter_map(Value::as_str).collect())
                 .unwrap_or_default();
+            // Each effect is said once: in the headline (the largest) or in one line of the
+            // details, never again in other words.
+            for term in &matter {
+                let moving = if term.contains(" × ") {
+                    format!("the interaction {} changes", term.to_lowercase())
+                } else {
+                    format!("moving {} from", term.to_lowercase())
+                };
+                let times = std::iter::once(headline.as_str())
+                    .chain(details.iter().copied())
+                    .filter(|line| line.to_lowercase().contains(&moving))
+                    .count();
+                assert!(
+                    times <= 1,
+                    "{what}: the effect of '{term}' is said {times} times: {headline} / {details:?}"
+                );
+            }
             if case.expects_best {
                 assert!(
                     reading["best_settings"].is_string(),

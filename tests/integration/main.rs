@@ -26,5 +26,6 @@ mod options;
 mod plan;
 mod print_layout;
 mod results_snapshot;
+mod settings_sheet_names;
 mod table_shapes;
 mod watch;

@@ -313,7 +313,7 @@ mod tests {
         assert!(!report.maybe_incomplete);
         let error = ServiceError::NothingAnalysable {
             path: PathBuf::from("w.xlsx"),
-            reasons: "only 1 condition(s) have values for 'Gloss'; at least two are needed".into(),
+            reasons: "only 1 condition has values for 'Gloss'; at least two are needed".into(),
             findings: vec![Finding {
                 kind: FindingKind::TextInNumbers,
                 sheet: "Runs".into(),

@@ -14,7 +14,7 @@ use std::time::Instant;
 
 use sha2::{Digest, Sha256};
 use workbook_io::layout::{choose_table, detect_table, Finding, FindingKind, TableRequest, TrialTable};
-use workbook_io::settings::{is_settings_sheet, read_setting_rows};
+use workbook_io::settings::{is_settings_sheet, read_setting_rows, SETTINGS_SHEET};
 use workbook_io::{open_workbook, CellRect, ReadError, ReadLimits, SheetGrid, SheetInfo, Workbook};
 
 use crate::failure::ServiceError;
@@ -134,6 +134,9 @@ fn sheet_settings(workbook: &mut Workbook, findings: &mut Vec<Finding>) -> Setti
         .find(|info| is_settings_sheet(&info.name))
         .map(|info| (info.name.clone(), info.visible))
     else {
+        if let Some(finding) = look_alike_settings_sheet(workbook) {
+            findings.push(finding);
+        }
         return Settings::default();
     };
     if !visible {
@@ -187,6 +190,59 @@ fn sheet_settings(workbook: &mut Workbook, findings: &mut Vec<Finding>) -> Setti
             .map(|row| (row.key.as_str(), row.value.as_str(), place(row))),
     );
     settings
+}
+
+/// Sheet names people give a sheet of settings of their own accord.
+const LOOK_ALIKE_SETTINGS_NAMES: &[&str] = &[
+    "settings",
+    "setting",
+    "trial settings",
+    "analysis settings",
+    "setup",
+    "set up",
+    "options",
+    "config",
+    "configuration",
+    "parameters",
+];
+
+/// When a workbook has no settings sheet but a sheet named like one ("Settings",
+/// "Setup") whose rows use our keys, a finding says its settings were not applied and
+/// how to apply them: an engineer who wrote `block | Lot` there expects it to count.
+fn look_alike_settings_sheet(workbook: &mut Workbook) -> Option<Finding> {
+    let name = workbook
+        .sheets()
+        .iter()
+        .find(|info| {
+            let lowered = info.name.trim().to_lowercase();
+            LOOK_ALIKE_SETTINGS_NAMES.contains(&lowered.as_str())
+        })?
+        .name
+        .clone();
+    let grid = workbook.read_sheet(&name, None).ok()?;
+    let rows = read_setting_rows(&grid);
+    let ours: Vec<&workbook_io::settings::SettingRow> = rows
+        .iter()
+        .filter(|row| {
+            let (_, errors) = Settings::from_pairs_lenient([(row.key.as_str(), row.value.as_str(), String::new())]);
+            !errors
+                .iter()
+                .any(|error| matches!(error, crate::settings::SettingsError::UnknownKey { .. }))
+        })
+        .collect();
+    let first = ours.first()?;
+    let keys: Vec<String> = ours.iter().map(|row| format!("'{}'", row.key)).collect();
+    Some(Finding {
+        kind: FindingKind::Setting,
+        sheet: name.clone(),
+        cell: Some(first.cell.clone()),
+        found: format!("settings on a sheet named '{name}'"),
+        action: "not applied".into(),
+        message: format!(
+            "the sheet '{name}' holds rows that look like trialyst settings ({}), but only a sheet named '{SETTINGS_SHEET}' is read, so they were not applied; rename the sheet to '{SETTINGS_SHEET}' to apply them",
+            keys.join(", ")
+        ),
+    })
 }
 
 pub(crate) fn summarise_table(table: &TrialTable) -> TableSummary {

@@ -337,7 +337,9 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
                 }
                 Err(OneWayError::TooFewConditions { found }) => ResponseOutcome::NotAnalysed {
                     reason: format!(
-                        "only {found} condition(s) have values for '{}'; at least two are needed",
+                        "only {} {} values for '{}'; at least two are needed",
+                        engine::analysis::verdict::count_of(found, "condition"),
+                        if found == 1 { "has" } else { "have" },
                         response.name
                     ),
                 },

@@ -94,7 +94,7 @@ impl BlocksRemoved {
 #[non_exhaustive]
 pub enum BlockedFitError {
     /// Fewer than two blocks hold values: there is nothing to take out.
-    #[error("only {found} block(s) of '{factor}' hold values, so there are no block differences to take out")]
+    #[error("only {} of '{factor}' {} values, so there are no block differences to take out", crate::analysis::verdict::count_of(*.found, "block"), if *.found == 1 { "holds" } else { "hold" })]
     OneBlock {
         /// The blocking factor.
         factor: String,

@@ -182,7 +182,7 @@ pub(crate) struct SharedError {
 #[non_exhaustive]
 pub enum OneWayError {
     /// Fewer than two conditions have values.
-    #[error("only {found} condition(s) have values; comparing conditions needs at least two")]
+    #[error("only {} {} values; comparing conditions needs at least two", crate::analysis::verdict::count_of(*.found, "condition"), if *.found == 1 { "has" } else { "have" })]
     TooFewConditions {
         /// How many conditions had values.
         found: usize,

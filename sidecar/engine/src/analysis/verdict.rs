@@ -524,21 +524,24 @@ pub fn read_factorial(
             .unwrap_or_default();
         details.push(format!("{capitalised}."));
     }
-    // The headline already gives the largest effect, and the lines below give the
-    // highest and lowest combinations: the reading's own sentences for them are not
-    // repeated.
-    let headline_effect = sizes
-        .first()
-        .and_then(|size| size.label.split(" from ").next())
-        .map(|factor| format!("Moving {factor} from its low to its high level"));
+    // The headline gives the largest effect, the lines above give the others with their
+    // intervals, and the lines below give the highest and lowest combinations: the
+    // reading's own sentences for them are not repeated.
+    let said_effects: Vec<String> = sizes
+        .iter()
+        .map(|size| match size.label.strip_prefix("the interaction ") {
+            Some(term) => format!("The interaction {term} changes"),
+            None => {
+                let factor = size.label.split(" from ").next().unwrap_or(&size.label);
+                format!("Moving {factor} from its low to its high level")
+            }
+        })
+        .collect();
     for line in &outcome.summary {
         if direction.is_none() && (line.starts_with("Recommended settings") || line.contains(" is best (")) {
             continue;
         }
-        if headline_effect
-            .as_ref()
-            .is_some_and(|start| line.starts_with(start.as_str()))
-        {
+        if said_effects.iter().any(|start| line.starts_with(start.as_str())) {
             continue;
         }
         if direction.is_none()

@@ -531,8 +531,8 @@ fn choose_fraction(request: &PlanRequest) -> Result<Option<FractionDesign>, Plan
             if runs != relation.n_runs() {
                 return Err(PlanError::Fraction {
                     reason: format!(
-                        "{} generator(s) for {n_factors} factors give {} runs, not the {runs} asked for",
-                        parsed.len(),
+                        "{} for {n_factors} factors give {} runs, not the {runs} asked for",
+                        crate::analysis::verdict::count_of(parsed.len(), "generator"),
                         relation.n_runs()
                     ),
                 });
@@ -803,7 +803,7 @@ pub fn make_plan(request: &PlanRequest) -> Result<Plan, PlanError> {
         return Err(PlanError::Blocks {
             blocks: n_blocks,
             reason: format!(
-                "the number of blocks must be a multiple of the {replicates} replicate(s): one block per replicate, or each replicate split in 2, 4, 8 ... blocks"
+                "the number of blocks must be a multiple of the number of replicates ({replicates}): one block per replicate, or each replicate split in 2, 4, 8 ... blocks"
             ),
         });
     }

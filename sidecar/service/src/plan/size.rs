@@ -418,7 +418,8 @@ pub fn size_answer(request: &SizeRequest) -> Result<SizeAnswer, SizeError> {
                 );
             }
             notes.push(format!(
-                "The planned model has {terms} effect(s) ({}); an effect is the difference between the averages at the high and low levels.",
+                "The planned model has {} ({}); an effect is the difference between the averages at the high and low levels.",
+                engine::analysis::verdict::count_of(terms, "effect"),
                 if *interactions {
                     "main effects and two-factor interactions"
                 } else {

@@ -694,8 +694,8 @@ fn two_level_effects(
             *row,
             0,
             Value::text(format!(
-                "Curvature: {} centre point(s) average {}, the {} corner runs {}; difference {}{}.",
-                curvature.n_centre,
+                "Curvature: {} average {}, the {} corner runs {}; difference {}{}.",
+                engine::analysis::verdict::count_of(curvature.n_centre, "centre point"),
                 round_for_text(curvature.centre_mean, 5),
                 curvature.n_factorial,
                 round_for_text(curvature.factorial_mean, 5),

@@ -571,8 +571,9 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
             summary_row,
             0,
             Value::text(format!(
-                "{} data problem(s) were found and handled; see the sheet '{}'.",
-                results.findings.len(),
+                "{} {} found and handled; see the sheet '{}'.",
+                engine::analysis::verdict::count_of(results.findings.len(), "data problem"),
+                if results.findings.len() == 1 { "was" } else { "were" },
                 names::FINDINGS
             )),
             Look::Plain,

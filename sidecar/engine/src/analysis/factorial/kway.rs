@@ -317,9 +317,11 @@ pub(super) fn kway_cautions(
     }
     if let Some(first) = fit.missing_cells.first().filter(|_| !missing_by_design) {
         cautions.push(format!(
-            "{} combination(s) of levels were not run (for example {}); effects that need them cannot be estimated, and the Type III tests depend on how the levels were coded.",
-            fit.missing_cells.len(),
-            level_names(first).join(" / ")
+            "{} of levels {} not run (for example {}); effects that need {} cannot be estimated, and the Type III tests depend on how the levels were coded.",
+            crate::analysis::verdict::count_of(fit.missing_cells.len(), "combination"),
+            if fit.missing_cells.len() == 1 { "was" } else { "were" },
+            level_names(first).join(" / "),
+            if fit.missing_cells.len() == 1 { "it" } else { "them" }
         ));
     }
     cautions

@@ -564,15 +564,15 @@ pub(super) fn aliasing_advice(
     let n_runs = analysis.design.n_distinct_runs;
     let follow_up = match best_single {
         Some((factor, count)) if count >= full_separates && count > 0 => Some(format!(
-            "To separate them, run the {n_runs} runs again with only {} ({}) reversed (a fold-over on that factor); this separates {count} of the {} mixed pair(s) among the active effects, and {} itself from every interaction.",
+            "To separate them, run the {n_runs} runs again with only {} ({}) reversed (a fold-over on that factor); this separates {count} of the {} among the active effects, and {} itself from every interaction.",
             names[factor],
             FACTOR_LETTERS[factor],
-            pairs.len(),
+            crate::analysis::verdict::count_of(pairs.len(), "mixed pair"),
             names[factor]
         )),
         _ if full_separates > 0 => Some(format!(
-            "To separate them, run the {n_runs} runs again with every factor reversed (a full fold-over); this clears every main effect of two-factor interactions and separates {full_separates} of the {} mixed pair(s).",
-            pairs.len()
+            "To separate them, run the {n_runs} runs again with every factor reversed (a full fold-over); this clears every main effect of two-factor interactions and separates {full_separates} of the {}.",
+            crate::analysis::verdict::count_of(pairs.len(), "mixed pair")
         )),
         _ => Some(format!(
             "No simple fold-over separates these; adding runs that complete a larger fraction (for example the other half of the {}) would.",
