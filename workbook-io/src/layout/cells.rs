@@ -28,11 +28,14 @@ pub(super) fn hidden_findings(grid: &SheetGrid, table: &TrialTable) -> Vec<Findi
                 }
                 .a1(),
             ),
-            found: format!("{} hidden row(s)", rows.len()),
+            found: format!("{} hidden {}", rows.len(), super::noun(rows.len(), "row")),
             action: "their values were used like any other".into(),
             message: format!(
-                "row(s) {} of the table are hidden in the sheet; their values were used like any other; unhide them to check, and delete the runs that should not count",
-                number_list(&rows)
+                "{} {} of the table {} hidden in the sheet; their values were used like any other; unhide {} to check, and delete the runs that should not count",
+                super::noun(rows.len(), "row"),
+                number_list(&rows),
+                if rows.len() == 1 { "is" } else { "are" },
+                if rows.len() == 1 { "it" } else { "them" }
             ),
         });
     }
@@ -61,12 +64,15 @@ pub(super) fn hidden_findings(grid: &SheetGrid, table: &TrialTable) -> Vec<Findi
                 }
                 .a1(),
             ),
-            found: format!("{} hidden column(s)", cols.len()),
+            found: format!("{} hidden {}", cols.len(), super::noun(cols.len(), "column")),
             action: "their values were used like any other".into(),
             message: format!(
-                "column(s) {}{} of the table are hidden in the sheet; their values were used like any other; unhide them to check",
+                "{} {}{} of the table {} hidden in the sheet; their values were used like any other; unhide {} to check",
+                super::noun(cols.len(), "column"),
                 letters.join(", "),
-                if cols.len() > 20 { ", ..." } else { "" }
+                if cols.len() > 20 { ", ..." } else { "" },
+                if cols.len() == 1 { "is" } else { "are" },
+                if cols.len() == 1 { "it" } else { "them" }
             ),
         });
     }

@@ -120,15 +120,15 @@ pub fn choose_table(
         .iter()
         .enumerate()
         .filter(|(index, _)| *index != best)
-        .map(|(_, table)| format!("{} ({} records)", place(table), table.n_records()))
+        .map(|(_, table)| format!("{} ({})", place(table), super::counted(table.n_records(), "record")))
         .collect();
     let mut chosen = tables.swap_remove(best);
     if !others.is_empty() {
         let line = format!(
-            "of {} tables {scope}, the one at {} ({} records) looks most like trial data and was analysed; the others: {}; set {setting} to analyse another",
+            "of {} tables {scope}, the one at {} ({}) looks most like trial data and was analysed; the others: {}; set {setting} to analyse another",
             others.len() + 1,
             place(&chosen),
-            chosen.n_records(),
+            super::counted(chosen.n_records(), "record"),
             others.join(", ")
         );
         chosen.findings.push(Finding {

@@ -97,9 +97,12 @@ pub(super) fn summary_formula_findings(sheet: &str, rows: &[SummaryFormulaRow]) 
     functions.dedup();
     let row_numbers: Vec<u32> = rows.iter().map(|row| row.row).collect();
     let line = format!(
-        "row(s) {} hold summary formulas ({}), not records; they were left out; set `range` to choose the table's rows yourself",
+        "{} {} {} summary formulas ({}), not records; {} left out; set `range` to choose the table's rows yourself",
+        super::noun(row_numbers.len(), "row"),
         number_list(&row_numbers),
-        functions.join(", ")
+        if row_numbers.len() == 1 { "holds" } else { "hold" },
+        functions.join(", "),
+        if row_numbers.len() == 1 { "it was" } else { "they were" }
     );
     (findings, Some(line))
 }

@@ -32,6 +32,20 @@ use crate::read::SheetGrid;
 use cells::{hidden_findings, number_list};
 use header::{column_finding, count_columns, empty_column_findings, find_header_row, header_names, row_spans};
 use long::{build_long, label_factor_columns, measured_columns};
+/// A noun in the singular for one, in the plural (with "s") otherwise.
+pub(crate) fn noun(count: usize, singular: &str) -> String {
+    if count == 1 {
+        singular.to_string()
+    } else {
+        format!("{singular}s")
+    }
+}
+
+/// "1 record", "3 records".
+pub(crate) fn counted(count: usize, singular: &str) -> String {
+    format!("{count} {}", noun(count, singular))
+}
+
 use roles::{
     context_reason, design_columns, design_pattern, is_notes_column, is_summary_word, short_reason, HIDDEN_REASON,
 };
@@ -181,8 +195,11 @@ fn detect_table_cells(
             last: CellPos::new(last, cells[rows[header_index].1 - 1].0.col),
         };
         let line = format!(
-            "row(s) {} under the header hold text only (units or notes); they were read as part of the header, not as records; set `range` to start the table elsewhere",
-            number_list(&units_rows)
+            "{} {} under the header {} text only (units or notes); {} read as part of the header, not as records; set `range` to start the table elsewhere",
+            noun(units_rows.len(), "row"),
+            number_list(&units_rows),
+            if units_rows.len() == 1 { "holds" } else { "hold" },
+            if units_rows.len() == 1 { "it was" } else { "they were" }
         );
         findings.push(choice_finding(&sheet, area, "text under the header", &line));
         choices.push(line);
@@ -275,9 +292,12 @@ fn detect_table_cells(
         let rows_listed: Vec<u32> = summary_rows.iter().map(|(row, _)| *row).collect();
         let labels: Vec<&str> = summary_rows.iter().map(|(_, label)| label.as_str()).collect();
         choices.push(format!(
-            "summary row(s) {} ({}) under the data were left out; set `range` to include them",
+            "summary {} {} ({}) under the data {} left out; set `range` to include {}",
+            noun(rows_listed.len(), "row"),
             number_list(&rows_listed),
-            labels.join(", ")
+            labels.join(", "),
+            if rows_listed.len() == 1 { "was" } else { "were" },
+            if rows_listed.len() == 1 { "it" } else { "them" }
         ));
     }
 

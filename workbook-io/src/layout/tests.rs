@@ -1228,7 +1228,7 @@ fn rows_of_summary_formulas_are_left_out_wherever_they_stand() {
         table
             .choices
             .iter()
-            .any(|line| line.contains("row(s) 4, 7 hold summary formulas")),
+            .any(|line| line.contains("rows 4, 7 hold summary formulas")),
         "{:?}",
         table.choices
     );
@@ -1320,7 +1320,7 @@ fn hidden_helper_columns_are_kept_as_context_unless_named() {
     assert!(named
         .choices
         .iter()
-        .any(|line| line.contains("column(s) B of the table are hidden")));
+        .any(|line| line.contains("column B of the table is hidden")));
     // Hidden rows are records all the same, said in a choice line.
     sheet.hidden_cols.clear();
     sheet.hidden_rows = vec![2];
@@ -1329,7 +1329,7 @@ fn hidden_helper_columns_are_kept_as_context_unless_named() {
     assert!(rows_hidden
         .choices
         .iter()
-        .any(|line| line.contains("row(s) 3 of the table are hidden")));
+        .any(|line| line.contains("row 3 of the table is hidden")));
 }
 
 #[test]
