@@ -12,6 +12,7 @@
 mod batch;
 mod catalogue;
 mod catalogue_safety;
+mod catalogue_watch_state;
 mod cli;
 mod common;
 mod design_lead;
