@@ -11,6 +11,7 @@
 
 mod batch;
 mod catalogue;
+mod catalogue_cells;
 mod catalogue_safety;
 mod catalogue_watch_state;
 mod cli;

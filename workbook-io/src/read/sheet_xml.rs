@@ -943,6 +943,11 @@ enum Value {
     Inline,
     Bool(bool),
     Error(String),
+    /// A cell whose content does not fit its type (text in a number cell, a
+    /// shared-text index past the table, an unknown type): what it holds,
+    /// kept as an unreadable cell at its address rather than refusing the
+    /// whole sheet.
+    Damaged(String),
 }
 
 /// A cell's `t` attribute.
@@ -1117,6 +1122,7 @@ fn read_cells<R: Read>(
                         CellValue::Text(builder.intern(&text))
                     }
                     Value::Error(text) => CellValue::Error(builder.intern(&text)),
+                    Value::Damaged(what) => CellValue::Error(builder.intern(&what)),
                 };
                 if !builder.push(row, col, cell) {
                     return Err(Stop::TooManyCells);
@@ -1187,31 +1193,52 @@ fn read_v<R: Read>(
             scanner.read_text_content(b"v", text)?;
             Ok(Value::Date(f64::NAN))
         }
-        Kind::Unknown => Err(Stop::Decline),
+        Kind::Unknown => {
+            text.clear();
+            scanner.read_text_content(b"v", text)?;
+            Ok(Value::Damaged(format!(
+                "a cell of a type this reader does not know, holding {}",
+                shown(text)
+            )))
+        }
     }
+}
+
+/// Cell content as quoted in an unreadable cell's description (at most 40 characters).
+fn shown(content: &str) -> String {
+    let mut quoted: String = content.chars().take(40).collect();
+    if quoted.len() < content.len() {
+        quoted.push('…');
+    }
+    format!("\"{quoted}\"")
 }
 
 /// The value of a `<v>` holding plain text, for the types that hold no markup.
 fn plain_value(bytes: &[u8], kind: Kind, date_style: bool, parts: &WorkbookParts) -> Outcome<Value> {
-    if bytes.contains(&b'&') {
+    if bytes.contains(&b'&') && kind == Kind::Unstated {
+        // Text with character references: calamine decodes them.
         return Err(Stop::Decline);
     }
+    let raw = || shown(&String::from_utf8_lossy(bytes));
     match kind {
         Kind::Shared => {
             if bytes.is_empty() {
                 return Ok(Value::Empty);
             }
-            let index = parse_index(bytes).ok_or(Stop::Decline)?;
-            if index >= parts.strings.len() {
-                return Err(Stop::Decline);
+            match parse_index(bytes) {
+                Some(index) if index < parts.strings.len() => Ok(Value::Shared(index)),
+                _ => Ok(Value::Damaged(format!(
+                    "a shared-text cell pointing to entry {} of a table of {}",
+                    raw(),
+                    parts.strings.len()
+                ))),
             }
-            Ok(Value::Shared(index))
         }
         Kind::Bool => match bytes_str(bytes)?.trim() {
             "" => Ok(Value::Empty),
             flag if flag == "0" || flag.eq_ignore_ascii_case("false") => Ok(Value::Bool(false)),
             flag if flag == "1" || flag.eq_ignore_ascii_case("true") => Ok(Value::Bool(true)),
-            _ => Err(Stop::Decline),
+            _ => Ok(Value::Damaged(format!("a TRUE/FALSE cell holding {}", raw()))),
         },
         Kind::Error => {
             let text = bytes_str(bytes)?.trim();
@@ -1221,7 +1248,7 @@ fn plain_value(bytes: &[u8], kind: Kind, date_style: bool, parts: &WorkbookParts
                 // #UNKNOWN!, #GETTING_DATA, ...) that calamine does not know
                 // are error cells at their address all the same.
                 Err(_) if is_error_value_text(text) => Ok(Value::Error(text.to_string())),
-                Err(_) => Err(Stop::Decline),
+                Err(_) => Ok(Value::Damaged(format!("an error cell holding {}", raw()))),
             }
         }
         _ => {
@@ -1232,7 +1259,7 @@ fn plain_value(bytes: &[u8], kind: Kind, date_style: bool, parts: &WorkbookParts
                 Ok(number) if date_style => Ok(Value::Date(number)),
                 Ok(number) => Ok(Value::Number(number)),
                 Err(_) if kind == Kind::Unstated => Ok(Value::Text(bytes_str(bytes)?.to_string())),
-                Err(_) => Err(Stop::Decline),
+                Err(_) => Ok(Value::Damaged(format!("a number cell holding {}", raw()))),
             }
         }
     }

@@ -6,7 +6,7 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use super::{open_workbook, sheet_xml, GridBuilder, ReadLimits, SheetGrid};
-use crate::cell::CellValue;
+use crate::cell::{CellPos, CellValue};
 
 /// Both readers' grids of every sheet, asserting the direct one did not decline.
 fn compare_all(path: &Path) -> usize {
@@ -199,10 +199,6 @@ fn unusual_forms_fall_back_to_calamine() {
     let cases = [
         // An escape of the format's own kind, left to calamine.
         r#"<row r="1"><c r="A1" t="str"><v>a_x0041_b</v></c></row>"#,
-        // An unknown type.
-        r#"<row r="1"><c r="A1" t="zz"><v>1</v></c></row>"#,
-        // A shared string index past the table.
-        r#"<row r="1"><c r="A1" t="s"><v>99</v></c></row>"#,
         // A malformed reference.
         r#"<row r="1"><c r="1A"><v>1</v></c></row>"#,
     ];
@@ -260,4 +256,48 @@ fn cell_cap_and_window_hold_on_the_direct_path() {
     let slow = workbook.read_sheet_by("Sheet1", window, false).expect("window");
     assert_same(&fast, &slow, "window");
     assert_eq!(fast.cells.len(), 6);
+}
+
+#[test]
+fn cells_that_do_not_fit_their_type_are_unreadable_cells_at_their_address() {
+    let folder = tempfile::tempdir().expect("temporary folder");
+    let cells = [
+        (r#"<c r="B2" t="n"><v>12,5</v></c>"#, "a number cell holding \"12,5\""),
+        (
+            r#"<c r="B3" t="zz"><v>7</v></c>"#,
+            "a type this reader does not know, holding \"7\"",
+        ),
+        (r#"<c r="B4" t="s"><v>99</v></c>"#, "entry \"99\" of a table of"),
+        (
+            r#"<c r="B5" t="b"><v>maybe</v></c>"#,
+            "a TRUE/FALSE cell holding \"maybe\"",
+        ),
+        (r#"<c r="B6" t="e"><v>oops</v></c>"#, "an error cell holding \"oops\""),
+        (r#"<c r="B7"><v>3.5</v></c>"#, ""),
+    ];
+    let rows: String = cells
+        .iter()
+        .enumerate()
+        .map(|(index, (cell, _))| format!(r#"<row r="{}">{cell}</row>"#, index + 2))
+        .collect();
+    let sheet = format!(
+        r#"<?xml version="1.0"?><worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData>{rows}</sheetData></worksheet>"#
+    );
+    let path = folder.path().join("odd-cells.xlsx");
+    handmade(&path, &sheet, SHARED, STYLES);
+    let mut workbook = open_workbook(&path, &ReadLimits::default()).expect("opens");
+    let grid = workbook.read_sheet("Data", None).expect("read, not refused");
+    for (index, (_, described)) in cells.iter().enumerate() {
+        let position = CellPos::new(index as u32 + 1, 1);
+        match grid.get(position) {
+            Some(CellValue::Error(text)) => assert!(
+                !described.is_empty() && grid.text(text).contains(described) && !grid.text(text).starts_with('#'),
+                "{}: {}",
+                position.a1(),
+                grid.text(text)
+            ),
+            Some(CellValue::Number(number)) => assert!(described.is_empty() && number == 3.5),
+            other => panic!("{}: {other:?}", position.a1()),
+        }
+    }
 }
