@@ -3,7 +3,7 @@
 //! cell are findings at their cells; the rest of the table is analysed.
 
 use crate::common::{temp_folder, trialyst};
-use crate::hostile::{sheet_xml, write_xlsx_parts, EMPTY_SHARED_STRINGS};
+use crate::hostile::{sheet_xml, two_column_rows, write_xlsx_parts, EMPTY_SHARED_STRINGS};
 
 #[test]
 fn cells_that_do_not_fit_their_type_are_findings_at_their_cells() {
@@ -15,19 +15,11 @@ fn cells_that_do_not_fit_their_type_are_findings_at_their_cells() {
         (r#"t="s""#, "99", "a shared-text cell pointing to entry \"99\""),
         (r#"t="b""#, "yes", "a TRUE/FALSE cell holding \"yes\""),
     ];
-    let mut rows = String::from(
-        r#"<row r="1"><c r="A1" t="inlineStr"><is><t>Line</t></is></c><c r="B1" t="inlineStr"><is><t>Width (mm)</t></is></c></row>"#,
-    );
-    for row in 2..=21_usize {
-        let label = if row % 2 == 0 { "upper" } else { "lower" };
-        let cell = match damaged.get(row.wrapping_sub(3)) {
-            Some((kind, value, _)) => format!(r#"<c r="B{row}" {kind}><v>{value}</v></c>"#),
-            None => format!(r#"<c r="B{row}"><v>{}</v></c>"#, 10.0 + (row % 4) as f64 / 10.0),
-        };
-        rows.push_str(&format!(
-            r#"<row r="{row}"><c r="A{row}" t="inlineStr"><is><t>{label}</t></is></c>{cell}</row>"#
-        ));
-    }
+    let rows = two_column_rows(("Line", "Width (mm)"), ("upper", "lower"), |row| {
+        damaged
+            .get(row.wrapping_sub(3))
+            .map(|(kind, value, _)| format!(r#"<c r="B{row}" {kind}><v>{value}</v></c>"#))
+    });
     write_xlsx_parts(
         &folder.path().join("damaged.xlsx"),
         &sheet_xml(&rows),
