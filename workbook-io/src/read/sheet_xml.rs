@@ -789,9 +789,37 @@ impl WorkbookParts {
     }
 }
 
+/// What the direct reader keeps between the sheets of one workbook: the
+/// opened archive, the part of each sheet, the shared strings and date
+/// styles. Reading each of 10,000 sheets would otherwise open the archive,
+/// its directory of 10,000 entries and the workbook part again each time.
+pub(crate) struct DirectBook {
+    archive: zip::ZipArchive<BufReader<std::fs::File>>,
+    sheet_parts: std::collections::HashMap<String, String>,
+    parts: WorkbookParts,
+}
+
+impl DirectBook {
+    /// Opens the workbook for the direct reader, or declines.
+    pub(crate) fn open(path: &Path, max_entry_bytes: u64) -> Outcome<Self> {
+        let file = super::open_regular_file(path).map_err(|_| Stop::Decline)?;
+        let mut archive = zip::ZipArchive::new(BufReader::new(file)).map_err(|_| Stop::Decline)?;
+        if archive.index_for_name("xl/workbook.xml").is_none() {
+            return Err(Stop::Decline);
+        }
+        let sheet_parts = super::merged::sheet_part_paths(&mut archive).ok_or(Stop::Decline)?;
+        let parts = WorkbookParts::load(&mut archive, max_entry_bytes)?;
+        Ok(Self {
+            archive,
+            sheet_parts,
+            parts,
+        })
+    }
+}
+
 /// Reads the cells of `sheet` into `builder`, or declines.
 pub(crate) fn read_sheet(
-    path: &Path,
+    book: &mut DirectBook,
     sheet: &str,
     max_entry_bytes: u64,
     builder: &mut GridBuilder,
@@ -799,13 +827,9 @@ pub(crate) fn read_sheet(
     if sheet.contains(['&', '<', '>', '"', '\'']) {
         return Err(Stop::Decline);
     }
-    let file = super::open_regular_file(path).map_err(|_| Stop::Decline)?;
-    let mut archive = zip::ZipArchive::new(BufReader::new(file)).map_err(|_| Stop::Decline)?;
-    if archive.index_for_name("xl/workbook.xml").is_none() {
-        return Err(Stop::Decline);
-    }
-    let part = super::merged::sheet_part_path(&mut archive, sheet).ok_or(Stop::Decline)?;
-    let parts = WorkbookParts::load(&mut archive, max_entry_bytes)?;
+    let part = book.sheet_parts.get(sheet).cloned().ok_or(Stop::Decline)?;
+    let parts = &book.parts;
+    let archive = &mut book.archive;
     let entry = archive.by_name(&part).map_err(|_| Stop::Decline)?;
     // The smallest cell, `<c><v>1</v></c>`, takes 15 bytes of XML.
     let most_cells = entry.size() / 15;
@@ -814,7 +838,7 @@ pub(crate) fn read_sheet(
             inner: entry,
             left: max_entry_bytes,
         };
-        return read_cells(Scanner::new(limited), &parts, most_cells, builder);
+        return read_cells(Scanner::new(limited), parts, most_cells, builder);
     }
     drop(entry);
     // A large part is inflated on a second thread while this one parses.
@@ -866,7 +890,7 @@ pub(crate) fn read_sheet(
             at: 0,
             ended: false,
         };
-        let outcome = read_cells(Scanner::new(reader), &parts, most_cells, builder);
+        let outcome = read_cells(Scanner::new(reader), parts, most_cells, builder);
         if inflater.join().is_err() {
             return Err(Stop::Decline);
         }

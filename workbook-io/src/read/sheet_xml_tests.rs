@@ -15,7 +15,8 @@ fn compare_all(path: &Path) -> usize {
     let mut cells = 0;
     for name in names {
         let mut builder = GridBuilder::new(&name, None, u64::MAX);
-        let direct = sheet_xml::read_sheet(path, &name, u64::MAX, &mut builder);
+        let direct = sheet_xml::DirectBook::open(path, u64::MAX)
+            .and_then(|mut book| sheet_xml::read_sheet(&mut book, &name, u64::MAX, &mut builder));
         assert!(
             direct.is_ok(),
             "{}: the direct reader declined sheet '{name}'",
@@ -211,7 +212,12 @@ fn unusual_forms_fall_back_to_calamine() {
         let mut builder = GridBuilder::new("Data", None, u64::MAX);
         assert!(
             matches!(
-                sheet_xml::read_sheet(&path, "Data", u64::MAX, &mut builder),
+                sheet_xml::DirectBook::open(&path, u64::MAX).and_then(|mut book| sheet_xml::read_sheet(
+                    &mut book,
+                    "Data",
+                    u64::MAX,
+                    &mut builder
+                )),
                 Err(sheet_xml::Stop::Decline)
             ),
             "case {index} declines"
