@@ -16,6 +16,7 @@ mod catalogue_safety;
 mod catalogue_watch_state;
 mod cli;
 mod common;
+mod cost_timing;
 mod design_lead;
 mod factorial;
 mod findings;
