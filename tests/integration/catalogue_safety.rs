@@ -619,7 +619,7 @@ fn a_contrast_nested_thousands_deep_is_a_finding_not_a_crash() {
 
 #[test]
 fn newer_error_values_are_error_cells_at_their_address() {
-    use crate::hostile::{sheet_xml, write_xlsx_parts, EMPTY_SHARED_STRINGS};
+    use crate::hostile::{sheet_xml, two_column_rows, write_xlsx_parts, EMPTY_SHARED_STRINGS};
     let folder = temp_folder();
     // Condition / Weight in A1:B21 (invented); B3..B8 hold the newer error values.
     let errors = [
@@ -630,19 +630,11 @@ fn newer_error_values_are_error_cells_at_their_address() {
         "#UNKNOWN!",
         "#GETTING_DATA",
     ];
-    let mut rows = String::from(
-        r#"<row r="1"><c r="A1" t="inlineStr"><is><t>Condition</t></is></c><c r="B1" t="inlineStr"><is><t>Weight</t></is></c></row>"#,
-    );
-    for row in 2..=21_usize {
-        let label = if row % 2 == 0 { "old" } else { "new" };
-        let cell = match errors.get(row.wrapping_sub(3)) {
-            Some(error) => format!(r#"<c r="B{row}" t="e"><v>{error}</v></c>"#),
-            None => format!(r#"<c r="B{row}"><v>{}</v></c>"#, 10.0 + (row % 5) as f64 / 10.0),
-        };
-        rows.push_str(&format!(
-            r#"<row r="{row}"><c r="A{row}" t="inlineStr"><is><t>{label}</t></is></c>{cell}</row>"#
-        ));
-    }
+    let rows = two_column_rows(("Condition", "Weight"), ("old", "new"), |row| {
+        errors
+            .get(row.wrapping_sub(3))
+            .map(|error| format!(r#"<c r="B{row}" t="e"><v>{error}</v></c>"#))
+    });
     write_xlsx_parts(
         &folder.path().join("newer.xlsx"),
         &sheet_xml(&rows),

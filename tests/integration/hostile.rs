@@ -125,6 +125,28 @@ pub(crate) fn write_xlsx_parts(path: &Path, sheet: &str, shared_strings: &str) {
     );
 }
 
+/// Sheet rows of a two-column trial (labels in A, numbers in B) over rows
+/// 2..=21, with `special(row)` giving a hand-made B cell where it answers.
+pub(crate) fn two_column_rows(
+    headers: (&str, &str),
+    labels: (&str, &str),
+    special: impl Fn(usize) -> Option<String>,
+) -> String {
+    let mut rows = format!(
+        r#"<row r="1"><c r="A1" t="inlineStr"><is><t>{}</t></is></c><c r="B1" t="inlineStr"><is><t>{}</t></is></c></row>"#,
+        headers.0, headers.1
+    );
+    for row in 2..=21_usize {
+        let label = if row % 2 == 0 { labels.0 } else { labels.1 };
+        let cell =
+            special(row).unwrap_or_else(|| format!(r#"<c r="B{row}"><v>{}</v></c>"#, 10.0 + (row % 5) as f64 / 10.0));
+        rows.push_str(&format!(
+            r#"<row r="{row}"><c r="A{row}" t="inlineStr"><is><t>{label}</t></is></c>{cell}</row>"#
+        ));
+    }
+    rows
+}
+
 pub(crate) const EMPTY_SHARED_STRINGS: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
 <sst xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" count="0" uniqueCount="0"></sst>"#;
 

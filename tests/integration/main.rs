@@ -11,9 +11,12 @@
 
 mod batch;
 mod catalogue;
+mod catalogue_cells;
 mod catalogue_safety;
+mod catalogue_watch_state;
 mod cli;
 mod common;
+mod cost_timing;
 mod design_lead;
 mod factorial;
 mod findings;

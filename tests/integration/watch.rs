@@ -58,7 +58,7 @@ impl Watching {
         .unwrap_or_else(|message| panic!("{message}\n--- log\n{}", self.log_text()));
     }
 
-    fn signal(&self, name: &str) {
+    pub(crate) fn signal(&self, name: &str) {
         let pid = self.child.as_ref().expect("running").id().to_string();
         let status = Command::new("kill")
             .args([&format!("-{name}"), &pid])
@@ -155,6 +155,14 @@ pub(crate) fn wait_for_file(path: &Path, watching: &Watching) {
     }
 }
 
+/// The watcher's state as stored: the snapshot and the journal since it.
+pub(crate) fn state_text(folder: &Path) -> String {
+    let read = |name: &str| std::fs::read_to_string(folder.join(".trialyst").join(name)).unwrap_or_default();
+    let text = format!("{}\n{}", read("state.json"), read("state.journal"));
+    assert!(text.trim().len() > 2, "no state stored");
+    text
+}
+
 fn files_in(folder: &Path) -> Vec<String> {
     let mut names: Vec<String> = std::fs::read_dir(folder)
         .expect("listable")
@@ -194,7 +202,7 @@ fn a_dropped_workbook_gets_results_and_stays_untouched() {
     assert_eq!(watching.stop(), 0);
     assert_eq!(sha256_of(&dropped), original);
     // Our hidden folder holds the state with the analysed content's SHA-256.
-    let state = std::fs::read_to_string(setup.folder.join(".trialyst/state.json")).expect("a state file");
+    let state = state_text(&setup.folder);
     assert!(state.contains(&original), "{state}");
 }
 
@@ -357,7 +365,7 @@ fn the_same_content_is_analysed_once_and_changed_content_again() {
     watching.wait_for_log("analysed line 3.xlsx", 2);
     let log = watching.log_text();
     assert_eq!(log.matches("analysed line 3.xlsx").count(), 2, "{log}");
-    let state = std::fs::read_to_string(setup.folder.join(".trialyst/state.json")).expect("a state file");
+    let state = state_text(&setup.folder);
     assert!(state.contains(&sha256_of(&changed)), "{state}");
     // Deleting the results file and dropping the same content again asks for a new analysis.
     std::fs::remove_file(setup.folder.join("line 3.results.xlsx")).expect("removed");
@@ -467,8 +475,8 @@ fn two_watchers_on_one_folder_analyse_each_workbook_once() {
             "{name} analysed other than once\n{both}"
         );
     }
-    let state = std::fs::read_to_string(setup.folder.join(".trialyst/state.json")).expect("a state file");
-    assert_eq!(state.matches("\"outcome\": \"analysed\"").count(), count, "{state}");
+    let state = state_text(&setup.folder);
+    assert_eq!(state.matches("\"outcome\":\"analysed\"").count(), count, "{state}");
 }
 
 #[test]

@@ -25,7 +25,7 @@ use std::path::{Path, PathBuf};
 
 use toml::Spanned;
 
-use crate::plan::file::line_of;
+use crate::plan::file::{line_of, LineStarts};
 use crate::settings::{Settings, SettingsError};
 
 /// The file name looked for in a folder.
@@ -98,8 +98,9 @@ pub fn parse_folder_settings(text: &str, file: &str) -> Result<Settings, FolderS
     let mut entries: Vec<(&Spanned<String>, &Spanned<toml::Value>)> = raw.iter().collect();
     entries.sort_by_key(|(key, _)| key.span().start);
     let mut pairs: Vec<(String, String, String)> = Vec::new();
+    let lines = LineStarts::new(text);
     for (key, value) in entries {
-        let line = line_of(text, key.span().start);
+        let line = lines.line(key.span().start);
         let normal = key.get_ref().trim().to_lowercase().replace(['_', '-'], " ");
         let bad = |rule: &str| FolderSettingsError::BadKind {
             file: file.to_string(),

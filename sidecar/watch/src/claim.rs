@@ -20,8 +20,13 @@ use std::time::Duration;
 
 use sha2::{Digest, Sha256};
 
+use crate::owner::{Liveness, Owner};
+
 /// The claims folder inside the hidden folder.
 pub const CLAIMS_FOLDER: &str = "claims";
+
+/// A claim file with no readable owner older than this is taken over.
+const UNREADABLE_GRACE: Duration = Duration::from_secs(5);
 
 /// A claim held by this process; removed when dropped.
 #[derive(Debug)]
@@ -101,21 +106,29 @@ pub fn try_claim(state_folder: &Path, relative: &str, expiry: Duration) -> std::
     for _ in 0..3 {
         match std::fs::OpenOptions::new().write(true).create_new(true).open(&path) {
             Ok(mut file) => {
+                let me = Owner::me();
                 let record = serde_json::json!({
                     "file": relative,
-                    "host": host_name(),
-                    "pid": std::process::id(),
+                    "host": me.host,
+                    "pid": me.pid,
+                    "process_start": me.process_start,
                     "since": service::now_rfc3339(),
                 });
                 let record = format!("{record}\n");
-                file.write_all(record.as_bytes())?;
+                if let Err(error) = file.write_all(record.as_bytes()) {
+                    // A full disk: an empty claim would hold the workbook until it expires.
+                    drop(file);
+                    let _ = std::fs::remove_file(&path);
+                    return Err(error);
+                }
                 let _ = file.sync_all();
                 return Ok(ClaimAttempt::Mine(Claim { path, record }));
             }
             Err(error) if error.kind() == std::io::ErrorKind::AlreadyExists => {
-                let holder = std::fs::read_to_string(&path)
-                    .ok()
-                    .and_then(|text| serde_json::from_str::<serde_json::Value>(&text).ok())
+                let text = std::fs::read_to_string(&path).unwrap_or_default();
+                let parsed = serde_json::from_str::<serde_json::Value>(&text).ok();
+                let holder = parsed
+                    .as_ref()
                     .map(|record| {
                         format!(
                             "{} (process {}, since {})",
@@ -125,6 +138,19 @@ pub fn try_claim(state_folder: &Path, relative: &str, expiry: Duration) -> std::
                         )
                     })
                     .unwrap_or_else(|| "another watcher".into());
+                let owner_dead = parsed
+                    .as_ref()
+                    .and_then(|record| serde_json::from_value::<Owner>(record.clone()).ok())
+                    .is_some_and(|owner| owner.liveness() == Liveness::Dead);
+                // Dead owner on this host, or no owner written (a crash or a
+                // full disk between creation and write) after a short grace.
+                let expiry = if owner_dead {
+                    Duration::ZERO
+                } else if parsed.is_none() {
+                    expiry.min(UNREADABLE_GRACE)
+                } else {
+                    expiry
+                };
                 match age_of(&path) {
                     Some(age) if age > expiry => {
                         // Take the stale claim over: only one watcher's rename succeeds.
@@ -153,6 +179,39 @@ pub fn try_claim(state_folder: &Path, relative: &str, expiry: Duration) -> std::
     Ok(ClaimAttempt::Held("another watcher".into()))
 }
 
+/// At start: removes the claims this host's watchers left when they were
+/// killed (their process is gone), and take-over leftovers, so that the
+/// workbooks they held are analysed now rather than after the expiry.
+/// Returns the workbooks (paths in the folder) whose claims were removed.
+pub fn clean_after_restart(state_folder: &Path) -> Vec<String> {
+    let folder = state_folder.join(CLAIMS_FOLDER);
+    let Ok(entries) = std::fs::read_dir(&folder) else {
+        return Vec::new();
+    };
+    let mut freed = Vec::new();
+    for entry in entries.filter_map(Result::ok) {
+        let name = entry.file_name().to_string_lossy().into_owned();
+        let path = entry.path();
+        if name.ends_with(".claim") {
+            let Some(record) = std::fs::read_to_string(&path)
+                .ok()
+                .and_then(|text| serde_json::from_str::<serde_json::Value>(&text).ok())
+            else {
+                continue;
+            };
+            let dead =
+                serde_json::from_value::<Owner>(record.clone()).is_ok_and(|owner| owner.liveness() == Liveness::Dead);
+            if dead && std::fs::remove_file(&path).is_ok() {
+                freed.push(record["file"].as_str().unwrap_or_default().to_string());
+            }
+        } else if name.contains(".expired-") && age_of(&path).is_some_and(|age| age > Duration::from_secs(60)) {
+            let _ = std::fs::remove_file(&path);
+        }
+    }
+    freed.sort();
+    freed
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -179,5 +238,31 @@ mod tests {
             ClaimAttempt::Mine(_)
         ));
         drop(claim);
+    }
+
+    #[test]
+    fn a_dead_watchers_claim_is_taken_over_at_once_and_cleaned_at_start() {
+        let folder = tempfile::tempdir().expect("a temporary folder");
+        let mut child = std::process::Command::new("true").spawn().expect("true runs");
+        let pid = child.id();
+        child.wait().expect("waited");
+        let me = Owner::me();
+        let record =
+            serde_json::json!({"file": "a.xlsx", "host": me.host, "pid": pid, "process_start": 0, "since": "earlier"});
+        let claims = folder.path().join(CLAIMS_FOLDER);
+        std::fs::create_dir_all(&claims).expect("made");
+        let path = claims.join(format!("{}.claim", claim_key("a.xlsx")));
+        std::fs::write(&path, record.to_string()).expect("written");
+        assert!(matches!(
+            try_claim(folder.path(), "a.xlsx", Duration::from_secs(600)).expect("usable"),
+            ClaimAttempt::Mine(_)
+        ));
+        std::fs::write(&path, record.to_string()).expect("written");
+        let other = claims.join(format!("{}.claim", claim_key("b.xlsx")));
+        let live =
+            serde_json::json!({"file": "b.xlsx", "host": me.host, "pid": me.pid, "process_start": me.process_start});
+        std::fs::write(&other, live.to_string()).expect("written");
+        assert_eq!(clean_after_restart(folder.path()), ["a.xlsx"]);
+        assert!(!path.exists() && other.exists());
     }
 }

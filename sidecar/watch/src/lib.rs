@@ -23,6 +23,7 @@
 
 pub mod claim;
 pub mod log;
+pub mod owner;
 pub mod state;
 pub mod worker;
 
@@ -128,6 +129,7 @@ pub fn watch(options: WatchOptions) -> Result<(), WatchError> {
             return cannot(format!("cannot listen for signals: {error}"));
         }
     }
+    let store = store.with_stop(Arc::clone(&stop));
     let mut watcher = Watcher {
         out_dir: options
             .out_dir
@@ -146,11 +148,12 @@ pub fn watch(options: WatchOptions) -> Result<(), WatchError> {
         stop,
         pending: BTreeMap::new(),
     };
-    let (state, corrupt) = watcher.store.load_at_start();
+    let (state, notes) = watcher.store.load_at_start();
     watcher.state = state;
-    if let Some(reason) = corrupt {
-        watcher.log.event("state", "", &reason);
+    for note in notes {
+        watcher.log.event("state", "", &note);
     }
+    watcher.clean_after_restart();
     let result = match options.poll {
         Some(interval) => watcher.run_polling(interval),
         None => watcher.run_listening(),
@@ -251,6 +254,35 @@ fn stamp_of(path: &Path) -> Option<Stamp> {
 }
 
 impl Watcher {
+    /// Removes what a killed watcher on this host left: its claims (so the
+    /// workbooks it held are analysed now) and the temporary output files
+    /// of those workbooks whose writer is gone.
+    fn clean_after_restart(&mut self) {
+        let freed = claim::clean_after_restart(self.store.folder());
+        for relative in &freed {
+            let path = self.folder.join(relative);
+            let mut folders: Vec<PathBuf> = path.parent().map(Path::to_path_buf).into_iter().collect();
+            folders.extend(self.output_folder(&path));
+            folders.extend(self.out_dir.clone());
+            folders.sort();
+            folders.dedup();
+            let stem = path
+                .file_stem()
+                .map(|stem| stem.to_string_lossy().into_owned())
+                .unwrap_or_default();
+            let removed: usize = folders
+                .iter()
+                .map(|folder| worker::remove_dead_temporaries(folder, &stem))
+                .sum();
+            let detail = if removed == 0 {
+                "claim left by a stopped watcher removed".to_string()
+            } else {
+                format!("claim and {removed} temporary file(s) left by a stopped watcher removed")
+            };
+            self.log.event("state", relative, &detail);
+        }
+    }
+
     fn stopping(&self) -> bool {
         self.stop.load(Ordering::SeqCst)
     }
@@ -709,7 +741,13 @@ impl Watcher {
             }
         };
         // Another watcher may have finished it while we looked.
-        self.state = self.store.load();
+        if let Err(error) = self.store.refresh(&mut self.state) {
+            self.log.event(
+                "problem",
+                STATE_FOLDER,
+                &format!("cannot read the watcher's state: {error}"),
+            );
+        }
         if self.skip_if_done(&relative, &sha256) {
             return;
         }
@@ -859,8 +897,8 @@ impl Watcher {
     }
 
     fn remember(&mut self, relative: &str, entry: Entry) {
-        match self.store.record(relative, entry.clone()) {
-            Ok(state) => self.state = state,
+        match self.store.record(&mut self.state, relative, entry.clone()) {
+            Ok(()) => {}
             Err(error) => {
                 self.state.files.insert(relative.to_string(), entry);
                 self.log.event(

@@ -223,6 +223,41 @@ fn remove_worker_temporaries(results_file: &Path, pid: u32) {
     }
 }
 
+/// Removes, in `folder`, the temporary results and problems files of the
+/// workbook named `stem` whose writing process no longer runs here (a
+/// worker killed with its watcher). Returns how many were removed.
+pub fn remove_dead_temporaries(folder: &Path, stem: &str) -> usize {
+    let Ok(entries) = std::fs::read_dir(folder) else {
+        return 0;
+    };
+    let prefix = format!(".{stem}.");
+    let mut removed = 0;
+    for entry in entries.filter_map(Result::ok) {
+        let name = entry.file_name().to_string_lossy().into_owned();
+        let Some(inner) = name.strip_prefix(&prefix).and_then(|rest| rest.strip_suffix(".tmp")) else {
+            continue;
+        };
+        if !(inner.contains(".results.xlsx.")
+            || inner.contains(".problems.xlsx.")
+            || inner.starts_with("results.xlsx.")
+            || inner.starts_with("problems.xlsx."))
+        {
+            continue;
+        }
+        // `<output name>.<pid>-<nanoseconds>`
+        let pid = inner
+            .rsplit('.')
+            .next()
+            .and_then(|tail| tail.split('-').next())
+            .and_then(|pid| pid.parse::<u32>().ok());
+        let dead = pid.is_some_and(|pid| crate::owner::process_liveness(pid, 0) == crate::owner::Liveness::Dead);
+        if dead && std::fs::remove_file(entry.path()).is_ok() {
+            removed += 1;
+        }
+    }
+    removed
+}
+
 /// Runs the worker `program` with `args` under `limits`; `stop` ends it early.
 pub fn run_worker(program: &Path, args: &[OsString], limits: WorkerLimits, stop: &AtomicBool) -> WorkerOutcome {
     let mut command = Command::new(program);
@@ -236,7 +271,7 @@ pub fn run_worker(program: &Path, args: &[OsString], limits: WorkerLimits, stop:
     {
         use std::os::unix::process::CommandExt;
         let memory = limits.memory_bytes;
-        // SAFETY: only async-signal-safe calls (setrlimit, setpgid) between fork and exec.
+        // SAFETY: only async-signal-safe calls (setrlimit, setpgid, prctl) between fork and exec.
         unsafe {
             command.pre_exec(move || {
                 let address_space = libc::rlimit {
@@ -254,6 +289,10 @@ pub fn run_worker(program: &Path, args: &[OsString], limits: WorkerLimits, stop:
                 // Its own process group: a Ctrl-C at the terminal reaches the
                 // watcher, which then stops the worker itself.
                 libc::setpgid(0, 0);
+                // A watcher killed outright takes its worker with it, so no
+                // orphan keeps writing after the watcher's restart.
+                #[cfg(target_os = "linux")]
+                libc::prctl(libc::PR_SET_PDEATHSIG, libc::SIGKILL);
                 Ok(())
             });
         }

@@ -172,6 +172,11 @@ pub(super) fn unusable_number(
         CellValue::Number(number) if number.is_finite() => return None,
         CellValue::Number(_) => (FindingKind::TextInNumbers, "a non-finite number"),
         CellValue::Text(_) => (FindingKind::TextInNumbers, "text"),
+        // Error values start with '#'; other error-cell texts describe a
+        // cell the reader could not read as its type (see `read::sheet_xml`).
+        CellValue::Error(index) if !grid.text(index).starts_with('#') => {
+            (FindingKind::ErrorValue, "an unreadable cell")
+        }
         CellValue::Error(_) => (FindingKind::ErrorValue, "an error value"),
         CellValue::Date(_) => (FindingKind::DateInNumbers, "a date"),
         CellValue::Bool(_) => (FindingKind::BooleanInNumbers, "TRUE/FALSE"),
@@ -183,7 +188,11 @@ pub(super) fn unusable_number(
         cell: Some(pos.a1()),
         found: found.clone(),
         action: "the value was left out".into(),
-        message: format!("found {what} '{found}' in the numbers of '{column_name}'; the value was left out"),
+        message: if what == "an unreadable cell" {
+            format!("found {what} ({found}) in the numbers of '{column_name}'; the value was left out")
+        } else {
+            format!("found {what} '{found}' in the numbers of '{column_name}'; the value was left out")
+        },
     })
 }
 

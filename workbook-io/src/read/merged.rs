@@ -113,6 +113,45 @@ pub(crate) fn sheet_part_path<R: Read + Seek>(archive: &mut zip::ZipArchive<R>, 
     archive.index_for_name(&path).map(|_| path)
 }
 
+/// The part of every worksheet, by sheet name, read from the workbook part
+/// and its relationships once (the first sheet of a name wins, as in
+/// [`sheet_part_path`]); sheets whose part is missing are left out.
+pub(crate) fn sheet_part_paths<R: Read + Seek>(
+    archive: &mut zip::ZipArchive<R>,
+) -> Option<std::collections::HashMap<String, String>> {
+    let workbook = part_text(archive, "xl/workbook.xml")?;
+    let mut relationship_ids: Vec<(String, String)> = Vec::new();
+    scan_tags(workbook.as_bytes(), b"sheet", |tag| {
+        if let (Some(name), Some(id)) = (attribute_value(tag, "name"), attribute_value(tag, "r:id")) {
+            relationship_ids.push((name.to_string(), id.to_string()));
+        }
+    })
+    .ok()?;
+    let relationships = part_text(archive, "xl/_rels/workbook.xml.rels")?;
+    let mut targets: std::collections::HashMap<String, String> = std::collections::HashMap::new();
+    scan_tags(relationships.as_bytes(), b"Relationship", |tag| {
+        if let (Some(id), Some(target)) = (attribute_value(tag, "Id"), attribute_value(tag, "Target")) {
+            targets.entry(id.to_string()).or_insert_with(|| target.to_string());
+        }
+    })
+    .ok()?;
+    let mut paths = std::collections::HashMap::new();
+    for (name, id) in relationship_ids {
+        if paths.contains_key(&name) {
+            continue;
+        }
+        let Some(target) = targets.get(&id) else { continue };
+        let path = match target.strip_prefix('/') {
+            Some(absolute) => absolute.to_string(),
+            None => format!("xl/{target}"),
+        };
+        if archive.index_for_name(&path).is_some() {
+            paths.insert(name, path);
+        }
+    }
+    Some(paths)
+}
+
 /// Rows and columns (zero-based) hidden in a sheet, each sorted and without repeats.
 #[derive(Debug, Default, Clone, PartialEq)]
 pub(crate) struct Hidden {

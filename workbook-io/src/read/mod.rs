@@ -471,6 +471,9 @@ pub struct Workbook {
     inner: Sheets<BufReader<File>>,
     limits: ReadLimits,
     macro_enabled: bool,
+    /// The direct xlsx reader's open archive and parts, kept across sheets
+    /// (`Some(None)`: it declined the workbook).
+    direct: Option<Option<sheet_xml::DirectBook>>,
 }
 
 impl std::fmt::Debug for Workbook {
@@ -632,6 +635,7 @@ pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadE
         inner,
         limits: limits.clone(),
         macro_enabled,
+        direct: None,
     })
 }
 
@@ -760,8 +764,15 @@ impl Workbook {
         let outcome = parse_guarded(|| -> Result<bool, String> {
             match &mut self.inner {
                 Sheets::Xlsx(xlsx) => {
-                    if direct {
-                        match sheet_xml::read_sheet(&path, sheet, max_entry_bytes, &mut builder) {
+                    let book = if direct {
+                        self.direct
+                            .get_or_insert_with(|| sheet_xml::DirectBook::open(&path, max_entry_bytes).ok())
+                            .as_mut()
+                    } else {
+                        None
+                    };
+                    if let Some(book) = book {
+                        match sheet_xml::read_sheet(book, sheet, max_entry_bytes, &mut builder) {
                             Ok(fast) => {
                                 skimmed_merged = Some(fast.merged);
                                 hidden = fast.hidden;

@@ -789,9 +789,37 @@ impl WorkbookParts {
     }
 }
 
+/// What the direct reader keeps between the sheets of one workbook: the
+/// opened archive, the part of each sheet, the shared strings and date
+/// styles. Reading each of 10,000 sheets would otherwise open the archive,
+/// its directory of 10,000 entries and the workbook part again each time.
+pub(crate) struct DirectBook {
+    archive: zip::ZipArchive<BufReader<std::fs::File>>,
+    sheet_parts: std::collections::HashMap<String, String>,
+    parts: WorkbookParts,
+}
+
+impl DirectBook {
+    /// Opens the workbook for the direct reader, or declines.
+    pub(crate) fn open(path: &Path, max_entry_bytes: u64) -> Outcome<Self> {
+        let file = super::open_regular_file(path).map_err(|_| Stop::Decline)?;
+        let mut archive = zip::ZipArchive::new(BufReader::new(file)).map_err(|_| Stop::Decline)?;
+        if archive.index_for_name("xl/workbook.xml").is_none() {
+            return Err(Stop::Decline);
+        }
+        let sheet_parts = super::merged::sheet_part_paths(&mut archive).ok_or(Stop::Decline)?;
+        let parts = WorkbookParts::load(&mut archive, max_entry_bytes)?;
+        Ok(Self {
+            archive,
+            sheet_parts,
+            parts,
+        })
+    }
+}
+
 /// Reads the cells of `sheet` into `builder`, or declines.
 pub(crate) fn read_sheet(
-    path: &Path,
+    book: &mut DirectBook,
     sheet: &str,
     max_entry_bytes: u64,
     builder: &mut GridBuilder,
@@ -799,13 +827,9 @@ pub(crate) fn read_sheet(
     if sheet.contains(['&', '<', '>', '"', '\'']) {
         return Err(Stop::Decline);
     }
-    let file = super::open_regular_file(path).map_err(|_| Stop::Decline)?;
-    let mut archive = zip::ZipArchive::new(BufReader::new(file)).map_err(|_| Stop::Decline)?;
-    if archive.index_for_name("xl/workbook.xml").is_none() {
-        return Err(Stop::Decline);
-    }
-    let part = super::merged::sheet_part_path(&mut archive, sheet).ok_or(Stop::Decline)?;
-    let parts = WorkbookParts::load(&mut archive, max_entry_bytes)?;
+    let part = book.sheet_parts.get(sheet).cloned().ok_or(Stop::Decline)?;
+    let parts = &book.parts;
+    let archive = &mut book.archive;
     let entry = archive.by_name(&part).map_err(|_| Stop::Decline)?;
     // The smallest cell, `<c><v>1</v></c>`, takes 15 bytes of XML.
     let most_cells = entry.size() / 15;
@@ -814,7 +838,7 @@ pub(crate) fn read_sheet(
             inner: entry,
             left: max_entry_bytes,
         };
-        return read_cells(Scanner::new(limited), &parts, most_cells, builder);
+        return read_cells(Scanner::new(limited), parts, most_cells, builder);
     }
     drop(entry);
     // A large part is inflated on a second thread while this one parses.
@@ -866,7 +890,7 @@ pub(crate) fn read_sheet(
             at: 0,
             ended: false,
         };
-        let outcome = read_cells(Scanner::new(reader), &parts, most_cells, builder);
+        let outcome = read_cells(Scanner::new(reader), parts, most_cells, builder);
         if inflater.join().is_err() {
             return Err(Stop::Decline);
         }
@@ -946,6 +970,11 @@ enum Value {
     Inline,
     Bool(bool),
     Error(String),
+    /// A cell whose content does not fit its type (text in a number cell, a
+    /// shared-text index past the table, an unknown type): what it holds,
+    /// kept as an unreadable cell at its address rather than refusing the
+    /// whole sheet.
+    Damaged(String),
 }
 
 /// A cell's `t` attribute.
@@ -1151,6 +1180,7 @@ fn read_cells<R: Read>(
                         CellValue::Text(builder.intern(&text))
                     }
                     Value::Error(text) => CellValue::Error(builder.intern(&text)),
+                    Value::Damaged(what) => CellValue::Error(builder.intern(&what)),
                 };
                 if !builder.push(row, col, cell) {
                     return Err(Stop::TooManyCells);
@@ -1221,31 +1251,52 @@ fn read_v<R: Read>(
             scanner.read_text_content(b"v", text)?;
             Ok(Value::Date(f64::NAN))
         }
-        Kind::Unknown => Err(Stop::Decline),
+        Kind::Unknown => {
+            text.clear();
+            scanner.read_text_content(b"v", text)?;
+            Ok(Value::Damaged(format!(
+                "a cell of a type this reader does not know, holding {}",
+                shown(text)
+            )))
+        }
     }
+}
+
+/// Cell content as quoted in an unreadable cell's description (at most 40 characters).
+fn shown(content: &str) -> String {
+    let mut quoted: String = content.chars().take(40).collect();
+    if quoted.len() < content.len() {
+        quoted.push('…');
+    }
+    format!("\"{quoted}\"")
 }
 
 /// The value of a `<v>` holding plain text, for the types that hold no markup.
 fn plain_value(bytes: &[u8], kind: Kind, date_style: bool, parts: &WorkbookParts) -> Outcome<Value> {
-    if bytes.contains(&b'&') {
+    if bytes.contains(&b'&') && kind == Kind::Unstated {
+        // Text with character references: calamine decodes them.
         return Err(Stop::Decline);
     }
+    let raw = || shown(&String::from_utf8_lossy(bytes));
     match kind {
         Kind::Shared => {
             if bytes.is_empty() {
                 return Ok(Value::Empty);
             }
-            let index = parse_index(bytes).ok_or(Stop::Decline)?;
-            if index >= parts.strings.len() {
-                return Err(Stop::Decline);
+            match parse_index(bytes) {
+                Some(index) if index < parts.strings.len() => Ok(Value::Shared(index)),
+                _ => Ok(Value::Damaged(format!(
+                    "a shared-text cell pointing to entry {} of a table of {}",
+                    raw(),
+                    parts.strings.len()
+                ))),
             }
-            Ok(Value::Shared(index))
         }
         Kind::Bool => match bytes_str(bytes)?.trim() {
             "" => Ok(Value::Empty),
             flag if flag == "0" || flag.eq_ignore_ascii_case("false") => Ok(Value::Bool(false)),
             flag if flag == "1" || flag.eq_ignore_ascii_case("true") => Ok(Value::Bool(true)),
-            _ => Err(Stop::Decline),
+            _ => Ok(Value::Damaged(format!("a TRUE/FALSE cell holding {}", raw()))),
         },
         Kind::Error => {
             let text = bytes_str(bytes)?.trim();
@@ -1255,7 +1306,7 @@ fn plain_value(bytes: &[u8], kind: Kind, date_style: bool, parts: &WorkbookParts
                 // #UNKNOWN!, #GETTING_DATA, ...) that calamine does not know
                 // are error cells at their address all the same.
                 Err(_) if is_error_value_text(text) => Ok(Value::Error(text.to_string())),
-                Err(_) => Err(Stop::Decline),
+                Err(_) => Ok(Value::Damaged(format!("an error cell holding {}", raw()))),
             }
         }
         _ => {
@@ -1266,7 +1317,7 @@ fn plain_value(bytes: &[u8], kind: Kind, date_style: bool, parts: &WorkbookParts
                 Ok(number) if date_style => Ok(Value::Date(number)),
                 Ok(number) => Ok(Value::Number(number)),
                 Err(_) if kind == Kind::Unstated => Ok(Value::Text(bytes_str(bytes)?.to_string())),
-                Err(_) => Err(Stop::Decline),
+                Err(_) => Ok(Value::Damaged(format!("a number cell holding {}", raw()))),
             }
         }
     }

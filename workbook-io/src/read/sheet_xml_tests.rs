@@ -6,7 +6,7 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use super::{open_workbook, sheet_xml, GridBuilder, ReadLimits, SheetGrid};
-use crate::cell::CellValue;
+use crate::cell::{CellPos, CellValue};
 
 /// Both readers' grids of every sheet, asserting the direct one did not decline.
 fn compare_all(path: &Path) -> usize {
@@ -15,7 +15,8 @@ fn compare_all(path: &Path) -> usize {
     let mut cells = 0;
     for name in names {
         let mut builder = GridBuilder::new(&name, None, u64::MAX);
-        let direct = sheet_xml::read_sheet(path, &name, u64::MAX, &mut builder);
+        let direct = sheet_xml::DirectBook::open(path, u64::MAX)
+            .and_then(|mut book| sheet_xml::read_sheet(&mut book, &name, u64::MAX, &mut builder));
         assert!(
             direct.is_ok(),
             "{}: the direct reader declined sheet '{name}'",
@@ -199,10 +200,6 @@ fn unusual_forms_fall_back_to_calamine() {
     let cases = [
         // An escape of the format's own kind, left to calamine.
         r#"<row r="1"><c r="A1" t="str"><v>a_x0041_b</v></c></row>"#,
-        // An unknown type.
-        r#"<row r="1"><c r="A1" t="zz"><v>1</v></c></row>"#,
-        // A shared string index past the table.
-        r#"<row r="1"><c r="A1" t="s"><v>99</v></c></row>"#,
         // A malformed reference.
         r#"<row r="1"><c r="1A"><v>1</v></c></row>"#,
     ];
@@ -215,7 +212,12 @@ fn unusual_forms_fall_back_to_calamine() {
         let mut builder = GridBuilder::new("Data", None, u64::MAX);
         assert!(
             matches!(
-                sheet_xml::read_sheet(&path, "Data", u64::MAX, &mut builder),
+                sheet_xml::DirectBook::open(&path, u64::MAX).and_then(|mut book| sheet_xml::read_sheet(
+                    &mut book,
+                    "Data",
+                    u64::MAX,
+                    &mut builder
+                )),
                 Err(sheet_xml::Stop::Decline)
             ),
             "case {index} declines"
@@ -314,4 +316,48 @@ fn summary_functions_are_told_from_record_formulas() {
     assert_eq!(summary_function(b"ROUND(B2*1.8+32,1)"), None);
     assert_eq!(summary_function(b"SUMPRODUCT(B2:B9,C2:C9)"), None);
     assert_eq!(summary_function(b""), None);
+}
+
+#[test]
+fn cells_that_do_not_fit_their_type_are_unreadable_cells_at_their_address() {
+    let folder = tempfile::tempdir().expect("temporary folder");
+    let cells = [
+        (r#"<c r="B2" t="n"><v>12,5</v></c>"#, "a number cell holding \"12,5\""),
+        (
+            r#"<c r="B3" t="zz"><v>7</v></c>"#,
+            "a type this reader does not know, holding \"7\"",
+        ),
+        (r#"<c r="B4" t="s"><v>99</v></c>"#, "entry \"99\" of a table of"),
+        (
+            r#"<c r="B5" t="b"><v>maybe</v></c>"#,
+            "a TRUE/FALSE cell holding \"maybe\"",
+        ),
+        (r#"<c r="B6" t="e"><v>oops</v></c>"#, "an error cell holding \"oops\""),
+        (r#"<c r="B7"><v>3.5</v></c>"#, ""),
+    ];
+    let rows: String = cells
+        .iter()
+        .enumerate()
+        .map(|(index, (cell, _))| format!(r#"<row r="{}">{cell}</row>"#, index + 2))
+        .collect();
+    let sheet = format!(
+        r#"<?xml version="1.0"?><worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData>{rows}</sheetData></worksheet>"#
+    );
+    let path = folder.path().join("odd-cells.xlsx");
+    handmade(&path, &sheet, SHARED, STYLES);
+    let mut workbook = open_workbook(&path, &ReadLimits::default()).expect("opens");
+    let grid = workbook.read_sheet("Data", None).expect("read, not refused");
+    for (index, (_, described)) in cells.iter().enumerate() {
+        let position = CellPos::new(index as u32 + 1, 1);
+        match grid.get(position) {
+            Some(CellValue::Error(text)) => assert!(
+                !described.is_empty() && grid.text(text).contains(described) && !grid.text(text).starts_with('#'),
+                "{}: {}",
+                position.a1(),
+                grid.text(text)
+            ),
+            Some(CellValue::Number(number)) => assert!(described.is_empty() && number == 3.5),
+            other => panic!("{}: {other:?}", position.a1()),
+        }
+    }
 }
