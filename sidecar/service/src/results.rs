@@ -121,6 +121,10 @@ pub struct ResponseResult {
     /// has): the second-order fit's stationary point and its kind, in one sentence.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub second_order: Option<String>,
+    /// The runs of the recommended next trial, for writing its plan
+    /// (`service::plan::next`); not part of the JSON document.
+    #[serde(skip)]
+    pub next_runs: Option<crate::plan::next::NextRuns>,
     /// The outcome.
     #[serde(flatten)]
     pub outcome: ResponseOutcome,
