@@ -416,7 +416,11 @@ pub(crate) fn analyse_loaded(
             }
             None => (one_way_verdict, None),
         };
-        let (second_order, after_surface) = second_order_of(&table, response_index, &settings, direction).unzip();
+        let (second_order, after_surface, surface) = match second_order_of(&table, response_index, &settings, direction)
+        {
+            Some((sentence, next, outcome)) => (Some(sentence), Some(next), Some(Box::new(outcome))),
+            None => (None, None, None),
+        };
         let next_runs = factorial
             .as_ref()
             .and_then(|outcome| next_trial_after_screen(&table, outcome, direction))
@@ -425,6 +429,7 @@ pub(crate) fn analyse_loaded(
             next_trial: next_runs.as_ref().map(|runs| runs.reason.clone()),
             next_runs,
             second_order,
+            surface,
             name: response.name.clone(),
             assessment,
             unit,
@@ -793,7 +798,11 @@ fn second_order_of(
     response_index: usize,
     settings: &Settings,
     direction: Option<engine::options::Direction>,
-) -> Option<(String, crate::plan::next::NextRuns)> {
+) -> Option<(
+    String,
+    crate::plan::next::NextRuns,
+    engine::analysis::surface::SurfaceOutcome,
+)> {
     use engine::analysis::next_trial::recommend_after_surface;
     use engine::analysis::surface::{analyse_surface, coding_from_settings, SurfaceData, SurfaceOptions};
     let response = table.responses.get(response_index)?;
@@ -917,7 +926,7 @@ fn second_order_of(
             };
         }
     }
-    Some((sentence, next))
+    Some((sentence, next, outcome))
 }
 
 /// The sentence on a block of confirmation runs and whether their average fell in the
