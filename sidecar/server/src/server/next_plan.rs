@@ -11,9 +11,12 @@ use crate::from_proto::{self, describe, error, params_object, ParamsError};
 use service::plan::next::{next_plan_path_for, write_next_plan, NextPlanError, NextPlanRequest};
 use service::{AnalysisRequest, CancelFlag};
 
+/// `follow`, `seed` and `date`, as read.
+type NextParams = (Option<String>, Option<u64>, Option<String>);
+
 /// The params beyond those of a workbook request: `follow` (the response whose
 /// recommendation to follow), `seed` and `date`.
-fn next_params(params: &Json) -> std::result::Result<(Option<String>, Option<u64>, Option<String>), ParamsError> {
+fn next_params(params: &Json) -> std::result::Result<NextParams, ParamsError> {
     let map = params_object(params)?;
     let text = |key: &str| -> std::result::Result<Option<String>, ParamsError> {
         match map.get(key) {

@@ -332,7 +332,7 @@ pub fn write_next_plan(
         }
     }
     if let Some(sheet) = book.sheets.iter_mut().find(|sheet| sheet.name == DESIGN_SHEET) {
-        let mut row = sheet.cells.iter().map(|cell| cell.row).max().unwrap_or(0) + 2;
+        let first_row = sheet.cells.iter().map(|cell| cell.row).max().unwrap_or(0) + 2;
         let lines = [
             (
                 "runs already made".to_string(),
@@ -345,10 +345,9 @@ pub fn write_next_plan(
             ("why".to_string(), next.reason.clone()),
             ("followed response".to_string(), response.name.clone()),
         ];
-        for (key, value) in lines {
+        for (row, (key, value)) in (first_row..).zip(lines) {
             sheet.put(row, 0, Value::text(key), Look::Plain);
             sheet.put(row, 1, Value::text(value), Look::Plain);
-            row += 1;
         }
     }
     if next.confirmation {
