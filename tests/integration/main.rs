@@ -24,6 +24,7 @@ mod front_ends;
 mod golden_plan;
 mod hostile;
 mod lsp;
+mod next_plan;
 mod nist;
 mod options;
 mod plan;

@@ -27,6 +27,8 @@ use workbook_io::ReadError;
 use super::documents::{self, DocumentEvent};
 use super::from_proto::{self, ParamsError};
 use super::planning;
+
+mod next_plan;
 use super::to_proto;
 use service::{self, AnalysisRequest, CancelFlag, ServiceError};
 
@@ -47,8 +49,10 @@ pub mod methods {
     pub const PLAN_TRIAL: &str = "trialyst/planTrial";
     /// Power and runs needed for the next trial, as tables to paste.
     pub const SIZE_TRIAL: &str = "trialyst/sizeTrial";
+    /// Writes the recommended next trial as a plan workbook beside the workbook.
+    pub const NEXT_PLAN: &str = "trialyst/nextPlan";
     /// Every one of them.
-    pub const ALL: [&str; 7] = [
+    pub const ALL: [&str; 8] = [
         INSPECT_WORKBOOK,
         ANALYSE_WORKBOOK,
         ANALYSE_CELLS,
@@ -56,6 +60,7 @@ pub mod methods {
         INSPECT_CELLS,
         PLAN_TRIAL,
         SIZE_TRIAL,
+        NEXT_PLAN,
     ];
 }
 
@@ -137,7 +142,8 @@ pub fn build_service(
     .custom_method(methods::WRITE_RESULTS, Backend::write_results)
     .custom_method(methods::INSPECT_CELLS, Backend::inspect_cells)
     .custom_method(methods::PLAN_TRIAL, Backend::plan_trial)
-    .custom_method(methods::SIZE_TRIAL, Backend::size_trial);
+    .custom_method(methods::SIZE_TRIAL, Backend::size_trial)
+    .custom_method(methods::NEXT_PLAN, Backend::next_plan);
     #[cfg(test)]
     let builder = if with_panic_method {
         builder.custom_method("test/panic", Backend::panic_for_test)

@@ -266,7 +266,11 @@ async fn lifecycle_and_exit_codes() {
     assert_eq!(answer["result"]["serverInfo"]["name"], "trialyst");
     assert_eq!(answer["result"]["serverInfo"]["version"], service::TOOL_VERSION);
     let ours = &answer["result"]["capabilities"]["experimental"]["trialyst"];
-    assert_eq!(ours["requests"].as_array().map(Vec::len), Some(7), "{answer}");
+    assert_eq!(
+        ours["requests"].as_array().map(Vec::len),
+        Some(super::server::methods::ALL.len()),
+        "{answer}"
+    );
     assert_eq!(ours["resultsFormatVersion"], service::RESULTS_FORMAT_VERSION);
     // JSON-RPC 2.0, section 5.1: -32601 method not found.
     let unknown = client.request("trialyst/noSuchThing", json!({})).await;

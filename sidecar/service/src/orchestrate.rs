@@ -181,7 +181,11 @@ pub fn conditions_of(table: &TrialTable) -> (String, Vec<String>, Vec<u32>) {
     (name, names, groups)
 }
 
-fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<WorkbookResults, ServiceError> {
+pub(crate) fn analyse_loaded(
+    path: &Path,
+    loaded: Loaded,
+    cancel: &CancelFlag,
+) -> Result<WorkbookResults, ServiceError> {
     let Loaded {
         source,
         mut table,
@@ -414,14 +418,20 @@ fn analyse_loaded(path: &Path, loaded: Loaded, cancel: &CancelFlag) -> Result<Wo
             }
             None => (one_way_verdict, None),
         };
-        let (second_order, after_surface) = second_order_of(&table, response_index, &settings, direction).unzip();
-        let next_trial = factorial
+        let (second_order, after_surface, surface) = match second_order_of(&table, response_index, &settings, direction)
+        {
+            Some((sentence, next, outcome)) => (Some(sentence), Some(next), Some(Box::new(outcome))),
+            None => (None, None, None),
+        };
+        let next_runs = factorial
             .as_ref()
             .and_then(|outcome| next_trial_after_screen(&table, outcome, direction))
             .or(after_surface);
         responses.push(ResponseResult {
-            next_trial,
+            next_trial: next_runs.as_ref().map(|runs| runs.reason.clone()),
+            next_runs,
             second_order,
+            surface,
             name: response.name.clone(),
             assessment,
             unit,
@@ -707,7 +717,7 @@ fn next_trial_after_screen(
     table: &TrialTable,
     outcome: &engine::analysis::factorial::FactorialOutcome,
     direction: Option<engine::options::Direction>,
-) -> Option<String> {
+) -> Option<crate::plan::next::NextRuns> {
     use engine::analysis::next_trial::{recommend_after_screen, ScreenEffect, ScreenSummary};
     use engine::design::surface::SurfaceFactor;
     use engine::stats::two_level::{DefiningRelation, Word};
@@ -772,7 +782,11 @@ fn next_trial_after_screen(
         direction,
         alpha: 1.0 - outcome.confidence,
     };
-    Some(recommend_after_screen(&summary).reason)
+    let names: Vec<String> = summary.factors.iter().map(|factor| factor.name.clone()).collect();
+    Some(crate::plan::next::NextRuns::new(
+        names,
+        &recommend_after_screen(&summary),
+    ))
 }
 
 /// The second-order analysis of a response-surface trial, in two sentences: the
@@ -786,7 +800,11 @@ fn second_order_of(
     response_index: usize,
     settings: &Settings,
     direction: Option<engine::options::Direction>,
-) -> Option<(String, String)> {
+) -> Option<(
+    String,
+    crate::plan::next::NextRuns,
+    engine::analysis::surface::SurfaceOutcome,
+)> {
     use engine::analysis::next_trial::recommend_after_surface;
     use engine::analysis::surface::{analyse_surface, coding_from_settings, SurfaceData, SurfaceOptions};
     let response = table.responses.get(response_index)?;
@@ -797,15 +815,14 @@ fn second_order_of(
     let numbers: Vec<Vec<f64>> = treatments
         .iter()
         .map(|factor| {
-            let levels: Vec<f64> = factor
+            factor
                 .levels
                 .iter()
                 .map(|label| label.trim().parse::<f64>().ok().filter(|value| value.is_finite()))
-                .collect::<Option<_>>()?;
-            matches!(levels.len(), 3 | 5).then_some(levels)
+                .collect::<Option<Vec<f64>>>()
         })
         .collect::<Option<_>>()?;
-    let record_settings: Vec<Vec<f64>> = (0..response.values.len())
+    let all_settings: Vec<Vec<f64>> = (0..response.values.len())
         .map(|record| {
             treatments
                 .iter()
@@ -814,6 +831,25 @@ fn second_order_of(
                 .collect()
         })
         .collect();
+    // Records of the confirmation block (named by the setting) are left out of the fit
+    // and judged against the interval it predicts for them.
+    let record_blocks = crate::plan::next::record_blocks(table);
+    let has_block_column = table.factors.iter().any(|factor| factor.is_block);
+    let confirming: Vec<bool> = record_blocks
+        .iter()
+        .map(|&block| has_block_column && settings.confirmation_block == Some(block))
+        .collect();
+    let kept: Vec<usize> = (0..all_settings.len()).filter(|&record| !confirming[record]).collect();
+    let record_settings: Vec<Vec<f64>> = kept.iter().map(|&record| all_settings[record].clone()).collect();
+    let distinct_ok = (0..treatments.len()).all(|column| {
+        let mut values: Vec<f64> = record_settings.iter().map(|row| row[column]).collect();
+        values.sort_by(f64::total_cmp);
+        values.dedup();
+        matches!(values.len(), 3 | 5)
+    });
+    if !distinct_ok {
+        return None;
+    }
     let coding: Vec<(f64, f64)> = (0..treatments.len())
         .map(|column| {
             let values: Vec<f64> = record_settings.iter().map(|row| row[column]).collect();
@@ -828,18 +864,27 @@ fn second_order_of(
     if !has_centre {
         return None;
     }
-    let blocks = table
-        .factors
-        .iter()
-        .find(|factor| factor.is_block)
-        .map(|block| block.level_of_record.iter().map(|&level| level as usize).collect())
-        .unwrap_or_default();
+    let blocks = if has_block_column {
+        // Blocks numbered from 0 without gaps among the records kept.
+        let mut seen: Vec<usize> = kept.iter().map(|&record| record_blocks[record]).collect();
+        seen.sort_unstable();
+        seen.dedup();
+        kept.iter()
+            .map(|&record| {
+                seen.iter()
+                    .position(|&block| block == record_blocks[record])
+                    .unwrap_or(0)
+            })
+            .collect()
+    } else {
+        Vec::new()
+    };
     let data = SurfaceData {
         factor_names: treatments.iter().map(|factor| factor.name.clone()).collect(),
         coding,
         settings: record_settings,
         blocks,
-        values: response.values.clone(),
+        values: kept.iter().map(|&record| response.values[record]).collect(),
     };
     let options = SurfaceOptions {
         confidence: settings.confidence_level(),
@@ -847,7 +892,7 @@ fn second_order_of(
     };
     let outcome = analyse_surface(&data, &options).ok()?;
     let point = outcome.stationary.as_ref()?;
-    let sentence = format!(
+    let mut sentence = format!(
         "The second-order fit (R² {:.3}) has its stationary point, {}, at {}, predicted {:.4}, {} the region of the runs.",
         outcome.r_squared,
         point.kind.words(),
@@ -861,7 +906,79 @@ fn second_order_of(
         point.predicted,
         if point.inside_region { "inside" } else { "outside" }
     );
-    Some((sentence, recommend_after_surface(&outcome).reason))
+    let mut next = crate::plan::next::NextRuns::new(outcome.factor_names.clone(), &recommend_after_surface(&outcome));
+    if let Some(block) = settings.confirmation_block.filter(|_| confirming.contains(&true)) {
+        let confirmation: Vec<usize> = (0..all_settings.len()).filter(|&record| confirming[record]).collect();
+        let values: Vec<f64> = confirmation.iter().map(|&record| response.values[record]).collect();
+        let (judged, inside) = judge_confirmation_block(&outcome, &all_settings, &confirmation, &values, block);
+        sentence.push(' ');
+        sentence.push_str(&judged);
+        if let Some(inside) = inside {
+            next = crate::plan::next::NextRuns {
+                step: "nothing",
+                reason: if inside {
+                    "The confirmation runs fell inside the interval predicted for them: the settings are confirmed; no further trial is needed for this response.".into()
+                } else {
+                    "The confirmation runs fell outside the interval predicted for them: the fitted surface does not hold at these settings; look for what changed (material, equipment, a factor not in the model) before trusting it.".into()
+                },
+                factors: outcome.factor_names.clone(),
+                runs: Vec::new(),
+                copies: 0,
+                confirmation: false,
+            };
+        }
+    }
+    Some((sentence, next, outcome))
+}
+
+/// The sentence on a block of confirmation runs and whether their average fell in the
+/// interval the fit predicts for the mean of that many runs at their settings
+/// (`None` when it could not be judged).
+fn judge_confirmation_block(
+    outcome: &engine::analysis::surface::SurfaceOutcome,
+    all_settings: &[Vec<f64>],
+    confirmation: &[usize],
+    values: &[f64],
+    block: usize,
+) -> (String, Option<bool>) {
+    use engine::analysis::next_trial::{judge_confirmation, Confirmation};
+    let first = &all_settings[confirmation[0]];
+    if confirmation.iter().any(|&record| &all_settings[record] != first) {
+        return (
+            format!(
+                "The confirmation runs of block {block} were not all made at one setting, so they were not judged."
+            ),
+            None,
+        );
+    }
+    let usable = values.iter().filter(|value| value.is_finite()).count();
+    let Some(prediction) = outcome.predict(first).filter(|_| usable > 0) else {
+        return (
+            format!("The confirmation runs of block {block} have no result yet, or the fit has no error estimate to judge them by."),
+            None,
+        );
+    };
+    let sigma = outcome.residual_sd.unwrap_or(0.0);
+    // The interval of the mean of `usable` new runs: t · sqrt(s²/m + se(mean)²).
+    let half_new = (prediction.new_run_high - prediction.predicted)
+        / (sigma * sigma + prediction.se_mean * prediction.se_mean).sqrt();
+    let half = half_new * (sigma * sigma / usable as f64 + prediction.se_mean * prediction.se_mean).sqrt();
+    let plan = Confirmation {
+        real: first.clone(),
+        runs: usable,
+        predicted: prediction.predicted,
+        low: prediction.predicted - half,
+        high: prediction.predicted + half,
+        confidence: prediction.confidence,
+    };
+    let (inside, words) = judge_confirmation(&plan, values);
+    (
+        format!(
+            "Confirmation (block {block}, {usable} runs, {:.0}% interval): {words}.",
+            100.0 * plan.confidence
+        ),
+        Some(inside),
+    )
 }
 
 /// A setting to four significant figures, for a sentence.

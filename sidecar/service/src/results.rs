@@ -121,6 +121,15 @@ pub struct ResponseResult {
     /// has): the second-order fit's stationary point and its kind, in one sentence.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub second_order: Option<String>,
+    /// The second-order analysis itself (coefficients, ANOVA parts, lack of fit,
+    /// stationary point and canonical analysis, ridge path, the recommended settings'
+    /// prediction), when `second_order` is present.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub surface: Option<Box<engine::analysis::surface::SurfaceOutcome>>,
+    /// The runs of the recommended next trial, for writing its plan
+    /// (`service::plan::next`); not part of the JSON document.
+    #[serde(skip)]
+    pub next_runs: Option<crate::plan::next::NextRuns>,
     /// The outcome.
     #[serde(flatten)]
     pub outcome: ResponseOutcome,

@@ -57,6 +57,10 @@ pub struct Settings {
     pub plan_seed: Option<u64>,
     /// The number of runs in the plan.
     pub plan_runs: Option<usize>,
+    /// The block holding confirmation runs (written by the next plan): left out of
+    /// the second-order fit and judged against the interval predicted for them.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub confirmation_block: Option<usize>,
 }
 
 /// The direction of one named response.
@@ -180,6 +184,7 @@ pub const KNOWN_KEYS: &[&str] = &[
     "plan id",
     "plan seed",
     "plan runs",
+    "confirmation block",
 ];
 
 fn list(value: &str) -> Vec<String> {
@@ -331,6 +336,10 @@ impl Settings {
                     Ok(runs) if runs > 0 => settings.plan_runs = Some(runs),
                     _ => errors.push(bad("a whole number of runs, at least 1")),
                 },
+                "confirmation block" => match value.parse::<usize>() {
+                    Ok(block) if block > 0 => settings.confirmation_block = Some(block),
+                    _ => errors.push(bad("the number of the block of confirmation runs, at least 1")),
+                },
                 _ => errors.push(SettingsError::UnknownKey {
                     place: place.clone(),
                     key,
@@ -385,6 +394,7 @@ impl Settings {
             plan_id: pick(self.plan_id, &lower.plan_id),
             plan_seed: pick(self.plan_seed, &lower.plan_seed),
             plan_runs: pick(self.plan_runs, &lower.plan_runs),
+            confirmation_block: pick(self.confirmation_block, &lower.confirmation_block),
         }
     }
 

@@ -7,6 +7,7 @@
 
 pub mod args;
 mod inspect;
+mod next;
 mod plan;
 mod run;
 mod serve;
@@ -49,6 +50,8 @@ pub enum Command {
     Plan(PlanArgs),
     /// Power and sample size for the next trial.
     Size(SizeArgs),
+    /// Write the recommended next trial as a plan workbook holding the runs already made.
+    Next(next::NextArgs),
     /// Watch a folder: analyse each workbook dropped into it, once per content.
     Watch(WatchArgs),
     /// The watcher's isolated worker (not for direct use).
@@ -70,6 +73,7 @@ pub fn main_with(cli: Cli) -> i32 {
         Command::AnalyseOne(args) => watch::analyse_one_command(&args),
         Command::Plan(args) => plan::plan_command(args),
         Command::Size(args) => size::size_command(args),
+        Command::Next(args) => next::next_command(args),
         Command::Serve(args) => serve::serve_command(&args),
     }
 }

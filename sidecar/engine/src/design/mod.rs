@@ -7,6 +7,7 @@
 //! plan.
 
 pub mod random;
+pub mod sequence;
 pub mod surface;
 
 use std::fmt;
@@ -193,6 +194,9 @@ pub enum DesignKind {
     CentralComposite,
     /// A Box-Behnken plan.
     BoxBehnken,
+    /// A sequence of trials: the runs already made, in their blocks, and the
+    /// next trial's runs as a block after them ([`sequence::plan_from_sequence`]).
+    Sequence,
 }
 
 impl fmt::Display for DesignKind {
@@ -203,6 +207,7 @@ impl fmt::Display for DesignKind {
             DesignKind::TwoLevelFraction => "two-level fraction",
             DesignKind::CentralComposite => "central composite plan",
             DesignKind::BoxBehnken => "Box-Behnken plan",
+            DesignKind::Sequence => "sequence of trials",
         })
     }
 }
@@ -320,6 +325,22 @@ impl Plan {
     pub fn definition_text(&self) -> String {
         let kind = match self.kind {
             DesignKind::CentralComposite | DesignKind::BoxBehnken => format!("\ndesign {}", self.kind),
+            // The runs of a sequence are not derived from its definition: they are part of it.
+            DesignKind::Sequence => {
+                let mut text = format!("\ndesign {}", self.kind);
+                for run in &self.runs {
+                    let settings: Vec<String> = (0..self.factors.len())
+                        .map(|factor| self.setting_text(factor, run.settings[factor]))
+                        .collect();
+                    text.push_str(&format!(
+                        "\nrun {} block {} = {}",
+                        run.run_order,
+                        run.block,
+                        settings.join(" | ")
+                    ));
+                }
+                text
+            }
             _ => String::new(),
         };
         definition_text(
@@ -937,7 +958,7 @@ pub fn make_plan(request: &PlanRequest) -> Result<Plan, PlanError> {
 }
 
 /// A plan's id: `TP-` and the first five bytes of the SHA-256 of its definition text.
-fn plan_id(plan: &Plan) -> String {
+pub(crate) fn plan_id(plan: &Plan) -> String {
     let digest = Sha256::digest(plan.definition_text().as_bytes());
     format!(
         "TP-{}",

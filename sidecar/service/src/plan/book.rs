@@ -243,6 +243,12 @@ fn design_sheet(plan: &Plan) -> Sheet {
             "aliases".into(),
             "none among the terms of a second-order model: each factor's straight-line and curved terms and every two-factor interaction can be estimated on its own".into(),
         ));
+    } else if plan.kind == DesignKind::Sequence {
+        rows.push((
+            "aliases".into(),
+            "the runs already made and the new block are analysed as one trial: see the results of the filled plan"
+                .into(),
+        ));
     } else if plan.kind == DesignKind::OneFactor || plan.fraction.is_none() {
         rows.push((
             "aliases".into(),

@@ -14,6 +14,7 @@
 pub mod book;
 pub mod check;
 pub mod file;
+pub mod next;
 pub mod size;
 
 use std::path::Path;

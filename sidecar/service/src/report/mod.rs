@@ -13,6 +13,7 @@ pub mod document;
 pub mod factorial;
 pub mod problems;
 pub mod rollup;
+pub mod surface;
 
 use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
 
@@ -610,6 +611,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     book.sheets.extend(take(assessment::names::CHECKS));
     book.sheets.extend(take(assessment::names::OTHER));
     factorial::add_factorial_results(results, &mut book);
+    surface::add_surface_results(results, &mut book);
     book.sheets.push(findings_sheet(&results.findings));
     book.sheets.push(provenance_sheet(results));
     book.sheets.push(document::document_sheet(results));
