@@ -418,6 +418,7 @@ mod tests {
             }],
             anchor: (26, 0),
             size: (400, 300),
+            value_limits: None,
         });
         let print = plan_sheet(&sheet);
         // 25 rows of 15 pt and a 225-pt chart do not fit one landscape page at 100%

@@ -855,7 +855,10 @@ mod tests {
             "{headline}"
         );
         assert!(!headline.contains("by -"), "{headline}");
-        let best = reading.best_settings.as_deref().expect("best settings with a direction");
+        let best = reading
+            .best_settings
+            .as_deref()
+            .expect("best settings with a direction");
         assert!(best.contains("Temperature 180"), "{best}");
     }
 }

@@ -441,6 +441,7 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
                 }],
                 anchor: (chart_row, chart_col),
                 size: (420, 280),
+                value_limits: None,
             });
             chart_row += CHART_ROWS;
         }
@@ -502,6 +503,7 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
                 series,
                 anchor: (chart_row, chart_col),
                 size: (460, 300),
+                value_limits: None,
             });
             chart_row += CHART_ROWS + 2;
         }
@@ -762,6 +764,7 @@ fn two_level_effects(
             }],
             anchor: (*chart_row, chart_col),
             size: (480, 320),
+            value_limits: None,
         });
         *chart_row += CHART_ROWS + 2;
         *row += 1;

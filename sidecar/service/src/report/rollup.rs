@@ -338,6 +338,7 @@ pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book 
         }],
         anchor: (1, 3),
         size: (560, 320),
+        value_limits: None,
     });
     Book {
         sheets: vec![rows_sheet, verdicts],
