@@ -27,8 +27,6 @@ pub mod names {
 
 /// Interaction and main-effect charts per response, at most.
 const MAX_CHARTS_PER_KIND: usize = 4;
-/// Rows a chart takes on its sheet.
-const CHART_ROWS: u32 = 16;
 
 fn optional(value: Option<f64>, format: NumberFormat) -> Value {
     match value {
@@ -388,9 +386,9 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
     let Some(model) = &outcome.model else {
         return;
     };
-    let start = *row;
-    let chart_col: u16 = 8;
-    let mut chart_row = start;
+    // The charts go under the tables, in page regions of their own, so that none is
+    // cut by a page break or pushes the tables onto a second page across.
+    let mut charts: Vec<ChartSpec> = Vec::new();
     sheet.put(*row, 0, Value::text(format!("{}: means", response.name)), Look::Heading);
     *row += 1;
     let low = format!("{} low", percent(outcome.confidence));
@@ -426,7 +424,7 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
             .any(|factor| factor.is_block && factor.name == factor_means.factor);
         if position < 2 * MAX_CHARTS_PER_KIND && !is_block {
             let has_bars = factor_means.means.iter().all(|line| line.low.is_some());
-            sheet.charts.push(ChartSpec {
+            charts.push(ChartSpec {
                 kind: ChartKind::Lines,
                 title: format!("{}: main effect of {}", response.name, factor_means.factor),
                 x_title: factor_means.factor.clone(),
@@ -439,11 +437,10 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
                     bar_minus: has_bars.then(|| SheetRange::column(names::MEANS, 5, first_data, last_data)),
                     labels: None,
                 }],
-                anchor: (chart_row, chart_col),
+                anchor: (0, 0),
                 size: (420, 280),
                 value_limits: None,
             });
-            chart_row += CHART_ROWS;
         }
         *row += 1;
     }
@@ -495,17 +492,16 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
                 })
                 .collect();
             let _ = header_row;
-            sheet.charts.push(ChartSpec {
+            charts.push(ChartSpec {
                 kind: ChartKind::Lines,
                 title: format!("{}: {} × {}", response.name, table.x_factor, table.trace_factor),
                 x_title: table.x_factor.clone(),
                 y_title: format!("model mean of {}", response.name),
                 series,
-                anchor: (chart_row, chart_col),
+                anchor: (0, 0),
                 size: (460, 300),
                 value_limits: None,
             });
-            chart_row += CHART_ROWS + 2;
         }
         *row += 1;
     }
@@ -534,15 +530,14 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
         })
         .collect();
     *row = sheet.table(*row, 0, &header_refs, table_rows) + 1;
-    *row = (*row).max(chart_row) + 1;
+    *row = sheet.place_charts_on_pages(*row, charts);
 }
 
 fn effects_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, outcome: &FactorialOutcome) {
     let low = format!("{} low", percent(outcome.confidence));
     let high = format!("{} high", percent(outcome.confidence));
-    let start = *row;
-    let mut chart_row = start;
-    let chart_col: u16 = 13;
+    // The effect plots go under the tables, each pair in a page region of its own.
+    let mut charts: Vec<ChartSpec> = Vec::new();
     sheet.put(
         *row,
         0,
@@ -551,22 +546,12 @@ fn effects_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, 
     );
     *row += 1;
     if let Some(two) = &outcome.two_level {
-        two_level_effects(
-            sheet,
-            row,
-            &mut chart_row,
-            chart_col,
-            response,
-            outcome,
-            two,
-            &low,
-            &high,
-        );
+        two_level_effects(sheet, row, &mut charts, response, outcome, two, &low, &high);
     }
     if let Some(model) = &outcome.model {
         k_way_effects(sheet, row, model, &low, &high);
     }
-    *row = (*row).max(chart_row) + 1;
+    *row = sheet.place_charts_on_pages(*row, charts);
 }
 
 fn k_way_effects(sheet: &mut Sheet, row: &mut u32, model: &KWayModel, low: &str, high: &str) {
@@ -600,8 +585,7 @@ fn k_way_effects(sheet: &mut Sheet, row: &mut u32, model: &KWayModel, low: &str,
 fn two_level_effects(
     sheet: &mut Sheet,
     row: &mut u32,
-    chart_row: &mut u32,
-    chart_col: u16,
+    charts: &mut Vec<ChartSpec>,
     response: &ResponseResult,
     outcome: &FactorialOutcome,
     two: &TwoLevelOutcome,
@@ -749,7 +733,7 @@ fn two_level_effects(
             .collect();
         *row = sheet.table(*row, 0, &["estimate", x_title, "normal quantile"], table_rows);
         let last_data = *row - 1;
-        sheet.charts.push(ChartSpec {
+        charts.push(ChartSpec {
             kind: ChartKind::Scatter,
             title: chart_title,
             x_title: x_title.to_string(),
@@ -762,11 +746,10 @@ fn two_level_effects(
                 bar_minus: None,
                 labels: Some(SheetRange::column(names::EFFECTS, 0, first_data, last_data)),
             }],
-            anchor: (*chart_row, chart_col),
+            anchor: (0, 0),
             size: (480, 320),
             value_limits: None,
         });
-        *chart_row += CHART_ROWS + 2;
         *row += 1;
     }
     let _ = outcome;
