@@ -569,6 +569,7 @@ impl Looks {
             link: Format::new()
                 .set_font_color(Color::RGB(0x0563C1))
                 .set_underline(rust_xlsxwriter::FormatUnderline::Single)
+                .set_text_wrap()
                 .set_align(FormatAlign::Top),
         }
     }
