@@ -110,7 +110,24 @@ if [ ${#workbooks[@]} -eq 0 ]; then
     exit 1
 fi
 
-# 3. Convert each workbook on its own, with its own time limit, in a private profile.
+# 3. The print checks must fail on a workbook that prints badly (a chart cut by a
+# page break the setup did not plan), or they prove nothing.
+profile_check="$(mktemp -d -t trialyst-office-selfcheck-XXXXXX)"
+python3 tests/render/make_cut_chart.py "$profile_check/cut-chart.xlsx"
+python3 tests/render/set_paper.py "$profile_check/cut-chart.xlsx" "$profile_check/cut-chart-A4.xlsx" A4
+timeout "$timeout_seconds" soffice --headless --norestore --nolockcheck \
+    "-env:UserInstallation=file://$profile_check/profile" \
+    --convert-to pdf --outdir "$profile_check" "$profile_check/cut-chart-A4.xlsx" >>"$log" 2>&1
+if python3 tests/render/pdf_print_check.py "$profile_check/cut-chart-A4.xlsx" "$profile_check/cut-chart-A4.pdf" A4 \
+    >"$out/self-check.txt" 2>&1 || ! grep -q "cut by a page break" "$out/self-check.txt"; then
+    echo "check-in-office: the print checks did not find the cut chart of the badly laid-out workbook; see $out/self-check.txt" >&2
+    rm -rf "$profile_check"
+    exit 1
+fi
+rm -rf "$profile_check"
+echo "check-in-office: the print checks find a chart cut by a page break (self-check)"
+
+# 4. Convert each workbook on its own, with its own time limit, in a private profile.
 profile="$(mktemp -d -t trialyst-office-profile-XXXXXX)"
 trap 'rm -rf "$demo" "$profile"' EXIT
 # Words that mean the application had trouble; its one normal line,

@@ -41,6 +41,13 @@ def attribute(tag, name):
     return html.unescape(match.group(1)) if match else None
 
 
+def part_path(target):
+    """A relationship target (relative "../x", absolute "/xl/x" or plain "x") as a
+    path inside the package."""
+    target = target.replace("../", "").lstrip("/")
+    return target if target.startswith("xl/") else "xl/" + target
+
+
 def sheets_of(book):
     """(name, hidden, sheet xml, [chart xml]) of each sheet, in order."""
     workbook = book.read("xl/workbook.xml").decode()
@@ -53,18 +60,18 @@ def sheets_of(book):
     found = []
     for tag in re.findall(r"<sheet\b[^>]*>", workbook):
         target = targets.get(attribute(tag, "r:id"), "")
-        path = "xl/" + target.lstrip("/").removeprefix("xl/")
+        path = part_path(target)
         xml = book.read(path).decode()
         charts = []
         sheet_rels = path.replace("worksheets/", "worksheets/_rels/") + ".rels"
         if sheet_rels in names:
             for drawing in re.findall(r'Target="([^"]*drawings/drawing[^"]*)"', book.read(sheet_rels).decode()):
-                drawing_path = "xl/" + drawing.replace("../", "")
+                drawing_path = part_path(drawing)
                 drawing_rels = drawing_path.replace("drawings/", "drawings/_rels/") + ".rels"
                 if drawing_rels not in names:
                     continue
                 for chart in re.findall(r'Target="([^"]*charts/chart[^"]*)"', book.read(drawing_rels).decode()):
-                    charts.append(book.read("xl/" + chart.replace("../", "")).decode())
+                    charts.append(book.read(part_path(chart)).decode())
         found.append((attribute(tag, "name"), attribute(tag, "state") == "hidden", xml, charts))
     return found
 
@@ -72,8 +79,8 @@ def sheets_of(book):
 def chart_titles(chart_xml):
     """The texts of a chart's titles: chart, then axes."""
     titles = []
-    for body in re.findall(r"<c:title>(.*?)</c:title>", chart_xml, re.S):
-        text = "".join(html.unescape(t) for t in re.findall(r"<a:t>(.*?)</a:t>", body, re.S))
+    for body in re.findall(r"<(?:c:)?title\b[^>]*>(.*?)</(?:c:)?title>", chart_xml, re.S):
+        text = "".join(html.unescape(t) for t in re.findall(r"<(?:a:)?t>(.*?)</(?:a:)?t>", body, re.S))
         if text:
             titles.append(text)
     return titles
