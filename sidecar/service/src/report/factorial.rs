@@ -68,22 +68,24 @@ pub fn add_factorial_results(results: &WorkbookResults, book: &mut Book) {
         (6, 12.0),
     ];
     let mut effects = Sheet::new(names::EFFECTS);
+    // Widths that fit one landscape page across at the smallest print scale (about
+    // 155 characters in all), so no column prints on a page of its own.
     effects.widths = vec![
-        (0, 12.0),
-        (1, 28.0),
-        (2, 34.0),
-        (3, 12.0),
-        (4, 12.0),
-        (5, 11.0),
-        (6, 9.0),
-        (7, 10.0),
-        (8, 12.0),
-        (9, 12.0),
+        (0, 16.0),
+        (1, 22.0),
+        (2, 28.0),
+        (3, 11.0),
+        (4, 11.0),
+        (5, 9.0),
+        (6, 7.0),
+        (7, 9.0),
+        (8, 10.0),
+        (9, 10.0),
         (10, 10.0),
-        (11, 9.0),
+        (11, 7.0),
     ];
     let mut aliases = Sheet::new(names::ALIASES);
-    aliases.widths = vec![(0, 26.0), (1, 40.0), (2, 60.0), (3, 18.0), (4, 40.0)];
+    aliases.widths = vec![(0, 14.0), (1, 28.0), (2, 44.0), (3, 12.0), (4, 16.0), (5, 30.0)];
     let mut reduced = Sheet::new(names::REDUCED);
     reduced.widths = vec![(0, 40.0), (1, 14.0), (2, 12.0), (3, 10.0), (4, 11.0)];
     let mut rows = Rows::default();
