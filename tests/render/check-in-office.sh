@@ -6,8 +6,12 @@
 # TRIALYST_KEEP_OUTPUTS), adds the demo (`trialyst run` on sample-workbooks)
 # and two plans, converts each workbook to PDF with LibreOffice headless, and
 # fails on any conversion error, missing or empty PDF, or a message about a
-# damaged file or a repair. The first pages of each PDF are rendered to PNG
-# for a person to look at.
+# damaged file or a repair. Each workbook is printed twice, on A4 and on Letter
+# (tests/render/set_paper.py sets the paper), and each PDF is checked against
+# the workbook's print setup by tests/render/pdf_print_check.py: the paper, the
+# page count the setup promises (one page across, a page per manual break), no
+# type below 8 pt, and every chart's title and axis titles on one page. The first
+# pages of each PDF are rendered to PNG for a person to look at.
 #
 # Usage:
 #   tests/render/check-in-office.sh [--outputs DIR] [--out DIR] [--install]
@@ -46,6 +50,7 @@ pages="${TRIALYST_OFFICE_PAGES:-2}"
 missing=()
 command -v soffice >/dev/null 2>&1 || missing+=(libreoffice-calc)
 command -v pdftoppm >/dev/null 2>&1 || missing+=(poppler-utils)
+command -v python3 >/dev/null 2>&1 || missing+=(python3)
 if [ ${#missing[@]} -gt 0 ]; then
     if [ "$install" -eq 0 ]; then
         echo "check-in-office: missing ${missing[*]} (run without --no-install to install them)" >&2
@@ -105,7 +110,24 @@ if [ ${#workbooks[@]} -eq 0 ]; then
     exit 1
 fi
 
-# 3. Convert each workbook on its own, with its own time limit, in a private profile.
+# 3. The print checks must fail on a workbook that prints badly (a chart cut by a
+# page break the setup did not plan), or they prove nothing.
+profile_check="$(mktemp -d -t trialyst-office-selfcheck-XXXXXX)"
+python3 tests/render/make_cut_chart.py "$profile_check/cut-chart.xlsx"
+python3 tests/render/set_paper.py "$profile_check/cut-chart.xlsx" "$profile_check/cut-chart-A4.xlsx" A4
+timeout "$timeout_seconds" soffice --headless --norestore --nolockcheck \
+    "-env:UserInstallation=file://$profile_check/profile" \
+    --convert-to pdf --outdir "$profile_check" "$profile_check/cut-chart-A4.xlsx" >>"$log" 2>&1
+if python3 tests/render/pdf_print_check.py "$profile_check/cut-chart-A4.xlsx" "$profile_check/cut-chart-A4.pdf" A4 \
+    >"$out/self-check.txt" 2>&1 || ! grep -q "cut by a page break" "$out/self-check.txt"; then
+    echo "check-in-office: the print checks did not find the cut chart of the badly laid-out workbook; see $out/self-check.txt" >&2
+    rm -rf "$profile_check"
+    exit 1
+fi
+rm -rf "$profile_check"
+echo "check-in-office: the print checks find a chart cut by a page break (self-check)"
+
+# 4. Convert each workbook on its own, with its own time limit, in a private profile.
 profile="$(mktemp -d -t trialyst-office-profile-XXXXXX)"
 trap 'rm -rf "$demo" "$profile"' EXIT
 # Words that mean the application had trouble; its one normal line,
@@ -114,8 +136,15 @@ trap 'rm -rf "$demo" "$profile"' EXIT
 alarm="error|corrupt|repair|could not be loaded|general input/output|warning"
 failures=0
 converted=0
-for book in "${workbooks[@]}"; do
-    name="$(basename "$book" .xlsx)"
+papers="$out/papers"
+rm -rf "$papers"
+mkdir -p "$papers"
+for original in "${workbooks[@]}"; do
+  for paper in A4 Letter; do
+    base="$(basename "$original" .xlsx)"
+    name="$base-$paper"
+    book="$papers/$name.xlsx"
+    python3 tests/render/set_paper.py "$original" "$book" "$paper"
     message_file="$out/$name.convert.txt"
     status=0
     timeout "$timeout_seconds" soffice --headless --norestore --nolockcheck \
@@ -143,11 +172,20 @@ for book in "${workbooks[@]}"; do
     rm -f "$message_file"
     page_count="$(pdfinfo "$pdf" | awk '/^Pages:/ {print $2}')"
     pdftoppm -f 1 -l "$pages" -r 70 -png "$pdf" "$pngs/$name"
+    # The printed pages against the print setup: paper, page count, type size, charts whole.
+    if ! python3 tests/render/pdf_print_check.py "$book" "$pdf" "$paper" >"$out/$name.print.txt" 2>&1; then
+        echo "FAILED  $base.xlsx on $paper: $(head -n 1 "$out/$name.print.txt")"
+        cat "$out/$name.print.txt" >>"$log"
+        failures=$((failures + 1))
+        continue
+    fi
+    rm -f "$out/$name.print.txt"
     converted=$((converted + 1))
-    echo "ok      $name.xlsx ($page_count pages)"
+    echo "ok      $base.xlsx on $paper ($page_count pages)"
+  done
 done
 
-echo "check-in-office: $converted of ${#workbooks[@]} workbooks converted; PDFs in $pdfs, first pages as PNG in $pngs"
+echo "check-in-office: $converted of $((2 * ${#workbooks[@]})) printings (A4 and Letter) passed; PDFs in $pdfs, first pages as PNG in $pngs"
 if [ "$failures" -gt 0 ]; then
     echo "check-in-office: $failures workbook(s) failed; messages in $out/*.convert.txt and $log" >&2
     exit 1

@@ -223,6 +223,9 @@ pub struct ChartSpec {
     pub anchor: (u32, u16),
     /// Width and height in pixels.
     pub size: (u32, u32),
+    /// Bounds the value axis never passes, whatever the data (a probability stays
+    /// within 0 and 1); `None` lets the axis follow the data.
+    pub value_limits: Option<(f64, f64)>,
 }
 
 /// One sheet of a book.
@@ -566,6 +569,7 @@ impl Looks {
             link: Format::new()
                 .set_font_color(Color::RGB(0x0563C1))
                 .set_underline(rust_xlsxwriter::FormatUnderline::Single)
+                .set_text_wrap()
                 .set_align(FormatAlign::Top),
         }
     }
@@ -875,7 +879,11 @@ fn build_chart(spec: &ChartSpec, height: u32, cells: &CellLookup<'_>) -> Chart {
             .filter_map(|series| series_extent(series, cells))
             .reduce(|(a, b), (c, d)| (a.min(c), b.max(d)));
         if let Some((low, high)) = extent {
-            let (min, max) = axis_around(low, high);
+            let (mut min, mut max) = axis_around(low, high);
+            if let Some((least, most)) = spec.value_limits {
+                min = min.max(least);
+                max = max.min(most);
+            }
             chart.y_axis().set_min(min).set_max(max);
         }
         if spec.kind == ChartKind::Scatter {
@@ -1186,5 +1194,50 @@ mod tests {
         let grid = workbook.read_sheet("Kept data", None).expect("the hidden sheet reads");
         let (_, value) = grid.cells.first().expect("a cell");
         assert_eq!(grid.display(*value), long);
+    }
+
+    /// A probability plotted from 0.101 to 0.99 would get an axis to 1.2 (the data
+    /// widened by a twentieth and rounded out to a step of 0.2); with limits 0 to 1 the
+    /// axis stops at 1. ECMA-376 Part 1, 21.2.2.110 max and 21.2.2.118 min hold an
+    /// axis's bounds.
+    #[test]
+    fn value_limits_cap_the_value_axis() {
+        let (_, uncapped) = axis_around(0.101, 0.99);
+        assert!((uncapped - 1.2).abs() < 1e-9, "{uncapped}");
+        let chart_xml = |limits: Option<(f64, f64)>| {
+            let mut sheet = Sheet::new("Power");
+            for (row, power) in [0.101, 0.5, 0.824, 0.99].into_iter().enumerate() {
+                sheet.put(row as u32, 0, Value::integer(row as f64 + 2.0), Look::Plain);
+                sheet.put(row as u32, 1, Value::decimals(power, 3), Look::Plain);
+            }
+            sheet.charts.push(ChartSpec {
+                kind: ChartKind::Lines,
+                title: "Power against runs".into(),
+                x_title: "runs".into(),
+                y_title: "power".into(),
+                series: vec![Series {
+                    name: "power".into(),
+                    categories: SheetRange::column("Power", 0, 0, 3),
+                    values: SheetRange::column("Power", 1, 0, 3),
+                    bar_plus: None,
+                    bar_minus: None,
+                    labels: None,
+                }],
+                anchor: (0, 3),
+                size: (480, 300),
+                value_limits: limits,
+            });
+            let bytes = to_bytes_with(
+                &Book { sheets: vec![sheet] },
+                &WriteOptions::default(),
+                Path::new("power.xlsx"),
+            )
+            .expect("built");
+            entry_text(&bytes, "xl/charts/chart1.xml")
+        };
+        let capped = chart_xml(Some((0.0, 1.0)));
+        assert!(capped.contains("<c:max val=\"1\"/>"), "{capped}");
+        let free = chart_xml(None);
+        assert!(free.contains("<c:max val=\"1.2"), "{free}");
     }
 }

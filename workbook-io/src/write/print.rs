@@ -30,7 +30,7 @@
 
 use std::collections::{BTreeMap, HashMap};
 
-use super::{Look, Sheet, Value};
+use super::{ChartSpec, Look, Sheet, Value};
 
 /// The smallest print scale, in percent: 11-pt text (the body and every chart's text)
 /// prints at 8.25 pt.
@@ -353,6 +353,67 @@ pub fn plan_sheet(sheet: &Sheet) -> SheetPrint {
     }
 }
 
+/// Blank rows between two charts that share a page, and above the first chart of a page
+/// (the page break falls on that blank row): spreadsheet programs place a chart by their
+/// own measure of the rows above it, which can differ from ours by a row or two, so a
+/// chart given a little room never shows an edge on the page before or after.
+pub const CHART_GAP_ROWS: u32 = 3;
+
+/// The least height in pixels a chart is shrunk to so that two share a page (16 rows
+/// of the sheet's default height would be 320).
+pub const SHARED_CHART_HEIGHT: u32 = 240;
+
+/// Rows of the default height that a chart `height` pixels tall covers.
+pub fn chart_rows(height: u32) -> u32 {
+    (f64::from(height) * 0.75 / DEFAULT_ROW_HEIGHT).ceil() as u32
+}
+
+impl Sheet {
+    /// Places `charts` one under another from `row` down, in page regions of their own:
+    /// each region starts with a page break on a blank row and holds as many charts as
+    /// fit the shorter of the two papers' printable heights (the sheet's orientation, at
+    /// full scale, less the rows repeated at the top), with [`CHART_GAP_ROWS`] blank rows
+    /// between charts; charts are shrunk (to no less than [`SHARED_CHART_HEIGHT`]) so that
+    /// two share a page, and a chart taller than a page is shrunk to fit it. Nothing else
+    /// should be placed beside them. Returns the first free row after the last chart and
+    /// a blank row.
+    pub fn place_charts_on_pages(&mut self, row: u32, charts: Vec<ChartSpec>) -> u32 {
+        let (_, page_height) = printable_area(self.portrait);
+        let repeated = f64::from(self.frozen_rows) * DEFAULT_ROW_HEIGHT;
+        let page_rows = ((page_height - repeated) / DEFAULT_ROW_HEIGHT).floor().max(4.0) as u32;
+        let mut next = row;
+        let mut room = 0u32;
+        let pixels_of = |rows: u32| (f64::from(rows) * DEFAULT_ROW_HEIGHT / 0.75).floor() as u32;
+        // Two charts to a page where each keeps at least SHARED_CHART_HEIGHT pixels.
+        let half_page = pixels_of(page_rows.saturating_sub(1 + CHART_GAP_ROWS) / 2);
+        let most_pixels = if half_page >= SHARED_CHART_HEIGHT {
+            half_page
+        } else {
+            pixels_of(page_rows.saturating_sub(1 + CHART_GAP_ROWS))
+        };
+        for mut chart in charts {
+            chart.size.1 = chart.size.1.min(most_pixels);
+            let rows = chart_rows(chart.size.1);
+            if rows + CHART_GAP_ROWS > room {
+                // A new region: the break on a blank row, the chart one row below.
+                if !self.page_breaks.contains(&next) {
+                    self.page_breaks.push(next);
+                }
+                room = page_rows;
+                chart.anchor = (next + 1, 0);
+                next += 1 + rows;
+                room = room.saturating_sub(1 + rows);
+            } else {
+                chart.anchor = (next + CHART_GAP_ROWS, 0);
+                next += CHART_GAP_ROWS + rows;
+                room = room.saturating_sub(CHART_GAP_ROWS + rows);
+            }
+            self.charts.push(chart);
+        }
+        next + 1
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -418,10 +479,68 @@ mod tests {
             }],
             anchor: (26, 0),
             size: (400, 300),
+            value_limits: None,
         });
         let print = plan_sheet(&sheet);
         // 25 rows of 15 pt and a 225-pt chart do not fit one landscape page at 100%
         // (about 450 pt), so the chart starts a page, with the blank row above it.
         assert_eq!(print.breaks, vec![25]);
+    }
+
+    #[test]
+    fn charts_placed_on_pages_start_each_page_and_never_cross_a_break() {
+        let chart = |title: &str| ChartSpec {
+            kind: ChartKind::Lines,
+            title: title.into(),
+            x_title: "x".into(),
+            y_title: "y".into(),
+            series: vec![Series {
+                name: "s".into(),
+                categories: SheetRange::column("charts", 0, 0, 9),
+                values: SheetRange::column("charts", 1, 0, 9),
+                bar_plus: None,
+                bar_minus: None,
+                labels: None,
+            }],
+            anchor: (0, 5),
+            size: (460, 300),
+            value_limits: None,
+        };
+        for portrait in [false, true] {
+            let mut sheet = Sheet::new("charts");
+            sheet.portrait = portrait;
+            for row in 0..40u32 {
+                sheet.put(row, 0, Value::number(f64::from(row)), Look::Plain);
+                sheet.put(row, 1, Value::number(f64::from(row) * 2.0), Look::Plain);
+            }
+            let after = sheet.place_charts_on_pages(41, (0..5).map(|i| chart(&format!("chart {i}"))).collect());
+            let print = plan_sheet(&sheet);
+            let (_, page_height) = printable_area(portrait);
+            let mut starts: Vec<u32> = vec![0];
+            starts.extend(print.breaks.iter().copied());
+            for placed in &sheet.charts {
+                assert_eq!(placed.anchor.1, 0, "charts stand at the left, under the tables");
+                let first = placed.anchor.0;
+                let last = first + chart_rows(placed.size.1) - 1;
+                assert!(last < after, "{after} after the charts");
+                // The page holding the chart's first row also holds its last, and the
+                // chart's rows fit that page's height.
+                let page = starts.iter().rposition(|start| *start <= first).expect("a page");
+                let next = starts.get(page + 1).copied().unwrap_or(u32::MAX);
+                assert!(
+                    last < next,
+                    "chart on rows {first}..={last} crosses the break at {next} ({portrait})"
+                );
+                let used = f64::from(last + 1 - starts[page]) * DEFAULT_ROW_HEIGHT;
+                assert!(used <= page_height, "{used} of {page_height}");
+                assert!(placed.size.1 >= SHARED_CHART_HEIGHT);
+            }
+            // Two charts to a page: five charts take three regions, each starting with
+            // a break on the blank row above its first chart.
+            assert_eq!(sheet.page_breaks.len(), 3, "{:?}", sheet.page_breaks);
+            for row in &sheet.page_breaks {
+                assert!(sheet.charts.iter().any(|chart| chart.anchor.0 == row + 1));
+            }
+        }
     }
 }

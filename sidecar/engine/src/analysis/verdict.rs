@@ -811,4 +811,57 @@ mod tests {
             undirected.verdict.details
         );
     }
+
+    /// The same replicated 2^2 turned round, so that Temperature's high level lowers the
+    /// response: its effect is -4 exactly (mean at 180 minus mean at 150, the e-Handbook's
+    /// definition; common practice), and the reading says it as a lowering by a positive
+    /// amount with its interval as positive amounts. The interval: each cell holds 10.0 and
+    /// 10.2 (or 6.0 and 6.2), so the pure-error mean square is 0.08 / 4 = 0.02 on 4 df, the
+    /// effect's SE is 2·sqrt(0.02 / 8) = 0.1, and t(0.975, 4) = 2.7764451 (scipy 1.17.1
+    /// `stats.t.ppf(0.975, 4)`), giving 4 ± 0.27764 = 3.7224 to 4.2776 (scipy 1.17.1).
+    #[test]
+    fn a_lowering_effect_is_said_as_lowers_it_by_with_a_positive_interval() {
+        use crate::analysis::factorial::{analyse_factorial, FactorData, FactorialData, FactorialOptions};
+        let temperature = vec!["150".to_string(), "180".to_string()];
+        let pressure = vec!["2".to_string(), "4".to_string()];
+        let temperature_of = [0, 0, 1, 1, 0, 0, 1, 1];
+        let pressure_of = [0, 0, 0, 0, 1, 1, 1, 1];
+        let values = [10.0, 10.2, 6.0, 6.2, 10.0, 10.2, 6.0, 6.2];
+        let data = FactorialData {
+            factors: vec![
+                FactorData {
+                    name: "Temperature",
+                    levels: &temperature,
+                    level_of_record: &temperature_of,
+                    is_block: false,
+                },
+                FactorData {
+                    name: "Pressure",
+                    levels: &pressure,
+                    level_of_record: &pressure_of,
+                    is_block: false,
+                },
+            ],
+            response_name: "Leak rate (ccm)",
+            values: &values,
+        };
+        let outcome = analyse_factorial(&data, &FactorialOptions::default()).expect("a factorial outcome");
+        let reading = read_factorial("Leak rate (ccm)", Some("ccm"), &outcome, Some(Direction::LowerIsBetter))
+            .expect("a reading");
+        let largest = reading.largest.as_ref().expect("a largest effect");
+        assert!((largest.size + 4.0).abs() < 1e-9, "{largest:?}");
+        let headline = &reading.verdict.headline;
+        assert!(
+            headline.contains(
+                "moving Temperature from 150 to 180 lowers it by 4 ccm (95% interval 3.722 ccm to 4.278 ccm)"
+            ),
+            "{headline}"
+        );
+        assert!(!headline.contains("by -"), "{headline}");
+        let best = reading
+            .best_settings
+            .as_deref()
+            .expect("best settings with a direction");
+        assert!(best.contains("Temperature 180"), "{best}");
+    }
 }

@@ -533,6 +533,7 @@ pub fn size_book(answer: &SizeAnswer) -> Book {
             }],
             anchor: (header_row, 4),
             size: (520, 320),
+            value_limits: Some((0.0, 1.0)),
         });
     }
     Book { sheets: vec![sheet] }

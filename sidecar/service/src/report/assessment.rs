@@ -431,6 +431,7 @@ fn checks_block(sheet: &mut Sheet, mut row: u32, response: &str, assessment: &As
             }],
             anchor: (data_row, 0),
             size: (460, 260),
+            value_limits: None,
         });
     }
     if !checks.probability_points.is_empty() {
@@ -449,6 +450,7 @@ fn checks_block(sheet: &mut Sheet, mut row: u32, response: &str, assessment: &As
             }],
             anchor: (data_row + 14, 0),
             size: (460, 260),
+            value_limits: None,
         });
     }
     (data_row + 29).max(residual_end.max(probability_end) + 2)

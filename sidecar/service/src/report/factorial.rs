@@ -27,8 +27,6 @@ pub mod names {
 
 /// Interaction and main-effect charts per response, at most.
 const MAX_CHARTS_PER_KIND: usize = 4;
-/// Rows a chart takes on its sheet.
-const CHART_ROWS: u32 = 16;
 
 fn optional(value: Option<f64>, format: NumberFormat) -> Value {
     match value {
@@ -70,22 +68,24 @@ pub fn add_factorial_results(results: &WorkbookResults, book: &mut Book) {
         (6, 12.0),
     ];
     let mut effects = Sheet::new(names::EFFECTS);
+    // Widths that fit one landscape page across at the smallest print scale (about
+    // 155 characters in all), so no column prints on a page of its own.
     effects.widths = vec![
-        (0, 12.0),
-        (1, 28.0),
-        (2, 34.0),
-        (3, 12.0),
-        (4, 12.0),
-        (5, 11.0),
-        (6, 9.0),
-        (7, 10.0),
-        (8, 12.0),
-        (9, 12.0),
+        (0, 16.0),
+        (1, 22.0),
+        (2, 28.0),
+        (3, 11.0),
+        (4, 11.0),
+        (5, 9.0),
+        (6, 7.0),
+        (7, 9.0),
+        (8, 10.0),
+        (9, 10.0),
         (10, 10.0),
-        (11, 9.0),
+        (11, 7.0),
     ];
     let mut aliases = Sheet::new(names::ALIASES);
-    aliases.widths = vec![(0, 26.0), (1, 40.0), (2, 60.0), (3, 18.0), (4, 40.0)];
+    aliases.widths = vec![(0, 14.0), (1, 28.0), (2, 44.0), (3, 12.0), (4, 16.0), (5, 30.0)];
     let mut reduced = Sheet::new(names::REDUCED);
     reduced.widths = vec![(0, 40.0), (1, 14.0), (2, 12.0), (3, 10.0), (4, 11.0)];
     let mut rows = Rows::default();
@@ -388,9 +388,9 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
     let Some(model) = &outcome.model else {
         return;
     };
-    let start = *row;
-    let chart_col: u16 = 8;
-    let mut chart_row = start;
+    // The charts go under the tables, in page regions of their own, so that none is
+    // cut by a page break or pushes the tables onto a second page across.
+    let mut charts: Vec<ChartSpec> = Vec::new();
     sheet.put(*row, 0, Value::text(format!("{}: means", response.name)), Look::Heading);
     *row += 1;
     let low = format!("{} low", percent(outcome.confidence));
@@ -426,7 +426,7 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
             .any(|factor| factor.is_block && factor.name == factor_means.factor);
         if position < 2 * MAX_CHARTS_PER_KIND && !is_block {
             let has_bars = factor_means.means.iter().all(|line| line.low.is_some());
-            sheet.charts.push(ChartSpec {
+            charts.push(ChartSpec {
                 kind: ChartKind::Lines,
                 title: format!("{}: main effect of {}", response.name, factor_means.factor),
                 x_title: factor_means.factor.clone(),
@@ -439,10 +439,10 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
                     bar_minus: has_bars.then(|| SheetRange::column(names::MEANS, 5, first_data, last_data)),
                     labels: None,
                 }],
-                anchor: (chart_row, chart_col),
+                anchor: (0, 0),
                 size: (420, 280),
+                value_limits: None,
             });
-            chart_row += CHART_ROWS;
         }
         *row += 1;
     }
@@ -494,16 +494,16 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
                 })
                 .collect();
             let _ = header_row;
-            sheet.charts.push(ChartSpec {
+            charts.push(ChartSpec {
                 kind: ChartKind::Lines,
                 title: format!("{}: {} × {}", response.name, table.x_factor, table.trace_factor),
                 x_title: table.x_factor.clone(),
                 y_title: format!("model mean of {}", response.name),
                 series,
-                anchor: (chart_row, chart_col),
+                anchor: (0, 0),
                 size: (460, 300),
+                value_limits: None,
             });
-            chart_row += CHART_ROWS + 2;
         }
         *row += 1;
     }
@@ -532,15 +532,14 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
         })
         .collect();
     *row = sheet.table(*row, 0, &header_refs, table_rows) + 1;
-    *row = (*row).max(chart_row) + 1;
+    *row = sheet.place_charts_on_pages(*row, charts);
 }
 
 fn effects_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, outcome: &FactorialOutcome) {
     let low = format!("{} low", percent(outcome.confidence));
     let high = format!("{} high", percent(outcome.confidence));
-    let start = *row;
-    let mut chart_row = start;
-    let chart_col: u16 = 13;
+    // The effect plots go under the tables, each pair in a page region of its own.
+    let mut charts: Vec<ChartSpec> = Vec::new();
     sheet.put(
         *row,
         0,
@@ -549,22 +548,12 @@ fn effects_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, 
     );
     *row += 1;
     if let Some(two) = &outcome.two_level {
-        two_level_effects(
-            sheet,
-            row,
-            &mut chart_row,
-            chart_col,
-            response,
-            outcome,
-            two,
-            &low,
-            &high,
-        );
+        two_level_effects(sheet, row, &mut charts, response, outcome, two, &low, &high);
     }
     if let Some(model) = &outcome.model {
         k_way_effects(sheet, row, model, &low, &high);
     }
-    *row = (*row).max(chart_row) + 1;
+    *row = sheet.place_charts_on_pages(*row, charts);
 }
 
 fn k_way_effects(sheet: &mut Sheet, row: &mut u32, model: &KWayModel, low: &str, high: &str) {
@@ -598,8 +587,7 @@ fn k_way_effects(sheet: &mut Sheet, row: &mut u32, model: &KWayModel, low: &str,
 fn two_level_effects(
     sheet: &mut Sheet,
     row: &mut u32,
-    chart_row: &mut u32,
-    chart_col: u16,
+    charts: &mut Vec<ChartSpec>,
     response: &ResponseResult,
     outcome: &FactorialOutcome,
     two: &TwoLevelOutcome,
@@ -747,7 +735,7 @@ fn two_level_effects(
             .collect();
         *row = sheet.table(*row, 0, &["estimate", x_title, "normal quantile"], table_rows);
         let last_data = *row - 1;
-        sheet.charts.push(ChartSpec {
+        charts.push(ChartSpec {
             kind: ChartKind::Scatter,
             title: chart_title,
             x_title: x_title.to_string(),
@@ -760,10 +748,10 @@ fn two_level_effects(
                 bar_minus: None,
                 labels: Some(SheetRange::column(names::EFFECTS, 0, first_data, last_data)),
             }],
-            anchor: (*chart_row, chart_col),
+            anchor: (0, 0),
             size: (480, 320),
+            value_limits: None,
         });
-        *chart_row += CHART_ROWS + 2;
         *row += 1;
     }
     let _ = outcome;

@@ -423,6 +423,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
             }],
             anchor: (summary_row + 1, 0),
             size: (500, 290),
+            value_limits: None,
         });
         summary_row += 17;
 

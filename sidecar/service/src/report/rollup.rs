@@ -33,10 +33,11 @@ pub const HEADERS: &[&str] = &[
     "Results file",
 ];
 
-/// Column widths (characters) of the rows sheet, narrow enough that a printed page in
-/// landscape stays legible; longer text wraps within its cell.
+/// Column widths (characters) of the rows sheet: all fourteen columns fit one landscape
+/// page across at the smallest print scale (`print::MIN_SCALE`, so text stays at 8 pt or
+/// more on A4 and Letter); longer text and the headers wrap within their cells.
 const ROW_WIDTHS: [f64; 14] = [
-    24.0, 18.0, 22.0, 7.0, 18.0, 10.0, 16.0, 20.0, 10.0, 10.0, 10.0, 44.0, 8.0, 24.0,
+    13.5, 11.0, 12.0, 5.0, 11.0, 7.5, 11.0, 14.0, 8.5, 8.0, 8.0, 24.0, 7.0, 14.0,
 ];
 
 /// The kinds of verdict tallied, in the order shown.
@@ -338,8 +339,42 @@ pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book 
         }],
         anchor: (1, 3),
         size: (560, 320),
+        value_limits: None,
     });
     Book {
         sheets: vec![rows_sheet, verdicts],
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The rows sheet prints one page across: the print plan keeps the smallest scale or
+    /// more and needs no second page to the right for the last column.
+    #[test]
+    fn the_rows_sheet_fits_one_page_across() {
+        let mut sheet = Sheet::new(names::ROWS);
+        sheet.widths = ROW_WIDTHS
+            .iter()
+            .enumerate()
+            .map(|(col, &width)| (col as u16, width))
+            .collect();
+        let long =
+            "The conditions differ in Tensile strength (MPa): the trial shows it at 95% confidence (p < 0.0001).";
+        let row: Vec<Value> = HEADERS.iter().map(|_| Value::text(long)).collect();
+        sheet.wrapped_table(0, 0, HEADERS, vec![row], &ROW_WIDTHS);
+        let print = workbook_io::write::print::plan_sheet(&sheet);
+        assert!(print.scale >= workbook_io::write::print::MIN_SCALE, "{}", print.scale);
+        let (page_width, _) = workbook_io::write::print::printable_area(false);
+        let content: f64 = ROW_WIDTHS
+            .iter()
+            .map(|width| workbook_io::write::print::column_points(*width))
+            .sum();
+        assert!(
+            content * f64::from(print.scale) / 100.0 <= page_width,
+            "{content} pt at {}% on {page_width} pt",
+            print.scale
+        );
     }
 }
