@@ -50,7 +50,14 @@ pages="${TRIALYST_OFFICE_PAGES:-2}"
 missing=()
 command -v soffice >/dev/null 2>&1 || missing+=(libreoffice-calc)
 command -v pdftoppm >/dev/null 2>&1 || missing+=(poppler-utils)
+# The page checks' scripts need openpyxl (Debian's python3-openpyxl): use the system
+# Python when it has it, else whichever python3 comes first on the PATH.
+python=python3
+if [ -x /usr/bin/python3 ] && /usr/bin/python3 -c 'import openpyxl' 2>/dev/null; then
+    python=/usr/bin/python3
+fi
 command -v python3 >/dev/null 2>&1 || missing+=(python3)
+"$python" -c 'import openpyxl' 2>/dev/null || missing+=(python3-openpyxl)
 if [ ${#missing[@]} -gt 0 ]; then
     if [ "$install" -eq 0 ]; then
         echo "check-in-office: missing ${missing[*]} (run without --no-install to install them)" >&2
@@ -61,6 +68,9 @@ if [ ${#missing[@]} -gt 0 ]; then
     if [ "$(id -u)" -ne 0 ]; then sudo_cmd="sudo"; fi
     $sudo_cmd apt-get update -qq
     DEBIAN_FRONTEND=noninteractive $sudo_cmd apt-get install -y -qq --no-install-recommends "${missing[@]}"
+    if [ -x /usr/bin/python3 ] && /usr/bin/python3 -c 'import openpyxl' 2>/dev/null; then
+        python=/usr/bin/python3
+    fi
 fi
 echo "check-in-office: $(soffice --version 2>/dev/null | head -n 1)"
 
@@ -113,12 +123,12 @@ fi
 # 3. The print checks must fail on a workbook that prints badly (a chart cut by a
 # page break the setup did not plan), or they prove nothing.
 profile_check="$(mktemp -d -t trialyst-office-selfcheck-XXXXXX)"
-python3 tests/render/make_cut_chart.py "$profile_check/cut-chart.xlsx"
-python3 tests/render/set_paper.py "$profile_check/cut-chart.xlsx" "$profile_check/cut-chart-A4.xlsx" A4
+"$python" tests/render/make_cut_chart.py "$profile_check/cut-chart.xlsx"
+"$python" tests/render/set_paper.py "$profile_check/cut-chart.xlsx" "$profile_check/cut-chart-A4.xlsx" A4
 timeout "$timeout_seconds" soffice --headless --norestore --nolockcheck \
     "-env:UserInstallation=file://$profile_check/profile" \
     --convert-to pdf --outdir "$profile_check" "$profile_check/cut-chart-A4.xlsx" >>"$log" 2>&1
-if python3 tests/render/pdf_print_check.py "$profile_check/cut-chart-A4.xlsx" "$profile_check/cut-chart-A4.pdf" A4 \
+if "$python" tests/render/pdf_print_check.py "$profile_check/cut-chart-A4.xlsx" "$profile_check/cut-chart-A4.pdf" A4 \
     >"$out/self-check.txt" 2>&1 || ! grep -q "cut by a page break" "$out/self-check.txt"; then
     echo "check-in-office: the print checks did not find the cut chart of the badly laid-out workbook; see $out/self-check.txt" >&2
     rm -rf "$profile_check"
@@ -144,7 +154,7 @@ for original in "${workbooks[@]}"; do
     base="$(basename "$original" .xlsx)"
     name="$base-$paper"
     book="$papers/$name.xlsx"
-    python3 tests/render/set_paper.py "$original" "$book" "$paper"
+    "$python" tests/render/set_paper.py "$original" "$book" "$paper"
     message_file="$out/$name.convert.txt"
     status=0
     timeout "$timeout_seconds" soffice --headless --norestore --nolockcheck \
@@ -173,7 +183,7 @@ for original in "${workbooks[@]}"; do
     page_count="$(pdfinfo "$pdf" | awk '/^Pages:/ {print $2}')"
     pdftoppm -f 1 -l "$pages" -r 70 -png "$pdf" "$pngs/$name"
     # The printed pages against the print setup: paper, page count, type size, charts whole.
-    if ! python3 tests/render/pdf_print_check.py "$book" "$pdf" "$paper" >"$out/$name.print.txt" 2>&1; then
+    if ! "$python" tests/render/pdf_print_check.py "$book" "$pdf" "$paper" >"$out/$name.print.txt" 2>&1; then
         echo "FAILED  $base.xlsx on $paper: $(head -n 1 "$out/$name.print.txt")"
         cat "$out/$name.print.txt" >>"$log"
         failures=$((failures + 1))
