@@ -9,6 +9,8 @@
 
 // The tests print the accuracy they measured.
 #![allow(clippy::print_stdout)]
+// Reference values keep the 17 digits mpmath printed.
+#![allow(clippy::excessive_precision)]
 
 use engine::analysis::assessment::{assess, Assessment, AssessmentOptions};
 use engine::analysis::oneway::{fit_one_way, OneWayFit};
