@@ -19,6 +19,7 @@
 //! - Holm (1979) step-down for the user's contrasts.
 //! - Welch (1951) ANOVA for unequal variances.
 
+use crate::stats::accumulate::{magnitude_exponent, scale_by_power_of_two};
 use serde::Serialize;
 
 use crate::analysis::letters::grouping_letters;
@@ -293,12 +294,20 @@ pub fn unequal_spread_pairs(fit: &OneWayFit, confidence: f64) -> Result<PairFami
             got: 1,
         });
     }
+    // The SDs are divided by a power of two (exactly) before they are squared, so the
+    // variances neither overflow nor underflow at any magnitude of the data.
+    let exponent = magnitude_exponent(fit.conditions.iter().map(|condition| &condition.sd));
+    let down = -i64::from(exponent);
     let mut pairs = Vec::new();
     for (a, b) in pair_indices(k) {
         let (first, second) = (&fit.conditions[a], &fit.conditions[b]);
-        let va = first.sd * first.sd / first.n as f64;
-        let vb = second.sd * second.sd / second.n as f64;
-        let se = (va + vb).sqrt();
+        let (sd_a, sd_b) = (
+            scale_by_power_of_two(first.sd, down),
+            scale_by_power_of_two(second.sd, down),
+        );
+        let va = sd_a * sd_a / first.n as f64;
+        let vb = sd_b * sd_b / second.n as f64;
+        let se = scale_by_power_of_two((va + vb).sqrt(), -down);
         let df = (va + vb).powi(2) / (va * va / (first.n as f64 - 1.0) + vb * vb / (second.n as f64 - 1.0));
         let difference = first.mean - second.mean;
         let critical = studentized_range_quantile(confidence, k, df)? / std::f64::consts::SQRT_2;
@@ -558,21 +567,26 @@ pub fn welch_anova(conditions: &[ConditionSummary]) -> Result<WelchAnova, StatsE
             got: 1,
         });
     }
+    // F does not depend on the unit: means and SDs are divided by one power of two
+    // (exactly) so that the weights n / sd² stay within the range of f64.
+    let down = -i64::from(magnitude_exponent(conditions.iter().map(|condition| &condition.sd)));
     let weights: Vec<f64> = conditions
         .iter()
-        .map(|condition| condition.n as f64 / (condition.sd * condition.sd))
+        .map(|condition| {
+            let sd = scale_by_power_of_two(condition.sd, down);
+            condition.n as f64 / (sd * sd)
+        })
+        .collect();
+    let means: Vec<f64> = conditions
+        .iter()
+        .map(|condition| scale_by_power_of_two(condition.mean, down))
         .collect();
     let total_weight: f64 = weights.iter().sum();
-    let weighted_mean: f64 = weights
-        .iter()
-        .zip(conditions)
-        .map(|(w, condition)| w * condition.mean)
-        .sum::<f64>()
-        / total_weight;
+    let weighted_mean: f64 = weights.iter().zip(&means).map(|(w, mean)| w * mean).sum::<f64>() / total_weight;
     let between: f64 = weights
         .iter()
-        .zip(conditions)
-        .map(|(w, condition)| w * (condition.mean - weighted_mean).powi(2))
+        .zip(&means)
+        .map(|(w, mean)| w * (mean - weighted_mean).powi(2))
         .sum::<f64>()
         / (k - 1.0);
     let lambda: f64 = weights

@@ -10,7 +10,7 @@
 use serde::Serialize;
 
 use crate::analysis::contrast::Contrast;
-use crate::stats::accumulate::{oneway_sums, GroupAccumulator};
+use crate::stats::accumulate::{oneway_sums, scale_by_power_of_two, GroupAccumulator};
 use crate::stats::dist;
 use crate::stats::StatsError;
 
@@ -291,10 +291,20 @@ pub(crate) fn fit_one_way_sharing(
     } else {
         f64::NAN
     };
-    let pooled_sd = ms_within.sqrt();
+    // Ratios and roots come from the sums divided by a power of two (exactly), so they
+    // are right at any magnitude of the data, where the sums themselves may lie beyond
+    // the range of f64 (the ANOVA table then shows them empty).
+    let [between_scaled, within_scaled, total_scaled] = sums.scaled;
+    let unit = i64::from(sums.scale_exponent);
+    let ms_within_scaled = if df_within > 0.0 {
+        within_scaled / df_within
+    } else {
+        f64::NAN
+    };
+    let pooled_sd = scale_by_power_of_two(ms_within_scaled.sqrt(), unit);
     let (f, p) = if df_within > 0.0 {
-        if ms_within > 0.0 {
-            let f = ms_between / ms_within;
+        if ms_within_scaled > 0.0 {
+            let f = (between_scaled / df_between) / ms_within_scaled;
             (f, dist::f_sf(f, df_between, df_within)?)
         } else {
             // No spread within conditions: F is not defined (whether or not the means
@@ -330,13 +340,13 @@ pub(crate) fn fit_one_way_sharing(
             p: None,
         },
     ];
-    let r_squared = if sums.ss_total > 0.0 {
-        sums.ss_between / sums.ss_total
+    let r_squared = if total_scaled > 0.0 {
+        between_scaled / total_scaled
     } else {
         f64::NAN
     };
-    let omega_squared = if sums.ss_total > 0.0 && ms_within.is_finite() {
-        (sums.ss_between - df_between * ms_within) / (sums.ss_total + ms_within)
+    let omega_squared = if total_scaled > 0.0 && ms_within_scaled.is_finite() {
+        (between_scaled - df_between * ms_within_scaled) / (total_scaled + ms_within_scaled)
     } else {
         f64::NAN
     };
@@ -350,11 +360,7 @@ pub(crate) fn fit_one_way_sharing(
         // Radix sort in `f64::total_cmp` order, as `sort_by(f64::total_cmp)` gives.
         crate::stats::sort::sort_floats(&mut sorted);
         let n = group.n as f64;
-        let sd = if group.n > 1 {
-            (group.centred_ss / (n - 1.0)).sqrt()
-        } else {
-            f64::NAN
-        };
+        let sd = group.sd();
         let half_width = match shared {
             None => multiplier * pooled_sd / n.sqrt(),
             Some(_) => multiplier * pooled_sd * mean_covariance(conditions.len(), conditions.len(), group.n).sqrt(),

@@ -144,7 +144,7 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment:
             }
         }
         None => format!(
-            "Whether the conditions differ in {response} cannot be judged: the analysis gives no p-value (there is no spread within conditions to compare against)."
+            "Whether the conditions differ in {response} cannot be judged: the analysis could not give a p-value (the notes of the analysis say which part failed and why)."
         ),
     };
     let mut details = Vec::new();

@@ -83,7 +83,27 @@ pub struct GroupStats {
     /// are held exactly (vacuously `true` for an empty condition); `false` when the
     /// compensated binary sums are used.
     pub exact_decimal: bool,
+    /// The centred sum of squares divided by `4^scale_exponent`: finite and with full
+    /// precision at any magnitude of the data (at 1e160 the centred sum itself is
+    /// beyond the largest `f64`, at 1e-170 below the smallest).
+    pub centred_ss_scaled: f64,
+    /// The power of two the deviations were divided by (`centred_ss` is
+    /// `centred_ss_scaled * 2^(2 scale_exponent)`); 0 on the exact decimal path.
+    pub scale_exponent: i32,
     sums: HeldSums,
+}
+
+impl GroupStats {
+    /// The condition's standard deviation (divisor `n - 1`) from the scaled sums, so
+    /// it is right whenever it is itself a finite number; NaN with fewer than two
+    /// values.
+    pub fn sd(&self) -> f64 {
+        if self.n < 2 {
+            return f64::NAN;
+        }
+        let scaled = (self.centred_ss_scaled / (self.n - 1) as f64).sqrt();
+        scale_by_power_of_two(scaled, i64::from(self.scale_exponent))
+    }
 }
 
 /// Sums of squares of the one-way layout, from [`oneway_sums`].
@@ -95,6 +115,12 @@ pub struct OnewaySums {
     pub ss_within: f64,
     /// Total sum of squares about the grand mean.
     pub ss_total: f64,
+    /// `ss_between`, `ss_within` and `ss_total` divided by `4^scale_exponent`: finite
+    /// and with full precision whenever the data have spread, whatever their magnitude.
+    /// Ratios (F, R²) and roots (SDs) are formed from these.
+    pub scaled: [f64; 3],
+    /// The power of two the deviations were divided by; 0 on the exact decimal path.
+    pub scale_exponent: i32,
     /// Mean of all observations.
     pub grand_mean: f64,
     /// Number of observations over all conditions.
@@ -208,6 +234,27 @@ pub fn oneway_sums(groups: &[GroupStats]) -> Result<OnewaySums, StatsError> {
             Ok(exact_oneway(&counts, &parts))
         }
         None => Ok(compensated_oneway(&filled)),
+    }
+}
+
+/// The power of two to divide data by before squaring: 0 while the largest magnitude
+/// lies between 2^-200 and 2^200 (squares of deviations, even of one unit in the last
+/// place, then stay normal and sums of 2^63 of them finite), otherwise the exponent of
+/// the largest magnitude, so that the scaled data are below 2 in magnitude.
+///
+/// Dividing by a power of two is exact, so every statistic that does not depend on the
+/// unit (F, chi-square and rank statistics, ratios of SDs) comes out as at scale 1.
+pub fn magnitude_exponent<'a>(values: impl IntoIterator<Item = &'a f64>) -> i32 {
+    const LOW: f64 = 6.223_015_277_861_142e-61; // 2^-200
+    const HIGH: f64 = 1.606_938_044_258_990_3e60; // 2^200
+    let largest = values
+        .into_iter()
+        .filter(|value| value.is_finite())
+        .fold(0.0_f64, |largest, value| largest.max(value.abs()));
+    if largest == 0.0 || (LOW..=HIGH).contains(&largest) {
+        0
+    } else {
+        binary_exponent(largest)
     }
 }
 
@@ -364,6 +411,8 @@ impl GroupState {
                 min: f64::NAN,
                 max: f64::NAN,
                 exact_decimal: true,
+                centred_ss_scaled: f64::NAN,
+                scale_exponent: 0,
                 sums: HeldSums::Empty,
             };
         }
@@ -392,20 +441,29 @@ impl GroupState {
                 min: self.min,
                 max: self.max,
                 exact_decimal: true,
+                centred_ss_scaled: centred_ss,
+                scale_exponent: 0,
                 sums: HeldSums::Exact(e),
             }
         } else {
             let (mean, centred) = self.binary.mean_and_centred(n);
+            let exponent = self.binary.exponent;
             let sum = mean.mul_f64(n as f64);
             GroupStats {
                 n,
                 mean: mean.hi,
-                centred_ss: centred.hi,
+                centred_ss: scale_by_power_of_two(centred.hi, 2 * i64::from(exponent)),
                 sum: sum.hi,
                 min: self.min,
                 max: self.max,
                 exact_decimal: false,
-                sums: HeldSums::Binary { mean, centred },
+                centred_ss_scaled: centred.hi,
+                scale_exponent: exponent,
+                sums: HeldSums::Binary {
+                    mean,
+                    centred,
+                    exponent,
+                },
             }
         }
     }
@@ -415,7 +473,12 @@ impl GroupState {
 enum HeldSums {
     Empty,
     Exact(ExactSums),
-    Binary { mean: DoubleDouble, centred: DoubleDouble },
+    /// The mean, and the centred sum of squares divided by `4^exponent`.
+    Binary {
+        mean: DoubleDouble,
+        centred: DoubleDouble,
+        exponent: i32,
+    },
 }
 
 /// Exact decimal sums of one condition: values are `(offset + d_j) * 10^-scale`,
@@ -572,13 +635,40 @@ fn short_decimal_search(x: f64, hint: usize) -> Option<(i64, i32)> {
 // Compensated binary sums
 // ---------------------------------------------------------------------------------------
 
+/// Compensated sums of the deviations from `shift`, each deviation divided by
+/// `2^exponent` (a power of two, so the division is exact) before it is summed and
+/// squared: the exponent follows the largest deviation, so squares neither overflow at
+/// 1e300 nor underflow at 1e-300, and in the ordinary range every bit of the sums is the
+/// same as without scaling.
 #[derive(Debug, Clone, Copy, Default)]
 struct BinarySums {
     shift: f64,
+    /// The power of two the deviations are divided by (0 until a deviation is seen).
+    exponent: i32,
+    /// `2^-exponent`.
+    factor: f64,
     s1_hi: f64,
     s1_lo: f64,
     s2_hi: f64,
     s2_lo: f64,
+}
+
+/// A scaled deviation above this magnitude moves the exponent up (squares then stay far
+/// below the overflow threshold even for 2^63 values).
+const RESCALE_ABOVE: f64 = 18_446_744_073_709_551_616.0; // 2^64
+
+/// The exponent of `x` (`x = m 2^e` with `1 <= |m| < 2`), clamped to the range where
+/// `2^-e` is a normal `f64`; `x` must be finite and non-zero.
+pub fn binary_exponent(x: f64) -> i32 {
+    let biased = ((x.to_bits() >> 52) & 0x7ff) as i32;
+    let exponent = if biased == 0 {
+        // Subnormal: the leading bit of the fraction.
+        let fraction = x.to_bits() & ((1u64 << 52) - 1);
+        -1011 - fraction.leading_zeros() as i32
+    } else {
+        biased - 1023
+    };
+    exponent.clamp(-1000, 1000)
 }
 
 impl BinarySums {
@@ -586,6 +676,16 @@ impl BinarySums {
     fn push(&mut self, value: f64) {
         // value - shift == dev_hi + dev_lo exactly.
         let (dev_hi, dev_lo) = two_sum(value, -self.shift);
+        if dev_hi == 0.0 {
+            return;
+        }
+        if self.factor == 0.0 {
+            self.exponent = binary_exponent(dev_hi);
+            self.factor = scale_by_power_of_two(1.0, -i64::from(self.exponent));
+        } else if (dev_hi * self.factor).abs() > RESCALE_ABOVE {
+            self.rescale(binary_exponent(dev_hi));
+        }
+        let (dev_hi, dev_lo) = (dev_hi * self.factor, dev_lo * self.factor);
         let (s1, e1) = two_sum(self.s1_hi, dev_hi);
         self.s1_hi = s1;
         self.s1_lo += e1 + dev_lo;
@@ -596,13 +696,29 @@ impl BinarySums {
         self.s2_lo += e2 + sq_lo + 2.0 * dev_hi * dev_lo;
     }
 
-    /// Mean and centred sum of squares in double-double.
+    /// Moves the sums to a larger exponent (exact but for parts that fall below the
+    /// smallest normal number, which are then negligible beside the new deviation).
+    #[cold]
+    fn rescale(&mut self, exponent: i32) {
+        let step = i64::from(self.exponent) - i64::from(exponent);
+        self.s1_hi = scale_by_power_of_two(self.s1_hi, step);
+        self.s1_lo = scale_by_power_of_two(self.s1_lo, step);
+        self.s2_hi = scale_by_power_of_two(self.s2_hi, 2 * step);
+        self.s2_lo = scale_by_power_of_two(self.s2_lo, 2 * step);
+        self.exponent = exponent;
+        self.factor = scale_by_power_of_two(1.0, -i64::from(exponent));
+    }
+
+    /// Mean (in the data's units) and the centred sum of squares divided by
+    /// `4^exponent`, in double-double.
     fn mean_and_centred(&self, n: u64) -> (DoubleDouble, DoubleDouble) {
         let count = DoubleDouble::from_f64(n as f64);
         let s1 = DoubleDouble::from_parts(self.s1_hi, self.s1_lo);
         let s2 = DoubleDouble::from_parts(self.s2_hi, self.s2_lo);
         let mean_dev = s1.div(count);
-        let mean = mean_dev.add(DoubleDouble::from_f64(self.shift));
+        let mean = mean_dev
+            .scale(i64::from(self.exponent))
+            .add(DoubleDouble::from_f64(self.shift));
         let mut centred = s2.sub(mean_dev.mul(s1));
         if centred.hi < 0.0 {
             centred = DoubleDouble::from_f64(0.0);
@@ -692,6 +808,14 @@ impl DoubleDouble {
         Self { hi, lo }
     }
 
+    /// `self * 2^e` (exact while both parts stay normal).
+    fn scale(self, e: i64) -> Self {
+        Self {
+            hi: scale_by_power_of_two(self.hi, e),
+            lo: scale_by_power_of_two(self.lo, e),
+        }
+    }
+
     fn mul_f64(self, b: f64) -> Self {
         self.mul(Self::from_f64(b))
     }
@@ -748,10 +872,15 @@ fn exact_oneway(counts: &[u64], parts: &[&ExactSums]) -> OnewaySums {
     let between_den = lcm.mul(&total_count).mul(&unit_sq);
     let total_num = within_num.mul_natural(&total_count).add(&between_num);
     let mean_num = base.mul_natural(&total_count).add(&t1);
+    let ss_between = ratio_to_f64(&between_num, &between_den);
+    let ss_within = ratio_to_f64(&within_num, &lcm.mul(&unit_sq));
+    let ss_total = ratio_to_f64(&total_num, &between_den);
     OnewaySums {
-        ss_between: ratio_to_f64(&between_num, &between_den),
-        ss_within: ratio_to_f64(&within_num, &lcm.mul(&unit_sq)),
-        ss_total: ratio_to_f64(&total_num, &between_den),
+        ss_between,
+        ss_within,
+        ss_total,
+        scaled: [ss_between, ss_within, ss_total],
+        scale_exponent: 0,
         grand_mean: ratio_to_f64(&mean_num, &total_count.mul(&unit)),
         n_total,
         n_groups: counts.len(),
@@ -760,10 +889,15 @@ fn exact_oneway(counts: &[u64], parts: &[&ExactSums]) -> OnewaySums {
 }
 
 fn compensated_oneway(filled: &[&GroupStats]) -> OnewaySums {
-    let parts: Vec<(u64, DoubleDouble, DoubleDouble)> = filled
+    // (n, mean, centred sum of squares over 4^exponent, exponent)
+    let parts: Vec<(u64, DoubleDouble, DoubleDouble, i32)> = filled
         .iter()
         .map(|g| match &g.sums {
-            HeldSums::Binary { mean, centred } => (g.n, *mean, *centred),
+            HeldSums::Binary {
+                mean,
+                centred,
+                exponent,
+            } => (g.n, *mean, *centred, *exponent),
             HeldSums::Exact(e) => {
                 let n_nat = Natural::from_u128(u128::from(g.n));
                 let unit = Natural::pow10(e.scale);
@@ -772,29 +906,54 @@ fn compensated_oneway(filled: &[&GroupStats]) -> OnewaySums {
                     .add(&Integer::from_i128(e.s1));
                 let mean = ratio_to_double_double(&level, &n_nat.mul(&unit));
                 let centred = ratio_to_double_double(&e.centred_numerator(g.n), &n_nat.mul(&unit).mul(&unit));
-                (g.n, mean, centred)
+                (g.n, mean, centred, 0)
             }
-            HeldSums::Empty => (0, DoubleDouble::from_f64(0.0), DoubleDouble::from_f64(0.0)),
+            HeldSums::Empty => (0, DoubleDouble::from_f64(0.0), DoubleDouble::from_f64(0.0), 0),
         })
         .collect();
     let n_total: u64 = parts.iter().map(|p| p.0).sum();
+    // Means are taken about the first condition's mean and divided by one power of two,
+    // the largest of the conditions' own exponents and the exponent of the largest gap
+    // between means, so that no square overflows or underflows at any magnitude.
+    let reference = parts[0].1;
+    let widest_gap = parts
+        .iter()
+        .map(|part| part.1.sub(reference).hi.abs())
+        .fold(0.0, f64::max);
+    let mut exponent = parts
+        .iter()
+        .filter(|part| part.2.hi > 0.0)
+        .map(|part| part.3)
+        .max()
+        .unwrap_or(i32::MIN);
+    if widest_gap > 0.0 {
+        exponent = exponent.max(binary_exponent(widest_gap));
+    }
+    if exponent == i32::MIN {
+        exponent = 0;
+    }
+    let down = -i64::from(exponent);
     let mut weighted = DoubleDouble::from_f64(0.0);
     let mut within = DoubleDouble::from_f64(0.0);
-    for &(n, mean, centred) in &parts {
-        weighted = weighted.add(mean.mul_f64(n as f64));
-        within = within.add(centred);
+    for &(n, mean, centred, own) in &parts {
+        weighted = weighted.add(mean.sub(reference).scale(down).mul_f64(n as f64));
+        within = within.add(centred.scale(2 * (i64::from(own) + down)));
     }
-    let grand = weighted.div(DoubleDouble::from_f64(n_total as f64));
+    let grand_gap = weighted.div(DoubleDouble::from_f64(n_total as f64));
+    let grand = grand_gap.scale(-down).add(reference);
     let mut between = DoubleDouble::from_f64(0.0);
-    for &(n, mean, _) in &parts {
-        let gap = mean.sub(grand);
+    for &(n, mean, _, _) in &parts {
+        let gap = mean.sub(reference).scale(down).sub(grand_gap);
         between = between.add(gap.mul(gap).mul_f64(n as f64));
     }
     let total = between.add(within);
+    let unscale = |x: DoubleDouble| scale_by_power_of_two(x.hi, -2 * down);
     OnewaySums {
-        ss_between: between.hi,
-        ss_within: within.hi,
-        ss_total: total.hi,
+        ss_between: unscale(between),
+        ss_within: unscale(within),
+        ss_total: unscale(total),
+        scaled: [between.hi, within.hi, total.hi],
+        scale_exponent: exponent,
         grand_mean: grand.hi,
         n_total,
         n_groups: parts.len(),
@@ -1130,7 +1289,7 @@ fn ratio_to_f64(num: &Integer, den: &Natural) -> f64 {
 }
 
 /// `x * 2^e`, exact when the result is a normal number.
-fn scale_by_power_of_two(mut x: f64, mut e: i64) -> f64 {
+pub fn scale_by_power_of_two(mut x: f64, mut e: i64) -> f64 {
     let step = |k: i64| f64::from_bits(((k + 1023) as u64) << 52);
     while e > 1000 {
         x *= step(1000);

@@ -7,6 +7,7 @@
 //! [`check_normality`]).
 
 use super::StatsError;
+use crate::stats::accumulate::{magnitude_exponent, scale_by_power_of_two};
 use crate::stats::dist;
 
 /// Largest sample size for which Royston's Shapiro-Wilk approximation is published.
@@ -142,6 +143,19 @@ fn check_size(n: usize, what: &'static str) -> Result<(), StatsError> {
     Ok(())
 }
 
+/// The values divided by a power of two when their magnitude would make squares
+/// overflow or underflow, with that exponent; `None` when no scaling is needed.
+fn at_unit_scale(values: &[f64]) -> Option<(Vec<f64>, i32)> {
+    let exponent = magnitude_exponent(values);
+    (exponent != 0).then(|| {
+        let down = -i64::from(exponent);
+        (
+            values.iter().map(|&value| scale_by_power_of_two(value, down)).collect(),
+            exponent,
+        )
+    })
+}
+
 /// Mean and sum of squared deviations (two passes).
 fn mean_and_ssq(values: &[f64]) -> (f64, f64) {
     let mean = values.iter().sum::<f64>() / values.len() as f64;
@@ -223,6 +237,11 @@ pub fn shapiro_wilk(values: &[f64]) -> Result<ShapiroWilk, StatsError> {
 /// for unsorted or non-finite input, and (with name [`ALL_EQUAL_NAME`]) when all values
 /// are equal.
 pub fn shapiro_wilk_sorted(sorted: &[f64]) -> Result<ShapiroWilk, StatsError> {
+    // W does not depend on the unit: values of any magnitude are divided by a power of
+    // two (exactly) so that their squares stay within the range of f64.
+    if let Some((scaled, _)) = at_unit_scale(sorted) {
+        return shapiro_wilk_sorted(&scaled);
+    }
     let n = sorted.len();
     check_size(n, "Shapiro-Wilk test")?;
     if n > SHAPIRO_WILK_MAX_N {
@@ -349,6 +368,16 @@ pub fn anderson_darling(values: &[f64]) -> Result<AndersonDarling, StatsError> {
 /// `TooFewValues` for n < 3; `InvalidParameter` for unsorted or non-finite input and
 /// (with name [`ALL_EQUAL_NAME`]) when all values are equal.
 pub fn anderson_darling_sorted(sorted: &[f64]) -> Result<AndersonDarling, StatsError> {
+    // A² does not depend on the unit (see `shapiro_wilk_sorted`); the mean and SD are
+    // given back in the data's unit.
+    if let Some((scaled, exponent)) = at_unit_scale(sorted) {
+        let unit = i64::from(exponent);
+        return anderson_darling_sorted(&scaled).map(|test| AndersonDarling {
+            mean: scale_by_power_of_two(test.mean, unit),
+            sd: scale_by_power_of_two(test.sd, unit),
+            ..test
+        });
+    }
     let n = sorted.len();
     check_size(n, "Anderson-Darling test")?;
     check_sorted(sorted)?;

@@ -3,7 +3,28 @@
 //! to the smallest group standard deviation.
 
 use super::StatsError;
+use crate::stats::accumulate::{magnitude_exponent, scale_by_power_of_two};
 use crate::stats::dist;
+
+/// The groups divided by a power of two when their magnitude would make squares
+/// overflow or underflow (see [`magnitude_exponent`]), with that exponent; `None` when
+/// no scaling is needed. Dividing by a power of two is exact, so the test statistics
+/// below, which do not depend on the unit, are those of the data at scale 1.
+fn at_unit_scale(groups: &[&[f64]]) -> Option<(Vec<Vec<f64>>, i32)> {
+    let exponent = magnitude_exponent(groups.iter().flat_map(|group| group.iter()));
+    (exponent != 0).then(|| {
+        let down = -i64::from(exponent);
+        let scaled = groups
+            .iter()
+            .map(|group| group.iter().map(|&value| scale_by_power_of_two(value, down)).collect())
+            .collect();
+        (scaled, exponent)
+    })
+}
+
+fn slices(groups: &[Vec<f64>]) -> Vec<&[f64]> {
+    groups.iter().map(Vec::as_slice).collect()
+}
 
 /// Where the absolute deviations of Levene's test are measured from.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -166,6 +187,13 @@ fn chi_square_upper_tail(x: f64, df: f64) -> Result<f64, StatsError> {
 /// within groups (for instance every group has two values, or every group is constant),
 /// which leaves the F ratio undefined.
 pub fn levene(groups: &[&[f64]], centre: Centre) -> Result<LeveneTest, StatsError> {
+    match at_unit_scale(groups) {
+        Some((scaled, _)) => levene_at_scale(&slices(&scaled), centre),
+        None => levene_at_scale(groups, centre),
+    }
+}
+
+fn levene_at_scale(groups: &[&[f64]], centre: Centre) -> Result<LeveneTest, StatsError> {
     let n_total = validate_groups(groups, "groups for Levene's test")?;
     let n_groups = groups.len();
     let deviations: Vec<Vec<f64>> = groups
@@ -236,6 +264,16 @@ pub fn brown_forsythe(groups: &[&[f64]]) -> Result<LeveneTest, StatsError> {
 /// `InvalidParameter` for non-finite values or a group whose values are all equal
 /// (its variance is zero and the logarithm undefined).
 pub fn bartlett(groups: &[&[f64]]) -> Result<BartlettTest, StatsError> {
+    match at_unit_scale(groups) {
+        Some((scaled, exponent)) => bartlett_at_scale(&slices(&scaled)).map(|test| BartlettTest {
+            pooled_variance: scale_by_power_of_two(test.pooled_variance, 2 * i64::from(exponent)),
+            ..test
+        }),
+        None => bartlett_at_scale(groups),
+    }
+}
+
+fn bartlett_at_scale(groups: &[&[f64]]) -> Result<BartlettTest, StatsError> {
     let n_total = validate_groups(groups, "groups for Bartlett's test")?;
     let n_groups = groups.len();
     let variances: Vec<f64> = groups.iter().map(|g| variance(g)).collect();
@@ -283,6 +321,17 @@ pub fn bartlett(groups: &[&[f64]]) -> Result<BartlettTest, StatsError> {
 /// `TooFewValues` for fewer than two groups or a group with fewer than two values;
 /// `InvalidParameter` for non-finite values or when the smallest SD is zero.
 pub fn sd_ratio(groups: &[&[f64]]) -> Result<SdRatio, StatsError> {
+    match at_unit_scale(groups) {
+        Some((scaled, exponent)) => sd_ratio_at_scale(&slices(&scaled)).map(|ratio| SdRatio {
+            largest_sd: scale_by_power_of_two(ratio.largest_sd, i64::from(exponent)),
+            smallest_sd: scale_by_power_of_two(ratio.smallest_sd, i64::from(exponent)),
+            ..ratio
+        }),
+        None => sd_ratio_at_scale(groups),
+    }
+}
+
+fn sd_ratio_at_scale(groups: &[&[f64]]) -> Result<SdRatio, StatsError> {
     validate_groups(groups, "groups for the SD ratio")?;
     let sds: Vec<f64> = groups.iter().map(|g| variance(g).sqrt()).collect();
     let mut largest_group = 0;

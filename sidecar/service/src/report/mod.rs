@@ -722,6 +722,21 @@ fn provenance_sheet(results: &WorkbookResults) -> Sheet {
                 },
             ));
         }
+        if let Some(factorial) = response
+            .factorial
+            .as_ref()
+            .filter(|factorial| factorial.model.is_some() || factorial.two_level.is_some())
+        {
+            rows.push((
+                format!("arithmetic for '{}' (factorial model)", response.name),
+                if factorial.exact_decimal {
+                    "exact decimal accumulation of the deviations from one centre (every value had a short decimal form)"
+                        .into()
+                } else {
+                    "compensated binary accumulation of the deviations from one centre".into()
+                },
+            ));
+        }
     }
     rows.push(("tool".into(), format!("{} {}", results.tool, results.tool_version)));
     rows.push(("results format".into(), results.format_version.to_string()));
@@ -1004,6 +1019,19 @@ mod tests {
             assert!(order.contains(&expected), "no sheet '{expected}' in {order:?}");
         }
         assert_named_sheets_exist(&book);
+        // The provenance sheet says which arithmetic each model used: the values are
+        // short decimals, so both the one-way and the factorial sums were exact.
+        let provenance: Vec<&str> = texts(sheet(&book, super::names::PROVENANCE)).collect();
+        let row = provenance
+            .iter()
+            .position(|text| *text == "arithmetic for 'Strength' (factorial model)")
+            .unwrap_or_else(|| panic!("no factorial arithmetic row in {provenance:?}"));
+        assert!(
+            provenance[row + 1].starts_with("exact decimal accumulation of the deviations"),
+            "{}",
+            provenance[row + 1]
+        );
+        assert!(provenance.contains(&"arithmetic for 'Strength'"), "{provenance:?}");
     }
 
     #[test]

@@ -10,14 +10,16 @@ use super::results::CellsSummary;
 const DIRECT_GRID_MAX: usize = 4096;
 use super::FactorialData;
 
-/// Cell summaries over the used factors, and the cell (index into the result) of each
-/// model record. `None` when the grid of combinations is too large.
+/// Cell summaries over the used factors, the cell (index into the result) of each
+/// model record, and whether every sum was held exactly (every value had a short decimal
+/// form; otherwise compensated binary sums were used). `None` when the grid of
+/// combinations is too large.
 pub(super) fn summarise(
     table: &FactorialData<'_>,
     used: &[UsedFactor],
     records: &[usize],
     n_possible: Option<usize>,
-) -> Option<(Vec<CellSummary>, Vec<u32>)> {
+) -> Option<(Vec<CellSummary>, Vec<u32>, bool)> {
     let n_possible = n_possible.filter(|&n| n <= crate::stats::linear_model::MAX_LEVEL_COMBINATIONS)?;
     // Accumulate, centre, solve: the cells hold sums of deviations from one centre, typed
     // decimals differenced exactly (see `centre_values`), so a large offset costs nothing.
@@ -79,6 +81,7 @@ pub(super) fn summarise(
     } else {
         all_stats
     };
+    let exact_decimal = centred.exact_decimal && stats.iter().all(|group| group.exact_decimal);
     let mut cell_of_record = grid_index;
     for slot in &mut cell_of_record {
         *slot = compact[*slot as usize];
@@ -103,7 +106,7 @@ pub(super) fn summarise(
             }
         })
         .collect();
-    Some((cells, cell_of_record))
+    Some((cells, cell_of_record, exact_decimal))
 }
 
 /// What the cells hold: combinations possible and present, the range of counts, balance

@@ -200,7 +200,7 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
         .iter()
         .try_fold(1usize, |product, &count| product.checked_mul(count));
     let cells_result = summarise(table, &used, &model_records, n_possible);
-    let (cells, cell_of_record) = match cells_result {
+    let (cells, cell_of_record, exact_decimal) = match cells_result {
         Some(found) => found,
         None => {
             notes.push(format!(
@@ -222,6 +222,7 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
                 cautions,
                 notes,
                 mixed_levels_record,
+                exact_decimal: false,
             });
         }
     };
@@ -322,6 +323,7 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
         cautions,
         notes,
         mixed_levels_record,
+        exact_decimal,
     })
 }
 

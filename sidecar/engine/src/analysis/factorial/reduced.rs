@@ -7,7 +7,7 @@ use nalgebra::{DMatrix, DVector};
 
 use crate::analysis::verdict::round_for_text;
 use crate::options::Direction;
-use crate::stats::accumulate::GroupAccumulator;
+use crate::stats::accumulate::{centre_values, GroupAccumulator};
 use crate::stats::dist::t_sf;
 use crate::stats::linear_model::{CellSummary, FactorialFit};
 use crate::stats::two_level::Word;
@@ -67,9 +67,19 @@ impl RowFit {
     }
 }
 
-/// Weighted least squares by Householder QR: rows `x_c`, weights `n_c`, cell means and
-/// centred sums. `None` when the columns are dependent or there are too few cells.
-pub(super) fn fit_rows(rows: &[Vec<f64>], counts: &[usize], means: &[f64], centred: &[f64]) -> Option<RowFit> {
+/// Weighted least squares by Householder QR: rows `x_c` (the first column the
+/// intercept), weights `n_c`, cell means as deviations from `centre` (exactly
+/// accumulated, see `stats::accumulate::centre_values`) and centred sums. The fit runs on
+/// the deviations, so a large offset costs no digits; `centre` is added back through the
+/// intercept. `None` when the columns are dependent or there are too few cells.
+pub(super) fn fit_rows(
+    rows: &[Vec<f64>],
+    counts: &[usize],
+    centred_means: &[f64],
+    centred: &[f64],
+    centre: f64,
+) -> Option<RowFit> {
+    let means = centred_means;
     let n_columns = rows.first()?.len();
     if rows.len() < n_columns {
         return None;
@@ -93,8 +103,9 @@ pub(super) fn fit_rows(rows: &[Vec<f64>], counts: &[usize], means: &[f64], centr
         }
     }
     let q_transpose_y = qr.q().transpose() * &response;
-    let coefficients = r.solve_upper_triangular(&q_transpose_y)?;
+    let mut coefficients = r.solve_upper_triangular(&q_transpose_y)?;
     let fitted = &matrix * &coefficients;
+    coefficients[0] += centre;
     let within: f64 = centred.iter().sum();
     let lack: f64 = (&response - fitted).norm_squared();
     let n_total: usize = counts.iter().sum();
@@ -224,9 +235,12 @@ pub(super) fn reduced_general(input: &ReducedInput<'_>, alpha: f64) -> Option<Re
         .map(|cell| column_row(&columns, used, &cell.levels, None, false))
         .collect();
     let counts: Vec<usize> = input.cells.iter().map(|c| c.n).collect();
-    let means: Vec<f64> = input.cells.iter().map(|c| c.mean).collect();
+    let means: Vec<f64> = input.cells.iter().map(|c| c.centred_mean).collect();
     let centred: Vec<f64> = input.cells.iter().map(|c| c.centred_ss).collect();
-    let row_fit = fit_rows(&rows, &counts, &means, &centred)?;
+    // The cells hold means about one centre (`cells::summarise`); the centre is recovered
+    // from the first cell to within half a unit in the last place of the data.
+    let centre = input.cells.first().map_or(0.0, |cell| cell.mean - cell.centred_mean);
+    let row_fit = fit_rows(&rows, &counts, &means, &centred, centre)?;
     let sigma = (row_fit.residual_df > 0).then(|| (row_fit.residual_ss / row_fit.residual_df as f64).sqrt());
     let fitted_cells: Vec<f64> = rows.iter().map(|row| dot(row, &row_fit.coefficients)).collect();
     let residual_check = residual_check(input, &fitted_cells, sigma);
@@ -569,14 +583,19 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
         cell_values[index].push(values[record]);
         cell_of.push(index);
     }
+    // Accumulate, centre, solve: the cells hold sums of deviations from one centre, typed
+    // decimals differenced exactly, so a large offset costs no digits of the effects.
+    let all_values: Vec<f64> = cell_values.iter().flatten().copied().collect();
+    let centring = centre_values(&all_values);
+    let mut deviations = centring.deviations.iter();
     let mut counts = Vec::new();
     let mut means = Vec::new();
     let mut centred = Vec::new();
     let mut rows = Vec::new();
     for (cell, group) in cell_values.iter().enumerate() {
         let mut accumulator = GroupAccumulator::new(1);
-        for &value in group {
-            accumulator.push(0, value).ok()?;
+        for &deviation in deviations.by_ref().take(group.len()) {
+            accumulator.push(0, deviation).ok()?;
         }
         let stats = accumulator.finish();
         counts.push(group.len());
@@ -590,7 +609,7 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
             cell_centre[cell],
         ));
     }
-    let row_fit = fit_rows(&rows, &counts, &means, &centred)?;
+    let row_fit = fit_rows(&rows, &counts, &means, &centred, centring.centre)?;
     let sigma = (row_fit.residual_df > 0).then(|| (row_fit.residual_ss / row_fit.residual_df as f64).sqrt());
     let fitted_cells: Vec<f64> = rows.iter().map(|row| dot(row, &row_fit.coefficients)).collect();
     let residuals: Vec<f64> = records

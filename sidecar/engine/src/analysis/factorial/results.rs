@@ -480,4 +480,10 @@ pub struct FactorialOutcome {
     pub cautions: Vec<String>,
     /// Remarks on what was left out or could not be done.
     pub notes: Vec<String>,
+    /// `true` when the cell sums of the model were held exactly (every value had a short
+    /// decimal form and was differenced exactly from one centre), `false` when
+    /// compensated binary sums were used or no model was fitted. Said on the provenance
+    /// sheet; not part of the results document.
+    #[serde(skip)]
+    pub exact_decimal: bool,
 }

@@ -794,6 +794,7 @@ fn offset_data_keep_every_digit_of_effects_and_sums_of_squares() {
     // coefficients in units of 1e-4 (half effects): a, b, c, ab, ac, bc, abc
     let half_effects: [i64; 7] = [100, 37, 1, 13, 2, 7, 1];
     let mut rng = Rng(0x0FF5_E7DA_7A00_0016);
+    let mut checked_coefficients = 0;
     for offset in [1_000_000_i64, 1_000_000_000] {
         let mut labels: Vec<Vec<String>> = vec![Vec::new(); 3];
         let mut units: Vec<i64> = Vec::new();
@@ -832,6 +833,7 @@ fn offset_data_keep_every_digit_of_effects_and_sums_of_squares() {
         let outcome = analyse_factorial(&data.data(), &FactorialOptions::default()).expect("outcome");
         let model = outcome.model.as_ref().expect("k-way model");
         let two_level = outcome.two_level.as_ref().expect("two-level analysis");
+        let reduced = outcome.reduced.as_ref().expect("reduced model");
         let n = units.len() as i64;
         for word in 1..8usize {
             let members: Vec<usize> = (0..3).filter(|f| word >> f & 1 == 1).collect();
@@ -867,6 +869,37 @@ fn offset_data_keep_every_digit_of_effects_and_sums_of_squares() {
                 line.source, line.sum_sq, effect.effect
             );
             assert!(ss_lre >= 12.0 && effect_lre >= 12.0, "offset {offset}, {term_name:?}");
+            // The reduced model is fitted to the exactly accumulated deviations: each of
+            // its coefficients (coded -1/+1) is half the effect, C / N in units of 1e-4.
+            if let Some(coefficient) = reduced
+                .coefficients
+                .iter()
+                .find(|line| names_of(line.name.split('(').nth(1).unwrap_or("")) == term_name)
+            {
+                let expected = contrast as f64 / (n * 10_000) as f64;
+                let lre = log_relative_error(coefficient.estimate.abs(), expected.abs());
+                println!(
+                    "offset {offset:e} reduced-model coefficient {}: {:e} (exact {expected:e}) LRE {lre:.1}",
+                    coefficient.name, coefficient.estimate
+                );
+                assert!(lre >= 12.0, "offset {offset}, reduced coefficient {}", coefficient.name);
+                checked_coefficients += 1;
+            }
         }
+        // The intercept is the grand mean, offset + sum k / (N 10^4): one correctly rounded
+        // division of exact integers (both below 2^53).
+        let intercept = &reduced.coefficients[0];
+        let numerator = offset * n * 10_000 + units.iter().sum::<i64>();
+        let expected = numerator as f64 / (n * 10_000) as f64;
+        let lre = log_relative_error(intercept.estimate, expected);
+        println!(
+            "offset {offset:e} reduced-model intercept: {:e} (exact {expected:e}) LRE {lre:.1}",
+            intercept.estimate
+        );
+        assert!(lre >= 15.0, "offset {offset}, intercept");
     }
+    assert!(
+        checked_coefficients >= 4,
+        "the reduced models kept {checked_coefficients} coefficients"
+    );
 }
