@@ -18,6 +18,7 @@ pub mod documents;
 pub mod framing;
 pub mod from_proto;
 pub mod planning;
+pub mod quick_check;
 pub mod server;
 pub mod to_proto;
 
