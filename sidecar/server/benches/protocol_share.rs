@@ -10,6 +10,7 @@
 
 use divan::Bencher;
 use serde_json::{json, Value};
+use server::answer_tables::BookTables;
 use server::framing::check_body;
 use server::from_proto::cells_params;
 use server::server::CellsAnswer;
@@ -80,7 +81,7 @@ fn analysed(params: &Value) -> service::WorkbookResults {
 /// The answer as the library writes it: the result turned into its value,
 /// the response written as JSON.
 fn answer_bytes(results: service::WorkbookResults) -> Vec<u8> {
-    let tables = book_tables(&service::report::build_results_book(&results));
+    let tables = BookTables(service::report::build_results_book(&results));
     let answer = CellsAnswer { results, tables };
     let value = serde_json::to_value(&answer).expect("answer");
     let response = Response::from_ok(12.into(), value);
@@ -140,4 +141,38 @@ fn protocol_share(bencher: Bencher<'_, '_>) {
         let n = read.n_cells;
         (n, answer_bytes(results))
     });
+}
+
+/// Parts of the answer, the former way: the result tables laid out from the
+/// results as owned rows (each value and format code copied).
+#[divan::bench(sample_count = 200)]
+fn answer_part_tables_former(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    bencher.bench(|| book_tables(&service::report::build_results_book(&results)).len());
+}
+
+/// Parts of the answer: the library's value made from the answer.
+#[divan::bench(sample_count = 200)]
+fn answer_part_value(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    let tables = BookTables(service::report::build_results_book(&results));
+    let answer = CellsAnswer { results, tables };
+    bencher.bench(|| serde_json::to_value(&answer).map(|value| value.is_object()).ok());
+}
+
+/// Parts of the answer: the value written as JSON.
+#[divan::bench(sample_count = 200)]
+fn answer_part_json(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    let tables = BookTables(service::report::build_results_book(&results));
+    let value = serde_json::to_value(CellsAnswer { results, tables }).expect("answer");
+    let response = Response::from_ok(12.into(), value);
+    bencher.bench(|| serde_json::to_vec(&response).map(|bytes| bytes.len()).ok());
+}
+
+/// Parts of the answer: the report model alone (the service's layout of the results).
+#[divan::bench(sample_count = 200)]
+fn answer_part_report_model(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    bencher.bench(|| service::report::build_results_book(&results).sheets.len());
 }

@@ -14,6 +14,7 @@
 //!
 //! The methods are documented in `sidecar/docs/protocol.md`.
 
+pub mod answer_tables;
 pub mod documents;
 pub mod framing;
 pub mod from_proto;

@@ -17,9 +17,11 @@
 //! number that fits in 64 signed bits, a string or null, and none of these
 //! four keys twice. Unknown keys are allowed, as the library allows them.
 //!
-//! [`is_plain_request`] answers true only when all of that holds; anything
-//! else (responses, batches, odd shapes, bad JSON) goes to the guard's full
-//! check, which reads it as the library does and words the error answer.
+//! [`is_plain_request`] answers true only when all of that holds (a
+//! response of the usual shape passes too: it has the same keys but
+//! `method`, which the library's request type gives a default); anything
+//! else (batches, odd shapes, bad JSON) goes to the guard's full check,
+//! which reads it as the library does and words the error answer.
 
 use std::fmt;
 
@@ -279,10 +281,14 @@ mod tests {
         );
         assert!(!library_reads(&deep));
         assert!(!is_plain_request(&deep));
-        // Responses are the full check's business: the quick check says no.
+        // A response has the request's keys but `method` (which the library's
+        // request type gives a default), so it passes too: the library reads it.
         let response = r#"{"jsonrpc":"2.0","id":1,"result":null}"#;
         assert!(library_reads(response));
-        assert!(!is_plain_request(response));
+        assert!(is_plain_request(response));
+        // An error response with a float id is left to the full check.
+        let odd = r#"{"jsonrpc":"2.0","id":1.5,"error":{"code":1,"message":"m"}}"#;
+        assert!(!is_plain_request(odd));
     }
 
     /// Generated bodies: whatever the quick check passes, the library reads.
