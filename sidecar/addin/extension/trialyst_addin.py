@@ -42,6 +42,8 @@ OPTIONS_IMPLEMENTATION = "org.trialyst.addin.OptionsPage"
 EXTENSION_ID = "org.trialyst.addin"
 PROTOCOL = "org.trialyst.addin:"
 SETTINGS_NODE = "/org.trialyst.addin.Settings/Sidecar"
+#: Arguments the office adds to a dispatch of its own accord.
+OFFICE_ARGUMENTS = ("SynchronMode", "Referer", "KeyModifier", "Frame")
 SUCCESS = 1  # com.sun.star.frame.DispatchResultState.SUCCESS
 FAILURE = 0
 
@@ -162,6 +164,7 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
     def __init__(self, ctx, *args):
         self.ctx = ctx
         self.frame = None
+        self.indicator = None
         self.log = trialyst_client.log_to_file(log_path(ctx))
 
     # XInitialization
@@ -201,7 +204,9 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
     # XNotifyingDispatch
     def dispatchWithNotification(self, url, arguments, listener):
         command = url.Path
-        arguments = {item.Name: item.Value for item in (arguments or ())}
+        # The office's own dispatch arguments (a dispatch helper's SynchronMode,
+        # a menu's Referer and KeyModifier) are not the command's.
+        arguments = {item.Name: item.Value for item in (arguments or ()) if item.Name not in OFFICE_ARGUMENTS}
         started = time.perf_counter()
         state, outcome = SUCCESS, {}
         try:
@@ -249,9 +254,15 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         except Exception:
             self.log("could not show a message box: " + traceback.format_exc())
 
+    def status_indicator(self):
+        """The frame's status-bar indicator, made once per frame."""
+        if self.indicator is None:
+            self.indicator = self.frame.createStatusIndicator()
+        return self.indicator
+
     def status_text(self, text):
         try:
-            indicator = self.frame.createStatusIndicator()
+            indicator = self.status_indicator()
             indicator.start(text, 0)
             indicator.end()
         except Exception:
@@ -281,7 +292,7 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         cancels."""
         indicator = None
         try:
-            indicator = self.frame.createStatusIndicator()
+            indicator = self.status_indicator()
             indicator.start("trialyst: " + title, 100)
         except Exception:
             indicator = None
@@ -384,21 +395,19 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         answered = time.perf_counter()
         kind = "inspect" if findings_only else "analyse"
         trialyst_sheets.PHASES.clear()
-        # A rerun replaces the sheets and marks of the former run. The new
+        # A rerun writes over the sheets and marks of the former run. The new
         # sheets do not go to the undo list; the user's own edits stay undoable.
-        # The former run's sheets are emptied and filled again (removing and
-        # inserting sheets is slow); removing sheets while the undo list is
-        # locked stops the office, so clearing and removal stay outside it.
+        # Removing sheets while the undo list is locked stops the office, so
+        # the former run's charts and unused sheets are removed outside it.
         document.getCurrentController().setActiveSheet(sheet)
         trialyst_sheets.clear_own_sheets(document, ("inspect", "analyse"))
         undo = document.getUndoManager()
         undo.lock()
         try:
-            started_marks = time.perf_counter()
-            trialyst_sheets.clear_all_marks(document)
-            trialyst_sheets.timed("clear marks", started_marks)
-            document.lockControllers()
-            try:
+            with trialyst_sheets.quiet_document(document):
+                started_marks = time.perf_counter()
+                trialyst_sheets.clear_all_marks(document)
+                trialyst_sheets.timed("clear marks", started_marks)
                 controller = document.getCurrentController()
                 names = []
                 cache = {}
@@ -412,12 +421,12 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
                     names.append(trialyst_sheets.write_problems_sheet(document, controller, findings, kind, cache))
                 trialyst_sheets.timed("marks", started_marks)
                 controller.setActiveSheet(document.getSheets().getByName(names[0]) if names else sheet)
-            finally:
-                document.unlockControllers()
         finally:
             undo.unlock()
         trialyst_sheets.remove_unused_sheets(document)
+        started_status = time.perf_counter()
         self.status_text("trialyst: %d sheets written, %d data problems marked" % (len(names), comments))
+        trialyst_sheets.timed("status", started_status)
         for problem in trialyst_sheets.CHART_PROBLEMS:
             self.log("chart not drawn: " + problem)
         charts_missed = len(trialyst_sheets.CHART_PROBLEMS)
@@ -463,7 +472,8 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         sidecar = self.sidecar(document)
         answer = self.run_request(sidecar, "trialyst/planTrial", params, "planning")
         trialyst_sheets.remove_own_sheets(document, "plan")
-        names, _, _ = self.write_tables(document, answer["tables"], "plan")
+        with trialyst_sheets.quiet_document(document):
+            names, _, _ = self.write_tables(document, answer["tables"], "plan")
         document.getCurrentController().setActiveSheet(document.getSheets().getByName(names[0]))
         return {"sheets": names, "runs": answer["plan"]["runs"]}
 
@@ -498,7 +508,8 @@ class Commands(unohelper.Base, XDispatchProvider, XNotifyingDispatch, XInitializ
         sidecar = self.sidecar(document)
         answer = self.run_request(sidecar, "trialyst/sizeTrial", params, "sizing")
         trialyst_sheets.remove_own_sheets(document, "size")
-        names, _, _ = self.write_tables(document, answer["tables"], "size")
+        with trialyst_sheets.quiet_document(document):
+            names, _, _ = self.write_tables(document, answer["tables"], "size")
         document.getCurrentController().setActiveSheet(document.getSheets().getByName(names[0]))
         return {"sheets": names, "needed": answer["answer"]["needed"]}
 

@@ -75,12 +75,18 @@ class Office:
         self.pipe = pipe
         self.process = None
 
-    def start(self, environment):
+    def start(self, environment, display=None):
+        """Starts the office headless, or with windows on `display`."""
+        if display:
+            environment = dict(environment, DISPLAY=display)
+        self.errors = subprocess.DEVNULL
+        if display:
+            self.errors = open(self.profile + "-office-errors.txt", "wb")
         self.process = subprocess.Popen(
             [
                 "soffice",
                 "-env:UserInstallation=" + uno.systemPathToFileUrl(self.profile),
-                "--headless",
+                "--nodefault" if display else "--headless",
                 "--invisible",
                 "--norestore",
                 "--nologo",
@@ -88,7 +94,7 @@ class Office:
             ],
             env=environment,
             stdout=subprocess.DEVNULL,
-            stderr=subprocess.DEVNULL,
+            stderr=self.errors,
             start_new_session=True,
         )
         local = uno.getComponentContext()
@@ -102,6 +108,10 @@ class Office:
                 break
             except Exception:
                 if time.monotonic() > deadline or self.process.poll() is not None:
+                    if self.errors is not subprocess.DEVNULL:
+                        self.errors.close()
+                        with open(self.errors.name, "rb") as handle:
+                            print("the office ended with %s: %s" % (self.process.poll(), handle.read()[-2000:].decode("utf-8", "replace")))
                     raise
                 time.sleep(0.3)
         self.smgr = self.ctx.ServiceManager
@@ -174,6 +184,7 @@ def main():
     parser.add_argument("--samples", required=True)
     parser.add_argument("--work", required=True)
     parser.add_argument("--picture")
+    parser.add_argument("--display", help="an X display (Xvfb) for the checks that need the office's windows")
     arguments = parser.parse_args()
     work = arguments.work
     environment = dict(os.environ, TRIALYST_PROGRAM="")
@@ -190,12 +201,51 @@ def main():
             office.process.wait(20)
         except subprocess.TimeoutExpired:
             office.kill()
+    if arguments.display:
+        run_with_display(arguments, work, environment)
+    else:
+        print("no display given: the menu click, the options page and the dialogs are not checked")
     print("timings: " + json.dumps(TIMINGS))
     if FAILURES:
         print("%d checks failed" % len(FAILURES))
         return 1
     print("all checks passed")
     return 0
+
+
+def run_with_display(arguments, work, environment):
+    """A second office, with windows on the display, for the checks that
+    need them (e2e_gui.py)."""
+    import e2e_gui
+
+    # The office killed at the end of the headless checks left its lock.
+    lock = os.path.join(arguments.profile, ".lock")
+    if os.path.exists(lock):
+        os.remove(lock)
+    office = Office(arguments.profile, "trialyst-e2e-gui-%d" % os.getpid())
+    try:
+        office.start(environment, display=arguments.display)
+    except Exception as error:
+        # The launcher sometimes ends at once after an office was killed on
+        # the same profile; a second start finds it free.
+        print("the office with a display did not start (%r); starting it again" % error)
+        office.kill()
+        time.sleep(2)
+        office.start(environment, display=arguments.display)
+    try:
+        helpers = {"select": select, "sheet_values": sheet_values, "props": props}
+        e2e_gui.run_gui_checks(office, arguments, work, check, helpers)
+    except Exception as error:
+        check(False, "the checks with windows ran to the end: %r" % error)
+    finally:
+        try:
+            office.desktop.terminate()
+        except Exception:
+            pass
+        try:
+            office.process.wait(20)
+        except subprocess.TimeoutExpired:
+            office.kill()
 
 
 def set_program_setting(office, program):

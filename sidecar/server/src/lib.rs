@@ -14,10 +14,12 @@
 //!
 //! The methods are documented in `sidecar/docs/protocol.md`.
 
+pub mod answer_tables;
 pub mod documents;
 pub mod framing;
 pub mod from_proto;
 pub mod planning;
+pub mod quick_check;
 pub mod server;
 pub mod to_proto;
 

@@ -216,8 +216,8 @@ fn service_error(error: &ServiceError) -> Error {
 pub struct CellsAnswer {
     /// The results document.
     pub results: service::WorkbookResults,
-    /// The result tables.
-    pub tables: Vec<to_proto::SheetTable>,
+    /// The result tables, written straight from the report model.
+    pub tables: crate::answer_tables::BookTables,
 }
 
 /// A request that was valid in form but could not be answered, with its kind.
@@ -417,7 +417,7 @@ impl Shared {
             .run_blocking(&progress, move || {
                 let results = service::analyse_grid(&read.grid, &read.settings, &read.source_name, &cancel)?;
                 // The tables come from the report model, the one place that lays them out.
-                let tables = to_proto::book_tables(&service::report::build_results_book(&results));
+                let tables = crate::answer_tables::BookTables(service::report::build_results_book(&results));
                 Ok::<CellsAnswer, ServiceError>(CellsAnswer { results, tables })
             })
             .await?;

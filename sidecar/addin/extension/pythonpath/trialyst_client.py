@@ -313,18 +313,9 @@ class Sidecar:
 def read_selection_values(rows):
     """Cell values as the office's data arrays give them, into the protocol's
     cells: numbers stay numbers, empty text is a blank, text is text."""
-    cells = []
-    for row in rows:
-        out = []
-        for value in row:
-            if isinstance(value, str) and value == "":
-                out.append(None)
-            elif isinstance(value, float) and value != value:
-                out.append(None)
-            else:
-                out.append(value)
-        cells.append(out)
-    return cells
+    # `value != value` holds for NaN only; one comprehension, as this runs
+    # over every selected cell.
+    return [[None if value == "" or value != value else value for value in row] for row in rows]
 
 
 def column_letters(index):

@@ -6,6 +6,7 @@ Called only from the thread that runs a command (never from the reader
 thread of trialyst_client).
 """
 
+import contextlib
 import json
 import time
 
@@ -38,8 +39,33 @@ def timed(phase, started):
 
 #: Charts that could not be drawn in the last run, for the log.
 CHART_PROBLEMS = []
+#: Columns of a Calc sheet (the 16,384 of current versions).
+MAX_COLUMNS = 16384
 #: A result sheet's name may not exceed this (the xlsx limit).
 MAX_SHEET_NAME = 31
+
+
+@contextlib.contextmanager
+def quiet_document(document):
+    """While writing: no repainting (controllers locked), no layout or
+    notifications (action lock), no recalculation (automatic calculation
+    off); each restored afterwards, and the sheets written recorded."""
+    calculating = document.isAutomaticCalculationEnabled()
+    document.lockControllers()
+    document.addActionLock()
+    document.enableAutomaticCalculation(False)
+    del NEW_OWN_SHEETS[:]
+    try:
+        yield
+    finally:
+        started = time.perf_counter()
+        flush_own_sheets(document)
+        document.enableAutomaticCalculation(calculating)
+        timed("unlock: calculation", started)
+        document.removeActionLock()
+        timed("unlock: actions", started)
+        document.unlockControllers()
+        timed("unlock: controllers", started)
 
 
 def user_property(document, name, default=""):
@@ -70,7 +96,7 @@ def remove_own_sheets(document, prefix=""):
     sheets = document.getSheets()
     kept = []
     for entry in own_sheets(document):
-        kind, _, name = entry.partition("\t")
+        kind, name, _ = own_entry(entry)
         if kind == prefix and sheets.hasByName(name):
             charts = sheets.getByName(name).getCharts()
             for chart_name in charts.getElementNames():
@@ -82,27 +108,41 @@ def remove_own_sheets(document, prefix=""):
     timed("remove", started)
 
 
-#: Sheets of a former run, cleared and kept for the next run to fill
-#: (inserting and removing sheets is the slow part of writing).
+#: Sheets of a former run kept for this run to fill, by name: (sheet, rows
+#: frozen on it). Inserting and removing sheets is the slow part of writing,
+#: so a rerun writes over its former sheets and clears only what is left.
 REUSABLE = {}
+#: Every com.sun.star.sheet.CellFlags but OBJECTS (charts are removed apart).
+CLEAR_ALL_BUT_OBJECTS = 1023 - 512
+#: com.sun.star.sheet.CellFlags HARDATTR + STYLES + EDITATTR: formats only.
+CLEAR_FORMATS = 32 + 64 + 256
+
+
+def own_entry(entry):
+    """(kind, name, frozen rows) of one line of the own-sheets property."""
+    parts = entry.split("\t")
+    kind = parts[0]
+    name = parts[1] if len(parts) > 1 else ""
+    try:
+        frozen = int(parts[2]) if len(parts) > 2 else -1
+    except ValueError:
+        frozen = -1
+    return kind, name, frozen
 
 
 def clear_own_sheets(document, kinds):
-    """Empties the sheets a former run of these kinds wrote (values,
-    formats, charts) and keeps them for reuse; returns how many."""
+    """Keeps the sheets a former run of these kinds wrote for this run to
+    write over; returns how many."""
     started = time.perf_counter()
     sheets = document.getSheets()
     kept = []
     REUSABLE.clear()
     for entry in own_sheets(document):
-        kind, _, name = entry.partition("\t")
+        kind, name, frozen = own_entry(entry)
         if kind in kinds and sheets.hasByName(name):
-            sheet = sheets.getByName(name)
-            charts = sheet.getCharts()
-            for chart_name in charts.getElementNames():
-                charts.removeByName(chart_name)
-            sheet.clearContents(1023)  # every com.sun.star.sheet.CellFlags
-            REUSABLE[name] = sheet
+            # Its charts stay: the next run redraws them in place (removing
+            # and adding charts is slow), and removes those it does not draw.
+            REUSABLE[name] = (sheets.getByName(name), frozen)
         elif kind not in kinds:
             kept.append(entry)
     set_user_property(document, OWN_SHEETS_PROPERTY, "\n".join(kept))
@@ -111,7 +151,7 @@ def clear_own_sheets(document, kinds):
 
 
 def remove_unused_sheets(document):
-    """Removes the cleared sheets of a former run that this run did not fill."""
+    """Removes the sheets of a former run that this run did not fill."""
     started = time.perf_counter()
     sheets = document.getSheets()
     for name in list(REUSABLE):
@@ -144,61 +184,154 @@ def number_format_key(document, code, cache):
 
 
 def add_sheet(document, name, kind, position=None):
-    """A new sheet recorded as the add-in's own (a cleared one of the former
-    run when it had this name); returns (sheet, name)."""
+    """A new sheet recorded as the add-in's own (the former run's sheet of
+    this name when there is one); returns (sheet, name, rows frozen on it
+    before, or -1 for a new sheet)."""
     sheets = document.getSheets()
+    frozen = -1
     if name[:MAX_SHEET_NAME] in REUSABLE:
         name = name[:MAX_SHEET_NAME]
-        del REUSABLE[name]
+        sheet, frozen = REUSABLE.pop(name)
     else:
         name = free_sheet_name(sheets, name)
         sheets.insertNewByName(name, sheets.getCount() if position is None else position)
-    entries = own_sheets(document)
-    entries.append("%s\t%s" % (kind, name))
-    set_user_property(document, OWN_SHEETS_PROPERTY, "\n".join(entries))
-    return sheets.getByName(name), name
+        sheet = sheets.getByName(name)
+    return sheet, name, frozen
+
+
+#: Sheets written in this run, recorded in the document once at the end
+#: of writing (see quiet_document): setting a document property per sheet
+#: notifies every listener each time.
+NEW_OWN_SHEETS = []
+
+
+def record_own_sheet(document, kind, name, frozen):
+    NEW_OWN_SHEETS.append("%s\t%s\t%d" % (kind, name, frozen))
+
+
+def flush_own_sheets(document):
+    if NEW_OWN_SHEETS:
+        entries = own_sheets(document) + NEW_OWN_SHEETS
+        set_user_property(document, OWN_SHEETS_PROPERTY, "\n".join(entries))
+        del NEW_OWN_SHEETS[:]
+
+
+def cell_ranges(document, addresses):
+    """One object for many ranges, so that a property is set in one call."""
+    ranges = document.createInstance("com.sun.star.sheet.SheetCellRanges")
+    ranges.addRangeAddresses(tuple(addresses), False)
+    return ranges
+
+
+def format_blocks(formats, n_rows, n_cols):
+    """The number-format codes as rectangles: {code: [[first col, first row,
+    last col, last row], ...]}: runs of one code down each column, joined
+    across neighbouring columns with the same run. 'General' is left out."""
+    blocks = {}
+    open_runs = {}
+    for col in range(n_cols):
+        runs = []
+        run_start, run_code = 0, None
+        for row in range(n_rows + 1):
+            code = formats[row][col] if row < n_rows and row < len(formats) and col < len(formats[row]) else None
+            if code != run_code:
+                if run_code not in (None, "General"):
+                    runs.append((run_start, row - 1, run_code))
+                run_start, run_code = row, code
+        next_open = {}
+        for run in runs:
+            block = open_runs.get(run)
+            if block is not None:
+                block[2] = col
+            else:
+                block = [col, run[0], col, run[1]]
+                blocks.setdefault(run[2], []).append(block)
+            next_open[run] = block
+        open_runs = next_open
+    return blocks
 
 
 def write_table(document, controller, table, kind, format_cache):
-    """One table of the protocol's answer into a new sheet; returns its name."""
-    sheet, name = add_sheet(document, table["name"], kind)
+    """One table of the protocol's answer into a sheet of its own; returns
+    its name. A former run's sheet of the same name is written over: the
+    new values and formats go on in one call per property, and only the
+    cells the new table does not cover are cleared."""
+    started = time.perf_counter()
+    sheet, name, frozen_before = add_sheet(document, table["name"], kind)
+    timed("sheets", started)
     values = table.get("values") or []
-    if not values:
-        return name
     n_rows = len(values)
-    n_cols = max(len(row) for row in values)
+    n_cols = max((len(row) for row in values), default=0)
+    index = sheet.getRangeAddress().Sheet
+    started = time.perf_counter()
+    if frozen_before >= 0:
+        clear_beyond(sheet, n_rows, n_cols)
+    timed("clear", started)
+    frozen = int(table.get("frozenRows") or 0)
+    if not values:
+        record_own_sheet(document, kind, name, frozen_before if frozen_before >= 0 else 0)
+        return name
+    started = time.perf_counter()
     rows = tuple(
         tuple("" if value is None else value for value in list(row) + [None] * (n_cols - len(row)))
         for row in values
     )
     target = sheet.getCellRangeByPosition(0, 0, n_cols - 1, n_rows - 1)
+    if frozen_before >= 0:
+        target.clearContents(CLEAR_FORMATS)
     target.setDataArray(rows)
-    # Number formats: one property set per run of equal codes in a column.
-    formats = table.get("numberFormats") or []
-    for col in range(n_cols):
-        run_start = 0
-        run_code = None
-        for row in range(n_rows + 1):
-            code = formats[row][col] if row < len(formats) and col < len(formats[row]) else None
-            if code != run_code:
-                if run_code not in (None, "General"):
-                    key = number_format_key(document, run_code, format_cache)
-                    sheet.getCellRangeByPosition(col, run_start, col, row - 1).NumberFormat = key
-                run_start, run_code = row, code
-    for row in table.get("headerRows") or []:
-        if row < n_rows:
-            sheet.getCellRangeByPosition(0, row, n_cols - 1, row).CharWeight = BOLD
-    columns = sheet.getColumns()
-    for col, width in table.get("columnWidths") or []:
-        if col < columns.getCount():
-            columns.getByIndex(int(col)).Width = int(width * CHARACTER_WIDTH)
-    frozen = int(table.get("frozenRows") or 0)
+    timed("values", started)
     started = time.perf_counter()
-    if frozen and controller is not None:
+    # Number formats: one property set per code, over all its rectangles.
+    for code, blocks in format_blocks(table.get("numberFormats") or [], n_rows, n_cols).items():
+        key = number_format_key(document, code, format_cache)
+        addresses = [CellRangeAddress(index, c0, r0, c1, r1) for c0, r0, c1, r1 in blocks]
+        cell_ranges(document, addresses).NumberFormat = key
+    timed("formats: numbers", started)
+    headers = [row for row in table.get("headerRows") or [] if row < n_rows]
+    if headers:
+        cell_ranges(document, [CellRangeAddress(index, 0, row, n_cols - 1, row) for row in headers]).CharWeight = BOLD
+    timed("formats: bold", started)
+    # Widths: one property set per run of neighbouring columns of one width.
+    for first, last, width in width_runs(table.get("columnWidths") or []):
+        sheet.getCellRangeByPosition(first, 0, last, 0).getColumns().Width = width
+    timed("formats", started)
+    started = time.perf_counter()
+    # Freezing works on the active sheet only; a sheet written over keeps
+    # its frozen rows, so only a new sheet or a new count needs the switch.
+    if frozen != max(frozen_before, 0) and controller is not None:
         controller.setActiveSheet(sheet)
         controller.freezeAtPosition(0, frozen)
     timed("freeze", started)
+    record_own_sheet(document, kind, name, frozen)
     return name
+
+
+def width_runs(widths):
+    """[(first col, last col, width in 1/100 mm)] for neighbouring columns of
+    one width, from the protocol's [(col, width in characters)]."""
+    runs = []
+    for col, characters in sorted((int(col), characters) for col, characters in widths):
+        width = int(characters * CHARACTER_WIDTH)
+        if col >= MAX_COLUMNS:
+            continue
+        if runs and runs[-1][1] == col - 1 and runs[-1][2] == width:
+            runs[-1] = (runs[-1][0], col, width)
+        else:
+            runs.append((col, col, width))
+    return runs
+
+
+def clear_beyond(sheet, n_rows, n_cols):
+    """Clears a written-over sheet's cells outside the first n_rows x n_cols."""
+    cursor = sheet.createCursor()
+    cursor.gotoEndOfUsedArea(False)
+    end = cursor.getRangeAddress()
+    if end.EndColumn >= n_cols:
+        sheet.getCellRangeByPosition(n_cols, 0, end.EndColumn, end.EndRow).clearContents(CLEAR_ALL_BUT_OBJECTS)
+    if end.EndRow >= n_rows and n_cols > 0:
+        last_col = min(n_cols - 1, end.EndColumn)
+        sheet.getCellRangeByPosition(0, n_rows, last_col, end.EndRow).clearContents(CLEAR_ALL_BUT_OBJECTS)
 
 
 def draw_charts(document, tables, names):
@@ -208,12 +341,18 @@ def draw_charts(document, tables, names):
     renamed = {table["name"]: name for table, name in zip(tables, names)}
     for table, name in zip(tables, names):
         sheet = document.getSheets().getByName(name)
+        charts = sheet.getCharts()
+        former = set(charts.getElementNames())
         for number, chart in enumerate(table.get("charts") or [], 1):
+            former.discard(chart_name_of(number))
             try:
                 add_chart(document, sheet, name, chart, number, renamed)
             except Exception as error:
                 # A chart the office cannot draw leaves the tables in place.
                 CHART_PROBLEMS.append("%s chart %d: %s" % (name, number, getattr(error, "Message", error)))
+        # A former run's charts this run has no place for.
+        for chart_name in former:
+            charts.removeByName(chart_name)
     timed("charts", started)
 
 
@@ -231,6 +370,23 @@ def range_address(document, description, default_sheet_index, renamed):
     return CellRangeAddress(index, first_col, first_row, last_col, last_row)
 
 
+def chart_name_of(number):
+    return "trialyst chart %d" % number
+
+
+def place_chart_shape(sheet, chart_name, rectangle):
+    """Moves and sizes the drawing shape of a chart already on the sheet."""
+    page = sheet.getDrawPage()
+    for index in range(page.getCount()):
+        shape = page.getByIndex(index)
+        if getattr(shape, "PersistName", None) == chart_name:
+            position, size = shape.getPosition(), shape.getSize()
+            if (position.X, position.Y, size.Width, size.Height) != (rectangle.X, rectangle.Y, rectangle.Width, rectangle.Height):
+                shape.setPosition(uno.createUnoStruct("com.sun.star.awt.Point", rectangle.X, rectangle.Y))
+                shape.setSize(uno.createUnoStruct("com.sun.star.awt.Size", rectangle.Width, rectangle.Height))
+            return
+
+
 def add_chart(document, sheet, sheet_name, chart, number, renamed):
     """A chart described as data, drawn with Calc's own chart objects: one
     series per described series, categories from the first."""
@@ -246,17 +402,24 @@ def add_chart(document, sheet, sheet_name, chart, number, renamed):
     ranges = [range_address(document, series[0]["categories"], index, renamed)]
     ranges += [range_address(document, item["values"], index, renamed) for item in series]
     charts = sheet.getCharts()
-    chart_name = "trialyst chart %d" % number
-    if charts.hasByName(chart_name):
-        charts.removeByName(chart_name)
-    charts.addNewByName(chart_name, rectangle, tuple(ranges), False, True)
-    embedded = charts.getByName(chart_name).getEmbeddedObject()
+    chart_name = chart_name_of(number)
     kind = chart.get("kind")
     diagram_service = {
         "scatter": "com.sun.star.chart.XYDiagram",
         "columns": "com.sun.star.chart.BarDiagram",
     }.get(kind, "com.sun.star.chart.LineDiagram")
-    embedded.setDiagram(embedded.createInstance(diagram_service))
+    if charts.hasByName(chart_name):
+        # A former run's chart in this place: new ranges, place and kind.
+        table_chart = charts.getByName(chart_name)
+        table_chart.setRanges(tuple(ranges))
+        place_chart_shape(sheet, chart_name, rectangle)
+        embedded = table_chart.getEmbeddedObject()
+        if not embedded.getDiagram().supportsService(diagram_service):
+            embedded.setDiagram(embedded.createInstance(diagram_service))
+    else:
+        charts.addNewByName(chart_name, rectangle, tuple(ranges), False, True)
+        embedded = charts.getByName(chart_name).getEmbeddedObject()
+        embedded.setDiagram(embedded.createInstance(diagram_service))
     if kind in ("points", "lines", "scatter"):
         # Markers at every point (com.sun.star.chart.ChartSymbolType.AUTO).
         embedded.getDiagram().SymbolType = -2

@@ -1,0 +1,178 @@
+//! The protocol's share of a `trialyst/analyseCells` request of 10,000
+//! values (8 conditions of 1,250, invented values from a fixed seed): the
+//! framing guard's check, the library's reading of the request, the params
+//! turned into a grid, and the answer (result tables laid out, turned into
+//! the library's value and written as JSON). The analysis itself is timed
+//! apart (`analysis`) and is not the protocol's share. Target: the share
+//! under 2 ms at p50.
+//!
+//! Run in release (the bench profile): `cargo bench -p server --bench protocol_share`.
+
+use divan::Bencher;
+use serde_json::{json, Value};
+use server::answer_tables::BookTables;
+use server::framing::check_body;
+use server::from_proto::cells_params;
+use server::server::CellsAnswer;
+use server::to_proto::book_tables;
+use service::CancelFlag;
+use tower_lsp_server::jsonrpc::{Request, Response};
+
+fn main() {
+    divan::main();
+}
+
+/// How the library reads a message: an untagged choice of response or
+/// request, the same types in the same order as its own message type.
+#[derive(serde::Deserialize)]
+#[serde(untagged)]
+enum Incoming {
+    #[allow(dead_code)]
+    Response(Response),
+    Request(Request),
+}
+
+/// The body of the request, as an add-in sends it.
+fn request_body() -> String {
+    let n_conditions = 8;
+    let n_rows = 10_000 / n_conditions;
+    let mut rows = vec![Value::Array(
+        (1..=n_conditions)
+            .map(|condition| json!(format!("Setting {condition}")))
+            .collect(),
+    )];
+    let mut state: u64 = 0x2545_F491_4F6C_DD1D;
+    for _ in 0..n_rows {
+        let row: Vec<Value> = (0..n_conditions)
+            .map(|condition| {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                let noise = (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5;
+                json!(50.0 + condition as f64 * 0.4 + noise * 3.0)
+            })
+            .collect();
+        rows.push(Value::Array(row));
+    }
+    json!({
+        "jsonrpc": "2.0",
+        "id": 12,
+        "method": "trialyst/analyseCells",
+        "params": {"cells": rows, "origin": "A1", "sheet": "Timing", "sourceName": "timing.ods"},
+    })
+    .to_string()
+}
+
+/// The library's reading of the request and of its params (it hands the
+/// handler `serde_json::from_value` of the params).
+fn library_read(body: &str) -> Value {
+    let Ok(Incoming::Request(request)) = serde_json::from_str::<Incoming>(body) else {
+        panic!("the request reads as a request");
+    };
+    let (_, _, params) = request.into_parts();
+    serde_json::from_value::<Value>(params.unwrap_or(Value::Null)).expect("params")
+}
+
+fn analysed(params: &Value) -> service::WorkbookResults {
+    let read = cells_params(params).expect("cells");
+    service::analyse_grid(&read.grid, &read.settings, &read.source_name, &CancelFlag::default()).expect("analysed")
+}
+
+/// The answer as the library writes it: the result turned into its value,
+/// the response written as JSON.
+fn answer_bytes(results: service::WorkbookResults) -> Vec<u8> {
+    let tables = BookTables(service::report::build_results_book(&results));
+    let answer = CellsAnswer { results, tables };
+    let value = serde_json::to_value(&answer).expect("answer");
+    let response = Response::from_ok(12.into(), value);
+    serde_json::to_vec(&response).expect("written")
+}
+
+#[divan::bench(sample_count = 200)]
+fn framing_check(bencher: Bencher<'_, '_>) {
+    let body = request_body();
+    bencher.bench(|| check_body(body.as_bytes()).is_ok());
+}
+
+/// The guard's former check, for comparison: the message read into the
+/// library's types through a buffered tree, as the library itself reads it.
+#[divan::bench(sample_count = 200)]
+fn framing_check_former(bencher: Bencher<'_, '_>) {
+    let body = request_body();
+    bencher.bench(|| serde_json::from_str::<Incoming>(&body).is_ok());
+}
+
+#[divan::bench(sample_count = 200)]
+fn library_read_request(bencher: Bencher<'_, '_>) {
+    let body = request_body();
+    bencher.bench(|| library_read(&body));
+}
+
+#[divan::bench(sample_count = 200)]
+fn params_to_grid(bencher: Bencher<'_, '_>) {
+    let params = library_read(&request_body());
+    bencher.bench(|| cells_params(&params).map(|read| read.n_cells).ok());
+}
+
+/// The engine's and service's work: not the protocol's share.
+#[divan::bench(sample_count = 50)]
+fn analysis(bencher: Bencher<'_, '_>) {
+    let params = library_read(&request_body());
+    bencher.bench(|| analysed(&params));
+}
+
+#[divan::bench(sample_count = 200)]
+fn answer_written(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    bencher.with_inputs(|| results.clone()).bench_values(answer_bytes);
+}
+
+/// The protocol's share in one: check, read, grid, answer (the analysis
+/// result made beforehand).
+#[divan::bench(sample_count = 200)]
+fn protocol_share(bencher: Bencher<'_, '_>) {
+    let body = request_body();
+    let results = analysed(&library_read(&body));
+    bencher.with_inputs(|| results.clone()).bench_values(|results| {
+        assert!(check_body(body.as_bytes()).is_ok());
+        let params = library_read(&body);
+        let read = cells_params(&params).expect("cells");
+        drop(params);
+        let n = read.n_cells;
+        (n, answer_bytes(results))
+    });
+}
+
+/// Parts of the answer, the former way: the result tables laid out from the
+/// results as owned rows (each value and format code copied).
+#[divan::bench(sample_count = 200)]
+fn answer_part_tables_former(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    bencher.bench(|| book_tables(&service::report::build_results_book(&results)).len());
+}
+
+/// Parts of the answer: the library's value made from the answer.
+#[divan::bench(sample_count = 200)]
+fn answer_part_value(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    let tables = BookTables(service::report::build_results_book(&results));
+    let answer = CellsAnswer { results, tables };
+    bencher.bench(|| serde_json::to_value(&answer).map(|value| value.is_object()).ok());
+}
+
+/// Parts of the answer: the value written as JSON.
+#[divan::bench(sample_count = 200)]
+fn answer_part_json(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    let tables = BookTables(service::report::build_results_book(&results));
+    let value = serde_json::to_value(CellsAnswer { results, tables }).expect("answer");
+    let response = Response::from_ok(12.into(), value);
+    bencher.bench(|| serde_json::to_vec(&response).map(|bytes| bytes.len()).ok());
+}
+
+/// Parts of the answer: the report model alone (the service's layout of the results).
+#[divan::bench(sample_count = 200)]
+fn answer_part_report_model(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    bencher.bench(|| service::report::build_results_book(&results).sheets.len());
+}
