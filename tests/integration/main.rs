@@ -31,5 +31,6 @@ mod plan;
 mod print_layout;
 mod results_snapshot;
 mod settings_sheet_names;
+mod surface_lead;
 mod table_shapes;
 mod watch;

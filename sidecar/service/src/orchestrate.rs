@@ -423,6 +423,38 @@ pub(crate) fn analyse_loaded(
             Some((sentence, next, outcome)) => (Some(sentence), Some(next), Some(Box::new(outcome))),
             None => (None, None, None),
         };
+        // A response-surface trial (composite or Box-Behnken: settings beyond two levels
+        // that do not form a full grid) is led by its second-order model.
+        let (lead, verdict, one_way_verdict) = match surface.as_deref().filter(|outcome| surface_leads(&table, outcome))
+        {
+            Some(outcome) => {
+                let mut reading = engine::analysis::surface::reading_in_words(
+                    &response.name,
+                    unit.as_deref(),
+                    outcome,
+                    settings.confidence_level(),
+                    direction,
+                );
+                let one_way = one_way_verdict.or_else(|| verdict.clone().filter(|_| factorial_reading.is_none()));
+                if let Some(one_way) = &one_way {
+                    reading.details.push(format!(
+                        "Detail, not the lead: the one-way comparison of the {} combinations run says: {}",
+                        condition_names.len(),
+                        one_way.headline
+                    ));
+                }
+                let lead = LeadChoice {
+                    analysis: LeadKind::SecondOrder,
+                    reason: format!(
+                        "The second-order model leads because the trial is a response-surface plan ({} factors at three or five numeric settings with centre runs): it fits the surface's slopes, interactions and curvature, which the factorial model of the {} combinations cannot separate; the other analyses are kept as details.",
+                        outcome.factor_names.len(),
+                        condition_names.len()
+                    ),
+                };
+                (lead, Some(reading), one_way)
+            }
+            None => (lead, verdict, one_way_verdict),
+        };
         let next_runs = factorial
             .as_ref()
             .and_then(|outcome| next_trial_after_screen(&table, outcome, direction))
@@ -979,6 +1011,32 @@ fn judge_confirmation_block(
         ),
         Some(inside),
     )
+}
+
+/// True when the second-order model should lead: it has a residual to test against,
+/// and the trial is a response-surface plan rather than a full grid of levels (a
+/// composite or Box-Behnken plan runs some combinations of the levels only), or some
+/// factor has five settings (a composite plan's axial runs).
+fn surface_leads(table: &TrialTable, outcome: &engine::analysis::surface::SurfaceOutcome) -> bool {
+    if outcome.residual_df == 0 {
+        return false;
+    }
+    let treatments: Vec<_> = table.factors.iter().filter(|factor| !factor.is_block).collect();
+    if treatments.iter().any(|factor| factor.levels.len() >= 5) {
+        return true;
+    }
+    let n_records = treatments.first().map_or(0, |factor| factor.level_of_record.len());
+    let mut combinations: Vec<Vec<u32>> = (0..n_records)
+        .map(|record| treatments.iter().map(|factor| factor.level_of_record[record]).collect())
+        .collect();
+    combinations.sort_unstable();
+    combinations.dedup();
+    let grid: usize = treatments
+        .iter()
+        .map(|factor| factor.levels.len())
+        .try_fold(1usize, |product, levels| product.checked_mul(levels))
+        .unwrap_or(usize::MAX);
+    combinations.len() < grid
 }
 
 /// A setting to four significant figures, for a sentence.

@@ -11,7 +11,7 @@ use engine::analysis::oneway::OneWayFit;
 
 /// Version of the results document (JSON and workbook); bumped on any
 /// incompatible change to field names or meaning.
-pub const RESULTS_FORMAT_VERSION: &str = "1.1";
+pub const RESULTS_FORMAT_VERSION: &str = "1.2";
 
 /// The tool's name and version, as recorded in every result.
 pub const TOOL_NAME: &str = "trialyst";
@@ -153,6 +153,8 @@ pub enum LeadKind {
     Factorial,
     /// The one-way comparison of the conditions.
     OneWay,
+    /// The second-order (response-surface) model of a composite or Box-Behnken trial.
+    SecondOrder,
 }
 
 /// The lead analysis of a response and the reason, in one plain sentence.

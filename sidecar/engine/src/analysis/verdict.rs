@@ -69,7 +69,7 @@ pub fn count_of(count: impl TryInto<u64>, noun: &str) -> String {
     }
 }
 
-fn with_unit(value: f64, unit: Option<&str>) -> String {
+pub(crate) fn with_unit(value: f64, unit: Option<&str>) -> String {
     match unit {
         Some("%") => format!("{}%", round_for_text(value, 4)),
         Some(unit) => format!("{} {unit}", round_for_text(value, 4)),

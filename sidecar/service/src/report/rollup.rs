@@ -121,6 +121,9 @@ fn response_row(entry: &RollupEntry<'_>, response: &ResponseResult, findings: us
     if let (crate::LeadKind::Factorial, Some(reading)) = (response.lead.analysis, &response.factorial_reading) {
         return factorial_row(entry, response, fit, reading, findings, link);
     }
+    if let (crate::LeadKind::SecondOrder, Some(surface)) = (response.lead.analysis, response.surface.as_deref()) {
+        return surface_row(entry, response, fit, surface, findings, link);
+    }
     let conditions = clip(
         fit.conditions
             .iter()
@@ -240,6 +243,65 @@ fn factorial_row(
                 .unwrap_or_else(|| "(set a direction to choose)".into()),
         ),
         effect_text,
+        size,
+        low,
+        high,
+    ]
+    .into_iter()
+    .chain(row_end(response, findings, link))
+    .collect()
+}
+
+/// The row of a response led by its second-order model: the model's test, the
+/// recommended settings and the average predicted there with its interval.
+fn surface_row(
+    entry: &RollupEntry<'_>,
+    response: &ResponseResult,
+    fit: &engine::analysis::oneway::OneWayFit,
+    surface: &engine::analysis::surface::SurfaceOutcome,
+    findings: usize,
+    link: Value,
+) -> Vec<Value> {
+    let places = super::decimals_for(fit);
+    let number = |value: f64| Value::Number(value, NumberFormat::Decimals(places));
+    let best = surface
+        .recommended
+        .as_ref()
+        .filter(|_| response.verdict.as_ref().and_then(|v| v.conditions_differ) == Some(true));
+    let settings = best.map(|best| {
+        surface
+            .factor_names
+            .iter()
+            .zip(&best.real)
+            .map(|(name, value)| format!("{name} {}", engine::analysis::verdict::round_for_text(*value, 4)))
+            .collect::<Vec<_>>()
+            .join(", ")
+    });
+    let (label, size, low, high) = match best {
+        Some(best) => (
+            Value::text("average predicted at the recommended settings"),
+            number(best.predicted),
+            number(best.mean_low),
+            number(best.mean_high),
+        ),
+        None => (Value::Blank, Value::Blank, Value::Blank, Value::Blank),
+    };
+    vec![
+        Value::text(entry.file.clone()),
+        Value::text(response.name.clone()),
+        Value::text(clip(
+            format!(
+                "{} ({} combinations run)",
+                response.condition_factor,
+                fit.conditions.len()
+            ),
+            300,
+        )),
+        Value::integer(surface.n_records as f64),
+        Value::text("second-order model"),
+        engine::analysis::surface::model_test(surface).map_or(Value::Blank, |(_, _, p)| Value::p_value(p)),
+        Value::text(settings.unwrap_or_else(|| "(set a direction to choose)".into())),
+        label,
         size,
         low,
         high,

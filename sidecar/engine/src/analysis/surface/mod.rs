@@ -856,7 +856,9 @@ fn read_surface(outcome: &mut SurfaceOutcome, direction: Option<Direction>) {
     }
 }
 
+mod reading;
 #[cfg(test)]
 mod reference_values;
+pub use reading::{model_test, reading_in_words};
 #[cfg(test)]
 mod tests;
