@@ -422,7 +422,7 @@ pub fn steepest_path(
     let sign = if ascent { 1.0 } else { -1.0 };
     let coded_step: Vec<f64> = coefficients.iter().map(|b| sign * b / largest).collect();
     let mut coded_runs = Vec::new();
-    let mut stop_reason = format!("{MAX_PATH_STEPS} steps, the most a path plan holds");
+    let mut stop_reason = format!("a path plan holds at most {MAX_PATH_STEPS} steps");
     for step in 1..=MAX_PATH_STEPS {
         let coded: Vec<f64> = coded_step.iter().map(|d| d * step as f64).collect();
         let beyond = factors.iter().zip(&coded).find(|(factor, &x)| {
@@ -650,7 +650,7 @@ pub fn recommend_after_screen(summary: &ScreenSummary) -> Recommendation {
             summary.alpha,
         ) {
             let reason = format!(
-                "Clear first-order effects and no curvature: follow the path of steepest {} ({} runs, each step {}), {}.{}",
+                "Clear first-order effects and no curvature: follow the path of steepest {} from the centre of the trial, {} runs, each one step further ({}); it stops there because {}.{}",
                 if ascent { "ascent" } else { "descent" },
                 path.real_runs.len(),
                 summary
