@@ -104,8 +104,14 @@ fn read_messages(output: impl Read, inbox: Arc<Inbox>, answers: SharedWriter) {
 
 impl Session {
     pub(crate) fn start() -> Self {
+        Self::start_with(&[])
+    }
+
+    /// `trialyst serve` with more arguments.
+    pub(crate) fn start_with(arguments: &[&str]) -> Self {
         let mut child = Command::new(trialyst_binary())
             .arg("serve")
+            .args(arguments)
             .stdin(Stdio::piped())
             .stdout(Stdio::piped())
             .stderr(Stdio::null())
@@ -397,6 +403,20 @@ fn exit_codes_without_shutdown() {
     assert_eq!(session.exit_code(), Some(1));
 }
 
+/// Waits for the log line naming `name` and the progress end of a computation that
+/// noticed its cancel flag and stopped.
+fn expect_stopped(session: &Session, name: &str) {
+    let stopped = session.notification("window/logMessage", |message| {
+        message["params"]["message"]
+            .as_str()
+            .unwrap_or("")
+            .starts_with("stopped")
+    });
+    assert!(stopped["params"]["message"].as_str().unwrap_or("").contains(name));
+    let end = session.notification("$/progress", |message| message["params"]["value"]["kind"] == "end");
+    assert_eq!(end["params"]["value"]["message"], "cancelled");
+}
+
 #[test]
 fn cancelling_a_long_analysis_stops_it() {
     let folder = tempfile::tempdir().expect("a temporary folder");
@@ -413,22 +433,61 @@ fn cancelling_a_long_analysis_stops_it() {
     let answer = session.response(id);
     // LSP 3.17: -32800 request cancelled.
     assert_eq!(error_code(&answer), -32800, "{answer}");
-    let stopped = session.notification("window/logMessage", |message| {
-        message["params"]["message"]
-            .as_str()
-            .unwrap_or("")
-            .starts_with("stopped")
-    });
-    assert!(stopped["params"]["message"]
-        .as_str()
-        .unwrap_or("")
-        .contains("large.xlsx"));
-    let end = session.notification("$/progress", |message| message["params"]["value"]["kind"] == "end");
-    assert_eq!(end["params"]["value"]["message"], "cancelled");
+    expect_stopped(&session, "large.xlsx");
     // The server is still there.
     let answer = session.request("trialyst/inspectWorkbook", json!({"path": path.display().to_string()}));
     assert_eq!(answer["result"]["table"]["layout"], "wide", "{answer}");
     assert_eq!(session.finish(), Some(0));
+}
+
+/// The limits set on the command line: a message over `--max-message-mib` is refused
+/// unread with an answer naming the limit and the setting; a request running past
+/// `--request-time-limit` is stopped and answered with a `time-limit` error; the session
+/// goes on; a negative limit is a usage error.
+#[test]
+fn the_message_size_and_request_time_limits_are_set_at_start() {
+    let folder = tempfile::tempdir().expect("a temporary folder");
+    let path = folder.path().join("large.xlsx");
+    write_trial(&path, 8, 25_000, None);
+    let mut session = Session::start_with(&["--max-message-mib", "1", "--request-time-limit", "0.05"]);
+    let initialized = session.initialize();
+    let announced = &initialized["result"]["capabilities"]["experimental"]["trialyst"];
+    assert_eq!(announced["maxMessageBytes"], 1_048_576, "{initialized}");
+    assert_eq!(announced["requestTimeLimitSeconds"], 0.05, "{initialized}");
+
+    let size = 2_000_000usize;
+    session.write_raw(format!("Content-Length: {size}\r\n\r\n").as_bytes());
+    assert!(session.write_raw(&vec![b' '; size]), "the server kept reading");
+    let refused = session.wait_for(|received| received.unmatched.first().cloned());
+    // JSON-RPC 2.0, section 5.1: -32600 invalid request.
+    assert_eq!(error_code(&refused), -32600, "{refused}");
+    let message = refused["error"]["message"].as_str().unwrap_or("");
+    assert!(
+        message.contains("limit of 1048576 bytes") && message.contains("--max-message-mib"),
+        "{message}"
+    );
+
+    let answer = session.request(
+        "trialyst/analyseWorkbook",
+        json!({"path": path.display().to_string(), "workDoneToken": "long one"}),
+    );
+    assert_eq!(answer["error"]["data"]["kind"], "time-limit", "{answer}");
+    assert!(answer["error"]["message"]
+        .as_str()
+        .unwrap_or("")
+        .contains("time limit of 0.05 s"));
+    expect_stopped(&session, "large.xlsx");
+    let answer = session.request("trialyst/noSuchMethod", json!({}));
+    assert_eq!(error_code(&answer), -32601, "{answer}");
+    assert_eq!(session.finish(), Some(0));
+
+    let refused = Command::new(trialyst_binary())
+        .args(["serve", "--request-time-limit=-1"])
+        .stdin(Stdio::null())
+        .output()
+        .expect("trialyst runs");
+    assert_eq!(refused.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&refused.stderr).contains("--request-time-limit"));
 }
 
 #[test]

@@ -311,7 +311,7 @@ pub async fn guard_input<R, W>(
                 Value::Null,
                 INVALID_REQUEST,
                 format!(
-                    "a message of {length} bytes is larger than the limit of {} bytes; it was skipped unread",
+                    "a message of {length} bytes is larger than the limit of {} bytes (the server's --max-message-mib); it was skipped unread",
                     options.max_message_bytes
                 ),
             ));

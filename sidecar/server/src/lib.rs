@@ -257,19 +257,49 @@ fn runtime() -> Result<tokio::runtime::Runtime, ServeError> {
         .map_err(ServeError::Runtime)
 }
 
+/// The limits a session runs under, set on the command line.
+#[derive(Debug, Clone, Copy)]
+pub struct ServeLimits {
+    /// Messages larger than this are refused unread.
+    pub max_message_bytes: usize,
+    /// Requests running longer than this are stopped and answered with an error.
+    pub request_time_limit: Option<Duration>,
+}
+
+impl Default for ServeLimits {
+    fn default() -> Self {
+        Self {
+            max_message_bytes: framing::DEFAULT_MAX_MESSAGE_BYTES,
+            request_time_limit: Some(server::DEFAULT_REQUEST_TIME_LIMIT),
+        }
+    }
+}
+
+impl ServeLimits {
+    fn options(self) -> (ServerOptions, FramingOptions) {
+        (
+            ServerOptions {
+                max_message_bytes: self.max_message_bytes,
+                request_time_limit: self.request_time_limit,
+                ..ServerOptions::default()
+            },
+            FramingOptions {
+                max_message_bytes: self.max_message_bytes,
+                ..FramingOptions::default()
+            },
+        )
+    }
+}
+
 /// `trialyst serve` on stdio. Returns the exit code.
 ///
 /// # Errors
 ///
 /// [`ServeError::Runtime`] when the runtime cannot start.
-pub fn serve_stdio() -> Result<i32, ServeError> {
+pub fn serve_stdio(limits: ServeLimits) -> Result<i32, ServeError> {
     let runtime = runtime()?;
-    let code = runtime.block_on(serve_session(
-        tokio::io::stdin(),
-        tokio::io::stdout(),
-        ServerOptions::default(),
-        FramingOptions::default(),
-    ));
+    let (options, framing) = limits.options();
+    let code = runtime.block_on(serve_session(tokio::io::stdin(), tokio::io::stdout(), options, framing));
     // Reading stdin blocks a thread that would hold up an orderly shutdown.
     runtime.shutdown_background();
     Ok(code)
@@ -290,7 +320,7 @@ pub fn serve_stdio() -> Result<i32, ServeError> {
 ///
 /// [`ServeError`] for a bad or non-loopback address, a missing secret, or a
 /// socket that cannot be opened.
-pub fn serve_tcp(address: &str) -> Result<i32, ServeError> {
+pub fn serve_tcp(address: &str, limits: ServeLimits) -> Result<i32, ServeError> {
     let socket_address = loopback_address(address)?;
     let token = std::env::var(TOKEN_VARIABLE).unwrap_or_default();
     if token.chars().count() < MIN_TOKEN_CHARS {
@@ -356,7 +386,8 @@ pub fn serve_tcp(address: &str) -> Result<i32, ServeError> {
         };
         session_started.store(true, Ordering::SeqCst);
         let (reader, writer) = stream.into_split();
-        let code = serve_session(reader, writer, ServerOptions::default(), FramingOptions::default()).await;
+        let (options, framing) = limits.options();
+        let code = serve_session(reader, writer, options, framing).await;
         acceptor.abort();
         Ok::<i32, ServeError>(code)
     });

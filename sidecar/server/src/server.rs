@@ -78,6 +78,9 @@ pub struct ServerOptions {
     pub progress_interval: Duration,
     /// The largest message accepted, announced to the client.
     pub max_message_bytes: usize,
+    /// A request still running after this long is stopped through its cancel flag and
+    /// answered with a `time-limit` error; `None` sets no limit. Announced to the client.
+    pub request_time_limit: Option<Duration>,
     /// Registers a panicking request, for tests of the panic guard.
     #[cfg(test)]
     pub with_panic_method: bool,
@@ -90,11 +93,15 @@ impl Default for ServerOptions {
             progress_above_cells: 200_000,
             progress_interval: Duration::from_millis(250),
             max_message_bytes: super::framing::DEFAULT_MAX_MESSAGE_BYTES,
+            request_time_limit: Some(DEFAULT_REQUEST_TIME_LIMIT),
             #[cfg(test)]
             with_panic_method: false,
         }
     }
 }
+
+/// How long a request may run by default before it is stopped: 120 seconds.
+pub const DEFAULT_REQUEST_TIME_LIMIT: Duration = Duration::from_secs(120);
 
 /// What the client said it supports, recorded at initialize.
 #[derive(Debug, Default, Clone, Copy)]
@@ -229,10 +236,24 @@ fn request_failed(message: &str, kind: &str) -> Error {
     }
 }
 
+/// The answer to a request stopped at its time limit.
+fn time_limit_error(limit: Duration) -> Error {
+    request_failed(
+        &format!(
+            "the request ran longer than the time limit of {} s and was stopped; \
+             start the server with a larger --request-time-limit (seconds, 0 for none) to allow more",
+            limit.as_secs_f64()
+        ),
+        "time-limit",
+    )
+}
+
 /// Runs a handler body in a task of its own, turning a panic into an
 /// `InternalError` answer. The body gets a cancel flag that is raised if
-/// the request is cancelled (its future dropped).
-async fn guarded<F, Fut, T>(body: F) -> Result<T>
+/// the request is cancelled (its future dropped) or outlives `limit`; past
+/// the limit the request is answered with a `time-limit` error at once, and
+/// the computation stops at its next check of the flag.
+async fn guarded<F, Fut, T>(limit: Option<Duration>, body: F) -> Result<T>
 where
     F: FnOnce(CancelFlag) -> Fut,
     Fut: Future<Output = Result<T>> + Send + 'static,
@@ -240,7 +261,20 @@ where
 {
     let cancel = CancelFlag::new();
     let _raise_on_drop = CancelOnDrop(cancel.clone());
-    match tokio::spawn(body(cancel)).await {
+    let task = tokio::spawn(body(cancel.clone()));
+    let joined = match limit {
+        Some(limit) => match tokio::time::timeout(limit, task).await {
+            Ok(joined) => joined,
+            // The task is left to end itself: the flag stops its computation, and it
+            // still ends its progress and logs that it stopped.
+            Err(_) => {
+                cancel.cancel();
+                return Err(time_limit_error(limit));
+            }
+        },
+        None => task.await,
+    };
+    match joined {
         Ok(answer) => answer,
         Err(_) => Err(internal_error(
             "internal error while answering this request; the server goes on; please report it",
@@ -559,42 +593,63 @@ impl Shared {
 impl Backend {
     async fn inspect_workbook(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
-        guarded(move |cancel| async move { shared.inspect(params, cancel).await }).await
+        guarded(self.shared.options.request_time_limit, move |cancel| async move {
+            shared.inspect(params, cancel).await
+        })
+        .await
     }
 
     async fn analyse_workbook(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
-        guarded(move |cancel| async move { shared.analyse(params, cancel).await }).await
+        guarded(self.shared.options.request_time_limit, move |cancel| async move {
+            shared.analyse(params, cancel).await
+        })
+        .await
     }
 
     async fn analyse_cells(&self, params: Json) -> Result<CellsAnswer> {
         let shared = self.shared.clone();
-        guarded(move |cancel| async move { shared.analyse_cells(params, cancel).await }).await
+        guarded(self.shared.options.request_time_limit, move |cancel| async move {
+            shared.analyse_cells(params, cancel).await
+        })
+        .await
     }
 
     async fn write_results(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
-        guarded(move |cancel| async move { shared.write(params, cancel).await }).await
+        guarded(self.shared.options.request_time_limit, move |cancel| async move {
+            shared.write(params, cancel).await
+        })
+        .await
     }
 
     async fn inspect_cells(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
-        guarded(move |_| async move { shared.inspect_cells(params).await }).await
+        guarded(self.shared.options.request_time_limit, move |_| async move {
+            shared.inspect_cells(params).await
+        })
+        .await
     }
 
     async fn plan_trial(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
-        guarded(move |_| async move { shared.plan_trial(params).await }).await
+        guarded(self.shared.options.request_time_limit, move |_| async move {
+            shared.plan_trial(params).await
+        })
+        .await
     }
 
     async fn size_trial(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
-        guarded(move |_| async move { shared.size_trial(params).await }).await
+        guarded(self.shared.options.request_time_limit, move |_| async move {
+            shared.size_trial(params).await
+        })
+        .await
     }
 
     #[cfg(test)]
     async fn panic_for_test(&self, params: Json) -> Result<Json> {
-        guarded(move |_| async move {
+        guarded(self.shared.options.request_time_limit, move |_| async move {
             if params.is_object() {
                 panic!("a deliberate panic to test the guard");
             }
@@ -652,6 +707,7 @@ impl LanguageServer for Backend {
                         "workbookDiagnostics": true,
                         "workDoneProgress": true,
                         "maxMessageBytes": self.shared.options.max_message_bytes,
+                        "requestTimeLimitSeconds": self.shared.options.request_time_limit.map(|limit| limit.as_secs_f64()),
                     }
                 })),
                 ..ServerCapabilities::default()

@@ -590,6 +590,27 @@ fn large_cells(n_rows: usize) -> Value {
     Value::Array(rows)
 }
 
+/// Waits for the log line and the progress end of a computation that noticed its
+/// cancel flag and stopped.
+async fn expect_stopped(client: &TestClient) {
+    let stopped = client
+        .notification("window/logMessage", |message| {
+            message["params"]["message"]
+                .as_str()
+                .unwrap_or("")
+                .starts_with("stopped")
+        })
+        .await;
+    assert!(stopped["params"]["message"]
+        .as_str()
+        .unwrap_or("")
+        .contains("cancelled"));
+    let end = client
+        .notification("$/progress", |message| message["params"]["value"]["kind"] == "end")
+        .await;
+    assert_eq!(end["params"]["value"]["message"], "cancelled");
+}
+
 #[tokio::test]
 async fn cancelling_stops_the_computation() {
     let mut client = TestClient::start(ServerOptions::default());
@@ -607,22 +628,68 @@ async fn cancelling_stops_the_computation() {
     // LSP 3.17: -32800 request cancelled.
     assert_eq!(error_code(&answer), -32800, "{answer}");
     // The computation itself noticed and stopped.
-    let stopped = client
-        .notification("window/logMessage", |message| {
-            message["params"]["message"]
-                .as_str()
-                .unwrap_or("")
-                .starts_with("stopped")
-        })
+    expect_stopped(&client).await;
+    assert_eq!(client.finish().await, 0);
+}
+
+/// A request outliving the time limit is answered at the limit with a `time-limit`
+/// error naming it, its computation is stopped through the cancel flag (it logs that it
+/// stopped and ends its progress), and the session goes on.
+#[tokio::test]
+async fn a_request_past_its_time_limit_is_stopped_and_answered() {
+    let limit = Duration::from_millis(20);
+    let mut client = TestClient::start(ServerOptions {
+        request_time_limit: Some(limit),
+        ..ServerOptions::default()
+    });
+    let initialized = client.initialize(json!({})).await;
+    assert_eq!(
+        initialized["result"]["capabilities"]["experimental"]["trialyst"]["requestTimeLimitSeconds"],
+        json!(0.02),
+        "{initialized}"
+    );
+    let started = std::time::Instant::now();
+    let id = client.send_request(
+        super::server::methods::ANALYSE_CELLS,
+        json!({"cells": large_cells(60_000), "workDoneToken": "long"}),
+    );
+    let answer = client.response(id).await;
+    let waited = started.elapsed();
+    assert_eq!(error_code(&answer), -32803, "{answer}");
+    assert_eq!(answer["error"]["data"]["kind"], "time-limit", "{answer}");
+    let message = answer["error"]["message"].as_str().unwrap_or("");
+    assert!(
+        message.contains("time limit of 0.02 s") && message.contains("--request-time-limit"),
+        "{message}"
+    );
+    assert!(waited >= limit, "answered after {waited:?}, before the limit");
+    // The computation itself noticed the flag and stopped.
+    expect_stopped(&client).await;
+    // The session goes on: a request that fits the limit is answered.
+    let unknown = client.request("trialyst/noSuchThing", json!({})).await;
+    assert_eq!(error_code(&unknown), -32601);
+    assert_eq!(client.finish().await, 0);
+}
+
+/// With no limit set, a long request runs to its end and is answered with results.
+#[tokio::test]
+async fn without_a_time_limit_a_long_request_runs_to_its_end() {
+    let mut client = TestClient::start(ServerOptions {
+        request_time_limit: None,
+        ..ServerOptions::default()
+    });
+    let initialized = client.initialize(json!({})).await;
+    assert!(
+        initialized["result"]["capabilities"]["experimental"]["trialyst"]["requestTimeLimitSeconds"].is_null(),
+        "{initialized}"
+    );
+    let answer = client
+        .request(
+            super::server::methods::ANALYSE_CELLS,
+            json!({"cells": large_cells(2_000)}),
+        )
         .await;
-    assert!(stopped["params"]["message"]
-        .as_str()
-        .unwrap_or("")
-        .contains("cancelled"));
-    let end = client
-        .notification("$/progress", |message| message["params"]["value"]["kind"] == "end")
-        .await;
-    assert_eq!(end["params"]["value"]["message"], "cancelled");
+    assert!(answer["result"]["results"].is_object(), "{answer}");
     assert_eq!(client.finish().await, 0);
 }
 

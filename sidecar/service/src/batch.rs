@@ -12,7 +12,7 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use std::sync::Mutex;
 
 use crate::folder_settings::{read_settings_file, settings_file_for};
-use crate::report::rollup::{build_rollup_book, RollupEntry, RollupOutcome};
+use crate::report::rollup::{build_rollup_book_from, summarise, RollupEntry, RollupOutcome, RollupSummary};
 use crate::settings::Settings;
 use crate::{AnalysisRequest, WorkbookResults};
 
@@ -52,8 +52,32 @@ pub fn run_parallel_with(
     jobs: usize,
     done: &(dyn Fn(usize, &RunOutcome) + Sync),
 ) -> Vec<RunOutcome> {
+    let keep = |index: usize, outcome: RunOutcome| {
+        done(index, &outcome);
+        outcome
+    };
+    run_streaming(workbooks, request_of, out_dir, write, jobs, &keep)
+        .into_iter()
+        .map(|kept| kept.unwrap_or_else(|| RunOutcome::Failed("not analysed".into())))
+        .collect()
+}
+
+/// Analyses workbooks on `jobs` threads, handing each outcome to `keep(i, outcome)` as
+/// workbook `i` finishes (in the order they finish; its results are already written)
+/// and holding only what `keep` returns: a caller that prints the line and keeps a
+/// small summary (say a [`RollupSummary`]) frees each workbook's results at once, so a
+/// long batch holds a bounded amount per workbook. What was kept comes back in input
+/// order (`None` for a workbook whose thread could not hand it over).
+pub fn run_streaming<T: Send>(
+    workbooks: &[PathBuf],
+    request_of: &(dyn Fn(usize) -> AnalysisRequest + Sync),
+    out_dir: Option<&Path>,
+    write: bool,
+    jobs: usize,
+    keep: &(dyn Fn(usize, RunOutcome) -> T + Sync),
+) -> Vec<Option<T>> {
     let next = AtomicUsize::new(0);
-    let slots: Vec<Mutex<Option<RunOutcome>>> = workbooks.iter().map(|_| Mutex::new(None)).collect();
+    let slots: Vec<Mutex<Option<T>>> = workbooks.iter().map(|_| Mutex::new(None)).collect();
     std::thread::scope(|scope| {
         for _ in 0..jobs.min(workbooks.len()).max(1) {
             scope.spawn(|| loop {
@@ -65,22 +89,14 @@ pub fn run_parallel_with(
                     run_one(&workbooks[index], &request_of(index), out_dir, write)
                 }))
                 .unwrap_or_else(|_| RunOutcome::Failed("internal error while analysing; please report it".into()));
-                done(index, &outcome);
+                let kept = keep(index, outcome);
                 if let Ok(mut slot) = slots[index].lock() {
-                    *slot = Some(outcome);
+                    *slot = Some(kept);
                 }
             });
         }
     });
-    slots
-        .into_iter()
-        .map(|slot| {
-            slot.into_inner()
-                .ok()
-                .flatten()
-                .unwrap_or_else(|| RunOutcome::Failed("not analysed".into()))
-        })
-        .collect()
+    slots.into_iter().map(|slot| slot.into_inner().ok().flatten()).collect()
 }
 
 /// Analyses workbooks with one request on `jobs` threads; outcomes in input order.
@@ -164,6 +180,33 @@ pub fn relative_link(from: &Path, to: &Path) -> String {
     parts.join("/")
 }
 
+/// The folder a roll-up is written into (its links are relative to it).
+pub fn rollup_folder(rollup: &Path) -> PathBuf {
+    rollup
+        .parent()
+        .filter(|parent| !parent.as_os_str().is_empty())
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|| PathBuf::from("."))
+}
+
+/// The roll-up rows of one workbook of a batch whose roll-up is written to `rollup`:
+/// what the batch keeps of it once its line is printed.
+pub fn rollup_summary(rollup: &Path, path: &Path, outcome: &RunOutcome) -> RollupSummary {
+    let folder = rollup_folder(rollup);
+    summarise(&match outcome {
+        RunOutcome::Analysed(results, written) => RollupEntry {
+            file: path.display().to_string(),
+            results_link: written.as_ref().map(|written| relative_link(&folder, written)),
+            outcome: RollupOutcome::Analysed(results),
+        },
+        RunOutcome::Failed(message) => RollupEntry {
+            file: path.display().to_string(),
+            results_link: None,
+            outcome: RollupOutcome::Failed(message),
+        },
+    })
+}
+
 /// Writes the roll-up workbook of a batch: one row per workbook and response,
 /// failures included, with links relative to the roll-up's folder.
 ///
@@ -176,40 +219,38 @@ pub fn write_rollup(
     outcomes: &[RunOutcome],
     problems: &[(PathBuf, String)],
 ) -> Result<(), String> {
-    let folder = rollup
-        .parent()
-        .filter(|parent| !parent.as_os_str().is_empty())
-        .map(Path::to_path_buf)
-        .unwrap_or_else(|| PathBuf::from("."));
+    let summaries = workbooks
+        .iter()
+        .zip(outcomes)
+        .map(|(path, outcome)| rollup_summary(rollup, path, outcome))
+        .collect();
+    write_rollup_rows(rollup, summaries, problems)
+}
+
+/// Writes the roll-up workbook of a batch from the rows kept of each workbook (in
+/// input order), the workbooks that could not be collected first.
+///
+/// # Errors
+///
+/// A sentence naming the folder or file that could not be written.
+pub fn write_rollup_rows(
+    rollup: &Path,
+    summaries: Vec<RollupSummary>,
+    problems: &[(PathBuf, String)],
+) -> Result<(), String> {
+    let folder = rollup_folder(rollup);
     if let Err(error) = std::fs::create_dir_all(&folder) {
         return Err(format!(
             "cannot create the folder of the roll-up '{}': {error}",
             folder.display()
         ));
     }
-    let mut entries = Vec::new();
-    for (path, message) in problems {
-        entries.push(RollupEntry {
-            file: path.display().to_string(),
-            results_link: None,
-            outcome: RollupOutcome::Failed(message),
-        });
-    }
-    for (path, outcome) in workbooks.iter().zip(outcomes) {
-        entries.push(match outcome {
-            RunOutcome::Analysed(results, written) => RollupEntry {
-                file: path.display().to_string(),
-                results_link: written.as_ref().map(|written| relative_link(&folder, written)),
-                outcome: RollupOutcome::Analysed(results),
-            },
-            RunOutcome::Failed(message) => RollupEntry {
-                file: path.display().to_string(),
-                results_link: None,
-                outcome: RollupOutcome::Failed(message),
-            },
-        });
-    }
-    let book = build_rollup_book(&entries, &crate::now_rfc3339());
+    let mut all: Vec<RollupSummary> = problems
+        .iter()
+        .map(|(path, message)| rollup_summary(rollup, path, &RunOutcome::Failed(message.clone())))
+        .collect();
+    all.extend(summaries);
+    let book = build_rollup_book_from(all, &crate::now_rfc3339());
     workbook_io::write::write_book(&book, rollup)
         .map_err(|error| format!("cannot write the roll-up: {}", crate::error_chain(&error)))
 }
@@ -227,6 +268,79 @@ mod tests {
         assert_eq!(
             relative_link(Path::new("/a/b/reports"), Path::new("/a/b/c/x.xlsx")),
             "../c/x.xlsx"
+        );
+    }
+
+    /// The roll-up built from the rows kept as each workbook finishes (its results
+    /// dropped at once) is the roll-up built from every workbook's whole results: same
+    /// rows, same tally, same links, for analysed workbooks, a failed one and results
+    /// written into a folder.
+    #[test]
+    fn the_streamed_rollup_equals_the_rollup_of_whole_results() {
+        let samples = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../sample-workbooks");
+        let folder = tempfile::tempdir().expect("a temporary folder");
+        let missing = folder.path().join("not there.xlsx");
+        let workbooks = vec![
+            samples.join("resin-supplier-tensile.xlsx"),
+            missing,
+            samples.join("bracket-moulding-week-48.xlsx"),
+            samples.join("coating-cure-profiles.xlsx"),
+        ];
+        let out_dir = folder.path().join("results");
+        std::fs::create_dir_all(&out_dir).expect("a results folder");
+        let rollup = folder.path().join("reports").join("week.rollup.xlsx");
+        let request = AnalysisRequest::default();
+        let whole = run_parallel(&workbooks, &request, Some(&out_dir), true, 2);
+        assert!(matches!(whole[1], RunOutcome::Failed(_)));
+        assert!(
+            whole
+                .iter()
+                .filter(|outcome| matches!(outcome, RunOutcome::Analysed(..)))
+                .count()
+                >= 2,
+            "the samples are analysed"
+        );
+        let calls = AtomicUsize::new(0);
+        let keep = |index: usize, outcome: RunOutcome| {
+            calls.fetch_add(1, Ordering::SeqCst);
+            rollup_summary(&rollup, &workbooks[index], &outcome)
+        };
+        let kept: Vec<RollupSummary> = run_streaming(&workbooks, &|_| request.clone(), Some(&out_dir), true, 2, &keep)
+            .into_iter()
+            .map(|kept| kept.expect("every workbook handed over"))
+            .collect();
+        assert_eq!(
+            calls.load(Ordering::SeqCst),
+            workbooks.len(),
+            "one hand-over per workbook"
+        );
+        let folder_of_rollup = rollup_folder(&rollup);
+        let entries: Vec<RollupEntry<'_>> = workbooks
+            .iter()
+            .zip(&whole)
+            .map(|(path, outcome)| match outcome {
+                RunOutcome::Analysed(results, written) => RollupEntry {
+                    file: path.display().to_string(),
+                    results_link: written
+                        .as_ref()
+                        .map(|written| relative_link(&folder_of_rollup, written)),
+                    outcome: RollupOutcome::Analysed(results),
+                },
+                RunOutcome::Failed(message) => RollupEntry {
+                    file: path.display().to_string(),
+                    results_link: None,
+                    outcome: RollupOutcome::Failed(message),
+                },
+            })
+            .collect();
+        let at = "2026-12-04T10:00:00Z";
+        let from_whole = crate::report::rollup::build_rollup_book(&entries, at);
+        let streamed = build_rollup_book_from(kept, at);
+        assert_eq!(streamed, from_whole);
+        // A link reaches the written results from the roll-up's folder.
+        assert!(
+            format!("{streamed:?}").contains("../results/resin-supplier-tensile.results.xlsx"),
+            "{streamed:?}"
         );
     }
 }

@@ -16,6 +16,12 @@ pub struct ServeArgs {
     /// Confine every request's paths, URIs and output folders to this folder; repeatable.
     #[arg(long, value_name = "FOLDER")]
     pub allow_root: Vec<std::path::PathBuf>,
+    /// Stop a request still running after this many seconds and answer it with an error (0: no limit).
+    #[arg(long, value_name = "SECONDS", default_value_t = 120.0)]
+    pub request_time_limit: f64,
+    /// Refuse, unread, any message larger than this many MiB (1 to 1024).
+    #[arg(long, value_name = "MIB", default_value_t = 64, value_parser = clap::value_parser!(u64).range(1..=1024))]
+    pub max_message_mib: u64,
 }
 
 /// `trialyst plan`.

@@ -90,6 +90,16 @@ struct BatchOptions<'a> {
     pub allowed_output_roots: Vec<PathBuf>,
 }
 
+/// What a batch keeps of one workbook after printing its line.
+struct Kept {
+    /// Not analysed.
+    failed: bool,
+    /// Failed because a setting names nothing in the table (a usage error).
+    names_nothing: bool,
+    /// Its roll-up rows, when a roll-up is asked for.
+    rollup: Option<service::report::rollup::RollupSummary>,
+}
+
 /// Refuses a roll-up that would replace an input or a results workbook of
 /// this run, or a file we did not write.
 fn check_rollup(rollup: &Path, workbooks: &[PathBuf], planned_outputs: &[PathBuf]) -> Result<(), String> {
@@ -205,27 +215,54 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
         }
         progress.inc(1);
     };
-    let outcomes = service::batch::run_parallel_with(
+    // Each workbook's results are dropped as soon as its line is printed and its
+    // results written: the batch keeps only what the summary line, the exit code and
+    // the roll-up need (the roll-up's rows, text already clipped).
+    let keep = |index: usize, outcome: RunOutcome| -> Kept {
+        print_line(index, &outcome);
+        Kept {
+            failed: matches!(outcome, RunOutcome::Failed(_)),
+            names_nothing: matches!(&outcome, RunOutcome::Failed(message) if message.contains(service::settings::NAMES_NOTHING)),
+            rollup: options
+                .rollup
+                .map(|rollup| service::batch::rollup_summary(rollup, &workbooks[index], &outcome)),
+        }
+    };
+    let kept = service::batch::run_streaming(
         &workbooks,
         &request_of,
         options.out_dir,
         options.write,
         options.jobs,
-        &print_line,
+        &keep,
     );
     progress.finish_and_clear();
-    let mut out = stdout.lock();
     let mut analysed = 0;
-    for outcome in &outcomes {
-        match outcome {
-            RunOutcome::Analysed(..) => analysed += 1,
-            RunOutcome::Failed(_) => failed += 1,
+    let mut names_nothing = false;
+    let mut rows = Vec::with_capacity(kept.len());
+    for (index, kept) in kept.into_iter().enumerate() {
+        let kept = kept.unwrap_or_else(|| {
+            let outcome = RunOutcome::Failed("not analysed".into());
+            Kept {
+                failed: true,
+                names_nothing: false,
+                rollup: options
+                    .rollup
+                    .map(|rollup| service::batch::rollup_summary(rollup, &workbooks[index], &outcome)),
+            }
+        });
+        if kept.failed {
+            failed += 1;
+        } else {
+            analysed += 1;
         }
+        names_nothing |= kept.names_nothing;
+        rows.extend(kept.rollup);
     }
-    let _ = out.flush();
+    let _ = stdout.lock().flush();
     let mut rollup_note = String::new();
     if let Some(rollup) = options.rollup {
-        match service::batch::write_rollup(rollup, &workbooks, &outcomes, &problems) {
+        match service::batch::write_rollup_rows(rollup, rows, &problems) {
             Ok(()) => rollup_note = format!("; roll-up {}", rollup.display()),
             Err(message) => {
                 eprintln!("trialyst: {message}");
@@ -251,9 +288,6 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
         return EXIT_SOME_FAILED;
     }
     // A contrast, direction or control naming nothing in the table is a usage error.
-    let names_nothing = outcomes.iter().any(
-        |outcome| matches!(outcome, RunOutcome::Failed(message) if message.contains(service::settings::NAMES_NOTHING)),
-    );
     if names_nothing {
         EXIT_USAGE
     } else if failed > 0 {

@@ -13,9 +13,24 @@ pub(crate) fn serve_command(args: &ServeArgs) -> i32 {
         }
     }
     server::from_proto::confine_to(args.allow_root.clone());
+    let request_time_limit = match std::time::Duration::try_from_secs_f64(args.request_time_limit) {
+        Ok(limit) if limit.is_zero() => None,
+        Ok(limit) => Some(limit),
+        Err(_) => {
+            eprintln!(
+                "trialyst: --request-time-limit '{}' is not a number of seconds of 0 or more",
+                args.request_time_limit
+            );
+            return super::EXIT_USAGE;
+        }
+    };
+    let limits = server::ServeLimits {
+        max_message_bytes: usize::try_from(args.max_message_mib << 20).unwrap_or(usize::MAX),
+        request_time_limit,
+    };
     let served = match &args.listen {
-        Some(address) => server::serve_tcp(address),
-        None => server::serve_stdio(),
+        Some(address) => server::serve_tcp(address, limits),
+        None => server::serve_stdio(limits),
     };
     served.unwrap_or_else(|error| {
         eprintln!("trialyst: {}", error_chain(&error));

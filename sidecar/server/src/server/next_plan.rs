@@ -94,6 +94,9 @@ impl Shared {
 impl Backend {
     pub(super) async fn next_plan(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
-        guarded(move |cancel| async move { shared.next_plan(params, cancel).await }).await
+        guarded(self.shared.options.request_time_limit, move |cancel| async move {
+            shared.next_plan(params, cancel).await
+        })
+        .await
     }
 }

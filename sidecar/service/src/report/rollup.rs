@@ -326,8 +326,57 @@ fn row_end(response: &ResponseResult, findings: usize, link: Value) -> [Value; 3
     ]
 }
 
+/// What the roll-up keeps of one workbook: its rows (text already clipped) and the
+/// verdict kind of each, so that a batch can drop the workbook's results as soon as
+/// its line is printed and its results written, and hold a bounded amount per workbook.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RollupSummary {
+    /// The rows of the rows sheet, one per response (one for a failed workbook).
+    pub rows: Vec<Vec<Value>>,
+    /// The index into [`VERDICT_KINDS`] of each row.
+    pub kinds: Vec<usize>,
+}
+
+/// The roll-up rows of one workbook.
+pub fn summarise(entry: &RollupEntry<'_>) -> RollupSummary {
+    let mut summary = RollupSummary {
+        rows: Vec::new(),
+        kinds: Vec::new(),
+    };
+    match &entry.outcome {
+        RollupOutcome::Analysed(results) => {
+            for response in &results.responses {
+                summary.kinds.push(verdict_kind(response));
+                summary.rows.push(response_row(entry, response, results.findings.len()));
+            }
+        }
+        RollupOutcome::Failed(reason) => {
+            let mut row = vec![Value::text(entry.file.clone())];
+            row.extend(std::iter::repeat_n(Value::Blank, 10));
+            row.push(Value::text(clip(format!("not analysed: {reason}"), 500)));
+            row.push(Value::Blank);
+            row.push(match &entry.results_link {
+                Some(target) => Value::Link {
+                    target: format!("file:///{target}"),
+                    text: target.clone(),
+                },
+                None => Value::Blank,
+            });
+            summary.kinds.push(4);
+            summary.rows.push(row);
+        }
+    }
+    summary
+}
+
 /// Builds the roll-up workbook of a batch.
 pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book {
+    let summaries: Vec<RollupSummary> = entries.iter().map(summarise).collect();
+    build_rollup_book_from(summaries, created_at)
+}
+
+/// Builds the roll-up workbook of a batch from the kept rows of each workbook.
+pub fn build_rollup_book_from(summaries: Vec<RollupSummary>, created_at: &str) -> Book {
     let mut rows_sheet = Sheet::new(names::ROWS);
     rows_sheet.widths = ROW_WIDTHS
         .iter()
@@ -336,31 +385,13 @@ pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book 
         .collect();
     rows_sheet.frozen_rows = 1;
     let mut tally = [0usize; 5];
+    let workbooks = summaries.len();
     let mut rows = Vec::new();
-    for entry in entries {
-        match &entry.outcome {
-            RollupOutcome::Analysed(results) => {
-                for response in &results.responses {
-                    tally[verdict_kind(response)] += 1;
-                    rows.push(response_row(entry, response, results.findings.len()));
-                }
-            }
-            RollupOutcome::Failed(reason) => {
-                tally[4] += 1;
-                let mut row = vec![Value::text(entry.file.clone())];
-                row.extend(std::iter::repeat_n(Value::Blank, 10));
-                row.push(Value::text(clip(format!("not analysed: {reason}"), 500)));
-                row.push(Value::Blank);
-                row.push(match &entry.results_link {
-                    Some(target) => Value::Link {
-                        target: format!("file:///{target}"),
-                        text: target.clone(),
-                    },
-                    None => Value::Blank,
-                });
-                rows.push(row);
-            }
+    for summary in summaries {
+        for kind in summary.kinds {
+            tally[kind] += 1;
         }
+        rows.extend(summary.rows);
     }
     rows_sheet.wrapped_table(0, 0, HEADERS, rows, &ROW_WIDTHS);
 
@@ -372,7 +403,7 @@ pub fn build_rollup_book(entries: &[RollupEntry<'_>], created_at: &str) -> Book 
         0,
         format!(
             "{} workbook(s), made {}. One count per workbook and response; a workbook that could not be read counts once.",
-            entries.len(),
+            workbooks,
             super::readable_time(created_at)
         ),
         Look::Note,
