@@ -10,6 +10,7 @@
 #![allow(clippy::print_stdout, clippy::print_stderr)]
 
 mod batch;
+mod batch_directions;
 mod catalogue;
 mod catalogue_cells;
 mod catalogue_safety;

@@ -55,6 +55,10 @@ pub struct AnalysisRequest {
     pub cancel: CancelFlag,
     /// How the outputs are named and where they may go.
     pub output: crate::paths::OutputRules,
+    /// True when these settings are shared by several workbooks (a batch over a
+    /// folder): a direction for a response that this workbook lacks is then a note
+    /// on this workbook, not a mistake in the request.
+    pub shared_by_several: bool,
 }
 
 impl AnalysisRequest {
@@ -481,12 +485,16 @@ fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> R
         table,
         settings,
         settings_sources: sources,
-        requested_directions: request
-            .settings
-            .response_directions
-            .iter()
-            .map(|named| named.response.clone())
-            .collect(),
+        requested_directions: if request.shared_by_several {
+            Vec::new()
+        } else {
+            request
+                .settings
+                .response_directions
+                .iter()
+                .map(|named| named.response.clone())
+                .collect()
+        },
         findings,
         timings: Timings::default(),
     })

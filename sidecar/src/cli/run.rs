@@ -153,6 +153,9 @@ fn run_batch(paths: &[PathBuf], recursive: bool, options: &BatchOptions<'_>) -> 
     let claimed = std::sync::Arc::new(service::paths::ClaimedOutputs::default());
     let base = AnalysisRequest {
         settings: options.settings.clone(),
+        // A direction for one response, given for a folder of trials, applies where
+        // that response is found.
+        shared_by_several: workbooks.len() > 1,
         ..AnalysisRequest::default()
     };
     let progress = ProgressBar::with_draw_target(Some(workbooks.len() as u64), ProgressDrawTarget::stderr());
