@@ -199,7 +199,8 @@ pub fn settings(value: Option<&Value>) -> Result<Settings, ParamsError> {
         let place = format!("params.settings.{key}");
         let normalised = key.trim().to_lowercase().replace(['_', '-'], " ");
         // Contrasts and directions give one row per item (as repeated rows of a settings sheet).
-        let is_contrast = ["contrast", "contrasts", "direction", "directions"].contains(&normalised.as_str());
+        let is_contrast =
+            ["contrast", "contrasts", "direction", "directions", "goal", "goals"].contains(&normalised.as_str());
         let scalar_text = |item: &Value, place: &str| -> Result<String, ParamsError> {
             match item {
                 Value::String(text) => Ok(text.clone()),
@@ -226,7 +227,9 @@ pub fn settings(value: Option<&Value>) -> Result<Settings, ParamsError> {
                     rows.push((key.clone(), texts.join(", "), place.clone()));
                 }
             }
-            Value::Object(per_response) if normalised == "direction" || normalised == "directions" => {
+            Value::Object(per_response)
+                if ["direction", "directions", "goal", "goals"].contains(&normalised.as_str()) =>
+            {
                 // `{"Leak rate": "lower", "Strength": "higher"}`: one direction per response.
                 for (response, direction) in per_response {
                     let text = scalar_text(direction, &format!("{place}.{response}"))?;
