@@ -606,4 +606,21 @@ mod tests {
         let bad = settings(Some(&json!({"direction": {"Strength": true}}))).unwrap_err();
         assert_eq!(bad.field, "params.settings.direction.Strength");
     }
+
+    #[test]
+    fn goals_as_a_list_or_an_object() {
+        let listed = settings(Some(&json!({"goal": [
+            "Peel strength (N): higher, acceptable 38 to 45",
+            "Haze: lower, acceptable 0.8 to 2.5, weight 2"
+        ]})))
+        .expect("valid");
+        assert_eq!(listed.goals.len(), 2);
+        assert_eq!(listed.goals[1].weight, 2.0);
+        let object = settings(Some(&json!({"goal": {"Haze": "target 1.2, acceptable 0.8 to 2.5"}}))).expect("valid");
+        assert_eq!(object.goals[0].response, "Haze");
+        assert_eq!(object.goals[0].target, Some(1.2));
+        let bad = settings(Some(&json!({"goal": ["Haze: lower"]}))).unwrap_err();
+        assert_eq!(bad.field, "params.settings.goal");
+        assert!(bad.problem.contains("acceptable limits"), "{}", bad.problem);
+    }
 }

@@ -289,4 +289,30 @@ mod tests {
         assert_eq!(merged[0].kind, GoalKind::Lower);
         assert_eq!(merged[1].response, "Haze");
     }
+
+    #[test]
+    fn the_folder_file_takes_goals_as_a_list_or_a_table() {
+        let listed = crate::folder_settings::parse_folder_settings(
+            "goal = [\"Yield (%): higher, acceptable 60 to 85\", \"Cost: lower, acceptable 4 to 9\"]\n",
+            "trialyst.toml",
+        )
+        .expect("valid");
+        assert_eq!(listed.goals.len(), 2);
+        let table = crate::folder_settings::parse_folder_settings(
+            "confidence = 0.9\ngoal = { Cost = \"lower, acceptable 4 to 9, importance 2\" }\n",
+            "trialyst.toml",
+        )
+        .expect("valid");
+        assert_eq!(table.goals[0].importance, 2.0);
+        let error = crate::folder_settings::parse_folder_settings(
+            "confidence = 0.9\ngoal = \"Cost: lower\"\n",
+            "trialyst.toml",
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(
+            error.contains("trialyst.toml, line 2") && error.contains("acceptable limits"),
+            "{error}"
+        );
+    }
 }
