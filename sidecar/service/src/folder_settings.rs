@@ -133,7 +133,7 @@ pub fn parse_folder_settings(text: &str, file: &str) -> Result<Settings, FolderS
                 // `direction = { "Leak rate" = "lower", Strength = "higher" }`: one per response.
                 for (response, direction) in table {
                     let text =
-                        scalar_text(direction).ok_or_else(|| bad("must give each response a direction as text"))?;
+                        scalar_text(direction).ok_or_else(|| bad("must give each response its direction or goal as text"))?;
                     pairs.push((key.get_ref().clone(), format!("{response}: {text}"), place.clone()));
                 }
             }
