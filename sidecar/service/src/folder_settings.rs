@@ -132,8 +132,8 @@ pub fn parse_folder_settings(text: &str, file: &str) -> Result<Settings, FolderS
             toml::Value::Table(table) if ["direction", "directions", "goal", "goals"].contains(&normal.as_str()) => {
                 // `direction = { "Leak rate" = "lower", Strength = "higher" }`: one per response.
                 for (response, direction) in table {
-                    let text =
-                        scalar_text(direction).ok_or_else(|| bad("must give each response its direction or goal as text"))?;
+                    let text = scalar_text(direction)
+                        .ok_or_else(|| bad("must give each response its direction or goal as text"))?;
                     pairs.push((key.get_ref().clone(), format!("{response}: {text}"), place.clone()));
                 }
             }
