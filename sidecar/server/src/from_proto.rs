@@ -199,7 +199,8 @@ pub fn settings(value: Option<&Value>) -> Result<Settings, ParamsError> {
         let place = format!("params.settings.{key}");
         let normalised = key.trim().to_lowercase().replace(['_', '-'], " ");
         // Contrasts and directions give one row per item (as repeated rows of a settings sheet).
-        let is_contrast = ["contrast", "contrasts", "direction", "directions"].contains(&normalised.as_str());
+        let is_contrast =
+            ["contrast", "contrasts", "direction", "directions", "goal", "goals"].contains(&normalised.as_str());
         let scalar_text = |item: &Value, place: &str| -> Result<String, ParamsError> {
             match item {
                 Value::String(text) => Ok(text.clone()),
@@ -226,7 +227,9 @@ pub fn settings(value: Option<&Value>) -> Result<Settings, ParamsError> {
                     rows.push((key.clone(), texts.join(", "), place.clone()));
                 }
             }
-            Value::Object(per_response) if normalised == "direction" || normalised == "directions" => {
+            Value::Object(per_response)
+                if ["direction", "directions", "goal", "goals"].contains(&normalised.as_str()) =>
+            {
                 // `{"Leak rate": "lower", "Strength": "higher"}`: one direction per response.
                 for (response, direction) in per_response {
                     let text = scalar_text(direction, &format!("{place}.{response}"))?;
@@ -602,5 +605,22 @@ mod tests {
         assert_eq!(object.direction_for("Strength"), Some(Direction::Target(40.0)));
         let bad = settings(Some(&json!({"direction": {"Strength": true}}))).unwrap_err();
         assert_eq!(bad.field, "params.settings.direction.Strength");
+    }
+
+    #[test]
+    fn goals_as_a_list_or_an_object() {
+        let listed = settings(Some(&json!({"goal": [
+            "Peel strength (N): higher, acceptable 38 to 45",
+            "Haze: lower, acceptable 0.8 to 2.5, weight 2"
+        ]})))
+        .expect("valid");
+        assert_eq!(listed.goals.len(), 2);
+        assert_eq!(listed.goals[1].weight, 2.0);
+        let object = settings(Some(&json!({"goal": {"Haze": "target 1.2, acceptable 0.8 to 2.5"}}))).expect("valid");
+        assert_eq!(object.goals[0].response, "Haze");
+        assert_eq!(object.goals[0].target, Some(1.2));
+        let bad = settings(Some(&json!({"goal": ["Haze: lower"]}))).unwrap_err();
+        assert_eq!(bad.field, "params.settings.goal");
+        assert!(bad.problem.contains("acceptable limits"), "{}", bad.problem);
     }
 }

@@ -14,6 +14,8 @@
 //! control = "Current recipe"
 //! contrast = ["new vs old: (A + B)/2 - C"]
 //! output_folder = "results"    # relative to each workbook's folder
+//! # several responses at once (response-surface trials): one goal per response
+//! # goal = ["Peel strength (N): higher, acceptable 38 to 45", "Haze (%): lower, acceptable 0.8 to 2.5"]
 //! ```
 //!
 //! Precedence: the command line, then the workbook's settings sheet, then
@@ -115,7 +117,7 @@ pub fn parse_folder_settings(text: &str, file: &str) -> Result<Settings, FolderS
                 for item in items {
                     texts.push(scalar_text(item).ok_or_else(|| bad("must hold text or numbers"))?);
                 }
-                if ["contrast", "contrasts", "direction", "directions"].contains(&normal.as_str()) {
+                if ["contrast", "contrasts", "direction", "directions", "goal", "goals"].contains(&normal.as_str()) {
                     for item in texts {
                         pairs.push((key.get_ref().clone(), item, place.clone()));
                     }
@@ -127,11 +129,11 @@ pub fn parse_folder_settings(text: &str, file: &str) -> Result<Settings, FolderS
                     pairs.push((key.get_ref().clone(), String::new(), place));
                 }
             }
-            toml::Value::Table(table) if normal == "direction" || normal == "directions" => {
+            toml::Value::Table(table) if ["direction", "directions", "goal", "goals"].contains(&normal.as_str()) => {
                 // `direction = { "Leak rate" = "lower", Strength = "higher" }`: one per response.
                 for (response, direction) in table {
-                    let text =
-                        scalar_text(direction).ok_or_else(|| bad("must give each response a direction as text"))?;
+                    let text = scalar_text(direction)
+                        .ok_or_else(|| bad("must give each response its direction or goal as text"))?;
                     pairs.push((key.get_ref().clone(), format!("{response}: {text}"), place.clone()));
                 }
             }

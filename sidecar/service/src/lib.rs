@@ -24,8 +24,10 @@
 //! service maps to cells.
 
 pub mod batch;
+pub mod compromise;
 pub mod failure;
 pub mod folder_settings;
+pub mod goals;
 pub mod load;
 pub mod orchestrate;
 pub mod paths;

@@ -342,6 +342,12 @@ pub(crate) fn settings_sources(command: &Settings, sheet: &Settings, folder: &Se
             }
         }
         direction_for_all_above |= settings.direction.is_some();
+        for entry in &settings.goals {
+            let key = format!("goal for '{}'", entry.response);
+            if !sources.iter().any(|(existing, _)| existing.eq_ignore_ascii_case(&key)) {
+                sources.push((key, origin.to_string()));
+            }
+        }
     }
     if !sources.iter().any(|(key, _)| key == "confidence") {
         sources.push(("confidence".into(), "built-in default (0.95)".into()));

@@ -476,6 +476,7 @@ pub(crate) fn analyse_loaded(
             outcome,
         });
     }
+    let compromise = crate::compromise::compromise_of(&settings, &responses, &mut findings);
     timings.analysis_ms = started.elapsed().as_secs_f64() * 1e3;
     if responses.iter().all(|response| response.fit().is_none()) {
         let reasons = responses
@@ -502,6 +503,7 @@ pub(crate) fn analyse_loaded(
         settings,
         settings_sources,
         responses,
+        compromise,
         findings,
         cautions: standard_cautions(),
         timings,

@@ -203,6 +203,9 @@ pub struct WorkbookResults {
     pub settings_sources: Vec<(String, String)>,
     /// One entry per response.
     pub responses: Vec<ResponseResult>,
+    /// The compromise over several responses with goals (response-surface trials).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub compromise: Option<crate::compromise::CompromiseResult>,
     /// Data findings, each with its place.
     pub findings: Vec<Finding>,
     /// Cautions that go with every result.

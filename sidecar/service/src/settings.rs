@@ -61,6 +61,10 @@ pub struct Settings {
     /// the second-order fit and judged against the interval predicted for them.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub confirmation_block: Option<usize>,
+    /// Per-response goals for several responses at once (`goal` rows such as
+    /// `Peel strength (N): higher, acceptable 38 to 45`).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub goals: Vec<crate::goals::GoalSetting>,
 }
 
 /// The direction of one named response.
@@ -185,6 +189,7 @@ pub const KNOWN_KEYS: &[&str] = &[
     "plan seed",
     "plan runs",
     "confirmation block",
+    "goal",
 ];
 
 fn list(value: &str) -> Vec<String> {
@@ -340,6 +345,10 @@ impl Settings {
                     Ok(block) if block > 0 => settings.confirmation_block = Some(block),
                     _ => errors.push(bad("the number of the block of confirmation runs, at least 1")),
                 },
+                "goal" | "goals" => match crate::goals::parse_goal_entries(value) {
+                    Ok(entries) => crate::goals::add_goals(&mut settings.goals, entries),
+                    Err(problem) => errors.push(bad(&format!("{problem}; {}", crate::goals::GOAL_FORMS))),
+                },
                 _ => errors.push(SettingsError::UnknownKey {
                     place: place.clone(),
                     key,
@@ -395,6 +404,7 @@ impl Settings {
             plan_seed: pick(self.plan_seed, &lower.plan_seed),
             plan_runs: pick(self.plan_runs, &lower.plan_runs),
             confirmation_block: pick(self.confirmation_block, &lower.confirmation_block),
+            goals: crate::goals::layer_goals(&self.goals, &lower.goals),
         }
     }
 

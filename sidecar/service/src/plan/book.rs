@@ -54,9 +54,32 @@ pub fn write_options(plan: &Plan) -> WriteOptions {
     }
 }
 
+/// Significant figures of a numeric setting as shown on a plan's runs and design
+/// sheets. The plan sheet, the plan id and the coding keep every digit; the check of
+/// a filled plan accepts a setting written either way ([`super::check::same_setting`]).
+pub const SHOWN_FIGURES: usize = 6;
+
+/// A setting as shown on a plan: rounded to [`SHOWN_FIGURES`] significant figures
+/// (correctly rounded in decimal, so 135.857864376 shows as 135.858 and 1e-7 stays).
+pub fn shown_number(value: f64) -> f64 {
+    if !value.is_finite() || value == 0.0 {
+        return value;
+    }
+    format!("{value:.*e}", SHOWN_FIGURES - 1).parse().unwrap_or(value)
+}
+
+/// A level's text as shown on a plan: a number rounded as by [`shown_number`], any
+/// other text as it is.
+fn shown_text(text: &str) -> String {
+    match text.trim().parse::<f64>() {
+        Ok(number) if number.is_finite() => engine::design::format_number(shown_number(number)),
+        _ => text.to_string(),
+    }
+}
+
 fn setting_value(plan: &Plan, factor: usize, setting: Setting) -> Value {
     match plan.setting_number(factor, setting) {
-        Some(number) if plan.factors[factor].is_quantitative() => Value::number(number),
+        Some(number) if plan.factors[factor].is_quantitative() => Value::number(shown_number(number)),
         _ => Value::text(plan.setting_text(factor, setting)),
     }
 }
@@ -165,7 +188,7 @@ fn design_sheet(plan: &Plan) -> Sheet {
             .get(index)
             .map(|letter| format!("{letter} = "))
             .unwrap_or_default();
-        let levels: Vec<&str> = factor.levels.iter().map(|level| level.text.as_str()).collect();
+        let levels: Vec<String> = factor.levels.iter().map(|level| shown_text(&level.text)).collect();
         rows.push((
             format!("factor {}", index + 1),
             format!("{letter}{} ({})", factor.name, levels.join(", ")),

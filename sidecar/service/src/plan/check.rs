@@ -16,11 +16,14 @@ use workbook_io::CellPos;
 use crate::plan::book::KeptPlan;
 
 /// Two settings are the same when they are equal numbers (to 1e-9
-/// relative) or the same text apart from case and surrounding spaces.
+/// relative), when the one found is the planned number as the plan's runs sheet
+/// shows it (rounded to [`crate::plan::book::SHOWN_FIGURES`] significant figures),
+/// or when they are the same text apart from case and surrounding spaces.
 pub fn same_setting(planned: &str, found: &str) -> bool {
     let (planned, found) = (planned.trim(), found.trim());
+    let equal = |a: f64, b: f64| (a - b).abs() <= 1e-9 * a.abs().max(b.abs()).max(1.0);
     match (planned.parse::<f64>(), found.parse::<f64>()) {
-        (Ok(a), Ok(b)) => (a - b).abs() <= 1e-9 * a.abs().max(b.abs()).max(1.0),
+        (Ok(a), Ok(b)) => equal(a, b) || equal(crate::plan::book::shown_number(a), b),
         _ => planned.eq_ignore_ascii_case(found),
     }
 }

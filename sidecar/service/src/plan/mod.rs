@@ -15,6 +15,8 @@ pub mod book;
 pub mod check;
 pub mod file;
 pub mod next;
+#[cfg(test)]
+mod shown_tests;
 pub mod size;
 
 use std::path::Path;

@@ -9,6 +9,7 @@
 //! JSON ([`document`]).
 
 pub mod assessment;
+mod compromise;
 pub mod document;
 pub mod factorial;
 pub mod problems;
@@ -241,6 +242,10 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     let mut contrasts_row = 0;
     let mut any_contrast = false;
 
+    if let Some(compromise) = &results.compromise {
+        summary.paragraph(summary_row, 0, compromise.sentence.clone(), Look::Plain, SUMMARY_WIDTH);
+        summary_row += 2;
+    }
     for (response_index, response) in results.responses.iter().enumerate() {
         if response_index > 0 {
             summary.page_breaks.push(summary_row);

@@ -46,6 +46,9 @@ pub fn add_surface_results(results: &WorkbookResults, book: &mut Book) {
         (6, 14.0),
     ];
     let mut row = 0;
+    if let Some(compromise) = &results.compromise {
+        super::compromise::compromise_section(&mut sheet, &mut row, compromise);
+    }
     for (name, outcome) in analysed {
         surface_section(&mut sheet, &mut row, name, outcome);
         row += 1;
