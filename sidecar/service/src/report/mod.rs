@@ -275,8 +275,17 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
             summary_row += 1;
             summary.paragraph(summary_row, 0, response.lead.reason.clone(), Look::Note, SUMMARY_WIDTH);
             summary_row += 1;
-            if let Some(second_order) = &response.second_order {
-                summary.paragraph(summary_row, 0, second_order.clone(), Look::Plain, SUMMARY_WIDTH);
+            // With the second-order lead the headline already gives the stationary point;
+            // only a judgement of confirmation runs after it is news.
+            let second_order = response.second_order.as_deref().and_then(|text| {
+                if response.lead.analysis == crate::LeadKind::SecondOrder {
+                    text.split_once("the region of the runs. ").map(|(_, rest)| rest)
+                } else {
+                    Some(text)
+                }
+            });
+            if let Some(second_order) = second_order {
+                summary.paragraph(summary_row, 0, second_order.to_string(), Look::Plain, SUMMARY_WIDTH);
                 summary_row += 1;
             }
             if let Some(next_trial) = &response.next_trial {
@@ -295,6 +304,9 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
             }
         }
         let mut detail_sheets = vec![names::CONDITIONS, names::ANOVA];
+        if response.surface.is_some() {
+            detail_sheets.insert(0, surface::SURFACE_SHEET);
+        }
         if let Some(assessed) = response.assessment.as_deref() {
             detail_sheets.push(assessment::names::SIMULTANEOUS);
             if assessed.control.is_some() || assessed.best.is_some() {
