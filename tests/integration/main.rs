@@ -14,6 +14,7 @@ mod catalogue;
 mod catalogue_cells;
 mod catalogue_safety;
 mod catalogue_watch_state;
+mod chart_key;
 mod cli;
 mod common;
 mod cost_timing;

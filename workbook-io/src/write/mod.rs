@@ -9,6 +9,7 @@
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
+pub mod chart_key;
 pub mod print;
 
 use rust_xlsxwriter::{
