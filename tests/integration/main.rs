@@ -32,5 +32,6 @@ mod plan;
 mod print_layout;
 mod results_snapshot;
 mod settings_sheet_names;
+mod spaced_rows;
 mod table_shapes;
 mod watch;

@@ -79,6 +79,10 @@ pub enum Look {
     Key,
     /// Running text, wrapped within the column.
     Paragraph,
+    /// A one-line value of a table placed with [`Sheet::spaced_table`]: at the foot of a
+    /// row a little taller than its text, so that it stands clear of the header's
+    /// border above rather than touching it.
+    Spaced,
 }
 
 /// A cell's content.
@@ -455,6 +459,26 @@ impl Sheet {
         next
     }
 
+    /// Places a table like [`Sheet::table`] whose rows of values are each
+    /// [`SPACED_ROW_HEIGHT`] points tall with the values at the foot of the row, so that
+    /// the first row stands clear of the header's border (spreadsheet programs draw a
+    /// top-aligned value of a one-line row against the line above it). For tables of
+    /// one-line values. Returns the first row after the table.
+    pub fn spaced_table(&mut self, row: u32, col: u16, headers: &[&str], rows: Vec<Vec<Value>>) -> u32 {
+        for (offset, header) in headers.iter().enumerate() {
+            self.put(row, col + offset as u16, Value::text(*header), Look::ColumnHeader);
+        }
+        let mut next = row + 1;
+        for values in rows {
+            for (offset, value) in values.into_iter().enumerate() {
+                self.put(next, col + offset as u16, value, Look::Spaced);
+            }
+            self.heights.push((next, SPACED_ROW_HEIGHT));
+            next += 1;
+        }
+        next
+    }
+
     /// Places a table: a header row and rows of values. Returns the first row after it.
     pub fn table(&mut self, row: u32, col: u16, headers: &[&str], rows: Vec<Vec<Value>>) -> u32 {
         for (offset, header) in headers.iter().enumerate() {
@@ -470,6 +494,10 @@ impl Sheet {
         next
     }
 }
+
+/// The height in points of a row of a [`Sheet::spaced_table`]: a line of 11-pt text and
+/// a little room above it (common practice: about 1.5 times the font size).
+pub const SPACED_ROW_HEIGHT: f64 = 17.25;
 
 /// A whole workbook to write.
 #[derive(Debug, Clone, Default, PartialEq)]
@@ -521,6 +549,7 @@ struct Looks {
     verdict: Format,
     key: Format,
     paragraph: Format,
+    spaced: Format,
     link: Format,
 }
 
@@ -567,6 +596,7 @@ impl Looks {
                 .set_align(FormatAlign::Top),
             key: Format::new().set_bold().set_align(FormatAlign::Top),
             paragraph: Format::new().set_text_wrap().set_align(FormatAlign::Top),
+            spaced: Format::new().set_align(FormatAlign::Bottom),
             link: Format::new()
                 .set_font_color(Color::RGB(0x0563C1))
                 .set_underline(rust_xlsxwriter::FormatUnderline::Single)
@@ -586,6 +616,7 @@ impl Looks {
             Look::Verdict => &self.verdict,
             Look::Key => &self.key,
             Look::Paragraph => &self.paragraph,
+            Look::Spaced => &self.spaced,
         }
     }
 }
