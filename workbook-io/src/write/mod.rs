@@ -94,7 +94,7 @@ pub enum Value {
     Number(f64, NumberFormat),
     /// A link to another file, with the text shown.
     Link {
-        /// The target, a relative file path or URL.
+        /// The target, a file path (relative to the workbook's folder, or whole) or URL.
         target: String,
         /// The text shown.
         text: String,
@@ -621,6 +621,22 @@ impl Looks {
     }
 }
 
+/// The longest text constant a formula may hold, in characters (the file format's limit).
+const MOST_FORMULA_TEXT: usize = 255;
+
+/// `=HYPERLINK("target", "text")` with each line break of `text` as `CHAR(10)`, or `None`
+/// when the target or a line is longer than a formula's text constant may be.
+fn hyperlink_formula(target: &str, text: &str) -> Option<String> {
+    let quoted = |part: &str| format!("\"{}\"", part.replace('"', "\"\""));
+    if target.chars().count() > MOST_FORMULA_TEXT
+        || text.split('\n').any(|line| line.chars().count() > MOST_FORMULA_TEXT)
+    {
+        return None;
+    }
+    let shown: Vec<String> = text.split('\n').map(quoted).collect();
+    Some(format!("=HYPERLINK({},{})", quoted(target), shown.join("&CHAR(10)&")))
+}
+
 fn clip_text(text: &str) -> &str {
     if text.len() <= MAX_CELL_TEXT {
         return text;
@@ -721,10 +737,24 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
                     };
                     worksheet.write_string_with_format(placed.row, placed.col, shown, format)?;
                 }
-                Value::Link { target, text } => {
-                    let url = rust_xlsxwriter::Url::new(target.as_str()).set_text(clip_text(text));
-                    worksheet.write_url_with_format(placed.row, placed.col, url, &looks.link)?;
-                }
+                Value::Link { target, text } => match hyperlink_formula(target, text) {
+                    // A link written as a formula is an ordinary cell that wraps its text
+                    // in every program; a link stored as the sheet's hyperlink is shown by
+                    // some programs as one line cut at the cell's edge.
+                    Some(formula) => {
+                        let formula = Formula::new(formula).set_result(clip_text(text));
+                        worksheet.write_formula_with_format(placed.row, placed.col, formula, &looks.link)?;
+                    }
+                    None => {
+                        let url = if target.contains("://") {
+                            target.clone()
+                        } else {
+                            format!("file:///{target}")
+                        };
+                        let url = rust_xlsxwriter::Url::new(url).set_text(clip_text(text));
+                        worksheet.write_url_with_format(placed.row, placed.col, url, &looks.link)?;
+                    }
+                },
                 Value::Blank => {}
             }
         }
@@ -1121,6 +1151,17 @@ pub fn write_atomically(bytes: &[u8], destination: &Path) -> Result<(), WriteErr
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_link_is_a_hyperlink_formula_with_its_line_breaks_and_quotes_kept() {
+        assert_eq!(
+            hyperlink_formula("week/a \"b\".xlsx", "a \"b\".\nxlsx").as_deref(),
+            Some("=HYPERLINK(\"week/a \"\"b\"\".xlsx\",\"a \"\"b\"\".\"&CHAR(10)&\"xlsx\")")
+        );
+        // Longer than a formula's text constant: stored as the sheet's hyperlink instead.
+        assert_eq!(hyperlink_formula(&"d/".repeat(200), "x"), None);
+        assert_eq!(hyperlink_formula("x", &"y".repeat(256)), None);
+    }
 
     fn entry_text(bytes: &[u8], name: &str) -> String {
         use std::io::Read;
