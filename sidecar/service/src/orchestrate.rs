@@ -178,7 +178,19 @@ pub fn conditions_of(table: &TrialTable) -> (String, Vec<String>, Vec<u32>) {
         });
         groups.push(index);
     }
-    (name, names, groups)
+    // The combinations in the order of their factors' levels (numeric levels are in
+    // numeric order), the first factor changing slowest, rather than in the order the
+    // rows happen to list them.
+    let mut order: Vec<(Vec<u32>, u32)> = combination_index.into_iter().collect();
+    order.sort();
+    let mut new_index = vec![0u32; names.len()];
+    let mut sorted_names = Vec::with_capacity(names.len());
+    for (position, (_, old)) in order.iter().enumerate() {
+        new_index[*old as usize] = position as u32;
+        sorted_names.push(names[*old as usize].clone());
+    }
+    let groups = groups.into_iter().map(|group| new_index[group as usize]).collect();
+    (name, sorted_names, groups)
 }
 
 pub(crate) fn analyse_loaded(

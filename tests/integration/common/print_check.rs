@@ -104,7 +104,17 @@ fn wrapped_lines(text: &str, capacity: f64) -> usize {
         .sum()
 }
 
+/// Sheets whose tables of one-line values have rows a little taller than their text,
+/// values at the foot (`Sheet::spaced_table`): there a top-aligned value in a
+/// default-height row right under a column header is drawn against the header's border.
+const SPACED_SHEETS: &[&str] = &["Power and runs"];
+
+/// The least height of a spaced table's row, in points.
+const SPACED_ROW_LEAST: f64 = 17.0;
+
 struct Style {
+    /// Has a border (only column headers have one).
+    bordered: bool,
     wraps: bool,
     vertical: String,
     font_size: f64,
@@ -156,6 +166,7 @@ pub fn print_problems(path: &Path) -> Vec<String> {
                 .and_then(|id| id.parse::<usize>().ok())
                 .unwrap_or(0);
             Style {
+                bordered: attribute(tag, "borderId").is_some_and(|id| id != "0"),
                 wraps: attribute(alignment, "wrapText") == Some("1"),
                 vertical: attribute(alignment, "vertical").unwrap_or("bottom").to_string(),
                 font_size: font_sizes.get(font).copied().unwrap_or(11.0),
@@ -223,9 +234,15 @@ pub fn print_problems(path: &Path) -> Vec<String> {
         }
 
         // Rows and their cells.
+        let spaced = SPACED_SHEETS.contains(&name.as_str());
+        let mut header_row_above = false;
+        let mut last_row = 0u32;
         for (row_tag, row_body) in elements(&xml, "row") {
             let row: u32 = attribute(row_tag, "r").and_then(|r| r.parse().ok()).unwrap_or(0);
             let height: f64 = attribute(row_tag, "ht").and_then(|h| h.parse().ok()).unwrap_or(15.0);
+            let under_header = header_row_above && row == last_row + 1;
+            last_row = row;
+            header_row_above = false;
             for (cell_tag, cell_body) in elements(row_body, "c") {
                 let reference = attribute(cell_tag, "r").unwrap_or("A1");
                 let col = column_number(reference);
@@ -257,7 +274,13 @@ pub fn print_problems(path: &Path) -> Vec<String> {
                         }
                     }
                 }
+                header_row_above |= style.is_some_and(|style| style.bordered);
                 let vertical = style.map_or("bottom", |style| style.vertical.as_str());
+                if spaced && under_header && has_value && vertical == "top" && height < SPACED_ROW_LEAST {
+                    problems.push(at(format!(
+                        "{reference}, right under a column header, is top-aligned in a row {height} pt tall: it is drawn against the header's border"
+                    )));
+                }
                 if has_value && height > 32.0 && vertical == "bottom" {
                     problems.push(at(format!(
                         "{reference} is bottom-aligned in a row {height} pt tall: it reads as part of the next row"

@@ -9,6 +9,7 @@
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
+pub mod chart_key;
 pub mod print;
 
 use rust_xlsxwriter::{
@@ -78,6 +79,10 @@ pub enum Look {
     Key,
     /// Running text, wrapped within the column.
     Paragraph,
+    /// A one-line value of a table placed with [`Sheet::spaced_table`]: at the foot of a
+    /// row a little taller than its text, so that it stands clear of the header's
+    /// border above rather than touching it.
+    Spaced,
 }
 
 /// A cell's content.
@@ -89,7 +94,7 @@ pub enum Value {
     Number(f64, NumberFormat),
     /// A link to another file, with the text shown.
     Link {
-        /// The target, a relative file path or URL.
+        /// The target, a file path (relative to the workbook's folder, or whole) or URL.
         target: String,
         /// The text shown.
         text: String,
@@ -454,6 +459,26 @@ impl Sheet {
         next
     }
 
+    /// Places a table like [`Sheet::table`] whose rows of values are each
+    /// [`SPACED_ROW_HEIGHT`] points tall with the values at the foot of the row, so that
+    /// the first row stands clear of the header's border (spreadsheet programs draw a
+    /// top-aligned value of a one-line row against the line above it). For tables of
+    /// one-line values. Returns the first row after the table.
+    pub fn spaced_table(&mut self, row: u32, col: u16, headers: &[&str], rows: Vec<Vec<Value>>) -> u32 {
+        for (offset, header) in headers.iter().enumerate() {
+            self.put(row, col + offset as u16, Value::text(*header), Look::ColumnHeader);
+        }
+        let mut next = row + 1;
+        for values in rows {
+            for (offset, value) in values.into_iter().enumerate() {
+                self.put(next, col + offset as u16, value, Look::Spaced);
+            }
+            self.heights.push((next, SPACED_ROW_HEIGHT));
+            next += 1;
+        }
+        next
+    }
+
     /// Places a table: a header row and rows of values. Returns the first row after it.
     pub fn table(&mut self, row: u32, col: u16, headers: &[&str], rows: Vec<Vec<Value>>) -> u32 {
         for (offset, header) in headers.iter().enumerate() {
@@ -469,6 +494,10 @@ impl Sheet {
         next
     }
 }
+
+/// The height in points of a row of a [`Sheet::spaced_table`]: a line of 11-pt text and
+/// a little room above it (common practice: about 1.5 times the font size).
+pub const SPACED_ROW_HEIGHT: f64 = 17.25;
 
 /// A whole workbook to write.
 #[derive(Debug, Clone, Default, PartialEq)]
@@ -520,6 +549,7 @@ struct Looks {
     verdict: Format,
     key: Format,
     paragraph: Format,
+    spaced: Format,
     link: Format,
 }
 
@@ -566,6 +596,7 @@ impl Looks {
                 .set_align(FormatAlign::Top),
             key: Format::new().set_bold().set_align(FormatAlign::Top),
             paragraph: Format::new().set_text_wrap().set_align(FormatAlign::Top),
+            spaced: Format::new().set_align(FormatAlign::Bottom),
             link: Format::new()
                 .set_font_color(Color::RGB(0x0563C1))
                 .set_underline(rust_xlsxwriter::FormatUnderline::Single)
@@ -585,8 +616,25 @@ impl Looks {
             Look::Verdict => &self.verdict,
             Look::Key => &self.key,
             Look::Paragraph => &self.paragraph,
+            Look::Spaced => &self.spaced,
         }
     }
+}
+
+/// The longest text constant a formula may hold, in characters (the file format's limit).
+const MOST_FORMULA_TEXT: usize = 255;
+
+/// `=HYPERLINK("target", "text")` with each line break of `text` as `CHAR(10)`, or `None`
+/// when the target or a line is longer than a formula's text constant may be.
+fn hyperlink_formula(target: &str, text: &str) -> Option<String> {
+    let quoted = |part: &str| format!("\"{}\"", part.replace('"', "\"\""));
+    if target.chars().count() > MOST_FORMULA_TEXT
+        || text.split('\n').any(|line| line.chars().count() > MOST_FORMULA_TEXT)
+    {
+        return None;
+    }
+    let shown: Vec<String> = text.split('\n').map(quoted).collect();
+    Some(format!("=HYPERLINK({},{})", quoted(target), shown.join("&CHAR(10)&")))
 }
 
 fn clip_text(text: &str) -> &str {
@@ -689,10 +737,24 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
                     };
                     worksheet.write_string_with_format(placed.row, placed.col, shown, format)?;
                 }
-                Value::Link { target, text } => {
-                    let url = rust_xlsxwriter::Url::new(target.as_str()).set_text(clip_text(text));
-                    worksheet.write_url_with_format(placed.row, placed.col, url, &looks.link)?;
-                }
+                Value::Link { target, text } => match hyperlink_formula(target, text) {
+                    // A link written as a formula is an ordinary cell that wraps its text
+                    // in every program; a link stored as the sheet's hyperlink is shown by
+                    // some programs as one line cut at the cell's edge.
+                    Some(formula) => {
+                        let formula = Formula::new(formula).set_result(clip_text(text));
+                        worksheet.write_formula_with_format(placed.row, placed.col, formula, &looks.link)?;
+                    }
+                    None => {
+                        let url = if target.contains("://") {
+                            target.clone()
+                        } else {
+                            format!("file:///{target}")
+                        };
+                        let url = rust_xlsxwriter::Url::new(url).set_text(clip_text(text));
+                        worksheet.write_url_with_format(placed.row, placed.col, url, &looks.link)?;
+                    }
+                },
                 Value::Blank => {}
             }
         }
@@ -1089,6 +1151,17 @@ pub fn write_atomically(bytes: &[u8], destination: &Path) -> Result<(), WriteErr
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_link_is_a_hyperlink_formula_with_its_line_breaks_and_quotes_kept() {
+        assert_eq!(
+            hyperlink_formula("week/a \"b\".xlsx", "a \"b\".\nxlsx").as_deref(),
+            Some("=HYPERLINK(\"week/a \"\"b\"\".xlsx\",\"a \"\"b\"\".\"&CHAR(10)&\"xlsx\")")
+        );
+        // Longer than a formula's text constant: stored as the sheet's hyperlink instead.
+        assert_eq!(hyperlink_formula(&"d/".repeat(200), "x"), None);
+        assert_eq!(hyperlink_formula("x", &"y".repeat(256)), None);
+    }
 
     fn entry_text(bytes: &[u8], name: &str) -> String {
         use std::io::Read;

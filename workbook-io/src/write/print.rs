@@ -385,21 +385,30 @@ impl Sheet {
         let mut room = 0u32;
         let pixels_of = |rows: u32| (f64::from(rows) * DEFAULT_ROW_HEIGHT / 0.75).floor() as u32;
         // Two charts to a page where each keeps at least SHARED_CHART_HEIGHT pixels.
-        let half_page = pixels_of(page_rows.saturating_sub(1 + CHART_GAP_ROWS) / 2);
+        // A region is a blank row with the break, its charts with gaps between, and a
+        // blank row after them.
+        let half_page = pixels_of(page_rows.saturating_sub(2 + CHART_GAP_ROWS) / 2);
         let most_pixels = if half_page >= SHARED_CHART_HEIGHT {
             half_page
         } else {
-            pixels_of(page_rows.saturating_sub(1 + CHART_GAP_ROWS))
+            pixels_of(page_rows.saturating_sub(2 + CHART_GAP_ROWS))
         };
         for mut chart in charts {
             chart.size.1 = chart.size.1.min(most_pixels);
             let rows = chart_rows(chart.size.1);
             if rows + CHART_GAP_ROWS > room {
-                // A new region: the break on a blank row, the chart one row below.
+                // A new region: the break on a blank row, the chart one row below. After
+                // a chart, one more blank row first, so that the chart before ends a row
+                // above the break rather than on it (programs measure rows a little
+                // differently; a chart ending on the break row shows its edge on the
+                // next page).
+                if next > row {
+                    next += 1;
+                }
                 if !self.page_breaks.contains(&next) {
                     self.page_breaks.push(next);
                 }
-                room = page_rows;
+                room = page_rows.saturating_sub(1);
                 chart.anchor = (next + 1, 0);
                 next += 1 + rows;
                 room = room.saturating_sub(1 + rows);
@@ -527,9 +536,10 @@ mod tests {
                 // chart's rows fit that page's height.
                 let page = starts.iter().rposition(|start| *start <= first).expect("a page");
                 let next = starts.get(page + 1).copied().unwrap_or(u32::MAX);
+                // A blank row between the chart's last row and the next page's break.
                 assert!(
-                    last < next,
-                    "chart on rows {first}..={last} crosses the break at {next} ({portrait})"
+                    last + 1 < next,
+                    "chart on rows {first}..={last} ends on or crosses the break at {next} ({portrait})"
                 );
                 let used = f64::from(last + 1 - starts[page]) * DEFAULT_ROW_HEIGHT;
                 assert!(used <= page_height, "{used} of {page_height}");

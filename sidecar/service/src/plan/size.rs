@@ -492,7 +492,9 @@ pub fn size_book(answer: &SizeAnswer) -> Book {
         ]);
         rows.push(vec![Value::text("half-width reached"), Value::number(half.reached)]);
     }
-    let mut next = sheet.table(2, 0, &["item", "value"], rows);
+    // Rows a little taller than their text, values at the foot, so that the first row
+    // of each table stands clear of its header's border when printed.
+    let mut next = sheet.spaced_table(2, 0, &["item", "value"], rows);
     for note in &answer.notes {
         sheet.put(next, 0, Value::text(note.clone()), Look::Note);
         next += 1;
@@ -511,7 +513,7 @@ pub fn size_book(answer: &SizeAnswer) -> Book {
             ]
         })
         .collect();
-    let end = sheet.table(
+    let end = sheet.spaced_table(
         header_row,
         0,
         &[answer.count_means.as_str(), "runs in all", "residual df", "power"],

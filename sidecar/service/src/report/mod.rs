@@ -16,7 +16,9 @@ pub mod problems;
 pub mod rollup;
 pub mod surface;
 
-use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
+use workbook_io::write::{
+    chart_key, print, Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value,
+};
 
 use crate::{ResponseOutcome, WorkbookResults};
 use engine::analysis::oneway::OneWayFit;
@@ -162,6 +164,9 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     // About 6.5 inches in the usual fonts: the text width of an upright A4
     // or Letter page (the summary is printed at 100%, one page per response).
     const SUMMARY_WIDTH: f64 = 72.0;
+    // The conditions sheet's column of chart codes, right of the table, when the
+    // condition labels are too long for a chart's axis.
+    const CODE_COL: u16 = 12;
     summary.widths = vec![(0, SUMMARY_WIDTH)];
     // Printed, each response's section and its chart stand on one upright page.
     summary.portrait = true;
@@ -420,7 +425,29 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
         }
         conditions_row += 1;
 
+        // Long combined labels ("60 / 20 / 4 / 1") or many conditions: the chart shows
+        // codes, written beside the table on the conditions sheet, and a key under it.
+        let labels: Vec<String> = fit.conditions.iter().map(|condition| condition.name.clone()).collect();
+        let coded = chart_key::needs_codes(&labels);
+        let category_col = if coded {
+            conditions.put(
+                first_data_row - 1,
+                CODE_COL,
+                Value::text("chart code"),
+                Look::ColumnHeader,
+            );
+            for (offset, code) in chart_key::codes(labels.len()).into_iter().enumerate() {
+                conditions.put(first_data_row + offset as u32, CODE_COL, Value::text(code), Look::Plain);
+            }
+            if !conditions.widths.iter().any(|(col, _)| *col == CODE_COL) {
+                conditions.widths.push((CODE_COL, 7.0));
+            }
+            CODE_COL
+        } else {
+            0
+        };
         let has_bars = fit.pooled_sd.is_finite();
+        let chart_size = (500, 290);
         summary.charts.push(ChartSpec {
             kind: ChartKind::Points,
             title: format!("{}: average by condition", response.name),
@@ -432,17 +459,33 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
             },
             series: vec![Series {
                 name: response.name.clone(),
-                categories: SheetRange::column(names::CONDITIONS, 0, first_data_row, last_data_row),
+                categories: SheetRange::column(names::CONDITIONS, category_col, first_data_row, last_data_row),
                 values: SheetRange::column(names::CONDITIONS, 2, first_data_row, last_data_row),
                 bar_plus: has_bars.then(|| SheetRange::column(names::CONDITIONS, 10, first_data_row, last_data_row)),
                 bar_minus: has_bars.then(|| SheetRange::column(names::CONDITIONS, 10, first_data_row, last_data_row)),
                 labels: None,
             }],
             anchor: (summary_row + 1, 0),
-            size: (500, 290),
+            size: chart_size,
             value_limits: None,
         });
-        summary_row += 17;
+        if coded {
+            // The key right under the chart, so that both print on one page.
+            let key_row = summary_row + 1 + print::chart_rows(chart_size.1);
+            summary_row = summary.chart_key(
+                key_row,
+                0,
+                &format!(
+                    "{}, in the order of the sheet '{}'",
+                    response.condition_factor,
+                    names::CONDITIONS
+                ),
+                &labels,
+                SUMMARY_WIDTH,
+            ) + 1;
+        } else {
+            summary_row += 17;
+        }
 
         // ANOVA table.
         anova.put(anova_row, 0, Value::text(response.name.clone()), Look::Heading);

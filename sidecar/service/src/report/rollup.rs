@@ -98,14 +98,39 @@ fn clip(text: String, most: usize) -> String {
     }
 }
 
+/// The link to a results file: the whole path as the target, the file name alone as the
+/// text, broken into lines that fit the column (after a `.`, `-`, `_` or space, or within
+/// a longer piece), because spreadsheet programs do not wrap a name without spaces and
+/// cut it at the cell's edge instead.
+fn results_link(target: &str) -> Value {
+    let name = target.rsplit(['/', '\\']).next().unwrap_or(target);
+    // One character less than the column's width: proportional type runs a little wide.
+    let line = (ROW_WIDTHS[ROW_WIDTHS.len() - 1] as usize).saturating_sub(1).max(4);
+    Value::Link {
+        target: target.to_string(),
+        text: break_into_lines(name, line),
+    }
+}
+
+/// `text` in lines of at most `width` characters, broken after a `.`, `-`, `_` or space
+/// where one falls within the line, else at the width.
+fn break_into_lines(text: &str, width: usize) -> String {
+    let mut lines: Vec<String> = Vec::new();
+    let mut rest: Vec<char> = text.chars().collect();
+    while rest.len() > width {
+        let cut = (1..=width)
+            .rev()
+            .find(|&at| matches!(rest[at - 1], '.' | '-' | '_' | ' '))
+            .unwrap_or(width);
+        lines.push(rest[..cut].iter().collect::<String>().trim_end().to_string());
+        rest.drain(..cut);
+    }
+    lines.push(rest.into_iter().collect());
+    lines.join("\n")
+}
+
 fn response_row(entry: &RollupEntry<'_>, response: &ResponseResult, findings: usize) -> Vec<Value> {
-    let link = match &entry.results_link {
-        Some(target) => Value::Link {
-            target: format!("file:///{target}"),
-            text: target.clone(),
-        },
-        None => Value::Blank,
-    };
+    let link = entry.results_link.as_deref().map_or(Value::Blank, results_link);
     let Some(fit) = response.fit() else {
         let reason = match &response.outcome {
             crate::ResponseOutcome::NotAnalysed { reason } => reason.clone(),
@@ -355,13 +380,7 @@ pub fn summarise(entry: &RollupEntry<'_>) -> RollupSummary {
             row.extend(std::iter::repeat_n(Value::Blank, 10));
             row.push(Value::text(clip(format!("not analysed: {reason}"), 500)));
             row.push(Value::Blank);
-            row.push(match &entry.results_link {
-                Some(target) => Value::Link {
-                    target: format!("file:///{target}"),
-                    text: target.clone(),
-                },
-                None => Value::Blank,
-            });
+            row.push(entry.results_link.as_deref().map_or(Value::Blank, results_link));
             summary.kinds.push(4);
             summary.rows.push(row);
         }
@@ -469,5 +488,34 @@ mod tests {
             "{content} pt at {}% on {page_width} pt",
             print.scale
         );
+    }
+
+    /// The link's text is the file name in lines that fit the column, its target the
+    /// whole path (a name without spaces is otherwise cut at the cell's edge).
+    #[test]
+    fn a_results_link_shows_the_file_name_in_lines_that_fit_its_column() {
+        let target = "plant-north/line3/line3-extrusion-trial-week12.results.xlsx";
+        let Value::Link { target: link, text } = results_link(target) else {
+            panic!("a link");
+        };
+        assert_eq!(link, target);
+        let width = ROW_WIDTHS[ROW_WIDTHS.len() - 1] as usize;
+        for line in text.lines() {
+            assert!(line.chars().count() < width, "{line:?} in {text:?}");
+        }
+        // Nothing lost or added but the line breaks, and the folders left out.
+        assert_eq!(text.replace('\n', ""), "line3-extrusion-trial-week12.results.xlsx");
+        assert_eq!(text.lines().next(), Some("line3-"));
+        // A piece with no place to break is cut at the width; a short name stays whole.
+        assert_eq!(break_into_lines("abcdefghij", 4), "abcd\nefgh\nij");
+        assert_eq!(break_into_lines("a.results.xlsx", 13), "a.results.\nxlsx");
+        let Value::Link { text, .. } = results_link("t1.xlsx") else {
+            panic!("a link");
+        };
+        assert_eq!(text, "t1.xlsx");
+        let Value::Link { text, .. } = results_link("..\\other\\x.xlsx") else {
+            panic!("a link");
+        };
+        assert_eq!(text, "x.xlsx");
     }
 }
