@@ -742,20 +742,14 @@ mod tests {
         assert!(verdict.headline.contains("cannot be judged"), "{}", verdict.headline);
     }
 
-    /// A replicated 2^2 built so that the effects are known by arithmetic: a two-level
-    /// effect is the mean at the high level minus the mean at the low level (the
-    /// definition used throughout the NIST/SEMATECH e-Handbook's two-level designs; common
-    /// practice). Here Temperature's is 4 exactly and
-    /// Pressure's and the interaction's are 0 exactly, each cell holding the same two
-    /// values apart from Temperature's shift.
-    #[test]
-    fn reads_a_factorial_by_its_effects_and_its_direction() {
+    /// The factorial outcome of a replicated 2^2 (Temperature 150/180, Pressure 2/4, two
+    /// runs a cell) with the given leak rates, records in standard order twice over.
+    fn replicated_two_by_two(values: &[f64]) -> crate::analysis::factorial::FactorialOutcome {
         use crate::analysis::factorial::{analyse_factorial, FactorData, FactorialData, FactorialOptions};
         let temperature = vec!["150".to_string(), "180".to_string()];
         let pressure = vec!["2".to_string(), "4".to_string()];
         let temperature_of = [0, 0, 1, 1, 0, 0, 1, 1];
         let pressure_of = [0, 0, 0, 0, 1, 1, 1, 1];
-        let values = [10.0, 10.2, 14.0, 14.2, 10.0, 10.2, 14.0, 14.2];
         let data = FactorialData {
             factors: vec![
                 FactorData {
@@ -772,9 +766,21 @@ mod tests {
                 },
             ],
             response_name: "Leak rate (ccm)",
-            values: &values,
+            values,
         };
         let outcome = analyse_factorial(&data, &FactorialOptions::default()).expect("a factorial outcome");
+        outcome
+    }
+
+    /// A replicated 2^2 built so that the effects are known by arithmetic: a two-level
+    /// effect is the mean at the high level minus the mean at the low level (the
+    /// definition used throughout the NIST/SEMATECH e-Handbook's two-level designs; common
+    /// practice). Here Temperature's is 4 exactly and
+    /// Pressure's and the interaction's are 0 exactly, each cell holding the same two
+    /// values apart from Temperature's shift.
+    #[test]
+    fn reads_a_factorial_by_its_effects_and_its_direction() {
+        let outcome = replicated_two_by_two(&[10.0, 10.2, 14.0, 14.2, 10.0, 10.2, 14.0, 14.2]);
         let reading = read_factorial("Leak rate (ccm)", Some("ccm"), &outcome, Some(Direction::LowerIsBetter))
             .expect("a reading");
         assert_eq!(reading.matter, vec!["Temperature".to_string()]);
@@ -821,31 +827,7 @@ mod tests {
     /// `stats.t.ppf(0.975, 4)`), giving 4 ± 0.27764 = 3.7224 to 4.2776 (scipy 1.17.1).
     #[test]
     fn a_lowering_effect_is_said_as_lowers_it_by_with_a_positive_interval() {
-        use crate::analysis::factorial::{analyse_factorial, FactorData, FactorialData, FactorialOptions};
-        let temperature = vec!["150".to_string(), "180".to_string()];
-        let pressure = vec!["2".to_string(), "4".to_string()];
-        let temperature_of = [0, 0, 1, 1, 0, 0, 1, 1];
-        let pressure_of = [0, 0, 0, 0, 1, 1, 1, 1];
-        let values = [10.0, 10.2, 6.0, 6.2, 10.0, 10.2, 6.0, 6.2];
-        let data = FactorialData {
-            factors: vec![
-                FactorData {
-                    name: "Temperature",
-                    levels: &temperature,
-                    level_of_record: &temperature_of,
-                    is_block: false,
-                },
-                FactorData {
-                    name: "Pressure",
-                    levels: &pressure,
-                    level_of_record: &pressure_of,
-                    is_block: false,
-                },
-            ],
-            response_name: "Leak rate (ccm)",
-            values: &values,
-        };
-        let outcome = analyse_factorial(&data, &FactorialOptions::default()).expect("a factorial outcome");
+        let outcome = replicated_two_by_two(&[10.0, 10.2, 6.0, 6.2, 10.0, 10.2, 6.0, 6.2]);
         let reading = read_factorial("Leak rate (ccm)", Some("ccm"), &outcome, Some(Direction::LowerIsBetter))
             .expect("a reading");
         let largest = reading.largest.as_ref().expect("a largest effect");

@@ -247,34 +247,24 @@ fn factorial_row(
         .factorial
         .as_ref()
         .map_or(fit.n_total, |outcome| outcome.n_values as u64);
-    vec![
-        Value::text(entry.file.clone()),
-        Value::text(response.name.clone()),
-        Value::text(clip(
-            format!(
-                "{} ({} combinations run)",
-                response.condition_factor,
-                fit.conditions.len()
+    combinations_row_start(entry, response, fit, runs)
+        .into_iter()
+        .chain([
+            Value::text(format!("factorial model, {}", reading.analysis)),
+            reading.smallest_p.map_or(Value::Blank, Value::p_value),
+            Value::text(
+                reading
+                    .best_settings
+                    .clone()
+                    .unwrap_or_else(|| "(set a direction to choose)".into()),
             ),
-            300,
-        )),
-        Value::integer(runs as f64),
-        Value::text(format!("factorial model, {}", reading.analysis)),
-        reading.smallest_p.map_or(Value::Blank, Value::p_value),
-        Value::text(
-            reading
-                .best_settings
-                .clone()
-                .unwrap_or_else(|| "(set a direction to choose)".into()),
-        ),
-        effect_text,
-        size,
-        low,
-        high,
-    ]
-    .into_iter()
-    .chain(row_end(response, findings, link))
-    .collect()
+            effect_text,
+            size,
+            low,
+            high,
+        ])
+        .chain(row_end(response, findings, link))
+        .collect()
 }
 
 /// The row of a response led by its second-order model: the model's test, the
@@ -311,7 +301,30 @@ fn surface_row(
         ),
         None => (Value::Blank, Value::Blank, Value::Blank, Value::Blank),
     };
-    vec![
+    combinations_row_start(entry, response, fit, surface.n_records as u64)
+        .into_iter()
+        .chain([
+            Value::text("second-order model"),
+            engine::analysis::surface::model_test(surface).map_or(Value::Blank, |(_, _, p)| Value::p_value(p)),
+            Value::text(settings.unwrap_or_else(|| "(set a direction to choose)".into())),
+            label,
+            size,
+            low,
+            high,
+        ])
+        .chain(row_end(response, findings, link))
+        .collect()
+}
+
+/// The first cells of a row read from the combinations run: workbook, response, the
+/// combinations and the number of runs.
+fn combinations_row_start(
+    entry: &RollupEntry<'_>,
+    response: &ResponseResult,
+    fit: &engine::analysis::oneway::OneWayFit,
+    runs: u64,
+) -> [Value; 4] {
+    [
         Value::text(entry.file.clone()),
         Value::text(response.name.clone()),
         Value::text(clip(
@@ -322,18 +335,8 @@ fn surface_row(
             ),
             300,
         )),
-        Value::integer(surface.n_records as f64),
-        Value::text("second-order model"),
-        engine::analysis::surface::model_test(surface).map_or(Value::Blank, |(_, _, p)| Value::p_value(p)),
-        Value::text(settings.unwrap_or_else(|| "(set a direction to choose)".into())),
-        label,
-        size,
-        low,
-        high,
+        Value::integer(runs as f64),
     ]
-    .into_iter()
-    .chain(row_end(response, findings, link))
-    .collect()
 }
 
 /// The last cells of an analysed response's row: the headline, the findings and the link.
