@@ -605,10 +605,19 @@ fn filled_central_composite_plan_gets_a_second_order_reading() {
     assert!(reading.contains("Pressure 2.50"), "{reading}");
     let next = response["next_trial"].as_str().unwrap_or_default();
     assert!(next.contains("confirm"), "{next}");
-    // Both sentences stand on the Summary sheet of the results workbook.
+    // The second-order model leads: its headline (with the stationary point) and the
+    // next trial stand on the Summary sheet; the factorial model's category reading of
+    // the composite's levels does not.
+    assert_eq!(response["lead"]["analysis"], "second-order", "{}", response["lead"]);
     let written = read_all(&folder.path().join("filled.results.xlsx"));
     let summary = text_cells(&written, "Summary");
-    assert!(summary.iter().any(|line| line == reading), "{summary:?}");
+    let headline = response["verdict"]["headline"].as_str().unwrap_or_default();
+    assert!(headline.contains("a maximum at Temperature 173"), "{headline}");
+    assert!(summary.iter().any(|line| line == headline), "{summary:?}");
+    assert!(
+        !summary.iter().any(|line| line.ends_with(": factorial reading")),
+        "{summary:?}"
+    );
     assert!(
         summary.iter().any(|line| line == &format!("Next trial: {next}")),
         "{summary:?}"

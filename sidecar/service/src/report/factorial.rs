@@ -93,6 +93,11 @@ pub fn add_factorial_results(results: &WorkbookResults, book: &mut Book) {
     let mut any_reduced = false;
     let mut summary_lines: Vec<(String, Look)> = Vec::new();
     for (response, outcome) in &analysed {
+        // A response-surface trial is read by its second-order model; the factorial
+        // model's reading of its levels as categories stays on its own sheets.
+        if response.lead.analysis == crate::LeadKind::SecondOrder {
+            continue;
+        }
         summary_lines.push((format!("{}: factorial reading", response.name), Look::Heading));
         for (position, line) in outcome.summary.iter().enumerate() {
             summary_lines.push((line.clone(), if position == 0 { Look::Verdict } else { Look::Plain }));
