@@ -768,8 +768,7 @@ mod tests {
             response_name: "Leak rate (ccm)",
             values,
         };
-        let outcome = analyse_factorial(&data, &FactorialOptions::default()).expect("a factorial outcome");
-        outcome
+        analyse_factorial(&data, &FactorialOptions::default()).expect("a factorial outcome")
     }
 
     /// A replicated 2^2 built so that the effects are known by arithmetic: a two-level
