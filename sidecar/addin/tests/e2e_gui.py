@@ -181,13 +181,13 @@ def dispatch_with_dialog(office, document, command, title, values, display=None)
 
     def run():
         try:
-            result = office.dispatcher.executeDispatch(frame, "org.trialyst.addin:" + command, "", 0, ())
+            result = office.dispatch(frame, "org.trialyst.addin:" + command)
             result = getattr(result, "Result", result)
             outcome["answer"] = json.loads(result) if isinstance(result, str) and result else {"ok": False, "error": repr(result)}
         except Exception as error:  # the bridge's own failure, reported as the outcome
             outcome["answer"] = {"ok": False, "error": repr(error)}
 
-    worker = threading.Thread(target=run)
+    worker = threading.Thread(target=run, daemon=True)
     worker.start()
     dialog = top_dialog(office, title)
     if dialog is None:

@@ -17,12 +17,14 @@ Prints one line per check and a timing summary; exits 1 on any failure.
 """
 
 import argparse
+import faulthandler
 import json
 import os
 import shutil
 import signal
 import subprocess
 import sys
+import threading
 import time
 
 import uno
@@ -30,6 +32,12 @@ from com.sun.star.beans import PropertyValue
 
 FAILURES = []
 TIMINGS = {}
+
+
+#: Seconds a single command may take before the office is taken to hang.
+DISPATCH_LIMIT = 240
+#: Seconds the whole test may take (it takes under a minute).
+WHOLE_TEST_LIMIT = 1200
 
 
 def check(condition, what):
@@ -124,14 +132,36 @@ class Office:
     def run(self, document, command, **arguments):
         frame = document.getCurrentController().getFrame()
         started = time.perf_counter()
-        result = self.dispatcher.executeDispatch(
-            frame, "org.trialyst.addin:" + command, "", 0, props(**arguments)
-        )
+        result = self.dispatch(frame, "org.trialyst.addin:" + command, arguments)
         elapsed = (time.perf_counter() - started) * 1000
         result = getattr(result, "Result", result)
         answer = json.loads(result) if isinstance(result, str) and result else {"ok": False, "error": repr(result)}
         answer["wall_ms"] = elapsed
         return answer
+
+    def dispatch(self, frame, url, arguments=None, helper=None, limit=DISPATCH_LIMIT):
+        """Runs a command through `helper` (the office's dispatch helper by
+        default; a second command sent while one runs needs a helper of its
+        own, as a helper keeps one call's state). A dispatch that has not finished within `limit` seconds is reported
+        with every thread's stack and the add-in's log, and the office is
+        killed so that the test goes on (and fails) instead of waiting."""
+        helper = helper or self.dispatcher
+        timer = threading.Timer(limit, self.hung, (url, limit))
+        timer.daemon = True
+        timer.start()
+        try:
+            return helper.executeDispatch(frame, url, "", 0, props(**(arguments or {})))
+        finally:
+            timer.cancel()
+
+    def hung(self, url, limit):
+        check(False, "%s finished within %d s (the office was killed; stacks follow)" % (url, limit))
+        faulthandler.dump_traceback(all_threads=True)
+        log = os.path.join(self.profile, "user", "trialyst-addin.log")
+        if os.path.exists(log):
+            with open(log, encoding="utf-8", errors="replace") as handle:
+                print("--- the add-in's log, last lines\n" + "".join(handle.readlines()[-30:]), flush=True)
+        self.kill()
 
     def kill(self):
         if self.process and self.process.poll() is None:
@@ -186,6 +216,10 @@ def main():
     parser.add_argument("--picture")
     parser.add_argument("--display", help="an X display (Xvfb) for the checks that need the office's windows")
     arguments = parser.parse_args()
+    # The last guard against a hang the per-command limit does not cover
+    # (a call into the office that never returns): every thread's stack is
+    # printed and the test ends with a failure.
+    faulthandler.dump_traceback_later(WHOLE_TEST_LIMIT, exit=True)
     work = arguments.work
     environment = dict(os.environ, TRIALYST_PROGRAM="")
     office = Office(arguments.profile, "trialyst-e2e-%d" % os.getpid())
@@ -348,8 +382,19 @@ def run_checks(office, arguments, work):
         back_names = back.getSheets().getElementNames()
         same = all(name in back_names for name in sheets)
         first = sheets[0]
-        same_values = same and sheet_values(back, first) == all_values[first]
-        check(same and same_values, "saved as %s and read back: sheets and values of '%s' the same" % (extension, first))
+        read_back = sheet_values(back, first) if same else []
+        differing = [
+            (row, before, after)
+            for row, (before, after) in enumerate(zip(all_values[first], read_back))
+            if before != after
+        ]
+        if len(read_back) != len(all_values[first]):
+            differing.append(("rows", len(all_values[first]), len(read_back)))
+        check(
+            same and not differing,
+            "saved as %s and read back: sheets and values of '%s' the same%s"
+            % (extension, first, "" if not differing else "; differing rows: %r" % differing[:3]),
+        )
         back.close(True)
 
     # Close the document: its sidecar ends.
@@ -486,30 +531,38 @@ def run_checks(office, arguments, work):
 def check_cancel(office, document):
     """Stop: a cancel sent while a request runs ends it as cancelled. The
     add-in's stop command is dispatched from a second thread while the
-    first dispatch waits."""
-    import threading
-
+    first dispatch waits. A stop that arrives before the request is sent or
+    after its answer has nothing to cancel, so it is tried at a few delays
+    and must cancel at least once."""
     sheet = document.getSheets().getByIndex(0)
     header = tuple("Line %d" % (index + 1) for index in range(40))
     rows = [header] + [
         tuple(10.0 + ((row * 7919 + col * 104729) % 1000) / 1000.0 for col in range(40)) for row in range(20000)
     ]
     sheet.getCellRangeByPosition(0, 0, 39, 20000).setDataArray(tuple(rows))
-    select(document, sheet.getName(), "A1:AN20001")
-    outcome = {}
+    # A helper of its own: one dispatch helper keeps one call's state.
+    helper = office.smgr.createInstanceWithContext("com.sun.star.frame.DispatchHelper", office.ctx)
+    frame = document.getCurrentController().getFrame()
+    tries = []
+    for delay in (0.3, 0.15, 0.5, 0.8):
+        select(document, sheet.getName(), "A1:AN20001")
+        outcome = {}
 
-    def analyse():
-        outcome["answer"] = office.run(document, "analyse")
+        def analyse():
+            outcome["answer"] = office.run(document, "analyse")
 
-    worker = threading.Thread(target=analyse)
-    worker.start()
-    time.sleep(1.0)
-    stopped = office.run(document, "stop")
-    worker.join(120)
-    answer = outcome.get("answer", {})
+        worker = threading.Thread(target=analyse, daemon=True)
+        worker.start()
+        time.sleep(delay)
+        stopped = json.loads(getattr(office.dispatch(frame, "org.trialyst.addin:stop", helper=helper), "Result", "") or "{}")
+        worker.join(DISPATCH_LIMIT)
+        answer = outcome.get("answer", {})
+        tries.append((delay, stopped.get("stopped"), {k: answer.get(k) for k in ("ok", "cancelled", "error", "ms")}))
+        if answer.get("cancelled") is True:
+            break
     check(
-        answer.get("cancelled") is True or stopped.get("stopped") is None,
-        "stop cancels the running analysis: stop said %s, analyse said %s" % (stopped.get("stopped"), {k: answer.get(k) for k in ("ok", "cancelled", "error", "ms")}),
+        tries[-1][2].get("cancelled") is True and tries[-1][2].get("ok") is False,
+        "stop cancels the running analysis (delay s, stop said, analyse said): %s" % tries,
     )
 
 
@@ -534,7 +587,7 @@ def dispatch_through_menu(office, document):
         command = merged_menu_command(office, "org.trialyst.addin:inspect")
         if command is None:
             return None
-        answer = office.dispatcher.executeDispatch(frame, command, "", 0, ())
+        answer = office.dispatch(frame, command)
         answer = getattr(answer, "Result", answer)
         return json.loads(answer) if answer else None
     for position in range(menubar.getItemCount()):
@@ -550,7 +603,7 @@ def dispatch_through_menu(office, document):
             for index in range(sub.getItemCount()):
                 entry = sub.getItemId(index)
                 if sub.getCommand(entry) == "org.trialyst.addin:inspect":
-                    answer = office.dispatcher.executeDispatch(frame, sub.getCommand(entry), "", 0, ())
+                    answer = office.dispatch(frame, sub.getCommand(entry))
                     answer = getattr(answer, "Result", answer)
                     return json.loads(answer) if answer else None
     return None

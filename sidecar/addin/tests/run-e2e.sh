@@ -71,7 +71,7 @@ fi
     --profile "$work/profile" --program "$work/trialyst" --samples "$work/samples" --work "$work/run" \
     ${picture:+--picture "$work/run/out.png"} ${display:+--display "$display"} || status=$?
 if [ -n "$picture" ] && [ -f "$work/run/out.png" ]; then cp "$work/run/out.png" "$picture"; fi
-if [ "$status" != 0 ] && [ -f "$work/profile/user/../trialyst-addin.log" ]; then
-    echo "--- add-in log" >&2; tail -50 "$work/profile/trialyst-addin.log" >&2
+if [ "$status" != 0 ] && [ -f "$work/profile/user/trialyst-addin.log" ]; then
+    echo "--- add-in log" >&2; tail -50 "$work/profile/user/trialyst-addin.log" >&2
 fi
 exit "$status"
