@@ -224,6 +224,29 @@ fn wide_expected(sheet: &'static str, header_cell: &'static str, levels: &[&str]
     }
 }
 
+/// Rows with a run number (1, 2, ...) put before their first cell.
+fn numbered(rows: Vec<Vec<Option<Cell>>>) -> Vec<Vec<Option<Cell>>> {
+    rows.into_iter()
+        .enumerate()
+        .map(|(index, mut row)| {
+            row.insert(0, Some(n((index + 1) as f64)));
+            row
+        })
+        .collect()
+}
+
+/// A wide table whose title names its factor or its measured value.
+fn titled(mut expected: Expected, factor: Option<&'static str>, value: Option<&'static str>) -> Expected {
+    if let Some(factor) = factor {
+        expected.factors = vec![factor];
+        expected.levels[0].0 = factor;
+    }
+    if let Some(value) = value {
+        expected.responses = vec![value];
+    }
+    expected
+}
+
 fn case(name: &'static str, sheets: Vec<SheetSpec>, expected: Expected) -> ShapeCase {
     ShapeCase { name, sheets, expected }
 }
@@ -396,7 +419,7 @@ pub fn shapes() -> Vec<ShapeCase> {
     cases.push(case(
         "units-row",
         vec![sheet],
-        expected("Trial", "A1", &["Cure cycle"], &["Flexural strength"], 15),
+        expected("Trial", "A1", &["Cure cycle"], &["Flexural strength (MPa)"], 15),
     ));
 
     // 7. A note a blank row below the table.
@@ -660,14 +683,7 @@ pub fn shapes() -> Vec<ShapeCase> {
 
     // 20. A wide table with a Panel number column and an Average formula row.
     let mut sheet = SheetSpec::new("Panels");
-    let mut rows: Vec<Vec<Option<Cell>>> = wide_rows(&mut noise, 3, 8, 85.0, 1.0)
-        .into_iter()
-        .enumerate()
-        .map(|(index, mut row)| {
-            row.insert(0, Some(n((index + 1) as f64)));
-            row
-        })
-        .collect();
+    let mut rows = numbered(wide_rows(&mut noise, 3, 8, 85.0, 1.0));
     let averages: Vec<Option<Cell>> = std::iter::once(Some(t("Average")))
         .chain(
             ["B", "C", "D"]
@@ -1145,7 +1161,7 @@ pub fn shapes() -> Vec<ShapeCase> {
     cases.push(case(
         "combined-title-units-mean",
         vec![sheet],
-        said(expected("Trial", "A2", &["Liner"], &["Burst pressure"], 15)),
+        said(expected("Trial", "A2", &["Liner"], &["Burst pressure (bar)"], 15)),
     ));
 
     // 43. A Date column of text dates and a time of day, then two label factors.
@@ -1289,7 +1305,11 @@ fn more_shapes(noise: &mut Noise) -> Vec<ShapeCase> {
     cases.push(case(
         "wide-numeric-headers-titled",
         vec![sheet],
-        said(wide_expected("Cure", "A2", &["160", "170", "180"], 18)),
+        said(titled(
+            wide_expected("Cure", "A2", &["160", "170", "180"], 18),
+            Some("Cure temperature (deg C)"),
+            None,
+        )),
     ));
 
     // 49. Numbers as condition names with no title, falling from left to right.
@@ -1419,6 +1439,31 @@ fn more_shapes(noise: &mut Noise) -> Vec<ShapeCase> {
         "wide-names-differ-in-case",
         vec![sheet],
         said(wide_expected("Wide", "A1", &["Resin X", "Resin  Y"], 16)),
+    ));
+
+    // 55. A wide table under a title naming the measured value, its factor and unit,
+    // with a panel number column and a Mean formula row.
+    let mut sheet = SheetSpec::new("Thickness");
+    sheet.put(0, 0, t("Wall thickness by die, mm"));
+    let mut rows = numbered(wide_rows(noise, 3, 8, 2.1, 0.04));
+    rows.push(
+        std::iter::once(Some(t("Mean")))
+            .chain(
+                ["B", "C", "D"]
+                    .iter()
+                    .map(|col| Some(Cell::Formula(format!("=AVERAGE({col}4:{col}11)"), 2.1))),
+            )
+            .collect(),
+    );
+    sheet.table(2, 0, &["Panel", "Die 1", "Die 2", "Die 3"], &rows);
+    cases.push(case(
+        "wide-titled-value-by-factor",
+        vec![sheet],
+        said(titled(
+            wide_expected("Thickness", "B3", &["Die 1", "Die 2", "Die 3"], 24),
+            Some("Die"),
+            Some("Wall thickness (mm)"),
+        )),
     ));
 
     cases

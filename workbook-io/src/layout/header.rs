@@ -164,6 +164,20 @@ pub(super) fn find_header_row(
             }
             _ => false,
         });
+        // The same short word in every cell under a header ("mm", "mm", "mm") is a
+        // units row: column names differ.
+        let texts: Vec<&str> = row_cells
+            .iter()
+            .filter_map(|(_, value)| match value {
+                CellValue::Text(text) => Some(grid.text(*text).trim()),
+                _ => None,
+            })
+            .collect();
+        let repeated_unit = best.is_some()
+            && texts.len() >= 2
+            && texts[0].chars().count() <= 12
+            && texts.iter().all(|text| text.eq_ignore_ascii_case(texts[0]));
+        let units_only = units_only || repeated_unit;
         let weight = 2 * n_text + usize::from(row_cells[0].0.col == first_col && !units_only);
         if best.is_none_or(|(_, most)| weight >= most) {
             best = Some((index, weight));

@@ -137,10 +137,10 @@ fn detect_table_cells(
     }
     choices.extend(formula_line);
     let header_span = rows[header_index];
-    if cells[header_span.0..header_span.1]
+    let numbers_as_names = cells[header_span.0..header_span.1]
         .iter()
-        .all(|(_, value)| matches!(value, CellValue::Number(_)))
-    {
+        .all(|(_, value)| matches!(value, CellValue::Number(_)));
+    if numbers_as_names {
         let names: Vec<String> = cells[header_span.0..header_span.1]
             .iter()
             .map(|(_, value)| grid.display(*value))
@@ -183,23 +183,61 @@ fn detect_table_cells(
             .iter()
             .all(|(_, value)| matches!(value, CellValue::Text(_)));
         let label_blank = cells[span.0].0.col != first_header_col;
-        if row_has_number(&span) || !all_text || !label_blank {
+        // Over a wide table there is no label column: the same unit under every column.
+        let repeated_unit = {
+            let texts: Vec<&str> = cells[span.0..span.1]
+                .iter()
+                .filter_map(|(_, value)| match value {
+                    CellValue::Text(index) => Some(grid.text(*index).trim()),
+                    _ => None,
+                })
+                .collect();
+            texts.len() >= 2
+                && looks_like_unit(texts[0])
+                && texts.iter().all(|text| text.eq_ignore_ascii_case(texts[0]))
+        };
+        if row_has_number(&span) || !all_text || !(label_blank || repeated_unit) {
             break;
         }
         units_rows.push(cells[span.0].0.row);
         first_data += 1;
     }
+    // A single units row under the header gives each column its unit ("Fill weight"
+    // over "g" is "Fill weight (g)"); the name as typed still finds the column.
+    let header_cells = &cells[rows[header_index].0..rows[header_index].1];
+    let units_of_columns: Vec<(u32, String, String)> = match units_rows.as_slice() {
+        [_] => {
+            let units = rows[header_index + 1];
+            cells[units.0..units.1]
+                .iter()
+                .filter_map(|(pos, value)| {
+                    let CellValue::Text(index) = value else { return None };
+                    let unit = grid.text(*index).trim();
+                    let (_, header) = header_cells.iter().find(|(header, _)| header.col == pos.col)?;
+                    let name = cells::value_text(grid, *header).trim().to_string();
+                    (looks_like_unit(unit) && !name.is_empty() && !name.ends_with([')', ']']))
+                        .then(|| (pos.col, name, unit.to_string()))
+                })
+                .collect()
+        }
+        _ => Vec::new(),
+    };
     if let (Some(&first), Some(&last)) = (units_rows.first(), units_rows.last()) {
         let area = CellRect {
             first: CellPos::new(first, first_header_col),
             last: CellPos::new(last, cells[rows[header_index].1 - 1].0.col),
         };
+        let attached: Vec<String> = units_of_columns
+            .iter()
+            .map(|(_, name, unit)| format!("{name} in {unit}"))
+            .collect();
         let line = format!(
-            "{} {} under the header {} text only (units or notes); {} read as part of the header, not as records; set `range` to start the table elsewhere",
+            "{} {} under the header {} text only (units or notes); {} read as part of the header{}, not as records; set `range` to start the table elsewhere",
             noun(units_rows.len(), "row"),
             number_list(&units_rows),
             if units_rows.len() == 1 { "holds" } else { "hold" },
-            if units_rows.len() == 1 { "it was" } else { "they were" }
+            if units_rows.len() == 1 { "it was" } else { "they were" },
+            if attached.is_empty() { String::new() } else { format!(" (units: {})", attached.join(", ")) }
         );
         findings.push(choice_finding(&sheet, area, "text under the header", &line));
         choices.push(line);
@@ -265,6 +303,20 @@ fn detect_table_cells(
         &mut findings,
     );
 
+    let mut typed_names: Vec<(u32, String)> = Vec::new();
+    let headers: Vec<(u32, String)> = headers
+        .into_iter()
+        .map(
+            |(col, name)| match units_of_columns.iter().find(|(unit_col, _, _)| *unit_col == col) {
+                Some((_, _, unit)) => {
+                    typed_names.push((col, name.clone()));
+                    (col, format!("{name} ({unit})"))
+                }
+                None => (col, name),
+            },
+        )
+        .collect();
+
     // Count what each column holds.
     let columns = count_columns(grid, &headers, data_cells);
     let first_col = columns.first().map_or(0, |column| column.col);
@@ -312,6 +364,12 @@ fn detect_table_cells(
         columns
             .iter()
             .position(|column| column.name.eq_ignore_ascii_case(name.trim()))
+            .or_else(|| {
+                let typed = typed_names
+                    .iter()
+                    .find(|(_, typed)| typed.eq_ignore_ascii_case(name.trim()))?;
+                columns.iter().position(|column| column.col == typed.0)
+            })
             .ok_or_else(|| LayoutError::UnknownColumn {
                 sheet: sheet.clone(),
                 name: name.to_string(),
@@ -659,7 +717,14 @@ fn detect_table_cells(
                         restored.push(cell.a1());
                         names.push(original);
                     }
-                    None => names.push(column.name.clone()),
+                    // A unit from a units row belongs to the values, not to the
+                    // condition's name.
+                    None => names.push(
+                        typed_names
+                            .iter()
+                            .find(|(col, _)| *col == column.col)
+                            .map_or_else(|| column.name.clone(), |(_, typed)| typed.clone()),
+                    ),
                 }
             }
             if !restored.is_empty() {
@@ -668,10 +733,62 @@ fn detect_table_cells(
                         || !finding.cell.as_ref().is_some_and(|cell| restored.contains(cell))
                 });
             }
-            let response_name = request
-                .wide_response_name
-                .clone()
-                .unwrap_or_else(|| "value".to_string());
+            // A title over the table may name the measured value and the factor.
+            let first_col = columns.iter().map(|column| column.col).min().unwrap_or(0);
+            let last_col = columns.iter().map(|column| column.col).max().unwrap_or(0);
+            let reading = wide::title_above(grid, header_row, first_col, last_col)
+                .map(|(cell, title)| (cell, wide::read_title(&title, &names, numbers_as_names), title));
+            let mut factor_name = "condition".to_string();
+            let mut response_name = request.wide_response_name.clone();
+            if let Some((cell, reading, title)) = reading {
+                let mut named = Vec::new();
+                if response_name.is_none() {
+                    if let Some(measure) = reading.measure {
+                        named.push(format!("the measured value '{measure}'"));
+                        response_name = Some(measure);
+                    }
+                }
+                if let Some(factor) = reading.factor {
+                    named.push(format!("the factor '{factor}'"));
+                    factor_name = factor;
+                }
+                if !named.is_empty() {
+                    let line = format!(
+                        "the title '{title}' at {} named {}; set `value name` to name the values otherwise",
+                        cell.a1(),
+                        named.join(" and ")
+                    );
+                    findings.push(choice_finding(
+                        &sheet,
+                        CellRect {
+                            first: cell,
+                            last: cell,
+                        },
+                        "the title",
+                        &line,
+                    ));
+                    choices.push(line);
+                }
+            }
+            let mut response_name = response_name.unwrap_or_else(|| "value".to_string());
+            // One unit under every condition column is the values' unit.
+            let condition_units: Vec<&str> = condition_columns
+                .iter()
+                .filter_map(|&index| {
+                    units_of_columns
+                        .iter()
+                        .find(|(col, _, _)| *col == columns[index].col)
+                        .map(|(_, _, unit)| unit.as_str())
+                })
+                .collect();
+            if condition_units.len() == condition_columns.len()
+                && condition_units.windows(2).all(|pair| pair[0] == pair[1])
+                && !response_name.trim_end().ends_with([')', ']'])
+            {
+                if let Some(unit) = condition_units.first() {
+                    response_name = format!("{response_name} ({unit})");
+                }
+            }
             build_wide(
                 grid,
                 &sheet,
@@ -681,7 +798,7 @@ fn detect_table_cells(
                 &columns,
                 &condition_columns,
                 names,
-                response_name,
+                (factor_name, response_name),
                 findings,
             )
         }
@@ -704,6 +821,12 @@ fn detect_table_cells(
 }
 
 /// A finding that says what detection chose, placed on the area it concerns.
+/// Whether the text in a units row under a header is a unit: short, at most two
+/// words ("g", "mm", "N/mm2", "deg C", "%").
+fn looks_like_unit(text: &str) -> bool {
+    !text.is_empty() && text.chars().count() <= 12 && text.split_whitespace().count() <= 2
+}
+
 fn choice_finding(sheet: &str, area: CellRect, found: &str, line: &str) -> Finding {
     Finding {
         kind: FindingKind::Choice,

@@ -17,7 +17,7 @@ pub(super) fn build_wide(
     columns: &[HeaderColumn],
     condition_columns: &[usize],
     names: Vec<String>,
-    response_name: String,
+    (factor_name, response_name): (String, String),
     mut findings: Findings,
 ) -> TrialTable {
     let level_columns: Vec<u32> = condition_columns.iter().map(|&index| columns[index].col).collect();
@@ -80,7 +80,11 @@ pub(super) fn build_wide(
     let mut record_cols = Vec::new();
     // Blanks below a column's last value are its natural end; blanks between
     // values are gaps worth reporting.
-    let mut previous_row: Vec<u32> = vec![header_row; level_columns.len()];
+    // Rows between the header and the first record (units, notes) are not gaps.
+    let before_data = data_cells
+        .first()
+        .map_or(header_row, |(pos, _)| pos.row.saturating_sub(1).max(header_row));
+    let mut previous_row: Vec<u32> = vec![before_data; level_columns.len()];
     let level_of_col = ColumnIndex::new(&level_columns);
     for (pos, value) in data_cells {
         let Some(column) = level_of_col.index(pos.col) else {
@@ -123,7 +127,7 @@ pub(super) fn build_wide(
         },
         layout: Layout::Wide,
         factors: vec![Factor {
-            name: "condition".into(),
+            name: factor_name,
             column: None,
             levels,
             level_of_record,
@@ -140,4 +144,104 @@ pub(super) fn build_wide(
         findings: findings.into_vec(),
         choices: Vec::new(),
     }
+}
+
+/// The title of a wide table: the lone text cell on the nearest filled row above
+/// the header (up to three rows up, over the table's columns or the one before).
+pub(super) fn title_above(
+    grid: &SheetGrid,
+    header_row: u32,
+    first_col: u32,
+    last_col: u32,
+) -> Option<(CellPos, String)> {
+    let lowest = header_row.saturating_sub(3);
+    let start = grid.cells.partition_point(|(pos, _)| pos.row < lowest);
+    let end = grid.cells.partition_point(|(pos, _)| pos.row < header_row);
+    let near: Vec<&(CellPos, CellValue)> = grid.cells[start..end]
+        .iter()
+        .filter(|(pos, _)| pos.col + 1 >= first_col && pos.col <= last_col)
+        .collect();
+    let row = near.last()?.0.row;
+    match near
+        .iter()
+        .filter(|(pos, _)| pos.row == row)
+        .collect::<Vec<_>>()
+        .as_slice()
+    {
+        [(pos, CellValue::Text(index))] => {
+            let text = grid.text(*index).trim();
+            (!text.is_empty()).then(|| (*pos, text.to_string()))
+        }
+        _ => None,
+    }
+}
+
+/// What a wide table's title names: the measured value ("Wall thickness by die, mm":
+/// the value "Wall thickness (mm)", the factor "Die"), or, over numbers naming the
+/// conditions, the factor they are settings of ("Press force (kN)").
+#[derive(Debug, Default, PartialEq)]
+pub(super) struct TitleReading {
+    pub measure: Option<String>,
+    pub factor: Option<String>,
+}
+
+pub(super) fn read_title(title: &str, names: &[String], numbers_as_names: bool) -> TitleReading {
+    let title = title.trim();
+    let (body, unit) = split_unit(title);
+    let lower = body.to_lowercase();
+    if let Some(at) = lower.find(" by ") {
+        let measure = body[..at].trim();
+        let factor = body[at + 4..].trim();
+        // "Yield by weight" is not a table by weight: the factor must be what the
+        // condition names are (numbers, or names that start with it: "Die 1").
+        let names_it = numbers_as_names
+            || names
+                .iter()
+                .all(|name| name.to_lowercase().starts_with(&factor.to_lowercase()));
+        if !measure.is_empty() && !factor.is_empty() && factor.chars().count() <= 40 && names_it {
+            let mut chars = factor.chars();
+            let factor = match chars.next() {
+                Some(first) => first.to_uppercase().collect::<String>() + chars.as_str(),
+                None => String::new(),
+            };
+            let measure = match unit {
+                Some(unit) => format!("{measure} ({unit})"),
+                None => measure.to_string(),
+            };
+            return TitleReading {
+                measure: Some(measure),
+                factor: Some(factor),
+            };
+        }
+    }
+    // Over numbers, a short title or one with a unit names their factor; a longer
+    // description ("Line 4 trial, week 49") is left alone.
+    if numbers_as_names && (unit.is_some() || body.split_whitespace().count() <= 3) {
+        return TitleReading {
+            measure: None,
+            factor: Some(title.to_string()),
+        };
+    }
+    TitleReading::default()
+}
+
+/// A unit at the end of a title: in brackets, or a short word after a comma.
+fn split_unit(title: &str) -> (&str, Option<&str>) {
+    for (open, close) in [('(', ')'), ('[', ']')] {
+        if title.ends_with(close) {
+            if let Some(at) = title.rfind(open) {
+                let unit = title[at + 1..title.len() - 1].trim();
+                if !unit.is_empty() && at > 0 {
+                    return (title[..at].trim_end(), Some(unit));
+                }
+            }
+        }
+    }
+    if let Some(at) = title.rfind(',') {
+        let unit = title[at + 1..].trim();
+        if !unit.is_empty() && unit.chars().count() <= 10 && !unit.contains(' ') {
+            return (title[..at].trim_end(), Some(unit));
+        }
+    }
+    (title, None)
 }
