@@ -374,7 +374,9 @@ def run_checks(office, arguments, work):
         subprocess.run(["pdftoppm", "-png", "-r", "110", "-singlefile", pdf, arguments.picture[: -len(".png")]], check=False)
         check(os.path.exists(arguments.picture) and os.path.getsize(arguments.picture) > 1000, "picture of the result sheet written")
 
-    # Save as xlsx and ods and read both back.
+    # Save as xlsx and ods and read both back, against the sheets as saved (the
+    # rerun's Summary carries its own time of analysis).
+    all_values = {name: sheet_values(document, name) for name in sheets}
     for extension, filter_name in (("xlsx", "Calc MS Excel 2007 XML"), ("ods", "calc8")):
         saved = os.path.join(work, "saved." + extension)
         document.storeToURL(uno.systemPathToFileUrl(saved), props(FilterName=filter_name))
