@@ -33,6 +33,7 @@ mod plan;
 mod print_layout;
 mod results_snapshot;
 mod settings_sheet_names;
+mod sign_convention;
 mod spaced_rows;
 mod surface_lead;
 mod table_shapes;

@@ -11,7 +11,7 @@ use engine::analysis::oneway::OneWayFit;
 
 /// Version of the results document (JSON and workbook); bumped on any
 /// incompatible change to field names or meaning.
-pub const RESULTS_FORMAT_VERSION: &str = "1.2";
+pub const RESULTS_FORMAT_VERSION: &str = "1.3";
 
 /// The tool's name and version, as recorded in every result.
 pub const TOOL_NAME: &str = "trialyst";

@@ -462,12 +462,20 @@ fn ranks_and_checks(
                 pairs: analysis
                     .comparisons
                     .iter()
-                    .map(|pair| RankPair {
-                        first: names.get(pair.group_a).cloned().unwrap_or_default(),
-                        second: names.get(pair.group_b).cloned().unwrap_or_default(),
-                        z: pair.z,
-                        p: pair.p_value,
-                        p_holm: pair.p_holm,
+                    .map(|pair| {
+                        // The condition ranked higher first, as every pair is given.
+                        let (first, second, z) = if pair.z < 0.0 {
+                            (pair.group_b, pair.group_a, -pair.z)
+                        } else {
+                            (pair.group_a, pair.group_b, pair.z)
+                        };
+                        RankPair {
+                            first: names.get(first).cloned().unwrap_or_default(),
+                            second: names.get(second).cloned().unwrap_or_default(),
+                            z,
+                            p: pair.p_value,
+                            p_holm: pair.p_holm,
+                        }
                     })
                     .collect(),
             })

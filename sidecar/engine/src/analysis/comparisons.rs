@@ -59,9 +59,9 @@ impl PairMethod {
 /// One pair within a simultaneous family.
 #[derive(Debug, Clone, Serialize)]
 pub struct SimultaneousPair {
-    /// First condition.
+    /// First condition: the one with the higher average.
     pub first: String,
-    /// Second condition (difference is first minus second).
+    /// Second condition (the difference is first minus second, never negative).
     pub second: String,
     /// Difference of means.
     pub difference: f64,
@@ -77,6 +77,32 @@ pub struct SimultaneousPair {
     pub p_adjusted: f64,
     /// True when the interval excludes zero.
     pub differ: bool,
+}
+
+impl SimultaneousPair {
+    /// The pair with the condition of the higher average first, so that the difference
+    /// and its interval read as the higher minus the lower (the convention of every
+    /// sheet, the roll-up and the JSON).
+    #[must_use]
+    pub fn higher_first(self) -> Self {
+        if self.difference >= 0.0 || self.difference.is_nan() {
+            return self;
+        }
+        let (low, high) = reversed_interval(self.low, self.high);
+        Self {
+            first: self.second,
+            second: self.first,
+            difference: -self.difference,
+            low,
+            high,
+            ..self
+        }
+    }
+}
+
+/// The interval of the opposite difference: (low, high) of a - b gives that of b - a.
+pub(crate) fn reversed_interval(low: f64, high: f64) -> (f64, f64) {
+    (-high, -low)
 }
 
 /// All pairs under one method.
@@ -211,7 +237,7 @@ fn with_letters(
         method,
         family_confidence: confidence,
         critical_value: critical,
-        pairs,
+        pairs: pairs.into_iter().map(SimultaneousPair::higher_first).collect(),
         letters: conditions
             .iter()
             .map(|condition| condition.name.clone())
@@ -637,10 +663,12 @@ mod tests {
         assert!((p[0] - 0.01444833).abs() < 1e-8, "{p:?}");
         assert!((p[1] - 0.98031072).abs() < 1e-8, "{p:?}");
         assert!((p[2] - 0.02033114).abs() < 1e-8, "{p:?}");
+        // The higher average first: B minus A, scipy's g1 - g0.
         let first = &family.pairs[0];
-        assert!((-first.difference - 4.6).abs() < 1e-12);
-        assert!((-first.high - 0.9508409964187154).abs() < 1e-8, "{first:?}");
-        assert!((-first.low - 8.249159003581287).abs() < 1e-8, "{first:?}");
+        assert_eq!((first.first.as_str(), first.second.as_str()), ("g1", "g0"));
+        assert!((first.difference - 4.6).abs() < 1e-12);
+        assert!((first.low - 0.9508409964187154).abs() < 1e-8, "{first:?}");
+        assert!((first.high - 8.249159003581287).abs() < 1e-8, "{first:?}");
     }
 
     /// Property tests (common practice identities): Tukey-Kramer with two

@@ -61,7 +61,8 @@ pub struct AnovaLine {
 /// The difference between two condition means, with an individual t interval.
 #[derive(Debug, Clone, Serialize)]
 pub struct PairDifference {
-    /// First condition (the difference is first minus second).
+    /// First condition: the one with the higher average (the difference is first minus
+    /// second, never negative).
     pub first: String,
     /// Second condition.
     pub second: String,
@@ -79,6 +80,28 @@ pub struct PairDifference {
     pub p: f64,
     /// The difference in pooled-SD units.
     pub standardized: f64,
+}
+
+impl PairDifference {
+    /// The pair with the condition of the higher average first: the difference, its
+    /// interval, t and the standardized difference read as the higher minus the lower.
+    #[must_use]
+    pub fn higher_first(self) -> Self {
+        if self.difference.is_nan() || self.difference >= 0.0 {
+            return self;
+        }
+        let (low, high) = crate::analysis::comparisons::reversed_interval(self.low, self.high);
+        Self {
+            difference: -self.difference,
+            t: -self.t,
+            standardized: -self.standardized,
+            low,
+            high,
+            first: self.second,
+            second: self.first,
+            ..self
+        }
+    }
 }
 
 /// A linear combination of condition means with its interval.
@@ -390,17 +413,20 @@ pub(crate) fn fit_one_way_sharing(
                 - 2.0 * mean_covariance(first, second, 0);
             let se = pooled_sd * variance_factor.sqrt();
             let t = difference / se;
-            pairs.push(PairDifference {
-                first: a.name.clone(),
-                second: b.name.clone(),
-                difference,
-                se,
-                low: difference - multiplier * se,
-                high: difference + multiplier * se,
-                t,
-                p: two_sided_t_p(t, df_within)?,
-                standardized: difference / pooled_sd,
-            });
+            pairs.push(
+                PairDifference {
+                    first: a.name.clone(),
+                    second: b.name.clone(),
+                    difference,
+                    se,
+                    low: difference - multiplier * se,
+                    high: difference + multiplier * se,
+                    t,
+                    p: two_sided_t_p(t, df_within)?,
+                    standardized: difference / pooled_sd,
+                }
+                .higher_first(),
+            );
         }
     }
 
@@ -503,8 +529,10 @@ mod tests {
         let groups = [0, 0, 0, 0, 1, 1, 1, 1];
         let values = [1.0, 2.0, 3.0, 4.0, 2.0, 4.0, 6.0, 9.0];
         let fit = fit_one_way(&names, &groups, &values, 0.95, &[]).expect("fits");
+        // Given higher first: b minus a, so t has scipy's size with the sign of b - a.
         let pair = &fit.pairs[0];
-        assert!((pair.t - -1.690641214609248).abs() < 1e-12, "{}", pair.t);
+        assert_eq!((pair.first.as_str(), pair.second.as_str()), ("b", "a"));
+        assert!((pair.t - 1.690641214609248).abs() < 1e-12, "{}", pair.t);
         assert!((pair.p - 0.1418603602858507).abs() < 1e-12, "{}", pair.p);
         // F equals t squared for two groups (common practice identity).
         assert!((fit.between().f.unwrap_or(0.0) - pair.t * pair.t).abs() < 1e-9);
@@ -517,10 +545,12 @@ mod tests {
         let values = [1.0, 2.0, 3.0, 2.0, 3.5, 4.0, 7.0, 8.0, 9.5];
         let contrast = crate::analysis::contrast::parse_contrast("a - b", &names).expect("valid");
         let fit = fit_one_way(&names, &groups, &values, 0.9, &[contrast]).expect("fits");
+        // The pair is given higher first (b minus a); the contrast as written (a - b).
         let pair = &fit.pairs[0];
+        assert_eq!((pair.first.as_str(), pair.second.as_str()), ("b", "a"));
         let estimate = &fit.contrasts[0];
-        assert!((estimate.estimate - pair.difference).abs() < 1e-12);
-        assert!((estimate.low - pair.low).abs() < 1e-12);
+        assert!((estimate.estimate + pair.difference).abs() < 1e-12);
+        assert!((estimate.low + pair.high).abs() < 1e-12);
         assert!((estimate.p - pair.p).abs() < 1e-12);
     }
 

@@ -140,7 +140,10 @@ pub fn assessment_sheets(results: &WorkbookResults, places_of: &dyn Fn(&str) -> 
         simultaneous.put(
             simultaneous_row + 1,
             0,
-            Value::text(&assessment.family_confidence_reason),
+            Value::text(format!(
+                "{} Each pair gives the condition with the higher average first: the difference is the higher minus the lower.",
+                assessment.family_confidence_reason
+            )),
             Look::Note,
         );
         simultaneous_row += 2;

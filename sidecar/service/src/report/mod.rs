@@ -579,7 +579,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
         pairs.put(
             pairs_row,
             0,
-            Value::text("Each interval and p-value is for that pair alone; with many pairs, some will look different by chance."),
+            Value::text("Each row gives the condition with the higher average first, so the difference is the higher minus the lower. Each interval and p-value is for that pair alone; with many pairs, some will look different by chance."),
             Look::Note,
         );
         pairs_row += 2;
