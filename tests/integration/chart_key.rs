@@ -241,3 +241,57 @@ fn long_condition_names_get_codes_and_short_ones_keep_their_labels() {
     let summary = sheet(&sheets, "Summary");
     assert!(!(0..summary.height() as u32).any(|row| text_at(summary, row, 0).starts_with("Key to the chart's codes")));
 }
+
+/// The factorial means charts of a two-factor trial with long level names show codes,
+/// each written beside its level in the table above the charts; short levels keep
+/// their names on the axis.
+#[test]
+fn factorial_means_charts_show_codes_for_long_level_names() {
+    let folder = temp_folder();
+    let suppliers = ["Northfield polymer grade 7", "Eastbay resin standard lot"];
+    let profiles = ["Slow", "Fast"];
+    let mut rows = vec![vec![
+        Put::Text("Resin supplier"),
+        Put::Text("Cure profile"),
+        Put::Text("Peel strength (N)"),
+    ]];
+    for replicate in 0..3u32 {
+        for (s, supplier) in suppliers.iter().enumerate() {
+            for (p, profile) in profiles.iter().enumerate() {
+                let value = 40.0 + 3.0 * s as f64 - 2.0 * p as f64 + 0.4 * f64::from(replicate) + 0.1 * (s * p) as f64;
+                rows.push(vec![Put::Text(supplier), Put::Text(profile), number(value)]);
+            }
+        }
+    }
+    write_rows(&folder.path().join("peel.xlsx"), "Trial", &rows);
+    trialyst(folder.path(), &["run", "peel.xlsx"]).expect_code(0);
+    let results = folder.path().join("peel.results.xlsx");
+    let sheets = read_all_sheets(&results);
+    let means = sheet(&sheets, "Factorial means");
+    // The supplier table: its levels with codes C1, C2 in the column headed "chart code".
+    let header = (0..means.height() as u32)
+        .find(|row| text_at(means, *row, 0) == "Resin supplier" && text_at(means, *row, 6) == "chart code")
+        .expect("the supplier means table with a code column");
+    let coded: Vec<(String, String)> = (1..=2)
+        .map(|offset| (text_at(means, header + offset, 0), text_at(means, header + offset, 6)))
+        .collect();
+    assert_eq!(
+        coded,
+        vec![
+            (suppliers[0].to_string(), "C1".to_string()),
+            (suppliers[1].to_string(), "C2".to_string())
+        ]
+    );
+    let categories = chart_categories(&results);
+    let on_means: Vec<&String> = categories
+        .iter()
+        .filter(|c| c.starts_with("'Factorial means'!"))
+        .collect();
+    let code_ref = format!("'Factorial means'!$G${}:$G${}", header + 2, header + 3);
+    assert!(on_means.iter().any(|c| **c == code_ref), "{code_ref} in {on_means:?}");
+    // The cure profiles are short: their chart keeps the names in column A.
+    assert!(
+        on_means.iter().any(|c| c.starts_with("'Factorial means'!$A$")),
+        "{on_means:?}"
+    );
+}

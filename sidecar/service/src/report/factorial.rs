@@ -3,7 +3,7 @@
 //! main-effects and normal / half-normal effect plots, and the factorial reading added
 //! to the Summary sheet. No I/O; the sheets join the book that `workbook-io` writes.
 
-use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
+use workbook_io::write::{chart_key, Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
 
 use crate::{ResponseResult, WorkbookResults};
 use engine::analysis::factorial::{
@@ -378,6 +378,18 @@ fn anova_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
     *row += 1;
 }
 
+/// The header of the column of chart codes beside long level names.
+const CHART_CODE: &str = "chart code";
+
+/// A chart's axis title; when it shows codes, where their levels are found.
+fn coded_title(factor: &str, coded: bool) -> String {
+    if coded {
+        format!("{factor} (chart codes: see the table above the charts)")
+    } else {
+        factor.to_string()
+    }
+}
+
 fn interval_row(line: &IntervalLine, first: Value) -> Vec<Value> {
     vec![
         first,
@@ -410,12 +422,23 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
         );
         *row += 1;
         let first_data = *row + 1;
+        // Long level names show as codes on the chart, each beside its level here.
+        let labels: Vec<String> = factor_means.means.iter().map(|line| line.label.clone()).collect();
+        let coded = chart_key::needs_codes(&labels);
+        let codes = chart_key::codes(labels.len());
         let table_rows: Vec<Vec<Value>> = factor_means
             .means
             .iter()
-            .map(|line| interval_row(line, Value::text(line.label.clone())))
+            .zip(&codes)
+            .map(|(line, code)| {
+                let mut values = interval_row(line, Value::text(line.label.clone()));
+                if coded {
+                    values.push(Value::text(code.clone()));
+                }
+                values
+            })
             .collect();
-        let headers = [
+        let mut headers = vec![
             factor_means.factor.as_str(),
             "mean",
             "SE",
@@ -423,6 +446,9 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
             high.as_str(),
             "± half-width",
         ];
+        if coded {
+            headers.push(CHART_CODE);
+        }
         *row = sheet.table(*row, 0, &headers, table_rows);
         let last_data = *row - 1;
         let is_block = outcome
@@ -434,11 +460,11 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
             charts.push(ChartSpec {
                 kind: ChartKind::Lines,
                 title: format!("{}: main effect of {}", response.name, factor_means.factor),
-                x_title: factor_means.factor.clone(),
+                x_title: coded_title(&factor_means.factor, coded),
                 y_title: format!("least-squares mean of {}", response.name),
                 series: vec![Series {
                     name: factor_means.factor.clone(),
-                    categories: SheetRange::column(names::MEANS, 0, first_data, last_data),
+                    categories: SheetRange::column(names::MEANS, if coded { 6 } else { 0 }, first_data, last_data),
                     values: SheetRange::column(names::MEANS, 1, first_data, last_data),
                     bar_plus: has_bars.then(|| SheetRange::column(names::MEANS, 5, first_data, last_data)),
                     bar_minus: has_bars.then(|| SheetRange::column(names::MEANS, 5, first_data, last_data)),
@@ -469,8 +495,13 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
         *row += 1;
         let mut headers: Vec<String> = vec![format!("{} \\ {}", table.x_factor, table.trace_factor)];
         headers.extend(table.trace_levels.iter().cloned());
-        let header_refs: Vec<&str> = headers.iter().map(String::as_str).collect();
         let first_data = *row + 1;
+        let coded = chart_key::needs_codes(&table.x_levels);
+        let code_col = 1 + table.trace_levels.len() as u16;
+        if coded {
+            headers.push(CHART_CODE.to_string());
+        }
+        let header_refs: Vec<&str> = headers.iter().map(String::as_str).collect();
         let table_rows: Vec<Vec<Value>> = table
             .x_levels
             .iter()
@@ -478,6 +509,9 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
             .map(|(x, level)| {
                 let mut values = vec![Value::text(level.clone())];
                 values.extend(table.means.iter().map(|trace_row| decimals(trace_row[x])));
+                if coded {
+                    values.push(Value::text(chart_key::code(x + 1)));
+                }
                 values
             })
             .collect();
@@ -491,7 +525,12 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
                 .enumerate()
                 .map(|(trace, level)| Series {
                     name: format!("{} {}", table.trace_factor, level),
-                    categories: SheetRange::column(names::MEANS, 0, first_data, last_data),
+                    categories: SheetRange::column(
+                        names::MEANS,
+                        if coded { code_col } else { 0 },
+                        first_data,
+                        last_data,
+                    ),
                     values: SheetRange::column(names::MEANS, 1 + trace as u16, first_data, last_data),
                     bar_plus: None,
                     bar_minus: None,
@@ -502,7 +541,7 @@ fn means_section(sheet: &mut Sheet, row: &mut u32, response: &ResponseResult, ou
             charts.push(ChartSpec {
                 kind: ChartKind::Lines,
                 title: format!("{}: {} × {}", response.name, table.x_factor, table.trace_factor),
-                x_title: table.x_factor.clone(),
+                x_title: coded_title(&table.x_factor, coded),
                 y_title: format!("model mean of {}", response.name),
                 series,
                 anchor: (0, 0),
