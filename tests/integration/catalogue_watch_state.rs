@@ -182,6 +182,8 @@ fn a_stale_lock_is_taken_over_and_a_live_one_waited_for_never_skipped() {
     );
     std::fs::remove_file(&lock).expect("released");
     wait_for_file(&place.folder.join("b.results.xlsx"), &watching);
+    // The log line follows the results file.
+    watching.wait_for_log("analysed b.xlsx", 1);
     assert!(poll("b.xlsx in the state", Duration::from_secs(20), || state_text(
         &place.folder
     )
