@@ -12,6 +12,9 @@
 // Reference values keep the 17 digits mpmath printed.
 #![allow(clippy::excessive_precision)]
 
+mod common;
+use common::check;
+
 use engine::analysis::assessment::{assess, Assessment, AssessmentOptions};
 use engine::analysis::oneway::{fit_one_way, OneWayFit};
 use engine::analysis::verdict::read_fit;
@@ -21,23 +24,6 @@ const BASE: [[&str; 5]; 3] = [
     ["1.031", "1.018", "1.044", "1.026", "1.009"],
     ["0.978", "1.002", "0.969", "0.991", "0.985"],
 ];
-
-/// Log relative error (digits in agreement), capped at 16.
-fn lre(actual: f64, reference: f64) -> f64 {
-    if actual == reference {
-        return 16.0;
-    }
-    (-((actual - reference).abs() / reference.abs()).log10()).min(16.0)
-}
-
-fn check(label: &str, actual: f64, reference: f64, at_least: f64) {
-    let digits = lre(actual, reference);
-    println!("{label}: {actual:e} against {reference:e}, LRE {digits:.1}");
-    assert!(
-        digits >= at_least,
-        "{label}: {actual:e} against {reference:e}, LRE {digits:.1}"
-    );
-}
 
 struct Run {
     fit: OneWayFit,

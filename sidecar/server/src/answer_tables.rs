@@ -87,9 +87,7 @@ impl<'a> SheetView<'a> {
             Value::Text(text) | Value::Link { text, .. } => Shown::Text(text),
             Value::Number(number, _) if number.is_finite() => Shown::Number(*number),
             // As in the results workbook, a number that is not finite is shown in words.
-            Value::Number(number, _) if number.is_nan() => Shown::Text("not defined"),
-            Value::Number(number, _) if *number > 0.0 => Shown::Text("+infinity"),
-            Value::Number(..) => Shown::Text("-infinity"),
+            Value::Number(number, _) => Shown::Text(workbook_io::write::non_finite_in_words(*number)),
             Value::Blank => Shown::Blank,
         }
     }

@@ -72,16 +72,10 @@ pub fn sheet_table(sheet: &Sheet) -> SheetTable {
                 (TableValue::Number(*number), number_format.code())
             }
             // As in the results workbook, a number that is not finite is shown in words.
-            Value::Number(number, _) => {
-                let shown = if number.is_nan() {
-                    "not defined"
-                } else if *number > 0.0 {
-                    "+infinity"
-                } else {
-                    "-infinity"
-                };
-                (TableValue::Text(shown.to_string()), general())
-            }
+            Value::Number(number, _) => (
+                TableValue::Text(workbook_io::write::non_finite_in_words(*number).to_string()),
+                general(),
+            ),
             Value::Link { text, .. } => (TableValue::Text(text.clone()), general()),
             Value::Blank => (TableValue::Blank, general()),
         };

@@ -85,12 +85,36 @@ pub enum Look {
     Spaced,
 }
 
+/// What a cell shows for a number too large in magnitude for the arithmetic (beyond
+/// about 1.8e308): the figure exists but cannot be held, so it is said in words.
+pub const BEYOND_RANGE: &str = "beyond the range of the arithmetic";
+
+/// As [`BEYOND_RANGE`], for a negative figure.
+pub const BEYOND_RANGE_NEGATIVE: &str = "beyond the range of the arithmetic (negative)";
+
+/// The words shown in place of a number that is not finite: "not defined" for a figure
+/// that has no value, [`BEYOND_RANGE`] (or its negative) for one that exists but is too
+/// large in magnitude for the arithmetic; never a symbol for infinity. For a finite
+/// number, the empty text.
+pub fn non_finite_in_words(number: f64) -> &'static str {
+    if number.is_nan() {
+        "not defined"
+    } else if number == f64::INFINITY {
+        BEYOND_RANGE
+    } else if number == f64::NEG_INFINITY {
+        BEYOND_RANGE_NEGATIVE
+    } else {
+        ""
+    }
+}
+
 /// A cell's content.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Value {
     /// Text, written as a string cell.
     Text(String),
-    /// A number with its display format; non-finite numbers are written as text.
+    /// A number with its display format; non-finite numbers are written as text
+    /// ("not defined", or [`BEYOND_RANGE`] in words).
     Number(f64, NumberFormat),
     /// A link to another file, with the text shown.
     Link {
@@ -728,13 +752,7 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
                     // Left blank so that the chart leaves a gap instead of drawing 0.
                 }
                 Value::Number(number, _) => {
-                    let shown = if number.is_nan() {
-                        "not defined"
-                    } else if *number > 0.0 {
-                        "+infinity"
-                    } else {
-                        "-infinity"
-                    };
+                    let shown = non_finite_in_words(*number);
                     worksheet.write_string_with_format(placed.row, placed.col, shown, format)?;
                 }
                 Value::Link { target, text } => match hyperlink_formula(target, text) {
@@ -1151,6 +1169,17 @@ pub fn write_atomically(bytes: &[u8], destination: &Path) -> Result<(), WriteErr
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A number that is not finite is said in words (never "inf" or "NaN"): IEEE 754
+    /// binary64 holds magnitudes up to about 1.8e308 (common practice).
+    #[test]
+    fn numbers_that_are_not_finite_are_said_in_words() {
+        assert_eq!(non_finite_in_words(f64::INFINITY), BEYOND_RANGE);
+        assert_eq!(non_finite_in_words(f64::MAX * 2.0), BEYOND_RANGE);
+        assert_eq!(non_finite_in_words(-f64::MAX * 2.0), BEYOND_RANGE_NEGATIVE);
+        assert_eq!(non_finite_in_words(f64::NAN), "not defined");
+        assert_eq!(non_finite_in_words(1.7e308), "");
+    }
 
     #[test]
     fn a_link_is_a_hyperlink_formula_with_its_line_breaks_and_quotes_kept() {

@@ -18,6 +18,12 @@
 //!   squares: blocks, then conditions, then error; they add up to the total), and the
 //!   error's degrees of freedom `N − k − (b − 1)`.
 //!
+//! The fit is made on the values' deviations from a centre (typed decimals differenced
+//! exactly) divided by a power of two, and every figure is put back in the data's unit,
+//! so a trial near 1e300 or 1e-300, or at an offset of 1e9 with a small spread, gives
+//! the answers of the same trial at scale one (ratios from the scaled sums; a sum of
+//! squares beyond the range of `f64` is itself infinite).
+//!
 //! The pairwise families (Tukey-Kramer and the others) then work as in the one-way model
 //! with these standard errors. In an unbalanced blocked trial the critical values of the
 //! Tukey-Kramer family (and the correlations of the comparisons with a control or with
@@ -34,7 +40,9 @@ use serde::Serialize;
 
 use crate::analysis::contrast::Contrast;
 use crate::analysis::oneway::{fit_one_way_sharing, AnovaLine, OneWayError, OneWayFit, SharedError};
-use crate::stats::accumulate::{oneway_sums, GroupAccumulator};
+use crate::stats::accumulate::{
+    centre_values, magnitude_exponent, oneway_sums, scale_by_power_of_two, GroupAccumulator,
+};
 use crate::stats::dist;
 
 /// Singular values below this share of the largest count as zero when deciding whether
@@ -140,17 +148,160 @@ pub fn fit_one_way_in_blocks(
     confidence: f64,
     contrasts: &[Contrast],
 ) -> Result<OneWayFit, BlockedFitError> {
+    // The fit is made on deviations from a centre (a value of the data; typed decimals
+    // are subtracted exactly) divided by a power of two, so that a trial near 1e300 or
+    // 1e-300, or at an offset of 1e9 with a small spread, gives the answers of the same
+    // trial at scale one: squares of the scaled deviations neither overflow nor
+    // underflow, and no digit of the spread is lost to the offset.
+    let n_conditions = condition_names.len();
+    let n_blocks = blocks.names.len();
+    let n_values = values.len().min(group_of_value.len());
+    let masked: Vec<f64> = (0..values.len())
+        .map(|index| {
+            let usable = index < n_values
+                && (group_of_value[index] as usize) < n_conditions
+                && blocks
+                    .block_of_value
+                    .get(index)
+                    .is_some_and(|&block| (block as usize) < n_blocks);
+            if usable {
+                values[index]
+            } else {
+                f64::NAN
+            }
+        })
+        .collect();
+    let centred = centre_values(&masked);
+    let exponent = magnitude_exponent(centred.deviations.iter());
+    let scaled: Vec<f64> = centred
+        .deviations
+        .iter()
+        .map(|&deviation| scale_by_power_of_two(deviation, -i64::from(exponent)))
+        .collect();
+    let layout = Layout {
+        condition_names,
+        group_of_value,
+        blocks,
+    };
+    let mut fit = fit_scaled(&layout, &scaled, confidence, contrasts)?;
+    let unit = Unit {
+        centre: centred.centre,
+        exponent: i64::from(exponent),
+    };
+    unit.restore(&mut fit);
+    fit.exact_decimal = fit.exact_decimal && centred.exact_decimal && exponent == 0;
+    Ok(fit)
+}
+
+/// The data's unit relative to the scaled deviations the fit was made on: a value `x`
+/// was fitted as `(x - centre) / 2^exponent`.
+struct Unit {
+    centre: f64,
+    exponent: i64,
+}
+
+impl Unit {
+    /// A location (a mean, an interval end, a value) back in the data's unit.
+    fn level(&self, scaled: f64) -> f64 {
+        self.centre + scale_by_power_of_two(scaled, self.exponent)
+    }
+
+    /// A difference, an SD or an SE back in the data's unit.
+    fn spread(&self, scaled: f64) -> f64 {
+        scale_by_power_of_two(scaled, self.exponent)
+    }
+
+    /// A sum of squares or a mean square back in the data's unit (beyond the range of
+    /// `f64` it is infinite or zero; ratios were formed before, from the scaled sums).
+    fn square(&self, scaled: f64) -> f64 {
+        scale_by_power_of_two(scaled, 2 * self.exponent)
+    }
+
+    /// A linear combination of means with coefficients summing to `total`.
+    fn combination(&self, scaled: f64, total: f64) -> f64 {
+        if total == 0.0 {
+            self.spread(scaled)
+        } else {
+            self.centre * total + self.spread(scaled)
+        }
+    }
+
+    /// Every figure of a fit made on scaled deviations, back in the data's unit.
+    fn restore(&self, fit: &mut OneWayFit) {
+        if self.centre == 0.0 && self.exponent == 0 {
+            return;
+        }
+        for condition in &mut fit.conditions {
+            condition.mean = self.level(condition.mean);
+            condition.min = self.level(condition.min);
+            condition.median = self.level(condition.median);
+            condition.max = self.level(condition.max);
+            condition.mean_low = self.level(condition.mean_low);
+            condition.mean_high = self.level(condition.mean_high);
+            condition.sd = self.spread(condition.sd);
+            condition.se = self.spread(condition.se);
+            condition.mean_half_width = self.spread(condition.mean_half_width);
+        }
+        fit.grand_mean = self.level(fit.grand_mean);
+        fit.pooled_sd = self.spread(fit.pooled_sd);
+        for line in &mut fit.anova {
+            line.ss = self.square(line.ss);
+            line.ms = line.ms.map(|ms| self.square(ms));
+        }
+        for pair in &mut fit.pairs {
+            pair.difference = self.spread(pair.difference);
+            pair.se = self.spread(pair.se);
+            pair.low = self.spread(pair.low);
+            pair.high = self.spread(pair.high);
+        }
+        for contrast in &mut fit.contrasts {
+            let total: f64 = contrast.coefficients.iter().sum();
+            contrast.estimate = self.combination(contrast.estimate, total);
+            contrast.low = self.combination(contrast.low, total);
+            contrast.high = self.combination(contrast.high, total);
+            contrast.se = self.spread(contrast.se);
+        }
+        for sorted in &mut fit.sorted_values {
+            for value in sorted.iter_mut() {
+                *value = self.level(*value);
+            }
+        }
+        if let Some(blocks) = fit.blocks.as_mut() {
+            blocks.ss = self.square(blocks.ss);
+            for shift in &mut blocks.shifts {
+                shift.shift = self.spread(shift.shift);
+            }
+        }
+    }
+}
+
+/// Which condition and block each value belongs to.
+#[derive(Clone, Copy)]
+struct Layout<'a> {
+    condition_names: &'a [String],
+    group_of_value: &'a [u32],
+    blocks: &'a Blocks<'a>,
+}
+
+/// [`fit_one_way_in_blocks`] on values already centred and scaled (squares of them are
+/// finite and normal), every figure in their unit; a value without a valid condition or
+/// block is NaN.
+fn fit_scaled(
+    layout: &Layout<'_>,
+    values: &[f64],
+    confidence: f64,
+    contrasts: &[Contrast],
+) -> Result<OneWayFit, BlockedFitError> {
+    let Layout {
+        condition_names,
+        group_of_value,
+        blocks,
+    } = *layout;
     let n_conditions = condition_names.len();
     let n_blocks = blocks.names.len();
     let factor = blocks.factor.to_string();
-    let usable = |index: usize| {
-        values[index].is_finite()
-            && (group_of_value[index] as usize) < n_conditions
-            && blocks
-                .block_of_value
-                .get(index)
-                .is_some_and(|&block| (block as usize) < n_blocks)
-    };
+    // The caller has made NaN every value without a valid condition and block.
+    let usable = |index: usize| values[index].is_finite();
     let n_values = values.len().min(group_of_value.len());
 
     // Cell and block summaries (exact decimal or compensated sums).

@@ -23,7 +23,7 @@ use crate::stats::accumulate::{magnitude_exponent, scale_by_power_of_two};
 use serde::Serialize;
 
 use crate::analysis::letters::grouping_letters;
-use crate::analysis::oneway::{ConditionSummary, OneWayFit};
+use crate::analysis::oneway::{difference_over, ConditionSummary, OneWayFit};
 use crate::options::Direction;
 use crate::stats::dunnett::{mcb_critical_values, ProductCorrelation, Sides};
 use crate::stats::ranks::holm_adjust;
@@ -274,7 +274,7 @@ pub fn pooled_pairs(fit: &OneWayFit, method: PairMethod, confidence: f64) -> Res
         let (first, second) = (&fit.conditions[a], &fit.conditions[b]);
         let difference = first.mean - second.mean;
         let se = fit.difference_se(a, b);
-        let t = (difference / se).abs();
+        let t = difference_over(first.mean, second.mean, se).abs();
         let p_adjusted = match method {
             PairMethod::TukeyKramer => studentized_range_sf(t * std::f64::consts::SQRT_2, k, df)?,
             PairMethod::Bonferroni => (2.0 * dist::t_sf(t, df)? * n_pairs).min(1.0),
@@ -337,7 +337,11 @@ pub fn unequal_spread_pairs(fit: &OneWayFit, confidence: f64) -> Result<PairFami
         let df = (va + vb).powi(2) / (va * va / (first.n as f64 - 1.0) + vb * vb / (second.n as f64 - 1.0));
         let difference = first.mean - second.mean;
         let critical = studentized_range_quantile(confidence, k, df)? / std::f64::consts::SQRT_2;
-        let p_adjusted = studentized_range_sf((difference / se).abs() * std::f64::consts::SQRT_2, k, df)?;
+        let p_adjusted = studentized_range_sf(
+            difference_over(first.mean, second.mean, se).abs() * std::f64::consts::SQRT_2,
+            k,
+            df,
+        )?;
         let half = critical * se;
         pairs.push(SimultaneousPair {
             first: first.name.clone(),
@@ -420,7 +424,7 @@ pub fn against_control(
     for (&treatment_index, treatment) in other_indices.iter().zip(&others) {
         let difference = treatment.mean - control_summary.mean;
         let se = fit.difference_se(treatment_index, control_index);
-        let t = difference / se;
+        let t = difference_over(treatment.mean, control_summary.mean, se);
         let statistic = match sides {
             Sides::Two => t.abs(),
             Sides::One => sign * t,

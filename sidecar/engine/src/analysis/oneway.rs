@@ -226,6 +226,18 @@ fn median_of_sorted(sorted: &[f64]) -> f64 {
     }
 }
 
+/// `(first - second) / scale`, also when the difference lies beyond the largest double
+/// (means near ±1.8e308 of opposite sign): the halved figures are used then, so a t
+/// statistic stands although the difference itself is beyond the range of the arithmetic.
+pub fn difference_over(first: f64, second: f64, scale: f64) -> f64 {
+    let difference = first - second;
+    if difference.is_finite() {
+        difference / scale
+    } else {
+        (0.5 * first - 0.5 * second) / (0.5 * scale)
+    }
+}
+
 /// Two-sided t multiplier for a confidence level, NaN when df is zero.
 pub fn t_multiplier(confidence: f64, df: f64) -> Result<f64, StatsError> {
     if df <= 0.0 {
@@ -412,7 +424,8 @@ pub(crate) fn fit_one_way_sharing(
             let variance_factor = mean_covariance(first, first, a.n) + mean_covariance(second, second, b.n)
                 - 2.0 * mean_covariance(first, second, 0);
             let se = pooled_sd * variance_factor.sqrt();
-            let t = difference / se;
+            let t = difference_over(a.mean, b.mean, se);
+            let standardized = difference_over(a.mean, b.mean, pooled_sd);
             pairs.push(
                 PairDifference {
                     first: a.name.clone(),
@@ -423,7 +436,7 @@ pub(crate) fn fit_one_way_sharing(
                     high: difference + multiplier * se,
                     t,
                     p: two_sided_t_p(t, df_within)?,
-                    standardized: difference / pooled_sd,
+                    standardized,
                 }
                 .higher_first(),
             );

@@ -24,19 +24,36 @@ pub struct Verdict {
     pub details: Vec<String>,
 }
 
+/// What a sentence says of a figure too large in magnitude for the arithmetic (beyond
+/// about 1.8e308): the figure exists but cannot be held, so it is said in words.
+pub const BEYOND_RANGE: &str = "beyond the range of the arithmetic";
+
 /// Formats a number with about `digits` significant digits, for sentences.
 pub fn round_for_text(value: f64, digits: usize) -> String {
     if !value.is_finite() {
         return if value.is_nan() {
             "not defined".into()
+        } else if value > 0.0 {
+            BEYOND_RANGE.into()
         } else {
-            format!("{value}")
+            format!("{BEYOND_RANGE} (negative)")
         };
     }
     if value == 0.0 {
         return "0".into();
     }
     let magnitude = value.abs().log10().floor() as i32;
+    // Very large or very small figures in powers of ten ("1.66e308"), never as hundreds
+    // of digits or as a bare "0".
+    if !(-12..15).contains(&magnitude) {
+        let text = format!("{value:.precision$e}", precision = digits.saturating_sub(1));
+        return match text.split_once('e') {
+            Some((mantissa, exponent)) if mantissa.contains('.') => {
+                format!("{}e{exponent}", mantissa.trim_end_matches('0').trim_end_matches('.'))
+            }
+            _ => text,
+        };
+    }
     let decimals = (digits as i32 - 1 - magnitude).clamp(0, 12) as usize;
     let text = format!("{value:.decimals$}");
     if text.contains('.') {
@@ -664,6 +681,15 @@ mod tests {
         assert_eq!(round_for_text(1234.5678, 4), "1235");
         assert_eq!(round_for_text(0.00012345, 3), "0.000123");
         assert_eq!(round_for_text(2.0, 4), "2");
+        // Far from 1, powers of ten; beyond the largest double, words (never "inf").
+        assert_eq!(round_for_text(1.66e308, 4), "1.66e308");
+        assert_eq!(round_for_text(-2.795e-303, 4), "-2.795e-303");
+        assert_eq!(round_for_text(f64::INFINITY, 4), BEYOND_RANGE);
+        assert_eq!(
+            round_for_text(f64::NEG_INFINITY, 4),
+            format!("{BEYOND_RANGE} (negative)")
+        );
+        assert_eq!(round_for_text(f64::NAN, 4), "not defined");
         // Wording of p-values in sentences (common practice: "p < 0.0001" below four
         // decimals, two significant digits otherwise).
         assert_eq!(p_equals(0.00001), "p < 0.0001");

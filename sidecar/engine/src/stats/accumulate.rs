@@ -675,7 +675,14 @@ impl BinarySums {
     #[inline]
     fn push(&mut self, value: f64) {
         // value - shift == dev_hi + dev_lo exactly.
-        let (dev_hi, dev_lo) = two_sum(value, -self.shift);
+        let (mut dev_hi, mut dev_lo) = two_sum(value, -self.shift);
+        // A deviation beyond the largest double (values near ±1.8e308 of opposite sign)
+        // is formed halved, exactly, and doubled once divided by the power of two.
+        let mut doubling = 1.0;
+        if dev_hi.is_infinite() {
+            (dev_hi, dev_lo) = two_sum(0.5 * value, -0.5 * self.shift);
+            doubling = 2.0;
+        }
         if dev_hi == 0.0 {
             return;
         }
@@ -685,7 +692,7 @@ impl BinarySums {
         } else if (dev_hi * self.factor).abs() > RESCALE_ABOVE {
             self.rescale(binary_exponent(dev_hi));
         }
-        let (dev_hi, dev_lo) = (dev_hi * self.factor, dev_lo * self.factor);
+        let (dev_hi, dev_lo) = (dev_hi * self.factor * doubling, dev_lo * self.factor * doubling);
         let (s1, e1) = two_sum(self.s1_hi, dev_hi);
         self.s1_hi = s1;
         self.s1_lo += e1 + dev_lo;
@@ -916,10 +923,11 @@ fn compensated_oneway(filled: &[&GroupStats]) -> OnewaySums {
     // the largest of the conditions' own exponents and the exponent of the largest gap
     // between means, so that no square overflows or underflows at any magnitude.
     let reference = parts[0].1;
-    let widest_gap = parts
-        .iter()
-        .map(|part| part.1.sub(reference).hi.abs())
-        .fold(0.0, f64::max);
+    // Gaps are formed halved (exact at every magnitude where halving is), so that means
+    // near ±1.8e308 of opposite sign give a gap beyond the largest double without
+    // overflowing; the power of two below accounts for the halving.
+    let half_gap = |mean: DoubleDouble| mean.scale(-1).sub(reference.scale(-1));
+    let widest_gap = parts.iter().map(|part| half_gap(part.1).hi.abs()).fold(0.0, f64::max);
     let mut exponent = parts
         .iter()
         .filter(|part| part.2.hi > 0.0)
@@ -927,7 +935,7 @@ fn compensated_oneway(filled: &[&GroupStats]) -> OnewaySums {
         .max()
         .unwrap_or(i32::MIN);
     if widest_gap > 0.0 {
-        exponent = exponent.max(binary_exponent(widest_gap));
+        exponent = exponent.max(binary_exponent(widest_gap) + 1);
     }
     if exponent == i32::MIN {
         exponent = 0;
@@ -936,14 +944,14 @@ fn compensated_oneway(filled: &[&GroupStats]) -> OnewaySums {
     let mut weighted = DoubleDouble::from_f64(0.0);
     let mut within = DoubleDouble::from_f64(0.0);
     for &(n, mean, centred, own) in &parts {
-        weighted = weighted.add(mean.sub(reference).scale(down).mul_f64(n as f64));
+        weighted = weighted.add(half_gap(mean).scale(down + 1).mul_f64(n as f64));
         within = within.add(centred.scale(2 * (i64::from(own) + down)));
     }
     let grand_gap = weighted.div(DoubleDouble::from_f64(n_total as f64));
     let grand = grand_gap.scale(-down).add(reference);
     let mut between = DoubleDouble::from_f64(0.0);
     for &(n, mean, _, _) in &parts {
-        let gap = mean.sub(reference).scale(down).sub(grand_gap);
+        let gap = half_gap(mean).scale(down + 1).sub(grand_gap);
         between = between.add(gap.mul(gap).mul_f64(n as f64));
     }
     let total = between.add(within);

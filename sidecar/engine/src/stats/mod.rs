@@ -18,12 +18,24 @@ pub mod studentized_range;
 pub mod two_level;
 pub mod two_level_analysis;
 
+/// A refused value for a message: in words when it is not a number or beyond the range
+/// of the arithmetic, never as a symbol.
+fn shown(value: f64) -> String {
+    if value.is_nan() {
+        "a figure that is not defined".into()
+    } else if value.is_infinite() {
+        "a figure beyond the range of the arithmetic".into()
+    } else {
+        format!("{value}")
+    }
+}
+
 /// Why a statistical routine refused its input or could not finish.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[non_exhaustive]
 pub enum StatsError {
     /// A parameter was outside the range the routine accepts.
-    #[error("{name} must be {rule}, got {value}")]
+    #[error("{name} must be {rule}, got {}", shown(*.value))]
     InvalidParameter {
         /// The parameter's name.
         name: &'static str,
