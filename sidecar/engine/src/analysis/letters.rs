@@ -36,7 +36,7 @@ pub fn alike_sets(means: &[f64], different: &[Vec<bool>]) -> Vec<Vec<usize>> {
     let words = n.div_ceil(64);
     let has = |column: &[u64], condition: usize| column[condition / 64] >> (condition % 64) & 1 == 1;
     let mut full = vec![u64::MAX; words];
-    if n % 64 != 0 {
+    if !n.is_multiple_of(64) {
         full[words - 1] = (1u64 << (n % 64)) - 1;
     }
     let mut columns: Vec<Vec<u64>> = vec![full];
@@ -199,10 +199,10 @@ mod tests {
         let different = matrix(n, &pairs);
         let sets = alike_sets(&means, &different);
         // Two conditions share a set exactly when they were not found different.
-        for a in 0..n {
-            for b in a + 1..n {
+        for (a, row) in different.iter().enumerate() {
+            for (b, &differ) in row.iter().enumerate().skip(a + 1) {
                 let share = sets.iter().any(|set| set.contains(&a) && set.contains(&b));
-                assert_eq!(share, !different[a][b], "{a} {b}");
+                assert_eq!(share, !differ, "{a} {b}");
             }
         }
         // No set lies inside another (each was absorbed if it did).
