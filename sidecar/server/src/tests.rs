@@ -807,3 +807,5 @@ async fn plan_size_and_inspect_cells_answer_as_the_service_does() {
     assert!(answer["result"].get("responses").is_none());
     assert!(client.finish().await == 0);
 }
+
+mod cancel_points;
