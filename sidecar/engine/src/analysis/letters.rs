@@ -133,6 +133,23 @@ mod tests {
         different
     }
 
+    /// The pairs (a, b), a < b, that `different` keeps, given each a draw from a fixed
+    /// linear congruential stream.
+    fn drawn_pairs(n: usize, state: &mut u64, different: impl Fn(usize, usize, u64) -> bool) -> Vec<(usize, usize)> {
+        let mut pairs = Vec::new();
+        for a in 0..n {
+            for b in a + 1..n {
+                *state = state
+                    .wrapping_mul(6364136223846793005)
+                    .wrapping_add(1442695040888963407);
+                if different(a, b, *state >> 33) {
+                    pairs.push((a, b));
+                }
+            }
+        }
+        pairs
+    }
+
     /// Checks the defining property: two conditions share a letter exactly
     /// when they were not found different.
     fn check(means: &[f64], pairs: &[(usize, usize)]) -> Vec<String> {
@@ -162,17 +179,7 @@ mod tests {
         let mut state = 12345u64;
         for _ in 0..200 {
             let n = 6;
-            let mut pairs = Vec::new();
-            for a in 0..n {
-                for b in a + 1..n {
-                    state = state
-                        .wrapping_mul(6364136223846793005)
-                        .wrapping_add(1442695040888963407);
-                    if (state >> 33).is_multiple_of(3) {
-                        pairs.push((a, b));
-                    }
-                }
-            }
+            let pairs = drawn_pairs(n, &mut state, |_, _, draw| draw.is_multiple_of(3));
             let means: Vec<f64> = (0..n).map(|i| (n - i) as f64).collect();
             check(&means, &pairs);
         }
@@ -183,18 +190,7 @@ mod tests {
         // 130 conditions (three 64-bit words) in bands: neighbours by mean alike,
         // conditions far apart different, and a sprinkling of exceptions.
         let n = 130;
-        let mut state = 99u64;
-        let mut pairs = Vec::new();
-        for a in 0..n {
-            for b in a + 1..n {
-                state = state
-                    .wrapping_mul(6364136223846793005)
-                    .wrapping_add(1442695040888963407);
-                if b - a > 6 || (state >> 33).is_multiple_of(5) {
-                    pairs.push((a, b));
-                }
-            }
-        }
+        let pairs = drawn_pairs(n, &mut 99u64, |a, b, draw| b - a > 6 || draw.is_multiple_of(5));
         let means: Vec<f64> = (0..n).map(|i| (n - i) as f64).collect();
         let different = matrix(n, &pairs);
         let sets = alike_sets(&means, &different);

@@ -15,7 +15,7 @@ use crate::server::ServerOptions;
 
 /// Sends `method` with a progress token, cancels it once its progress has begun, and
 /// checks that the request is answered as cancelled and that the work itself stopped.
-async fn cancel_once_begun(method: &str, mut params: Value) {
+pub(super) async fn cancel_once_begun(method: &str, mut params: Value) {
     let mut client = TestClient::start(ServerOptions::default());
     let _ = client.initialize(json!({})).await;
     params["workDoneToken"] = json!("long");
