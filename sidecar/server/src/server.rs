@@ -170,6 +170,23 @@ impl Drop for CancelOnDrop {
     }
 }
 
+/// Why planning work ended without an answer: stopped by its cancel flag, or failed.
+enum Stopped<E> {
+    Cancelled,
+    Failed(E),
+}
+
+impl<E> Stopped<E> {
+    /// A cancel point of planning work.
+    fn check(cancel: &CancelFlag) -> std::result::Result<(), Self> {
+        if cancel.is_cancelled() {
+            Err(Self::Cancelled)
+        } else {
+            Ok(())
+        }
+    }
+}
+
 fn internal_error(message: &str) -> Error {
     Error {
         code: ErrorCode::InternalError,
@@ -460,7 +477,7 @@ impl Shared {
         outcome.map_err(|error| service_error(&error))
     }
 
-    async fn inspect_cells(&self, params: Json) -> Result<Json> {
+    async fn inspect_cells(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
         let read = from_proto::cells_params(&params).map_err(params_error)?;
         let what = format!("inspecting {} cell values", read.n_cells);
         let large = read.n_cells >= self.options.progress_above_cells;
@@ -469,7 +486,7 @@ impl Shared {
             .await;
         let outcome = self
             .run_blocking(&progress, move || {
-                let inspection = service::inspect_grid(&read.grid, &read.settings, &read.source_name)?;
+                let inspection = service::inspect_grid(&read.grid, &read.settings, &read.source_name, &cancel)?;
                 Ok::<Json, ServiceError>(serde_json::to_value(&inspection).unwrap_or(Json::Null))
             })
             .await?;
@@ -477,57 +494,98 @@ impl Shared {
         outcome.map_err(|error| service_error(&error))
     }
 
-    async fn plan_trial(&self, params: Json) -> Result<Json> {
+    async fn plan_trial(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
         let read = planning::plan_params(&params).map_err(params_error)?;
         let request = read.request;
-        self.planning_work(read.work_done_token, "planning a trial", "bad-plan", move || {
-            let plan = service::plan::make_plan(&request)?;
-            let book = service::plan::book::plan_book(&plan);
-            Ok::<Json, service::plan::PlanError>(json!({
-                "plan": serde_json::to_value(service::plan::summarise(&plan, None)).unwrap_or(Json::Null),
-                "tables": to_proto::book_tables(&book),
-            }))
-        })
+        let stop = cancel.clone();
+        self.planning_work(
+            read.work_done_token,
+            "planning a trial",
+            "bad-plan",
+            cancel,
+            move || {
+                // Cancel points between the stages: the plan, its workbook, the answer.
+                let plan = service::plan::make_plan(&request).map_err(Stopped::Failed)?;
+                Stopped::check(&stop)?;
+                let book = service::plan::book::plan_book(&plan);
+                Stopped::check(&stop)?;
+                let tables = to_proto::book_tables(&book);
+                Stopped::check(&stop)?;
+                Ok(json!({
+                    "plan": serde_json::to_value(service::plan::summarise(&plan, None)).unwrap_or(Json::Null),
+                    "tables": tables,
+                }))
+            },
+        )
         .await
     }
 
-    async fn size_trial(&self, params: Json) -> Result<Json> {
+    async fn size_trial(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
         let read = planning::size_params(&params).map_err(params_error)?;
         let request = read.request;
-        self.planning_work(read.work_done_token, "sizing a trial", "bad-size-question", move || {
-            let answer = service::plan::size_answer(&request)?;
-            let book = service::plan::size_book(&answer);
-            Ok::<Json, service::plan::SizeError>(json!({
-                "answer": serde_json::to_value(&answer).unwrap_or(Json::Null),
-                "tables": to_proto::book_tables(&book),
-            }))
-        })
+        let stop = cancel.clone();
+        self.planning_work(
+            read.work_done_token,
+            "sizing a trial",
+            "bad-size-question",
+            cancel,
+            move || {
+                let answer = match service::plan::size_answer_until(&request, &stop) {
+                    Ok(answer) => answer,
+                    Err(service::plan::SizeError::Cancelled) => return Err(Stopped::Cancelled),
+                    Err(error) => return Err(Stopped::Failed(error)),
+                };
+                let book = service::plan::size_book(&answer);
+                Stopped::check(&stop)?;
+                let tables = to_proto::book_tables(&book);
+                Stopped::check(&stop)?;
+                Ok(json!({
+                    "answer": serde_json::to_value(&answer).unwrap_or(Json::Null),
+                    "tables": tables,
+                }))
+            },
+        )
         .await
     }
 
     /// A planning request (plan or size): the work off the protocol's thread with
-    /// progress, and a failure answered with its kind.
+    /// progress, and a failure answered with its kind; work stopped by its cancel flag
+    /// says so in the log and its progress, as an analysis does.
     async fn planning_work<E, W>(
         &self,
         token: Option<ProgressToken>,
         what: &str,
         failure_kind: &str,
+        cancel: CancelFlag,
         work: W,
     ) -> Result<Json>
     where
         E: std::fmt::Display + Send + 'static,
-        W: FnOnce() -> std::result::Result<Json, E> + Send + 'static,
+        W: FnOnce() -> std::result::Result<Json, Stopped<E>> + Send + 'static,
     {
         let progress = self.begin_progress(token, false, what.to_string()).await;
-        let outcome = self.run_blocking(&progress, work).await?;
-        progress
-            .finish(if outcome.is_ok() {
-                "done".into()
-            } else {
-                "failed".into()
+        let outcome = self
+            .run_blocking(&progress, move || {
+                Stopped::check(&cancel)?;
+                work()
             })
-            .await;
-        outcome.map_err(|error| request_failed(&error.to_string(), failure_kind))
+            .await?;
+        let message = match &outcome {
+            Ok(_) => "done",
+            Err(Stopped::Cancelled) => {
+                self.client
+                    .log_message(MessageType::INFO, format!("stopped {what}: the request was cancelled"))
+                    .await;
+                "cancelled"
+            }
+            Err(Stopped::Failed(_)) => "failed",
+        };
+        progress.finish(message.into()).await;
+        match outcome {
+            Ok(answer) => Ok(answer),
+            Err(Stopped::Cancelled) => Err(Error::request_cancelled()),
+            Err(Stopped::Failed(error)) => Err(request_failed(&error.to_string(), failure_kind)),
+        }
     }
 
     async fn write(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
@@ -625,24 +683,24 @@ impl Backend {
 
     async fn inspect_cells(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
-        guarded(self.shared.options.request_time_limit, move |_| async move {
-            shared.inspect_cells(params).await
+        guarded(self.shared.options.request_time_limit, move |cancel| async move {
+            shared.inspect_cells(params, cancel).await
         })
         .await
     }
 
     async fn plan_trial(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
-        guarded(self.shared.options.request_time_limit, move |_| async move {
-            shared.plan_trial(params).await
+        guarded(self.shared.options.request_time_limit, move |cancel| async move {
+            shared.plan_trial(params, cancel).await
         })
         .await
     }
 
     async fn size_trial(&self, params: Json) -> Result<Json> {
         let shared = self.shared.clone();
-        guarded(self.shared.options.request_time_limit, move |_| async move {
-            shared.size_trial(params).await
+        guarded(self.shared.options.request_time_limit, move |cancel| async move {
+            shared.size_trial(params, cancel).await
         })
         .await
     }

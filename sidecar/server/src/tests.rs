@@ -613,23 +613,11 @@ async fn expect_stopped(client: &TestClient) {
 
 #[tokio::test]
 async fn cancelling_stops_the_computation() {
-    let mut client = TestClient::start(ServerOptions::default());
-    let _ = client.initialize(json!({})).await;
-    let id = client.send_request(
+    cancel_points::cancel_once_begun(
         super::server::methods::ANALYSE_CELLS,
-        json!({"cells": large_cells(60_000), "workDoneToken": "long"}),
-    );
-    // The work has started once its progress has begun.
-    let _ = client
-        .notification("$/progress", |message| message["params"]["value"]["kind"] == "begin")
-        .await;
-    client.notify("$/cancelRequest", json!({"id": id}));
-    let answer = client.response(id).await;
-    // LSP 3.17: -32800 request cancelled.
-    assert_eq!(error_code(&answer), -32800, "{answer}");
-    // The computation itself noticed and stopped.
-    expect_stopped(&client).await;
-    assert_eq!(client.finish().await, 0);
+        json!({"cells": large_cells(60_000)}),
+    )
+    .await;
 }
 
 /// A request outliving the time limit is answered at the limit with a `time-limit`
@@ -807,3 +795,5 @@ async fn plan_size_and_inspect_cells_answer_as_the_service_does() {
     assert!(answer["result"].get("responses").is_none());
     assert!(client.finish().await == 0);
 }
+
+mod cancel_points;

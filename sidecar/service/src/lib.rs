@@ -38,7 +38,7 @@ pub mod settings;
 pub mod write;
 
 pub use failure::{describe_failure, error_chain, FailureReport, Problem, ServiceError};
-pub use load::{inspect_workbook, sha256_file, AnalysisRequest, CancelFlag};
+pub use load::{inspect_workbook, sha256_file, stop_if_cancelled, AnalysisRequest, CancelFlag};
 pub use orchestrate::{
     analyse_grid, analyse_workbook, conditions_of, inspect_grid, unit_of, MAX_CONDITIONS, MAX_RESPONSES,
 };

@@ -42,6 +42,19 @@ impl CancelFlag {
     }
 }
 
+/// A cancel point: [`ServiceError::Cancelled`] once stopping was asked for.
+///
+/// # Errors
+///
+/// [`ServiceError::Cancelled`] when `cancel` is set.
+pub fn stop_if_cancelled(cancel: &CancelFlag) -> Result<(), ServiceError> {
+    if cancel.is_cancelled() {
+        Err(ServiceError::Cancelled)
+    } else {
+        Ok(())
+    }
+}
+
 /// Inputs to one analysis beyond the workbook itself.
 #[derive(Debug, Clone, Default)]
 pub struct AnalysisRequest {
@@ -392,6 +405,7 @@ fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> R
     let (sha256, bytes) = (String::new(), 0u64);
     let started = Instant::now();
     let mut workbook = open_workbook(path, &request.limits)?;
+    stop_if_cancelled(&request.cancel)?;
     let mut findings = workbook_findings(&workbook);
     let sheet_level = sheet_settings(&mut workbook, &mut findings);
     let folder_level = request.folder_settings.clone().unwrap_or_default();
@@ -429,9 +443,11 @@ fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> R
         let read_started = Instant::now();
         let grid: SheetGrid = workbook.read_sheet(sheet, range)?;
         read_total += read_started.elapsed().as_secs_f64() * 1e3;
+        stop_if_cancelled(&request.cancel)?;
         let layout_started = Instant::now();
         let detected = detect_table(&grid, &table_request);
         layout_total += layout_started.elapsed().as_secs_f64() * 1e3;
+        stop_if_cancelled(&request.cancel)?;
         match detected {
             Ok(table) => {
                 found_tables.push(table);
@@ -471,6 +487,7 @@ fn load_body(path: &Path, request: &AnalysisRequest, timings: &mut Timings) -> R
         });
     };
     findings.append(&mut table.findings);
+    stop_if_cancelled(&request.cancel)?;
     // A plan workbook's runs are checked against the plan it carries.
     findings.extend(crate::plan::plan_findings(&mut workbook, &settings, &table));
     let source = SourceInfo {

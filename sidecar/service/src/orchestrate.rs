@@ -10,7 +10,7 @@ use workbook_io::layout::{detect_table, Finding, FindingKind, TrialTable};
 use workbook_io::{SheetGrid, SheetInfo};
 
 use crate::failure::ServiceError;
-use crate::load::{load, settings_sources, summarise_table, table_request, CancelFlag, Loaded};
+use crate::load::{load, settings_sources, stop_if_cancelled, summarise_table, table_request, CancelFlag, Loaded};
 use crate::results::{
     now_rfc3339, standard_cautions, Inspection, LeadChoice, LeadKind, ResponseOutcome, ResponseResult, SourceInfo,
     Timings, WorkbookResults, RESULTS_FORMAT_VERSION, TOOL_NAME, TOOL_VERSION,
@@ -78,7 +78,7 @@ pub fn analyse_grid(
     source_name: &str,
     cancel: &CancelFlag,
 ) -> Result<WorkbookResults, ServiceError> {
-    let loaded = load_grid(grid, settings, source_name)?;
+    let loaded = load_grid(grid, settings, source_name, cancel)?;
     analyse_loaded(Path::new(source_name), loaded, cancel)
 }
 
@@ -88,9 +88,15 @@ pub fn analyse_grid(
 ///
 /// # Errors
 ///
-/// [`ServiceError::NoTable`] when the cells hold no trial table.
-pub fn inspect_grid(grid: &SheetGrid, settings: &Settings, source_name: &str) -> Result<Inspection, ServiceError> {
-    let loaded = load_grid(grid, settings, source_name)?;
+/// [`ServiceError::NoTable`] when the cells hold no trial table;
+/// [`ServiceError::Cancelled`] when `cancel` was set before the table was read.
+pub fn inspect_grid(
+    grid: &SheetGrid,
+    settings: &Settings,
+    source_name: &str,
+    cancel: &CancelFlag,
+) -> Result<Inspection, ServiceError> {
+    let loaded = load_grid(grid, settings, source_name, cancel)?;
     Ok(Inspection {
         source: loaded.source,
         sheets: loaded.sheets,
@@ -101,11 +107,19 @@ pub fn inspect_grid(grid: &SheetGrid, settings: &Settings, source_name: &str) ->
 }
 
 /// The table of cells sent by a client, as loading a workbook would give it.
-fn load_grid(grid: &SheetGrid, settings: &Settings, source_name: &str) -> Result<Loaded, ServiceError> {
+fn load_grid(
+    grid: &SheetGrid,
+    settings: &Settings,
+    source_name: &str,
+    cancel: &CancelFlag,
+) -> Result<Loaded, ServiceError> {
+    stop_if_cancelled(cancel)?;
     let table = detect_table(grid, &table_request(settings, None)).map_err(|error| ServiceError::NoTable {
         path: PathBuf::from(source_name),
         reasons: error.to_string(),
     })?;
+    // Finding the table is the long stage for a large block of cells.
+    stop_if_cancelled(cancel)?;
     let mut table = table;
     let findings = std::mem::take(&mut table.findings);
     let source = SourceInfo {

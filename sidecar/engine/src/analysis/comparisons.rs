@@ -27,7 +27,7 @@ use crate::analysis::oneway::{difference_over, ConditionSummary, OneWayFit};
 use crate::options::Direction;
 use crate::stats::dunnett::{mcb_critical_values, ProductCorrelation, Sides};
 use crate::stats::ranks::holm_adjust;
-use crate::stats::studentized_range::{studentized_range_quantile, studentized_range_sf};
+use crate::stats::studentized_range::{studentized_range_quantile, studentized_range_quantiles, studentized_range_sf};
 use crate::stats::{dist, StatsError};
 
 /// The simultaneous methods for all pairs.
@@ -324,19 +324,30 @@ pub fn unequal_spread_pairs(fit: &OneWayFit, confidence: f64) -> Result<PairFami
     // variances neither overflow nor underflow at any magnitude of the data.
     let exponent = magnitude_exponent(fit.conditions.iter().map(|condition| &condition.sd));
     let down = -i64::from(exponent);
-    let mut pairs = Vec::new();
-    for (a, b) in pair_indices(k) {
+    // Each pair's SE and Welch df first; the pairs' quantiles are then solved together
+    // (in order of df, each started from its neighbours), not one root search apiece.
+    let welch: Vec<(usize, usize, f64, f64)> = pair_indices(k)
+        .into_iter()
+        .map(|(a, b)| {
+            let (first, second) = (&fit.conditions[a], &fit.conditions[b]);
+            let (sd_a, sd_b) = (
+                scale_by_power_of_two(first.sd, down),
+                scale_by_power_of_two(second.sd, down),
+            );
+            let va = sd_a * sd_a / first.n as f64;
+            let vb = sd_b * sd_b / second.n as f64;
+            let se = scale_by_power_of_two((va + vb).sqrt(), -down);
+            let df = (va + vb).powi(2) / (va * va / (first.n as f64 - 1.0) + vb * vb / (second.n as f64 - 1.0));
+            (a, b, se, df)
+        })
+        .collect();
+    let dfs: Vec<f64> = welch.iter().map(|&(_, _, _, df)| df).collect();
+    let quantiles = studentized_range_quantiles(confidence, k, &dfs)?;
+    let mut pairs = Vec::with_capacity(welch.len());
+    for (&(a, b, se, df), quantile) in welch.iter().zip(quantiles) {
         let (first, second) = (&fit.conditions[a], &fit.conditions[b]);
-        let (sd_a, sd_b) = (
-            scale_by_power_of_two(first.sd, down),
-            scale_by_power_of_two(second.sd, down),
-        );
-        let va = sd_a * sd_a / first.n as f64;
-        let vb = sd_b * sd_b / second.n as f64;
-        let se = scale_by_power_of_two((va + vb).sqrt(), -down);
-        let df = (va + vb).powi(2) / (va * va / (first.n as f64 - 1.0) + vb * vb / (second.n as f64 - 1.0));
         let difference = first.mean - second.mean;
-        let critical = studentized_range_quantile(confidence, k, df)? / std::f64::consts::SQRT_2;
+        let critical = quantile / std::f64::consts::SQRT_2;
         let p_adjusted = studentized_range_sf(
             difference_over(first.mean, second.mean, se).abs() * std::f64::consts::SQRT_2,
             k,

@@ -32,38 +32,54 @@ pub fn alike_sets(means: &[f64], different: &[Vec<bool>]) -> Vec<Vec<usize>> {
     if n == 0 {
         return Vec::new();
     }
-    let mut columns: Vec<Vec<bool>> = vec![vec![true; n]];
+    // Each column is a bit set of conditions, 64 to a word.
+    let words = n.div_ceil(64);
+    let has = |column: &[u64], condition: usize| column[condition / 64] >> (condition % 64) & 1 == 1;
+    let mut full = vec![u64::MAX; words];
+    if !n.is_multiple_of(64) {
+        full[words - 1] = (1u64 << (n % 64)) - 1;
+    }
+    let mut columns: Vec<Vec<u64>> = vec![full];
     for first in 0..n {
         for second in first + 1..n {
             if !different[first][second] {
                 continue;
             }
             let mut next = Vec::with_capacity(columns.len() + 1);
+            let mut split = Vec::new();
             for column in &columns {
-                if column[first] && column[second] {
+                if has(column, first) && has(column, second) {
                     let mut without_first = column.clone();
-                    without_first[first] = false;
+                    without_first[first / 64] &= !(1u64 << (first % 64));
                     let mut without_second = column.clone();
-                    without_second[second] = false;
+                    without_second[second / 64] &= !(1u64 << (second % 64));
+                    split.extend([next.len(), next.len() + 1]);
                     next.push(without_first);
                     next.push(without_second);
                 } else {
                     next.push(column.clone());
                 }
             }
-            // Absorb: drop columns contained in another (and duplicates).
-            let mut kept: Vec<Vec<bool>> = Vec::new();
-            for (index, column) in next.iter().enumerate() {
-                let absorbed = next.iter().enumerate().any(|(other_index, other)| {
-                    other_index != index
-                        && column.iter().zip(other).all(|(a, b)| !*a || *b)
-                        && (column != other || other_index < index)
-                });
-                if !absorbed {
-                    kept.push(column.clone());
-                }
+            if split.is_empty() {
+                continue;
             }
-            columns = kept;
+            // Absorb: drop columns contained in another (and duplicates). The columns
+            // were already free of such before this split, and a column left whole
+            // cannot lie inside a split one (it would have lain inside the column split),
+            // so only the split ones need the test.
+            let contained = |inner: &[u64], outer: &[u64]| inner.iter().zip(outer).all(|(a, b)| a & !b == 0);
+            let mut dropped = vec![false; next.len()];
+            for &index in &split {
+                let column = &next[index];
+                dropped[index] = next.iter().enumerate().any(|(other_index, other)| {
+                    other_index != index && contained(column, other) && (column != other || other_index < index)
+                });
+            }
+            columns = next
+                .into_iter()
+                .zip(dropped)
+                .filter_map(|(column, dropped)| (!dropped).then_some(column))
+                .collect();
         }
     }
     // Order columns by the best-ranked condition they hold.
@@ -78,16 +94,16 @@ pub fn alike_sets(means: &[f64], different: &[Vec<bool>]) -> Vec<Vec<usize>> {
     };
     columns.sort_by_key(|column| {
         let first_rank = (0..n)
-            .filter(|&i| column[i])
+            .filter(|&i| has(column, i))
             .map(|i| rank_of[i])
             .min()
             .unwrap_or(usize::MAX);
-        let size = column.iter().filter(|&&held| held).count();
-        (first_rank, usize::MAX - size)
+        let size: u32 = column.iter().map(|word| word.count_ones()).sum();
+        (first_rank, usize::MAX - size as usize)
     });
     columns
         .iter()
-        .map(|column| (0..n).filter(|&condition| column[condition]).collect())
+        .map(|column| (0..n).filter(|&condition| has(column, condition)).collect())
         .collect()
 }
 
@@ -115,6 +131,23 @@ mod tests {
             different[b][a] = true;
         }
         different
+    }
+
+    /// The pairs (a, b), a < b, that `different` keeps, given each a draw from a fixed
+    /// linear congruential stream.
+    fn drawn_pairs(n: usize, state: &mut u64, different: impl Fn(usize, usize, u64) -> bool) -> Vec<(usize, usize)> {
+        let mut pairs = Vec::new();
+        for a in 0..n {
+            for b in a + 1..n {
+                *state = state
+                    .wrapping_mul(6364136223846793005)
+                    .wrapping_add(1442695040888963407);
+                if different(a, b, *state >> 33) {
+                    pairs.push((a, b));
+                }
+            }
+        }
+        pairs
     }
 
     /// Checks the defining property: two conditions share a letter exactly
@@ -146,19 +179,36 @@ mod tests {
         let mut state = 12345u64;
         for _ in 0..200 {
             let n = 6;
-            let mut pairs = Vec::new();
-            for a in 0..n {
-                for b in a + 1..n {
-                    state = state
-                        .wrapping_mul(6364136223846793005)
-                        .wrapping_add(1442695040888963407);
-                    if (state >> 33).is_multiple_of(3) {
-                        pairs.push((a, b));
-                    }
-                }
-            }
+            let pairs = drawn_pairs(n, &mut state, |_, _, draw| draw.is_multiple_of(3));
             let means: Vec<f64> = (0..n).map(|i| (n - i) as f64).collect();
             check(&means, &pairs);
         }
+    }
+
+    #[test]
+    fn many_conditions_over_several_words() {
+        // 130 conditions (three 64-bit words) in bands: neighbours by mean alike,
+        // conditions far apart different, and a sprinkling of exceptions.
+        let n = 130;
+        let pairs = drawn_pairs(n, &mut 99u64, |a, b, draw| b - a > 6 || draw.is_multiple_of(5));
+        let means: Vec<f64> = (0..n).map(|i| (n - i) as f64).collect();
+        let different = matrix(n, &pairs);
+        let sets = alike_sets(&means, &different);
+        // Two conditions share a set exactly when they were not found different.
+        for (a, row) in different.iter().enumerate() {
+            for (b, &differ) in row.iter().enumerate().skip(a + 1) {
+                let share = sets.iter().any(|set| set.contains(&a) && set.contains(&b));
+                assert_eq!(share, !differ, "{a} {b}");
+            }
+        }
+        // No set lies inside another (each was absorbed if it did).
+        for (index, set) in sets.iter().enumerate() {
+            for (other_index, other) in sets.iter().enumerate() {
+                if index != other_index {
+                    assert!(!set.iter().all(|member| other.contains(member)), "{set:?} in {other:?}");
+                }
+            }
+        }
+        assert!(sets.len() > 20, "{} sets", sets.len());
     }
 }

@@ -1175,6 +1175,70 @@ pub fn studentized_range_pdf(q: f64, n_groups: usize, df: f64) -> Result<f64, St
 /// built on the thread (see [`studentized_range_cdf`]; the first call builds its pieces,
 /// 0.6 to 3 ms), 10 to 50 us for infinite df.
 pub fn studentized_range_quantile(p: f64, n_groups: usize, df: f64) -> Result<f64, StatsError> {
+    check_quantile_input(p, n_groups, df)?;
+    if p == 0.0 {
+        return Ok(0.0);
+    }
+    if p == 1.0 {
+        return Ok(f64::INFINITY);
+    }
+    quantile_newton(p, n_groups, df, starting_value(p, n_groups, df), false)
+}
+
+/// Quantiles at one probability `p` and number of groups for many df at once, in the
+/// order given (the intervals of Games-Howell's pairs, each with its own Welch df).
+///
+/// # Errors
+/// As [`studentized_range_quantile`] for any of the df.
+///
+/// # Remarks
+/// Each answer is that of [`studentized_range_quantile`], found by the same Newton's
+/// method and stopping rule, but the df are solved in increasing order and each is
+/// started from the straight line in df through the two solved nearest below it
+/// (one when only one is solved). When that neighbour lies within 5% in df the start is
+/// already close enough for the accurate outer integral, so the coarse first steps are
+/// skipped and one or two accurate evaluations settle it; farther apart, the solve starts
+/// afresh. Equal df (equal sizes and SDs) share one solve. For the 19,900 pairs of
+/// 200 conditions of 3 values this takes the pairs' intervals from about seven
+/// evaluations of the double integral each to one or two.
+pub fn studentized_range_quantiles(p: f64, n_groups: usize, dfs: &[f64]) -> Result<Vec<f64>, StatsError> {
+    for &df in dfs {
+        check_quantile_input(p, n_groups, df)?;
+    }
+    if p == 0.0 || p == 1.0 {
+        return Ok(vec![if p == 0.0 { 0.0 } else { f64::INFINITY }; dfs.len()]);
+    }
+    let mut order: Vec<usize> = (0..dfs.len()).collect();
+    order.sort_by(|&a, &b| dfs[a].total_cmp(&dfs[b]));
+    let mut answers = vec![f64::NAN; dfs.len()];
+    // The last two distinct df solved, with their quantiles.
+    let mut solved: [Option<(f64, f64)>; 2] = [None, None];
+    for index in order {
+        let df = dfs[index];
+        if let Some((last_df, last_q)) = solved[1] {
+            if last_df == df {
+                answers[index] = last_q;
+                continue;
+            }
+        }
+        let near_start = match solved {
+            [_, Some((df1, q1))] if df.is_finite() && (df - df1) <= 0.05 * df1 => Some(match solved[0] {
+                Some((df0, q0)) if df1 > df0 => q1 + (q1 - q0) / (df1 - df0) * (df - df1),
+                _ => q1,
+            }),
+            _ => None,
+        };
+        let q = match near_start {
+            Some(start) if start.is_finite() && start > 0.0 => quantile_newton(p, n_groups, df, start, true)?,
+            _ => quantile_newton(p, n_groups, df, starting_value(p, n_groups, df), false)?,
+        };
+        answers[index] = q;
+        solved = [solved[1], Some((df, q))];
+    }
+    Ok(answers)
+}
+
+fn check_quantile_input(p: f64, n_groups: usize, df: f64) -> Result<(), StatsError> {
     check_groups_and_df(n_groups, df)?;
     if !(0.0..=1.0).contains(&p) {
         return Err(StatsError::InvalidParameter {
@@ -1183,19 +1247,18 @@ pub fn studentized_range_quantile(p: f64, n_groups: usize, df: f64) -> Result<f6
             value: p,
         });
     }
-    if p == 0.0 {
-        return Ok(0.0);
-    }
-    if p == 1.0 {
-        return Ok(f64::INFINITY);
-    }
+    Ok(())
+}
+
+/// Newton's method of [`studentized_range_quantile`] from `start` (0 < p < 1); with
+/// `accurate` the steps use the full outer integral from the first one.
+fn quantile_newton(p: f64, n_groups: usize, df: f64, start: f64, mut accurate: bool) -> Result<f64, StatsError> {
     let upper_side = p > 0.5;
     let target = if upper_side { (1.0 - p).ln() } else { p.ln() };
-    let mut y = starting_value(p, n_groups, df).ln();
+    let mut y = start.ln();
     const MAX_ITERATIONS: usize = 60;
     // The first steps use the coarse outer integral; once a step is below 1e-5 its
     // error is down to the coarse integral's, and the accurate one takes over.
-    let mut accurate = false;
     for _ in 0..MAX_ITERATIONS {
         let q = y.exp();
         #[cfg(test)]

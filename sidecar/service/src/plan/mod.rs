@@ -26,7 +26,7 @@ use workbook_io::layout::{Finding, FindingKind, TrialTable};
 use workbook_io::Workbook;
 
 pub use engine::design::{make_plan, FactorSpec, Plan, PlanError, PlanRequest};
-pub use size::{size_answer, size_book, write_size, SizeAnswer, SizeError, SizeRequest};
+pub use size::{size_answer, size_answer_until, size_book, write_size, SizeAnswer, SizeError, SizeRequest};
 
 use crate::settings::Settings;
 use engine::stats::two_level::resolution_numeral;

@@ -10,6 +10,7 @@ use std::path::{Path, PathBuf};
 use serde::Serialize;
 use workbook_io::write::{Book, ChartKind, ChartSpec, Look, NumberFormat, Series, Sheet, SheetRange, Value};
 
+use crate::load::CancelFlag;
 use crate::report::document::{read_results_document, DocumentError};
 /// What a one-factor size question should detect (re-exported for front ends).
 pub use engine::analysis::power::OneWayEffect;
@@ -98,6 +99,9 @@ pub enum SizeError {
     /// The workbook could not be written.
     #[error(transparent)]
     Write(#[from] workbook_io::write::WriteError),
+    /// The caller asked to stop before the answer was complete.
+    #[error("the size question was cancelled before it was answered")]
+    Cancelled,
 }
 
 /// The SD of the last trial, as read from its results.
@@ -293,18 +297,39 @@ fn two_level_relation(factors: usize, runs_per_replicate: Option<usize>) -> Resu
 ///
 /// [`SizeError`] for unusable inputs or an unreadable results workbook.
 pub fn size_answer(request: &SizeRequest) -> Result<SizeAnswer, SizeError> {
+    size_answer_until(request, &CancelFlag::default())
+}
+
+/// Answers a size question, stopping at the next stage once `cancel` is set: after
+/// the SD is read, after each power computed for the search and the table, and after
+/// the half-width search.
+///
+/// # Errors
+///
+/// As [`size_answer`]; [`SizeError::Cancelled`] once `cancel` is set.
+pub fn size_answer_until(request: &SizeRequest, cancel: &CancelFlag) -> Result<SizeAnswer, SizeError> {
+    let stop = || {
+        if cancel.is_cancelled() {
+            Err(SizeError::Cancelled)
+        } else {
+            Ok(())
+        }
+    };
     let mut notes = Vec::new();
     let (sd, sd_from, sd_df) = resolve_sd(&request.sd, &mut notes)?;
+    stop()?;
     let alpha = request.alpha;
     let target = request.power;
     match &request.design {
         SizeDesign::OneWay { conditions, effect } => {
             check_one_way(*conditions, effect)?;
             let needed_count = one_way_runs_needed(*conditions, effect, sd, alpha, target)?;
+            stop()?;
             let half_width = match request.half_width {
                 Some(wanted) => {
                     let confidence = 1.0 - alpha;
                     let (per_condition, reached) = pairs_plan(*conditions, sd, confidence, wanted)?;
+                    stop()?;
                     notes.push(
                         "The all-pairs half-width is the Tukey-Kramer one the trial will show if its pooled SD comes out at the planning SD; a larger SD widens it.".into(),
                     );
@@ -325,6 +350,7 @@ pub fn size_answer(request: &SizeRequest) -> Result<SizeAnswer, SizeError> {
             let first = 2usize.max(last.saturating_sub(MAX_TABLE_ROWS - 1));
             let mut table = Vec::new();
             for count in first..=last {
+                stop()?;
                 table.push(PowerRow {
                     count,
                     total_runs: count * conditions,
@@ -391,6 +417,7 @@ pub fn size_answer(request: &SizeRequest) -> Result<SizeAnswer, SizeError> {
             let mut needed_count = None;
             let mut replicates = 1;
             while replicates <= 100_000 {
+                stop()?;
                 let row = row_for(replicates)?;
                 if row.power >= target {
                     needed_count = Some(row);
@@ -411,7 +438,12 @@ pub fn size_answer(request: &SizeRequest) -> Result<SizeAnswer, SizeError> {
             };
             let last = (needed_row.count + 3).max(4);
             let first = 1usize.max(last.saturating_sub(MAX_TABLE_ROWS - 1));
-            let table = (first..=last).map(row_for).collect::<Result<Vec<_>, _>>()?;
+            let table = (first..=last)
+                .map(|replicates| {
+                    stop()?;
+                    Ok(row_for(replicates)?)
+                })
+                .collect::<Result<Vec<_>, SizeError>>()?;
             if table.iter().any(|row| row.power.is_nan()) {
                 notes.push(
                     "Where the residual df is 0 the planned model uses every run, so no test can be made; add replicates or centre points, or drop the interactions from the model.".into(),
@@ -586,5 +618,39 @@ mod tests {
         assert!(previous.power < 0.8 || previous.power.is_nan());
         let book = size_book(&answer);
         assert_eq!(book.sheets[0].charts.len(), 1);
+    }
+
+    #[test]
+    fn a_set_cancel_flag_stops_the_answer() {
+        let one_way = SizeRequest {
+            design: SizeDesign::OneWay {
+                conditions: 4,
+                effect: OneWayEffect::SmallestDifference(1.0),
+            },
+            sd: SdSource::Given(0.8),
+            alpha: 0.05,
+            power: 0.9,
+            half_width: Some(0.5),
+        };
+        let two_level = SizeRequest {
+            design: SizeDesign::TwoLevel {
+                factors: 4,
+                runs_per_replicate: None,
+                centre_points: 2,
+                interactions: false,
+                effect: 1.5,
+            },
+            ..one_way.clone()
+        };
+        for request in [one_way, two_level] {
+            let cancel = CancelFlag::new();
+            let answered = size_answer_until(&request, &cancel).expect("answer");
+            assert_eq!(answered, size_answer(&request).expect("answer"));
+            cancel.cancel();
+            assert!(matches!(
+                size_answer_until(&request, &cancel),
+                Err(SizeError::Cancelled)
+            ));
+        }
     }
 }
