@@ -123,19 +123,9 @@ fn next(folder: &Path, from: &str, to: &str, seed: &str) -> serde_json::Value {
     ))
 }
 
-fn coded(settings: &[f64; 3]) -> [f64; 3] {
-    [
-        (settings[0] - 160.0) / 10.0,
-        (settings[1] - 15.0) / 5.0,
-        settings[2] - 2.0,
-    ]
-}
-
-#[test]
-fn screen_fold_over_composite_and_confirmation_end_at_the_true_optimum() {
-    let folder = tempfile::tempdir().expect("temp dir");
-    let dir = folder.path();
-    let mut noise = Noise(20_261_204);
+/// The screen every test starts from: a 2^(3-1) half fraction of the three factors with
+/// three centre runs, written as screen.xlsx.
+fn plan_screen(dir: &Path) {
     trialyst(
         dir,
         &[
@@ -158,6 +148,22 @@ fn screen_fold_over_composite_and_confirmation_end_at_the_true_optimum() {
             "screen.xlsx",
         ],
     );
+}
+
+fn coded(settings: &[f64; 3]) -> [f64; 3] {
+    [
+        (settings[0] - 160.0) / 10.0,
+        (settings[1] - 15.0) / 5.0,
+        settings[2] - 2.0,
+    ]
+}
+
+#[test]
+fn screen_fold_over_composite_and_confirmation_end_at_the_true_optimum() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    let dir = folder.path();
+    let mut noise = Noise(20_261_204);
+    plan_screen(dir);
     let screen = fill(&dir.join("screen.xlsx"), &dir.join("screen filled.xlsx"), &mut noise);
     assert_eq!(screen.len(), 7);
 
@@ -323,28 +329,7 @@ fn a_trial_with_no_recommendation_is_refused_with_each_response_s_reason() {
 fn the_protocol_writes_the_same_next_plan_beside_the_workbook() {
     let folder = tempfile::tempdir().expect("temp dir");
     let dir = folder.path();
-    trialyst(
-        dir,
-        &[
-            "plan",
-            "--factor",
-            "Temperature=150,170",
-            "--factor",
-            "Time=10,20",
-            "--factor",
-            "Pressure=1,3",
-            "--response",
-            "Yield",
-            "--runs",
-            "4",
-            "--centre-points",
-            "3",
-            "--seed",
-            "1",
-            "--out",
-            "screen.xlsx",
-        ],
-    );
+    plan_screen(dir);
     fill(&dir.join("screen.xlsx"), &dir.join("screen filled.xlsx"), &mut Noise(7));
     let by_command = next(dir, "screen filled.xlsx", "by command.xlsx", "9");
     let mut session = crate::lsp::Session::start();
