@@ -222,11 +222,8 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment:
                 format!("{percent}% interval for this one pair"),
             ),
         };
-        let (first, second, difference, low, high) = if largest.difference >= 0.0 {
-            (&largest.first, &largest.second, largest.difference, low, high)
-        } else {
-            (&largest.second, &largest.first, -largest.difference, -high, -low)
-        };
+        // Pairs come with the higher average first: the difference reads as a positive amount.
+        let (first, second, difference) = (&largest.first, &largest.second, largest.difference);
         let interval = if low.is_finite() && high.is_finite() {
             format!(
                 " ({interval_kind}: {} to {})",

@@ -182,14 +182,11 @@ fn response_row(entry: &RollupEntry<'_>, response: &ResponseResult, findings: us
     // As many decimals as the results workbook shows for this response.
     let places = super::decimals_for(fit);
     let (pair_text, difference, low, high) = match largest {
-        // The Summary's convention: the higher average minus the lower, so the difference
+        // Pairs come with the higher average first, as on the Summary: the difference
         // and its interval read as positive amounts.
         Some(pair) => {
-            let (first, second, difference, low, high) = if pair.difference >= 0.0 {
-                (&pair.first, &pair.second, pair.difference, pair.low, pair.high)
-            } else {
-                (&pair.second, &pair.first, -pair.difference, -pair.high, -pair.low)
-            };
+            let (first, second, difference, low, high) =
+                (&pair.first, &pair.second, pair.difference, pair.low, pair.high);
             (
                 Value::text(format!("{first} minus {second}")),
                 Value::Number(difference, NumberFormat::Decimals(places)),
