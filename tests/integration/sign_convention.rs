@@ -15,16 +15,8 @@ fn negative_pairs(value: &serde_json::Value, path: &str, found: &mut Vec<String>
     match value {
         serde_json::Value::Object(map) => {
             if map.contains_key("first") && map.contains_key("second") {
-                for key in ["difference", "z", "t", "standardized", "low"] {
-                    if key == "low" {
-                        // The interval follows the difference: its upper end is not below zero.
-                        if let Some(high) = map.get("high").and_then(serde_json::Value::as_f64) {
-                            if high < 0.0 {
-                                found.push(format!("{path}.high = {high}"));
-                            }
-                        }
-                        continue;
-                    }
+                // The interval follows the difference: its upper end is not below zero.
+                for key in ["difference", "z", "t", "standardized", "high"] {
                     if let Some(number) = map.get(key).and_then(serde_json::Value::as_f64) {
                         if number < 0.0 {
                             found.push(format!("{path}.{key} = {number}"));
