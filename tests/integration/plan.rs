@@ -623,3 +623,112 @@ fn filled_central_composite_plan_gets_a_second_order_reading() {
         "{summary:?}"
     );
 }
+
+/// The three-factor surface of `SURFACE_FACTORS` as a plan file, with the
+/// design, the axial rule and a factor's limits as keys.
+const SURFACE_PLAN_FILE: &str = r#"
+design = "central-composite"
+axial = "orthogonal-blocks"
+response = "Yield (%)"
+centre_points = 3
+blocks = 2
+seed = 7
+
+[[factor]]
+name = "Temperature"
+levels = [160, 180]
+lowest = 150
+highest = 195
+
+[[factor]]
+name = "Time"
+levels = [20, 30]
+
+[[factor]]
+name = "Pressure"
+levels = [2, 3]
+"#;
+
+/// Runs trialyst in `folder` expecting a refusal of the request (exit 2); its message.
+fn refused_in(folder: &Path, args: &[&str]) -> String {
+    let output = Command::new(trialyst())
+        .args(args)
+        .current_dir(folder)
+        .output()
+        .expect("trialyst runs");
+    assert_eq!(output.status.code(), Some(2), "{args:?}");
+    String::from_utf8_lossy(&output.stderr).into_owned()
+}
+
+#[test]
+fn a_plan_file_asks_for_a_surface_plan_as_the_options_do() {
+    let folder = tempfile::tempdir().expect("temp dir");
+    std::fs::write(folder.path().join("surface.toml"), SURFACE_PLAN_FILE).expect("plan file written");
+    let from_file = json_of(&run_in(
+        folder.path(),
+        &["plan", "--from", "surface.toml", "--json", "--out", "from-file.xlsx"],
+    ));
+    let mut args = vec![
+        "plan",
+        "--design",
+        "central-composite",
+        "--axial",
+        "orthogonal-blocks",
+        "--blocks",
+        "2",
+        "--limit",
+        "Temperature=150,195",
+    ];
+    args.extend(SURFACE_FACTORS);
+    args.extend(["--json", "--out", "from-options.xlsx"]);
+    let from_options = json_of(&run_in(folder.path(), &args));
+    // The same request by either route: the same plan, id and runs.
+    assert_eq!(from_file["kind"], "central composite plan", "{from_file}");
+    assert_eq!(from_file["id"], from_options["id"], "{from_file} {from_options}");
+    assert_eq!(from_file["runs"], from_options["runs"]);
+    assert_eq!(from_file["blocks"], 2, "{from_file}");
+    let file_settings = settings_in(&mut read_all(&folder.path().join("from-file.xlsx")), "Temperature");
+    let option_settings = settings_in(&mut read_all(&folder.path().join("from-options.xlsx")), "Temperature");
+    assert_eq!(file_settings, option_settings);
+    // Orthogonal blocking of a 2^3 cube (F = 8) in one block with n_c0 = 3 centre
+    // runs, and the axial block (2k = 6 runs) with n_a0 = 3: alpha^2 =
+    // F (2k + n_a0) / (2 (F + n_c0)) = 8 * 9 / 22, alpha = 1.8091 (Box and Hunter
+    // 1957, the condition as recalled from memory); 170 +- 10 alpha lies inside
+    // the limits 150..195.
+    let alpha = (8.0f64 * 9.0 / 22.0).sqrt();
+    let highest = file_settings.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    assert!((highest - (170.0 + 10.0 * alpha)).abs() < 1e-3, "{highest} vs {alpha}");
+
+    // A limit the axial runs would pass is refused, naming the factor, and nothing is written.
+    let tight = SURFACE_PLAN_FILE.replace("highest = 195", "highest = 185");
+    std::fs::write(folder.path().join("tight.toml"), tight).expect("plan file written");
+    let message = refused_in(folder.path(), &["plan", "--from", "tight.toml", "--out", "tight.xlsx"]);
+    assert!(message.contains("Temperature"), "{message}");
+    assert!(!folder.path().join("tight.xlsx").exists());
+
+    // Keys that do not fit name the key and its line.
+    for (from, to, key, line) in [
+        ("axial = \"orthogonal-blocks\"", "axial = \"far out\"", "'axial'", 3),
+        ("design = \"central-composite\"", "design = \"star\"", "'design'", 2),
+        ("highest = 195", "highest = 140", "'highest'", 13),
+        (
+            "design = \"central-composite\"",
+            "design = \"box-behnken\"",
+            "'axial'",
+            3,
+        ),
+    ] {
+        let text = SURFACE_PLAN_FILE.replace(from, to);
+        std::fs::write(folder.path().join("bad.toml"), text).expect("plan file written");
+        let message = refused_in(folder.path(), &["plan", "--from", "bad.toml", "--out", "bad.xlsx"]);
+        assert!(
+            message.contains(&format!("bad.toml, line {line}: {key}")),
+            "{to}: {message}"
+        );
+    }
+    // Limits without a design: said, not ignored.
+    let text = SURFACE_PLAN_FILE.replace("design = \"central-composite\"\naxial = \"orthogonal-blocks\"\n", "");
+    std::fs::write(folder.path().join("plain.toml"), text).expect("plan file written");
+    let message = refused_in(folder.path(), &["plan", "--from", "plain.toml", "--out", "plain.xlsx"]);
+    assert!(message.contains("'lowest'") && message.contains("design"), "{message}");
+}

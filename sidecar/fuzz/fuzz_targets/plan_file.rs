@@ -9,7 +9,7 @@ fuzz_target!(|data: &[u8]| {
     let Ok(text) = std::str::from_utf8(data) else {
         return;
     };
-    if let Err(error) = parse_plan_file(text, "fuzz.toml") {
+    if let Err(error) = parse_plan_file(text, "fuzz.toml").map(|file| file.request) {
         let message = error.to_string();
         assert!(message.starts_with("fuzz.toml"), "the error names the file: {message}");
     }

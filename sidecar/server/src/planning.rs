@@ -9,7 +9,8 @@ use tower_lsp_server::ls_types::ProgressToken;
 
 use super::from_proto::{describe, error, params_object, work_done_token, ParamsError};
 use service::plan::size::{OneWayEffect, SdSource, SizeDesign};
-use service::plan::{FactorSpec, PlanRequest, SizeRequest};
+use service::plan::surface_choice::{read_axial, read_design, SurfaceWordsError};
+use service::plan::{FactorLimits, FactorSpec, PlanRequest, SizeRequest, SurfaceChoice};
 
 /// Level of the test when the client gives none (as `trialyst size`).
 pub const DEFAULT_ALPHA: f64 = 0.05;
@@ -21,6 +22,10 @@ pub const DEFAULT_POWER: f64 = 0.8;
 pub struct PlanParams {
     /// The plan asked for.
     pub request: PlanRequest,
+    /// The response-surface plan, when `design` is given.
+    pub surface: Option<SurfaceChoice>,
+    /// Whether `centrePoints` was given (a response-surface plan gets some when not).
+    pub centre_points_given: bool,
     /// The client's progress token.
     pub work_done_token: Option<ProgressToken>,
 }
@@ -102,8 +107,9 @@ fn text_list(map: &Map<String, Value>, key: &str) -> Result<Vec<String>, ParamsE
     }
 }
 
-/// One factor: `{"name": "Temperature", "levels": [160, 180]}`.
-fn factor(value: &Value, field: &str) -> Result<FactorSpec, ParamsError> {
+/// One factor: `{"name": "Temperature", "levels": [160, 180]}`, with the
+/// settings the process can reach (`lowest`, `highest`) when given.
+fn factor(value: &Value, field: &str) -> Result<(FactorSpec, Option<FactorLimits>), ParamsError> {
     let Value::Object(map) = value else {
         return Err(error(
             field,
@@ -132,7 +138,28 @@ fn factor(value: &Value, field: &str) -> Result<FactorSpec, ParamsError> {
         None => return Err(error(format!("{field}.levels"), "missing; give the factor's levels")),
     };
     let level_texts: Vec<&str> = levels.iter().map(String::as_str).collect();
-    Ok(FactorSpec::new(&name, &level_texts))
+    let spec = FactorSpec::new(&name, &level_texts);
+    let lower = optional_number(map, "lowest").map_err(|bad| within(bad, field))?;
+    let upper = optional_number(map, "highest").map_err(|bad| within(bad, field))?;
+    if let (Some(low), Some(high)) = (lower, upper) {
+        if low >= high {
+            return Err(error(format!("{field}.highest"), "must be above lowest"));
+        }
+    }
+    let limits = (lower.is_some() || upper.is_some()).then(|| FactorLimits {
+        factor: spec.name.clone(),
+        lower,
+        upper,
+    });
+    Ok((spec, limits))
+}
+
+/// An error about `params.<key>` of a factor, moved to `<field>.<key>`.
+fn within(bad: ParamsError, field: &str) -> ParamsError {
+    ParamsError {
+        field: bad.field.replacen("params", field, 1),
+        ..bad
+    }
 }
 
 /// Reads the params of `trialyst/planTrial`: `factors` (each a name and its
@@ -144,12 +171,12 @@ fn factor(value: &Value, field: &str) -> Result<FactorSpec, ParamsError> {
 /// [`ParamsError`] naming the field.
 pub fn plan_params(params: &Value) -> Result<PlanParams, ParamsError> {
     let map = params_object(params)?;
-    let factors = match map.get("factors") {
+    let read_factors = match map.get("factors") {
         Some(Value::Array(items)) => items
             .iter()
             .enumerate()
             .map(|(index, item)| factor(item, &format!("params.factors[{index}]")))
-            .collect::<Result<Vec<FactorSpec>, ParamsError>>()?,
+            .collect::<Result<Vec<_>, ParamsError>>()?,
         Some(other) => {
             return Err(error(
                 "params.factors",
@@ -172,6 +199,42 @@ pub fn plan_params(params: &Value) -> Result<PlanParams, ParamsError> {
         None | Some(Value::Null) => None,
         Some(value) => Some(item_text(value, "params.date")?),
     };
+    let mut factors = Vec::with_capacity(read_factors.len());
+    let mut limits = Vec::new();
+    for (spec, limit) in read_factors {
+        factors.push(spec);
+        limits.extend(limit);
+    }
+    let axial = match map.get("axial") {
+        None | Some(Value::Null) => None,
+        Some(value) => {
+            let words = item_text(value, "params.axial")?;
+            Some(read_axial(&words).map_err(|bad| error("params.axial", bad.to_string()))?)
+        }
+    };
+    let surface = match map.get("design") {
+        None | Some(Value::Null) => {
+            if axial.is_some() {
+                return Err(error("params.axial", "goes with \"design\": \"central-composite\""));
+            }
+            if !limits.is_empty() {
+                return Err(error(
+                    "params.factors",
+                    "lowest and highest go with a response-surface plan: add \"design\": \"central-composite\" or \"box-behnken\"",
+                ));
+            }
+            None
+        }
+        Some(value) => {
+            let words = item_text(value, "params.design")?;
+            let design = read_design(&words, axial).map_err(|bad| match bad {
+                SurfaceWordsError::AxialForBoxBehnken => error("params.axial", bad.to_string()),
+                other => error("params.design", other.to_string()),
+            })?;
+            Some(SurfaceChoice { design, limits })
+        }
+    };
+    let centre_points_given = !matches!(map.get("centrePoints"), None | Some(Value::Null));
     let request = PlanRequest {
         factors,
         responses: text_list(map, "responses")?,
@@ -185,6 +248,8 @@ pub fn plan_params(params: &Value) -> Result<PlanParams, ParamsError> {
     };
     Ok(PlanParams {
         request,
+        surface,
+        centre_points_given,
         work_done_token: work_done_token(map)?,
     })
 }

@@ -497,6 +497,8 @@ impl Shared {
     async fn plan_trial(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
         let read = planning::plan_params(&params).map_err(params_error)?;
         let request = read.request;
+        let surface = read.surface;
+        let centre_points_given = read.centre_points_given;
         let stop = cancel.clone();
         self.planning_work(
             read.work_done_token,
@@ -505,7 +507,8 @@ impl Shared {
             cancel,
             move || {
                 // Cancel points between the stages: the plan, its workbook, the answer.
-                let plan = service::plan::make_plan(&request).map_err(Stopped::Failed)?;
+                let plan = service::plan::make_any_plan(&request, surface.as_ref(), centre_points_given)
+                    .map_err(Stopped::Failed)?;
                 Stopped::check(&stop)?;
                 let book = service::plan::book::plan_book(&plan);
                 Stopped::check(&stop)?;

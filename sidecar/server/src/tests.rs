@@ -715,6 +715,98 @@ fn listen_addresses_must_be_loopback() {
 }
 
 #[tokio::test]
+async fn a_surface_plan_is_asked_for_by_design_axial_rule_and_limits() {
+    let mut client = TestClient::start(ServerOptions::default());
+    let _ = client.initialize(json!({})).await;
+    let factors = json!([
+        {"name": "Temperature", "levels": [160, 180], "lowest": 150, "highest": 195},
+        {"name": "Time", "levels": [20, 30]},
+    ]);
+    let answer = client
+        .request(
+            super::server::methods::PLAN_TRIAL,
+            json!({"factors": factors, "responses": ["Yield"], "design": "central-composite",
+                   "axial": "faces", "seed": 3}),
+        )
+        .await;
+    // The reference: the same request made by the service (three centre runs each
+    // with the cube and the axial runs, as `trialyst plan` gives when none are asked for).
+    let request = service::plan::PlanRequest {
+        factors: vec![
+            service::plan::FactorSpec::new("Temperature", &["160", "180"]),
+            service::plan::FactorSpec::new("Time", &["20", "30"]),
+        ],
+        responses: vec!["Yield".into()],
+        seed: Some(3),
+        ..service::plan::PlanRequest::default()
+    };
+    let choice = service::plan::SurfaceChoice {
+        design: service::plan::surface_choice::read_design(
+            "central composite",
+            service::plan::surface_choice::read_axial("faces").ok(),
+        )
+        .expect("a design"),
+        limits: vec![service::plan::FactorLimits {
+            factor: "Temperature".into(),
+            lower: Some(150.0),
+            upper: Some(195.0),
+        }],
+    };
+    let plan = service::plan::make_any_plan(&request, Some(&choice), false).expect("a valid plan");
+    // A 2^2 cube, 4 runs on the faces and 3 + 3 centre runs: 14 (common practice).
+    assert_eq!(plan.runs.len(), 14);
+    assert_eq!(answer["result"]["plan"]["runs"], 14, "{answer}");
+    assert_eq!(answer["result"]["plan"]["id"], plan.id.as_str(), "{answer}");
+    assert_eq!(answer["result"]["plan"]["kind"], "central composite plan", "{answer}");
+
+    // Limits the axial runs would pass: a plan that cannot be made, naming the factor.
+    let refused = client
+        .request(
+            super::server::methods::PLAN_TRIAL,
+            json!({"factors": [{"name": "Temperature", "levels": [160, 180], "highest": 181},
+                               {"name": "Time", "levels": [20, 30]}],
+                   "responses": ["Yield"], "design": "central-composite"}),
+        )
+        .await;
+    assert_eq!(error_code(&refused), -32803, "{refused}");
+    assert!(
+        refused["error"]["message"]
+            .as_str()
+            .unwrap_or("")
+            .contains("Temperature"),
+        "{refused}"
+    );
+    // Words that do not fit name their field.
+    for (params, field) in [
+        (
+            json!({"factors": factors, "responses": ["Y"], "design": "star"}),
+            "params.design",
+        ),
+        (
+            json!({"factors": factors, "responses": ["Y"], "design": "box-behnken", "axial": 1.5}),
+            "params.axial",
+        ),
+        (
+            json!({"factors": factors, "responses": ["Y"], "design": "central-composite", "axial": -1}),
+            "params.axial",
+        ),
+        (json!({"factors": factors, "responses": ["Y"]}), "params.factors"),
+        (
+            json!({"factors": [{"name": "A", "levels": [1, 2], "lowest": "low"}], "responses": ["Y"], "design": "central-composite"}),
+            "params.factors[0].lowest",
+        ),
+        (
+            json!({"factors": [{"name": "A", "levels": [1, 2], "lowest": 3, "highest": 0}], "responses": ["Y"], "design": "central-composite"}),
+            "params.factors[0].highest",
+        ),
+    ] {
+        let answer = client.request(super::server::methods::PLAN_TRIAL, params).await;
+        assert_eq!(error_code(&answer), -32602, "{answer}");
+        assert_eq!(answer["error"]["data"]["field"], field, "{answer}");
+    }
+}
+
+#[tokio::test]
 async fn plan_size_and_inspect_cells_answer_as_the_service_does() {
     let mut client = TestClient::start(ServerOptions::default());
     let _ = client.initialize(json!({})).await;

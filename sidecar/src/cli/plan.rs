@@ -3,6 +3,8 @@
 use std::path::PathBuf;
 
 use service::error_chain;
+use service::plan::file::PlanFile;
+use service::plan::SurfaceChoice;
 
 use super::args::{PlanArgs, UsageError};
 use super::{EXIT_OK, EXIT_SOME_FAILED, EXIT_USAGE};
@@ -18,54 +20,51 @@ fn parse_factor_arg(text: &str) -> Result<service::plan::FactorSpec, UsageError>
     Ok(service::plan::FactorSpec::new(name, &levels))
 }
 
-/// The response-surface plan asked for with `--design`, `--axial` and `--limit`,
-/// or `None` for the factorial plans.
-fn surface_design(
-    args: &PlanArgs,
-) -> Result<Option<(service::plan::SurfaceDesign, Vec<service::plan::FactorLimits>)>, UsageError> {
-    use engine::design::surface::AxialDistance;
+/// The response-surface plan asked for: the plan file's `design`, `axial` and
+/// factor limits, overridden by `--design`, `--axial` and `--limit`; `None`
+/// for the factorial plans.
+fn surface_design(args: &PlanArgs, from_file: Option<SurfaceChoice>) -> Result<Option<SurfaceChoice>, UsageError> {
+    use service::plan::surface_choice::{read_axial, read_design, SurfaceWordsError};
     use service::plan::SurfaceDesign;
-    let Some(design) = args.design.as_deref() else {
-        if args.axial.is_some() || !args.limit.is_empty() {
-            return Err(UsageError(
-                "--axial and --limit go with --design central-composite or --design box-behnken".into(),
-            ));
-        }
-        return Ok(None);
-    };
-    let axial = match args.axial.as_deref().map(str::trim) {
-        None | Some("rotatable") => AxialDistance::Rotatable,
-        Some("orthogonal-blocks") => AxialDistance::OrthogonalBlocking,
-        Some("faces") => AxialDistance::FaceCentred,
-        Some(text) => match text.parse::<f64>() {
-            Ok(distance) if distance.is_finite() && distance > 0.0 => AxialDistance::Given(distance),
-            _ => {
-                return Err(UsageError(format!(
-                    "--axial '{text}': write rotatable, orthogonal-blocks, faces or a positive distance in coded units, e.g. 1.5"
-                )))
-            }
+    let axial = args
+        .axial
+        .as_deref()
+        .map(|text| read_axial(text).map_err(|error| UsageError(format!("--axial {error}"))))
+        .transpose()?;
+    let mut choice = match (args.design.as_deref(), from_file) {
+        (Some(design), from_file) => SurfaceChoice {
+            design: read_design(design, axial).map_err(|error| match error {
+                SurfaceWordsError::AxialForBoxBehnken => UsageError(format!("--axial {error}")),
+                other => UsageError(format!("--design {other}")),
+            })?,
+            limits: from_file.map(|choice| choice.limits).unwrap_or_default(),
         },
-    };
-    let design = match design.trim() {
-        "central-composite" => SurfaceDesign::CentralComposite(axial),
-        "box-behnken" if args.axial.is_none() => SurfaceDesign::BoxBehnken,
-        "box-behnken" => {
-            return Err(UsageError(
-                "--axial goes with --design central-composite; a Box-Behnken plan has no axial runs".into(),
-            ))
+        (None, Some(mut choice)) => {
+            if let Some(axial) = axial {
+                match choice.design {
+                    SurfaceDesign::CentralComposite(_) => choice.design = SurfaceDesign::CentralComposite(axial),
+                    SurfaceDesign::BoxBehnken => {
+                        return Err(UsageError(format!("--axial {}", SurfaceWordsError::AxialForBoxBehnken)))
+                    }
+                }
+            }
+            choice
         }
-        other => {
-            return Err(UsageError(format!(
-                "--design '{other}': write central-composite or box-behnken"
-            )))
+        (None, None) => {
+            if args.axial.is_some() || !args.limit.is_empty() {
+                return Err(UsageError(
+                    "--axial and --limit go with --design central-composite or --design box-behnken".into(),
+                ));
+            }
+            return Ok(None);
         }
     };
-    let limits = args
-        .limit
-        .iter()
-        .map(|text| parse_limit_arg(text))
-        .collect::<Result<_, _>>()?;
-    Ok(Some((design, limits)))
+    for text in &args.limit {
+        let limit = parse_limit_arg(text)?;
+        choice.limits.retain(|earlier| earlier.factor != limit.factor);
+        choice.limits.push(limit);
+    }
+    Ok(Some(choice))
 }
 
 /// Reads `Name=lowest,highest` (either side may be empty).
@@ -96,16 +95,22 @@ fn parse_limit_arg(text: &str) -> Result<service::plan::FactorLimits, UsageError
 }
 
 /// The plan request: the TOML file given, if any, overridden by the options.
-fn plan_request(args: &PlanArgs) -> Result<service::plan::PlanRequest, String> {
-    let mut request = match &args.from {
+fn plan_request(args: &PlanArgs) -> Result<PlanFile, String> {
+    let mut file = match &args.from {
         Some(path) => {
             let text =
                 std::fs::read_to_string(path).map_err(|error| format!("cannot read '{}': {error}", path.display()))?;
             service::plan::file::parse_plan_file(&text, &path.display().to_string())
                 .map_err(|error| error.to_string())?
         }
-        None => service::plan::PlanRequest::default(),
+        None => PlanFile {
+            request: service::plan::PlanRequest::default(),
+            surface: None,
+            centre_points_given: false,
+        },
     };
+    file.centre_points_given |= args.centre_points.is_some();
+    let request = &mut file.request;
     if !args.factor.is_empty() {
         request.factors = args
             .factor
@@ -125,39 +130,27 @@ fn plan_request(args: &PlanArgs) -> Result<service::plan::PlanRequest, String> {
     request.blocks = args.blocks.unwrap_or(request.blocks);
     request.fraction_runs = args.runs.or(request.fraction_runs);
     request.seed = args.seed.or(request.seed);
-    request.date = args.date.clone().or(request.date);
-    Ok(request)
+    request.date = args.date.clone().or(request.date.take());
+    Ok(file)
 }
-
-/// Centre runs of a response-surface plan when none are asked for.
-const SURFACE_CENTRE_POINTS: usize = 3;
 
 /// `trialyst plan`: checks the request, writes the plan workbook; returns the exit code.
 pub(crate) fn plan_command(args: PlanArgs) -> i32 {
-    let request = match plan_request(&args) {
-        Ok(request) => request,
+    let file = match plan_request(&args) {
+        Ok(file) => file,
         Err(message) => {
             eprintln!("trialyst: {message}");
             return EXIT_USAGE;
         }
     };
-    let surface = match surface_design(&args) {
+    let surface = match surface_design(&args, file.surface) {
         Ok(surface) => surface,
         Err(error) => {
             eprintln!("trialyst: {error}");
             return EXIT_USAGE;
         }
     };
-    let mut request = request;
-    if surface.is_some() && args.centre_points.is_none() && request.centre_points == 0 {
-        // A response-surface plan needs centre runs for its error and its curvature;
-        // three to six in all is common practice, and the cube part and the axial part get these each.
-        request.centre_points = SURFACE_CENTRE_POINTS;
-    }
-    let made = match surface {
-        Some((design, limits)) => service::plan::make_surface_plan(design, &request, &limits),
-        None => service::plan::make_plan(&request),
-    };
+    let made = service::plan::make_any_plan(&file.request, surface.as_ref(), file.centre_points_given);
     let plan = match made {
         Ok(plan) => plan,
         Err(error) => {

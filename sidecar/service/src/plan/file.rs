@@ -19,12 +19,29 @@
 //! levels = ["North", "South", "East"]
 //! ```
 //!
+//! A response-surface plan names its design, perhaps its axial rule, and each
+//! factor's low and high settings, with the settings the process can reach:
+//!
+//! ```toml
+//! design = "central-composite"    # or "box-behnken"
+//! axial = "faces"                 # rotatable (default), orthogonal-blocks, faces or a distance
+//!
+//! [[factor]]
+//! name = "Temperature"
+//! levels = [160, 180]
+//! lowest = 150                    # optional: the axial runs never go below
+//! highest = 185                   # optional: nor above
+//! ```
+//!
 //! Errors name the key and the line.
 
 use serde::Deserialize;
 use toml::Spanned;
 
 use engine::design::{FactorSpec, Level, PlanRequest};
+
+use super::surface_choice::{read_axial, read_design, SurfaceChoice};
+use super::FactorLimits;
 
 /// Why a plan file could not be used.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -65,6 +82,8 @@ enum OneOrMany {
 struct RawFactor {
     name: Spanned<String>,
     levels: Spanned<Vec<Spanned<toml::Value>>>,
+    lowest: Option<Spanned<toml::Value>>,
+    highest: Option<Spanned<toml::Value>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -83,6 +102,20 @@ struct RawPlanFile {
     generators: Vec<String>,
     seed: Option<Spanned<i64>>,
     date: Option<Spanned<String>>,
+    design: Option<Spanned<String>>,
+    axial: Option<Spanned<toml::Value>>,
+}
+
+/// What a plan file asks for.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanFile {
+    /// The factors, responses and counts.
+    pub request: PlanRequest,
+    /// The response-surface plan, when the file names a design.
+    pub surface: Option<SurfaceChoice>,
+    /// Whether the file gives `centre_points` (a response-surface plan gets
+    /// some when it does not).
+    pub centre_points_given: bool,
 }
 
 /// The 1-based line of byte `offset` in `text`.
@@ -124,7 +157,7 @@ impl LineStarts {
 /// # Errors
 ///
 /// [`PlanFileError`] naming the key and line of the first problem.
-pub fn parse_plan_file(text: &str, file: &str) -> Result<PlanRequest, PlanFileError> {
+pub fn parse_plan_file(text: &str, file: &str) -> Result<PlanFile, PlanFileError> {
     let raw: RawPlanFile = toml::from_str(text).map_err(|error| PlanFileError::Syntax {
         file: file.to_string(),
         message: match error.span() {
@@ -150,6 +183,7 @@ pub fn parse_plan_file(text: &str, file: &str) -> Result<PlanRequest, PlanFileEr
         }
     };
     let mut factors = Vec::new();
+    let mut limits = Vec::new();
     for raw_factor in &raw.factor {
         let mut levels = Vec::new();
         for level in raw_factor.levels.get_ref() {
@@ -164,10 +198,41 @@ pub fn parse_plan_file(text: &str, file: &str) -> Result<PlanRequest, PlanFileEr
         if levels.len() < 2 {
             return Err(bad(raw_factor.levels.span(), "levels", "needs at least two levels"));
         }
-        factors.push(FactorSpec {
-            name: raw_factor.name.get_ref().trim().to_string(),
-            levels,
-        });
+        let name = raw_factor.name.get_ref().trim().to_string();
+        let limit = |value: &Option<Spanned<toml::Value>>, key: &str| match value {
+            None => Ok(None),
+            Some(spanned) => match spanned.get_ref() {
+                toml::Value::Integer(number) => Ok(Some(*number as f64)),
+                toml::Value::Float(number) if number.is_finite() => Ok(Some(*number)),
+                _ => Err(bad(
+                    spanned.span(),
+                    key,
+                    "must be a number, a setting the process can reach",
+                )),
+            },
+        };
+        let lowest = limit(&raw_factor.lowest, "lowest")?;
+        let highest = limit(&raw_factor.highest, "highest")?;
+        if let (Some(low), Some(high), Some(at)) = (lowest, highest, raw_factor.highest.as_ref()) {
+            if low >= high {
+                return Err(bad(at.span(), "highest", "must be above 'lowest'"));
+            }
+        }
+        if lowest.is_some() || highest.is_some() {
+            limits.push((
+                FactorLimits {
+                    factor: name.clone(),
+                    lower: lowest,
+                    upper: highest,
+                },
+                raw_factor
+                    .lowest
+                    .as_ref()
+                    .or(raw_factor.highest.as_ref())
+                    .map(Spanned::span),
+            ));
+        }
+        factors.push(FactorSpec { name, levels });
     }
     let responses = match raw.response {
         None => Vec::new(),
@@ -183,7 +248,54 @@ pub fn parse_plan_file(text: &str, file: &str) -> Result<PlanRequest, PlanFileEr
         0 => None,
         runs => Some(runs),
     };
-    Ok(PlanRequest {
+    let axial = match &raw.axial {
+        None => None,
+        Some(spanned) => {
+            let words = match spanned.get_ref() {
+                toml::Value::String(text) => text.clone(),
+                toml::Value::Integer(number) => number.to_string(),
+                toml::Value::Float(number) => format!("{number}"),
+                _ => String::new(),
+            };
+            Some(
+                read_axial(&words)
+                    .map_err(|_| bad(spanned.span(), "axial", AXIAL_RULE))
+                    .map(|axial| (axial, spanned.span()))?,
+            )
+        }
+    };
+    let surface = match &raw.design {
+        None => {
+            if let Some((_, span)) = axial {
+                return Err(bad(span, "axial", "goes with design = \"central-composite\""));
+            }
+            if let Some((_, Some(span))) = limits.first() {
+                return Err(bad(
+                    span.clone(),
+                    "lowest",
+                    "and 'highest' go with a response-surface plan: add design = \"central-composite\" or \"box-behnken\"",
+                ));
+            }
+            None
+        }
+        Some(design) => Some(SurfaceChoice {
+            design: read_design(design.get_ref(), axial.as_ref().map(|(axial, _)| *axial)).map_err(|error| {
+                match (&error, &axial) {
+                    (super::surface_choice::SurfaceWordsError::AxialForBoxBehnken, Some((_, span))) => {
+                        bad(span.clone(), "axial", &error.to_string())
+                    }
+                    _ => bad(
+                        design.span(),
+                        "design",
+                        "must be \"central-composite\" or \"box-behnken\"",
+                    ),
+                }
+            })?,
+            limits: limits.into_iter().map(|(limit, _)| limit).collect(),
+        }),
+    };
+    let centre_points_given = raw.centre_points.is_some();
+    let request = PlanRequest {
         factors,
         responses,
         replicates: count(&raw.replicates, "replicates", 1)?,
@@ -193,8 +305,17 @@ pub fn parse_plan_file(text: &str, file: &str) -> Result<PlanRequest, PlanFileEr
         generators: raw.generators,
         seed,
         date: raw.date.map(Spanned::into_inner),
+    };
+    Ok(PlanFile {
+        request,
+        surface,
+        centre_points_given,
     })
 }
+
+/// What the `axial` key accepts.
+const AXIAL_RULE: &str =
+    "must be \"rotatable\", \"orthogonal-blocks\", \"faces\" or a positive distance in coded units, such as 1.5";
 
 #[cfg(test)]
 mod line_tests {
@@ -229,7 +350,7 @@ levels = [160, 180.5]
 name = "Supplier"
 levels = ["North", "South", "East"]
 "#;
-        let request = parse_plan_file(text, "plan.toml").expect("valid");
+        let request = parse_plan_file(text, "plan.toml").expect("valid").request;
         assert_eq!(request.responses, vec!["Yield (%)"]);
         assert_eq!(request.replicates, 2);
         assert_eq!(request.seed, Some(42));

@@ -18,6 +18,7 @@ pub mod next;
 #[cfg(test)]
 mod shown_tests;
 pub mod size;
+pub mod surface_choice;
 
 use std::path::Path;
 
@@ -27,6 +28,7 @@ use workbook_io::Workbook;
 
 pub use engine::design::{make_plan, FactorSpec, Plan, PlanError, PlanRequest};
 pub use size::{size_answer, size_answer_until, size_book, write_size, SizeAnswer, SizeError, SizeRequest};
+pub use surface_choice::{make_any_plan, SurfaceChoice, SURFACE_CENTRE_POINTS};
 
 use crate::settings::Settings;
 use engine::stats::two_level::resolution_numeral;
