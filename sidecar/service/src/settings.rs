@@ -423,13 +423,24 @@ impl Settings {
         }
     }
 
-    /// The direction in force for a response: its own entry, else the one for every
-    /// response, else `None`.
+    /// The direction in force for a response: its own entry, else the direction its
+    /// goal gives (a goal "higher" is higher is better, "target 40" is a target of
+    /// 40), else the one for every response, else `None`.
     pub fn direction_for(&self, response: &str) -> Option<Direction> {
         self.response_directions
             .iter()
             .find(|entry| names_response(&entry.response, response))
             .map(|entry| entry.direction)
+            .or_else(|| {
+                self.goals
+                    .iter()
+                    .find(|goal| names_response(&goal.response, response))
+                    .and_then(|goal| match goal.kind {
+                        crate::goals::GoalKind::Higher => Some(Direction::HigherIsBetter),
+                        crate::goals::GoalKind::Lower => Some(Direction::LowerIsBetter),
+                        crate::goals::GoalKind::Target => goal.target.map(Direction::Target),
+                    })
+            })
             .or(self.direction)
     }
 
@@ -496,6 +507,25 @@ mod tests {
             Settings::from_pairs_lenient(pairs(&[("Interaction order", "1"), ("interaction_order", "x")]));
         assert_eq!(read.interaction_order, Some(1));
         assert_eq!(errors.len(), 1);
+    }
+
+    #[test]
+    fn a_goal_gives_its_response_a_direction() {
+        let sheet = Settings::from_pairs(pairs(&[
+            ("direction", "lower"),
+            ("goal", "Peel strength (N): higher, acceptable 38 to 45"),
+            ("goal", "Gloss: target 80, acceptable 70 to 90"),
+            ("goal", "Haze (%): higher, acceptable 1 to 4"),
+            ("direction", "Haze: lower"),
+        ]))
+        .expect("valid");
+        // A goal says which way is better for its response (as the direction of the
+        // desirability it sets); a direction named for the response stands above it,
+        // and the one for every response applies to responses with neither.
+        assert_eq!(sheet.direction_for("peel strength"), Some(Direction::HigherIsBetter));
+        assert_eq!(sheet.direction_for("Gloss"), Some(Direction::Target(80.0)));
+        assert_eq!(sheet.direction_for("Haze (%)"), Some(Direction::LowerIsBetter));
+        assert_eq!(sheet.direction_for("Yield"), Some(Direction::LowerIsBetter));
     }
 
     #[test]

@@ -12,11 +12,12 @@
 //! overall desirability is the weighted geometric mean
 //! D = (Π d_i^(r_i))^(1 / Σ r_i) with importances r_i.
 //!
-//! D is maximised over the ball of the runs' region in coded units: every
-//! run of the trial and [`RANDOM_STARTS`] points drawn from the seed are
-//! scored, and the best [`LOCAL_SEARCHES`] are refined by compass search
-//! (steps halved from 0.25 coded units down to 1e-6), each trial point
-//! pulled back onto the ball. The response whose d is lowest at the answer is
+//! D is maximised over the region of the runs in coded units (the ball of the
+//! farthest run cut by the box of the settings run, `surface::Region`): the
+//! centre and [`RANDOM_STARTS`] points drawn from the seed are scored, and the
+//! best [`LOCAL_SEARCHES`] are refined by compass search (steps halved from
+//! 0.25 of the radius down to 1e-7), each trial point pulled back into the
+//! region. The response whose d is lowest at the answer is
 //! the one that limits the compromise.
 
 use serde::Serialize;
@@ -158,15 +159,6 @@ fn overall(fits: &[&SurfaceOutcome], goals: &[ResponseGoal], coded: &[f64]) -> f
     }
 }
 
-fn onto_ball(point: &mut [f64], radius: f64) {
-    let norm = point.iter().map(|x| x * x).sum::<f64>().sqrt();
-    if norm > radius && norm > 0.0 {
-        for x in point.iter_mut() {
-            *x *= radius / norm;
-        }
-    }
-}
-
 /// Maximises the overall desirability of fitted surfaces that share their
 /// factors and coding; `None` without responses or when the goals and fits disagree.
 pub fn maximise_desirability(fits: &[&SurfaceOutcome], goals: &[ResponseGoal], seed: u64) -> Option<Compromise> {
@@ -175,7 +167,11 @@ pub fn maximise_desirability(fits: &[&SurfaceOutcome], goals: &[ResponseGoal], s
         return None;
     }
     let k = first.factor_names.len();
-    let radius = fits.iter().map(|fit| fit.region_radius).fold(f64::INFINITY, f64::min);
+    let region = fits
+        .iter()
+        .skip(1)
+        .fold(first.region(), |region, fit| region.meet(&fit.region()));
+    let radius = region.radius;
     let mut evaluations = 0usize;
     let mut score = |point: &[f64]| {
         evaluations += 1;
@@ -189,7 +185,7 @@ pub fn maximise_desirability(fits: &[&SurfaceOutcome], goals: &[ResponseGoal], s
         let mut point: Vec<f64> = (0..k)
             .map(|_| radius * (2.0 * (generator.next_u64() >> 11) as f64 / (1u64 << 53) as f64 - 1.0))
             .collect();
-        onto_ball(&mut point, radius);
+        region.pull_in(&mut point);
         starts.push((0.0, point));
     }
     for start in &mut starts {
@@ -197,28 +193,8 @@ pub fn maximise_desirability(fits: &[&SurfaceOutcome], goals: &[ResponseGoal], s
     }
     starts.sort_by(|a, b| b.0.total_cmp(&a.0));
     let mut best: (f64, Vec<f64>) = starts[0].clone();
-    for (value, start) in starts.into_iter().take(LOCAL_SEARCHES) {
-        let (mut current, mut point) = (value, start);
-        let mut step = 0.25 * radius.max(1e-3);
-        while step > 1e-6 {
-            let mut moved = false;
-            for axis in 0..k {
-                for sign in [1.0, -1.0] {
-                    let mut trial = point.clone();
-                    trial[axis] += sign * step;
-                    onto_ball(&mut trial, radius);
-                    let value = score(&trial);
-                    if value > current {
-                        current = value;
-                        point = trial;
-                        moved = true;
-                    }
-                }
-            }
-            if !moved {
-                step /= 2.0;
-            }
-        }
+    for (_, start) in starts.into_iter().take(LOCAL_SEARCHES) {
+        let (current, point) = region.climb(start, &mut score);
         if current > best.0 {
             best = (current, point);
         }

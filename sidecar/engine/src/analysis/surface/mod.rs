@@ -260,6 +260,9 @@ pub struct SurfaceOutcome {
     pub adjusted_r_squared: Option<f64>,
     /// Radius of the region of the runs in coded units (the farthest run from the centre).
     pub region_radius: f64,
+    /// Lowest and highest coded setting run, per factor: with the radius, the
+    /// region of the runs ([`Region`]).
+    pub region_bounds: Vec<(f64, f64)>,
     /// The stationary point, when B can be inverted.
     pub stationary: Option<StationaryPoint>,
     /// Ridge analysis, when the stationary point is outside the region or is
@@ -406,6 +409,15 @@ impl SurfaceOutcome {
             new_run_high: predicted + t * se_new,
             confidence: self.model.confidence,
         })
+    }
+
+    /// The region of the runs in coded units: the ball of [`Self::region_radius`]
+    /// cut by the box of [`Self::region_bounds`].
+    pub fn region(&self) -> Region {
+        Region {
+            radius: self.region_radius,
+            bounds: self.region_bounds.clone(),
+        }
     }
 
     /// The point of the ridge analysis at coded radius `radius`: the highest
@@ -712,6 +724,16 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
         .iter()
         .map(|&record| coded_of(record).iter().map(|x| x * x).sum::<f64>().sqrt())
         .fold(0.0, f64::max);
+    let region_bounds: Vec<(f64, f64)> = (0..k)
+        .map(|factor| {
+            usable
+                .iter()
+                .map(|&record| coded_of(record)[factor])
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(low, high), x| {
+                    (low.min(x), high.max(x))
+                })
+        })
+        .collect();
     let fitted = usable
         .iter()
         .enumerate()
@@ -737,6 +759,7 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
         adjusted_r_squared: (residual_df > 0 && total_ss > 0.0)
             .then(|| 1.0 - (residual_ss / residual_df as f64) / (total_ss / (n - 1) as f64)),
         region_radius,
+        region_bounds,
         stationary: None,
         ridge: Vec::new(),
         recommended: None,
@@ -780,7 +803,7 @@ fn read_surface(outcome: &mut SurfaceOutcome, direction: Option<Direction>) {
         outcome.stationary = Some(StationaryPoint {
             real: outcome.to_real(&coded),
             predicted: outcome.predict_coded(&coded),
-            inside_region: distance <= outcome.region_radius * (1.0 + 1e-9),
+            inside_region: outcome.region().contains(&coded),
             distance,
             kind,
             eigenvalues: eigenvalues.clone(),
@@ -838,8 +861,27 @@ fn read_surface(outcome: &mut SurfaceOutcome, direction: Option<Direction>) {
         })
         .cloned();
     if let Some(best) = best {
-        outcome.recommended = outcome.predict(&best.real);
-        let why = match &outcome.stationary {
+        // The ridge's best point may lie beyond the settings tried for a factor
+        // (the ball reaches past the box of a face-centred or Box-Behnken plan):
+        // the recommendation is the best predicted point within the region, found
+        // from the ridge points moved into it.
+        let region = outcome.region();
+        let sign = if highest { 1.0 } else { -1.0 };
+        let kept_in = !region.contains(&best.coded);
+        let start = outcome
+            .ridge
+            .iter()
+            .map(|point| {
+                let mut coded = point.coded.clone();
+                region.pull_in(&mut coded);
+                coded
+            })
+            .max_by(|a, b| (sign * outcome.predict_coded(a)).total_cmp(&(sign * outcome.predict_coded(b))))
+            .unwrap_or_else(|| best.coded.clone());
+        let (_, coded) = region.climb(start, |point| sign * outcome.predict_coded(point));
+        let real = outcome.to_real(&coded);
+        outcome.recommended = outcome.predict(&real);
+        let mut why = match &outcome.stationary {
             Some(point) if !point.inside_region => format!(
                 "the stationary point ({}) lies outside the region of the runs, so the {} predicted response on spheres of growing radius was followed (ridge analysis)",
                 point.kind.words(),
@@ -852,11 +894,18 @@ fn read_surface(outcome: &mut SurfaceOutcome, direction: Option<Direction>) {
             ),
             None => "the fitted surface has no single stationary point, so the ridge analysis was followed".to_string(),
         };
+        if kept_in {
+            why.push_str(
+                "; its best point lay beyond the settings run for a factor, so the best predicted point within them is given",
+            );
+        }
         outcome.recommended_reason = Some(why);
     }
 }
 
 mod reading;
+mod region;
+pub use region::Region;
 #[cfg(test)]
 mod reference_values;
 pub use reading::{model_test, reading_in_words};

@@ -147,7 +147,11 @@ fn random_surfaces_with_blocks_match_the_reference_library() {
 /// A rotatable two-factor central composite plan with five centre runs,
 /// filled from a known quadratic (coded units) plus small fixed deviations.
 fn exact_surface(linear: [f64; 2], interaction: f64, squares: [f64; 2], noise: &[f64]) -> SurfaceData {
-    let alpha = 2f64.sqrt();
+    exact_surface_at(2f64.sqrt(), linear, interaction, squares, noise)
+}
+
+/// As [`exact_surface`], with the axial runs at coded distance `alpha` (1: on the faces).
+fn exact_surface_at(alpha: f64, linear: [f64; 2], interaction: f64, squares: [f64; 2], noise: &[f64]) -> SurfaceData {
     let mut coded = vec![
         [-1.0, -1.0],
         [1.0, -1.0],
@@ -257,6 +261,40 @@ fn a_maximum_outside_the_region_leads_to_ridge_analysis() {
     // Lowest instead: the ridge goes the other way.
     let lowest = fit_towards(&data, Direction::LowerIsBetter);
     assert!(lowest.ridge.last().expect("ridge").coded[0] < -1.0);
+}
+
+#[test]
+fn a_face_centred_plan_s_recommendation_stays_within_the_settings_run() {
+    // Runs on the square [-1, 1]^2 (axial runs on the faces): the ball of the farthest
+    // run has radius sqrt(2) and reaches coded 1.41 on an axis, beyond any run.
+    // y = 50 + 6 x1 + x2 - x1^2 - 2 x2^2 rises in x1 all across the square, so within
+    // the settings run the highest point is x1 = 1, x2 = 1/4 (algebra: dy/dx2 = 0);
+    // on the sphere of radius sqrt(2) it would be near x1 = 1.39, past the highest setting.
+    let data = exact_surface_at(1.0, [6.0, 1.0], 0.0, [-1.0, -2.0], &SMALL_NOISE);
+    let outcome = fit_towards(&data, Direction::HigherIsBetter);
+    assert_eq!(outcome.region_bounds, vec![(-1.0, 1.0), (-1.0, 1.0)]);
+    let point = outcome.stationary.as_ref().expect("stationary");
+    assert!(!point.inside_region, "{:?}", point.coded);
+    let recommended = outcome.recommended.as_ref().expect("recommended");
+    assert!(
+        (recommended.coded[0] - 1.0).abs() < 1e-6 && (recommended.coded[1] - 0.25).abs() < 0.02,
+        "{:?}",
+        recommended.coded
+    );
+    assert!((recommended.real[0] - 110.0).abs() < 1e-5, "{:?}", recommended.real);
+    let why = outcome.recommended_reason.as_deref().unwrap_or("");
+    assert!(why.contains("beyond the settings run"), "{why}");
+    // A stationary point within the ball but past a factor's settings is outside the region.
+    let data = exact_surface_at(1.0, [2.4, 0.0], 0.0, [-1.0, -2.0], &SMALL_NOISE);
+    let outcome = fit_towards(&data, Direction::HigherIsBetter);
+    let point = outcome.stationary.as_ref().expect("stationary");
+    assert!(
+        (point.coded[0] - 1.2).abs() < 0.02 && point.distance < 2f64.sqrt(),
+        "{:?}",
+        point.coded
+    );
+    assert!(!point.inside_region);
+    assert!(outcome.recommended.as_ref().expect("recommended").coded[0] <= 1.0 + 1e-9);
 }
 
 #[test]
