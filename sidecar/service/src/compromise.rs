@@ -73,6 +73,34 @@ fn figures(value: f64) -> String {
     format!("{value:.decimals$}")
 }
 
+/// Points each weighed response's confirmation runs at the compromise settings, so
+/// that the Summary and `trialyst next` ask for one set of runs, not one per response
+/// at settings the other goals would not accept. A response whose next trial is
+/// not a confirmation (more replicates, say) keeps its own.
+pub fn confirm_the_compromise(compromise: &CompromiseResult, responses: &mut [ResponseResult]) {
+    for response in responses.iter_mut() {
+        if !compromise.responses.iter().any(|line| line.response == response.name) {
+            continue;
+        }
+        if !response.next_runs.as_ref().is_some_and(|runs| runs.confirmation) {
+            continue;
+        }
+        let Some(surface) = response.surface.as_deref() else {
+            continue;
+        };
+        let Some(recommendation) = engine::analysis::next_trial::recommend_confirming_compromise(
+            surface,
+            &compromise.settings,
+            &format!("'{}'", response.name),
+        ) else {
+            continue;
+        };
+        let runs = crate::plan::next::NextRuns::new(surface.factor_names.clone(), &recommendation);
+        response.next_trial = Some(runs.reason.clone());
+        response.next_runs = Some(runs);
+    }
+}
+
 /// The compromise over the responses with goals and a second-order fit; `None` when
 /// fewer than two such responses. Goals that name no response, or a response without
 /// a second-order fit, are noted as findings.
@@ -329,6 +357,40 @@ mod tests {
             "{}",
             compromise.sentence
         );
+        // Each weighed response's next trial confirms the compromise, not its own best
+        // settings: three runs there, and an interval for their average that is wider
+        // than the interval of the mean and narrower than one new run's (t·sqrt(s²/3 +
+        // se²) lies between t·se and t·sqrt(s² + se²)).
+        for (response, line) in results.responses.iter().zip([yield_line, cost_line]) {
+            let next = response.next_runs.as_ref().expect("a next trial");
+            assert!(next.confirmation, "{}", next.reason);
+            assert_eq!(next.runs.len(), 3);
+            for run in &next.runs {
+                assert_eq!(run, &compromise.settings);
+            }
+            let sentence = response.next_trial.as_deref().unwrap_or("");
+            assert!(
+                sentence.contains("weighed together") && sentence.contains(&format!("'{}'", response.name)),
+                "{sentence}"
+            );
+            let Some(engine::analysis::next_trial::NextStep::Confirm(confirm)) =
+                engine::analysis::next_trial::recommend_confirming_compromise(
+                    response.surface.as_deref().expect("a fit"),
+                    &compromise.settings,
+                    "",
+                )
+                .map(|recommendation| recommendation.step)
+            else {
+                panic!("a confirmation");
+            };
+            let (mean_low, mean_high) = line.mean_interval.expect("a mean interval");
+            let (run_low, run_high) = line.new_run_interval.expect("a new-run interval");
+            assert!(run_low < confirm.low && confirm.low < mean_low, "{confirm:?} {line:?}");
+            assert!(
+                mean_high < confirm.high && confirm.high < run_high,
+                "{confirm:?} {line:?}"
+            );
+        }
         // The Summary carries the paragraph, and the surface sheet the table.
         let book = crate::report::build_results_book(&results);
         let texts = |name: &str| -> Vec<String> {

@@ -503,6 +503,9 @@ pub(crate) fn analyse_loaded(
         });
     }
     let compromise = crate::compromise::compromise_of(&settings, &responses, &mut findings);
+    if let Some(found) = &compromise {
+        crate::compromise::confirm_the_compromise(found, &mut responses);
+    }
     timings.analysis_ms = started.elapsed().as_secs_f64() * 1e3;
     if responses.iter().all(|response| response.fit().is_none()) {
         let reasons = responses

@@ -551,7 +551,15 @@ pub fn replicates_for_power(
 /// Confirmation runs at the recommended settings of a second-order
 /// analysis: the interval the mean of `runs` new runs should fall in.
 pub fn confirmation(outcome: &SurfaceOutcome, runs: usize) -> Option<Confirmation> {
-    let recommended = outcome.recommended.as_ref()?;
+    confirmation_at(outcome, &outcome.recommended.as_ref()?.real, runs)
+}
+
+/// Confirmation runs at the given settings (real units) of a second-order
+/// analysis, such as the compromise of several responses: the interval the
+/// mean of `runs` new runs should fall in, t · sqrt(s²/m + se(mean)²).
+pub fn confirmation_at(outcome: &SurfaceOutcome, real: &[f64], runs: usize) -> Option<Confirmation> {
+    let recommended = outcome.predict(real)?;
+    let recommended = &recommended;
     let sd = outcome.residual_sd?;
     let t = t_isf((1.0 - recommended.confidence) / 2.0, outcome.residual_df as f64).ok()?;
     let half = t * (sd * sd / runs as f64 + recommended.se_mean * recommended.se_mean).sqrt();
@@ -752,6 +760,37 @@ pub fn recommend_after_surface(outcome: &SurfaceOutcome) -> Recommendation {
 mod loop_tests;
 #[cfg(test)]
 mod tests;
+
+/// The recommendation when several responses' goals are weighed together: the
+/// confirmation runs go at the compromise settings (real units), and this
+/// response's average there should fall in the interval its own fit predicts.
+/// `None` when the fit has no error estimate.
+pub fn recommend_confirming_compromise(
+    outcome: &SurfaceOutcome,
+    real: &[f64],
+    response: &str,
+) -> Option<Recommendation> {
+    let confirm = confirmation_at(outcome, real, CONFIRMATION_RUNS)?;
+    let reason = format!(
+        "The goals of the responses are weighed together (the compromise at the top of the Summary): confirm it with {} runs at {}; their average {} should fall between {:.4} and {:.4} ({:.0}% interval).",
+        confirm.runs,
+        outcome
+            .factor_names
+            .iter()
+            .zip(&confirm.real)
+            .map(|(name, value)| format!("{name} {}", setting_in_words(*value)))
+            .collect::<Vec<_>>()
+            .join(", "),
+        response,
+        confirm.low,
+        confirm.high,
+        100.0 * confirm.confidence
+    );
+    Some(Recommendation {
+        step: NextStep::Confirm(confirm),
+        reason,
+    })
+}
 
 /// A setting in a sentence: five significant figures, as a person would dial it in (the
 /// plan workbooks keep the full value).
