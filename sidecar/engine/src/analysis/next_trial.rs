@@ -733,13 +733,7 @@ pub fn recommend_after_surface(outcome: &SurfaceOutcome) -> Recommendation {
                 "The best predicted settings lie on the edge of the region"
             },
             confirm.runs,
-            outcome
-                .factor_names
-                .iter()
-                .zip(&confirm.real)
-                .map(|(name, value)| format!("{name} {}", setting_in_words(*value)))
-                .collect::<Vec<_>>()
-                .join(", "),
+            settings_in_words(&outcome.factor_names, &confirm.real),
             confirm.low,
             confirm.high,
             100.0 * confirm.confidence
@@ -790,6 +784,16 @@ pub fn recommend_confirming_compromise(
         step: NextStep::Confirm(confirm),
         reason,
     })
+}
+
+/// Named settings in a sentence: "Temperature 158.06, Time 50".
+fn settings_in_words(names: &[String], values: &[f64]) -> String {
+    names
+        .iter()
+        .zip(values)
+        .map(|(name, value)| format!("{name} {}", setting_in_words(*value)))
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 /// A setting in a sentence: five significant figures, as a person would dial it in (the
