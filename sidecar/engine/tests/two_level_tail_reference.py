@@ -2,7 +2,7 @@
 p-values from pure error, the centre-point curvature test (difference, sum of squares,
 t, p), and Lenth's method (pseudo standard error, t ratios, the individual and
 simultaneous t quantiles at fractional df m/3, margins of error), with p from about 0.5
-down to 1e-150 and Lenth's quantiles at confidence 0.95 and 1 - 1e-12.
+down to 1e-150 and Lenth's quantiles at confidence 0.95 (df 31/3) and 1 - 1e-12 (df 5).
 
 Cell means, effects, pure error, the curvature contrast and Lenth's medians are exact
 rational numbers (Python fractions); square roots, t tails and t quantiles are taken in
@@ -37,7 +37,7 @@ CASES = [
     (3, 3, 5, 40, 3, {1: 50, 2: 7, 4: 2, 5: 1}, "0.95"),
     (4, 4, 9, 1000, 7, {1: 90, 2: 30, 4: 5, 8: 2, 3: 1}, "0.95"),
     (5, 1, 0, 100, 0, {1: 40, 2: 25, 4: 9, 16: 1, 3: 5}, "0.95"),
-    (5, 1, 0, 100, 0, {1: 40, 2: 25, 4: 9, 16: 1, 3: 5}, "0.999999999999"),
+    (4, 1, 0, 100, 0, {1: 40, 2: 25, 4: 9, 8: 1, 3: 5, 12: 2}, "0.999999999999"),
 ]
 
 
