@@ -116,8 +116,13 @@ def show(x):
     return mp.nstr(x, 17, min_fixed=1, max_fixed=0)
 
 
-for kind, n, k in CASES:
-    x = data(kind, n, k)
-    w, p_w = shapiro_wilk(x)
-    a2, p_a = anderson_darling(x)
-    print(f'    ("{kind}", {n}, {k}, [{show(w)}, {show(p_w)}, {show(a2)}, {show(p_a)}]),', flush=True)
+def main():
+    for kind, n, k in CASES:
+        x = data(kind, n, k)
+        w, p_w = shapiro_wilk(x)
+        a2, p_a = anderson_darling(x)
+        print(f'    ("{kind}", {n}, {k}, [{show(w)}, {show(p_w)}, {show(a2)}, {show(p_a)}]),', flush=True)
+
+
+if __name__ == "__main__":
+    main()

@@ -7,7 +7,7 @@
 //! [`check_normality`]).
 
 use super::StatsError;
-use crate::stats::accumulate::{magnitude_exponent, scale_by_power_of_two};
+use crate::stats::accumulate::{compensated_sum, magnitude_exponent, scale_by_power_of_two};
 use crate::stats::dist;
 
 /// Largest sample size for which Royston's Shapiro-Wilk approximation is published.
@@ -154,23 +154,6 @@ fn at_unit_scale(values: &[f64]) -> Option<(Vec<f64>, i32)> {
             exponent,
         )
     })
-}
-
-/// Sum by Neumaier's compensated summation (error about one rounding, independent of the
-/// number of terms, where a plain sum of n terms loses about sqrt(n) roundings).
-fn compensated_sum(terms: impl IntoIterator<Item = f64>) -> f64 {
-    let mut sum = 0.0_f64;
-    let mut compensation = 0.0_f64;
-    for term in terms {
-        let total = sum + term;
-        compensation += if sum.abs() >= term.abs() {
-            (sum - total) + term
-        } else {
-            (term - total) + sum
-        };
-        sum = total;
-    }
-    sum + compensation
 }
 
 /// Mean and sum of squared deviations (two passes, each sum compensated: the p-values
