@@ -497,6 +497,9 @@ fn ranks_and_checks(
     (rank_based, checks, notes)
 }
 
+/// Values of each condition, one list per condition.
+type Groups = Vec<Vec<f64>>;
+
 /// The values of each condition less one common centre, the typed decimals differenced
 /// exactly ([`centre_values`]), and the residuals about each condition's mean formed from
 /// those deviations. Every model check is unchanged by a shift of all values, and at an
@@ -505,7 +508,7 @@ fn ranks_and_checks(
 /// deviations they keep every digit. `None` when a deviation leaves the range of the
 /// arithmetic (values near the largest double of both signs): the values are used as
 /// they are.
-fn centred_groups(group_values: &[Vec<f64>]) -> Option<(Vec<Vec<f64>>, Vec<Vec<f64>>)> {
+fn centred_groups(group_values: &[Vec<f64>]) -> Option<(Groups, Groups)> {
     let all: Vec<f64> = group_values.iter().flatten().copied().collect();
     let centred = centre_values(&all);
     if centred.deviations.iter().any(|deviation| !deviation.is_finite()) {
