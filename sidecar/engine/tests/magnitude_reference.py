@@ -80,11 +80,16 @@ def show(x):
     return mp.nstr(x, 17, min_fixed=1, max_fixed=0)
 
 
-for magnitude in ["1"] + MAGNITUDES:
-    groups = data_at("1e0") if magnitude == "1" else data_at(magnitude)
-    f, p, pooled = oneway(groups)
-    wf, wp = welch(groups)
-    print(f"// magnitude {magnitude}")
-    print(f"f {show(f)} p {show(p)} pooled_sd {show(pooled)}")
-    print("sds " + " ".join(show(mp.sqrt(var(g))) for g in groups))
-    print(f"welch_f {show(wf)} welch_p {show(wp)} levene_f {show(levene(groups))} bartlett {show(bartlett(groups))}")
+def main():
+    for magnitude in ["1"] + MAGNITUDES:
+        groups = data_at("1e0") if magnitude == "1" else data_at(magnitude)
+        f, p, pooled = oneway(groups)
+        wf, wp = welch(groups)
+        print(f"// magnitude {magnitude}")
+        print(f"f {show(f)} p {show(p)} pooled_sd {show(pooled)}")
+        print("sds " + " ".join(show(mp.sqrt(var(g))) for g in groups))
+        print(f"welch_f {show(wf)} welch_p {show(wp)} levene_f {show(levene(groups))} bartlett {show(bartlett(groups))}")
+
+
+if __name__ == "__main__":
+    main()

@@ -19,6 +19,7 @@ use crate::analysis::comparisons::{
 };
 use crate::analysis::oneway::OneWayFit;
 use crate::options::Direction;
+use crate::stats::accumulate::{centre_values, compensated_sum};
 use crate::stats::normality::check_normality_thinned;
 use crate::stats::ranks::{rank_analysis, RankOutcome};
 use crate::stats::spread::{bartlett, levene, sd_ratio, Centre};
@@ -496,6 +497,36 @@ fn ranks_and_checks(
     (rank_based, checks, notes)
 }
 
+/// Values of each condition, one list per condition.
+type Groups = Vec<Vec<f64>>;
+
+/// The values of each condition less one common centre, the typed decimals differenced
+/// exactly ([`centre_values`]), and the residuals about each condition's mean formed from
+/// those deviations. Every model check is unchanged by a shift of all values, and at an
+/// offset such as 1e9 the doubles of the values are 1e-7 from the typed decimals, so
+/// spreads and residuals of 1e-2 taken from them keep only five digits; from the
+/// deviations they keep every digit. `None` when a deviation leaves the range of the
+/// arithmetic (values near the largest double of both signs): the values are used as
+/// they are.
+fn centred_groups(group_values: &[Vec<f64>]) -> Option<(Groups, Groups)> {
+    let all: Vec<f64> = group_values.iter().flatten().copied().collect();
+    let centred = centre_values(&all);
+    if centred.deviations.iter().any(|deviation| !deviation.is_finite()) {
+        return None;
+    }
+    let mut rest = centred.deviations.as_slice();
+    let mut deviations = Vec::with_capacity(group_values.len());
+    let mut residuals = Vec::with_capacity(group_values.len());
+    for values in group_values {
+        let (own, after) = rest.split_at(values.len());
+        rest = after;
+        let mean = compensated_sum(own.iter().copied()) / own.len().max(1) as f64;
+        residuals.push(own.iter().map(|deviation| deviation - mean).collect());
+        deviations.push(own.to_vec());
+    }
+    Some((deviations, residuals))
+}
+
 fn model_checks(
     fit: &OneWayFit,
     group_values: &[Vec<f64>],
@@ -503,6 +534,21 @@ fn model_checks(
     slices: &[&[f64]],
     notes: &mut Vec<String>,
 ) -> ModelChecks {
+    let (deviations, centred_residuals) = centred_groups(group_values).unzip();
+    let centred_slices: Option<Vec<&[f64]>> = deviations
+        .as_ref()
+        .map(|deviations| deviations.iter().map(Vec::as_slice).collect());
+    let slices: &[&[f64]] = centred_slices.as_deref().unwrap_or(slices);
+    // Residuals about each condition's mean.
+    let group_residuals: Vec<Vec<f64>> = match centred_residuals {
+        Some(residuals) => residuals,
+        None => fit
+            .conditions
+            .iter()
+            .zip(group_values)
+            .map(|(condition, values)| values.iter().map(|value| value - condition.mean).collect())
+            .collect(),
+    };
     let spread_test = |name: &str, test: crate::stats::spread::LeveneTest| SpreadTest {
         test: name.to_string(),
         statistic: test.statistic,
@@ -521,13 +567,12 @@ fn model_checks(
     });
     let ratio = note(notes, "SD ratio", sd_ratio(slices)).map(|ratio| ratio.ratio);
 
-    // Residuals about each condition's mean.
     let mut residuals = Vec::with_capacity(fit.n_total as usize);
     let mut fitted_residual = Vec::with_capacity(fit.n_total as usize);
-    for (condition, values) in fit.conditions.iter().zip(group_values) {
-        for value in values {
-            residuals.push(value - condition.mean);
-            fitted_residual.push((condition.mean, value - condition.mean));
+    for (condition, own) in fit.conditions.iter().zip(&group_residuals) {
+        for &residual in own {
+            residuals.push(residual);
+            fitted_residual.push((condition.mean, residual));
         }
     }
     let mut probability_points = Vec::new();
@@ -566,13 +611,19 @@ fn model_checks(
     let n_total = fit.n_total as f64;
     let df_external = fit.pooled_df - 1.0;
     if df_external > 0.0 && fit.pooled_sd > 0.0 {
-        for ((condition, values), records) in fit.conditions.iter().zip(group_values).zip(group_records) {
+        for (((condition, values), own), records) in fit
+            .conditions
+            .iter()
+            .zip(group_values)
+            .zip(&group_residuals)
+            .zip(group_records)
+        {
             let leverage = 1.0 / condition.n as f64;
             if leverage >= 1.0 {
                 continue;
             }
-            for (value, &record) in values.iter().zip(records) {
-                let internal = (value - condition.mean) / (fit.pooled_sd * (1.0 - leverage).sqrt());
+            for ((value, residual), &record) in values.iter().zip(own).zip(records) {
+                let internal = residual / (fit.pooled_sd * (1.0 - leverage).sqrt());
                 let denominator = fit.pooled_df - internal * internal;
                 if denominator <= 0.0 {
                     continue;

@@ -272,6 +272,23 @@ pub struct CentredValues {
     pub exact_decimal: bool,
 }
 
+/// Sum by Neumaier's compensated summation (error about one rounding, independent of the
+/// number of terms, where a plain sum of n terms loses about sqrt(n) roundings).
+pub fn compensated_sum(terms: impl IntoIterator<Item = f64>) -> f64 {
+    let mut sum = 0.0_f64;
+    let mut compensation = 0.0_f64;
+    for term in terms {
+        let total = sum + term;
+        compensation += if sum.abs() >= term.abs() {
+            (sum - total) + term
+        } else {
+            (term - total) + sum
+        };
+        sum = total;
+    }
+    sum + compensation
+}
+
 /// The first step of "accumulate, centre, solve" for models fitted to data at a large
 /// offset (k-way, two-level and second-order models): each value minus a common centre.
 ///

@@ -7,7 +7,7 @@
 //! [`check_normality`]).
 
 use super::StatsError;
-use crate::stats::accumulate::{magnitude_exponent, scale_by_power_of_two};
+use crate::stats::accumulate::{compensated_sum, magnitude_exponent, scale_by_power_of_two};
 use crate::stats::dist;
 
 /// Largest sample size for which Royston's Shapiro-Wilk approximation is published.
@@ -156,10 +156,11 @@ fn at_unit_scale(values: &[f64]) -> Option<(Vec<f64>, i32)> {
     })
 }
 
-/// Mean and sum of squared deviations (two passes).
+/// Mean and sum of squared deviations (two passes, each sum compensated: the p-values
+/// deep in the tail magnify the relative error of W and A² by up to a few hundred).
 fn mean_and_ssq(values: &[f64]) -> (f64, f64) {
-    let mean = values.iter().sum::<f64>() / values.len() as f64;
-    let ssq = values.iter().map(|v| (v - mean) * (v - mean)).sum();
+    let mean = compensated_sum(values.iter().copied()) / values.len() as f64;
+    let ssq = compensated_sum(values.iter().map(|v| (v - mean) * (v - mean)));
     (mean, ssq)
 }
 
@@ -264,11 +265,12 @@ pub fn shapiro_wilk_sorted(sorted: &[f64]) -> Result<ShapiroWilk, StatsError> {
         std::f64::consts::FRAC_1_SQRT_2 * (sorted[2] - sorted[0])
     } else {
         let coefficients = shapiro_wilk_coefficients(n);
-        coefficients
-            .iter()
-            .enumerate()
-            .map(|(j, a)| a * (sorted[n - 1 - j] - sorted[j]))
-            .sum::<f64>()
+        compensated_sum(
+            coefficients
+                .iter()
+                .enumerate()
+                .map(|(j, a)| a * (sorted[n - 1 - j] - sorted[j])),
+        )
     };
     let w = (numerator * numerator / ssq).min(1.0);
 
@@ -288,7 +290,7 @@ fn shapiro_wilk_coefficients(n: usize) -> Vec<f64> {
     let mut m: Vec<f64> = (0..half)
         .map(|j| -normal_quantile((j as f64 + 1.0 - 0.375) / (n_f + 0.25)))
         .collect();
-    let m_sum_squares = 2.0 * m.iter().map(|v| v * v).sum::<f64>();
+    let m_sum_squares = 2.0 * compensated_sum(m.iter().map(|v| v * v));
     let u = 1.0 / n_f.sqrt();
     let root = m_sum_squares.sqrt();
     let a_largest = m[0] / root + polynomial(&LARGEST, u);
@@ -393,20 +395,10 @@ pub fn anderson_darling_sorted(sorted: &[f64]) -> Result<AndersonDarling, StatsE
     // Σ (2i - 1)[ln Φ(z_(i)) + ln Φ(-z_(n+1-i))], regrouped so each z needs one tail,
     // accumulated with Neumaier's compensated summation (A² is a small difference of
     // large sums).
-    let mut sum = 0.0_f64;
-    let mut compensation = 0.0_f64;
-    for (i, value) in sorted.iter().enumerate() {
+    let sum = compensated_sum(sorted.iter().enumerate().map(|(i, value)| {
         let (ln_cdf, ln_sf) = ln_normal_cdf_both((value - mean) / sd);
-        let term = (2.0 * i as f64 + 1.0) * ln_cdf + (2.0 * (n - i) as f64 - 1.0) * ln_sf;
-        let total = sum + term;
-        compensation += if sum.abs() >= term.abs() {
-            (sum - total) + term
-        } else {
-            (term - total) + sum
-        };
-        sum = total;
-    }
-    let sum = sum + compensation;
+        (2.0 * i as f64 + 1.0) * ln_cdf + (2.0 * (n - i) as f64 - 1.0) * ln_sf
+    }));
     let a_squared = -n_f - sum / n_f;
     let a_squared_adjusted = a_squared * (1.0 + 0.75 / n_f + 2.25 / (n_f * n_f));
     Ok(AndersonDarling {

@@ -291,16 +291,20 @@ fn bartlett_at_scale(groups: &[&[f64]]) -> Result<BartlettTest, StatsError> {
         .map(|(g, v)| (g.len() as f64 - 1.0) * v)
         .sum::<f64>()
         / df_within;
-    let weighted_logs: f64 = groups
+    // df_within ln(s_p^2) - sum (n_i - 1) ln(s_i^2) is a small difference of large
+    // logarithms (about 4000 times smaller on a trial with 1 % spread, so it kept 12
+    // digits). With u_i = s_i^2 / s_p^2 - 1 and sum (n_i - 1) u_i = 0 it equals
+    // sum (n_i - 1) (u_i - ln(1 + u_i)), a sum of non-negative terms of second order in
+    // u_i that no longer depends on the rounding of s_p^2 to first order.
+    let numerator: f64 = groups
         .iter()
         .zip(&variances)
-        .map(|(g, v)| (g.len() as f64 - 1.0) * v.ln())
+        .map(|(g, v)| (g.len() as f64 - 1.0) * excess_over_log((v - pooled_variance) / pooled_variance))
         .sum();
     let reciprocal_sum: f64 = groups.iter().map(|g| 1.0 / (g.len() as f64 - 1.0)).sum();
     let df = (n_groups - 1) as f64;
     let correction = 1.0 + (reciprocal_sum - 1.0 / df_within) / (3.0 * df);
-    // Rounding can leave a tiny negative value when all variances are equal.
-    let statistic = ((df_within * pooled_variance.ln() - weighted_logs) / correction).max(0.0);
+    let statistic = (numerator / correction).max(0.0);
     Ok(BartlettTest {
         statistic,
         df,
@@ -308,6 +312,27 @@ fn bartlett_at_scale(groups: &[&[f64]]) -> Result<BartlettTest, StatsError> {
         pooled_variance,
         correction,
     })
+}
+
+/// u - ln(1 + u) for u > -1, without the cancellation of the direct form near 0: there
+/// the series u^2/2 - u^3/3 + u^4/4 - ... (alternating, each term below the last for
+/// |u| < 1/4; common practice).
+fn excess_over_log(u: f64) -> f64 {
+    if u.abs() >= 0.25 {
+        return u - u.ln_1p();
+    }
+    let mut total = 0.0_f64;
+    let mut power = u * u;
+    let mut k = 2.0_f64;
+    loop {
+        let term = power / k;
+        total += if k % 2.0 == 0.0 { term } else { -term };
+        if term.abs() <= 1e-17 * total.abs() {
+            return total;
+        }
+        power *= u;
+        k += 1.0;
+    }
 }
 
 /// Ratio of the largest to the smallest group standard deviation (a rule-of-thumb check;

@@ -760,7 +760,17 @@ pub fn analyse_two_level_in_layout(
     } else {
         None
     };
-    let yates = yates_effects(&cell_means)?;
+    // With every cell run equally often, Yates's algorithm runs on the cell sums and
+    // the one division by the count comes last: sums of short values are exact, so a
+    // small effect beside large ones is not built from rounded cell means (each
+    // rounding is magnified by the ratio of the largest cell mean to the effect).
+    let yates = match order.cell_counts.first() {
+        Some(&count) if order.cell_counts.iter().all(|&r| r == count) => yates_effects(&sums)?
+            .into_iter()
+            .map(|value| value / count as f64)
+            .collect(),
+        _ => yates_effects(&cell_means)?,
+    };
     let inverse_count_sum: f64 = order.cell_counts.iter().map(|&r| 1.0 / r as f64).sum();
     let effect_se = pure_error_variance
         .map(|v| (4.0 * v * inverse_count_sum).sqrt() / n_cells as f64)
