@@ -9,9 +9,11 @@
 //! squares together, the 'Square' line of the second-order analysis.
 
 use engine::analysis::surface_power::{second_order_power, SecondOrderPower};
+/// Which response-surface plan (re-exported for front ends).
+pub use engine::design::surface::SurfaceKind;
 use engine::design::surface::{
     make_box_behnken, make_central_composite, AxialDistance, BoxBehnkenRequest, CompositeRequest, CubePart,
-    SurfaceFactor, SurfaceKind,
+    SurfaceFactor,
 };
 use engine::stats::StatsError;
 
