@@ -158,7 +158,17 @@ pub fn add_contour_sheet(results: &WorkbookResults, book: &mut Book) {
     sheet.widths = vec![(0, NOTE_WIDTH)];
     sheet.put(0, 0, Value::text("Maps of the fitted surfaces"), Look::Title);
     let mut row = 1;
-    let mut pages: Vec<(String, Picture)> = Vec::new();
+    // The maps to draw: (heading, outcome, response, unit, pair, held settings, their name).
+    type Job<'a> = (
+        String,
+        &'a SurfaceOutcome,
+        &'a str,
+        Option<&'a str>,
+        (usize, usize),
+        Vec<f64>,
+        &'static str,
+    );
+    let mut jobs: Vec<Job<'_>> = Vec::new();
     for (response, outcome) in &analysed {
         let choice = important_factors(outcome, alpha);
         let (held, held_words) = held_settings(outcome);
@@ -187,24 +197,60 @@ pub fn add_contour_sheet(results: &WorkbookResults, book: &mut Book) {
         );
         row += 1;
         for (first, second) in pairs {
-            let picture = draw_pair(
-                outcome,
-                &response.name,
-                response.unit.as_deref(),
-                first,
-                second,
-                &held,
-                held_words,
-            );
-            pages.push((
+            jobs.push((
                 format!(
                     "{}: {} and {}",
                     response.name, outcome.factor_names[first], outcome.factor_names[second]
                 ),
-                picture,
+                outcome,
+                response.name.as_str(),
+                response.unit.as_deref(),
+                (first, second),
+                held.clone(),
+                held_words,
             ));
         }
     }
+    // Drawn on as many threads as the machine offers, each taking every n-th map.
+    let threads = std::thread::available_parallelism()
+        .map_or(1, usize::from)
+        .clamp(1, jobs.len().max(1));
+    let mut drawn: Vec<Option<Picture>> = vec![None; jobs.len()];
+    std::thread::scope(|scope| {
+        let handles: Vec<_> = (0..threads)
+            .map(|offset| {
+                let jobs = &jobs;
+                scope.spawn(move || {
+                    jobs.iter()
+                        .enumerate()
+                        .skip(offset)
+                        .step_by(threads)
+                        .map(
+                            |(index, (_, outcome, response, unit, (first, second), held, held_words))| {
+                                (
+                                    index,
+                                    draw_pair(outcome, response, *unit, *first, *second, held, held_words),
+                                )
+                            },
+                        )
+                        .collect::<Vec<_>>()
+                })
+            })
+            .collect();
+        for handle in handles {
+            // A drawing thread cannot panic on finite input; a map lost to one is left out.
+            if let Ok(pictures) = handle.join() {
+                for (index, picture) in pictures {
+                    drawn[index] = Some(picture);
+                }
+            }
+        }
+    });
+    let pages: Vec<(String, Picture)> = jobs
+        .into_iter()
+        .zip(drawn)
+        .filter_map(|(job, picture)| picture.map(|picture| (job.0, picture)))
+        .collect();
     sheet.paragraph(
         row,
         0,
