@@ -354,15 +354,15 @@ mod surface_size_tests {
                 curvature: 0.8,
             }
         );
-        let missing = size_params(&serde_json::json!({ "factors": 3, "design": "box-behnken", "sd": 1.0 }))
-            .err()
-            .expect("refused");
+        let Err(missing) = size_params(&serde_json::json!({ "factors": 3, "design": "box-behnken", "sd": 1.0 })) else {
+            panic!("a question without its curvature was read");
+        };
         assert!(format!("{missing:?}").contains("params.curvature"), "{missing:?}");
-        let wrong = size_params(&serde_json::json!({
+        let Err(wrong) = size_params(&serde_json::json!({
             "factors": 3, "design": "box-behnken", "curvature": 1.0, "axial": 1.5, "sd": 1.0
-        }))
-        .err()
-        .expect("refused");
+        })) else {
+            panic!("a Box-Behnken question with an axial distance was read");
+        };
         assert!(format!("{wrong:?}").contains("params.axial"), "{wrong:?}");
     }
 }
