@@ -36,5 +36,6 @@ mod settings_sheet_names;
 mod sign_convention;
 mod spaced_rows;
 mod surface_lead;
+mod surface_maps_and_size;
 mod table_shapes;
 mod watch;

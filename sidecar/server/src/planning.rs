@@ -254,10 +254,65 @@ pub fn plan_params(params: &Value) -> Result<PlanParams, ParamsError> {
     })
 }
 
+/// The response-surface plan of a size question: `design` ("central-composite" or
+/// "box-behnken"), `curvature`, optional `centrePoints` and (central composite) `axial`
+/// ("rotatable", "faces" or a distance in coded units).
+fn surface_size_design(map: &Map<String, Value>, factors: usize) -> Result<SizeDesign, ParamsError> {
+    use service::plan::size_surface::SurfaceKind;
+    let plan = match map.get("design") {
+        Some(Value::String(text)) if text == "central-composite" => SurfaceKind::CentralComposite,
+        Some(Value::String(text)) if text == "box-behnken" => SurfaceKind::BoxBehnken,
+        Some(other) => {
+            return Err(error(
+                "params.design",
+                format!(
+                    "expected \"central-composite\" or \"box-behnken\", got {}",
+                    describe(other)
+                ),
+            ))
+        }
+        None => return Err(error("params.design", "missing")),
+    };
+    let curvature = optional_number(map, "curvature")?.ok_or_else(|| {
+        error(
+            "params.curvature",
+            "missing; a response-surface plan needs the curvature worth detecting (a square term's coefficient in coded units)",
+        )
+    })?;
+    let axial = match (plan, map.get("axial")) {
+        (_, None | Some(Value::Null)) => None,
+        (SurfaceKind::BoxBehnken, Some(_)) => {
+            return Err(error("params.axial", "a Box-Behnken plan has no axial runs"));
+        }
+        (_, Some(Value::String(text))) if text == "rotatable" => None,
+        (_, Some(Value::String(text))) if text == "faces" => Some(1.0),
+        (_, Some(value)) => match value.as_f64() {
+            Some(distance) if distance.is_finite() && distance > 0.0 => Some(distance),
+            _ => {
+                return Err(error(
+                    "params.axial",
+                    format!(
+                        "expected \"rotatable\", \"faces\" or a positive distance in coded units, got {}",
+                        describe(value)
+                    ),
+                ))
+            }
+        },
+    };
+    Ok(SizeDesign::Surface {
+        plan,
+        factors,
+        centre_points: optional_count(map, "centrePoints")?.unwrap_or(0),
+        axial,
+        curvature,
+    })
+}
+
 /// Reads the params of `trialyst/sizeTrial`. A one-factor trial gives
 /// `conditions` and `smallestDifference`, or `means`; a two-level trial
 /// gives `factors` (a count) and `effect`, with optional
-/// `runsPerReplicate`, `centrePoints` and `mainEffectsOnly`. Both give
+/// `runsPerReplicate`, `centrePoints` and `mainEffectsOnly`; a response-surface plan
+/// gives `factors` with `design` and `curvature` (see [`surface_size_design`]). All give
 /// `sd`, and optionally `alpha`, `power` and (one factor) `halfWidth`.
 ///
 /// # Errors
@@ -273,6 +328,7 @@ pub fn size_params(params: &Value) -> Result<SizeParams, ParamsError> {
     })?;
     let two_level = optional_count(map, "factors")?;
     let design = match two_level {
+        Some(factors) if map.get("design").is_some_and(|value| !value.is_null()) => surface_size_design(map, factors)?,
         Some(factors) => SizeDesign::TwoLevel {
             factors,
             runs_per_replicate: optional_count(map, "runsPerReplicate")?,
@@ -340,4 +396,38 @@ pub fn size_params(params: &Value) -> Result<SizeParams, ParamsError> {
         request,
         work_done_token: work_done_token(map)?,
     })
+}
+
+#[cfg(test)]
+mod surface_size_tests {
+    use super::*;
+
+    #[test]
+    fn a_surface_size_question_is_read_with_its_fields() {
+        let params = serde_json::json!({
+            "factors": 3, "design": "central-composite", "curvature": 0.8, "centrePoints": 6,
+            "axial": "faces", "sd": 1.0
+        });
+        let read = size_params(&params).expect("read");
+        assert_eq!(
+            read.request.design,
+            SizeDesign::Surface {
+                plan: service::plan::size_surface::SurfaceKind::CentralComposite,
+                factors: 3,
+                centre_points: 6,
+                axial: Some(1.0),
+                curvature: 0.8,
+            }
+        );
+        let Err(missing) = size_params(&serde_json::json!({ "factors": 3, "design": "box-behnken", "sd": 1.0 })) else {
+            panic!("a question without its curvature was read");
+        };
+        assert!(format!("{missing:?}").contains("params.curvature"), "{missing:?}");
+        let Err(wrong) = size_params(&serde_json::json!({
+            "factors": 3, "design": "box-behnken", "curvature": 1.0, "axial": 1.5, "sd": 1.0
+        })) else {
+            panic!("a Box-Behnken question with an axial distance was read");
+        };
+        assert!(format!("{wrong:?}").contains("params.axial"), "{wrong:?}");
+    }
 }

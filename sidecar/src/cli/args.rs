@@ -111,6 +111,17 @@ pub struct SizeArgs {
     /// Two-level trial: plan a model of main effects only (default: with two-factor interactions).
     #[arg(long)]
     pub main_effects_only: bool,
+    /// Response-surface plan: "central-composite" or "box-behnken", with --factors,
+    /// --curvature and --centre-points (the centre runs of one replicate).
+    #[arg(long)]
+    pub design: Option<String>,
+    /// Response-surface plan: the curvature worth detecting, a square term's coefficient
+    /// in coded units (how far the response bends one coded unit from the centre).
+    #[arg(long)]
+    pub curvature: Option<f64>,
+    /// Central composite plan: "rotatable" (default), "faces" or a distance in coded units.
+    #[arg(long)]
+    pub axial: Option<String>,
     /// The SD of a single run.
     #[arg(long)]
     pub sd: Option<f64>,

@@ -24,7 +24,9 @@ fn size_request(args: &SizeArgs) -> Result<service::plan::SizeRequest, String> {
             )
         }
     };
-    let design = if args.factors.is_some() || args.effect.is_some() {
+    let design = if args.design.is_some() || args.curvature.is_some() || args.axial.is_some() {
+        surface_design(args)?
+    } else if args.factors.is_some() || args.effect.is_some() {
         let factors = args.factors.ok_or("a two-level trial needs --factors")?;
         let effect = args
             .effect
@@ -61,6 +63,46 @@ fn size_request(args: &SizeArgs) -> Result<service::plan::SizeRequest, String> {
     })
 }
 
+/// The response-surface plan of a size question.
+fn surface_design(args: &SizeArgs) -> Result<service::plan::size::SizeDesign, String> {
+    use engine::design::surface::SurfaceKind;
+    let plan = match args.design.as_deref() {
+        Some("central-composite") => SurfaceKind::CentralComposite,
+        Some("box-behnken") => SurfaceKind::BoxBehnken,
+        Some(other) => return Err(format!("--design '{other}': write central-composite or box-behnken")),
+        None => return Err("--curvature and --axial go with --design central-composite or box-behnken".into()),
+    };
+    let factors = args.factors.ok_or("a response-surface plan needs --factors")?;
+    let curvature = args
+        .curvature
+        .ok_or("a response-surface plan needs --curvature, the square term worth detecting (coded units)")?;
+    if args.effect.is_some() || args.runs.is_some() || args.main_effects_only {
+        return Err("--effect, --runs and --main-effects-only go with two-level trials, not with --design".into());
+    }
+    let axial = match (plan, args.axial.as_deref()) {
+        (_, None) | (SurfaceKind::CentralComposite, Some("rotatable")) => None,
+        (SurfaceKind::CentralComposite, Some("faces")) => Some(1.0),
+        (SurfaceKind::CentralComposite, Some(text)) => match text.trim().parse::<f64>() {
+            Ok(distance) if distance.is_finite() && distance > 0.0 => Some(distance),
+            _ => {
+                return Err(format!(
+                    "--axial '{text}': write rotatable, faces or a positive distance in coded units, e.g. 1.5"
+                ))
+            }
+        },
+        (SurfaceKind::BoxBehnken, Some(_)) => {
+            return Err("--axial goes with --design central-composite; a Box-Behnken plan has no axial runs".into())
+        }
+    };
+    Ok(service::plan::size::SizeDesign::Surface {
+        plan,
+        factors,
+        centre_points: args.centre_points,
+        axial,
+        curvature,
+    })
+}
+
 /// `trialyst size`: prints (and writes) the power table; returns the exit code.
 pub(crate) fn size_command(args: SizeArgs) -> i32 {
     let request = match size_request(&args) {
@@ -76,7 +118,10 @@ pub(crate) fn size_command(args: SizeArgs) -> i32 {
             eprintln!("trialyst: {}", error_chain(&error));
             // An input outside what the computation accepts (one condition, a power of
             // 1) is a usage error like any other bad option.
-            return if matches!(error, service::plan::SizeError::Stats(_)) {
+            return if matches!(
+                error,
+                service::plan::SizeError::Stats(_) | service::plan::SizeError::Plan(_)
+            ) {
                 EXIT_USAGE
             } else {
                 EXIT_SOME_FAILED
@@ -113,22 +158,51 @@ pub(crate) fn size_command(args: SizeArgs) -> i32 {
             half.wanted, half.per_condition, half.total_runs, half.reached
         );
     }
-    let _ = writeln!(
-        out,
-        "{:>20} {:>12} {:>12} {:>8}",
-        answer.count_means, "runs in all", "residual df", "power"
-    );
-    for row in &answer.table {
-        let power = if row.power.is_nan() {
+    let grouped = answer.table.iter().any(|row| row.group_power.is_some());
+    let shown = |power: f64| {
+        if power.is_nan() {
             "-".to_string()
         } else {
-            format!("{:.3}", row.power)
-        };
+            format!("{power:.3}")
+        }
+    };
+    if grouped {
+        let _ = writeln!(
+            out,
+            "{:>20} {:>12} {:>12} {:>12} {:>12}",
+            answer.count_means, "runs in all", "residual df", "each square", "all squares"
+        );
+    } else {
         let _ = writeln!(
             out,
             "{:>20} {:>12} {:>12} {:>8}",
-            row.count, row.total_runs, row.residual_df, power
+            answer.count_means, "runs in all", "residual df", "power"
         );
+    }
+    for row in &answer.table {
+        match row.group_power {
+            Some(group) => {
+                let _ = writeln!(
+                    out,
+                    "{:>20} {:>12} {:>12} {:>12} {:>12}",
+                    row.count,
+                    row.total_runs,
+                    row.residual_df,
+                    shown(row.power),
+                    shown(group)
+                );
+            }
+            None => {
+                let _ = writeln!(
+                    out,
+                    "{:>20} {:>12} {:>12} {:>8}",
+                    row.count,
+                    row.total_runs,
+                    row.residual_df,
+                    shown(row.power)
+                );
+            }
+        }
     }
     for note in &answer.notes {
         let _ = writeln!(out, "note: {note}");

@@ -16,7 +16,7 @@ use rust_xlsxwriter::{
     Chart, ChartAxisLabelPosition, ChartDataLabel, ChartEmptyCells, ChartErrorBars, ChartErrorBarsType, ChartFont,
     ChartFormat, ChartLine, ChartMarker, ChartMarkerType, ChartRange, ChartSolidFill, Color, DataValidation,
     DataValidationErrorStyle, DataValidationRule, DocProperties, ExcelDateTime, Format, FormatAlign, FormatBorder,
-    Formula, Workbook as XlsxWorkbook, XlsxError,
+    Formula, Image, Workbook as XlsxWorkbook, XlsxError,
 };
 
 /// The longest text a cell may hold in xlsx.
@@ -257,6 +257,22 @@ pub struct ChartSpec {
     pub value_limits: Option<(f64, f64)>,
 }
 
+/// A picture (a PNG image made by the caller) placed on a sheet. Pictures count in the
+/// print plan like charts (see [`print`]): the caller sizes and places them so that no
+/// cell with content lies beneath.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Picture {
+    /// The PNG file's bytes.
+    pub png: Vec<u8>,
+    /// Top-left cell (row, column) where the picture is placed.
+    pub anchor: (u32, u16),
+    /// Width and height shown, in pixels at 96 an inch (the image may hold more pixels,
+    /// for print, and is scaled to this size).
+    pub size: (u32, u32),
+    /// What the picture shows, in words, for readers that cannot see it.
+    pub description: String,
+}
+
 /// One sheet of a book.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Sheet {
@@ -268,6 +284,8 @@ pub struct Sheet {
     pub cells: Vec<Placed>,
     /// The charts.
     pub charts: Vec<ChartSpec>,
+    /// The pictures.
+    pub pictures: Vec<Picture>,
     /// Rows frozen at the top (0 for none).
     pub frozen_rows: u32,
     /// Row heights in points, by row, for rows of wrapped text.
@@ -799,6 +817,13 @@ fn build(book: &Book, options: &WriteOptions) -> Result<XlsxWorkbook, XlsxError>
         for (spec, height) in sheet.charts.iter().zip(&layout.chart_heights) {
             let chart = build_chart(spec, *height, &cells);
             worksheet.insert_chart(spec.anchor.0, spec.anchor.1, &chart)?;
+        }
+        for picture in &sheet.pictures {
+            let image = Image::new_from_buffer(&picture.png)?
+                .set_width(picture.size.0)
+                .set_height(picture.size.1)
+                .set_alt_text(picture.description.as_str());
+            worksheet.insert_image(picture.anchor.0, picture.anchor.1, &image)?;
         }
     }
     Ok(workbook)

@@ -182,6 +182,14 @@ pub fn plan_sheet(sheet: &Sheet) -> SheetPrint {
         }
         last_col = last_col.max(col);
     }
+    for picture in &sheet.pictures {
+        let right = left_of(picture.anchor.1) + f64::from(picture.size.0) * 0.75;
+        let mut col = picture.anchor.1;
+        while left_of(col + 1) < right {
+            col += 1;
+        }
+        last_col = last_col.max(col);
+    }
     let content_width = left_of(last_col + 1);
     let fitting = (100.0 * page_width / content_width.max(1.0)).floor();
     let scale = fitting.clamp(f64::from(MIN_SCALE), 100.0) as u16;
@@ -257,6 +265,17 @@ pub fn plan_sheet(sheet: &Sheet) -> SheetPrint {
             bottom += 1;
         }
         chart_rows.push((chart.anchor.0, bottom.saturating_sub(1)));
+    }
+    // Pictures keep their size (the caller fits them to a page) and move like charts.
+    for picture in &sheet.pictures {
+        let mut bottom = picture.anchor.0;
+        let mut covered = 0.0;
+        let points = f64::from(picture.size.1) * 0.75;
+        while covered < points {
+            covered += height_of(bottom);
+            bottom += 1;
+        }
+        chart_rows.push((picture.anchor.0, bottom.saturating_sub(1)));
     }
     let last_row = occupied
         .keys()

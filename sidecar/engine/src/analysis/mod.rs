@@ -13,4 +13,5 @@ pub mod off_plan;
 pub mod oneway;
 pub mod power;
 pub mod surface;
+pub mod surface_power;
 pub mod verdict;

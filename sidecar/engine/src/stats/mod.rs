@@ -54,6 +54,12 @@ pub enum StatsError {
         /// How many there were.
         got: usize,
     },
+    /// A matrix that must be inverted is singular.
+    #[error("{what} is singular")]
+    Singular {
+        /// What the matrix is.
+        what: &'static str,
+    },
     /// An iteration did not reach its tolerance.
     #[error("{what} did not converge after {iterations} iterations")]
     NoConvergence {

@@ -18,6 +18,7 @@ pub mod next;
 #[cfg(test)]
 mod shown_tests;
 pub mod size;
+pub mod size_surface;
 pub mod surface_choice;
 
 use std::path::Path;

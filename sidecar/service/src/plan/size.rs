@@ -47,6 +47,21 @@ pub enum SizeDesign {
         /// The effect (difference of averages, high minus low) worth detecting.
         effect: f64,
     },
+    /// A response-surface plan (central composite or Box-Behnken), replicated whole,
+    /// for the tests of its square terms (see [`super::size_surface`]).
+    Surface {
+        /// Which plan.
+        plan: engine::design::surface::SurfaceKind,
+        /// Number of factors.
+        factors: usize,
+        /// Centre runs in one replicate.
+        centre_points: usize,
+        /// The axial distance of a central composite plan in coded units; `None` for the
+        /// rotatable distance.
+        axial: Option<f64>,
+        /// The curvature worth detecting: a square term's coefficient in coded units.
+        curvature: f64,
+    },
 }
 
 /// Where the planning SD comes from.
@@ -99,6 +114,9 @@ pub enum SizeError {
     /// The workbook could not be written.
     #[error(transparent)]
     Write(#[from] workbook_io::write::WriteError),
+    /// The plan to be sized cannot be made.
+    #[error("{0}")]
+    Plan(String),
     /// The caller asked to stop before the answer was complete.
     #[error("the size question was cancelled before it was answered")]
     Cancelled,
@@ -126,6 +144,10 @@ pub struct PowerRow {
     pub residual_df: usize,
     /// Power; NaN where the test cannot be made (no residual df).
     pub power: f64,
+    /// For a response-surface plan: the power of the test of all square terms together
+    /// (`power` is then the least power among the tests of single square terms).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub group_power: Option<f64>,
 }
 
 /// The runs needed for the wanted power.
@@ -356,6 +378,7 @@ pub fn size_answer_until(request: &SizeRequest, cancel: &CancelFlag) -> Result<S
                     total_runs: count * conditions,
                     residual_df: conditions * (count - 1),
                     power: one_way_power(count, *conditions, effect, sd, alpha)?,
+                    group_power: None,
                 });
             }
             let what = match effect {
@@ -412,6 +435,7 @@ pub fn size_answer_until(request: &SizeRequest, cancel: &CancelFlag) -> Result<S
                     total_runs,
                     residual_df,
                     power,
+                    group_power: None,
                 })
             };
             let mut needed_count = None;
@@ -479,6 +503,25 @@ pub fn size_answer_until(request: &SizeRequest, cancel: &CancelFlag) -> Result<S
                 notes,
             })
         }
+        SizeDesign::Surface {
+            plan,
+            factors,
+            centre_points,
+            axial,
+            curvature,
+        } => super::size_surface::surface_answer(
+            request,
+            super::size_surface::SurfaceQuestion {
+                plan: *plan,
+                factors: *factors,
+                centre_points: *centre_points,
+                axial: *axial,
+                curvature: *curvature,
+            },
+            (sd, sd_from, sd_df),
+            notes,
+            &stop,
+        ),
     }
 }
 
@@ -543,14 +586,21 @@ pub fn size_book(answer: &SizeAnswer) -> Book {
                 Value::integer(row.residual_df as f64),
                 Value::Number(row.power, NumberFormat::Decimals(3)),
             ]
+            .into_iter()
+            .chain(
+                row.group_power
+                    .map(|power| Value::Number(power, NumberFormat::Decimals(3))),
+            )
+            .collect()
         })
         .collect();
-    let end = sheet.spaced_table(
-        header_row,
-        0,
-        &[answer.count_means.as_str(), "runs in all", "residual df", "power"],
-        table_rows,
-    );
+    let mut headers = vec![answer.count_means.as_str(), "runs in all", "residual df", "power"];
+    let grouped = answer.table.iter().any(|row| row.group_power.is_some());
+    if grouped {
+        headers[3] = "power, each square";
+        headers.push("power, squares together");
+    }
+    let end = sheet.spaced_table(header_row, 0, &headers, table_rows);
     if !answer.table.is_empty() {
         sheet.charts.push(ChartSpec {
             kind: ChartKind::Lines,
@@ -565,7 +615,7 @@ pub fn size_book(answer: &SizeAnswer) -> Book {
                 bar_minus: None,
                 labels: None,
             }],
-            anchor: (header_row, 4),
+            anchor: (header_row, if grouped { 5 } else { 4 }),
             size: (520, 320),
             value_limits: Some((0.0, 1.0)),
         });

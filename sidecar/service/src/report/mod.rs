@@ -10,6 +10,7 @@
 
 pub mod assessment;
 mod compromise;
+pub mod contour;
 pub mod document;
 pub mod factorial;
 pub mod problems;
@@ -673,6 +674,7 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     book.sheets.extend(take(assessment::names::OTHER));
     factorial::add_factorial_results(results, &mut book);
     surface::add_surface_results(results, &mut book);
+    contour::add_contour_sheet(results, &mut book);
     book.sheets.push(findings_sheet(&results.findings));
     book.sheets.push(provenance_sheet(results));
     book.sheets.push(document::document_sheet(results));

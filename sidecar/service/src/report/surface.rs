@@ -45,7 +45,16 @@ pub fn add_surface_results(results: &WorkbookResults, book: &mut Book) {
         (5, 14.0),
         (6, 14.0),
     ];
-    let mut row = 0;
+    sheet.put(
+        0,
+        0,
+        Value::text(format!(
+            "Contour maps of each fitted surface are on the sheet '{}'.",
+            super::contour::CONTOUR_SHEET
+        )),
+        Look::Note,
+    );
+    let mut row = 2;
     if let Some(compromise) = &results.compromise {
         super::compromise::compromise_section(&mut sheet, &mut row, compromise);
     }

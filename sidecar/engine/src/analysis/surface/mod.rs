@@ -290,6 +290,8 @@ struct FittedModel {
     t_critical: Option<f64>,
     confidence: f64,
     mean_shift: f64,
+    /// The settings (real units) of each usable record, in the order of `fitted`.
+    run_settings: Vec<Vec<f64>>,
 }
 
 /// Term names of the second-order model, in [`quadratic_terms`] order.
@@ -366,6 +368,12 @@ impl SurfaceOutcome {
         row.extend(std::iter::repeat_n(0.0, self.model.n_block_columns));
         row.extend(quadratic_terms(coded));
         row
+    }
+
+    /// The settings (real units) of each record in the fit, in the order of
+    /// [`SurfaceOutcome::fitted`]: where the runs stand, for pictures of the surface.
+    pub fn run_settings(&self) -> &[Vec<f64>] {
+        &self.model.run_settings
     }
 
     /// The gradient of the fitted surface at coded settings (coded units).
@@ -773,6 +781,7 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
             t_critical,
             confidence: options.confidence,
             mean_shift: mean,
+            run_settings: usable.iter().map(|&record| data.settings[record].clone()).collect(),
         },
     };
     read_surface(&mut outcome, options.direction);

@@ -1,0 +1,133 @@
+//! Through the program: a response-surface trial's results workbook holds the contour
+//! maps (PNG pictures on the sheet 'Surface maps'), and `size` answers for a central
+//! composite plan's square terms. The trial is the invented cure trial of
+//! `surface_lead`; the size reference is scipy 1.17.1 `stats.ncf.sf` with numpy 2.4.6
+//! noncentralities (the engine's `analysis/surface_power/testdata` script).
+
+use std::io::Read;
+
+use crate::common::{put_rows, temp_folder, trialyst, Put};
+
+const CURE_TRIAL: [(f64, f64, f64); 13] = [
+    (150.0, 30.0, 41.48),
+    (140.0, 35.0, 36.73),
+    (150.0, 37.1, 40.51),
+    (135.9, 30.0, 35.32),
+    (150.0, 30.0, 41.25),
+    (140.0, 25.0, 36.32),
+    (150.0, 30.0, 41.95),
+    (150.0, 30.0, 41.88),
+    (150.0, 22.9, 38.07),
+    (160.0, 25.0, 38.76),
+    (160.0, 35.0, 41.68),
+    (164.1, 30.0, 40.22),
+    (150.0, 30.0, 41.98),
+];
+
+#[test]
+fn the_results_workbook_of_a_surface_trial_holds_its_contour_map() {
+    let folder = temp_folder();
+    let mut rows = vec![vec![
+        Put::Text("Cure temp (C)"),
+        Put::Text("Cure time (min)"),
+        Put::Text("Peel strength (N)"),
+    ]];
+    for run in CURE_TRIAL {
+        rows.push(vec![Put::Number(run.0), Put::Number(run.1), Put::Number(run.2)]);
+    }
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let sheet = book.add_worksheet();
+    sheet.set_name("Runs").expect("valid name");
+    put_rows(sheet, &rows);
+    book.save(folder.path().join("cure.xlsx")).expect("saved");
+    let run = trialyst(folder.path(), &["run", "cure.xlsx", "--direction", "higher"]);
+    run.expect_code(0);
+    let written = std::fs::read(folder.path().join("cure.results.xlsx")).expect("results written");
+    let mut archive = zip::ZipArchive::new(std::io::Cursor::new(written)).expect("a zip");
+    let mut workbook = String::new();
+    archive
+        .by_name("xl/workbook.xml")
+        .expect("workbook part")
+        .read_to_string(&mut workbook)
+        .expect("text");
+    // Two factors: one pair, one picture.
+    let names: Vec<&str> = workbook
+        .split("<sheet name=\"")
+        .skip(1)
+        .filter_map(|rest| rest.split('"').next())
+        .collect();
+    let index = names
+        .iter()
+        .position(|name| *name == "Surface maps")
+        .expect("the maps sheet")
+        + 1;
+    let mut relations = String::new();
+    archive
+        .by_name(&format!("xl/worksheets/_rels/sheet{index}.xml.rels"))
+        .expect("the maps sheet's relations")
+        .read_to_string(&mut relations)
+        .expect("text");
+    assert!(relations.contains("relationships/drawing"), "{relations}");
+    let media: Vec<String> = archive
+        .file_names()
+        .filter_map(Result::ok)
+        .filter(|name| name.starts_with("xl/media/") && name.ends_with(".png"))
+        .map(|name| name.to_string())
+        .collect();
+    assert_eq!(media.len(), 1, "{media:?}");
+    let mut png = Vec::new();
+    archive
+        .by_name(&media[0])
+        .expect("image")
+        .read_to_end(&mut png)
+        .expect("bytes");
+    assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
+}
+
+#[test]
+fn size_answers_for_the_square_terms_of_a_composite_plan() {
+    let folder = temp_folder();
+    let run = trialyst(
+        folder.path(),
+        &[
+            "size",
+            "--design",
+            "central-composite",
+            "--factors",
+            "2",
+            "--centre-points",
+            "5",
+            "--curvature",
+            "1",
+            "--sd",
+            "1.5",
+            "--json",
+        ],
+    );
+    run.expect_code(0);
+    let answer: serde_json::Value = serde_json::from_str(run.stdout().trim()).expect("JSON");
+    let first = &answer["table"][0];
+    assert_eq!(first["total_runs"], 13);
+    // scipy 1.17.1: each square 0.3304659142820107, the squares together 0.37432098118202606.
+    assert!((first["power"].as_f64().unwrap_or(0.0) - 0.330_465_914_282_010_7).abs() < 1e-9);
+    assert!((first["group_power"].as_f64().unwrap_or(0.0) - 0.374_320_981_182_026_06).abs() < 1e-9);
+    assert_eq!(answer["needed"]["count"], 3);
+    let refused = trialyst(
+        folder.path(),
+        &[
+            "size",
+            "--design",
+            "box-behnken",
+            "--factors",
+            "3",
+            "--curvature",
+            "1",
+            "--sd",
+            "1",
+            "--axial",
+            "faces",
+        ],
+    );
+    refused.expect_code(2);
+    assert!(refused.stderr().contains("no axial runs"), "{}", refused.report());
+}
