@@ -811,6 +811,10 @@ fn provenance_sheet(results: &WorkbookResults) -> Sheet {
         ),
     ));
     sheet.put(0, 0, Value::text("Where these results come from"), Look::Title);
+    // The item column as wide as its longest item (a response's name can be long),
+    // so that no item runs under its value.
+    let longest = rows.iter().map(|(key, _)| key.chars().count()).max().unwrap_or(0);
+    sheet.widths = vec![(0, (longest as f64 + 2.0).clamp(24.0, 60.0)), (1, 60.0)];
     let table_rows = rows
         .into_iter()
         .map(|(key, value)| vec![Value::text(key), Value::text(value)])

@@ -36,14 +36,32 @@ pub fn add_surface_results(results: &WorkbookResults, book: &mut Book) {
         return;
     }
     let mut sheet = Sheet::new(SURFACE_SHEET);
+    // The first column holds terms ("Cure temperature (C) × Primer coat (g/m2)"),
+    // factors and responses, the second a goal's words in the compromise table:
+    // each as wide as its longest text, within reason.
+    let chars = |text: &str| text.chars().count() as f64 + 2.0;
+    let first = analysed
+        .iter()
+        .flat_map(|(name, outcome)| {
+            std::iter::once(chars(name)).chain(outcome.coefficients.iter().map(|line| chars(&line.term)))
+        })
+        .fold(30.0, f64::max)
+        .min(56.0);
+    let second = results
+        .compromise
+        .iter()
+        .flat_map(|compromise| compromise.responses.iter().map(|line| chars(&line.goal)))
+        .fold(14.0, f64::max)
+        .min(40.0);
     sheet.widths = vec![
-        (0, 30.0),
-        (1, 14.0),
+        (0, first),
+        (1, second),
         (2, 14.0),
         (3, 14.0),
         (4, 14.0),
         (5, 14.0),
         (6, 14.0),
+        (7, 14.0),
     ];
     sheet.put(
         0,
