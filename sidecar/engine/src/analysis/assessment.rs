@@ -38,6 +38,9 @@ pub const OUTLIER_FAMILY_ALPHA: f64 = 0.05;
 /// Samples at least this large run the rank-based analysis and model checks on a second
 /// thread beside the comparisons.
 const PARALLEL_MIN_VALUES: u64 = 50_000;
+/// With at least this many pairs of conditions (64 conditions and more) the Games-Howell
+/// pairs are computed on a second thread beside the pooled families.
+const PARALLEL_MIN_PAIRS: usize = 2_000;
 /// Points kept for residual charts.
 pub const MAX_CHART_POINTS: usize = 2_000;
 
@@ -302,22 +305,33 @@ pub fn assess(
         )
     };
     let comparisons = |notes: &mut Vec<String>| {
-        let tukey_kramer = note(
-            notes,
-            "Tukey-Kramer",
-            pooled_pairs(fit, PairMethod::TukeyKramer, family_confidence),
-        );
-        let bonferroni = note(
-            notes,
-            "Bonferroni",
-            pooled_pairs(fit, PairMethod::Bonferroni, family_confidence),
-        );
-        let scheffe = note(
-            notes,
-            "Scheffé",
-            pooled_pairs(fit, PairMethod::Scheffe, family_confidence),
-        );
-        let games_howell = note(notes, "Games-Howell", unequal_spread_pairs(fit, family_confidence));
+        // The two families that integrate the studentized range for every pair: with
+        // many pairs Games-Howell runs on a second thread beside Tukey-Kramer (the same
+        // figures either way; notes keep their order).
+        let pooled = || {
+            (
+                pooled_pairs(fit, PairMethod::TukeyKramer, family_confidence),
+                pooled_pairs(fit, PairMethod::Bonferroni, family_confidence),
+                pooled_pairs(fit, PairMethod::Scheffe, family_confidence),
+            )
+        };
+        let k = fit.conditions.len();
+        let ((tukey_kramer, bonferroni, scheffe), games_howell) = if k * k.saturating_sub(1) / 2 >= PARALLEL_MIN_PAIRS {
+            std::thread::scope(|scope| {
+                let unequal = scope.spawn(|| unequal_spread_pairs(fit, family_confidence));
+                let pooled = pooled();
+                let unequal = unequal
+                    .join()
+                    .unwrap_or_else(|payload| std::panic::resume_unwind(payload));
+                (pooled, unequal)
+            })
+        } else {
+            (pooled(), unequal_spread_pairs(fit, family_confidence))
+        };
+        let tukey_kramer = note(notes, "Tukey-Kramer", tukey_kramer);
+        let bonferroni = note(notes, "Bonferroni", bonferroni);
+        let scheffe = note(notes, "Scheffé", scheffe);
+        let games_howell = note(notes, "Games-Howell", games_howell);
         let welch = note(notes, "Welch's ANOVA", welch_anova(&fit.conditions));
         let control = options.control.as_ref().and_then(|control| {
             note(
@@ -705,6 +719,55 @@ mod tests {
         let interval = eta_squared_interval(&fit, 0.95).expect("interval");
         assert!((interval.low - 0.0564538412352678).abs() < 1e-7, "{interval:?}");
         assert!((interval.high - 0.7126585795111261).abs() < 1e-7, "{interval:?}");
+    }
+
+    /// With many pairs (70 conditions: 2,415 pairs) Games-Howell runs on its own thread:
+    /// each family must be exactly what its routine gives when called alone, and a
+    /// family that fails must leave its note in the same place as on one thread.
+    #[test]
+    fn families_of_many_pairs_on_two_threads_are_the_families_alone() {
+        let n_conditions = 70;
+        assert!(n_conditions * (n_conditions - 1) / 2 >= PARALLEL_MIN_PAIRS);
+        let names: Vec<String> = (0..n_conditions).map(|index| format!("setting {index}")).collect();
+        let (mut values, mut groups) = (Vec::new(), Vec::new());
+        for condition in 0..n_conditions {
+            for (replicate, offset) in [-0.4, 0.1, 0.3].into_iter().enumerate() {
+                let spread = 1.0 + (condition % 5) as f64 * 0.25;
+                values.push(20.0 + 0.03 * condition as f64 + spread * offset * (1.0 + 0.1 * replicate as f64));
+                groups.push(condition as u32);
+            }
+        }
+        let group_values: Vec<Vec<f64>> = values.chunks(3).map(<[f64]>::to_vec).collect();
+        let records: Vec<Vec<usize>> = (0..n_conditions).map(|c| (3 * c..3 * c + 3).collect()).collect();
+        let fit = fit_one_way(&names, &groups, &values, 0.95, &[]).expect("fits");
+        let assessment = assess(&fit, &group_values, &records, &AssessmentOptions::default());
+        let alone_tukey = pooled_pairs(&fit, PairMethod::TukeyKramer, 0.95).expect("Tukey-Kramer");
+        let alone_games_howell = unequal_spread_pairs(&fit, 0.95).expect("Games-Howell");
+        assert_eq!(
+            format!("{:?}", assessment.tukey_kramer),
+            format!("{:?}", Some(alone_tukey))
+        );
+        assert_eq!(
+            format!("{:?}", assessment.games_howell),
+            format!("{:?}", Some(alone_games_howell))
+        );
+
+        // One condition without spread: Games-Howell refuses, and says so first among
+        // the notes (Tukey-Kramer, Bonferroni and Scheffé still stand).
+        let mut flat = values.clone();
+        flat[..3].fill(20.0);
+        let flat_groups: Vec<Vec<f64>> = flat.chunks(3).map(<[f64]>::to_vec).collect();
+        let fit = fit_one_way(&names, &groups, &flat, 0.95, &[]).expect("fits");
+        let assessment = assess(&fit, &flat_groups, &records, &AssessmentOptions::default());
+        assert!(assessment.tukey_kramer.is_some() && assessment.games_howell.is_none());
+        assert!(
+            assessment
+                .notes
+                .first()
+                .is_some_and(|note| note.starts_with("Games-Howell: ")),
+            "{:?}",
+            assessment.notes
+        );
     }
 
     #[test]

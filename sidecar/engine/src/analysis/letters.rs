@@ -45,23 +45,25 @@ pub fn alike_sets(means: &[f64], different: &[Vec<bool>]) -> Vec<Vec<usize>> {
             if !different[first][second] {
                 continue;
             }
+            // Most pairs found different are already apart in every column: nothing to
+            // split, and nothing is copied.
+            if !columns.iter().any(|column| has(column, first) && has(column, second)) {
+                continue;
+            }
             let mut next = Vec::with_capacity(columns.len() + 1);
             let mut split = Vec::new();
-            for column in &columns {
-                if has(column, first) && has(column, second) {
+            for column in std::mem::take(&mut columns) {
+                if has(&column, first) && has(&column, second) {
                     let mut without_first = column.clone();
                     without_first[first / 64] &= !(1u64 << (first % 64));
-                    let mut without_second = column.clone();
+                    let mut without_second = column;
                     without_second[second / 64] &= !(1u64 << (second % 64));
                     split.extend([next.len(), next.len() + 1]);
                     next.push(without_first);
                     next.push(without_second);
                 } else {
-                    next.push(column.clone());
+                    next.push(column);
                 }
-            }
-            if split.is_empty() {
-                continue;
             }
             // Absorb: drop columns contained in another (and duplicates). The columns
             // were already free of such before this split, and a column left whole
