@@ -7,24 +7,7 @@
 
 use serde_json::Value;
 
-use crate::common::{put_rows, temp_folder, trialyst, Put};
-
-/// The invented cure trial: (temperature, time, peel strength).
-const CURE_TRIAL: [(f64, f64, f64); 13] = [
-    (150.0, 30.0, 41.48),
-    (140.0, 35.0, 36.73),
-    (150.0, 37.1, 40.51),
-    (135.9, 30.0, 35.32),
-    (150.0, 30.0, 41.25),
-    (140.0, 25.0, 36.32),
-    (150.0, 30.0, 41.95),
-    (150.0, 30.0, 41.88),
-    (150.0, 22.9, 38.07),
-    (160.0, 25.0, 38.76),
-    (160.0, 35.0, 41.68),
-    (164.1, 30.0, 40.22),
-    (150.0, 30.0, 41.98),
-];
+use crate::common::{put_rows, temp_folder, trialyst, Put, CURE_TRIAL};
 
 fn write_trial(path: &std::path::Path, runs: &[(f64, f64, f64)]) {
     let mut rows = vec![vec![

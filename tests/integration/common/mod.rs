@@ -439,3 +439,22 @@ pub fn check_named_sheets_exist(path: &Path) {
         missing.join("\n")
     );
 }
+
+/// The invented cure trial, a rotatable composite plan in two factors typed by hand:
+/// (temperature, time, peel strength). Its reference figures (statsmodels 0.15.0,
+/// numpy 2.4) are checked in the engine's `analysis::surface::reading` tests.
+pub const CURE_TRIAL: [(f64, f64, f64); 13] = [
+    (150.0, 30.0, 41.48),
+    (140.0, 35.0, 36.73),
+    (150.0, 37.1, 40.51),
+    (135.9, 30.0, 35.32),
+    (150.0, 30.0, 41.25),
+    (140.0, 25.0, 36.32),
+    (150.0, 30.0, 41.95),
+    (150.0, 30.0, 41.88),
+    (150.0, 22.9, 38.07),
+    (160.0, 25.0, 38.76),
+    (160.0, 35.0, 41.68),
+    (164.1, 30.0, 40.22),
+    (150.0, 30.0, 41.98),
+];
