@@ -407,6 +407,18 @@ mod tests {
                 .collect()
         };
         assert!(texts("Summary").iter().any(|text| text == &compromise.sentence));
+        // The provenance names the arithmetic of each second-order fit.
+        let provenance = texts("Provenance");
+        for name in ["Yield (%)", "Cost (EUR)"] {
+            let item = format!("arithmetic for '{name}' (second-order model)");
+            assert!(provenance.contains(&item), "{provenance:?}");
+        }
+        // And the direction each goal gives its response.
+        let at = provenance
+            .iter()
+            .position(|text| text == "direction for 'Cost (EUR)'")
+            .expect("the direction from the goal");
+        assert_eq!(provenance[at + 1], "lower is better (from its goal)");
         let surface = texts(crate::report::surface::SURFACE_SHEET);
         assert!(surface.iter().any(|text| text.starts_with("Several responses at once")));
         assert!(surface.iter().any(|text| text == "lower, acceptable 4 to 9"));

@@ -755,17 +755,41 @@ fn provenance_sheet(results: &WorkbookResults) -> Sheet {
     };
     rows.push((
         "direction".into(),
-        results
-            .settings
-            .direction
-            .as_ref()
-            .map_or_else(|| "not given (no best condition is chosen)".to_string(), direction_text),
+        results.settings.direction.as_ref().map_or_else(
+            || {
+                if results.settings.response_directions.is_empty() && results.settings.goals.is_empty() {
+                    "not given (no best condition is chosen)".to_string()
+                } else {
+                    "not given for every response; per response below".to_string()
+                }
+            },
+            direction_text,
+        ),
     ));
     for named in &results.settings.response_directions {
         rows.push((
             format!("direction for '{}'", named.response),
             direction_text(&named.direction),
         ));
+    }
+    // A goal gives its response a direction when no direction names that response.
+    for response in &results.responses {
+        let named = results
+            .settings
+            .response_directions
+            .iter()
+            .any(|entry| crate::settings::names_response(&entry.response, &response.name));
+        let from_goal = results
+            .settings
+            .goals
+            .iter()
+            .any(|goal| crate::settings::names_response(&goal.response, &response.name));
+        if let (false, true, Some(direction)) = (named, from_goal, results.settings.direction_for(&response.name)) {
+            rows.push((
+                format!("direction for '{}'", response.name),
+                format!("{} (from its goal)", direction_text(&direction)),
+            ));
+        }
     }
     if let Some(control) = &results.settings.control {
         rows.push(("control".into(), control.clone()));
@@ -797,6 +821,12 @@ fn provenance_sheet(results: &WorkbookResults) -> Sheet {
                 } else {
                     "compensated binary accumulation of the deviations from one centre".into()
                 },
+            ));
+        }
+        if response.surface.is_some() {
+            rows.push((
+                format!("arithmetic for '{}' (second-order model)", response.name),
+                "binary floating point: Householder QR of the coded settings, on the values less their mean".into(),
             ));
         }
     }
