@@ -288,6 +288,10 @@ fn filled_plan_round_trips_into_the_right_analysis() {
     );
     let departures = plan_departures(&results);
     assert!(departures.is_empty(), "{departures:#?}");
+    // The plan's settings name the factors and the response, so its run-number columns
+    // are plainly context: a correctly filled plan has no data problem to report.
+    let findings = results["findings"].as_array().expect("findings");
+    assert!(findings.is_empty(), "{findings:#?}");
 }
 
 #[test]

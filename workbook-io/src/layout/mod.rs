@@ -416,8 +416,12 @@ fn detect_table_cells(
     for (index, reason) in context.iter().enumerate() {
         if let Some(reason) = reason {
             let column = &columns[index];
-            // A text column only competes for a role when detection picks the factors.
-            let competes = column.counts.is_numeric() || (request.factors.is_empty() && request.layout.is_none());
+            // A text column only competes for a role when detection picks the factors; a
+            // numeric one unless the settings name both the factors and the responses (a
+            // filled plan's run numbers are then plainly context, nothing to report).
+            let both_named = !request.factors.is_empty() && !request.responses.is_empty();
+            let competes =
+                (column.counts.is_numeric() && !both_named) || (request.factors.is_empty() && request.layout.is_none());
             if !competes {
                 continue;
             }
