@@ -6,7 +6,7 @@
 
 use std::io::Read;
 
-use crate::common::{put_rows, temp_folder, trialyst, Put, CURE_TRIAL};
+use crate::common::{put_rows, temp_folder, trialyst, Put, Run, CURE_TRIAL};
 
 #[test]
 fn the_results_workbook_of_a_surface_trial_holds_its_contour_map() {
@@ -96,22 +96,57 @@ fn size_answers_for_the_square_terms_of_a_composite_plan() {
     assert!((first["power"].as_f64().unwrap_or(0.0) - 0.330_465_914_282_010_7).abs() < 1e-9);
     assert!((first["group_power"].as_f64().unwrap_or(0.0) - 0.374_320_981_182_026_06).abs() < 1e-9);
     assert_eq!(answer["needed"]["count"], 3);
-    let refused = trialyst(
-        folder.path(),
-        &[
-            "size",
-            "--design",
-            "box-behnken",
-            "--factors",
-            "3",
-            "--curvature",
-            "1",
-            "--sd",
-            "1",
-            "--axial",
-            "faces",
-        ],
-    );
+}
+
+/// `trialyst size` for a three-factor response-surface plan, curvature 1, SD 1,
+/// with these design and axial words (an axial of "" gives no `--axial`).
+fn size_three_factor(folder: &std::path::Path, design: &str, axial: &str, json: bool) -> Run {
+    let mut args = vec![
+        "size",
+        "--design",
+        design,
+        "--factors",
+        "3",
+        "--curvature",
+        "1",
+        "--sd",
+        "1",
+    ];
+    if !axial.is_empty() {
+        args.extend(["--axial", axial]);
+    }
+    if json {
+        args.push("--json");
+    }
+    trialyst(folder, &args)
+}
+
+#[test]
+fn size_reads_the_design_and_axial_words_as_plan_does() {
+    let folder = temp_folder();
+    let answer = |design: &str, axial: &str| {
+        let run = size_three_factor(folder.path(), design, axial, true);
+        run.expect_code(0);
+        serde_json::from_str::<serde_json::Value>(run.stdout().trim()).expect("JSON")
+    };
+    // The spellings `plan` takes give the same answer as the hyphenated words.
+    let hyphenated = answer("central-composite", "faces");
+    assert_eq!(answer("Central composite", "face centred"), hyphenated);
+    assert_eq!(answer("central_composite", "1"), hyphenated);
+    // Orthogonal blocking places the axial runs for blocks, which a size question
+    // does not plan: refused naming the option, as an unknown word would be.
+    let refused = size_three_factor(folder.path(), "central-composite", "orthogonal-blocks", false);
     refused.expect_code(2);
-    assert!(refused.stderr().contains("no axial runs"), "{}", refused.report());
+    assert!(refused.stderr().contains("--axial"), "{}", refused.report());
+    assert!(refused.stderr().contains("plans no blocks"), "{}", refused.report());
+    let unknown = size_three_factor(folder.path(), "simplex", "", false);
+    unknown.expect_code(2);
+    assert!(unknown.stderr().contains("--design 'simplex'"), "{}", unknown.report());
+    let box_behnken = size_three_factor(folder.path(), "box-behnken", "faces", false);
+    box_behnken.expect_code(2);
+    assert!(
+        box_behnken.stderr().contains("no axial runs"),
+        "{}",
+        box_behnken.report()
+    );
 }

@@ -9,7 +9,7 @@ use tower_lsp_server::ls_types::ProgressToken;
 
 use super::from_proto::{describe, error, params_object, work_done_token, ParamsError};
 use service::plan::size::{OneWayEffect, SdSource, SizeDesign};
-use service::plan::surface_choice::{read_axial, read_design, SurfaceWordsError};
+use service::plan::surface_choice::{read_axial, read_design, size_surface, SurfaceWordsError};
 use service::plan::{FactorLimits, FactorSpec, PlanRequest, SizeRequest, SurfaceChoice};
 
 /// Level of the test when the client gives none (as `trialyst size`).
@@ -258,19 +258,8 @@ pub fn plan_params(params: &Value) -> Result<PlanParams, ParamsError> {
 /// "box-behnken"), `curvature`, optional `centrePoints` and (central composite) `axial`
 /// ("rotatable", "faces" or a distance in coded units).
 fn surface_size_design(map: &Map<String, Value>, factors: usize) -> Result<SizeDesign, ParamsError> {
-    use service::plan::size_surface::SurfaceKind;
-    let plan = match map.get("design") {
-        Some(Value::String(text)) if text == "central-composite" => SurfaceKind::CentralComposite,
-        Some(Value::String(text)) if text == "box-behnken" => SurfaceKind::BoxBehnken,
-        Some(other) => {
-            return Err(error(
-                "params.design",
-                format!(
-                    "expected \"central-composite\" or \"box-behnken\", got {}",
-                    describe(other)
-                ),
-            ))
-        }
+    let design = match map.get("design") {
+        Some(value) => item_text(value, "params.design")?,
         None => return Err(error("params.design", "missing")),
     };
     let curvature = optional_number(map, "curvature")?.ok_or_else(|| {
@@ -279,26 +268,19 @@ fn surface_size_design(map: &Map<String, Value>, factors: usize) -> Result<SizeD
             "missing; a response-surface plan needs the curvature worth detecting (a square term's coefficient in coded units)",
         )
     })?;
-    let axial = match (plan, map.get("axial")) {
-        (_, None | Some(Value::Null)) => None,
-        (SurfaceKind::BoxBehnken, Some(_)) => {
-            return Err(error("params.axial", "a Box-Behnken plan has no axial runs"));
+    let axial = match map.get("axial") {
+        None | Some(Value::Null) => None,
+        Some(value) => {
+            let words = item_text(value, "params.axial")?;
+            Some(read_axial(&words).map_err(|bad| error("params.axial", bad.to_string()))?)
         }
-        (_, Some(Value::String(text))) if text == "rotatable" => None,
-        (_, Some(Value::String(text))) if text == "faces" => Some(1.0),
-        (_, Some(value)) => match value.as_f64() {
-            Some(distance) if distance.is_finite() && distance > 0.0 => Some(distance),
-            _ => {
-                return Err(error(
-                    "params.axial",
-                    format!(
-                        "expected \"rotatable\", \"faces\" or a positive distance in coded units, got {}",
-                        describe(value)
-                    ),
-                ))
-            }
-        },
     };
+    let (plan, axial) = read_design(&design, axial)
+        .and_then(size_surface)
+        .map_err(|bad| match bad {
+            SurfaceWordsError::UnknownDesign(_) => error("params.design", bad.to_string()),
+            other => error("params.axial", other.to_string()),
+        })?;
     Ok(SizeDesign::Surface {
         plan,
         factors,
@@ -429,5 +411,29 @@ mod surface_size_tests {
             panic!("a Box-Behnken question with an axial distance was read");
         };
         assert!(format!("{wrong:?}").contains("params.axial"), "{wrong:?}");
+    }
+
+    #[test]
+    fn a_surface_size_question_takes_the_words_a_plan_takes() {
+        let read = |design: &str, axial: Value| {
+            size_params(&serde_json::json!({
+                "factors": 2, "design": design, "curvature": 1.0, "axial": axial, "sd": 1.0
+            }))
+            .map(|params| params.request.design)
+        };
+        let faces = read("central-composite", Value::from("faces")).expect("hyphenated");
+        assert_eq!(
+            read("Central composite", Value::from("face centred")).expect("spaced"),
+            faces
+        );
+        assert_eq!(read("central_composite", Value::from(1.0)).expect("a number"), faces);
+        let Err(blocks) = read("central-composite", Value::from("orthogonal-blocks")) else {
+            panic!("orthogonal blocking was read for a size question, which plans no blocks");
+        };
+        assert!(format!("{blocks:?}").contains("params.axial"), "{blocks:?}");
+        let Err(unknown) = read("simplex", Value::Null) else {
+            panic!("an unknown design was read");
+        };
+        assert!(format!("{unknown:?}").contains("params.design"), "{unknown:?}");
     }
 }

@@ -65,13 +65,21 @@ fn size_request(args: &SizeArgs) -> Result<service::plan::SizeRequest, String> {
 
 /// The response-surface plan of a size question.
 fn surface_design(args: &SizeArgs) -> Result<service::plan::size::SizeDesign, String> {
-    use engine::design::surface::SurfaceKind;
-    let plan = match args.design.as_deref() {
-        Some("central-composite") => SurfaceKind::CentralComposite,
-        Some("box-behnken") => SurfaceKind::BoxBehnken,
-        Some(other) => return Err(format!("--design '{other}': write central-composite or box-behnken")),
-        None => return Err("--curvature and --axial go with --design central-composite or box-behnken".into()),
+    use service::plan::surface_choice::{read_axial, read_design, size_surface, SurfaceWordsError};
+    let Some(design) = args.design.as_deref() else {
+        return Err("--curvature and --axial go with --design central-composite or box-behnken".into());
     };
+    let axial = args
+        .axial
+        .as_deref()
+        .map(|text| read_axial(text).map_err(|error| format!("--axial {error}")))
+        .transpose()?;
+    let (plan, axial) = read_design(design, axial)
+        .and_then(size_surface)
+        .map_err(|error| match error {
+            SurfaceWordsError::UnknownDesign(_) => format!("--design {error}"),
+            other => format!("--axial {other}"),
+        })?;
     let factors = args.factors.ok_or("a response-surface plan needs --factors")?;
     let curvature = args
         .curvature
@@ -79,21 +87,6 @@ fn surface_design(args: &SizeArgs) -> Result<service::plan::size::SizeDesign, St
     if args.effect.is_some() || args.runs.is_some() || args.main_effects_only {
         return Err("--effect, --runs and --main-effects-only go with two-level trials, not with --design".into());
     }
-    let axial = match (plan, args.axial.as_deref()) {
-        (_, None) | (SurfaceKind::CentralComposite, Some("rotatable")) => None,
-        (SurfaceKind::CentralComposite, Some("faces")) => Some(1.0),
-        (SurfaceKind::CentralComposite, Some(text)) => match text.trim().parse::<f64>() {
-            Ok(distance) if distance.is_finite() && distance > 0.0 => Some(distance),
-            _ => {
-                return Err(format!(
-                    "--axial '{text}': write rotatable, faces or a positive distance in coded units, e.g. 1.5"
-                ))
-            }
-        },
-        (SurfaceKind::BoxBehnken, Some(_)) => {
-            return Err("--axial goes with --design central-composite; a Box-Behnken plan has no axial runs".into())
-        }
-    };
     Ok(service::plan::size::SizeDesign::Surface {
         plan,
         factors,

@@ -5,7 +5,7 @@
 //! Each front end names its own option or key in its messages; this module
 //! only says what was wrong with the words given.
 
-use engine::design::surface::AxialDistance;
+use engine::design::surface::{AxialDistance, SurfaceKind};
 use engine::design::{Plan, PlanError, PlanRequest};
 
 use super::{make_plan, make_surface_plan, FactorLimits, SurfaceDesign};
@@ -37,6 +37,9 @@ pub enum SurfaceWordsError {
     /// An axial distance was given for a Box-Behnken plan.
     #[error("goes with a central composite plan; a Box-Behnken plan has no axial runs")]
     AxialForBoxBehnken,
+    /// Orthogonal blocking was asked of a size question, which plans no blocks.
+    #[error("'orthogonal-blocks' sets the axial distance for a plan run in blocks, and sizing plans no blocks: write rotatable, faces or a positive distance in coded units, e.g. 1.5")]
+    BlocksNotSized,
 }
 
 /// Lower case, with spaces and underscores read as hyphens.
@@ -83,6 +86,26 @@ pub fn read_design(design: &str, axial: Option<AxialDistance>) -> Result<Surface
         "box-behnken" if axial.is_none() => Ok(SurfaceDesign::BoxBehnken),
         "box-behnken" => Err(SurfaceWordsError::AxialForBoxBehnken),
         _ => Err(SurfaceWordsError::UnknownDesign(design.trim().to_string())),
+    }
+}
+
+/// The plan a size question asks about, from the same words as a plan: its kind
+/// and the axial distance in coded units (`None`: rotatable, or none for a
+/// Box-Behnken plan).
+///
+/// # Errors
+///
+/// [`SurfaceWordsError::BlocksNotSized`] for orthogonal blocking: sizing plans
+/// no blocks, so the distance that makes blocks orthogonal has no meaning there.
+pub fn size_surface(design: SurfaceDesign) -> Result<(SurfaceKind, Option<f64>), SurfaceWordsError> {
+    match design {
+        SurfaceDesign::BoxBehnken => Ok((SurfaceKind::BoxBehnken, None)),
+        SurfaceDesign::CentralComposite(axial) => match axial {
+            AxialDistance::Rotatable => Ok((SurfaceKind::CentralComposite, None)),
+            AxialDistance::FaceCentred => Ok((SurfaceKind::CentralComposite, Some(1.0))),
+            AxialDistance::Given(distance) => Ok((SurfaceKind::CentralComposite, Some(distance))),
+            AxialDistance::OrthogonalBlocking => Err(SurfaceWordsError::BlocksNotSized),
+        },
     }
 }
 
@@ -148,5 +171,30 @@ mod tests {
                 "{bad}"
             );
         }
+    }
+
+    #[test]
+    fn a_size_question_reads_the_plan_words_and_refuses_blocks() {
+        let sized = |design: &str, axial: Option<&str>| {
+            let axial = axial.map(|text| read_axial(text).unwrap());
+            size_surface(read_design(design, axial).unwrap())
+        };
+        assert_eq!(
+            sized("central composite", None),
+            Ok((SurfaceKind::CentralComposite, None))
+        );
+        assert_eq!(
+            sized("Central-Composite", Some("face centred")),
+            Ok((SurfaceKind::CentralComposite, Some(1.0)))
+        );
+        assert_eq!(
+            sized("central_composite", Some("1.5")),
+            Ok((SurfaceKind::CentralComposite, Some(1.5)))
+        );
+        assert_eq!(sized("box behnken", None), Ok((SurfaceKind::BoxBehnken, None)));
+        assert_eq!(
+            sized("central-composite", Some("orthogonal-blocks")),
+            Err(SurfaceWordsError::BlocksNotSized)
+        );
     }
 }
