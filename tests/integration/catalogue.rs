@@ -791,7 +791,11 @@ fn hidden_rows_and_columns_of_the_table_are_named() {
         "hidden.xlsx",
         "identifier-column",
         "Trial!C1",
-        &["'Haze'", "hidden in the sheet", "name it as a factor or response"],
+        &[
+            "'Haze'",
+            "hidden in the sheet",
+            "name it as a factor, block or response",
+        ],
     );
 }
 

@@ -409,3 +409,72 @@ fn formula_like_labels_come_back_as_text() {
     }
     assert!(sheet_parts >= 5, "worksheet parts found: {sheet_parts}");
 }
+
+#[test]
+fn a_shift_that_changes_with_a_factor_is_a_finding_and_a_caution() {
+    // A 2^2 in pressure and hold time with its low-pressure runs all on the early
+    // shift (twice each) and two centre runs: the shift cannot be told apart from
+    // pressure. Invented values.
+    let mut rows = vec![vec![
+        Put::Text("Shift"),
+        Put::Text("Pressure"),
+        Put::Text("Hold"),
+        Put::Text("Flash"),
+    ]];
+    for (shift, pressure, hold, flash) in [
+        ("Early", 600.0, 4.0, 0.41),
+        ("Early", 600.0, 8.0, 0.40),
+        ("Early", 600.0, 4.0, 0.43),
+        ("Early", 600.0, 8.0, 0.39),
+        ("Late", 800.0, 4.0, 0.66),
+        ("Late", 800.0, 8.0, 0.65),
+        ("Late", 800.0, 4.0, 0.64),
+        ("Late", 800.0, 8.0, 0.67),
+        ("Early", 700.0, 6.0, 0.52),
+        ("Late", 700.0, 6.0, 0.55),
+    ] {
+        rows.push(vec![
+            Put::Text(shift),
+            Put::Number(pressure),
+            Put::Number(hold),
+            Put::Number(flash),
+        ]);
+    }
+    let folder = temp_folder();
+    let path = folder.path().join("flash.xlsx");
+    write_rows(&path, "Trial", &rows);
+    let results = analyse_workbook(&path, &AnalysisRequest::default()).expect("analysed");
+    let tie = only(&results.findings, FindingKind::ContextWithFactor);
+    check(
+        &tie,
+        "Trial",
+        "A1",
+        &[
+            "'Shift' changes with the factor 'Pressure'",
+            "every run at Pressure 600 has Shift Early",
+            "cannot be told apart from the effect of Pressure",
+        ],
+    );
+    // The Summary's cautions say it too, with its place, beside the standing ones.
+    assert!(
+        results.cautions.iter().any(
+            |caution| caution.starts_with("The context column 'Shift' changes") && caution.ends_with("(Trial!A1).")
+        ),
+        "{:#?}",
+        results.cautions
+    );
+    // The results workbook's Summary carries the caution.
+    let run = trialyst(folder.path(), &["run", "flash.xlsx"]);
+    run.expect_code(0);
+    let sheets = read_all_sheets(&folder.path().join("flash.results.xlsx"));
+    let (_, summary) = sheets
+        .iter()
+        .find(|(name, _)| name == "Summary")
+        .expect("a Summary sheet");
+    assert!(
+        summary
+            .used_cells()
+            .any(|(_, _, cell)| cell.to_string().starts_with("The context column 'Shift' changes")),
+        "the Summary does not carry the caution"
+    );
+}

@@ -533,10 +533,33 @@ pub(crate) fn analyse_loaded(
         settings_sources,
         responses,
         compromise,
+        cautions: cautions_with(&findings),
         findings,
-        cautions: standard_cautions(),
         timings,
     })
+}
+
+/// The standard cautions, then one for each context column that changes with a
+/// factor (a shift or day that cannot be told apart from a factor's effect bears on
+/// how every reading of that factor is taken, so it is said beside them, not only
+/// among the data problems).
+fn cautions_with(findings: &[Finding]) -> Vec<String> {
+    let mut cautions = standard_cautions();
+    for finding in findings
+        .iter()
+        .filter(|finding| finding.kind == workbook_io::layout::FindingKind::ContextWithFactor)
+    {
+        let place = match &finding.cell {
+            Some(cell) => format!("{}!{cell}", finding.sheet),
+            None => finding.sheet.clone(),
+        };
+        let mut message = finding.message.clone();
+        if let Some(first) = message.get_mut(0..1) {
+            first.make_ascii_uppercase();
+        }
+        cautions.push(format!("{message} ({place})."));
+    }
+    cautions
 }
 
 /// The one-way fit of the conditions; in a trial run in blocks, with the blocks' shifts

@@ -20,6 +20,7 @@ mod long;
 mod roles;
 #[cfg(test)]
 mod tests;
+mod ties;
 mod types;
 mod wide;
 
@@ -432,7 +433,7 @@ fn detect_table_cells(
                 column,
                 "kept as context, not analysed",
                 format!(
-                    "the column '{}' {reason}, so it was kept as context, neither a condition nor a measurement; name it as a factor or response to use it",
+                    "the column '{}' {reason}, so it was kept as context, neither a condition nor a measurement; name it as a factor, block or response to use it",
                     column.name
                 ),
             ));
@@ -469,12 +470,12 @@ fn detect_table_cells(
                 // factors (a trial varying one setting at a time), said either way.
                 let line = if factors_found.is_empty() {
                     format!(
-                        "the columns {} hold a few repeated settings each but do not form a factorial or central composite pattern ({missing}); they were read as factors all the same, and their effects may not be separable; set `factor` and `response` to choose other columns",
+                        "the columns {} hold a few repeated settings each but do not form a factorial or response-surface pattern ({missing}); they were read as factors all the same, and their effects may not be separable; set `factor` and `response` to choose other columns",
                         names.join(", ")
                     )
                 } else {
                     format!(
-                        "the columns {} hold a few repeated settings each but do not form a factorial or central composite pattern ({missing}), so they were kept as context, neither factors nor measurements; set `factor` to read them as factors",
+                        "the columns {} hold a few repeated settings each but do not form a factorial or response-surface pattern ({missing}), so they were kept as context, neither factors nor measurements; set `factor` to read them as factors",
                         names.join(", ")
                     )
                 };
@@ -616,7 +617,7 @@ fn detect_table_cells(
                 findings.push(choice_finding(&sheet, header_area, "the columns", &line));
                 choices.push(line);
             }
-            build_long(
+            let mut table = build_long(
                 grid,
                 &sheet,
                 header_row,
@@ -626,7 +627,16 @@ fn detect_table_cells(
                 &factor_columns,
                 &response_columns,
                 findings,
-            )
+            );
+            // Context columns (not hidden helpers, not factors) that change with a factor.
+            let context_kept: Vec<usize> = (0..columns.len())
+                .filter(|index| context[*index].is_some_and(|reason| reason != HIDDEN_REASON))
+                .filter(|index| !factor_columns.iter().any(|(factor, _)| factor == index))
+                .filter(|index| !response_columns.contains(index))
+                .collect();
+            let ties = ties::context_ties(grid, &sheet, header_row, &columns, &context_kept, data_cells, &table);
+            table.findings.extend(ties);
+            table
         }
         Layout::Wide => {
             let condition_columns: Vec<usize> = if response_columns.is_empty() {

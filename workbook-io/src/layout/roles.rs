@@ -12,6 +12,9 @@ const CONTEXT_WORDS: &[&str] = &[
     "dates",
     "datum",
     "timestamp",
+    "day",
+    "days",
+    "weekday",
     "operator",
     "operators",
     "technician",
@@ -104,7 +107,7 @@ pub(super) fn context_reason(column: &HeaderColumn, n_rows: usize) -> Option<&'s
     }
     let header_words = words(&column.name);
     if header_words.iter().any(|word| CONTEXT_WORDS.contains(&word.as_str())) {
-        return Some("is headed like a record of context (date, operator, shift, replicate)");
+        return Some("is headed like a record of context (date, day, operator, shift, replicate)");
     }
     let name = column.name.trim();
     let identifier_header = name.contains('#')
@@ -203,13 +206,15 @@ pub(super) fn design_columns(columns: &[HeaderColumn], candidates: &[usize]) -> 
 }
 
 /// Whether numeric settings columns form a design, as full and fractional factorials,
-/// Plackett-Burman screens and central composite plans do: among the rows where every
-/// column stands at one of its two cube settings (the lowest and highest of two to four
-/// settings; the second and fourth of five, inside a composite plan's axial settings),
-/// every pair of columns shows all four combinations of their cube settings (common
-/// practice: a two-level orthogonal array has every pair's combinations; a plan that
-/// varies one column at a time has none). One column is a design by itself. On failure,
-/// the first pair and combination missing, in words.
+/// Plackett-Burman screens, central composite and Box-Behnken plans do: for every pair
+/// of columns, the rows where both stand at one of their two cube settings (the lowest
+/// and highest of two to four settings; the second and fourth of five, inside a
+/// composite plan's axial settings) show all four combinations of them, whatever the
+/// other columns hold (common practice: a two-level orthogonal array has every pair's
+/// combinations, and a Box-Behnken plan has them with the third factor at its middle; a
+/// plan that varies one column at a time from a base has never both columns away from
+/// it). One column is a design by itself. On failure, the first pair and combination
+/// missing, in words.
 pub(super) fn design_pattern(
     columns: &[HeaderColumn],
     design: &[usize],
@@ -240,9 +245,9 @@ pub(super) fn design_pattern(
     let mut sides = vec![2u8; design.len()];
     let mut row = None;
     let mut note_row = |sides: &mut Vec<u8>| {
-        if sides.iter().all(|side| *side < 2) {
-            for first in 0..sides.len() {
-                for second in first + 1..sides.len() {
+        for first in 0..sides.len() {
+            for second in first + 1..sides.len() {
+                if sides[first] < 2 && sides[second] < 2 {
                     seen[first * sides.len() + second][(2 * sides[first] + sides[second]) as usize] = true;
                 }
             }

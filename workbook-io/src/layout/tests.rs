@@ -14,8 +14,8 @@ use crate::read::SheetGrid;
 
 use super::{detect_table, FindingKind, Layout, LayoutError, TableRequest};
 use FindingKind::{
-    BlankHeader, BlankLabel, BlankValue, BooleanInNumbers, DuplicateHeader, EmptyColumn, ErrorValue, IdentifierColumn,
-    MergedHeader, SimilarLabels, SummaryRow, TextInNumbers,
+    BlankHeader, BlankLabel, BlankValue, BooleanInNumbers, ContextWithFactor, DuplicateHeader, EmptyColumn, ErrorValue,
+    IdentifierColumn, MergedHeader, SimilarLabels, SummaryRow, TextInNumbers,
 };
 
 /// Error values a spreadsheet shows (common practice; the set every spreadsheet program writes).
@@ -546,7 +546,8 @@ fn cases() -> Vec<Case> {
                 factors: &[("Oven", &["A", "B"], false)],
                 responses: &["Haze"],
                 records: 4,
-                findings: &[],
+                // Kim ran every Oven A batch and Lee every Oven B one: said.
+                findings: &[(ContextWithFactor, "A1")],
             }),
         },
         Case {
@@ -1438,6 +1439,76 @@ fn hidden_helper_columns_are_kept_as_context_unless_named() {
 }
 
 #[test]
+fn a_box_behnken_plan_typed_by_hand_is_a_design() {
+    // Box-Behnken in three factors (each pair at its four corners with the third at
+    // its middle, then centre runs; the published construction), beside a label
+    // column: the settings are factors, with no "no design" line.
+    let mut rows: Vec<Vec<String>> = vec![vec![
+        "Shift".into(),
+        "Temp".into(),
+        "Speed".into(),
+        "Humidity".into(),
+        "Shrink".into(),
+    ]];
+    let settings = [[165.0, 180.0, 195.0], [1.5, 2.0, 2.5], [30.0, 40.0, 50.0]];
+    let mut coded: Vec<[usize; 3]> = Vec::new();
+    for (first, second) in [(0, 1), (0, 2), (1, 2)] {
+        for (a, b) in [(0, 0), (2, 0), (0, 2), (2, 2)] {
+            let mut run = [1, 1, 1];
+            run[first] = a;
+            run[second] = b;
+            coded.push(run);
+        }
+    }
+    coded.extend([[1, 1, 1]; 3]);
+    for (index, run) in coded.iter().enumerate() {
+        let mut row = vec![if index % 2 == 0 { "Early" } else { "Late" }.to_string()];
+        row.extend((0..3).map(|factor| settings[factor][run[factor]].to_string()));
+        row.push(format!("{:.2}", 3.0 + 0.1 * index as f64));
+        rows.push(row);
+    }
+    let rows: Vec<Vec<&str>> = rows
+        .iter()
+        .map(|row| row.iter().map(String::as_str).collect())
+        .collect();
+    let rows: Vec<&[&str]> = rows.iter().map(Vec::as_slice).collect();
+    let table = detect_table(&grid(&rows, &[]), &TableRequest::default()).expect("a long table");
+    let factor_names: Vec<&str> = table.factors.iter().map(|factor| factor.name.as_str()).collect();
+    assert!(
+        factor_names.ends_with(&["Temp", "Speed", "Humidity"]),
+        "{factor_names:?}"
+    );
+    assert!(
+        !table.choices.iter().any(|line| line.contains("do not form")),
+        "{:?}",
+        table.choices
+    );
+    // The same settings changed one at a time from the centre are no design: Temp and
+    // Speed are never both away from it.
+    let one_at_a_time = grid(
+        &[
+            &["Temp", "Speed", "Shrink"],
+            &["165", "2", "3.1"],
+            &["195", "2", "3.4"],
+            &["180", "1.5", "3.0"],
+            &["180", "2.5", "3.3"],
+            &["180", "2", "3.2"],
+            &["180", "2", "3.25"],
+        ],
+        &[],
+    );
+    let table = detect_table(&one_at_a_time, &TableRequest::default()).expect("a table");
+    assert!(
+        table.choices.iter().any(
+            |line| line.contains("do not form a factorial or response-surface pattern")
+                && line.contains("Temp = 165 never meets Speed = 1.5")
+        ),
+        "{:?}",
+        table.choices
+    );
+}
+
+#[test]
 fn settings_columns_are_factors_only_when_they_form_a_design() {
     // A half fraction 2^(3-1) (C = AB) with a centre run: every pair of columns meets in
     // all four combinations (a two-level orthogonal array; common practice).
@@ -1551,4 +1622,72 @@ fn wide_condition_names_written_alike_are_one_condition() {
         "{:?}",
         table.choices
     );
+}
+
+#[test]
+fn a_context_column_that_changes_with_a_factor_is_reported() {
+    let ties = |rows: &[&[&str]]| -> Vec<super::Finding> {
+        let table = detect_table(&grid(rows, &[]), &TableRequest::default()).expect("a table");
+        table
+            .findings
+            .into_iter()
+            .filter(|finding| finding.kind == FindingKind::ContextWithFactor)
+            .collect()
+    };
+    // A 2^2 with two centre runs, the low Pressure runs all on the early shift: the
+    // shift cannot be told apart from Pressure (the centre runs, on both, do not hide it).
+    let tied = ties(&[
+        &["Shift", "Pressure", "Hold", "Flash"],
+        &["Early", "600", "4", "0.41"],
+        &["Early", "600", "8", "0.40"],
+        &["Late", "800", "4", "0.66"],
+        &["Late", "800", "8", "0.65"],
+        &["Early", "700", "6", "0.52"],
+        &["Late", "700", "6", "0.55"],
+    ]);
+    assert_eq!(tied.len(), 1, "{tied:?}");
+    assert_eq!(tied[0].cell.as_deref(), Some("A1"));
+    assert!(
+        tied[0].message.contains("'Shift' changes with the factor 'Pressure'")
+            && tied[0].message.contains("every run at Pressure 600 has Shift Early")
+            && tied[0].message.contains("every run at Pressure 800 has Shift Late"),
+        "{}",
+        tied[0].message
+    );
+    // The same runs blocked on the interaction (common practice): each Pressure and
+    // each Hold on both shifts, nothing to say.
+    let spread = ties(&[
+        &["Shift", "Pressure", "Hold", "Flash"],
+        &["Early", "600", "4", "0.41"],
+        &["Late", "600", "8", "0.40"],
+        &["Late", "800", "4", "0.66"],
+        &["Early", "800", "8", "0.65"],
+        &["Early", "700", "6", "0.52"],
+        &["Late", "700", "6", "0.55"],
+    ]);
+    assert!(spread.is_empty(), "{spread:?}");
+    // A one-factor trial with each die run on its own day.
+    let by_day = ties(&[
+        &["Day", "Die", "Wall"],
+        &["Mon", "Old", "2.11"],
+        &["Mon", "Old", "2.13"],
+        &["Mon", "Old", "2.12"],
+        &["Tue", "New", "2.05"],
+        &["Tue", "New", "2.06"],
+        &["Tue", "New", "2.04"],
+    ]);
+    assert_eq!(by_day.len(), 1, "{by_day:?}");
+    assert!(
+        by_day[0].message.contains("between Mon and Tue (Day)"),
+        "{}",
+        by_day[0].message
+    );
+    // One run per setting shows where it happened to be made, not a tie.
+    let single = ties(&[
+        &["Operator", "Die", "Wall"],
+        &["Ann", "Old", "2.11"],
+        &["Ben", "New", "2.05"],
+        &["Ann", "Mid", "2.08"],
+    ]);
+    assert!(single.is_empty(), "{single:?}");
 }

@@ -67,6 +67,9 @@ pub enum FindingKind {
     Choice,
     /// A summary row (average, total and the like) under or beside the data.
     SummaryRow,
+    /// A context column (shift, day, operator, lot) that changes exactly as a
+    /// factor does, so that the two cannot be told apart.
+    ContextWithFactor,
 }
 
 /// One data problem, at one place.

@@ -292,6 +292,7 @@ pub fn analyse_any(table: &FactorialData<'_>, options: &FactorialOptions) -> Opt
                 direction.unwrap_or(Direction::HigherIsBetter),
                 alpha,
                 response.response_name,
+                two_level.as_ref(),
             )
         })
         .unwrap_or_default();

@@ -30,6 +30,16 @@ pub(super) fn best_index(values: &[Option<f64>], direction: Direction) -> Option
     best.map(|(index, _)| index)
 }
 
+/// What a two-level effect was judged against, in words: its p-value against the
+/// pure error or pooled interactions, or where it stands against Lenth's margin.
+fn two_level_grounds(two: &TwoLevelOutcome, effect: &TwoLevelEffect) -> String {
+    match effect.p_value {
+        Some(p) => format!("{} against the error from {}", p_equals(p), two.error.source),
+        None if effect.beyond_margin => "beyond Lenth's margin of error".to_string(),
+        None => "within Lenth's margin of error".to_string(),
+    }
+}
+
 pub(super) fn direction_words(direction: Direction) -> String {
     match direction {
         Direction::HigherIsBetter => "highest".into(),
@@ -39,6 +49,11 @@ pub(super) fn direction_words(direction: Direction) -> String {
 }
 
 /// Reading of the largest effects and of interactions that change which level is best.
+///
+/// When a two-level analysis judges the effects (its own error: replicates, centre
+/// points, pooled interactions or Lenth's method), a term's verdict is that one, so
+/// that the reading never calls an effect clear that the lead calls unclear, nor the
+/// other way round; the k-way model's own p-value is then said beside it.
 pub(super) fn read_model(
     model: &KWayModel,
     fit: Option<&FactorialFit>,
@@ -46,6 +61,7 @@ pub(super) fn read_model(
     direction: Direction,
     alpha: f64,
     response: &str,
+    two_level: Option<&TwoLevelOutcome>,
 ) -> Vec<String> {
     let mut reading = Vec::new();
     let Some(fit) = fit else {
@@ -74,17 +90,39 @@ pub(super) fn read_model(
         } else {
             f64::NAN
         };
-        let shown = match line.p_value {
-            Some(p) if p < alpha => "clearly",
-            Some(_) => "not clearly",
-            None => "without a test",
+        let judged = two_level.filter(|two| two.grand_mean.is_some()).and_then(|two| {
+            two.effects
+                .iter()
+                .find(|effect| effect.term == line.source)
+                .map(|effect| (two, effect))
+        });
+        let kway_clear = line.p_value.map(|p| p < alpha);
+        let mut sentence = match judged {
+            Some((two, effect)) if !effect.in_error && kway_clear.is_some_and(|clear| clear != effect.active) => {
+                format!(
+                    "{} accounts for {}% of the variation in {response} but {} counted as an effect: {} ({}; the k-way model, whose error pools the terms it leaves out, gives {}).",
+                    line.source.replace(':', " × "),
+                    round_for_text(share, 2),
+                    if effect.active { "is" } else { "is not" },
+                    if effect.active { "it is clear" } else { "it is not clear" },
+                    two_level_grounds(two, effect),
+                    p_equals(line.p_value.unwrap_or(f64::NAN))
+                )
+            }
+            _ => {
+                let shown = match line.p_value {
+                    Some(p) if p < alpha => "clearly",
+                    Some(_) => "not clearly",
+                    None => "without a test",
+                };
+                format!(
+                    "{} accounts for {}% of the variation in {response} ({shown} beyond chance, {}).",
+                    line.source.replace(':', " × "),
+                    round_for_text(share, 2),
+                    p_equals(line.p_value.unwrap_or(f64::NAN))
+                )
+            }
         };
-        let mut sentence = format!(
-            "{} accounts for {}% of the variation in {response} ({shown} beyond chance, {}).",
-            line.source.replace(':', " × "),
-            round_for_text(share, 2),
-            p_equals(line.p_value.unwrap_or(f64::NAN))
-        );
         if !line.source.contains(':') {
             if let Some(means) = model.ls_means.iter().find(|means| means.factor == line.source) {
                 let values: Vec<Option<f64>> = means.means.iter().map(|m| m.estimate).collect();
