@@ -415,6 +415,10 @@ pub(crate) fn analyse_loaded(
             )),
             ResponseOutcome::NotAnalysed { .. } => None,
         };
+        let outcome_fit: Option<&OneWayFit> = match &outcome {
+            ResponseOutcome::Analysed { one_way } => Some(one_way),
+            ResponseOutcome::NotAnalysed { .. } => None,
+        };
         let factorial_reading = factorial.as_ref().and_then(|outcome| {
             engine::analysis::verdict::read_factorial(&response.name, unit.as_deref(), outcome, direction)
         });
@@ -434,10 +438,12 @@ pub(crate) fn analyse_loaded(
             Some(reading) => {
                 let mut verdict = reading.verdict.clone();
                 if let Some(one_way) = &one_way_verdict {
-                    verdict.details.push(format!(
-                        "Detail, not the lead: the one-way comparison of the {} combinations run says: {}",
+                    verdict.details.push(one_way_detail(
                         condition_names.len(),
-                        one_way.headline
+                        one_way,
+                        verdict.conditions_differ,
+                        outcome_fit,
+                        assessment.as_deref(),
                     ));
                 }
                 (Some(verdict), one_way_verdict)
@@ -463,10 +469,12 @@ pub(crate) fn analyse_loaded(
                 );
                 let one_way = one_way_verdict.or_else(|| verdict.clone().filter(|_| factorial_reading.is_none()));
                 if let Some(one_way) = &one_way {
-                    reading.details.push(format!(
-                        "Detail, not the lead: the one-way comparison of the {} combinations run says: {}",
+                    reading.details.push(one_way_detail(
                         condition_names.len(),
-                        one_way.headline
+                        one_way,
+                        reading.conditions_differ,
+                        outcome_fit,
+                        assessment.as_deref(),
                     ));
                 }
                 let lead = LeadChoice {
@@ -537,6 +545,36 @@ pub(crate) fn analyse_loaded(
         findings,
         timings,
     })
+}
+
+/// The one-way comparison of the combinations run, said as a detail under another
+/// lead, naming the analysis it used. When it finds no clear difference where the
+/// lead finds one, the reason is said beside it, so that the Summary does not seem
+/// to contradict itself: the one-way comparison treats every combination as a
+/// condition of its own and judges them by the repeats within combinations, while
+/// the lead fits a few terms to all the runs together (common practice).
+fn one_way_detail(
+    combinations: usize,
+    one_way: &engine::analysis::verdict::Verdict,
+    lead_finds: Option<bool>,
+    fit: Option<&OneWayFit>,
+    assessment: Option<&engine::analysis::assessment::Assessment>,
+) -> String {
+    let mut detail = format!(
+        "Detail, not the lead: the one-way comparison of the {combinations} combinations run ({}) says: {}",
+        engine::analysis::verdict::lead_name(assessment),
+        one_way.headline
+    );
+    if one_way.conditions_differ == Some(false) && lead_finds == Some(true) {
+        if let Some(fit) = fit.filter(|fit| fit.pooled_df.is_finite()) {
+            let within = fit.pooled_df.round() as usize;
+            detail.push_str(&format!(
+                " That comparison treats each of the {combinations} combinations as a condition of its own and has only the repeats within them to judge by ({within} degree{} of freedom), so it is weaker than the lead's model, which fits a few terms to all the runs together.",
+                if within == 1 { "" } else { "s" }
+            ));
+        }
+    }
+    detail
 }
 
 /// The standard cautions, then one for each context column that changes with a

@@ -150,7 +150,7 @@ pub fn reading_in_words(
     }
     if let Some(point) = &outcome.stationary {
         details.push(format!(
-            "Canonical analysis: eigenvalues {} ({}).",
+            "Canonical analysis: eigenvalues {}: {}.",
             point
                 .eigenvalues
                 .iter()
