@@ -34,6 +34,9 @@ pub(super) fn build_long(
     // Levels by their key (case, spacing and accents folded), with the spellings met.
     let mut level_maps: Vec<HashMap<String, u32>> = vec![HashMap::new(); factors.len()];
     let mut spellings: Vec<Vec<Vec<String>>> = vec![Vec::new(); factors.len()];
+    // How many records carry each spelling (beside `spellings`): a merged condition is
+    // named by its most used spelling.
+    let mut spelling_uses: Vec<Vec<Vec<usize>>> = vec![Vec::new(); factors.len()];
     // Each factor's level by text index, found once per distinct text
     // (`NO_LEVEL`: not looked up yet, `BLANK`: the text is blank).
     const NO_LEVEL: u32 = u32::MAX;
@@ -129,13 +132,25 @@ pub(super) fn build_long(
         }
         for (index, (known, text)) in labels.into_iter().enumerate() {
             let level = match (known, text) {
-                (Some(level), _) => level,
+                (Some(level), _) => {
+                    if let Some(CellValue::Text(text_index)) = row_labels[index] {
+                        let spelling = grid.text(text_index);
+                        if let Some(at) = spellings[index][level as usize]
+                            .iter()
+                            .position(|known| known == spelling)
+                        {
+                            spelling_uses[index][level as usize][at] += 1;
+                        }
+                    }
+                    level
+                }
                 (None, text) => {
                     let text = text.unwrap_or_default();
                     let next = level_maps[index].len() as u32;
                     let level = *level_maps[index].entry(label_key(&text)).or_insert_with(|| {
                         factors[index].levels.push(text.clone());
                         spellings[index].push(Vec::new());
+                        spelling_uses[index].push(Vec::new());
                         next
                     });
                     let spelling = match row_labels[index] {
@@ -143,8 +158,13 @@ pub(super) fn build_long(
                         _ => text,
                     };
                     let known = &mut spellings[index][level as usize];
-                    if !known.contains(&spelling) {
-                        known.push(spelling);
+                    let uses = &mut spelling_uses[index][level as usize];
+                    match known.iter().position(|earlier| *earlier == spelling) {
+                        Some(at) => uses[at] += 1,
+                        None => {
+                            known.push(spelling);
+                            uses.push(1);
+                        }
                     }
                     if let Some(CellValue::Text(text_index)) = row_labels[index] {
                         if let Some(entry) = level_of_text[index].get_mut(text_index as usize) {
@@ -185,7 +205,21 @@ pub(super) fn build_long(
         }
         record_rows.push(row);
     }
-    for (factor, variants) in factors.iter_mut().zip(&spellings) {
+    for ((factor, variants), uses) in factors.iter_mut().zip(&spellings).zip(&spelling_uses) {
+        // A condition written several ways is named by its most used spelling (the
+        // first met among equals), as typed less its outer spaces.
+        for ((level, variants), uses) in factor.levels.iter_mut().zip(variants).zip(uses) {
+            if variants.len() < 2 {
+                continue;
+            }
+            let most = uses.iter().copied().max().unwrap_or(0);
+            if let Some(at) = uses.iter().position(|count| *count == most) {
+                let chosen = variants[at].trim();
+                if !chosen.is_empty() {
+                    *level = chosen.to_string();
+                }
+            }
+        }
         merged_label_findings(sheet, factor, variants, &mut findings);
         order_numeric_levels(factor);
     }

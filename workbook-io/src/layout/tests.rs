@@ -736,6 +736,28 @@ fn cases() -> Vec<Case> {
             }),
         },
         Case {
+            name: "a condition written several ways is named by its most used spelling",
+            rows: &[
+                &["Nozzle", "Fill"],
+                &["standard", "500.1"],
+                &["Standard", "500.3"],
+                &["Wide", "501.0"],
+                &["Standard ", "499.9"],
+                &["Standard", "500.4"],
+                &["Wide", "501.2"],
+            ],
+            merged: &[],
+            request: TableRequest::default(),
+            expect: Expected::Table(TableExpect {
+                layout: Layout::Long,
+                area: "A1:B7",
+                factors: &[("Nozzle", &["Standard", "Wide"], false)],
+                responses: &["Fill"],
+                records: 6,
+                findings: &[(SimilarLabels, "A")],
+            }),
+        },
+        Case {
             name: "wide: a blank between values and text among the numbers",
             rows: &[
                 &["Oven A", "Oven B"],

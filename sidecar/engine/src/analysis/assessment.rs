@@ -413,7 +413,7 @@ pub fn assess(
     } else {
         (
             LeadAnalysis::OneWay,
-            "The spreads look alike and the residuals look normal enough, so the one-way ANOVA with Tukey-Kramer pairs leads.".to_string(),
+            one_way_lead_reason(&checks, smallest_n, non_normal, unequal),
         )
     };
     Assessment {
@@ -700,6 +700,44 @@ fn model_checks(
     }
 }
 
+/// Why the one-way ANOVA leads, said as the checks found it: the reason never calls
+/// the residuals normal when the normality check says they are not (the ANOVA then
+/// leads because every condition has enough values for its average to be close to
+/// normal, common practice), nor the spreads alike when the spread test says they
+/// differ.
+fn one_way_lead_reason(checks: &ModelChecks, smallest_n: u64, non_normal: bool, unequal: bool) -> String {
+    const LEADS: &str = "the one-way ANOVA with Tukey-Kramer pairs leads";
+    let spreads_differ = checks
+        .brown_forsythe_spread
+        .as_ref()
+        .is_some_and(|test| test.p < UNEQUAL_SPREAD_P);
+    let spreads = if unequal {
+        "The conditions' spreads differ, but the analyses that allow for it could not be made".to_string()
+    } else if spreads_differ {
+        format!(
+            "The conditions' spreads differ only a little (largest SD at most {UNEQUAL_SPREAD_RATIO} times the smallest)"
+        )
+    } else if checks.sd_ratio.is_some_and(|ratio| ratio > UNEQUAL_SPREAD_RATIO) {
+        // A ratio of SDs swollen by a stray value, which the median-based test discounts.
+        "The spreads show no clear difference by the Brown-Forsythe test".to_string()
+    } else {
+        "The spreads look alike".to_string()
+    };
+    match checks.normality.as_ref() {
+        Some(normality) if non_normal && smallest_n >= SMALL_GROUP_N => format!(
+            "{spreads}. The residuals are clearly not normal ({}), but the smallest condition has {smallest_n} values, enough for the averages to be compared this way (common practice: averages of {SMALL_GROUP_N} or more values are close to normal whatever the values' shape), so {LEADS}; the rank-based analysis on the sheet 'Other analyses' is there to check it.",
+            crate::analysis::verdict::p_equals(normality.p)
+        ),
+        Some(normality) if non_normal => format!(
+            "{spreads}. The residuals are clearly not normal ({}) and the rank-based analysis could not be made, so {LEADS}; read it with care.",
+            crate::analysis::verdict::p_equals(normality.p)
+        ),
+        Some(_) if !unequal && !spreads_differ => format!("{spreads} and the residuals look normal enough, so {LEADS}."),
+        Some(_) => format!("{spreads}, and the residuals look normal enough, so {LEADS}."),
+        None => format!("{spreads}; the residuals' normality could not be checked, so {LEADS}."),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -767,6 +805,52 @@ mod tests {
                 .is_some_and(|note| note.starts_with("Games-Howell: ")),
             "{:?}",
             assessment.notes
+        );
+    }
+
+    #[test]
+    fn the_lead_reason_says_what_the_checks_found() {
+        // Three conditions of 20 values at normal scores (alike, normal): the usual
+        // reason. Then one gross value in one condition: the residuals are clearly not
+        // normal, the conditions are large enough for the ANOVA to lead all the same,
+        // and the reason says exactly that, never "look normal enough".
+        let names: Vec<String> = ["a", "b", "c"].iter().map(|name| name.to_string()).collect();
+        let mut values = Vec::new();
+        let mut groups = Vec::new();
+        for condition in 0..3u32 {
+            for index in 0..20 {
+                let offset = dist::normal_quantile((index as f64 + 0.5) / 20.0).expect("valid probability");
+                values.push(500.0 + 0.4 * f64::from(condition) + 0.45 * offset);
+                groups.push(condition);
+            }
+        }
+        let assessed = |values: &[f64]| {
+            let fit = fit_one_way(&names, &groups, values, 0.95, &[]).expect("fits");
+            let group_values: Vec<Vec<f64>> = values.chunks(20).map(<[f64]>::to_vec).collect();
+            let records: Vec<Vec<usize>> = (0..3).map(|c| (20 * c..20 * c + 20).collect()).collect();
+            assess(&fit, &group_values, &records, &AssessmentOptions::default())
+        };
+        let clean = assessed(&values);
+        assert_eq!(clean.lead, LeadAnalysis::OneWay);
+        assert_eq!(
+            clean.lead_reason,
+            "The spreads look alike and the residuals look normal enough, so the one-way ANOVA with Tukey-Kramer pairs leads."
+        );
+        let mut gross = values.clone();
+        gross[33] = 512.4;
+        let assessment = assessed(&gross);
+        let normality = assessment.checks.normality.as_ref().expect("a normality check");
+        assert!(normality.p < NON_NORMAL_P, "{}", normality.p);
+        assert_eq!(assessment.lead, LeadAnalysis::OneWay, "{}", assessment.lead_reason);
+        assert!(
+            assessment.lead_reason.contains("The residuals are clearly not normal")
+                && assessment.lead_reason.contains("the smallest condition has 20 values")
+                && assessment
+                    .lead_reason
+                    .starts_with("The spreads show no clear difference by the Brown-Forsythe test.")
+                && !assessment.lead_reason.contains("look normal enough"),
+            "{}",
+            assessment.lead_reason
         );
     }
 
