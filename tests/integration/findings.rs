@@ -75,6 +75,65 @@ fn text_in_numbers() {
     assert_eq!(finding.found, "about 10");
 }
 
+#[test]
+fn a_number_stored_as_text_is_read_and_reported() {
+    // "10.3" typed as text, and "11.2 g" with the column's own unit: both read, each
+    // reported at its cell; "10,6" (a decimal comma or a thousands separator, which
+    // cannot be told apart) and "10.2 kg" (another unit) are left out.
+    let mut rows = base_rows();
+    rows[3][1] = Put::Text("10.3");
+    rows[6][1] = Put::Text(" 11.2 g");
+    rows[7][1] = Put::Text("10,6");
+    rows[8][1] = Put::Text("10.2 kg");
+    let folder = temp_folder();
+    let path = folder.path().join("trial.xlsx");
+    write_rows(&path, "Trial", &rows);
+    let results = analyse_workbook(&path, &AnalysisRequest::default()).expect("analysed");
+    let texts: Vec<&Finding> = results
+        .findings
+        .iter()
+        .filter(|finding| finding.kind == FindingKind::TextInNumbers)
+        .collect();
+    assert_eq!(texts.len(), 4, "{texts:#?}");
+    check(
+        texts[0],
+        "Trial",
+        "B4",
+        &["the number '10.3' stored as text", "read as 10.3"],
+    );
+    check(
+        texts[1],
+        "Trial",
+        "B7",
+        &[
+            "the number '11.2 g' stored as text, with the column's unit g",
+            "read as 11.2",
+        ],
+    );
+    check(texts[2], "Trial", "B8", &["text '10,6'", "left out"]);
+    check(texts[3], "Trial", "B9", &["text '10.2 kg'", "left out"]);
+    // 'old' has 10.3 read from text beside 10.1, 10.4 and 10.2 typed; 'new' has 10.8
+    // typed and 11.2 read.
+    let fit = results.responses[0].fit().expect("analysed");
+    let mean_of = |name: &str| {
+        let condition = fit
+            .conditions
+            .iter()
+            .find(|condition| condition.name == name)
+            .expect(name);
+        (condition.n, condition.mean)
+    };
+    let (n_old, mean_old) = mean_of("old");
+    assert_eq!(n_old, 4);
+    assert!(
+        (mean_old - (10.1 + 10.4 + 10.3 + 10.2) / 4.0).abs() < 1e-12,
+        "{mean_old}"
+    );
+    let (n_new, mean_new) = mean_of("new");
+    assert_eq!(n_new, 2);
+    assert!((mean_new - (10.8 + 11.2) / 2.0).abs() < 1e-12, "{mean_new}");
+}
+
 /// Writes the base table with a formula whose cached result is an error value at B3.
 fn with_error_formula(result: &str) -> Vec<Finding> {
     let folder = temp_folder();

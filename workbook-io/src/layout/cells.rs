@@ -196,6 +196,64 @@ pub(super) fn unusable_number(
     })
 }
 
+/// A number stored as text in a column of numbers ("500.9", "500.9 g" under a header
+/// whose unit is g): the number, with a finding that says it was read. Only plain
+/// decimal numbers are read (a sign, digits, one point, an exponent), followed by
+/// nothing or by the column's own unit; a comma, another unit or any other word
+/// leaves the value out as before (a decimal comma or a thousands separator cannot
+/// be told apart).
+pub(super) fn number_in_text(
+    grid: &SheetGrid,
+    sheet: &str,
+    pos: CellPos,
+    value: CellValue,
+    column_name: &str,
+) -> Option<(f64, Finding)> {
+    let CellValue::Text(index) = value else {
+        return None;
+    };
+    let typed = grid.text(index);
+    let text = typed.trim();
+    let unit = column_unit(column_name);
+    let bare = match unit {
+        Some(unit) if text.ends_with(unit) && text.len() > unit.len() => text[..text.len() - unit.len()].trim_end(),
+        _ => text,
+    };
+    let plain = !bare.is_empty()
+        && bare
+            .chars()
+            .all(|c| c.is_ascii_digit() || matches!(c, '.' | '-' | '+' | 'e' | 'E'))
+        && bare.chars().any(|c| c.is_ascii_digit())
+        && !bare.contains("..");
+    let number = bare.parse::<f64>().ok().filter(|number| plain && number.is_finite())?;
+    let with_unit = if bare.len() < text.len() {
+        format!(", with the column's unit {}", unit.unwrap_or_default())
+    } else {
+        String::new()
+    };
+    Some((
+        number,
+        Finding {
+            kind: FindingKind::TextInNumbers,
+            sheet: sheet.to_string(),
+            cell: Some(pos.a1()),
+            found: typed.to_string(),
+            action: format!("read as the number {number}"),
+            message: format!(
+                "found the number '{text}' stored as text{with_unit} in the numbers of '{column_name}'; it was read as {number}: enter it as a number in the sheet"
+            ),
+        },
+    ))
+}
+
+/// The unit a column's name ends with in parentheses: "Fill weight (g)" is in g.
+fn column_unit(name: &str) -> Option<&str> {
+    let inner = name.trim_end().strip_suffix(')')?;
+    let open = inner.rfind('(')?;
+    let unit = inner[open + 1..].trim();
+    (!unit.is_empty()).then_some(unit)
+}
+
 /// Reports each level that was written in more than one way (case, spacing, accents):
 /// the variants were merged into the level's first spelling.
 pub(super) fn merged_label_findings(sheet: &str, factor: &Factor, variants: &[Vec<String>], findings: &mut Findings) {

@@ -5,7 +5,7 @@ use std::collections::HashMap;
 use crate::cell::{CellPos, CellRect, CellValue};
 use crate::read::SheetGrid;
 
-use super::cells::{label_key, label_text, merged_label_findings, unusable_number, value_text};
+use super::cells::{label_key, label_text, merged_label_findings, number_in_text, unusable_number, value_text};
 use super::header::{column_finding, row_spans, ColumnIndex, HeaderColumn};
 use super::{Factor, Finding, FindingKind, Findings, Layout, Response, TrialTable};
 
@@ -180,12 +180,18 @@ pub(super) fn build_long(
             let pos = CellPos::new(row, response_cols[index]);
             let value = match slot {
                 Some(CellValue::Number(number)) if number.is_finite() => *number,
-                Some(other) => {
-                    if let Some(finding) = unusable_number(grid, sheet, pos, *other, &responses[index].name) {
+                Some(other) => match number_in_text(grid, sheet, pos, *other, &responses[index].name) {
+                    Some((number, finding)) => {
                         findings.push(finding);
+                        number
                     }
-                    f64::NAN
-                }
+                    None => {
+                        if let Some(finding) = unusable_number(grid, sheet, pos, *other, &responses[index].name) {
+                            findings.push(finding);
+                        }
+                        f64::NAN
+                    }
+                },
                 None => {
                     findings.push(Finding {
                         kind: FindingKind::BlankValue,

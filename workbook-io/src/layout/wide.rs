@@ -3,7 +3,7 @@
 use crate::cell::{CellPos, CellRect, CellValue};
 use crate::read::SheetGrid;
 
-use super::cells::{label_key, unusable_number};
+use super::cells::{label_key, number_in_text, unusable_number};
 use super::header::{ColumnIndex, HeaderColumn};
 use super::{Factor, Finding, FindingKind, Findings, Layout, Response, TrialTable};
 
@@ -110,11 +110,20 @@ pub(super) fn build_wide(
                 record_rows.push(pos.row);
                 record_cols.push(pos.col);
             }
-            other => {
-                if let Some(finding) = unusable_number(grid, sheet, *pos, *other, &names[column]) {
+            other => match number_in_text(grid, sheet, *pos, *other, &names[column]) {
+                Some((number, finding)) => {
                     findings.push(finding);
+                    level_of_record.push(level as u32);
+                    values.push(number);
+                    record_rows.push(pos.row);
+                    record_cols.push(pos.col);
                 }
-            }
+                None => {
+                    if let Some(finding) = unusable_number(grid, sheet, *pos, *other, &names[column]) {
+                        findings.push(finding);
+                    }
+                }
+            },
         }
     }
     let first_col = level_columns.iter().copied().min().unwrap_or(0);
