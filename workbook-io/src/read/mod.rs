@@ -12,6 +12,9 @@ mod merged;
 mod sheet_xml;
 #[cfg(test)]
 mod sheet_xml_tests;
+mod xls_cells;
+#[cfg(test)]
+mod xls_cells_tests;
 
 use std::collections::HashMap;
 use std::fs::File;
@@ -468,7 +471,11 @@ pub struct Workbook {
     format: Format,
     sheets: Vec<SheetInfo>,
     defined_names: Vec<(String, String)>,
-    inner: Sheets<BufReader<File>>,
+    /// calamine's reader; None when calamine refused an xls workbook that
+    /// [`xls_cells`] reads instead.
+    inner: Option<Sheets<BufReader<File>>>,
+    /// The tolerant xls reader, when calamine refused the workbook.
+    own_xls: Option<xls_cells::XlsBook>,
     limits: ReadLimits,
     macro_enabled: bool,
     /// The direct xlsx reader's open archive and parts, kept across sheets
@@ -603,16 +610,69 @@ pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadE
             Format::Ods => Sheets::Ods(Ods::new(reader).map_err(|error| error.to_string())?),
         })
     });
-    let inner = match opened {
-        Ok(Ok(inner)) => inner,
+    let refusal = match opened {
+        Ok(Ok(inner)) if container.format == Format::Xls => {
+            // calamine leaves out a shared-text cell that points past the
+            // table; such a workbook is read by the tolerant reader, where
+            // the cell is a finding at its address.
+            match xls_cells::XlsBook::open(path, limits.max_file_bytes) {
+                Ok(book) if book.has_dangling_shared_text() => return Ok(own_xls_workbook(path, book, limits)),
+                _ => return Ok(workbook_of(path, &container, inner, limits)),
+            }
+        }
+        Ok(Ok(inner)) => return Ok(workbook_of(path, &container, inner, limits)),
         Ok(Err(detail)) if detail.to_lowercase().contains("password") => {
             return Err(ReadError::PasswordProtected {
                 path: path.to_path_buf(),
             })
         }
-        Ok(Err(detail)) => return Err(corrupt(detail)),
-        Err(payload) => return Err(corrupt(panic_text(payload))),
+        Ok(Err(detail)) => corrupt(detail),
+        Err(payload) => corrupt(panic_text(payload)),
     };
+    if container.format != Format::Xls {
+        return Err(refusal);
+    }
+    // calamine refuses an xls workbook for one cell it cannot read; the
+    // tolerant reader reads it again and makes such cells findings.
+    match xls_cells::XlsBook::open(path, limits.max_file_bytes) {
+        Ok(book) if book.sheets.iter().any(|sheet| sheet.worksheet) => Ok(own_xls_workbook(path, book, limits)),
+        Err(xls_cells::XlsRefusal::Password) => Err(ReadError::PasswordProtected {
+            path: path.to_path_buf(),
+        }),
+        _ => Err(refusal),
+    }
+}
+
+/// The [`Workbook`] over the tolerant xls reader.
+fn own_xls_workbook(path: &Path, book: xls_cells::XlsBook, limits: &ReadLimits) -> Workbook {
+    Workbook {
+        path: path.to_path_buf(),
+        format: Format::Xls,
+        sheets: book
+            .sheets
+            .iter()
+            .filter(|sheet| sheet.worksheet)
+            .map(|sheet| SheetInfo {
+                name: sheet.name.clone(),
+                visible: sheet.visible,
+            })
+            .collect(),
+        defined_names: Vec::new(),
+        inner: None,
+        own_xls: Some(book),
+        limits: limits.clone(),
+        macro_enabled: false,
+        direct: None,
+    }
+}
+
+/// The [`Workbook`] over calamine's opened reader.
+fn workbook_of(
+    path: &Path,
+    container: &guard::Container,
+    inner: Sheets<BufReader<File>>,
+    limits: &ReadLimits,
+) -> Workbook {
     let sheets = inner
         .sheets_metadata()
         .iter()
@@ -627,16 +687,17 @@ pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadE
         let mut probe = inner_vba_probe(path);
         probe.take().unwrap_or(false)
     };
-    Ok(Workbook {
+    Workbook {
         path: path.to_path_buf(),
         format: container.format,
         sheets,
         defined_names,
-        inner,
+        inner: Some(inner),
+        own_xls: None,
         limits: limits.clone(),
         macro_enabled,
         direct: None,
-    })
+    }
 }
 
 fn inner_vba_probe(path: &Path) -> Option<bool> {
@@ -728,7 +789,7 @@ impl Workbook {
                 return Ok((sheet, rect));
             }
         }
-        if let Sheets::Xlsx(xlsx) = &mut self.inner {
+        if let Some(Sheets::Xlsx(xlsx)) = &mut self.inner {
             if let Some(found) = table_reference(&self.path, xlsx, wanted) {
                 return Ok(found);
             }
@@ -761,8 +822,26 @@ impl Workbook {
         let mut merged = Vec::new();
         let mut skimmed_merged: Option<Vec<CellRect>> = None;
         let mut hidden = merged::Hidden::default();
+        if let Some(book) = &self.own_xls {
+            // Our own reader: written to refuse nothing and panic on nothing,
+            // so it runs unguarded (and the fuzz targets see any slip).
+            let index = book.sheets.iter().position(|info| info.name == sheet && info.worksheet);
+            let Some(areas) = index.and_then(|index| book.read_sheet(index, &mut builder)) else {
+                return Err(ReadError::TooManyCells {
+                    path: self.path.clone(),
+                    sheet: sheet.to_string(),
+                    limit: max_cells,
+                });
+            };
+            let mut grid = builder.finish();
+            grid.merged = areas;
+            return Ok(grid);
+        }
         let outcome = parse_guarded(|| -> Result<bool, String> {
-            match &mut self.inner {
+            let Some(inner) = &mut self.inner else {
+                return Ok(true);
+            };
+            match inner {
                 Sheets::Xlsx(xlsx) => {
                     let book = if direct {
                         self.direct
