@@ -49,9 +49,9 @@ fn workbook_part() -> Vec<u8> {
     bundle.extend(wide("rId1"));
     bundle.extend(wide("Trial"));
     let mut part = record(0x0083, &[]); // BrtBeginBook
-    part.extend(record(0x018F, &[])); // BrtBeginBundleShs
+    part.extend(record(0x008F, &[])); // BrtBeginBundleShs
     part.extend(record(0x009C, &bundle)); // BrtBundleSh
-    part.extend(record(0x0190, &[])); // BrtEndBundleShs
+    part.extend(record(0x0090, &[])); // BrtEndBundleShs
     part.extend(record(0x0084, &[])); // BrtEndBook
     part
 }

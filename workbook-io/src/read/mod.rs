@@ -15,6 +15,9 @@ mod sheet_xml_tests;
 mod xls_cells;
 #[cfg(test)]
 mod xls_cells_tests;
+mod xlsb_cells;
+#[cfg(test)]
+mod xlsb_cells_tests;
 
 use std::collections::HashMap;
 use std::fs::File;
@@ -822,6 +825,26 @@ impl Workbook {
         let mut merged = Vec::new();
         let mut skimmed_merged: Option<Vec<CellRect>> = None;
         let mut hidden = merged::Hidden::default();
+        let mut xlsb_refusal: Option<String> = None;
+        let mut xlsb_source = None;
+        if matches!(self.inner, Some(Sheets::Xlsb(_))) {
+            // A sheet with a damaged cell record is read by the tolerant
+            // reader alone: calamine would stop at it or read it wrong.
+            xlsb_source = xlsb_cells::SheetSource::open(&self.path, sheet, max_entry_bytes);
+            if let Some(source) = xlsb_source.as_mut() {
+                if source.has_damage() {
+                    return if source.read(&mut builder) {
+                        Ok(builder.finish())
+                    } else {
+                        Err(ReadError::TooManyCells {
+                            path: self.path.clone(),
+                            sheet: sheet.to_string(),
+                            limit: max_cells,
+                        })
+                    };
+                }
+            }
+        }
         if let Some(book) = &self.own_xls {
             // Our own reader: written to refuse nothing and panic on nothing,
             // so it runs unguarded (and the fuzz targets see any slip).
@@ -882,12 +905,22 @@ impl Workbook {
                     }
                 }
                 Sheets::Xlsb(xlsb) => {
-                    let mut reader = xlsb.worksheet_cells_reader(sheet).map_err(|error| error.to_string())?;
-                    while let Some(cell) = reader.next_cell().map_err(|error| error.to_string())? {
-                        let (row, col) = cell.get_position();
-                        if !builder.push_data(row, col, cell.get_value()) {
-                            return Ok(false);
+                    let read = parse_guarded(|| -> Result<bool, String> {
+                        let mut reader = xlsb.worksheet_cells_reader(sheet).map_err(|error| error.to_string())?;
+                        while let Some(cell) = reader.next_cell().map_err(|error| error.to_string())? {
+                            let (row, col) = cell.get_position();
+                            if !builder.push_data(row, col, cell.get_value()) {
+                                return Ok(false);
+                            }
                         }
+                        Ok(true)
+                    });
+                    match read {
+                        Ok(Ok(under_cap)) => return Ok(under_cap),
+                        // calamine stops the sheet at the first cell it cannot
+                        // read: the tolerant reader reads it again (below).
+                        Ok(Err(detail)) => xlsb_refusal = Some(detail),
+                        Err(payload) => xlsb_refusal = Some(panic_text(payload)),
                     }
                 }
                 Sheets::Xls(xls) => {
@@ -920,6 +953,21 @@ impl Workbook {
             }
             Ok(true)
         });
+        if let (Some(detail), Ok(Ok(true))) = (xlsb_refusal, &outcome) {
+            // Our own reader, unguarded as the xls one is.
+            builder = GridBuilder::new(sheet, window, max_cells);
+            let Some(source) = xlsb_source.as_mut() else {
+                return Err(corrupt(detail));
+            };
+            if !source.read(&mut builder) {
+                return Err(ReadError::TooManyCells {
+                    path: self.path.clone(),
+                    sheet: sheet.to_string(),
+                    limit: max_cells,
+                });
+            }
+            return Ok(builder.finish());
+        }
         match outcome {
             Ok(Ok(true)) => {}
             Ok(Ok(false)) => {

@@ -253,7 +253,7 @@ fn rk_number(rk: u32) -> f64 {
 }
 
 /// The text of a BErr error code (MS-XLS 2.5.20), as calamine writes it.
-fn error_text(code: u8) -> Option<&'static str> {
+pub(super) fn error_text(code: u8) -> Option<&'static str> {
     Some(match code {
         0x00 => "#NULL!",
         0x07 => "#DIV/0!",
@@ -685,6 +685,6 @@ impl XlsBook {
 }
 
 /// An unreadable cell: an error cell whose text says what was wrong.
-fn damaged(builder: &mut GridBuilder, record: &str, what: &str) -> CellValue {
+pub(super) fn damaged(builder: &mut GridBuilder, record: &str, what: &str) -> CellValue {
     CellValue::Error(builder.intern(&format!("a damaged {record} record: {what}")))
 }
