@@ -239,7 +239,7 @@ fn rich_string(reader: &mut Segments<'_>) -> Option<String> {
 }
 
 /// The number an RK value stands for (MS-XLS 2.5.218).
-fn rk_number(rk: u32) -> f64 {
+pub(super) fn rk_number(rk: u32) -> f64 {
     let value = if rk & 0x02 != 0 {
         f64::from((rk as i32) >> 2)
     } else {

@@ -4,20 +4,12 @@
 //! reads every other cell as calamine reads the undamaged file. The records
 //! are built from their layouts in [MS-XLS] (section numbers beside each).
 
-use std::io::Write;
 use std::path::Path;
 
 use super::xls_cells::XlsBook;
 use super::{open_workbook, GridBuilder, ReadLimits, SheetGrid};
 use crate::cell::{CellPos, CellValue};
-
-/// One record: type, length, body (MS-XLS 2.1.4).
-pub(crate) fn record(kind: u16, body: &[u8]) -> Vec<u8> {
-    let mut bytes = kind.to_le_bytes().to_vec();
-    bytes.extend((body.len() as u16).to_le_bytes());
-    bytes.extend(body);
-    bytes
-}
+use crate::testing::{biff8_record as record, xls_stream};
 
 fn head(row: u16, col: u16) -> Vec<u8> {
     let mut body = row.to_le_bytes().to_vec();
@@ -27,7 +19,7 @@ fn head(row: u16, col: u16) -> Vec<u8> {
 }
 
 /// Number (2.4.180).
-pub(crate) fn number(row: u16, col: u16, value: f64) -> Vec<u8> {
+fn number(row: u16, col: u16, value: f64) -> Vec<u8> {
     let mut body = head(row, col);
     body.extend(value.to_le_bytes());
     record(0x0203, &body)
@@ -53,7 +45,7 @@ fn mul_rk(row: u16, first: u16, values: &[u32]) -> Vec<u8> {
 }
 
 /// LabelSst (2.4.149).
-pub(crate) fn label_sst(row: u16, col: u16, index: u32) -> Vec<u8> {
+fn label_sst(row: u16, col: u16, index: u32) -> Vec<u8> {
     let mut body = head(row, col);
     body.extend(index.to_le_bytes());
     record(0x00FD, &body)
@@ -69,7 +61,7 @@ fn label(row: u16, col: u16, text: &str) -> Vec<u8> {
 }
 
 /// BoolErr (2.4.24): value, then 0 for TRUE/FALSE or 1 for an error code.
-pub(crate) fn bool_err(row: u16, col: u16, value: u8, is_error: bool) -> Vec<u8> {
+fn bool_err(row: u16, col: u16, value: u8, is_error: bool) -> Vec<u8> {
     let mut body = head(row, col);
     body.extend([value, u8::from(is_error)]);
     record(0x0205, &body)
@@ -94,54 +86,8 @@ fn string(text: &str) -> Vec<u8> {
     record(0x0207, &body)
 }
 
-/// A BIFF8 Workbook stream: globals with a shared-strings table and one
-/// worksheet "Trial" holding `cells`; `tail` is appended after the sheet's
-/// EOF record is left out when `cut` (a stream that ends inside a record).
-pub(crate) fn workbook_stream(strings: &[&str], cells: &[Vec<u8>], cut: Option<Vec<u8>>) -> Vec<u8> {
-    let bof = |dt: u16| {
-        let mut body = 0x0600u16.to_le_bytes().to_vec();
-        body.extend(dt.to_le_bytes());
-        body.extend([0u8; 12]);
-        record(0x0809, &body)
-    };
-    // SST (2.4.265): total and unique counts, then XLUnicodeRichExtendedStrings (2.5.293).
-    let mut sst = (strings.len() as u32).to_le_bytes().to_vec();
-    sst.extend((strings.len() as u32).to_le_bytes());
-    for text in strings {
-        sst.extend((text.len() as u16).to_le_bytes());
-        sst.push(0);
-        sst.extend(text.as_bytes());
-    }
-    let sst = record(0x00FC, &sst);
-    let name = b"Trial";
-    let bound_len = 4 + 8 + name.len();
-    let globals_len = bof(5).len() + sst.len() + bound_len + 4;
-    // BoundSheet8 (2.4.28): the sheet's BOF position, visible, worksheet, name.
-    let mut bound = (globals_len as u32).to_le_bytes().to_vec();
-    bound.extend([0u8, 0u8, name.len() as u8, 0u8]);
-    bound.extend(name);
-    let mut stream = bof(5);
-    stream.extend(sst);
-    stream.extend(record(0x0085, &bound));
-    stream.extend(record(0x000A, &[]));
-    assert_eq!(stream.len(), globals_len);
-    stream.extend(bof(0x10));
-    for cell in cells {
-        stream.extend(cell);
-    }
-    match cut {
-        Some(partial) => stream.extend(partial),
-        None => stream.extend(record(0x000A, &[])),
-    }
-    stream
-}
-
-pub(crate) fn write_xls(path: &Path, stream: &[u8]) {
-    let mut compound = cfb::create(path).expect("a compound file");
-    let mut writer = compound.create_stream("Workbook").expect("a stream");
-    writer.write_all(stream).expect("written");
-    drop(writer);
-    compound.flush().expect("flushed");
+fn write_xls(path: &Path, stream: &[u8]) {
+    std::fs::write(path, crate::testing::xls_file(stream)).expect("written");
 }
 
 const STRINGS: [&str; 4] = ["Line", "Width (mm)", "upper", "lower"];
@@ -195,7 +141,7 @@ fn read(stream: &[u8]) -> SheetGrid {
 }
 
 /// A value in words that do not depend on the string pool's order.
-fn shown(grid: &SheetGrid, value: CellValue) -> String {
+pub(super) fn shown(grid: &SheetGrid, value: CellValue) -> String {
     match value {
         CellValue::Text(index) => format!("text {}", grid.text(index)),
         CellValue::Error(index) => format!("error {}", grid.text(index)),
@@ -203,7 +149,7 @@ fn shown(grid: &SheetGrid, value: CellValue) -> String {
     }
 }
 
-fn listed(grid: &SheetGrid) -> Vec<(String, String)> {
+pub(super) fn listed(grid: &SheetGrid) -> Vec<(String, String)> {
     grid.cells
         .iter()
         .map(|(pos, value)| (pos.a1(), shown(grid, *value)))
@@ -212,7 +158,7 @@ fn listed(grid: &SheetGrid) -> Vec<(String, String)> {
 
 #[test]
 fn on_a_sound_workbook_the_tolerant_reader_reads_what_calamine_reads() {
-    let stream = workbook_stream(&STRINGS, &sound_cells(), None);
+    let stream = xls_stream(&STRINGS, &sound_cells(), None);
     assert!(
         !calamine_refuses_or_loses(&stream, CellPos::new(1, 1)),
         "the sound stream must open in calamine"
@@ -233,35 +179,40 @@ fn on_a_sound_workbook_the_tolerant_reader_reads_what_calamine_reads() {
 /// partial record instead of the last cell) and checks the damaged cell and
 /// every other cell against calamine's reading of the sound workbook.
 fn check_damage(index: usize, damaged: Vec<u8>, cell: &str, said: &str, cut: bool) {
-    let sound = read(&workbook_stream(&STRINGS, &sound_cells(), None));
+    let sound = read(&xls_stream(&STRINGS, &sound_cells(), None));
     let mut cells = sound_cells();
     let stream = if cut {
         cells.truncate(index);
-        workbook_stream(&STRINGS, &cells, Some(damaged))
+        xls_stream(&STRINGS, &cells, Some(damaged))
     } else {
         cells[index] = damaged;
-        workbook_stream(&STRINGS, &cells, None)
+        xls_stream(&STRINGS, &cells, None)
     };
     let at = crate::cell::parse_a1(cell).expect("an A1 address");
     assert!(
         calamine_refuses_or_loses(&stream, at),
         "{cell}: calamine must refuse the damaged workbook or lose the cell"
     );
-    let grid = read(&stream);
+    compare_with_sound(&sound, &read(&stream), at, said);
+}
+
+/// The cell at `at` of `grid` is an unreadable cell whose description holds
+/// `said`; every other cell of `sound` is in `grid` with the same value.
+pub(super) fn compare_with_sound(sound: &SheetGrid, grid: &SheetGrid, at: CellPos, said: &str) {
     let mut compared = 0;
     for (pos, value) in &sound.cells {
         let found = grid.get(*pos);
-        if pos.a1() == cell {
+        if *pos == at {
             match found {
                 Some(CellValue::Error(text)) => {
                     let text = grid.text(text);
-                    assert!(!text.starts_with('#') && text.contains(said), "{cell}: {text}");
+                    assert!(!text.starts_with('#') && text.contains(said), "{}: {text}", at.a1());
                 }
-                other => panic!("{cell}: {other:?}"),
+                other => panic!("{}: {other:?}", at.a1()),
             }
         } else {
             let found = found.unwrap_or_else(|| panic!("{} was lost", pos.a1()));
-            assert_eq!(shown(&grid, found), shown(&sound, *value), "{}", pos.a1());
+            assert_eq!(shown(grid, found), shown(sound, *value), "{}", pos.a1());
             compared += 1;
         }
     }
@@ -325,7 +276,7 @@ fn hostile_counts_and_lengths_cost_nothing() {
     let mut long_label = head(4, 0);
     long_label.extend(u16::MAX.to_le_bytes());
     long_label.extend([0, b'x']);
-    let mut stream = workbook_stream(
+    let mut stream = xls_stream(
         &[],
         &[
             number(0, 0, 1.0),

@@ -21,7 +21,8 @@ use std::path::Path;
 use crate::cell::CellValue;
 
 use super::sheet_xml::{is_builtin_date_id, is_date_format};
-use super::xls_cells::{damaged, error_text};
+// An RkNumber (MS-XLSB 2.5.122) is laid out as the RK of MS-XLS 2.5.218.
+use super::xls_cells::{damaged, error_text, rk_number};
 use super::GridBuilder;
 
 /// One record: its type and body; `cut` when the part ends inside it.
@@ -149,20 +150,6 @@ fn wide_string(bytes: &[u8], at: usize) -> Option<String> {
         .map(|pair| u16::from_le_bytes([pair[0], pair[1]]))
         .collect();
     Some(String::from_utf16_lossy(&units))
-}
-
-/// The number an RkNumber stands for (MS-XLSB 2.5.122).
-fn rk_number(rk: u32) -> f64 {
-    let value = if rk & 0x02 != 0 {
-        f64::from((rk as i32) >> 2)
-    } else {
-        f64::from_bits(u64::from(rk & 0xFFFF_FFFC) << 32)
-    };
-    if rk & 0x01 != 0 {
-        value / 100.0
-    } else {
-        value
-    }
 }
 
 /// Names of the cell records, for descriptions of damaged ones.

@@ -4,38 +4,12 @@
 //! every other cell as calamine reads the sound file. Records are built from
 //! their layouts in [MS-XLSB] (section numbers beside each).
 
-use std::io::Write;
 use std::path::Path;
 
+use super::xls_cells_tests::{compare_with_sound, listed};
 use super::{open_workbook, GridBuilder, ReadLimits, SheetGrid};
 use crate::cell::{CellPos, CellValue};
-
-/// One record (2.1.4): type and size as little-endian base-128 numbers, then the body.
-pub(crate) fn record(kind: u16, body: &[u8]) -> Vec<u8> {
-    let mut bytes = Vec::new();
-    for (mut value, _) in [(u32::from(kind), 0), (body.len() as u32, 1)] {
-        loop {
-            let byte = (value & 0x7F) as u8;
-            value >>= 7;
-            if value == 0 {
-                bytes.push(byte);
-                break;
-            }
-            bytes.push(byte | 0x80);
-        }
-    }
-    bytes.extend_from_slice(body);
-    bytes
-}
-
-fn wide(text: &str) -> Vec<u8> {
-    let units: Vec<u16> = text.encode_utf16().collect();
-    let mut bytes = (units.len() as u32).to_le_bytes().to_vec();
-    for unit in units {
-        bytes.extend(unit.to_le_bytes());
-    }
-    bytes
-}
+use crate::testing::{biff12_record as record, biff12_wide as wide};
 
 /// A Cell (2.5.9): column, style 0 and no flags.
 fn cell(col: u32, value: &[u8]) -> Vec<u8> {
@@ -116,47 +90,10 @@ fn sheet_part(cells: &[Vec<u8>], cut: Option<Vec<u8>>) -> Vec<u8> {
     part
 }
 
-const CONTENT_TYPES: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types"><Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/><Default Extension="bin" ContentType="application/vnd.ms-excel.sheet.binary.macroEnabled.main"/></Types>"#;
-const ROOT_RELS: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships"><Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/officeDocument" Target="xl/workbook.bin"/></Relationships>"#;
-const WORKBOOK_RELS: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships"><Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/worksheet" Target="worksheets/sheet1.bin"/><Relationship Id="rId2" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/sharedStrings" Target="sharedStrings.bin"/></Relationships>"#;
-
 /// An xlsb container with one sheet "Trial" holding `sheet` and the shared strings.
-pub(crate) fn write_xlsb(path: &Path, sheet: &[u8], strings: &[&str]) {
-    // BrtBundleSh (2.4.304): state, sheet id, relationship id, name.
-    let mut bundle = 0u32.to_le_bytes().to_vec();
-    bundle.extend(1u32.to_le_bytes());
-    bundle.extend(wide("rId1"));
-    bundle.extend(wide("Trial"));
-    let mut workbook = record(0x0083, &[]);
-    workbook.extend(record(0x008F, &[]));
-    workbook.extend(record(0x009C, &bundle));
-    workbook.extend(record(0x0090, &[]));
-    workbook.extend(record(0x0084, &[]));
-    // BrtBeginSst (2.4.26): total and unique counts; BrtSSTItem (2.4.727): flags, text.
-    let mut shared = (strings.len() as u32).to_le_bytes().to_vec();
-    shared.extend((strings.len() as u32).to_le_bytes());
-    let mut sst = record(0x009F, &shared);
-    for text in strings {
-        let mut item = vec![0u8];
-        item.extend(wide(text));
-        sst.extend(record(0x0013, &item));
-    }
-    sst.extend(record(0x00A0, &[]));
-    let file = std::fs::File::create(path).expect("created");
-    let mut zip = zip::ZipWriter::new(file);
-    let options = zip::write::SimpleFileOptions::default().compression_method(zip::CompressionMethod::Stored);
-    for (name, bytes) in [
-        ("[Content_Types].xml", CONTENT_TYPES.as_bytes()),
-        ("_rels/.rels", ROOT_RELS.as_bytes()),
-        ("xl/workbook.bin", &workbook),
-        ("xl/_rels/workbook.bin.rels", WORKBOOK_RELS.as_bytes()),
-        ("xl/worksheets/sheet1.bin", sheet),
-        ("xl/sharedStrings.bin", &sst),
-    ] {
-        zip.start_file(name, options).expect("an entry");
-        zip.write_all(bytes).expect("written");
-    }
-    zip.finish().expect("finished");
+fn write_xlsb(path: &Path, sheet: &[u8], strings: &[&str]) {
+    let parts = crate::testing::xlsb_parts(sheet, strings);
+    std::fs::write(path, crate::testing::zip_of(&parts)).expect("written");
 }
 
 /// What calamine's xlsb cell reader gives at `at`: None when it stops,
@@ -186,21 +123,6 @@ fn calamine_reading(path: &Path, at: CellPos) -> Option<String> {
 fn read(path: &Path) -> SheetGrid {
     let mut workbook = open_workbook(path, &ReadLimits::default()).expect("opened, not refused");
     workbook.read_sheet("Trial", None).expect("read, not refused")
-}
-
-fn shown(grid: &SheetGrid, value: CellValue) -> String {
-    match value {
-        CellValue::Text(index) => format!("text {}", grid.text(index)),
-        CellValue::Error(index) => format!("error {}", grid.text(index)),
-        other => format!("{other:?}"),
-    }
-}
-
-fn listed(grid: &SheetGrid) -> Vec<(String, String)> {
-    grid.cells
-        .iter()
-        .map(|(pos, value)| (pos.a1(), shown(grid, *value)))
-        .collect()
 }
 
 #[test]
@@ -243,25 +165,7 @@ fn check_damage(index: usize, damaged: Vec<u8>, cell: &str, said: &str, cut: boo
         by_calamine.is_none() || by_calamine != calamine_reading(&sound_path, at),
         "{cell}: calamine reads the damaged cell as the sound one"
     );
-    let grid = read(&path);
-    let mut compared = 0;
-    for (pos, value) in &sound.cells {
-        let found = grid.get(*pos);
-        if *pos == at {
-            match found {
-                Some(CellValue::Error(text)) => {
-                    let text = grid.text(text);
-                    assert!(!text.starts_with('#') && text.contains(said), "{cell}: {text}");
-                }
-                other => panic!("{cell}: {other:?}"),
-            }
-        } else {
-            let found = found.unwrap_or_else(|| panic!("{} was lost", pos.a1()));
-            assert_eq!(shown(&grid, found), shown(&sound, *value), "{}", pos.a1());
-            compared += 1;
-        }
-    }
-    assert_eq!(compared, sound.cells.len() - 1);
+    compare_with_sound(&sound, &read(&path), at, said);
 }
 
 #[test]
