@@ -832,7 +832,7 @@ impl Workbook {
             // reader alone: calamine would stop at it or read it wrong.
             xlsb_source = xlsb_cells::SheetSource::open(&self.path, sheet, max_entry_bytes);
             if let Some(source) = xlsb_source.as_mut() {
-                if source.has_damage() {
+                if source.calamine_misreads() {
                     return if source.read(&mut builder) {
                         Ok(builder.finish())
                     } else {

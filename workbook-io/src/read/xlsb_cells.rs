@@ -288,12 +288,12 @@ impl SheetSource {
     }
 
     /// Whether the sheet holds a cell record that calamine would read wrong
-    /// or not at all (see [`has_damage`]).
-    pub(crate) fn has_damage(&mut self) -> bool {
+    /// or not at all (see [`calamine_misreads`]).
+    pub(crate) fn calamine_misreads(&mut self) -> bool {
         let Ok(entry) = self.archive.by_name(&self.part) else {
             return false;
         };
-        has_damage(BufReader::new(entry.take(self.limit)), &self.parts)
+        calamine_misreads(BufReader::new(entry.take(self.limit)), &self.parts)
     }
 
     /// Reads the sheet's cells into `builder`; false when the cap was reached.
@@ -342,18 +342,21 @@ fn read_cells<R: Read>(part: R, parts: &Parts, builder: &mut GridBuilder) -> boo
     true
 }
 
-/// Whether a sheet part holds a cell record this reader would call damaged:
-/// calamine reads a record shorter than its type needs from the bytes left
-/// in its buffer by the record before (a wrong value, without a word), so a
-/// sheet with one is read by this reader instead.
-fn has_damage<R: Read>(part: R, parts: &Parts) -> bool {
+/// Whether a sheet part holds a cell that calamine reads wrong or not at
+/// all, so that the sheet is read by this reader instead: a record shorter
+/// than its type needs (calamine reads the rest from the bytes left in its
+/// buffer by the record before: a wrong value, without a word), or a formula
+/// whose cached result is an error value (BrtFmlaError, which calamine's cell
+/// reader passes over: the cell would be lost).
+fn calamine_misreads<R: Read>(part: R, parts: &Parts) -> bool {
     let mut stream = RecordStream::new(part);
     let mut in_data = false;
     while let Some(record) = stream.next_record() {
         match record.kind {
             0x0091 => in_data = true,
             0x0092 => return false,
-            0x0002..=0x000B if in_data && record.body.len() >= 4 => {
+            0x000B if in_data => return true,
+            0x0002..=0x000A if in_data && record.body.len() >= 4 => {
                 if matches!(decode(&record, parts), Decoded::Damaged(_)) {
                     return true;
                 }

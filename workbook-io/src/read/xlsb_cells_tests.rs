@@ -135,7 +135,7 @@ fn on_a_sound_sheet_the_tolerant_reader_reads_what_calamine_reads() {
     assert_eq!(by_calamine.cells.len(), 15, "{:?}", listed(&by_calamine));
     let mut builder = GridBuilder::new("Trial", None, 1000);
     let mut source = super::xlsb_cells::SheetSource::open(&path, "Trial", 1 << 20).expect("the sheet's part");
-    assert!(!source.has_damage());
+    assert!(!source.calamine_misreads());
     assert!(source.read(&mut builder));
     let ours = builder.finish();
     assert_eq!(listed(&ours), listed(&by_calamine));
@@ -196,4 +196,27 @@ fn a_record_cut_by_the_end_of_the_part_is_an_unreadable_cell() {
     let mut partial = record(0x0005, &cell(2, &1.5f64.to_le_bytes()));
     partial.truncate(partial.len() - 4);
     check_damage(19, partial, "C5", "where the part ends", true);
+}
+
+#[test]
+fn a_formula_with_an_error_result_is_read_not_lost() {
+    // BrtFmlaError (2.4.682): a Cell, the error code (0x07, #DIV/0!), flags, formula.
+    let mut value = vec![0x07u8];
+    value.extend(trailer());
+    let mut records = sound_records();
+    records[15] = record(0x000B, &cell(2, &value));
+    let folder = tempfile::tempdir().expect("temporary folder");
+    let path = folder.path().join("division.xlsb");
+    write_xlsb(&path, &sheet_part(&records, None), &STRINGS);
+    assert_eq!(
+        calamine_reading(&path, CellPos::new(3, 2)),
+        None,
+        "calamine passes the cell over"
+    );
+    let grid = read(&path);
+    match grid.get(CellPos::new(3, 2)) {
+        Some(CellValue::Error(text)) => assert_eq!(grid.text(text), "#DIV/0!"),
+        other => panic!("C4: {other:?}"),
+    }
+    assert_eq!(grid.cells.len(), 15);
 }
