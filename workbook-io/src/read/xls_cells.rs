@@ -416,8 +416,17 @@ impl XlsBook {
     /// the table: calamine leaves such a cell out without a word, so a
     /// workbook that has one is read here instead, where it is a finding.
     pub(crate) fn has_dangling_shared_text(&self) -> bool {
-        self.sheets.iter().filter(|sheet| sheet.worksheet).any(|sheet| {
-            records(&self.stream, sheet.offset)
+        let mut offsets: Vec<usize> = self
+            .sheets
+            .iter()
+            .filter(|sheet| sheet.worksheet)
+            .map(|sheet| sheet.offset)
+            .collect();
+        // Sheets listed twice at one place are walked once.
+        offsets.sort_unstable();
+        offsets.dedup();
+        offsets.into_iter().any(|offset| {
+            records(&self.stream, offset)
                 .skip(1)
                 .take_while(|record| record.kind != 0x000A && record.kind != 0x0809)
                 .any(|record| {
