@@ -13,6 +13,7 @@ mod batch;
 mod batch_directions;
 mod catalogue;
 mod catalogue_cells;
+mod catalogue_legacy_cells;
 mod catalogue_safety;
 mod catalogue_watch_state;
 mod chart_key;

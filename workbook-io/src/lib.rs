@@ -12,6 +12,8 @@ pub mod cell;
 pub mod layout;
 pub mod read;
 pub mod settings;
+#[doc(hidden)]
+pub mod testing;
 pub mod write;
 
 pub use cell::{column_letters, parse_a1, parse_a1_range, CellPos, CellRect, CellValue};

@@ -57,32 +57,14 @@ pub fn read_everything(bytes: &[u8], extension: &str) {
     let _ = std::fs::remove_file(&path);
 }
 
-/// A zip container from (name, bytes) entries, stored (not deflated) so that
-/// the fuzzer's changes to a part reach the parser unchanged.
+/// A zip container from (name, bytes) entries, stored.
 pub fn zip_of(entries: &[(&str, &[u8])]) -> Vec<u8> {
-    let mut cursor = std::io::Cursor::new(Vec::new());
-    {
-        let mut zip = zip::ZipWriter::new(&mut cursor);
-        let options = zip::write::SimpleFileOptions::default().compression_method(zip::CompressionMethod::Stored);
-        for (name, bytes) in entries {
-            zip.start_file(*name, options).expect("in memory");
-            zip.write_all(bytes).expect("in memory");
-        }
-        zip.finish().expect("in memory");
-    }
-    cursor.into_inner()
+    workbook_io::testing::zip_of(entries)
 }
 
 /// A compound file holding one `Workbook` stream.
 pub fn compound_of(stream: &[u8]) -> Vec<u8> {
-    let cursor = std::io::Cursor::new(Vec::new());
-    let mut compound = cfb::CompoundFile::create(cursor).expect("in memory");
-    {
-        let mut writer = compound.create_stream("Workbook").expect("in memory");
-        writer.write_all(stream).expect("in memory");
-    }
-    compound.flush().expect("in memory");
-    compound.into_inner().into_inner()
+    workbook_io::testing::xls_file(stream)
 }
 
 pub const CONTENT_TYPES: &str = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types"><Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/><Default Extension="xml" ContentType="application/xml"/><Override PartName="/xl/workbook.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/></Types>"#;

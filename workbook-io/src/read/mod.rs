@@ -12,6 +12,12 @@ mod merged;
 mod sheet_xml;
 #[cfg(test)]
 mod sheet_xml_tests;
+mod xls_cells;
+#[cfg(test)]
+mod xls_cells_tests;
+mod xlsb_cells;
+#[cfg(test)]
+mod xlsb_cells_tests;
 
 use std::collections::HashMap;
 use std::fs::File;
@@ -468,7 +474,11 @@ pub struct Workbook {
     format: Format,
     sheets: Vec<SheetInfo>,
     defined_names: Vec<(String, String)>,
-    inner: Sheets<BufReader<File>>,
+    /// calamine's reader; None when calamine refused an xls workbook that
+    /// [`xls_cells`] reads instead.
+    inner: Option<Sheets<BufReader<File>>>,
+    /// The tolerant xls reader, when calamine refused the workbook.
+    own_xls: Option<xls_cells::XlsBook>,
     limits: ReadLimits,
     macro_enabled: bool,
     /// The direct xlsx reader's open archive and parts, kept across sheets
@@ -603,16 +613,69 @@ pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadE
             Format::Ods => Sheets::Ods(Ods::new(reader).map_err(|error| error.to_string())?),
         })
     });
-    let inner = match opened {
-        Ok(Ok(inner)) => inner,
+    let refusal = match opened {
+        Ok(Ok(inner)) if container.format == Format::Xls => {
+            // calamine leaves out a shared-text cell that points past the
+            // table; such a workbook is read by the tolerant reader, where
+            // the cell is a finding at its address.
+            match xls_cells::XlsBook::open(path, limits.max_file_bytes) {
+                Ok(book) if book.has_dangling_shared_text() => return Ok(own_xls_workbook(path, book, limits)),
+                _ => return Ok(workbook_of(path, &container, inner, limits)),
+            }
+        }
+        Ok(Ok(inner)) => return Ok(workbook_of(path, &container, inner, limits)),
         Ok(Err(detail)) if detail.to_lowercase().contains("password") => {
             return Err(ReadError::PasswordProtected {
                 path: path.to_path_buf(),
             })
         }
-        Ok(Err(detail)) => return Err(corrupt(detail)),
-        Err(payload) => return Err(corrupt(panic_text(payload))),
+        Ok(Err(detail)) => corrupt(detail),
+        Err(payload) => corrupt(panic_text(payload)),
     };
+    if container.format != Format::Xls {
+        return Err(refusal);
+    }
+    // calamine refuses an xls workbook for one cell it cannot read; the
+    // tolerant reader reads it again and makes such cells findings.
+    match xls_cells::XlsBook::open(path, limits.max_file_bytes) {
+        Ok(book) if book.sheets.iter().any(|sheet| sheet.worksheet) => Ok(own_xls_workbook(path, book, limits)),
+        Err(xls_cells::XlsRefusal::Password) => Err(ReadError::PasswordProtected {
+            path: path.to_path_buf(),
+        }),
+        _ => Err(refusal),
+    }
+}
+
+/// The [`Workbook`] over the tolerant xls reader.
+fn own_xls_workbook(path: &Path, book: xls_cells::XlsBook, limits: &ReadLimits) -> Workbook {
+    Workbook {
+        path: path.to_path_buf(),
+        format: Format::Xls,
+        sheets: book
+            .sheets
+            .iter()
+            .filter(|sheet| sheet.worksheet)
+            .map(|sheet| SheetInfo {
+                name: sheet.name.clone(),
+                visible: sheet.visible,
+            })
+            .collect(),
+        defined_names: Vec::new(),
+        inner: None,
+        own_xls: Some(book),
+        limits: limits.clone(),
+        macro_enabled: false,
+        direct: None,
+    }
+}
+
+/// The [`Workbook`] over calamine's opened reader.
+fn workbook_of(
+    path: &Path,
+    container: &guard::Container,
+    inner: Sheets<BufReader<File>>,
+    limits: &ReadLimits,
+) -> Workbook {
     let sheets = inner
         .sheets_metadata()
         .iter()
@@ -627,16 +690,17 @@ pub fn open_workbook(path: &Path, limits: &ReadLimits) -> Result<Workbook, ReadE
         let mut probe = inner_vba_probe(path);
         probe.take().unwrap_or(false)
     };
-    Ok(Workbook {
+    Workbook {
         path: path.to_path_buf(),
         format: container.format,
         sheets,
         defined_names,
-        inner,
+        inner: Some(inner),
+        own_xls: None,
         limits: limits.clone(),
         macro_enabled,
         direct: None,
-    })
+    }
 }
 
 fn inner_vba_probe(path: &Path) -> Option<bool> {
@@ -728,7 +792,7 @@ impl Workbook {
                 return Ok((sheet, rect));
             }
         }
-        if let Sheets::Xlsx(xlsx) = &mut self.inner {
+        if let Some(Sheets::Xlsx(xlsx)) = &mut self.inner {
             if let Some(found) = table_reference(&self.path, xlsx, wanted) {
                 return Ok(found);
             }
@@ -761,8 +825,46 @@ impl Workbook {
         let mut merged = Vec::new();
         let mut skimmed_merged: Option<Vec<CellRect>> = None;
         let mut hidden = merged::Hidden::default();
+        let mut xlsb_refusal: Option<String> = None;
+        let mut xlsb_source = None;
+        if matches!(self.inner, Some(Sheets::Xlsb(_))) {
+            // A sheet with a damaged cell record is read by the tolerant
+            // reader alone: calamine would stop at it or read it wrong.
+            xlsb_source = xlsb_cells::SheetSource::open(&self.path, sheet, max_entry_bytes);
+            if let Some(source) = xlsb_source.as_mut() {
+                if source.calamine_misreads() {
+                    return if source.read(&mut builder) {
+                        Ok(builder.finish())
+                    } else {
+                        Err(ReadError::TooManyCells {
+                            path: self.path.clone(),
+                            sheet: sheet.to_string(),
+                            limit: max_cells,
+                        })
+                    };
+                }
+            }
+        }
+        if let Some(book) = &self.own_xls {
+            // Our own reader: written to refuse nothing and panic on nothing,
+            // so it runs unguarded (and the fuzz targets see any slip).
+            let index = book.sheets.iter().position(|info| info.name == sheet && info.worksheet);
+            let Some(areas) = index.and_then(|index| book.read_sheet(index, &mut builder)) else {
+                return Err(ReadError::TooManyCells {
+                    path: self.path.clone(),
+                    sheet: sheet.to_string(),
+                    limit: max_cells,
+                });
+            };
+            let mut grid = builder.finish();
+            grid.merged = areas;
+            return Ok(grid);
+        }
         let outcome = parse_guarded(|| -> Result<bool, String> {
-            match &mut self.inner {
+            let Some(inner) = &mut self.inner else {
+                return Ok(true);
+            };
+            match inner {
                 Sheets::Xlsx(xlsx) => {
                     let book = if direct {
                         self.direct
@@ -803,12 +905,22 @@ impl Workbook {
                     }
                 }
                 Sheets::Xlsb(xlsb) => {
-                    let mut reader = xlsb.worksheet_cells_reader(sheet).map_err(|error| error.to_string())?;
-                    while let Some(cell) = reader.next_cell().map_err(|error| error.to_string())? {
-                        let (row, col) = cell.get_position();
-                        if !builder.push_data(row, col, cell.get_value()) {
-                            return Ok(false);
+                    let read = parse_guarded(|| -> Result<bool, String> {
+                        let mut reader = xlsb.worksheet_cells_reader(sheet).map_err(|error| error.to_string())?;
+                        while let Some(cell) = reader.next_cell().map_err(|error| error.to_string())? {
+                            let (row, col) = cell.get_position();
+                            if !builder.push_data(row, col, cell.get_value()) {
+                                return Ok(false);
+                            }
                         }
+                        Ok(true)
+                    });
+                    match read {
+                        Ok(Ok(under_cap)) => return Ok(under_cap),
+                        // calamine stops the sheet at the first cell it cannot
+                        // read: the tolerant reader reads it again (below).
+                        Ok(Err(detail)) => xlsb_refusal = Some(detail),
+                        Err(payload) => xlsb_refusal = Some(panic_text(payload)),
                     }
                 }
                 Sheets::Xls(xls) => {
@@ -841,6 +953,21 @@ impl Workbook {
             }
             Ok(true)
         });
+        if let (Some(detail), Ok(Ok(true))) = (xlsb_refusal, &outcome) {
+            // Our own reader, unguarded as the xls one is.
+            builder = GridBuilder::new(sheet, window, max_cells);
+            let Some(source) = xlsb_source.as_mut() else {
+                return Err(corrupt(detail));
+            };
+            if !source.read(&mut builder) {
+                return Err(ReadError::TooManyCells {
+                    path: self.path.clone(),
+                    sheet: sheet.to_string(),
+                    limit: max_cells,
+                });
+            }
+            return Ok(builder.finish());
+        }
         match outcome {
             Ok(Ok(true)) => {}
             Ok(Ok(false)) => {

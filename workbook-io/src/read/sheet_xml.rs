@@ -663,7 +663,7 @@ pub(crate) fn is_date_format(code: &str) -> bool {
 
 /// Whether a built-in number format id (ECMA-376 Part 1, 18.8.30, with the
 /// East Asian date ids) shows dates or times.
-fn is_builtin_date_id(id: u32) -> bool {
+pub(crate) fn is_builtin_date_id(id: u32) -> bool {
     matches!(id, 14..=22 | 27..=36 | 45..=47 | 50..=58)
 }
 
