@@ -11,6 +11,7 @@
 
 mod batch;
 mod batch_directions;
+mod beyond_range_json;
 mod catalogue;
 mod catalogue_cells;
 mod catalogue_legacy_cells;

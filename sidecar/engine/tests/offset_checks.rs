@@ -16,9 +16,7 @@
 
 mod common;
 use common::check;
-
-use engine::analysis::assessment::{assess, AssessmentOptions};
-use engine::analysis::oneway::fit_one_way;
+use common::model_checks::assessed;
 
 /// The trial in thousandths: 4 conditions of 6 values near 2.3.
 const TRIAL: [[u32; 6]; 4] = [
@@ -68,17 +66,7 @@ fn model_checks_keep_their_digits_at_a_large_offset() {
     let [levene_f, levene_p, bf_f, bf_p, bartlett, bartlett_p, ratio, w, w_p] = MPMATH;
     for offset in OFFSETS {
         let groups = trial_at(offset);
-        let names: Vec<String> = (1..=groups.len()).map(|index| format!("condition {index}")).collect();
-        let mut labels = Vec::new();
-        let mut values = Vec::new();
-        let mut records = Vec::new();
-        for (index, group) in groups.iter().enumerate() {
-            records.push((values.len()..values.len() + group.len()).collect::<Vec<usize>>());
-            labels.extend(std::iter::repeat_n(index as u32, group.len()));
-            values.extend_from_slice(group);
-        }
-        let fit = fit_one_way(&names, &labels, &values, 0.95, &[]).expect("the trial fits");
-        let assessment = assess(&fit, &groups, &records, &AssessmentOptions::default());
+        let assessment = assessed(&groups);
         let checks = &assessment.checks;
         let levene = checks.levene.as_ref().expect("Levene");
         let brown_forsythe = checks.brown_forsythe_spread.as_ref().expect("Brown-Forsythe");

@@ -24,6 +24,7 @@
 //! service maps to cells.
 
 pub mod batch;
+pub mod beyond_range;
 pub mod compromise;
 pub mod failure;
 pub mod folder_settings;

@@ -2,6 +2,7 @@
 //! report builder lays out as a workbook and serde turns into the JSON
 //! results document (see `sidecar/docs/results-format.md`).
 
+use serde::ser::{SerializeStruct, Serializer};
 use serde::Serialize;
 use workbook_io::layout::{Finding, Layout};
 use workbook_io::SheetInfo;
@@ -11,7 +12,7 @@ use engine::analysis::oneway::OneWayFit;
 
 /// Version of the results document (JSON and workbook); bumped on any
 /// incompatible change to field names or meaning.
-pub const RESULTS_FORMAT_VERSION: &str = "1.3";
+pub const RESULTS_FORMAT_VERSION: &str = "1.4";
 
 /// The tool's name and version, as recorded in every result.
 pub const TOOL_NAME: &str = "trialyst";
@@ -183,7 +184,11 @@ pub struct Timings {
 }
 
 /// Everything found for one workbook.
-#[derive(Debug, Clone, Serialize)]
+///
+/// Serialised with one field more than it holds: `beyond_range`, the JSON Pointers of the
+/// figures written as `null` because they lie beyond the range of the arithmetic (see
+/// [`crate::beyond_range`]).
+#[derive(Debug, Clone)]
 pub struct WorkbookResults {
     /// Version of this document's format.
     pub format_version: &'static str,
@@ -204,7 +209,6 @@ pub struct WorkbookResults {
     /// One entry per response.
     pub responses: Vec<ResponseResult>,
     /// The compromise over several responses with goals (response-surface trials).
-    #[serde(default, skip_serializing_if = "Option::is_none")]
     pub compromise: Option<crate::compromise::CompromiseResult>,
     /// Data findings, each with its place.
     pub findings: Vec<Finding>,
@@ -212,6 +216,65 @@ pub struct WorkbookResults {
     pub cautions: Vec<String>,
     /// Time per stage.
     pub timings: Timings,
+}
+
+impl WorkbookResults {
+    /// The document's fields, in their order, without `beyond_range`.
+    fn write_fields<M: SerializeStruct>(&self, map: &mut M) -> Result<(), M::Error> {
+        // Taken apart so that a field added to the struct cannot be left out here.
+        let WorkbookResults {
+            format_version,
+            tool,
+            tool_version,
+            created_at,
+            source,
+            table,
+            settings,
+            settings_sources,
+            responses,
+            compromise,
+            findings,
+            cautions,
+            timings,
+        } = self;
+        map.serialize_field("format_version", format_version)?;
+        map.serialize_field("tool", tool)?;
+        map.serialize_field("tool_version", tool_version)?;
+        map.serialize_field("created_at", created_at)?;
+        map.serialize_field("source", source)?;
+        map.serialize_field("table", table)?;
+        map.serialize_field("settings", settings)?;
+        map.serialize_field("settings_sources", settings_sources)?;
+        map.serialize_field("responses", responses)?;
+        match compromise {
+            Some(found) => map.serialize_field("compromise", found)?,
+            None => map.skip_field("compromise")?,
+        }
+        map.serialize_field("findings", findings)?;
+        map.serialize_field("cautions", cautions)?;
+        map.serialize_field("timings", timings)
+    }
+}
+
+/// The document without its `beyond_range` list: what the list is found in.
+struct WithoutBeyondRange<'a>(&'a WorkbookResults);
+
+impl Serialize for WithoutBeyondRange<'_> {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        let mut map = serializer.serialize_struct("WorkbookResults", 13)?;
+        self.0.write_fields(&mut map)?;
+        map.end()
+    }
+}
+
+impl Serialize for WorkbookResults {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        let beyond_range = crate::beyond_range::infinite_figures(&WithoutBeyondRange(self));
+        let mut map = serializer.serialize_struct("WorkbookResults", 14)?;
+        self.write_fields(&mut map)?;
+        map.serialize_field("beyond_range", &beyond_range)?;
+        map.end()
+    }
 }
 
 /// The standing cautions printed with every result.

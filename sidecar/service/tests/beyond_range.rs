@@ -75,6 +75,24 @@ fn figures_beyond_the_range_are_said_in_words_everywhere() {
     // The JSON document: non-finite figures are null, never a symbol.
     let json = serde_json::to_string(&results).expect("the results encode");
     assert!(symbols_in(&json).is_empty(), "JSON: {:?}", symbols_in(&json));
+    // Each such null is named, by JSON Pointer, in the document's `beyond_range` list;
+    // every pointer there names a null (sidecar/docs/results-format.md).
+    let document: serde_json::Value = serde_json::from_str(&json).expect("the results decode");
+    let listed: Vec<&str> = document["beyond_range"]
+        .as_array()
+        .expect("a beyond_range list")
+        .iter()
+        .filter_map(serde_json::Value::as_str)
+        .collect();
+    for pointer in &listed {
+        assert_eq!(document.pointer(pointer), Some(&serde_json::Value::Null), "{pointer}");
+    }
+    for expected in [
+        "/responses/0/one_way/anova/0/ss",
+        "/responses/0/one_way/pairs/0/difference",
+    ] {
+        assert!(listed.contains(&expected), "{expected} is not in {listed:?}");
+    }
 
     // The sums of squares (about 1.7e617 and 6.3e616) and the difference A - B (3.32e308)
     // are beyond the range; F, p, the pooled SD and t are not, and come from the scaled

@@ -146,6 +146,11 @@ pub struct BestRow {
     pub high: f64,
     /// True when the condition could be the best at the family confidence.
     pub could_be_best: bool,
+    /// Adjusted p-value that the condition is not the best: the smallest family error
+    /// rate at which the upper end of its interval reaches 0 (Hsu 1996), the one-sided
+    /// product-correlation tail at the largest studentized lead of another condition over
+    /// it. Small when another condition is clearly better.
+    pub p_not_best: f64,
 }
 
 /// Multiple comparisons with the best.
@@ -525,21 +530,42 @@ pub fn with_the_best(fit: &OneWayFit, direction: Direction, confidence: f64) -> 
             }
         })
         .collect();
-    let rows: Vec<BestRow> = (0..k)
-        .map(|i| {
-            let best_other = (0..k)
+    // upper[i] is 0 exactly when d_i <= max_{j≠i} (m_j - m_i) / se_ij, and d_i is the
+    // one-sided quantile of the family with i as the control: the smallest error rate at
+    // which that happens is the family's upper tail there (from its survival function, so
+    // small values keep their digits). Conditions of one size share their family.
+    let mut families: Vec<(f64, ProductCorrelation)> = Vec::new();
+    let mut rows: Vec<BestRow> = Vec::with_capacity(k);
+    for i in 0..k {
+        let best_other = (0..k)
+            .filter(|&j| j != i)
+            .map(|j| means[j])
+            .fold(f64::NEG_INFINITY, f64::max);
+        let lead = (0..k)
+            .filter(|&j| j != i)
+            .map(|j| difference_over(means[j], means[i], se(i, j)))
+            .fold(f64::NEG_INFINITY, f64::max);
+        if !families.iter().any(|(size, _)| *size == ns[i]) {
+            let lambdas: Vec<f64> = (0..k)
                 .filter(|&j| j != i)
-                .map(|j| means[j])
-                .fold(f64::NEG_INFINITY, f64::max);
-            BestRow {
-                condition: fit.conditions[i].name.clone(),
-                difference: means[i] - best_other,
-                low: lower[i],
-                high: upper[i],
-                could_be_best: upper[i] > 0.0,
-            }
-        })
-        .collect();
+                .map(|j| (ns[j] / (ns[j] + ns[i])).sqrt())
+                .collect();
+            families.push((ns[i], ProductCorrelation::new(&lambdas, fit.pooled_df, Sides::One)?));
+        }
+        let family = &families
+            .iter()
+            .find(|(size, _)| *size == ns[i])
+            .expect("solved above")
+            .1;
+        rows.push(BestRow {
+            condition: fit.conditions[i].name.clone(),
+            difference: means[i] - best_other,
+            low: lower[i],
+            high: upper[i],
+            could_be_best: upper[i] > 0.0,
+            p_not_best: family.sf(lead)?,
+        });
+    }
     Ok(BestFamily {
         direction,
         family_confidence: confidence,

@@ -3,7 +3,7 @@
 //! to the smallest group standard deviation.
 
 use super::StatsError;
-use crate::stats::accumulate::{magnitude_exponent, scale_by_power_of_two};
+use crate::stats::accumulate::{compensated_sum, magnitude_exponent, scale_by_power_of_two};
 use crate::stats::dist;
 
 /// The groups divided by a power of two when their magnitude would make squares
@@ -114,17 +114,75 @@ fn validate_groups(groups: &[&[f64]], what: &'static str) -> Result<usize, Stats
     Ok(n_total)
 }
 
-fn mean(values: &[f64]) -> f64 {
-    values.iter().sum::<f64>() / values.len() as f64
+/// `a + b` as the rounded sum and its exact error (TwoSum, Knuth; common practice).
+fn two_sum(a: f64, b: f64) -> (f64, f64) {
+    let sum = a + b;
+    let virtual_b = sum - a;
+    (sum, (a - (sum - virtual_b)) + (b - virtual_b))
 }
 
-/// Sample variance with divisor n - 1 (two-pass); needs at least two values.
+/// The mean of numbers each given as an unevaluated sum `hi + lo`, itself as such a pair
+/// (about twice the digits of a double): the compensated sum and its error term, divided
+/// with the exact remainder of the division (one fused multiply-add).
+fn mean_of_pairs(values: impl ExactSizeIterator<Item = (f64, f64)>) -> (f64, f64) {
+    let n = values.len() as f64;
+    let mut sum = 0.0_f64;
+    let mut error = 0.0_f64;
+    for (hi, lo) in values {
+        let (total, rounding) = two_sum(sum, hi);
+        error += rounding + lo;
+        sum = total;
+    }
+    let hi = (sum + error) / n;
+    // sum + error - hi n, its first part exact by the fused multiply-add.
+    let remainder = (-hi).mul_add(n, sum) + error;
+    (hi, remainder / n)
+}
+
+fn mean_parts(values: &[f64]) -> (f64, f64) {
+    mean_of_pairs(values.iter().map(|&value| (value, 0.0)))
+}
+
+/// Each value's deviation from the centre `hi + lo`, as a pair: the rounded difference
+/// `value - hi` and what it leaves out (its rounding error less `lo`). The rounding of the
+/// centre no longer shifts every deviation of a group by the same amount.
+fn deviation_pairs(values: &[(f64, f64)], (hi, lo): (f64, f64)) -> Vec<(f64, f64)> {
+    values
+        .iter()
+        .map(|&(value, value_lo)| {
+            let (difference, rounding) = two_sum(value, -hi);
+            (difference, rounding + (value_lo - lo))
+        })
+        .collect()
+}
+
+/// The sum of squared deviations about the mean by the corrected two-pass algorithm
+/// (Chan, Golub & LeVeque 1983), for numbers given as pairs `hi + lo`: compensated sums
+/// of the squares and of the deviations, less (sum of deviations)^2 / n.
+fn sum_of_squares_of_pairs(values: &[(f64, f64)]) -> f64 {
+    let centre = mean_of_pairs(values.iter().copied());
+    let deviations: Vec<f64> = deviation_pairs(values, centre)
+        .into_iter()
+        .map(|(hi, lo)| hi + lo)
+        .collect();
+    let squares = compensated_sum(deviations.iter().map(|d| d * d));
+    let first = compensated_sum(deviations.iter().copied());
+    (squares - first * first / values.len() as f64).max(0.0)
+}
+
+fn sum_of_squares(values: &[f64]) -> f64 {
+    let pairs: Vec<(f64, f64)> = values.iter().map(|&value| (value, 0.0)).collect();
+    sum_of_squares_of_pairs(&pairs)
+}
+
+/// Sample variance with divisor n - 1; needs at least two values.
 fn variance(values: &[f64]) -> f64 {
-    let centre = mean(values);
-    values.iter().map(|v| (v - centre) * (v - centre)).sum::<f64>() / (values.len() as f64 - 1.0)
+    sum_of_squares(values) / (values.len() as f64 - 1.0)
 }
 
-fn median(values: &[f64]) -> f64 {
+/// The median as a pair `hi + lo`: the midpoint of the two middle values of an even count
+/// is their exact sum halved.
+fn median_parts(values: &[f64]) -> (f64, f64) {
     // Selection instead of a full sort (common practice): the upper middle value by
     // select_nth_unstable, the lower one as the largest value below it.
     let mut copy = values.to_vec();
@@ -132,10 +190,11 @@ fn median(values: &[f64]) -> f64 {
     let (below, upper, _) = copy.select_nth_unstable_by(n / 2, f64::total_cmp);
     let upper = *upper;
     if n % 2 == 1 {
-        upper
+        (upper, 0.0)
     } else {
         let lower = below.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        0.5 * (lower + upper)
+        let (sum, error) = two_sum(lower, upper);
+        (0.5 * sum, 0.5 * error)
     }
 }
 
@@ -196,29 +255,33 @@ pub fn levene(groups: &[&[f64]], centre: Centre) -> Result<LeveneTest, StatsErro
 fn levene_at_scale(groups: &[&[f64]], centre: Centre) -> Result<LeveneTest, StatsError> {
     let n_total = validate_groups(groups, "groups for Levene's test")?;
     let n_groups = groups.len();
-    let deviations: Vec<Vec<f64>> = groups
+    // Absolute deviations as pairs `hi + lo` (the rounding of a deviation is as large as
+    // the spread of the deviations times the ratio of their size to their spread, which
+    // is large when the test finds a difference), and their one-way analysis with means
+    // to twice the digits of a double: deep in the tail the p-value moves by about df/2
+    // times the relative error of F.
+    let deviations: Vec<Vec<(f64, f64)>> = groups
         .iter()
         .map(|group| {
             let location = match centre {
-                Centre::Mean => mean(group),
-                Centre::Median => median(group),
+                Centre::Mean => mean_parts(group),
+                Centre::Median => median_parts(group),
             };
-            group.iter().map(|v| (v - location).abs()).collect()
+            let values: Vec<(f64, f64)> = group.iter().map(|&value| (value, 0.0)).collect();
+            deviation_pairs(&values, location)
+                .into_iter()
+                .map(|(hi, lo)| if hi + lo < 0.0 { (-hi, -lo) } else { (hi, lo) })
+                .collect()
         })
         .collect();
-    let group_means: Vec<f64> = deviations.iter().map(|d| mean(d)).collect();
-    let grand_mean = deviations.iter().flatten().sum::<f64>() / n_total as f64;
-    let between: f64 = deviations
-        .iter()
-        .zip(&group_means)
-        .map(|(d, m)| d.len() as f64 * (m - grand_mean) * (m - grand_mean))
-        .sum();
-    let within: f64 = deviations
-        .iter()
-        .zip(&group_means)
-        .map(|(d, m)| d.iter().map(|v| (v - m) * (v - m)).sum::<f64>())
-        .sum();
-    let total_squares: f64 = deviations.iter().flatten().map(|v| v * v).sum();
+    let group_means: Vec<(f64, f64)> = deviations.iter().map(|d| mean_of_pairs(d.iter().copied())).collect();
+    let (grand_hi, grand_lo) = mean_of_pairs(deviations.iter().flatten().copied().collect::<Vec<_>>().into_iter());
+    let between = compensated_sum(deviations.iter().zip(&group_means).map(|(d, &(hi, lo))| {
+        let gap = (hi - grand_hi) + (lo - grand_lo);
+        d.len() as f64 * gap * gap
+    }));
+    let within = compensated_sum(deviations.iter().map(|d| sum_of_squares_of_pairs(d)));
+    let total_squares = compensated_sum(deviations.iter().flatten().map(|&(hi, lo)| (hi + lo) * (hi + lo)));
     if within <= 1e-24 * total_squares {
         return Err(StatsError::InvalidParameter {
             name: "within-group variation of the absolute deviations",
@@ -285,22 +348,15 @@ fn bartlett_at_scale(groups: &[&[f64]]) -> Result<BartlettTest, StatsError> {
         });
     }
     let df_within = (n_total - n_groups) as f64;
-    let pooled_variance = groups
-        .iter()
-        .zip(&variances)
-        .map(|(g, v)| (g.len() as f64 - 1.0) * v)
-        .sum::<f64>()
-        / df_within;
+    let pooled_variance = compensated_sum(groups.iter().map(|g| sum_of_squares(g))) / df_within;
     // df_within ln(s_p^2) - sum (n_i - 1) ln(s_i^2) is a small difference of large
     // logarithms (about 4000 times smaller on a trial with 1 % spread, so it kept 12
     // digits). With u_i = s_i^2 / s_p^2 - 1 and sum (n_i - 1) u_i = 0 it equals
     // sum (n_i - 1) (u_i - ln(1 + u_i)), a sum of non-negative terms of second order in
     // u_i that no longer depends on the rounding of s_p^2 to first order.
-    let numerator: f64 = groups
-        .iter()
-        .zip(&variances)
-        .map(|(g, v)| (g.len() as f64 - 1.0) * excess_over_log((v - pooled_variance) / pooled_variance))
-        .sum();
+    let numerator = compensated_sum(groups.iter().zip(&variances).map(|(g, v)| {
+        (g.len() as f64 - 1.0) * excess_over_log(v / pooled_variance, (v - pooled_variance) / pooled_variance)
+    }));
     let reciprocal_sum: f64 = groups.iter().map(|g| 1.0 / (g.len() as f64 - 1.0)).sum();
     let df = (n_groups - 1) as f64;
     let correction = 1.0 + (reciprocal_sum - 1.0 / df_within) / (3.0 * df);
@@ -314,12 +370,13 @@ fn bartlett_at_scale(groups: &[&[f64]]) -> Result<BartlettTest, StatsError> {
     })
 }
 
-/// u - ln(1 + u) for u > -1, without the cancellation of the direct form near 0: there
-/// the series u^2/2 - u^3/3 + u^4/4 - ... (alternating, each term below the last for
-/// |u| < 1/4; common practice).
-fn excess_over_log(u: f64) -> f64 {
+/// u - ln(1 + u) for u = ratio - 1 > -1, without the cancellation of the direct form
+/// near 0: there the series u^2/2 - u^3/3 + u^4/4 - ... (alternating, each term below the
+/// last for |u| < 1/4; common practice). Away from 0 the logarithm is taken of the ratio
+/// itself: 1 + u formed from a u near -1 would keep only the digits of u's rounding.
+fn excess_over_log(ratio: f64, u: f64) -> f64 {
     if u.abs() >= 0.25 {
-        return u - u.ln_1p();
+        return u - ratio.ln();
     }
     let mut total = 0.0_f64;
     let mut power = u * u;

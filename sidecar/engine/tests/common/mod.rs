@@ -3,6 +3,10 @@
 // The tests print the accuracy they measured.
 #![allow(clippy::print_stdout)]
 
+// Not every test binary that shares this module checks the model checks.
+#[allow(dead_code)]
+pub mod model_checks;
+
 /// Log relative error (digits in agreement), capped at 16; 0 for a NaN figure.
 pub fn lre(actual: f64, reference: f64) -> f64 {
     if actual == reference {

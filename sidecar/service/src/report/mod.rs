@@ -823,10 +823,15 @@ fn provenance_sheet(results: &WorkbookResults) -> Sheet {
                 },
             ));
         }
-        if response.surface.is_some() {
+        if let Some(surface) = &response.surface {
             rows.push((
                 format!("arithmetic for '{}' (second-order model)", response.name),
-                "binary floating point: Householder QR of the coded settings, on the values less their mean".into(),
+                if surface.exact_decimal {
+                    "exact decimal accumulation of the deviations from one centre (every value had a short decimal form), then Householder QR of the coded settings"
+                        .into()
+                } else {
+                    "compensated binary accumulation of the deviations from one centre, then Householder QR of the coded settings".into()
+                },
             ));
         }
     }

@@ -38,6 +38,7 @@ use serde::Serialize;
 
 use crate::design::surface::quadratic_terms;
 use crate::options::Direction;
+use crate::stats::accumulate::{centre_values, compensated_sum};
 use crate::stats::dist::{f_sf, t_isf, t_sf};
 
 /// Below this ratio of the smallest to the largest eigenvalue (in size) the
@@ -244,6 +245,9 @@ pub struct SurfaceOutcome {
     pub coding: Vec<(f64, f64)>,
     /// Usable records.
     pub n_records: usize,
+    /// `true` when every value had a short decimal form and the model started from the
+    /// exact decimal differences from one centre; `false` when from the binary ones.
+    pub exact_decimal: bool,
     /// Blocks in the model.
     pub n_blocks: usize,
     /// Coefficients of the intercept and factor terms (block effects left out).
@@ -592,8 +596,16 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
             matrix[(row, 1 + n_block_columns + offset)] = value;
         }
     }
-    let mean = usable.iter().map(|&record| data.values[record]).sum::<f64>() / n as f64;
-    let response = nalgebra::DVector::from_iterator(n, usable.iter().map(|&record| data.values[record] - mean));
+    // Accumulate, centre, solve: the values less one centre (the typed decimals
+    // differenced exactly when every value has a short decimal form, else the binary
+    // differences), then less the compensated mean of those deviations; the mean is put
+    // back as `centre + shift`, the small part first.
+    let centred = centre_values(&usable.iter().map(|&record| data.values[record]).collect::<Vec<f64>>());
+    let shift = compensated_sum(centred.deviations.iter().copied()) / n as f64;
+    let deviation_of: Vec<f64> = centred.deviations.iter().map(|deviation| deviation - shift).collect();
+    let mean = centred.centre + shift;
+    let restore = |centred_value: f64| centred.centre + (shift + centred_value);
+    let response = nalgebra::DVector::from_column_slice(&deviation_of);
     let qr = matrix.clone().qr();
     let r = qr.r();
     let q = qr.q();
@@ -665,11 +677,11 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
     });
     // Pure error: records at the same settings in the same block.
     let mut groups: Vec<(usize, Vec<f64>, Vec<f64>)> = Vec::new();
-    for &record in &usable {
+    for (row, &record) in usable.iter().enumerate() {
         let key = (block_index(record), data.settings[record].clone());
         match groups.iter_mut().find(|group| group.0 == key.0 && group.1 == key.1) {
-            Some(group) => group.2.push(data.values[record] - mean),
-            None => groups.push((key.0, key.1, vec![data.values[record] - mean])),
+            Some(group) => group.2.push(deviation_of[row]),
+            None => groups.push((key.0, key.1, vec![deviation_of[row]])),
         }
     }
     let (pure_ss, pure_df) = groups.iter().fold((0.0, 0usize), |(ss, df), group| {
@@ -715,7 +727,11 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
     let coefficient_lines: Vec<SurfaceCoefficient> = std::iter::once(0)
         .chain(1 + n_block_columns..p)
         .map(|column| {
-            let estimate = beta_values[column] + if column == 0 { mean } else { 0.0 };
+            let estimate = if column == 0 {
+                restore(beta_values[column])
+            } else {
+                beta_values[column]
+            };
             let se = sigma2.map(|s2| (s2 * r_inverse.row(column).iter().map(|v| v * v).sum::<f64>()).sqrt());
             let t_value = se.filter(|se| *se > 0.0).map(|se| estimate / se);
             let p_value = t_value.and_then(|t| t_sf(t.abs(), residual_df as f64).ok().map(|q| 2.0 * q));
@@ -747,13 +763,14 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
         .enumerate()
         .map(|(row, &record)| {
             // The fitted value of a record includes its block's effect.
-            (record, fitted_centered[row] + mean)
+            (record, restore(fitted_centered[row]))
         })
         .collect();
     let mut outcome = SurfaceOutcome {
         factor_names: data.factor_names.clone(),
         coding: data.coding.clone(),
         n_records: n,
+        exact_decimal: centred.exact_decimal,
         n_blocks,
         coefficients: coefficient_lines,
         anova,
