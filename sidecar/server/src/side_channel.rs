@@ -275,6 +275,8 @@ struct Entry {
 struct Inner {
     next: u64,
     entries: Vec<Entry>,
+    /// How many answers were put in place of their placeholder.
+    replaced: u64,
 }
 
 /// The stash of one session (stdio, or one TCP connection), shared by its
@@ -327,6 +329,7 @@ impl Stash {
             inner: Arc::new(Mutex::new(Inner {
                 next: 1,
                 entries: Vec::new(),
+                replaced: 0,
             })),
             count: Arc::new(AtomicUsize::new(0)),
             secret: session_secret().into(),
@@ -340,6 +343,13 @@ impl Stash {
     /// How many requests have cells or an answer waiting.
     pub fn len(&self) -> usize {
         self.count.load(Ordering::SeqCst)
+    }
+
+    /// How many requests had their cells kept so far, and how many answers
+    /// were put in place of their placeholder.
+    pub fn counts(&self) -> (u64, u64) {
+        let inner = self.lock();
+        (inner.next - 1, inner.replaced)
     }
 
     /// True when nothing waits.
@@ -460,6 +470,7 @@ impl Stash {
         replaced.extend_from_slice(&body[..at]);
         replaced.extend_from_slice(&answer);
         replaced.extend_from_slice(&body[at + placeholder.len()..]);
+        self.lock().replaced += 1;
         Some(replaced)
     }
 }

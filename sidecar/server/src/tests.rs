@@ -889,3 +889,4 @@ async fn plan_size_and_inspect_cells_answer_as_the_service_does() {
 }
 
 mod cancel_points;
+mod side_channel_session;
