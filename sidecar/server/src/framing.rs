@@ -454,7 +454,7 @@ pub async fn merge_output_with<R, W>(
                         stash.settle(&pending[body_start..size])
                     });
                     let written = match settled {
-                        Some(body) => output.write_all(&frame(&body)).await,
+                        Some(message) => output.write_all(&message).await,
                         None => output.write_all(&pending[..size]).await,
                     };
                     if written.is_err() {

@@ -74,7 +74,11 @@ fn stash_answer(stash: Option<&Stash>, key: Option<&str>, answer: CellsAnswer) -
         return CellsReply::Answer(answer);
     };
     match crate::sorted_json::to_vec_sorted(&answer) {
-        Ok(bytes) => {
+        Ok(mut bytes) => {
+            // The writer starts with room for a large answer; a small one gives it back.
+            if bytes.len() < bytes.capacity() / 2 {
+                bytes.shrink_to_fit();
+            }
             stash.put_answer(key, bytes);
             CellsReply::Stashed(Stash::placeholder(key))
         }
@@ -529,7 +533,7 @@ impl Shared {
                 let results = service::analyse_grid(&read.grid, &read.settings, &read.source_name, &cancel)?;
                 drop(read);
                 // The tables come from the report model, the one place that lays them out.
-                let tables = crate::answer_tables::BookTables(service::report::build_results_book(&results));
+                let tables = crate::answer_tables::BookTables(service::report::build_shown_sheets(&results));
                 let answer = CellsAnswer { results, tables };
                 Ok::<CellsReply, ServiceError>(stash_answer(stash.as_ref(), key.as_deref(), answer))
             })

@@ -439,8 +439,8 @@ impl Stash {
 
     /// The merger's part, for every message from the library: when it is
     /// the answer to a request with an entry, the entry is removed, and an
-    /// answer's placeholder is replaced by the stored answer (the new body
-    /// returned). `None`: send the message as it is.
+    /// answer's placeholder is replaced by the stored answer (the new
+    /// message returned, framed). `None`: send the message as it is.
     pub fn settle(&self, body: &[u8]) -> Option<Vec<u8>> {
         if self.is_empty() {
             return None;
@@ -466,7 +466,9 @@ impl Stash {
         let at = body
             .windows(placeholder.len())
             .position(|window| window == placeholder.as_slice())?;
-        let mut replaced = Vec::with_capacity(body.len() + answer.len());
+        let length = body.len() - placeholder.len() + answer.len();
+        let mut replaced = format!("Content-Length: {length}\r\n\r\n").into_bytes();
+        replaced.reserve(length);
         replaced.extend_from_slice(&body[..at]);
         replaced.extend_from_slice(&answer);
         replaced.extend_from_slice(&body[at + placeholder.len()..]);
@@ -623,7 +625,7 @@ mod tests {
         let replaced = stash.settle(placeholder.as_bytes()).expect("replaced");
         assert_eq!(
             String::from_utf8_lossy(&replaced),
-            r#"{"id":1,"jsonrpc":"2.0","result":{"a":[1,2]}}"#
+            "Content-Length: 45\r\n\r\n{\"id\":1,\"jsonrpc\":\"2.0\",\"result\":{\"a\":[1,2]}}"
         );
         assert_eq!(stash.len(), MAX_ENTRIES - 2);
         // Room again.

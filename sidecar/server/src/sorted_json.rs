@@ -26,7 +26,9 @@ use serde_json::Error;
 /// Whatever the value's own serialisation reports, or a map key that is
 /// not text, a number or true/false (the JSON tree refuses those too).
 pub fn to_vec_sorted<T: Serialize + ?Sized>(value: &T) -> Result<Vec<u8>, Error> {
-    let mut out = Vec::with_capacity(64 << 10);
+    // Room for a large answer at once: memory not written to is not used,
+    // and growing by doubling would copy the answer several times.
+    let mut out = Vec::with_capacity(1 << 20);
     value.serialize(Sorted { out: &mut out })?;
     Ok(out)
 }
