@@ -252,14 +252,7 @@ mod tests {
             .map(|row| row.as_array().cloned().unwrap_or_default())
             .collect();
         let params = serde_json::json!({"cells": grid_rows, "origin": "B2", "sheet": "Trial"});
-        let read = crate::from_proto::cells_params(&params).expect("cells");
-        let results = service::analyse_grid(
-            &read.grid,
-            &read.settings,
-            &read.source_name,
-            &service::CancelFlag::default(),
-        )
-        .expect("analysed");
+        let results = crate::tests::analysed_params(&params);
         let results_book = service::report::build_results_book(&results);
         assert!(results_book.sheets.len() >= 3);
 

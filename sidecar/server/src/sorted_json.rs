@@ -232,49 +232,28 @@ impl Seq<'_> {
     }
 }
 
-impl ser::SerializeSeq for Seq<'_> {
-    type Ok = ();
-    type Error = Error;
-    fn serialize_element<T: Serialize + ?Sized>(&mut self, value: &T) -> Result<(), Error> {
-        self.element(value)
-    }
-    fn end(self) -> Result<(), Error> {
-        self.close()
-    }
+/// Every kind of list is written alike: serde's four traits for them, one body.
+macro_rules! list_kind {
+    ($($kind:ident :: $add:ident),*) => {$(
+        impl ser::$kind for Seq<'_> {
+            type Ok = ();
+            type Error = Error;
+            fn $add<T: Serialize + ?Sized>(&mut self, value: &T) -> Result<(), Error> {
+                self.element(value)
+            }
+            fn end(self) -> Result<(), Error> {
+                self.close()
+            }
+        }
+    )*};
 }
 
-impl ser::SerializeTuple for Seq<'_> {
-    type Ok = ();
-    type Error = Error;
-    fn serialize_element<T: Serialize + ?Sized>(&mut self, value: &T) -> Result<(), Error> {
-        self.element(value)
-    }
-    fn end(self) -> Result<(), Error> {
-        self.close()
-    }
-}
-
-impl ser::SerializeTupleStruct for Seq<'_> {
-    type Ok = ();
-    type Error = Error;
-    fn serialize_field<T: Serialize + ?Sized>(&mut self, value: &T) -> Result<(), Error> {
-        self.element(value)
-    }
-    fn end(self) -> Result<(), Error> {
-        self.close()
-    }
-}
-
-impl ser::SerializeTupleVariant for Seq<'_> {
-    type Ok = ();
-    type Error = Error;
-    fn serialize_field<T: Serialize + ?Sized>(&mut self, value: &T) -> Result<(), Error> {
-        self.element(value)
-    }
-    fn end(self) -> Result<(), Error> {
-        self.close()
-    }
-}
+list_kind!(
+    SerializeSeq::serialize_element,
+    SerializeTuple::serialize_element,
+    SerializeTupleStruct::serialize_field,
+    SerializeTupleVariant::serialize_field
+);
 
 /// One entry of an object: its key and where `"key":value` lies in the output.
 struct Entry {
@@ -353,27 +332,23 @@ impl<'a> Object<'a> {
     }
 }
 
-impl ser::SerializeStruct for Object<'_> {
-    type Ok = ();
-    type Error = Error;
-    fn serialize_field<T: Serialize + ?Sized>(&mut self, key: &'static str, value: &T) -> Result<(), Error> {
-        self.entry(Cow::Borrowed(key), value)
-    }
-    fn end(self) -> Result<(), Error> {
-        self.close()
-    }
+/// Structs and struct variants are written alike.
+macro_rules! struct_kind {
+    ($($kind:ident),*) => {$(
+        impl ser::$kind for Object<'_> {
+            type Ok = ();
+            type Error = Error;
+            fn serialize_field<T: Serialize + ?Sized>(&mut self, key: &'static str, value: &T) -> Result<(), Error> {
+                self.entry(Cow::Borrowed(key), value)
+            }
+            fn end(self) -> Result<(), Error> {
+                self.close()
+            }
+        }
+    )*};
 }
 
-impl ser::SerializeStructVariant for Object<'_> {
-    type Ok = ();
-    type Error = Error;
-    fn serialize_field<T: Serialize + ?Sized>(&mut self, key: &'static str, value: &T) -> Result<(), Error> {
-        self.entry(Cow::Borrowed(key), value)
-    }
-    fn end(self) -> Result<(), Error> {
-        self.close()
-    }
-}
+struct_kind!(SerializeStruct, SerializeStructVariant);
 
 impl ser::SerializeMap for Object<'_> {
     type Ok = ();
@@ -670,14 +645,7 @@ mod tests {
             }))
             .collect();
         let params = serde_json::json!({"cells": rows, "origin": "C3", "sheet": "Run 4"});
-        let read = crate::from_proto::cells_params(&params).expect("cells");
-        let results = service::analyse_grid(
-            &read.grid,
-            &read.settings,
-            &read.source_name,
-            &service::CancelFlag::default(),
-        )
-        .expect("analysed");
+        let results = crate::tests::analysed_params(&params);
         let tables = crate::answer_tables::BookTables(service::report::build_results_book(&results));
         let answer = crate::server::CellsAnswer { results, tables };
         let direct = to_vec_sorted(&answer).expect("written");

@@ -149,26 +149,17 @@ fn without_clock(body: &[u8]) -> String {
     text
 }
 
-/// An invented trial: `n_conditions` columns of `n_rows` values from a fixed seed.
+/// An invented trial: `n_conditions` columns of `n_rows` values that differ
+/// by condition and by row (no statistics are checked here).
 fn trial_cells(n_conditions: usize, n_rows: usize) -> Value {
-    let mut rows = vec![Value::Array(
-        (1..=n_conditions)
-            .map(|condition| json!(format!("Setting {condition}")))
-            .collect(),
-    )];
-    let mut state: u64 = 0x9E37_79B9_7F4A_7C15;
-    for _ in 0..n_rows {
-        rows.push(Value::Array(
-            (0..n_conditions)
-                .map(|condition| {
-                    state ^= state << 13;
-                    state ^= state >> 7;
-                    state ^= state << 17;
-                    let noise = (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5;
-                    json!(30.0 + condition as f64 * 0.3 + noise * 2.0)
-                })
-                .collect(),
-        ));
+    let header = (1..=n_conditions).map(|condition| json!(format!("Setting {condition}")));
+    let mut rows = vec![Value::Array(header.collect())];
+    for row in 0..n_rows {
+        let values = (0..n_conditions).map(|condition| {
+            let wobble = ((row * 37 + condition * 11) % 17) as f64 * 0.13 + (row as f64 * 0.7).sin();
+            json!(30.0 + condition as f64 * 0.3 + wobble)
+        });
+        rows.push(Value::Array(values.collect()));
     }
     Value::Array(rows)
 }
