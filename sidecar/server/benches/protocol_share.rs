@@ -20,7 +20,7 @@ use server::answer_tables::BookTables;
 use server::framing::check_body;
 use server::from_proto::cells_params;
 use server::server::{CellsAnswer, CellsReply};
-use server::side_channel::{Stash, CELLS_FIELD};
+use server::side_channel::{Settled, Stash, CELLS_FIELD};
 use server::sorted_json::to_vec_sorted;
 use server::to_proto::book_tables;
 use service::CancelFlag;
@@ -148,8 +148,8 @@ fn side_channel_request(body: &str, stash: &Stash) -> (server::from_proto::Cells
 
 /// The answer's part around the library: tables laid out, the answer
 /// written, the library's placeholder answer written, and the merger's
-/// message with the answer in place.
-fn side_channel_answer(stash: &Stash, key: &str, results: service::WorkbookResults) -> Vec<u8> {
+/// message with the answer in place (in its parts, as the merger writes them).
+fn side_channel_answer(stash: &Stash, key: &str, results: service::WorkbookResults) -> Settled {
     let tables = BookTables(service::report::build_shown_sheets(&results));
     let bytes = to_vec_sorted(&CellsAnswer { results, tables }).expect("written");
     assert!(stash.put_answer(key, bytes));
@@ -181,7 +181,7 @@ fn side_channel_answer_part(bencher: Bencher<'_, '_>) {
             let (_, key) = side_channel_request(&body, &stash);
             (results.clone(), key)
         })
-        .bench_values(|(results, key)| side_channel_answer(&stash, &key, results).len());
+        .bench_values(|(results, key)| side_channel_answer(&stash, &key, results).answer.len());
 }
 
 /// Parts of the answer around the library: the answer written in the library's key order.

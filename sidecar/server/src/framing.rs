@@ -23,7 +23,7 @@ use tokio::io::{AsyncRead, AsyncReadExt, AsyncWrite, AsyncWriteExt};
 use tokio::sync::mpsc;
 use tower_lsp_server::jsonrpc::{Request, Response};
 
-use crate::side_channel::Stash;
+use crate::side_channel::{Settled, Stash};
 
 /// The largest message accepted by default: 64 MiB.
 pub const DEFAULT_MAX_MESSAGE_BYTES: usize = 64 << 20;
@@ -454,7 +454,7 @@ pub async fn merge_output_with<R, W>(
                         stash.settle(&pending[body_start..size])
                     });
                     let written = match settled {
-                        Some(message) => output.write_all(&message).await,
+                        Some(settled) => write_settled(&mut output, &settled).await,
                         None => output.write_all(&pending[..size]).await,
                     };
                     if written.is_err() {
@@ -486,6 +486,13 @@ pub async fn merge_output_with<R, W>(
     }
     let _ = output.write_all(&pending).await;
     let _ = output.flush().await;
+}
+
+/// Writes a message whose answer was put in place, in its three parts.
+async fn write_settled<W: AsyncWrite + Unpin>(output: &mut W, settled: &Settled) -> std::io::Result<()> {
+    output.write_all(&settled.head).await?;
+    output.write_all(&settled.answer).await?;
+    output.write_all(&settled.tail).await
 }
 
 /// The size of the first complete message in `bytes` (header and body), if

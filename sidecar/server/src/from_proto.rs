@@ -535,7 +535,7 @@ impl GridBuilder {
         let col_index = u64::from(self.origin.col) + col_offset as u64;
         let cell_value = match cell {
             Cell::Blank => return Ok(()),
-            Cell::Text(text) if text.is_empty() => return Ok(()),
+            Cell::Text("") => return Ok(()),
             Cell::Text(text) if ERROR_TEXTS.contains(&text.trim()) => CellValue::Error(self.intern(text.trim())),
             Cell::Text(text) => CellValue::Text(self.intern(text)),
             Cell::Number(number) => CellValue::Number(number),

@@ -71,7 +71,7 @@ pub mod methods {
 /// answered already (cancelled, past its time limit) is dropped by the stash.
 fn stash_answer(stash: Option<&Stash>, key: Option<&str>, answer: CellsAnswer) -> CellsReply {
     let (Some(stash), Some(key)) = (stash, key) else {
-        return CellsReply::Answer(answer);
+        return CellsReply::Answer(Box::new(answer));
     };
     match crate::sorted_json::to_vec_sorted(&answer) {
         Ok(mut bytes) => {
@@ -83,7 +83,7 @@ fn stash_answer(stash: Option<&Stash>, key: Option<&str>, answer: CellsAnswer) -
             CellsReply::Stashed(Stash::placeholder(key))
         }
         // Not expected; the library then writes the answer itself.
-        Err(_) => CellsReply::Answer(answer),
+        Err(_) => CellsReply::Answer(Box::new(answer)),
     }
 }
 
@@ -284,7 +284,7 @@ pub struct CellsAnswer {
 #[serde(untagged)]
 pub enum CellsReply {
     /// The answer, serialised by the library.
-    Answer(CellsAnswer),
+    Answer(Box<CellsAnswer>),
     /// The placeholder of an answer in the stash.
     Stashed(Json),
 }

@@ -440,8 +440,9 @@ impl Stash {
     /// The merger's part, for every message from the library: when it is
     /// the answer to a request with an entry, the entry is removed, and an
     /// answer's placeholder is replaced by the stored answer (the new
-    /// message returned, framed). `None`: send the message as it is.
-    pub fn settle(&self, body: &[u8]) -> Option<Vec<u8>> {
+    /// message returned, framed, in its three parts). `None`: send the
+    /// message as it is.
+    pub fn settle(&self, body: &[u8]) -> Option<Settled> {
         if self.is_empty() {
             return None;
         }
@@ -467,13 +468,36 @@ impl Stash {
             .windows(placeholder.len())
             .position(|window| window == placeholder.as_slice())?;
         let length = body.len() - placeholder.len() + answer.len();
-        let mut replaced = format!("Content-Length: {length}\r\n\r\n").into_bytes();
-        replaced.reserve(length);
-        replaced.extend_from_slice(&body[..at]);
-        replaced.extend_from_slice(&answer);
-        replaced.extend_from_slice(&body[at + placeholder.len()..]);
+        let mut head = format!("Content-Length: {length}\r\n\r\n").into_bytes();
+        head.extend_from_slice(&body[..at]);
         self.lock().replaced += 1;
-        Some(replaced)
+        Some(Settled {
+            head,
+            answer,
+            tail: body[at + placeholder.len()..].to_vec(),
+        })
+    }
+}
+
+/// An answer put in place of its placeholder: the message is `head`, then
+/// `answer`, then `tail` (kept apart so that the answer is not copied again).
+#[derive(Debug)]
+pub struct Settled {
+    /// The header and the message up to the answer.
+    pub head: Vec<u8>,
+    /// The answer's JSON.
+    pub answer: Vec<u8>,
+    /// The rest of the message.
+    pub tail: Vec<u8>,
+}
+
+impl Settled {
+    /// The whole message in one piece.
+    pub fn into_bytes(self) -> Vec<u8> {
+        let mut bytes = self.head;
+        bytes.extend_from_slice(&self.answer);
+        bytes.extend_from_slice(&self.tail);
+        bytes
     }
 }
 
@@ -622,7 +646,7 @@ mod tests {
         assert_eq!(Stash::placeholder("k").to_string(), r#"{"_serverAnswer":"k"}"#);
         assert!(stash.put_answer(&keys[1], br#"{"a":[1,2]}"#.to_vec()));
         let placeholder = json!({"jsonrpc": "2.0", "result": Stash::placeholder(&keys[1]), "id": 1}).to_string();
-        let replaced = stash.settle(placeholder.as_bytes()).expect("replaced");
+        let replaced = stash.settle(placeholder.as_bytes()).expect("replaced").into_bytes();
         assert_eq!(
             String::from_utf8_lossy(&replaced),
             "Content-Length: 45\r\n\r\n{\"id\":1,\"jsonrpc\":\"2.0\",\"result\":{\"a\":[1,2]}}"
