@@ -67,9 +67,12 @@ pub mod methods {
 
 /// The reply for an answer: when its cells came through the stash, its JSON
 /// is written here, in the library's key order, and kept for the output
-/// merger; the reply is then the placeholder. An answer whose request was
-/// answered already (cancelled, past its time limit) is dropped by the stash.
-fn stash_answer(stash: Option<&Stash>, key: Option<&str>, answer: CellsAnswer) -> CellsReply {
+/// merger; the reply is then the placeholder. When the stash has no entry
+/// for the key any more, the request was answered already (cancelled, past
+/// its time limit; or an answer to another request with the same id, which
+/// JSON-RPC forbids, settled it): the reply is the answer itself, so that no
+/// placeholder can ever reach the client.
+pub(crate) fn stash_answer(stash: Option<&Stash>, key: Option<&str>, answer: CellsAnswer) -> CellsReply {
     let (Some(stash), Some(key)) = (stash, key) else {
         return CellsReply::Answer(Box::new(answer));
     };
@@ -79,8 +82,11 @@ fn stash_answer(stash: Option<&Stash>, key: Option<&str>, answer: CellsAnswer) -
             if bytes.len() < bytes.capacity() / 2 {
                 bytes.shrink_to_fit();
             }
-            stash.put_answer(key, bytes);
-            CellsReply::Stashed(Stash::placeholder(key))
+            if stash.put_answer(key, bytes) {
+                CellsReply::Stashed(Stash::placeholder(key))
+            } else {
+                CellsReply::Answer(Box::new(answer))
+            }
         }
         // Not expected; the library then writes the answer itself.
         Err(_) => CellsReply::Answer(Box::new(answer)),

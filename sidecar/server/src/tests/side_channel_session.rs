@@ -338,3 +338,36 @@ async fn a_request_stopped_at_its_time_limit_leaves_nothing_in_the_stash() {
     let put_in_place = u64::from(small["result"].is_object());
     assert_eq!(counts, (2, put_in_place), "{small}");
 }
+
+/// An answer whose entry is gone (its id answered already, here by an
+/// answer to another request with the same id) is replied in full: no
+/// placeholder reaches the client.
+#[test]
+fn an_answer_without_its_entry_is_replied_in_full() {
+    let params = json!({"cells": trial_cells(3, 6)});
+    let answer = || {
+        let results = super::analysed_params(&params);
+        let tables = crate::answer_tables::BookTables(service::report::build_shown_sheets(&results));
+        crate::server::CellsAnswer { results, tables }
+    };
+    let stash = Stash::new();
+    let body = message(json!(7), methods::ANALYSE_CELLS, params.clone());
+    let forwarded: Value = serde_json::from_slice(&stash.divert(&body).expect("diverted")).unwrap_or(Value::Null);
+    let key = forwarded["params"][CELLS_FIELD]
+        .as_str()
+        .unwrap_or_default()
+        .to_string();
+
+    // With its entry: the placeholder, and the answer kept.
+    let reply = crate::server::stash_answer(Some(&stash), Some(&key), answer());
+    assert!(matches!(reply, crate::server::CellsReply::Stashed(_)));
+    assert_eq!(stash.len(), 1);
+
+    // Settled by another answer with id 7: the entry goes, the next reply is whole.
+    let other = br#"{"jsonrpc":"2.0","result":{"resultsFile":"x"},"id":7}"#;
+    assert!(stash.settle(other).is_none());
+    assert!(stash.is_empty());
+    let reply = crate::server::stash_answer(Some(&stash), Some(&key), answer());
+    assert!(matches!(reply, crate::server::CellsReply::Answer(_)));
+    assert!(stash.is_empty());
+}
