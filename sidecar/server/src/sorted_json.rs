@@ -28,18 +28,41 @@ use serde_json::Error;
 pub fn to_vec_sorted<T: Serialize + ?Sized>(value: &T) -> Result<Vec<u8>, Error> {
     // Room for a large answer at once: memory not written to is not used,
     // and growing by doubling would copy the answer several times.
-    let mut out = Vec::with_capacity(1 << 20);
-    value.serialize(Sorted { out: &mut out })?;
-    Ok(out)
+    let mut buffers = Buffers {
+        out: Vec::with_capacity(1 << 20),
+        scratch: Vec::new(),
+    };
+    value.serialize(Sorted { out: &mut buffers })?;
+    Ok(buffers.out)
+}
+
+/// The output, and room to put an object's entries in order (one for the
+/// whole answer: objects are closed one at a time).
+struct Buffers {
+    out: Vec<u8>,
+    scratch: Vec<u8>,
+}
+
+impl std::ops::Deref for Buffers {
+    type Target = Vec<u8>;
+    fn deref(&self) -> &Vec<u8> {
+        &self.out
+    }
+}
+
+impl std::ops::DerefMut for Buffers {
+    fn deref_mut(&mut self) -> &mut Vec<u8> {
+        &mut self.out
+    }
 }
 
 struct Sorted<'a> {
-    out: &'a mut Vec<u8>,
+    out: &'a mut Buffers,
 }
 
 impl Sorted<'_> {
     fn json(&mut self) -> serde_json::Serializer<&mut Vec<u8>> {
-        serde_json::Serializer::new(&mut *self.out)
+        serde_json::Serializer::new(&mut self.out.out)
     }
 }
 
@@ -212,7 +235,7 @@ impl<'a> ser::Serializer for Sorted<'a> {
 
 /// A list being written.
 struct Seq<'a> {
-    out: &'a mut Vec<u8>,
+    out: &'a mut Buffers,
     first: bool,
     close: &'static [u8],
 }
@@ -264,7 +287,7 @@ struct Entry {
 
 /// An object being written.
 struct Object<'a> {
-    out: &'a mut Vec<u8>,
+    out: &'a mut Buffers,
     /// Where the object's first entry starts (just after its `{`).
     base: usize,
     entries: Vec<Entry>,
@@ -275,7 +298,7 @@ struct Object<'a> {
 }
 
 impl<'a> Object<'a> {
-    fn open(out: &'a mut Vec<u8>, len: usize, in_variant: bool) -> Self {
+    fn open(out: &'a mut Buffers, len: usize, in_variant: bool) -> Self {
         out.push(b'{');
         let base = out.len();
         Self {
@@ -308,8 +331,10 @@ impl<'a> Object<'a> {
         if !in_order {
             // Stable: of equal keys the last written is last, and is kept.
             self.entries.sort_by(|a, b| a.key.cmp(&b.key));
-            let written = self.out[self.base..].to_vec();
-            self.out.truncate(self.base);
+            let Buffers { out, scratch } = &mut *self.out;
+            scratch.clear();
+            scratch.extend_from_slice(&out[self.base..]);
+            out.truncate(self.base);
             let count = self.entries.len();
             let mut first = true;
             for (index, entry) in self.entries.iter().enumerate() {
@@ -317,11 +342,10 @@ impl<'a> Object<'a> {
                     continue;
                 }
                 if !first {
-                    self.out.push(b',');
+                    out.push(b',');
                 }
                 first = false;
-                self.out
-                    .extend_from_slice(&written[entry.start - self.base..entry.end - self.base]);
+                out.extend_from_slice(&scratch[entry.start - self.base..entry.end - self.base]);
             }
         }
         self.out.push(b'}');
