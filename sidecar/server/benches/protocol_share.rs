@@ -17,27 +17,17 @@
 use divan::Bencher;
 use serde_json::{json, Value};
 use server::answer_tables::BookTables;
-use server::framing::check_body;
+use server::framing::{check_body, Incoming};
 use server::from_proto::cells_params;
 use server::server::{CellsAnswer, CellsReply};
 use server::side_channel::{Settled, Stash, CELLS_FIELD};
 use server::sorted_json::to_vec_sorted;
 use server::to_proto::book_tables;
 use service::CancelFlag;
-use tower_lsp_server::jsonrpc::{Request, Response};
+use tower_lsp_server::jsonrpc::Response;
 
 fn main() {
     divan::main();
-}
-
-/// How the library reads a message: an untagged choice of response or
-/// request, the same types in the same order as its own message type.
-#[derive(serde::Deserialize)]
-#[serde(untagged)]
-enum Incoming {
-    #[allow(dead_code)]
-    Response(Response),
-    Request(Request),
 }
 
 /// The body of the request, as an add-in sends it.

@@ -158,14 +158,14 @@ fn parse_header_block(block: &[u8]) -> Header {
     }
 }
 
-/// A message as the library reads it: the same types, in the same order.
+/// A message as the library reads it: the same types, in the same order
+/// (the library's own message type is private to it).
 #[derive(serde::Deserialize)]
 #[serde(untagged)]
-enum Incoming {
-    // The variants are only tried, never read.
-    #[allow(dead_code)]
+pub enum Incoming {
+    /// A response to a request of the server.
     Response(Response),
-    #[allow(dead_code)]
+    /// A request or notification.
     Request(Request),
 }
 

@@ -656,3 +656,88 @@ mod tests {
         assert!(stash.divert(&request(json!(999), json!({"cells": [[1]]}))).is_some());
     }
 }
+
+#[cfg(test)]
+mod mutation_tests {
+    use serde_json::{json, Value};
+
+    use super::{Stash, CELLS_FIELD};
+    use crate::framing::Incoming;
+    use crate::from_proto::{cells_params, cells_params_with};
+
+    /// Bodies near a valid request (bytes changed, inserted or removed, from a
+    /// fixed seed): whatever the guard diverts, the library reads as the same
+    /// request, and the stashed cells make the same grid, or the same error, as
+    /// the library's tree of them. The reference is the library itself.
+    #[test]
+    fn whatever_is_diverted_the_library_reads_as_the_same_request() {
+        let bases = [
+            json!({"jsonrpc": "2.0", "id": 3, "method": "trialyst/analyseCells",
+                   "params": {"cells": [["A", "B"], [1.5, "#N/A"], [null, true], [2e3, -7]], "origin": "B2"}}),
+            json!({"jsonrpc": "2.0", "id": "x", "method": "trialyst/inspectCells",
+                   "params": {"cells": [[1, 2], [], ["t\u{e9}xt", 0.25]], "sheet": "S", "settings": {"confidence": 0.9}}}),
+        ];
+        let alphabet = b"{}[],:\"\\0123456789.eE+-aeilnrstu #/";
+        let mut state: u64 = 0x0123_4567_89AB_CDEF;
+        let mut next = |bound: usize| {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            (state % bound as u64) as usize
+        };
+        let mut diverted = 0;
+        for round in 0..20_000 {
+            let mut body = bases[round % bases.len()].to_string().into_bytes();
+            for _ in 0..1 + next(3) {
+                let at = next(body.len());
+                let byte = alphabet[next(alphabet.len())];
+                match next(3) {
+                    0 => body[at] = byte,
+                    1 => body.insert(at, byte),
+                    _ => {
+                        body.remove(at);
+                    }
+                }
+            }
+            let stash = Stash::new();
+            let Some(forwarded) = stash.divert(&body) else {
+                continue;
+            };
+            diverted += 1;
+            let text = String::from_utf8_lossy(&body);
+            let Ok(Incoming::Request(original)) = serde_json::from_slice::<Incoming>(&body) else {
+                panic!("diverted, but the library does not read it as a request: {text}");
+            };
+            let Ok(Incoming::Request(sent)) = serde_json::from_slice::<Incoming>(&forwarded) else {
+                panic!("the forwarded body is not a request: {text}");
+            };
+            assert_eq!(original.method(), sent.method(), "{text}");
+            assert_eq!(original.id(), sent.id(), "{text}");
+            let original_params = original.params().cloned().unwrap_or(Value::Null);
+            let sent_params = sent.params().cloned().unwrap_or(Value::Null);
+            let key = sent_params[CELLS_FIELD].as_str().unwrap_or_default().to_string();
+            let raw = stash.take_cells(&key).expect("kept");
+            // Every other field goes through unchanged.
+            let mut without_cells = original_params.clone();
+            let mut without_key = sent_params.clone();
+            if let (Some(a), Some(b)) = (without_cells.as_object_mut(), without_key.as_object_mut()) {
+                a.remove("cells");
+                b.remove(CELLS_FIELD);
+            }
+            assert_eq!(without_cells, without_key, "{text}");
+            match (
+                cells_params(&original_params),
+                cells_params_with(&sent_params, Some(&raw)),
+            ) {
+                (Ok(a), Ok(b)) => {
+                    assert_eq!(a.grid.cells, b.grid.cells, "{text}");
+                    assert_eq!(a.grid.strings, b.grid.strings, "{text}");
+                }
+                (Err(a), Err(b)) => assert_eq!(a, b, "{text}"),
+                (a, b) => panic!("{text}: {:?} against {:?}", a.err(), b.err()),
+            }
+        }
+        // The mutations leave many requests readable: the check is not empty.
+        assert!(diverted > 1_000, "only {diverted} diverted");
+    }
+}
