@@ -1,35 +1,33 @@
 //! The protocol's share of a `trialyst/analyseCells` request of 10,000
-//! values (8 conditions of 1,250, invented values from a fixed seed): the
-//! framing guard's check, the library's reading of the request, the params
-//! turned into a grid, and the answer (result tables laid out, turned into
-//! the library's value and written as JSON). The analysis itself is timed
-//! apart (`analysis`) and is not the protocol's share. Target: the share
-//! under 2 ms at p50.
+//! values (8 conditions of 1,250, invented values from a fixed seed).
+//!
+//! `protocol_share` is the way requests take now, around the library's JSON
+//! trees (`server::side_channel`): the guard reads the cells into the stash
+//! and forwards a small request, the library reads that, the cells become
+//! the grid; the answer's tables are laid out, the answer is written as JSON
+//! in the library's key order, the library writes the small placeholder
+//! answer and the merger puts the answer in its place. `protocol_share_former`
+//! is the library's own way: the guard's check, the library's reading of the
+//! whole request, the grid, and the answer turned into the library's value
+//! and written. The analysis itself is timed apart (`analysis`) and is not
+//! the protocol's share. Target: the share under 2 ms at p50.
 //!
 //! Run in release (the bench profile): `cargo bench -p server --bench protocol_share`.
 
 use divan::Bencher;
 use serde_json::{json, Value};
 use server::answer_tables::BookTables;
-use server::framing::check_body;
+use server::framing::{check_body, Incoming};
 use server::from_proto::cells_params;
-use server::server::CellsAnswer;
+use server::server::{CellsAnswer, CellsReply};
+use server::side_channel::{Settled, Stash, CELLS_FIELD};
+use server::sorted_json::to_vec_sorted;
 use server::to_proto::book_tables;
 use service::CancelFlag;
-use tower_lsp_server::jsonrpc::{Request, Response};
+use tower_lsp_server::jsonrpc::Response;
 
 fn main() {
     divan::main();
-}
-
-/// How the library reads a message: an untagged choice of response or
-/// request, the same types in the same order as its own message type.
-#[derive(serde::Deserialize)]
-#[serde(untagged)]
-enum Incoming {
-    #[allow(dead_code)]
-    Response(Response),
-    Request(Request),
 }
 
 /// The body of the request, as an add-in sends it.
@@ -127,10 +125,83 @@ fn answer_written(bencher: Bencher<'_, '_>) {
     bencher.with_inputs(|| results.clone()).bench_values(answer_bytes);
 }
 
-/// The protocol's share in one: check, read, grid, answer (the analysis
-/// result made beforehand).
+/// The request's part around the library: the guard keeps the cells and
+/// forwards a small request; the library reads it; the handler makes the grid.
+fn side_channel_request(body: &str, stash: &Stash) -> (server::from_proto::CellsParams, String) {
+    let forwarded = stash.divert(body.as_bytes()).expect("diverted");
+    let params = library_read(std::str::from_utf8(&forwarded).expect("text"));
+    let key = params[CELLS_FIELD].as_str().expect("key").to_string();
+    let raw = stash.take_cells(&key).expect("kept");
+    let read = server::from_proto::cells_params_with(&params, Some(&raw)).expect("cells");
+    (read, key)
+}
+
+/// The answer's part around the library: tables laid out, the answer
+/// written, the library's placeholder answer written, and the merger's
+/// message with the answer in place (in its parts, as the merger writes them).
+fn side_channel_answer(stash: &Stash, key: &str, results: service::WorkbookResults) -> Settled {
+    let tables = BookTables(service::report::build_shown_sheets(&results));
+    let bytes = to_vec_sorted(&CellsAnswer { results, tables }).expect("written");
+    assert!(stash.put_answer(key, bytes));
+    let value = serde_json::to_value(CellsReply::Stashed(Stash::placeholder(key))).expect("placeholder");
+    let response = serde_json::to_vec(&Response::from_ok(12.into(), value)).expect("written");
+    stash.settle(&response).expect("put in place")
+}
+
+#[divan::bench(sample_count = 200)]
+fn side_channel_request_part(bencher: Bencher<'_, '_>) {
+    let body = request_body();
+    let stash = Stash::new();
+    let refused = br#"{"jsonrpc":"2.0","error":{"code":-32800,"message":"x"},"id":12}"#;
+    bencher.bench(|| {
+        let (read, _) = side_channel_request(&body, &stash);
+        // The entry goes with its answer (not timed apart: a small read).
+        assert!(stash.settle(refused).is_none());
+        read.n_cells
+    });
+}
+
+#[divan::bench(sample_count = 200)]
+fn side_channel_answer_part(bencher: Bencher<'_, '_>) {
+    let body = request_body();
+    let results = analysed(&library_read(&body));
+    let stash = Stash::new();
+    bencher
+        .with_inputs(|| {
+            let (_, key) = side_channel_request(&body, &stash);
+            (results.clone(), key)
+        })
+        .bench_values(|(results, key)| side_channel_answer(&stash, &key, results).answer.len());
+}
+
+/// Parts of the answer around the library: the answer written in the library's key order.
+#[divan::bench(sample_count = 200)]
+fn answer_part_sorted_json(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    let tables = BookTables(service::report::build_shown_sheets(&results));
+    let answer = CellsAnswer { results, tables };
+    bencher.bench(|| to_vec_sorted(&answer).map(|bytes| bytes.len()).ok());
+}
+
+/// The protocol's share in one, the way requests take now: the request and
+/// the answer around the library (the analysis result made beforehand).
 #[divan::bench(sample_count = 200)]
 fn protocol_share(bencher: Bencher<'_, '_>) {
+    let body = request_body();
+    let results = analysed(&library_read(&body));
+    let stash = Stash::new();
+    bencher.with_inputs(|| results.clone()).bench_values(|results| {
+        let (read, key) = side_channel_request(&body, &stash);
+        let n = read.n_cells;
+        drop(read);
+        (n, side_channel_answer(&stash, &key, results))
+    });
+}
+
+/// The protocol's share in one, the library's own way: check, read, grid,
+/// answer (the analysis result made beforehand).
+#[divan::bench(sample_count = 200)]
+fn protocol_share_former(bencher: Bencher<'_, '_>) {
     let body = request_body();
     let results = analysed(&library_read(&body));
     bencher.with_inputs(|| results.clone()).bench_values(|results| {
@@ -175,4 +246,12 @@ fn answer_part_json(bencher: Bencher<'_, '_>) {
 fn answer_part_report_model(bencher: Bencher<'_, '_>) {
     let results = analysed(&library_read(&request_body()));
     bencher.bench(|| service::report::build_results_book(&results).sheets.len());
+}
+
+/// Parts of the answer around the library: the report model of the sheets
+/// a reader sees (the answer has no use for the hidden results document).
+#[divan::bench(sample_count = 200)]
+fn answer_part_shown_sheets(bencher: Bencher<'_, '_>) {
+    let results = analysed(&library_read(&request_body()));
+    bencher.bench(|| service::report::build_shown_sheets(&results).sheets.len());
 }

@@ -7,8 +7,6 @@
 //! writes the same JSON from it, cell by cell: nothing is copied but a grid
 //! of positions, and each sheet's format codes are made once per format.
 
-use std::collections::HashMap;
-
 use serde::ser::{SerializeSeq, SerializeStruct, Serializer};
 use serde::Serialize;
 use workbook_io::write::{Book, Look, NumberFormat, Sheet, Value};
@@ -35,8 +33,15 @@ struct SheetView<'a> {
     /// Index into `sheet.cells` of each place, row by row.
     grid: Vec<Option<usize>>,
     header_rows: Vec<u32>,
-    codes: HashMap<NumberFormat, String>,
+    /// Each format of the sheet's finite numbers with its code, made once.
+    codes: Vec<(NumberFormat, String)>,
+    /// For each cell of `sheet.cells`, the index of its code in `codes`
+    /// (`NO_CODE` for the general format).
+    cell_codes: Vec<u16>,
 }
+
+/// The general format's place in [`SheetView::cell_codes`].
+const NO_CODE: u16 = u16::MAX;
 
 impl<'a> SheetView<'a> {
     fn new(sheet: &'a Sheet) -> Self {
@@ -54,17 +59,32 @@ impl<'a> SheetView<'a> {
             .unwrap_or(0);
         let mut grid = vec![None; n_rows * n_cols];
         let mut header_rows: Vec<u32> = Vec::new();
-        let mut codes = HashMap::new();
+        // A sheet has a handful of formats: a short list, searched from the
+        // one found last, costs less than hashing every cell.
+        let mut codes: Vec<(NumberFormat, String)> = Vec::new();
+        let mut cell_codes = Vec::with_capacity(sheet.cells.len());
+        let mut last = 0usize;
         for (index, placed) in sheet.cells.iter().enumerate() {
             grid[placed.row as usize * n_cols + placed.col as usize] = Some(index);
             if placed.look == Look::ColumnHeader && header_rows.last() != Some(&placed.row) {
                 header_rows.push(placed.row);
             }
-            if let Value::Number(number, format) = &placed.value {
-                if number.is_finite() {
-                    codes.entry(*format).or_insert_with(|| format.code());
+            let code = match &placed.value {
+                Value::Number(number, format) if number.is_finite() => {
+                    if codes.get(last).is_none_or(|(known, _)| known != format) {
+                        last = match codes.iter().position(|(known, _)| known == format) {
+                            Some(found) => found,
+                            None => {
+                                codes.push((*format, format.code()));
+                                codes.len() - 1
+                            }
+                        };
+                    }
+                    u16::try_from(last).unwrap_or(NO_CODE)
                 }
-            }
+                _ => NO_CODE,
+            };
+            cell_codes.push(code);
         }
         Self {
             sheet,
@@ -72,6 +92,7 @@ impl<'a> SheetView<'a> {
             grid,
             header_rows,
             codes,
+            cell_codes,
         }
     }
 
@@ -93,12 +114,10 @@ impl<'a> SheetView<'a> {
     }
 
     fn code(&self, place: Option<usize>) -> &str {
-        match place.map(|index| &self.sheet.cells[index].value) {
-            Some(Value::Number(number, format)) if number.is_finite() => {
-                self.codes.get(format).map_or(GENERAL, String::as_str)
-            }
-            _ => GENERAL,
-        }
+        place
+            .and_then(|index| self.cell_codes.get(index))
+            .and_then(|&code| self.codes.get(usize::from(code)))
+            .map_or(GENERAL, |(_, code)| code.as_str())
     }
 }
 
@@ -168,15 +187,17 @@ impl Serialize for FormatRow<'_, '_> {
 
 impl Serialize for SheetView<'_> {
     fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        // In the order of the keys, as the library's JSON tree writes them:
+        // an answer written around the library then needs no reordering.
         let mut table = serializer.serialize_struct("SheetTable", 7)?;
-        table.serialize_field("name", &self.sheet.name)?;
-        table.serialize_field("values", &Values(self))?;
-        table.serialize_field("numberFormats", &Formats(self))?;
-        table.serialize_field("headerRows", &self.header_rows)?;
-        table.serialize_field("columnWidths", &self.sheet.widths)?;
-        table.serialize_field("frozenRows", &self.sheet.frozen_rows)?;
         let charts: Vec<_> = self.sheet.charts.iter().map(chart_description).collect();
         table.serialize_field("charts", &charts)?;
+        table.serialize_field("columnWidths", &self.sheet.widths)?;
+        table.serialize_field("frozenRows", &self.sheet.frozen_rows)?;
+        table.serialize_field("headerRows", &self.header_rows)?;
+        table.serialize_field("name", &self.sheet.name)?;
+        table.serialize_field("numberFormats", &Formats(self))?;
+        table.serialize_field("values", &Values(self))?;
         table.end()
     }
 }
@@ -231,14 +252,7 @@ mod tests {
             .map(|row| row.as_array().cloned().unwrap_or_default())
             .collect();
         let params = serde_json::json!({"cells": grid_rows, "origin": "B2", "sheet": "Trial"});
-        let read = crate::from_proto::cells_params(&params).expect("cells");
-        let results = service::analyse_grid(
-            &read.grid,
-            &read.settings,
-            &read.source_name,
-            &service::CancelFlag::default(),
-        )
-        .expect("analysed");
+        let results = crate::tests::analysed_params(&params);
         let results_book = service::report::build_results_book(&results);
         assert!(results_book.sheets.len() >= 3);
 

@@ -23,6 +23,8 @@ use tokio::io::{AsyncRead, AsyncReadExt, AsyncWrite, AsyncWriteExt};
 use tokio::sync::mpsc;
 use tower_lsp_server::jsonrpc::{Request, Response};
 
+use crate::side_channel::{Settled, Stash};
+
 /// The largest message accepted by default: 64 MiB.
 pub const DEFAULT_MAX_MESSAGE_BYTES: usize = 64 << 20;
 
@@ -156,14 +158,14 @@ fn parse_header_block(block: &[u8]) -> Header {
     }
 }
 
-/// A message as the library reads it: the same types, in the same order.
+/// A message as the library reads it: the same types, in the same order
+/// (the library's own message type is private to it).
 #[derive(serde::Deserialize)]
 #[serde(untagged)]
-enum Incoming {
-    // The variants are only tried, never read.
-    #[allow(dead_code)]
+pub enum Incoming {
+    /// A response to a request of the server.
     Response(Response),
-    #[allow(dead_code)]
+    /// A request or notification.
     Request(Request),
 }
 
@@ -213,15 +215,29 @@ pub fn check_body(body: &[u8]) -> Result<(), Vec<u8>> {
 /// Reads messages from `input`, forwards the well-formed ones to `forward`,
 /// and sends error answers for the others to `answers`. Returns at the end of
 /// the input or when the forward side is closed.
-pub async fn guard_input<R, W>(
+pub async fn guard_input<R, W>(input: R, forward: W, answers: mpsc::UnboundedSender<Vec<u8>>, options: FramingOptions)
+where
+    R: AsyncRead + Unpin,
+    W: AsyncWrite + Unpin,
+{
+    guard_input_with(input, forward, answers, options, None).await;
+}
+
+/// [`guard_input`], with the session's [`Stash`]: once the client has sent
+/// `initialized`, the cells of a request that [`Stash::divert`] takes are
+/// kept there and the request forwarded without them.
+pub async fn guard_input_with<R, W>(
     mut input: R,
     mut forward: W,
     answers: mpsc::UnboundedSender<Vec<u8>>,
     options: FramingOptions,
+    stash: Option<Stash>,
 ) where
     R: AsyncRead + Unpin,
     W: AsyncWrite + Unpin,
 {
+    // Nothing is diverted before the session is set up.
+    let mut initialized = false;
     let mut buffer: Vec<u8> = Vec::with_capacity(64 << 10);
     let mut chunk = vec![0u8; 64 << 10];
     let mut at_end = false;
@@ -353,8 +369,20 @@ pub async fn guard_input<R, W>(
             continue;
         }
         let body: Vec<u8> = buffer.drain(..length).collect();
+        if let Some(stash) = stash.as_ref().filter(|_| initialized) {
+            // A request read whole into typed cells is well-formed: no other check is needed.
+            if let Some(diverted) = stash.divert(&body) {
+                if forward.write_all(&frame(&diverted)).await.is_err() || forward.flush().await.is_err() {
+                    break;
+                }
+                continue;
+            }
+        }
         match check_body(&body) {
             Ok(()) => {
+                if !initialized && is_initialized_notification(&body) {
+                    initialized = true;
+                }
                 if forward.write_all(&frame(&body)).await.is_err() || forward.flush().await.is_err() {
                     break;
                 }
@@ -375,10 +403,37 @@ pub async fn guard_input<R, W>(
     let _ = forward.shutdown().await;
 }
 
+/// True for the client's `initialized` notification (a small message).
+fn is_initialized_notification(body: &[u8]) -> bool {
+    #[derive(serde::Deserialize)]
+    struct Method {
+        method: Option<String>,
+        id: Option<serde::de::IgnoredAny>,
+    }
+    body.len() < 4096
+        && serde_json::from_slice::<Method>(body)
+            .is_ok_and(|message| message.id.is_none() && message.method.as_deref() == Some("initialized"))
+}
+
 /// Writes the library's output and the guard's answers to `output`, whole
 /// messages at a time. Returns when the library's output ends.
-pub async fn merge_output<R, W>(mut server_output: R, mut answers: mpsc::UnboundedReceiver<Vec<u8>>, mut output: W)
+pub async fn merge_output<R, W>(server_output: R, answers: mpsc::UnboundedReceiver<Vec<u8>>, output: W)
 where
+    R: AsyncRead + Unpin,
+    W: AsyncWrite + Unpin,
+{
+    merge_output_with(server_output, answers, output, None).await;
+}
+
+/// [`merge_output`], with the session's [`Stash`]: each answer from the
+/// library settles its request's entry, and a placeholder is replaced by
+/// the stored answer (see [`Stash::settle`]).
+pub async fn merge_output_with<R, W>(
+    mut server_output: R,
+    mut answers: mpsc::UnboundedReceiver<Vec<u8>>,
+    mut output: W,
+    stash: Option<Stash>,
+) where
     R: AsyncRead + Unpin,
     W: AsyncWrite + Unpin,
 {
@@ -394,7 +449,15 @@ where
                 }
                 // Write out every complete message.
                 while let Some(size) = complete_message_size(&pending) {
-                    if output.write_all(&pending[..size]).await.is_err() {
+                    let settled = stash.as_ref().and_then(|stash| {
+                        let body_start = find(&pending[..size], b"\r\n\r\n").map_or(0, |end| end + 4);
+                        stash.settle(&pending[body_start..size])
+                    });
+                    let written = match settled {
+                        Some(settled) => write_settled(&mut output, &settled).await,
+                        None => output.write_all(&pending[..size]).await,
+                    };
+                    if written.is_err() {
                         return;
                     }
                     pending.drain(..size);
@@ -423,6 +486,13 @@ where
     }
     let _ = output.write_all(&pending).await;
     let _ = output.flush().await;
+}
+
+/// Writes a message whose answer was put in place, in its three parts.
+async fn write_settled<W: AsyncWrite + Unpin>(output: &mut W, settled: &Settled) -> std::io::Result<()> {
+    output.write_all(&settled.head).await?;
+    output.write_all(&settled.answer).await?;
+    output.write_all(&settled.tail).await
 }
 
 /// The size of the first complete message in `bytes` (header and body), if

@@ -15,6 +15,8 @@ use workbook_io::SheetGrid;
 
 use service::settings::Settings;
 
+use crate::side_channel::{RawCell, RawCells};
+
 /// A parameter that could not be used: the field and what was wrong.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ParamsError {
@@ -361,6 +363,16 @@ const ERROR_TEXTS: &[&str] = &[
 ///
 /// [`ParamsError`] naming the field.
 pub fn cells_params(params: &Value) -> Result<CellsParams, ParamsError> {
+    cells_params_with(params, None)
+}
+
+/// [`cells_params`], the cells taken from `stashed` when the framing guard
+/// read them (see [`crate::side_channel`]) rather than from `params.cells`.
+///
+/// # Errors
+///
+/// [`ParamsError`] naming the field, the same as [`cells_params`] for the same request.
+pub fn cells_params_with(params: &Value, stashed: Option<&RawCells>) -> Result<CellsParams, ParamsError> {
     let map = params_object(params)?;
     let origin_text = optional_text(map, "origin", "params")?.unwrap_or_else(|| "A1".into());
     let (origin_sheet, origin_cell) = split_sheet_reference(&origin_text);
@@ -377,9 +389,10 @@ pub fn cells_params(params: &Value) -> Result<CellsParams, ParamsError> {
     let source_name = optional_text(map, "sourceName", "params")?
         .filter(|text| !text.trim().is_empty())
         .unwrap_or_else(|| "cells sent by the client".into());
-    let rows = match map.get("cells") {
-        Some(Value::Array(rows)) => rows,
-        Some(other) => {
+    let rows = match (stashed, map.get("cells")) {
+        (Some(raw), _) => Rows::Raw(raw),
+        (None, Some(Value::Array(rows))) => Rows::Json(rows),
+        (None, Some(other)) => {
             return Err(error(
                 "params.cells",
                 format!(
@@ -388,9 +401,12 @@ pub fn cells_params(params: &Value) -> Result<CellsParams, ParamsError> {
                 ),
             ))
         }
-        None => return Err(error("params.cells", "missing; give the cell values as a list of rows")),
+        (None, None) => return Err(error("params.cells", "missing; give the cell values as a list of rows")),
     };
-    let grid = grid_of(rows, origin, &sheet)?;
+    let grid = match rows {
+        Rows::Json(rows) => grid_of(rows, origin, &sheet)?,
+        Rows::Raw(raw) => grid_of_raw(raw, origin, &sheet)?,
+    };
     let mut settings = settings(map.get("settings"))?;
     if settings.range.is_some() {
         return Err(error(
@@ -408,23 +424,16 @@ pub fn cells_params(params: &Value) -> Result<CellsParams, ParamsError> {
     })
 }
 
+/// Where the cells of a request are.
+enum Rows<'a> {
+    Json(&'a [Value]),
+    Raw(&'a RawCells),
+}
+
 /// Builds a sheet grid from rows of JSON values, the top-left at `origin`,
 /// so that every cell keeps the address it has on the client's sheet.
 fn grid_of(rows: &[Value], origin: CellPos, sheet: &str) -> Result<SheetGrid, ParamsError> {
-    let mut grid = SheetGrid {
-        name: sheet.to_string(),
-        ..SheetGrid::default()
-    };
-    let mut string_index: std::collections::HashMap<String, u32> = std::collections::HashMap::new();
-    let mut intern = |grid: &mut SheetGrid, text: &str| -> u32 {
-        if let Some(&index) = string_index.get(text) {
-            return index;
-        }
-        let index = grid.strings.len() as u32;
-        grid.strings.push(text.to_string());
-        string_index.insert(text.to_string(), index);
-        index
-    };
+    let mut builder = GridBuilder::new(origin, sheet);
     for (row_offset, row) in rows.iter().enumerate() {
         let Value::Array(values) = row else {
             return Err(error(
@@ -432,52 +441,131 @@ fn grid_of(rows: &[Value], origin: CellPos, sheet: &str) -> Result<SheetGrid, Pa
                 format!("expected a row (a list of cell values), got {}", describe(row)),
             ));
         };
-        let row_index = u64::from(origin.row) + row_offset as u64;
-        if row_index >= u64::from(MAX_ROWS) && !values.is_empty() {
+        let row_index = builder.row(row_offset, values.is_empty())?;
+        for (col_offset, value) in values.iter().enumerate() {
+            let cell = match value {
+                Value::Null => Cell::Blank,
+                Value::String(text) => Cell::Text(text),
+                Value::Number(number) => number.as_f64().map_or(Cell::OutOfRange, Cell::Number),
+                Value::Bool(flag) => Cell::Bool(*flag),
+                other => Cell::Other(other),
+            };
+            builder.cell(row_index, row_offset, col_offset, cell)?;
+        }
+    }
+    Ok(builder.grid)
+}
+
+/// The same grid from cells the framing guard read (see [`crate::side_channel`]).
+fn grid_of_raw(raw: &RawCells, origin: CellPos, sheet: &str) -> Result<SheetGrid, ParamsError> {
+    let mut builder = GridBuilder::new(origin, sheet);
+    for (row_offset, row) in raw.rows().enumerate() {
+        let row_index = builder.row(row_offset, row.is_empty())?;
+        for (col_offset, value) in row.iter().enumerate() {
+            let cell = match value {
+                RawCell::Blank => Cell::Blank,
+                RawCell::Text(index) => Cell::Text(raw.text(*index)),
+                RawCell::Number(number) => Cell::Number(*number),
+                RawCell::Bool(flag) => Cell::Bool(*flag),
+            };
+            builder.cell(row_index, row_offset, col_offset, cell)?;
+        }
+    }
+    Ok(builder.grid)
+}
+
+/// One value sent for a cell, as the grid takes it.
+enum Cell<'a> {
+    Blank,
+    Text(&'a str),
+    Number(f64),
+    OutOfRange,
+    Bool(bool),
+    Other(&'a Value),
+}
+
+/// A grid being built, row by row, with its texts kept once each.
+struct GridBuilder {
+    grid: SheetGrid,
+    origin: CellPos,
+    string_index: std::collections::HashMap<String, u32>,
+}
+
+impl GridBuilder {
+    fn new(origin: CellPos, sheet: &str) -> Self {
+        Self {
+            grid: SheetGrid {
+                name: sheet.to_string(),
+                ..SheetGrid::default()
+            },
+            origin,
+            string_index: std::collections::HashMap::new(),
+        }
+    }
+
+    fn intern(&mut self, text: &str) -> u32 {
+        if let Some(&index) = self.string_index.get(text) {
+            return index;
+        }
+        let index = self.grid.strings.len() as u32;
+        self.grid.strings.push(text.to_string());
+        self.string_index.insert(text.to_string(), index);
+        index
+    }
+
+    /// Starts a row; returns its index on the sheet.
+    fn row(&self, row_offset: usize, is_empty: bool) -> Result<u64, ParamsError> {
+        let row_index = u64::from(self.origin.row) + row_offset as u64;
+        if row_index >= u64::from(MAX_ROWS) && !is_empty {
             return Err(error(
                 format!("params.cells[{row_offset}]"),
                 format!("the row would lie below the last row of a sheet ({MAX_ROWS})"),
             ));
         }
-        for (col_offset, value) in values.iter().enumerate() {
-            let col_index = u64::from(origin.col) + col_offset as u64;
-            let cell_value = match value {
-                Value::Null => continue,
-                Value::String(text) if text.is_empty() => continue,
-                Value::String(text) if ERROR_TEXTS.contains(&text.trim()) => {
-                    CellValue::Error(intern(&mut grid, text.trim()))
-                }
-                Value::String(text) => CellValue::Text(intern(&mut grid, text)),
-                Value::Number(number) => match number.as_f64() {
-                    Some(number) => CellValue::Number(number),
-                    None => {
-                        return Err(error(
-                            format!("params.cells[{row_offset}][{col_offset}]"),
-                            "the number is out of range",
-                        ))
-                    }
-                },
-                Value::Bool(flag) => CellValue::Bool(*flag),
-                other => {
-                    return Err(error(
-                        format!("params.cells[{row_offset}][{col_offset}]"),
-                        format!("expected a number, text, true/false or null, got {}", describe(other)),
-                    ))
-                }
-            };
-            if col_index >= u64::from(MAX_COLS) {
+        Ok(row_index)
+    }
+
+    fn cell(
+        &mut self,
+        row_index: u64,
+        row_offset: usize,
+        col_offset: usize,
+        cell: Cell<'_>,
+    ) -> Result<(), ParamsError> {
+        let col_index = u64::from(self.origin.col) + col_offset as u64;
+        let cell_value = match cell {
+            Cell::Blank => return Ok(()),
+            Cell::Text("") => return Ok(()),
+            Cell::Text(text) if ERROR_TEXTS.contains(&text.trim()) => CellValue::Error(self.intern(text.trim())),
+            Cell::Text(text) => CellValue::Text(self.intern(text)),
+            Cell::Number(number) => CellValue::Number(number),
+            Cell::OutOfRange => {
                 return Err(error(
                     format!("params.cells[{row_offset}][{col_offset}]"),
-                    format!("the cell would lie right of the last column of a sheet ({MAX_COLS})"),
-                ));
+                    "the number is out of range",
+                ))
             }
-            grid.cells
-                .push((CellPos::new(row_index as u32, col_index as u32), cell_value));
+            Cell::Bool(flag) => CellValue::Bool(flag),
+            Cell::Other(other) => {
+                return Err(error(
+                    format!("params.cells[{row_offset}][{col_offset}]"),
+                    format!("expected a number, text, true/false or null, got {}", describe(other)),
+                ))
+            }
+        };
+        if col_index >= u64::from(MAX_COLS) {
+            return Err(error(
+                format!("params.cells[{row_offset}][{col_offset}]"),
+                format!("the cell would lie right of the last column of a sheet ({MAX_COLS})"),
+            ));
         }
+        // Rows go top to bottom and values left to right, so the cells are
+        // already in the row-major order the grid promises.
+        self.grid
+            .cells
+            .push((CellPos::new(row_index as u32, col_index as u32), cell_value));
+        Ok(())
     }
-    // Rows go top to bottom and values left to right, so the cells are
-    // already in the row-major order the grid promises.
-    Ok(grid)
 }
 
 #[cfg(test)]

@@ -7,6 +7,9 @@
 //!
 //! - [`framing`]: checks each incoming message (size, header, JSON) before
 //!   the library sees it, and merges its own error answers into the output;
+//! - [`side_channel`]: carries the cells of `trialyst/analyseCells` and
+//!   `trialyst/inspectCells`, and the answer of the former, around the
+//!   library's JSON trees;
 //! - [`server`]: the handlers, thin callers of [`service`];
 //! - [`documents`]: the one owner of the open-workbook state and diagnostics;
 //! - [`from_proto`], [`to_proto`]: conversions between protocol values and
@@ -21,6 +24,8 @@ pub mod from_proto;
 pub mod planning;
 pub mod quick_check;
 pub mod server;
+pub mod side_channel;
+pub mod sorted_json;
 pub mod to_proto;
 
 #[cfg(test)]
@@ -227,13 +232,41 @@ where
     R: AsyncRead + Unpin + Send + 'static,
     W: AsyncWrite + Unpin + Send + 'static,
 {
+    // One stash per session: its guard, handlers and merger share it.
+    let stash = options.side_channel.then(side_channel::Stash::new);
+    serve_session_with(input, output, options, framing, stash).await
+}
+
+/// [`serve_session`] with the given stash (tests look into it).
+pub(crate) async fn serve_session_with<R, W>(
+    input: R,
+    output: W,
+    options: ServerOptions,
+    framing: FramingOptions,
+    stash: Option<side_channel::Stash>,
+) -> i32
+where
+    R: AsyncRead + Unpin + Send + 'static,
+    W: AsyncWrite + Unpin + Send + 'static,
+{
     let shutdown_received = Arc::new(AtomicBool::new(false));
-    let (service, socket) = server::build_service(options, shutdown_received.clone());
+    let (service, socket) = server::build_service(options, shutdown_received.clone(), stash.clone());
     let (forward_writer, forward_reader) = tokio::io::duplex(1 << 20);
     let (server_writer, server_output) = tokio::io::duplex(1 << 20);
     let (answers_sender, answers_receiver) = mpsc::unbounded_channel();
-    let guard = tokio::spawn(framing::guard_input(input, forward_writer, answers_sender, framing));
-    let merger = tokio::spawn(framing::merge_output(server_output, answers_receiver, output));
+    let guard = tokio::spawn(framing::guard_input_with(
+        input,
+        forward_writer,
+        answers_sender,
+        framing,
+        stash.clone(),
+    ));
+    let merger = tokio::spawn(framing::merge_output_with(
+        server_output,
+        answers_receiver,
+        output,
+        stash,
+    ));
     Server::new(forward_reader, server_writer, socket)
         .concurrency_level(CONCURRENT_REQUESTS)
         .serve(service)

@@ -27,6 +27,7 @@ use workbook_io::ReadError;
 use super::documents::{self, DocumentEvent};
 use super::from_proto::{self, ParamsError};
 use super::planning;
+use super::side_channel::{self, Stash};
 
 mod next_plan;
 use super::to_proto;
@@ -64,6 +65,34 @@ pub mod methods {
     ];
 }
 
+/// The reply for an answer: when its cells came through the stash, its JSON
+/// is written here, in the library's key order, and kept for the output
+/// merger; the reply is then the placeholder. When the stash has no entry
+/// for the key any more, the request was answered already (cancelled, past
+/// its time limit; or an answer to another request with the same id, which
+/// JSON-RPC forbids, settled it): the reply is the answer itself, so that no
+/// placeholder can ever reach the client.
+pub(crate) fn stash_answer(stash: Option<&Stash>, key: Option<&str>, answer: CellsAnswer) -> CellsReply {
+    let (Some(stash), Some(key)) = (stash, key) else {
+        return CellsReply::Answer(Box::new(answer));
+    };
+    match crate::sorted_json::to_vec_sorted(&answer) {
+        Ok(mut bytes) => {
+            // The writer starts with room for a large answer; a small one gives it back.
+            if bytes.len() < bytes.capacity() / 2 {
+                bytes.shrink_to_fit();
+            }
+            if stash.put_answer(key, bytes) {
+                CellsReply::Stashed(Stash::placeholder(key))
+            } else {
+                CellsReply::Answer(Box::new(answer))
+            }
+        }
+        // Not expected; the library then writes the answer itself.
+        Err(_) => CellsReply::Answer(Box::new(answer)),
+    }
+}
+
 /// The LSP code for a request that was well-formed but failed (LSP 3.17).
 const REQUEST_FAILED: i64 = -32803;
 
@@ -81,6 +110,10 @@ pub struct ServerOptions {
     /// A request still running after this long is stopped through its cancel flag and
     /// answered with a `time-limit` error; `None` sets no limit. Announced to the client.
     pub request_time_limit: Option<Duration>,
+    /// Carries the cells of cell requests, and the answer of `trialyst/analyseCells`,
+    /// around the library's JSON trees (see [`crate::side_channel`]). Off only to
+    /// compare with the library's own way.
+    pub side_channel: bool,
     /// Registers a panicking request, for tests of the panic guard.
     #[cfg(test)]
     pub with_panic_method: bool,
@@ -94,6 +127,7 @@ impl Default for ServerOptions {
             progress_interval: Duration::from_millis(250),
             max_message_bytes: super::framing::DEFAULT_MAX_MESSAGE_BYTES,
             request_time_limit: Some(DEFAULT_REQUEST_TIME_LIMIT),
+            side_channel: true,
             #[cfg(test)]
             with_panic_method: false,
         }
@@ -117,6 +151,8 @@ struct Shared {
     shutdown_received: Arc<AtomicBool>,
     documents: mpsc::UnboundedSender<DocumentEvent>,
     next_token: AtomicU64,
+    /// The session's stash, when the side channel is on.
+    stash: Option<Stash>,
 }
 
 /// The language server: a handle on the shared parts.
@@ -126,10 +162,12 @@ pub struct Backend {
 }
 
 /// Builds the service; `shutdown_received` is set when the client sends
-/// `shutdown`, so the caller can choose the exit code.
+/// `shutdown`, so the caller can choose the exit code. `stash` is the
+/// session's, shared with its framing guard and output merger.
 pub fn build_service(
     options: ServerOptions,
     shutdown_received: Arc<AtomicBool>,
+    stash: Option<Stash>,
 ) -> (LspService<Backend>, tower_lsp_server::ClientSocket) {
     #[cfg(test)]
     let with_panic_method = options.with_panic_method;
@@ -141,6 +179,7 @@ pub fn build_service(
             features: OnceLock::new(),
             shutdown_received,
             next_token: AtomicU64::new(1),
+            stash,
         }),
     })
     .custom_method(methods::INSPECT_WORKBOOK, Backend::inspect_workbook)
@@ -242,6 +281,18 @@ pub struct CellsAnswer {
     pub results: service::WorkbookResults,
     /// The result tables, written straight from the report model.
     pub tables: crate::answer_tables::BookTables,
+}
+
+/// The reply to `trialyst/analyseCells`: the answer itself, or, when the
+/// cells came around the library, the placeholder that the output merger
+/// replaces with the answer's JSON (see [`crate::side_channel`]).
+#[derive(serde::Serialize)]
+#[serde(untagged)]
+pub enum CellsReply {
+    /// The answer, serialised by the library.
+    Answer(Box<CellsAnswer>),
+    /// The placeholder of an answer in the stash.
+    Stashed(Json),
 }
 
 /// A request that was valid in form but could not be answered, with its kind.
@@ -455,8 +506,26 @@ impl Shared {
         serde_json::to_value(&results).map_err(|_| internal_error("the results could not be encoded"))
     }
 
-    async fn analyse_cells(&self, params: Json, cancel: CancelFlag) -> Result<CellsAnswer> {
-        let read = from_proto::cells_params(&params).map_err(params_error)?;
+    /// The params of a cell request; the cells from the stash when the guard kept them.
+    /// Returns the stash key with them.
+    fn read_cells(&self, params: &Json) -> Result<(from_proto::CellsParams, Option<String>)> {
+        let Some(field) = params.as_object().and_then(|map| map.get(side_channel::CELLS_FIELD)) else {
+            return Ok((from_proto::cells_params(params).map_err(params_error)?, None));
+        };
+        let key = field.as_str().unwrap_or_default();
+        let stashed = self.stash.as_ref().and_then(|stash| stash.take_cells(key));
+        let Some(raw) = stashed else {
+            return Err(params_error(from_proto::error(
+                format!("params.{}", side_channel::CELLS_FIELD),
+                "this field is the server's own and is not accepted from a client; send the cells in params.cells",
+            )));
+        };
+        let read = from_proto::cells_params_with(params, Some(&raw)).map_err(params_error)?;
+        Ok((read, Some(key.to_string())))
+    }
+
+    async fn analyse_cells(&self, params: Json, cancel: CancelFlag) -> Result<CellsReply> {
+        let (read, key) = self.read_cells(&params)?;
         // The request's cells are in the grid now; the JSON tree goes.
         drop(params);
         let what = format!("analysing {} cell values", read.n_cells);
@@ -464,12 +533,15 @@ impl Shared {
         let progress = self
             .begin_progress(read.work_done_token.clone(), large, what.clone())
             .await;
+        let stash = self.stash.clone();
         let outcome = self
             .run_blocking(&progress, move || {
                 let results = service::analyse_grid(&read.grid, &read.settings, &read.source_name, &cancel)?;
+                drop(read);
                 // The tables come from the report model, the one place that lays them out.
-                let tables = crate::answer_tables::BookTables(service::report::build_results_book(&results));
-                Ok::<CellsAnswer, ServiceError>(CellsAnswer { results, tables })
+                let tables = crate::answer_tables::BookTables(service::report::build_shown_sheets(&results));
+                let answer = CellsAnswer { results, tables };
+                Ok::<CellsReply, ServiceError>(stash_answer(stash.as_ref(), key.as_deref(), answer))
             })
             .await?;
         progress.report("analysed; preparing the answer".into()).await;
@@ -478,7 +550,8 @@ impl Shared {
     }
 
     async fn inspect_cells(&self, params: Json, cancel: CancelFlag) -> Result<Json> {
-        let read = from_proto::cells_params(&params).map_err(params_error)?;
+        let (read, _) = self.read_cells(&params)?;
+        drop(params);
         let what = format!("inspecting {} cell values", read.n_cells);
         let large = read.n_cells >= self.options.progress_above_cells;
         let progress = self
@@ -668,7 +741,7 @@ impl Backend {
         .await
     }
 
-    async fn analyse_cells(&self, params: Json) -> Result<CellsAnswer> {
+    async fn analyse_cells(&self, params: Json) -> Result<CellsReply> {
         let shared = self.shared.clone();
         guarded(self.shared.options.request_time_limit, move |cancel| async move {
             shared.analyse_cells(params, cancel).await

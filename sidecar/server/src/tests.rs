@@ -250,6 +250,18 @@ fn stable(mut results: Value) -> Value {
     results
 }
 
+/// The results of `trialyst/analyseCells` params, as the service makes them.
+pub(crate) fn analysed_params(params: &Value) -> service::WorkbookResults {
+    let read = super::from_proto::cells_params(params).expect("cells");
+    service::analyse_grid(
+        &read.grid,
+        &read.settings,
+        &read.source_name,
+        &service::CancelFlag::default(),
+    )
+    .expect("analysed")
+}
+
 fn error_code(answer: &Value) -> i64 {
     answer["error"]["code"].as_i64().unwrap_or(0)
 }
@@ -889,3 +901,4 @@ async fn plan_size_and_inspect_cells_answer_as_the_service_does() {
 }
 
 mod cancel_points;
+mod side_channel_session;

@@ -156,6 +156,15 @@ fn percent_text(confidence: f64) -> String {
 
 /// Builds the results workbook model.
 pub fn build_results_book(results: &WorkbookResults) -> Book {
+    let mut book = build_shown_sheets(results);
+    book.sheets.push(document::document_sheet(results));
+    book
+}
+
+/// The sheets of the results book that a reader sees: [`build_results_book`]
+/// without its hidden sheet of the results document (an answer that carries
+/// the results themselves has no use for it, and writing it costs time).
+pub fn build_shown_sheets(results: &WorkbookResults) -> Book {
     let mut summary = Sheet::new(names::SUMMARY);
     let mut conditions = Sheet::new(names::CONDITIONS);
     let mut anova = Sheet::new(names::ANOVA);
@@ -677,7 +686,6 @@ pub fn build_results_book(results: &WorkbookResults) -> Book {
     contour::add_contour_sheet(results, &mut book);
     book.sheets.push(findings_sheet(&results.findings));
     book.sheets.push(provenance_sheet(results));
-    book.sheets.push(document::document_sheet(results));
     book
 }
 
