@@ -38,7 +38,7 @@ use serde::Serialize;
 
 use crate::design::surface::quadratic_terms;
 use crate::options::Direction;
-use crate::stats::accumulate::{centre_values, compensated_sum};
+use crate::stats::accumulate::{binary_exponent, centre_values, compensated_sum, scale_by_power_of_two};
 use crate::stats::dist::{f_sf, t_isf, t_sf};
 
 /// Below this ratio of the smallest to the largest eigenvalue (in size) the
@@ -290,7 +290,8 @@ struct FittedModel {
     /// Upper-triangular R⁻¹, row-major, p × p.
     r_inverse: Vec<f64>,
     n_block_columns: usize,
-    sigma2: Option<f64>,
+    /// The residual SD (not its square, which would overflow first at large magnitudes).
+    sigma: Option<f64>,
     t_critical: Option<f64>,
     confidence: f64,
     mean_shift: f64,
@@ -405,11 +406,11 @@ impl SurfaceOutcome {
             }
             leverage += sum * sum;
         }
-        let sigma2 = self.model.sigma2?;
+        let sigma = self.model.sigma?;
         let t = self.model.t_critical?;
         let predicted = self.predict_coded(&coded);
-        let se_mean = (sigma2 * leverage).sqrt();
-        let se_new = (sigma2 * (1.0 + leverage)).sqrt();
+        let se_mean = sigma * leverage.sqrt();
+        let se_new = sigma * (1.0 + leverage).sqrt();
         Some(SurfacePrediction {
             real: real.to_vec(),
             coded,
@@ -604,7 +605,26 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
     let shift = compensated_sum(centred.deviations.iter().copied()) / n as f64;
     let deviation_of: Vec<f64> = centred.deviations.iter().map(|deviation| deviation - shift).collect();
     let mean = centred.centre + shift;
-    let restore = |centred_value: f64| centred.centre + (shift + centred_value);
+    // Any magnitude: the deviations are divided by a power of two (exact) so that
+    // their squares neither overflow nor underflow; F, p, R² and t are free of the
+    // scale, and every figure in the response's units is multiplied back (its square
+    // for sums of squares) at the end. A figure too large to hold then is infinite,
+    // said in words where it is shown.
+    let largest = deviation_of
+        .iter()
+        .fold(0.0_f64, |largest, deviation| largest.max(deviation.abs()));
+    let exponent = if largest > 0.0 && largest.is_finite() {
+        i64::from(binary_exponent(largest))
+    } else {
+        0
+    };
+    let scaled_up = |value: f64| scale_by_power_of_two(value, exponent);
+    let squared_up = |value: f64| scale_by_power_of_two(value, 2 * exponent);
+    let deviation_of: Vec<f64> = deviation_of
+        .iter()
+        .map(|&deviation| scale_by_power_of_two(deviation, -exponent))
+        .collect();
+    let restore = |centred_value: f64| centred.centre + (shift + scaled_up(centred_value));
     let response = nalgebra::DVector::from_column_slice(&deviation_of);
     let qr = matrix.clone().qr();
     let r = qr.r();
@@ -723,6 +743,10 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
         p_value: None,
     });
 
+    for line in &mut anova {
+        line.sum_sq = squared_up(line.sum_sq);
+        line.mean_sq = line.mean_sq.map(squared_up);
+    }
     let beta_values: Vec<f64> = beta.iter().copied().collect();
     let coefficient_lines: Vec<SurfaceCoefficient> = std::iter::once(0)
         .chain(1 + n_block_columns..p)
@@ -730,9 +754,9 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
             let estimate = if column == 0 {
                 restore(beta_values[column])
             } else {
-                beta_values[column]
+                scaled_up(beta_values[column])
             };
-            let se = sigma2.map(|s2| (s2 * r_inverse.row(column).iter().map(|v| v * v).sum::<f64>()).sqrt());
+            let se = sigma2.map(|s2| scaled_up((s2 * r_inverse.row(column).iter().map(|v| v * v).sum::<f64>()).sqrt()));
             let t_value = se.filter(|se| *se > 0.0).map(|se| estimate / se);
             let p_value = t_value.and_then(|t| t_sf(t.abs(), residual_df as f64).ok().map(|q| 2.0 * q));
             SurfaceCoefficient {
@@ -774,7 +798,7 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
         n_blocks,
         coefficients: coefficient_lines,
         anova,
-        residual_sd: sigma2.map(f64::sqrt),
+        residual_sd: sigma2.map(|s2| scaled_up(s2.sqrt())),
         residual_df,
         r_squared: if total_ss > 0.0 {
             1.0 - residual_ss / total_ss
@@ -791,10 +815,10 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
         recommended_reason: None,
         fitted,
         model: FittedModel {
-            beta: beta_values,
+            beta: beta_values.iter().map(|&value| scaled_up(value)).collect(),
             r_inverse: (0..p * p).map(|index| r_inverse[(index / p, index % p)]).collect(),
             n_block_columns,
-            sigma2,
+            sigma: sigma2.map(|s2| scaled_up(s2.sqrt())),
             t_critical,
             confidence: options.confidence,
             mean_shift: mean,
@@ -808,10 +832,39 @@ pub fn analyse_surface(data: &SurfaceData, options: &SurfaceOptions) -> Result<S
 /// The canonical analysis, the ridge analysis and the recommended settings.
 fn read_surface(outcome: &mut SurfaceOutcome, direction: Option<Direction>) {
     let (linear, matrix) = outcome.linear_and_quadratic();
+    // The stationary point and the ridge path do not depend on the response's scale:
+    // the coefficients are divided by a power of two (exact) so that the eigen and
+    // linear solves work on figures near one at any magnitude; the eigenvalues are
+    // multiplied back.
+    let largest_term = linear
+        .iter()
+        .chain(matrix.iter().flatten())
+        .fold(0.0_f64, |largest, value| largest.max(value.abs()));
+    let exponent = if largest_term > 0.0 && largest_term.is_finite() {
+        i64::from(binary_exponent(largest_term))
+    } else {
+        0
+    };
+    let linear: Vec<f64> = linear
+        .iter()
+        .map(|&value| scale_by_power_of_two(value, -exponent))
+        .collect();
+    let matrix: Vec<Vec<f64>> = matrix
+        .iter()
+        .map(|row| {
+            row.iter()
+                .map(|&value| scale_by_power_of_two(value, -exponent))
+                .collect()
+        })
+        .collect();
     let k = linear.len();
-    let (eigenvalues, eigenvectors) = symmetric_eigen(&matrix);
-    let largest = eigenvalues.iter().map(|v| v.abs()).fold(0.0, f64::max);
-    let smallest = eigenvalues.iter().map(|v| v.abs()).fold(f64::INFINITY, f64::min);
+    let (scaled_eigenvalues, eigenvectors) = symmetric_eigen(&matrix);
+    let eigenvalues: Vec<f64> = scaled_eigenvalues
+        .iter()
+        .map(|&value| scale_by_power_of_two(value, exponent))
+        .collect();
+    let largest = scaled_eigenvalues.iter().map(|v| v.abs()).fold(0.0, f64::max);
+    let smallest = scaled_eigenvalues.iter().map(|v| v.abs()).fold(f64::INFINITY, f64::min);
     let b_matrix = nalgebra::DMatrix::from_fn(k, k, |i, j| matrix[i][j]);
     if let Some(inverse) = b_matrix.try_inverse().filter(|_| largest > 0.0) {
         let b = nalgebra::DVector::from_column_slice(&linear);

@@ -17,14 +17,19 @@ pub fn model_test(outcome: &SurfaceOutcome) -> Option<(f64, usize, f64)> {
         .iter()
         .filter(|line| matches!(line.source.as_str(), "Linear" | "Interaction" | "Square"))
         .collect();
-    let sum_sq: f64 = parts.iter().map(|line| line.sum_sq).sum();
     let df: usize = parts.iter().map(|line| line.df).sum();
     let residual = outcome.anova.iter().find(|line| line.source == "Residual")?;
-    let error = residual.mean_sq.filter(|ms| *ms > 0.0 && residual.df > 0)?;
-    if df == 0 {
+    if df == 0 || residual.df == 0 {
         return None;
     }
-    let f = (sum_sq / df as f64) / error;
+    // Each part's F is its mean square over the residual one, formed on the scaled
+    // deviations, so the model's F = Σ F_part df_part / df holds at any magnitude
+    // (the sums of squares themselves may be beyond the range of the arithmetic).
+    let mut weighted = 0.0;
+    for line in &parts {
+        weighted += line.f_value? * line.df as f64;
+    }
+    let f = weighted / df as f64;
     let p = f_sf(f, df as f64, residual.df as f64).ok()?;
     Some((f, df, p))
 }

@@ -333,3 +333,81 @@ fn coding_from_settings_reads_composite_and_three_level_plans() {
     assert_eq!(coding_from_settings(&[90.0, 100.0, 110.0]), Some((100.0, 10.0)));
     assert_eq!(coding_from_settings(&[5.0, 5.0]), None);
 }
+
+#[test]
+#[allow(clippy::print_stdout)]
+fn the_surface_is_the_same_at_any_magnitude() {
+    // Scale equivariance: the values times 2^k (an exact change of units) give the same
+    // F, p, R², stationary point and recommended settings, and coefficients, SEs,
+    // residual SD and eigenvalues times 2^k; sums of squares times 4^k where that can
+    // be held. The scale-one answers are those checked against statsmodels 0.15.0
+    // above. Before the deviations were scaled, 2^990 gave no test at all and 2^-990
+    // no stationary point.
+    let case = &THREE_FACTORS_TWO_BLOCKS;
+    let base = analyse(case, Some(Direction::HigherIsBetter));
+    let mut worst = 16.0_f64;
+    for power in [-990_i32, -500, -60, 60, 500, 990] {
+        let factor = 2f64.powi(power);
+        let scaled_values: Vec<f64> = case.values.iter().map(|value| value * factor).collect();
+        let scaled_case = ReferenceCase {
+            values: Box::leak(scaled_values.into_boxed_slice()),
+            ..*case
+        };
+        let scaled = analyse(&scaled_case, Some(Direction::HigherIsBetter));
+        let mut check = |what: &str, value: f64, reference: f64| {
+            let digits = lre(value, reference);
+            worst = worst.min(digits);
+            assert!(
+                digits >= 13.0,
+                "2^{power} {what}: {value} against {reference} (LRE {digits:.1})"
+            );
+        };
+        for (line, reference) in scaled.anova.iter().zip(&base.anova) {
+            if let (Some(f), Some(f_reference)) = (line.f_value, reference.f_value) {
+                check(&format!("F of {}", line.source), f, f_reference);
+                check(
+                    &format!("p of {}", line.source),
+                    line.p_value.unwrap_or(f64::NAN),
+                    reference.p_value.unwrap_or(f64::NAN),
+                );
+            }
+            let squared = reference.sum_sq * factor * factor;
+            if squared.is_finite() && squared > f64::MIN_POSITIVE {
+                check(&format!("SS of {}", line.source), line.sum_sq, squared);
+            }
+        }
+        check("R²", scaled.r_squared, base.r_squared);
+        check(
+            "residual SD",
+            scaled.residual_sd.unwrap_or(f64::NAN),
+            base.residual_sd.unwrap_or(f64::NAN) * factor,
+        );
+        for (line, reference) in scaled.coefficients.iter().zip(&base.coefficients).skip(1) {
+            check(&line.term, line.estimate, reference.estimate * factor);
+            check(
+                &format!("SE of {}", line.term),
+                line.se.unwrap_or(f64::NAN),
+                reference.se.unwrap_or(f64::NAN) * factor,
+            );
+        }
+        let (point, reference) = (
+            scaled.stationary.as_ref().expect("a stationary point"),
+            base.stationary.as_ref().expect("a stationary point"),
+        );
+        for (x, x_reference) in point.coded.iter().zip(&reference.coded) {
+            check("stationary point", *x, *x_reference);
+        }
+        for (value, value_reference) in point.eigenvalues.iter().zip(&reference.eigenvalues) {
+            check("eigenvalue", *value, value_reference * factor);
+        }
+        let test = reading::model_test(&scaled).expect("the model's test");
+        let test_reference = reading::model_test(&base).expect("the model's test");
+        check("model F", test.0, test_reference.0);
+        let recommended = scaled.recommended.as_ref().expect("recommended settings");
+        let recommended_reference = base.recommended.as_ref().expect("recommended settings");
+        for (x, x_reference) in recommended.real.iter().zip(&recommended_reference.real) {
+            check("recommended setting", *x, *x_reference);
+        }
+    }
+    println!("second-order fit at 2^-990 .. 2^990: lowest LRE {worst:.1}");
+}

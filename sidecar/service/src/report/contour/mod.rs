@@ -178,18 +178,18 @@ pub fn add_contour_sheet(results: &WorkbookResults, book: &mut Book) {
             .enumerate()
             .flat_map(|(at, first)| choice.factors[at + 1..].iter().map(move |second| (*first, *second)))
             .collect();
-        let others_held = if outcome.factor_names.len() > 2 {
-            format!(" Each map holds the other factors at {held_words}.")
-        } else {
-            String::new()
+        let others_held = match (outcome.factor_names.len() > 2, pairs.len()) {
+            (false, _) => String::new(),
+            (true, 1) => format!(" The map holds the other factors at {held_words}."),
+            (true, _) => format!(" Each map holds the other factors at {held_words}."),
         };
         sheet.paragraph(
             row,
             0,
             format!(
-                "{}: {} maps. {}{others_held}",
+                "{}: {}. {}{others_held}",
                 response.name,
-                pairs.len(),
+                engine::analysis::verdict::count_of(pairs.len(), "map"),
                 choice.reason
             ),
             Look::Note,

@@ -190,6 +190,9 @@ fn the_maps_go_on_their_own_sheet_and_into_the_written_file() {
         );
     }
     assert!(last_note > 0);
+    // The note counts the maps in words ("3 maps", "1 map") and says what each holds.
+    let notes = format!("{:?}", maps.cells);
+    assert!(notes.contains(": 3 maps. ") && !notes.contains("1 maps"), "{notes}");
     let started = std::time::Instant::now();
     let bytes = workbook_io::write::to_bytes(&book, std::path::Path::new("maps.results.xlsx")).expect("written");
     let elapsed = started.elapsed();
