@@ -537,3 +537,50 @@ fn a_shift_that_changes_with_a_factor_is_a_finding_and_a_caution() {
         "the Summary does not carry the caution"
     );
 }
+
+#[test]
+fn a_factorial_trial_beyond_the_factorial_arithmetic_is_compared_one_way_and_says_why() {
+    // A replicated 2 x 2 (invented values) at three magnitudes: at 1 the factorial model
+    // leads; at 1e160 and 1e-300 its sums of squares would overflow or underflow (it
+    // said "does not show that any of the factors affects" at 1e160, which is false), so
+    // the combinations are compared one way, which holds at any magnitude
+    // (`sidecar/engine/tests/magnitude.rs`), and a finding says why.
+    let base = [80.3, 79.8, 80.1, 81.6, 81.9, 81.7, 82.4, 82.9, 82.5, 86.1, 85.9, 86.3];
+    for (scale, factorial_leads, words) in [
+        (1.0, true, ""),
+        (1e160, false, "too much"),
+        (1e-300, false, "too little"),
+    ] {
+        let mut rows = vec![vec![Put::Text("Resin"), Put::Text("Cure"), Put::Text("Strength")]];
+        for (index, value) in base.iter().enumerate() {
+            let (resin, cure) = (["R1", "R2"][index / 6], ["C1", "C2"][(index / 3) % 2]);
+            rows.push(vec![Put::Text(resin), Put::Text(cure), Put::Number(value * scale)]);
+        }
+        let folder = temp_folder();
+        let path = folder.path().join("strength.xlsx");
+        write_rows(&path, "Trial", &rows);
+        let results = analyse_workbook(&path, &AnalysisRequest::default()).expect("analysed");
+        let response = &results.responses[0];
+        assert_eq!(response.factorial.is_some(), factorial_leads, "scale {scale}");
+        let headline = &response.verdict.as_ref().expect("a verdict").headline;
+        assert!(
+            headline.contains("differ in Strength") || headline.contains("affect Strength"),
+            "scale {scale}: {headline}"
+        );
+        let refusals: Vec<&Finding> = results
+            .findings
+            .iter()
+            .filter(|finding| {
+                finding.message.contains("factorial model was not fitted")
+                    || finding.message.contains("that model was not fitted")
+            })
+            .collect();
+        if factorial_leads {
+            assert!(refusals.is_empty(), "{refusals:#?}");
+        } else {
+            assert_eq!(refusals.len(), 1, "{:#?}", results.findings);
+            assert!(refusals[0].message.contains(words), "{}", refusals[0].message);
+            assert_eq!(refusals[0].cell.as_deref(), Some("A1:C13"));
+        }
+    }
+}

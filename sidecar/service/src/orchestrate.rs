@@ -302,7 +302,24 @@ pub(crate) fn analyse_loaded(
             return Err(ServiceError::Cancelled);
         }
         let direction = settings.direction_for(&response.name);
-        let factorial = factorial_of(&table, response_index, &settings, direction, &off_plan);
+        let factorial = match factorial_out_of_range(&response.values) {
+            Some(spread) if table.factors.iter().filter(|factor| !factor.is_block).count() >= 2 => {
+                findings.push(Finding {
+                    kind: FindingKind::Analysis,
+                    sheet: table.sheet.clone(),
+                    cell: Some(table.area.a1()),
+                    found: format!("values {spread}"),
+                    action: "the factorial model was not fitted; the combinations are compared one way".into(),
+                    message: format!(
+                        "'{}': the values {spread}, too {} for the factorial model's sums of squares to hold at full precision, so that model was not fitted and the combinations are compared as conditions of one factor, which holds at any magnitude; express the response in other units (a power of ten nearer its size) to get the factorial analysis",
+                        response.name,
+                        if spread.contains("e-") { "little" } else { "much" }
+                    ),
+                });
+                None
+            }
+            _ => factorial_of(&table, response_index, &settings, direction, &off_plan),
+        };
         // Conditions with fewer than two usable values are reported here, per response;
         // in a factorial trial one run per combination is the design, so only
         // combinations with no usable value are (see `replication_finding` for the rest).
@@ -545,6 +562,31 @@ pub(crate) fn analyse_loaded(
         findings,
         timings,
     })
+}
+
+/// Largest spread of values the factorial model's sums of squares hold at full
+/// precision (about 2^-480 to 2^480): squares of deviations stay between 2^-960 and
+/// 2^960, sums of many of them too (the one-way and second-order fits scale their deviations and hold any
+/// magnitude; the k-way, two-level and reduced models do not yet).
+const FACTORIAL_SPREAD_RANGE: (f64, f64) = (1e-144, 1e144);
+
+/// When the response's values differ from one another by more than the factorial model
+/// holds, or by less (but not nothing), the spread in words ("differ by about 1e158").
+fn factorial_out_of_range(values: &[f64]) -> Option<String> {
+    let mut finite = values.iter().copied().filter(|value| value.is_finite());
+    let first = finite.next()?;
+    let (mut low, mut high) = (first, first);
+    for value in finite {
+        low = low.min(value);
+        high = high.max(value);
+    }
+    // Halved, so that values near the largest double of both signs give a finite spread.
+    let spread = 0.5 * high - 0.5 * low;
+    let (smallest, largest) = FACTORIAL_SPREAD_RANGE;
+    if spread == 0.0 || (smallest..=largest / 2.0).contains(&spread) {
+        return None;
+    }
+    Some(format!("differ by about {:.0e}", 2.0 * spread))
 }
 
 /// The one-way comparison of the combinations run, said as a detail under another
