@@ -516,9 +516,11 @@ fn a_shift_that_changes_with_a_factor_is_a_finding_and_a_caution() {
     );
     // The Summary's cautions say it too, with its place, beside the standing ones.
     assert!(
-        results.cautions.iter().any(
-            |caution| caution.starts_with("The context column 'Shift' changes") && caution.ends_with("(Trial!A1).")
-        ),
+        results
+            .cautions
+            .iter()
+            .any(|caution| caution.starts_with("The context column 'Shift' changes")
+                && caution.ends_with("in random order; see Trial!A1.")),
         "{:#?}",
         results.cautions
     );

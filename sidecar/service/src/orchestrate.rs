@@ -637,7 +637,7 @@ fn cautions_with(findings: &[Finding]) -> Vec<String> {
         if let Some(first) = message.get_mut(0..1) {
             first.make_ascii_uppercase();
         }
-        cautions.push(format!("{message} ({place})."));
+        cautions.push(format!("{message}; see {place}."));
     }
     cautions
 }

@@ -105,7 +105,7 @@ pub(super) fn context_ties(
                     column,
                     "changes with a factor",
                     format!(
-                        "the context column '{}' changes with the factor '{}': {}{more}; so a difference between {values} ({}) cannot be told apart from the effect of {}: read that effect with this in mind, and in the next trial run each setting of {} under every {} (in random order)",
+                        "the context column '{}' changes with the factor '{}': {}{more}; so a difference between {values} ({}) cannot be told apart from the effect of {}: read that effect with this in mind, and in the next trial run each setting of {} under every {}, in random order",
                         column.name,
                         factor.name,
                         sides.join(" and "),
