@@ -1230,6 +1230,46 @@ fn numeric_headers() -> Vec<Case> {
             }),
         },
         Case {
+            name: "a title 'value by factor, unit' over short forms of the factor's name (N1, N2)",
+            rows: &[
+                &["Coating thickness by nozzle, um"],
+                &["N1", "N2", "N3 (new)"],
+                &["52.1", "50.3", "55.0"],
+                &["51.7", "49.8", "54.2"],
+                &["52.9", "50.6", "55.8"],
+            ],
+            merged: &[],
+            request: TableRequest::default(),
+            expect: Expected::Table(TableExpect {
+                layout: Layout::Wide,
+                area: "A2:C5",
+                factors: &[("Nozzle", &["N1", "N2", "N3 (new)"], false)],
+                responses: &["Coating thickness (um)"],
+                records: 9,
+                findings: &[],
+            }),
+        },
+        Case {
+            name: "short names whose letters do not start the title's factor leave the title alone",
+            rows: &[
+                &["Yield by weight, %"],
+                &["R1", "R2"],
+                &["81.2", "83.0"],
+                &["80.7", "84.1"],
+                &["81.9", "83.6"],
+            ],
+            merged: &[],
+            request: TableRequest::default(),
+            expect: Expected::Table(TableExpect {
+                layout: Layout::Wide,
+                area: "A2:B5",
+                factors: &[("condition", &["R1", "R2"], false)],
+                responses: &["value"],
+                records: 6,
+                findings: &[],
+            }),
+        },
+        Case {
             name: "a title whose 'by' does not name the columns is left alone",
             rows: &[
                 &["Yield by weight, %"],

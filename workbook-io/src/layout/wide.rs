@@ -206,7 +206,8 @@ pub(super) fn read_title(title: &str, names: &[String], numbers_as_names: bool) 
         let names_it = numbers_as_names
             || names
                 .iter()
-                .all(|name| name.to_lowercase().starts_with(&factor.to_lowercase()));
+                .all(|name| name.to_lowercase().starts_with(&factor.to_lowercase()))
+            || abbreviates(factor, names);
         if !measure.is_empty() && !factor.is_empty() && factor.chars().count() <= 40 && names_it {
             let mut chars = factor.chars();
             let factor = match chars.next() {
@@ -232,6 +233,21 @@ pub(super) fn read_title(title: &str, names: &[String], numbers_as_names: bool) 
         };
     }
     TitleReading::default()
+}
+
+/// Whether every condition name is a short form of `factor` followed by a number:
+/// "N1", "N2" or "Noz 3" under "... by nozzle" (the letters before the number start
+/// the factor's name), as plants often shorten die, line or nozzle names.
+fn abbreviates(factor: &str, names: &[String]) -> bool {
+    let factor = factor.to_lowercase();
+    !names.is_empty()
+        && names.iter().all(|name| {
+            let letters: String = name.chars().take_while(|c| c.is_alphabetic()).collect();
+            let rest = name[letters.len()..].trim_start_matches([' ', '-', '_', '.', '#']);
+            !letters.is_empty()
+                && rest.starts_with(|c: char| c.is_ascii_digit())
+                && factor.starts_with(&letters.to_lowercase())
+        })
 }
 
 /// A unit at the end of a title: in brackets, or a short word after a comma.
