@@ -306,14 +306,23 @@ pub fn plan_sheet(sheet: &Sheet) -> SheetPrint {
         // At the start of a run of filled rows, see whether the whole run fits. A run
         // that moves takes the blank row above it along: spreadsheet programs place a
         // chart by its own measure of the rows above it, so a chart that starts right at
-        // a break can show its top edge at the foot of the page before.
+        // a break can show its top edge at the foot of the page before. Only a table or a
+        // short run of text moves whole: a long one (a page of reading) flows on from
+        // where it starts, breaking between its rows, rather than leaving most of a page
+        // empty.
         if filled(row) && (row == 0 || !filled(row - 1)) && row > page_start {
             let mut end = row;
             while end < last_row && filled(end + 1) && !forced.contains(&(end + 1)) {
                 end += 1;
             }
             let run: f64 = (row..=end).map(height_of).sum();
-            if used + run > capacity_of(page_start) && run + height_of(row - 1) <= capacity_of(row) {
+            let table = (row..=end).any(|at| {
+                occupied
+                    .get(&at)
+                    .is_some_and(|cells| cells.values().any(|placed| matches!(placed.look, Look::ColumnHeader)))
+            });
+            let moves_whole = table || run <= WHOLE_RUN_SHARE * capacity_of(row);
+            if used + run > capacity_of(page_start) && moves_whole && run + height_of(row - 1) <= capacity_of(row) {
                 let at = if row - 1 > page_start { row - 1 } else { row };
                 breaks.push(at);
                 page_start = at;
@@ -371,6 +380,11 @@ pub fn plan_sheet(sheet: &Sheet) -> SheetPrint {
         chart_heights,
     }
 }
+
+/// The share of a page up to which a run of filled rows of text that does not fit the
+/// rest of a page moves whole to the next one; a longer one flows on. A run holding a
+/// table (a column-header row) always moves whole when it fits a page.
+const WHOLE_RUN_SHARE: f64 = 0.4;
 
 /// Blank rows between two charts that share a page, and above the first chart of a page
 /// (the page break falls on that blank row): spreadsheet programs place a chart by their
@@ -483,6 +497,63 @@ mod tests {
         sheet.put(0, 0, Value::text("p-value (unadjusted)"), Look::ColumnHeader);
         let print = plan_sheet(&sheet);
         assert!(print.heights[&0] >= 2.0 * DEFAULT_ROW_HEIGHT);
+    }
+
+    /// A long reading under a short block flows on from the first page (breaking between
+    /// its rows) instead of moving whole and leaving the first page all but empty; a
+    /// table (a run with a column header) that does not fit the rest of a page still
+    /// starts the next one whole.
+    #[test]
+    fn a_long_reading_flows_and_a_table_moves_whole() {
+        let long_text = "word ".repeat(60);
+        let sheet_with = |rows: &dyn Fn(&mut Sheet)| {
+            let mut sheet = Sheet::new("reading");
+            sheet.portrait = true;
+            sheet.widths = vec![(0, 90.0)];
+            // A block of four paragraphs, then a blank row.
+            for row in 0..4u32 {
+                sheet.put(row, 0, Value::text(long_text.clone()), Look::Plain);
+            }
+            rows(&mut sheet);
+            sheet
+        };
+        // A run of paragraphs longer than the rest of the page and than 40% of a page,
+        // but shorter than a page (which alone would have moved whole before).
+        let text = sheet_with(&|sheet| {
+            for row in 5..13u32 {
+                sheet.put(row, 0, Value::text(long_text.clone()), Look::Plain);
+            }
+        });
+        let print = plan_sheet(&text);
+        let height = |print: &SheetPrint, row: u32| print.heights.get(&row).copied().unwrap_or(DEFAULT_ROW_HEIGHT);
+        let block: f64 = (0..5u32).map(|row| height(&print, row)).sum();
+        let reading: f64 = (5..13u32).map(|row| height(&print, row)).sum();
+        let page = printable_area(true).1;
+        assert!(
+            reading > 0.4 * page && reading < page && block + reading > page,
+            "{block} {reading}"
+        );
+        let first_break = print.breaks.first().copied().expect("more than a page");
+        assert!(
+            first_break > 6,
+            "the reading starts on the first page: {:?}",
+            print.breaks
+        );
+        // A table of 30 one-line rows under its column header: it fits a page but not
+        // the rest of the first one, so it starts the second, whole.
+        let table = sheet_with(&|sheet| {
+            sheet.put(5, 0, Value::text("condition"), Look::ColumnHeader);
+            for row in 6..36u32 {
+                sheet.put(row, 0, Value::number(f64::from(row)), Look::Plain);
+            }
+        });
+        let print = plan_sheet(&table);
+        let run: f64 = (5..36u32).map(|row| height(&print, row)).sum();
+        assert!(
+            run < printable_area(true).1 && block + run > printable_area(true).1,
+            "{block} {run}"
+        );
+        assert_eq!(print.breaks, vec![4], "the table moves whole");
     }
 
     #[test]
