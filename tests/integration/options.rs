@@ -77,3 +77,72 @@ fn a_contrast_or_direction_naming_nothing_is_a_usage_error_listing_the_names() {
     run.expect_code(2);
     assert!(run.stderr().contains("'Tensile (MPa)'"), "{}", run.report());
 }
+
+/// `--control` names the condition the others are compared with; the Summary's reading
+/// says which differ from it (the Dunnett figures themselves are checked against
+/// references in the engine's tests), and a control naming no condition is a usage
+/// error listing the conditions.
+#[test]
+fn control_names_the_condition_the_others_are_compared_with() {
+    let folder = temp_folder();
+    trial(folder.path());
+    let run = trialyst(
+        folder.path(),
+        &["run", "trial.xlsx", "--no-write", "--json", "--control", "North"],
+    );
+    run.expect_code(0);
+    let document: serde_json::Value = serde_json::from_str(run.stdout().trim()).expect("one JSON document");
+    let details = document["responses"][0]["verdict"]["details"]
+        .as_array()
+        .expect("details");
+    let line = details
+        .iter()
+        .filter_map(|detail| detail.as_str())
+        .find(|detail| detail.starts_with("Against the control North"))
+        .unwrap_or_else(|| panic!("no control line in {details:?}"));
+    // South averages 21.1 against North's 20.15; East (20.025) does not differ clearly.
+    assert!(
+        line.contains("South is higher by 0.95 MPa")
+            && line.ends_with("the other condition does not differ clearly from it."),
+        "{line}"
+    );
+    let run = trialyst(folder.path(), &["run", "trial.xlsx", "--no-write", "--control", "West"]);
+    run.expect_code(2);
+    assert!(
+        run.stderr().contains("the control 'West' names nothing in the table") && run.stderr().contains("'East'"),
+        "{}",
+        run.report()
+    );
+}
+
+/// A value that stands out is named by its cell in the Summary's reading, not only on
+/// the sheet of checks.
+#[test]
+fn an_outlier_is_named_by_its_cell_in_the_reading() {
+    let folder = temp_folder();
+    write_rows(
+        &folder.path().join("trial.xlsx"),
+        "Runs",
+        &long_rows(
+            "Supplier",
+            "Tensile (MPa)",
+            &[
+                ("North", &[20.1, 20.4, 19.9, 20.2, 20.0, 20.3, 26.0]),
+                ("South", &[21.0, 21.3, 20.9, 21.2, 21.1, 20.8]),
+                ("East", &[20.0, 20.2, 20.1, 19.8, 20.1, 19.9]),
+            ],
+        ),
+    );
+    let run = trialyst(folder.path(), &["run", "trial.xlsx", "--no-write", "--json"]);
+    run.expect_code(0);
+    let document: serde_json::Value = serde_json::from_str(run.stdout().trim()).expect("one JSON document");
+    let details = document["responses"][0]["verdict"]["details"]
+        .as_array()
+        .expect("details");
+    // The header is row 1; North's seventh value, 26, is in B8.
+    assert!(
+        details.iter().filter_map(|detail| detail.as_str()).any(|detail| detail
+            == "Check — Outliers: 1 value stands out beyond what chance allows: 26 at B8 (North); check it before trusting the comparison."),
+        "{details:?}"
+    );
+}

@@ -244,6 +244,10 @@ pub struct AnalysisArgs {
     /// or per response as "Leak rate=lower" (also "Leak rate: lower"); repeatable.
     #[arg(long)]
     pub direction: Vec<String>,
+    /// The condition the others are compared with (Dunnett's comparisons with a control),
+    /// e.g. "Standard"; it must be one of the table's conditions.
+    #[arg(long, value_name = "CONDITION")]
+    pub control: Option<String>,
     /// Table options.
     #[command(flatten)]
     pub table: TableArgs,
@@ -335,5 +339,13 @@ pub fn analysis_settings(args: &AnalysisArgs) -> Result<Settings, UsageError> {
         settings.add_directions(entries);
     }
     settings.contrasts = args.contrast.clone();
+    if let Some(control) = &args.control {
+        if control.trim().is_empty() {
+            return Err(UsageError(
+                "--control must name one of the conditions, not be empty".into(),
+            ));
+        }
+        settings.control = Some(control.trim().to_string());
+    }
     Ok(settings)
 }

@@ -6,8 +6,8 @@
 
 use serde::Serialize;
 
-use crate::analysis::assessment::{Assessment, LeadAnalysis};
-use crate::analysis::comparisons::PairFamily;
+use crate::analysis::assessment::{Assessment, LeadAnalysis, Outlier};
+use crate::analysis::comparisons::{ControlFamily, PairFamily, SimultaneousPair};
 use crate::analysis::factorial::{CellLine, FactorInfo, FactorialOutcome, TwoLevelEffect};
 use crate::analysis::letters::alike_sets;
 use crate::analysis::oneway::{OneWayFit, PairDifference};
@@ -187,6 +187,11 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment:
         ));
     }
     let family = assessment.and_then(lead_family);
+    if let Some(control) = assessment.and_then(|assessment| assessment.control.as_ref()) {
+        if let Some(sentence) = control_sentence(control, unit) {
+            details.push(sentence);
+        }
+    }
     if let Some(best) = assessment.and_then(|assessment| assessment.best.as_ref()) {
         let family_percent = round_for_text(best.family_confidence * 100.0, 3);
         details.push(if best.could_be_best.len() == 1 {
@@ -243,7 +248,10 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment:
     }
     if let Some(assessment) = assessment {
         for reading in &assessment.checks.readings {
-            details.push(format!("Check — {reading}"));
+            match outliers_with_cells(&assessment.checks.outliers) {
+                Some(named) if reading.starts_with("Outliers:") => details.push(format!("Check — {named}")),
+                _ => details.push(format!("Check — {reading}")),
+            }
         }
     }
     if fit.pooled_sd.is_finite() {
@@ -258,6 +266,126 @@ pub fn read_fit(response: &str, unit: Option<&str>, fit: &OneWayFit, assessment:
         headline,
         details,
     }
+}
+
+/// The comparison with the control in one sentence: which conditions differ from it
+/// and by how much, or, when none does, the nearest to doing so with its adjusted p.
+/// `None` when the family has no rows.
+pub fn control_sentence(control: &ControlFamily, unit: Option<&str>) -> Option<String> {
+    if control.rows.is_empty() {
+        return None;
+    }
+    let percent = round_for_text(control.family_confidence * 100.0, 3);
+    let asking = match control.sides.as_str() {
+        "higher" => "asking only which are higher, ",
+        "lower" => "asking only which are lower, ",
+        _ => "",
+    };
+    let opening = format!(
+        "Against the control {} (Dunnett, {asking}{percent}% family confidence):",
+        control.control
+    );
+    let moved = |row: &SimultaneousPair| {
+        format!(
+            "{} is {} by {}",
+            row.first,
+            if row.difference >= 0.0 { "higher" } else { "lower" },
+            with_unit(row.difference.abs(), unit)
+        )
+    };
+    let interval = |row: &SimultaneousPair| match (row.low.is_finite(), row.high.is_finite()) {
+        (true, true) => format!("interval {} to {}", with_unit(row.low, unit), with_unit(row.high, unit)),
+        (true, false) => format!("at least {} higher", with_unit(row.low, unit)),
+        (false, true) => format!("at least {} lower", with_unit(-row.high, unit)),
+        (false, false) => String::new(),
+    };
+    let differing: Vec<&SimultaneousPair> = control.rows.iter().filter(|row| row.differ).collect();
+    let clearly = match control.sides.as_str() {
+        "higher" => "is clearly higher than",
+        "lower" => "is clearly lower than",
+        _ => "differs clearly from",
+    };
+    if differing.is_empty() {
+        // One-sided, the nearest is the nearest among those on the side asked about.
+        let side_asked = |row: &&SimultaneousPair| match control.sides.as_str() {
+            "higher" => row.difference > 0.0,
+            "lower" => row.difference < 0.0,
+            _ => true,
+        };
+        let Some(nearest) = control
+            .rows
+            .iter()
+            .filter(side_asked)
+            .min_by(|a, b| a.p_adjusted.total_cmp(&b.p_adjusted))
+        else {
+            let side = if control.sides == "lower" { "lower" } else { "higher" };
+            return Some(format!("{opening} no condition {clearly} it; none averages {side}."));
+        };
+        let p = if nearest.p_adjusted.is_finite() {
+            format!(" (adjusted {})", p_equals(nearest.p_adjusted))
+        } else {
+            String::new()
+        };
+        return Some(format!(
+            "{opening} no condition {clearly} it; the nearest: {}{p}.",
+            moved(nearest)
+        ));
+    }
+    let listed: Vec<String> = differing
+        .iter()
+        .map(|row| {
+            let range = interval(row);
+            if range.is_empty() {
+                moved(row)
+            } else {
+                format!("{} ({range})", moved(row))
+            }
+        })
+        .collect();
+    let others = control.rows.len() - differing.len();
+    let rest = match others {
+        0 => String::new(),
+        1 => "; the other condition does not differ clearly from it".to_string(),
+        _ => format!("; the other {others} do not differ clearly from it"),
+    };
+    Some(format!("{opening} {}{rest}.", listed.join("; ")))
+}
+
+/// The outlier check with the cells of the values that stand out (the service fills
+/// them in), so that the Summary says where to look. `None` when there are none or
+/// their cells are not known.
+fn outliers_with_cells(outliers: &[Outlier]) -> Option<String> {
+    const LISTED: usize = 5;
+    if outliers.is_empty() || outliers.iter().any(|outlier| outlier.cell.is_none()) {
+        return None;
+    }
+    let mut places: Vec<String> = outliers
+        .iter()
+        .take(LISTED)
+        .map(|outlier| {
+            format!(
+                "{} at {} ({})",
+                round_for_text(outlier.value, 6),
+                outlier.cell.as_deref().unwrap_or_default(),
+                outlier.condition
+            )
+        })
+        .collect();
+    if outliers.len() > LISTED {
+        places.push(format!("{} more listed with the model checks", outliers.len() - LISTED));
+    }
+    Some(if outliers.len() == 1 {
+        format!(
+            "Outliers: 1 value stands out beyond what chance allows: {}; check it before trusting the comparison.",
+            places[0]
+        )
+    } else {
+        format!(
+            "Outliers: {} values stand out beyond what chance allows: {}; check them before trusting the comparison.",
+            outliers.len(),
+            places.join(", ")
+        )
+    })
 }
 
 /// Which conditions the trial could not tell apart, in words: the sets
@@ -671,6 +799,85 @@ pub fn largest_difference(fit: &OneWayFit) -> Option<&PairDifference> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The comparison with a control said in one sentence. Reference: scipy 1.17.1,
+    /// `scipy.stats.dunnett(primer, two_coats, control=standard)`: two-sided adjusted p
+    /// (6.66194322e-09, see below) and 0.132991726, 95% intervals (2.53759435, 3.51240565) and
+    /// (-0.11240565, 0.86240565); with `alternative='greater'` the first's lower bound
+    /// is 2.61634882; with the second group lowered (49.6, 49.1, 49.9, 49.3) and
+    /// `alternative='less'`, p = (1.0, 0.00736587) and its upper bound -0.21589423.
+    #[test]
+    fn control_sentence_names_what_differs_from_the_control() {
+        use crate::analysis::comparisons::against_control;
+        let names: Vec<String> = ["Standard", "Primer", "Two coats"]
+            .iter()
+            .map(|name| name.to_string())
+            .collect();
+        let fit_of = |two_coats: [f64; 4]| {
+            let values = [50.1, 50.4, 49.8, 50.2, 50.0, 53.0, 53.3, 52.8, 53.4];
+            let values: Vec<f64> = values.iter().copied().chain(two_coats).collect();
+            let groups = [0, 0, 0, 0, 0, 1, 1, 1, 1, 2, 2, 2, 2];
+            crate::analysis::oneway::fit_one_way(&names, &groups, &values, 0.95, &[]).expect("fits")
+        };
+        let fit = fit_of([50.6, 50.1, 50.9, 50.3]);
+        let two_sided = against_control(&fit, "Standard", None, 0.95).expect("dunnett");
+        // scipy integrates the multivariate t by randomised quasi-Monte Carlo, good to
+        // about 1e-3 in the critical value; the project's own Dunnett values are checked
+        // to full precision in `stats::dunnett`.
+        let primer = &two_sided.rows[0];
+        assert!(
+            (primer.low - 2.53759435).abs() < 2e-3 && (primer.high - 3.51240565).abs() < 2e-3,
+            "{primer:?}"
+        );
+        // In the far tail scipy's 6.66e-9 lies below the pair's own unadjusted p
+        // (2 * scipy.stats.t.sf(15.99320698, 10) = 1.8853395550745193e-08), which an
+        // adjusted p cannot; the adjusted p lies between that and the Bonferroni bound.
+        assert!(
+            (1.8853395550745193e-08..=3.770679110149039e-08).contains(&primer.p_adjusted),
+            "{primer:?}"
+        );
+        assert!(
+            (two_sided.rows[1].p_adjusted - 0.132991726).abs() < 2e-3,
+            "{:?}",
+            two_sided.rows[1]
+        );
+        let sentence = control_sentence(&two_sided, Some("GU")).expect("rows");
+        assert_eq!(
+            sentence,
+            format!(
+                "Against the control Standard (Dunnett, 95% family confidence): Primer is higher by 3.025 GU (interval {} GU to {} GU); the other condition does not differ clearly from it.",
+                round_for_text(primer.low, 4),
+                round_for_text(primer.high, 4)
+            )
+        );
+        let higher = against_control(&fit, "Standard", Some(Direction::HigherIsBetter), 0.95).expect("dunnett");
+        let sentence = control_sentence(&higher, None).expect("rows");
+        assert!(
+            sentence.starts_with("Against the control Standard (Dunnett, asking only which are higher, 95% family confidence): Primer is higher by 3.025 (at least 2.616 higher)"),
+            "{sentence}"
+        );
+        // Asking which are lower: none is clearly lower and none averages lower.
+        let lower = against_control(&fit, "Standard", Some(Direction::LowerIsBetter), 0.95).expect("dunnett");
+        let sentence = control_sentence(&lower, None).expect("rows");
+        assert!(
+            sentence.ends_with("no condition is clearly lower than it; none averages lower."),
+            "{sentence}"
+        );
+        // Two coats lowered: it is clearly lower, Primer not.
+        let fit = fit_of([49.6, 49.1, 49.9, 49.3]);
+        let lower = against_control(&fit, "Standard", Some(Direction::LowerIsBetter), 0.95).expect("dunnett");
+        let two_coats = &lower.rows[1];
+        assert!((two_coats.high + 0.21589423).abs() < 2e-3, "{two_coats:?}");
+        assert!((two_coats.p_adjusted - 0.00736587).abs() < 1e-3, "{two_coats:?}");
+        let sentence = control_sentence(&lower, None).expect("rows");
+        assert!(
+            sentence.ends_with(&format!(
+                "Two coats is lower by 0.625 (at least {} lower); the other condition does not differ clearly from it.",
+                round_for_text(-two_coats.high, 4)
+            )),
+            "{sentence}"
+        );
+    }
 
     #[test]
     fn rounds_for_people() {
