@@ -346,7 +346,7 @@ pub fn control_sentence(control: &ControlFamily, unit: Option<&str>) -> Option<S
     let rest = match others {
         0 => String::new(),
         1 => "; the other condition does not differ clearly from it".to_string(),
-        _ => format!("; the other {others} do not differ clearly from it"),
+        _ => format!("; the other {others} conditions do not differ clearly from it"),
     };
     Some(format!("{opening} {}{rest}.", listed.join("; ")))
 }
