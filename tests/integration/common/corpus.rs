@@ -500,6 +500,32 @@ pub fn corpus() -> Vec<TrialCase> {
         one_run_per_combination: true,
     });
 
+    // 10b. The same plan kept batch by batch with no settings: the column headed
+    // 'Batch', in which every batch holds every recipe once, is read as blocks, so the
+    // large batch-to-batch shift is taken out and not reported as an effect.
+    let mut noise = Noise::new(1312);
+    let mut rows = Vec::new();
+    for (batch_index, batch) in ["B-101", "B-102", "B-103", "B-104"].iter().enumerate() {
+        for (recipe, effect) in [("Current", 0.0), ("Low salt", 3.0), ("High salt", 0.0)] {
+            let value = 60.0 + effect + 4.0 * batch_index as f64 + noise.normal(0.4);
+            rows.push((
+                vec![Level::Text(batch.to_string()), Level::Text(recipe.into())],
+                Some(value),
+            ));
+        }
+    }
+    cases.push(TrialCase {
+        name: "recipe within batches, found as blocks",
+        headers: strings(&["Batch", "Recipe", "Crispness (score)"]),
+        rows,
+        settings: vec![("direction".into(), "higher".into())],
+        lead: ExpectedLead::Factorial,
+        must_find: strings(&["Recipe"]),
+        must_not_find: strings(&["Batch"]),
+        expects_best: true,
+        one_run_per_combination: true,
+    });
+
     // 11. One-way with a control and a direction.
     let mut noise = Noise::new(1311);
     let mut rows = Vec::new();

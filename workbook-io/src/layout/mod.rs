@@ -628,6 +628,21 @@ fn detect_table_cells(
                 &response_columns,
                 findings,
             );
+            if !factors_named && request.blocks.is_empty() {
+                if let Some(line) = roles::batches_as_blocks(&mut table) {
+                    let area = table
+                        .factors
+                        .iter()
+                        .find(|factor| factor.is_block)
+                        .and_then(|factor| factor.column)
+                        .map_or(header_area, |col| CellRect {
+                            first: CellPos::new(header_row, col),
+                            last: CellPos::new(header_row, col),
+                        });
+                    table.findings.push(choice_finding(&sheet, area, "the blocks", &line));
+                    choices.push(line);
+                }
+            }
             // Context columns (not hidden helpers, not factors) that change with a factor.
             let context_kept: Vec<usize> = (0..columns.len())
                 .filter(|index| context[*index].is_some_and(|reason| reason != HIDDEN_REASON))

@@ -5,6 +5,7 @@
 //! columns holding a few repeated settings, read as factors of a design.
 
 use super::header::HeaderColumn;
+use super::TrialTable;
 
 /// Header words that mark a column as context wherever they stand in the header.
 const CONTEXT_WORDS: &[&str] = &[
@@ -299,4 +300,79 @@ pub(super) fn design_pattern(
         }
     }
     Ok(())
+}
+
+/// Header words of a column of batches, lots or blocks ("Batch", "Lot no.", "Block").
+const BLOCK_WORDS: &[&str] = &["batch", "batches", "lot", "lots", "block", "blocks"];
+const BLOCK_QUALIFIERS: &[&str] = &["no", "nr", "num", "number", "id", "code"];
+
+/// A label column found as a factor but headed as batches, lots or blocks ("Batch",
+/// "Lot no.") in which every batch holds every level of every other factor, each
+/// combination once (at least two batches and another factor): the randomised complete
+/// block plan of a trial run batch by batch, each batch a block (common practice). It is marked a block, so that batch-to-batch differences
+/// are taken out of the comparison rather than judged as an effect, and the choice is
+/// returned as one line. Only one such column, and only beside a factor that is not one.
+pub(super) fn batches_as_blocks(table: &mut TrialTable) -> Option<String> {
+    let headed_as_batches = |name: &str| {
+        let header_words = words(name);
+        header_words.iter().any(|word| BLOCK_WORDS.contains(&word.as_str()))
+            && header_words
+                .iter()
+                .all(|word| BLOCK_WORDS.contains(&word.as_str()) || BLOCK_QUALIFIERS.contains(&word.as_str()))
+    };
+    let candidates: Vec<usize> = (0..table.factors.len())
+        .filter(|&index| !table.factors[index].is_block && headed_as_batches(&table.factors[index].name))
+        .collect();
+    let [batch] = candidates[..] else {
+        return None;
+    };
+    let others: Vec<usize> = (0..table.factors.len())
+        .filter(|&index| index != batch && !table.factors[index].is_block)
+        .collect();
+    let batches = table.factors[batch].levels.len();
+    if batches < 2 || others.is_empty() {
+        return None;
+    }
+    for &other in &others {
+        let levels = table.factors[other].levels.len();
+        let mut seen = vec![false; batches * levels];
+        for (&in_batch, &level) in table.factors[batch]
+            .level_of_record
+            .iter()
+            .zip(&table.factors[other].level_of_record)
+        {
+            if let Some(slot) = seen.get_mut(in_batch as usize * levels + level as usize) {
+                *slot = true;
+            }
+        }
+        if seen.contains(&false) {
+            return None;
+        }
+    }
+    // Each batch runs each combination of the other factors once: batches with repeats
+    // within a combination may be under study themselves (their interaction with the
+    // factors can then be judged), so they stay a factor.
+    let mut runs = std::collections::HashSet::new();
+    for record in 0..table.factors[batch].level_of_record.len() {
+        let key: Vec<u32> = std::iter::once(batch)
+            .chain(others.iter().copied())
+            .map(|index| {
+                table.factors[index]
+                    .level_of_record
+                    .get(record)
+                    .copied()
+                    .unwrap_or(u32::MAX)
+            })
+            .collect();
+        if !runs.insert(key) {
+            return None;
+        }
+    }
+    table.factors[batch].is_block = true;
+    let name = table.factors[batch].name.clone();
+    let crossed: Vec<&str> = others.iter().map(|&index| table.factors[index].name.as_str()).collect();
+    Some(format!(
+        "the column '{name}' is headed as batches or lots and each of its {batches} levels holds every setting of {crossed}, so it was read as blocks: differences between them are taken out of the comparison, not judged as an effect; set `factor` to {name}, {crossed} to judge it as a factor",
+        crossed = crossed.join(", ")
+    ))
 }
