@@ -325,7 +325,11 @@ pub(crate) fn analyse_loaded(
         // combinations with no usable value are (see `replication_finding` for the rest).
         let mut counts = vec![0usize; condition_names.len()];
         let mut first_record: Vec<Option<usize>> = vec![None; condition_names.len()];
+        // The first row of each condition, usable or not: where a condition with no
+        // usable value is pointed to.
+        let mut first_row: Vec<Option<usize>> = vec![None; condition_names.len()];
         for (record, (&group, value)) in groups.iter().zip(&response.values).enumerate() {
+            first_row[group as usize].get_or_insert(record);
             if value.is_finite() {
                 counts[group as usize] += 1;
                 first_record[group as usize].get_or_insert(record);
@@ -333,13 +337,20 @@ pub(crate) fn analyse_loaded(
         }
         for (condition, &count) in counts.iter().enumerate() {
             if count < 2 && !(factorial.is_some() && count == 1) {
-                let cell = first_record[condition].map(|record| table.value_cell(response_index, record).a1());
-                let (action, detail) = if count == 0 {
-                    ("the condition was left out of this response", "has no usable value")
+                let cell = first_record[condition]
+                    .or(first_row[condition])
+                    .map(|record| table.value_cell(response_index, record).a1());
+                let (action, detail, consequence) = if count == 0 {
+                    (
+                        "the condition was left out of this response",
+                        "has no usable value",
+                        "it was left out of the comparison",
+                    )
                 } else {
                     (
                         "kept; it adds no within-condition degrees of freedom",
                         "has only one value",
+                        "its spread cannot be judged on its own",
                     )
                 };
                 findings.push(Finding {
@@ -349,7 +360,7 @@ pub(crate) fn analyse_loaded(
                     found: engine::analysis::verdict::count_of(count, "value"),
                     action: action.into(),
                     message: format!(
-                        "condition '{}' {detail} for '{}'; its spread cannot be judged on its own",
+                        "condition '{}' {detail} for '{}'; {consequence}",
                         condition_names[condition], response.name
                     ),
                 });

@@ -496,6 +496,34 @@ fn detect_table_cells(
                 }
             }
             factors_found.extend(design_found.iter().copied());
+            // A label column with the same label on every row ("N" under "Leak (Y/N)")
+            // cannot separate conditions: beside other factors it is context.
+            let constant: Vec<usize> = factors_found
+                .iter()
+                .copied()
+                .filter(|index| !columns[*index].counts.is_numeric() && columns[*index].distinct_labels <= 1)
+                .collect();
+            if !constant.is_empty() && constant.len() < factors_found.len() && n_data_rows >= 2 {
+                for &index in &constant {
+                    let column = &columns[index];
+                    findings.push(column_finding(
+                        FindingKind::IdentifierColumn,
+                        &sheet,
+                        header_row,
+                        column,
+                        "not used as a factor",
+                        format!(
+                            "the column '{}' has the same label on every row, so it cannot separate conditions and was kept as context; name it as a factor to use it",
+                            column.name
+                        ),
+                    ));
+                    set_aside.push(SetAside {
+                        name: column.name.clone(),
+                        reason: "the same on every row".into(),
+                    });
+                }
+                factors_found.retain(|index| !constant.contains(index));
+            }
             if factors_found.is_empty() {
                 // Only context labels: the best of them stand as the factors.
                 let context_labels: Vec<usize> = (0..columns.len())

@@ -960,6 +960,28 @@ fn former_gaps() -> Vec<Case> {
 fn kept_shapes() -> Vec<Case> {
     vec![
         Case {
+            name: "a label column with the same label on every row is context beside a factor",
+            rows: &[
+                &["Sealer temperature", "Seal strength (N/15mm)", "Leak (Y/N)"],
+                &["140", "18.2", "N"],
+                &["140", "18.9", "N"],
+                &["150", "20.1", "N"],
+                &["150", "19.7", "N"],
+                &["160", "21.0", "N"],
+                &["160", "20.6", "N"],
+            ],
+            merged: &[],
+            request: TableRequest::default(),
+            expect: Expected::Table(TableExpect {
+                layout: Layout::Long,
+                area: "A1:C7",
+                factors: &[("Sealer temperature", &["140", "150", "160"], false)],
+                responses: &["Seal strength (N/15mm)"],
+                records: 6,
+                findings: &[(IdentifierColumn, "C1")],
+            }),
+        },
+        Case {
             name: "a batch column in which every batch holds every setting is read as blocks",
             rows: &[
                 &["Batch", "Mixer speed", "Viscosity (cP)"],
