@@ -244,6 +244,9 @@ impl Unit {
         }
         fit.grand_mean = self.level(fit.grand_mean);
         fit.pooled_sd = self.spread(fit.pooled_sd);
+        for gap in &mut fit.mean_differences {
+            *gap = self.spread(*gap);
+        }
         for line in &mut fit.anova {
             line.ss = self.square(line.ss);
             line.ms = line.ms.map(|ms| self.square(ms));
