@@ -181,10 +181,10 @@ fn figure(outcome: &FactorialOutcome, trial: &str, name: &str) -> Option<f64> {
             _ => curvature.p_value,
         };
     }
-    let (term, what) = name
-        .rsplit_once(' ')
-        .filter(|(_, what)| *what != "p" || trial != "2^3")
-        .map_or_else(|| name.split_once(' ').expect("a term and a figure"), |split| split);
+    let (term, what) = match name.strip_suffix(" t p") {
+        Some(term) => (term, "t p"),
+        None => name.rsplit_once(' ').expect("a term and a figure"),
+    };
     match (trial, what) {
         ("2^(4-1)", "effect") => effect(term).map(|e| e.effect),
         ("2^(4-1)", "t") => effect(term).and_then(|e| e.t_value),

@@ -603,6 +603,12 @@ fn sums_out_of_range(
             }
         }
     }
+    // The two-level analysis's pure-error variance, quoted in its note.
+    let two_level_variance = outcome.two_level.as_ref().and_then(|two| two.pure_error_variance);
+    if let Some(variance) = two_level_variance.filter(|variance| !variance.is_finite()) {
+        let list = if variance.is_nan() { &mut below } else { &mut beyond };
+        list.push("the two-level pure error");
+    }
     if beyond.is_empty() && below.is_empty() {
         return None;
     }

@@ -165,11 +165,11 @@ pub struct OneWayFit {
     /// The values of each condition, sorted (for medians and model checks).
     #[serde(skip)]
     pub sorted_values: Vec<Vec<f64>>,
-    /// `mean_i - mean_j` of conditions `i` and `j` (row-major, `k × k`), formed from the
-    /// exact or compensated sums rather than from the rounded means, so a gap between
+    /// Each condition's mean minus the first condition's, as a pair `hi + lo` formed from
+    /// the exact or compensated sums rather than from the rounded means, so a gap between
     /// means at a large offset keeps its digits; empty when not formed.
     #[serde(skip)]
-    pub mean_differences: Vec<f64>,
+    pub mean_gaps: Vec<(f64, f64)>,
 }
 
 impl OneWayFit {
@@ -194,13 +194,14 @@ impl OneWayFit {
     }
 
     /// `mean(first) - mean(second)` to full precision where the sums allow (see
-    /// [`Self::mean_differences`]), else the difference of the rounded means.
+    /// [`Self::mean_gaps`]), else the difference of the rounded means.
     pub fn mean_difference(&self, first: usize, second: usize) -> f64 {
-        let k = self.conditions.len();
-        self.mean_differences
-            .get(first * k + second)
-            .copied()
-            .unwrap_or(self.conditions[first].mean - self.conditions[second].mean)
+        match (self.mean_gaps.get(first), self.mean_gaps.get(second)) {
+            (Some(&(first_hi, first_lo)), Some(&(second_hi, second_lo))) => {
+                (first_hi - second_hi) + (first_lo - second_lo)
+            }
+            _ => self.conditions[first].mean - self.conditions[second].mean,
+        }
     }
 }
 
@@ -431,10 +432,9 @@ pub(crate) fn fit_one_way_sharing(
         sorted_values.push(sorted);
     }
 
-    let mean_differences: Vec<f64> = kept
+    let mean_gaps: Vec<(f64, f64)> = kept
         .iter()
-        .flat_map(|&first| kept.iter().map(move |&second| (first, second)))
-        .map(|(first, second)| mean_difference(&stats[first], &stats[second]))
+        .map(|&index| mean_difference(&stats[index], &stats[kept[0]]))
         .collect();
     let mut pairs = Vec::new();
     for first in 0..conditions.len() {
@@ -511,7 +511,7 @@ pub(crate) fn fit_one_way_sharing(
         exact_decimal: sums.exact_decimal,
         blocks: None,
         sorted_values,
-        mean_differences,
+        mean_gaps,
     })
 }
 
