@@ -50,20 +50,53 @@ const P_NOT_BEST: [f64; 5] = [
     7.0552205047426725e-228,
 ];
 
-#[test]
-fn p_not_best_keeps_its_digits_deep_in_the_tail() {
+/// The trial's names, labels and values, each value the decimal a cell would hold at
+/// `offset` (read as the nearest double).
+fn trial_at(offset: i64) -> (Vec<String>, Vec<u32>, Vec<f64>) {
     let mut names = Vec::new();
     let mut labels = Vec::new();
     let mut values = Vec::new();
     for (index, &(size, mean)) in CONDITIONS.iter().enumerate() {
         names.push(format!("condition {}", index + 1));
         for &spread in &PATTERN[..size] {
-            // The decimal a cell would hold, read as the nearest double.
-            let text = format!("{}e-4", mean + spread);
+            let text = if offset == 0 {
+                format!("{}e-4", mean + spread)
+            } else {
+                let units = offset * 10_000 + mean + spread;
+                format!("{}.{:04}", units / 10_000, units % 10_000)
+            };
             values.push(text.parse::<f64>().expect("a number"));
             labels.push(index as u32);
         }
     }
+    (names, labels, values)
+}
+
+#[test]
+fn p_not_best_keeps_its_digits_at_an_offset() {
+    // The same trial typed at 1e6 and 1e9 (e.g. 1000000000.0030): every figure is
+    // unchanged by a shift, so the reference is the same. The leads come from the gaps
+    // between means of the exact sums; from the rounded means they kept about 10.7
+    // digits at 1e9.
+    for offset in [1_000_000, 1_000_000_000] {
+        let (names, labels, values) = trial_at(offset);
+        let fit = fit_one_way(&names, &labels, &values, 0.95, &[]).expect("the trial fits");
+        let best = with_the_best(&fit, Direction::HigherIsBetter, 0.95).expect("comparisons with the best");
+        for (row, &p) in best.rows[1..].iter().zip(&P_NOT_BEST) {
+            check(
+                &format!("offset {offset}, {}: p not best", row.condition),
+                row.p_not_best,
+                p,
+                12.0,
+            );
+        }
+        assert_eq!(best.could_be_best, vec!["condition 1".to_string()]);
+    }
+}
+
+#[test]
+fn p_not_best_keeps_its_digits_deep_in_the_tail() {
+    let (names, labels, values) = trial_at(0);
     let fit = fit_one_way(&names, &labels, &values, 0.95, &[]).expect("the trial fits");
     let best = with_the_best(&fit, Direction::HigherIsBetter, 0.95).expect("comparisons with the best");
     for (row, &p) in best.rows[1..].iter().zip(&P_NOT_BEST) {

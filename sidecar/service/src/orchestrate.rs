@@ -302,24 +302,13 @@ pub(crate) fn analyse_loaded(
             return Err(ServiceError::Cancelled);
         }
         let direction = settings.direction_for(&response.name);
-        let factorial = match factorial_out_of_range(&response.values) {
-            Some(spread) if table.factors.iter().filter(|factor| !factor.is_block).count() >= 2 => {
-                findings.push(Finding {
-                    kind: FindingKind::Analysis,
-                    sheet: table.sheet.clone(),
-                    cell: Some(table.area.a1()),
-                    found: format!("values {spread}"),
-                    action: "the factorial model was not fitted; the combinations are compared one way".into(),
-                    message: format!(
-                        "'{}': the values {spread}, too {} for the factorial model's sums of squares to hold at full precision, so that model was not fitted and the combinations are compared as conditions of one factor, which holds at any magnitude; express the response in other units (a power of ten nearer its size) to get the factorial analysis",
-                        response.name,
-                        if spread.contains("e-") { "little" } else { "much" }
-                    ),
-                });
-                None
-            }
-            _ => factorial_of(&table, response_index, &settings, direction, &off_plan),
-        };
+        let factorial = factorial_of(&table, response_index, &settings, direction, &off_plan);
+        if let Some(finding) = factorial
+            .as_ref()
+            .and_then(|outcome| sums_out_of_range(&table, &response.name, &response.values, outcome))
+        {
+            findings.push(finding);
+        }
         // Conditions with fewer than two usable values are reported here, per response;
         // in a factorial trial one run per combination is the design, so only
         // combinations with no usable value are (see `replication_finding` for the rest).
@@ -575,15 +564,9 @@ pub(crate) fn analyse_loaded(
     })
 }
 
-/// Largest spread of values the factorial model's sums of squares hold at full
-/// precision (about 2^-480 to 2^480): squares of deviations stay between 2^-960 and
-/// 2^960, sums of many of them too (the one-way and second-order fits scale their deviations and hold any
-/// magnitude; the k-way, two-level and reduced models do not yet).
-const FACTORIAL_SPREAD_RANGE: (f64, f64) = (1e-144, 1e144);
-
-/// When the response's values differ from one another by more than the factorial model
-/// holds, or by less (but not nothing), the spread in words ("differ by about 1e158").
-fn factorial_out_of_range(values: &[f64]) -> Option<String> {
+/// How much the response's finite values differ from one another, in words ("differ by
+/// about 1e158"); `None` when they do not differ.
+fn spread_in_words(values: &[f64]) -> Option<String> {
     let mut finite = values.iter().copied().filter(|value| value.is_finite());
     let first = finite.next()?;
     let (mut low, mut high) = (first, first);
@@ -593,11 +576,81 @@ fn factorial_out_of_range(values: &[f64]) -> Option<String> {
     }
     // Halved, so that values near the largest double of both signs give a finite spread.
     let spread = 0.5 * high - 0.5 * low;
-    let (smallest, largest) = FACTORIAL_SPREAD_RANGE;
-    if spread == 0.0 || (smallest..=largest / 2.0).contains(&spread) {
+    (spread > 0.0).then(|| format!("differ by about {:.0e}", 2.0 * spread))
+}
+
+/// A finding when the factorial model's sums of squares (or mean squares) cannot be held
+/// in the arithmetic: beyond the largest double (values that differ by more than about
+/// 1e154) or, with spread, below the smallest normal one (values that differ by less than
+/// about 1e-154). The model is fitted on deviations divided by a power of two, so F, p,
+/// effects, means and intervals stand; the finding names the figures that cannot be shown
+/// and says why.
+fn sums_out_of_range(
+    table: &TrialTable,
+    response: &str,
+    values: &[f64],
+    outcome: &engine::analysis::factorial::FactorialOutcome,
+) -> Option<Finding> {
+    let model = outcome.model.as_ref()?;
+    let mut beyond: Vec<&str> = Vec::new();
+    let mut below: Vec<&str> = Vec::new();
+    for line in model
+        .type_i
+        .iter()
+        .chain(&model.type_ii)
+        .chain(&model.type_iii)
+        .chain(&model.error_lines)
+    {
+        for figure in [Some(line.sum_sq), line.mean_sq].into_iter().flatten() {
+            let list = if figure.is_infinite() {
+                &mut beyond
+            } else if figure.is_nan() {
+                &mut below
+            } else {
+                continue;
+            };
+            if !list.contains(&line.source.as_str()) {
+                list.push(line.source.as_str());
+            }
+        }
+    }
+    // The two-level analysis's pure-error variance, quoted in its note.
+    let two_level_variance = outcome.two_level.as_ref().and_then(|two| two.pure_error_variance);
+    if let Some(variance) = two_level_variance.filter(|variance| !variance.is_finite()) {
+        let list = if variance.is_nan() { &mut below } else { &mut beyond };
+        list.push("the two-level pure error");
+    }
+    if beyond.is_empty() && below.is_empty() {
         return None;
     }
-    Some(format!("differ by about {:.0e}", 2.0 * spread))
+    let spread = spread_in_words(values)?;
+    let (list, where_, shown) = if beyond.is_empty() {
+        (
+            &below,
+            "below the smallest number the arithmetic holds at full precision",
+            "left empty (they read 'not defined')",
+        )
+    } else {
+        (
+            &beyond,
+            "beyond the largest number the arithmetic holds",
+            "said 'beyond the range of the arithmetic'",
+        )
+    };
+    let named = match list.split_last() {
+        Some((last, rest)) if !rest.is_empty() => format!("{} and {last}", rest.join(", ")),
+        _ => list.join(""),
+    };
+    Some(Finding {
+        kind: FindingKind::Analysis,
+        sheet: table.sheet.clone(),
+        cell: Some(table.area.a1()),
+        found: format!("values {spread}"),
+        action: format!("the sums of squares that cannot be held are {shown}; F, p and every other figure are given"),
+        message: format!(
+            "'{response}': the values {spread}, so the factorial model's sums of squares and mean squares of {named} are {where_}; they are {shown}. F, p, effects, means and intervals are worked from the same sums divided by a power of two, which is exact, and are right; express the response in other units (a power of ten nearer its size) to see those sums"
+        ),
+    })
 }
 
 /// The one-way comparison of the combinations run, said as a detail under another

@@ -244,6 +244,9 @@ impl Unit {
         }
         fit.grand_mean = self.level(fit.grand_mean);
         fit.pooled_sd = self.spread(fit.pooled_sd);
+        for (hi, lo) in &mut fit.mean_gaps {
+            (*hi, *lo) = (self.spread(*hi), self.spread(*lo));
+        }
         for line in &mut fit.anova {
             line.ss = self.square(line.ss);
             line.ms = line.ms.map(|ms| self.square(ms));

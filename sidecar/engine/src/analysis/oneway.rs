@@ -10,7 +10,7 @@
 use serde::Serialize;
 
 use crate::analysis::contrast::Contrast;
-use crate::stats::accumulate::{oneway_sums, scale_by_power_of_two, GroupAccumulator};
+use crate::stats::accumulate::{mean_difference, oneway_sums, scale_by_power_of_two, GroupAccumulator};
 use crate::stats::dist;
 use crate::stats::StatsError;
 
@@ -165,6 +165,11 @@ pub struct OneWayFit {
     /// The values of each condition, sorted (for medians and model checks).
     #[serde(skip)]
     pub sorted_values: Vec<Vec<f64>>,
+    /// Each condition's mean minus the first condition's, as a pair `hi + lo` formed from
+    /// the exact or compensated sums rather than from the rounded means, so a gap between
+    /// means at a large offset keeps its digits; empty when not formed.
+    #[serde(skip)]
+    pub mean_gaps: Vec<(f64, f64)>,
 }
 
 impl OneWayFit {
@@ -186,6 +191,17 @@ impl OneWayFit {
     /// The standard error of the difference of two conditions' means on the pooled SD.
     pub fn difference_se(&self, first: usize, second: usize) -> f64 {
         self.pooled_sd * self.difference_variance_factor(first, second).sqrt()
+    }
+
+    /// `mean(first) - mean(second)` to full precision where the sums allow (see
+    /// [`Self::mean_gaps`]), else the difference of the rounded means.
+    pub fn mean_difference(&self, first: usize, second: usize) -> f64 {
+        match (self.mean_gaps.get(first), self.mean_gaps.get(second)) {
+            (Some(&(first_hi, first_lo)), Some(&(second_hi, second_lo))) => {
+                (first_hi - second_hi) + (first_lo - second_lo)
+            }
+            _ => self.conditions[first].mean - self.conditions[second].mean,
+        }
     }
 }
 
@@ -416,6 +432,10 @@ pub(crate) fn fit_one_way_sharing(
         sorted_values.push(sorted);
     }
 
+    let mean_gaps: Vec<(f64, f64)> = kept
+        .iter()
+        .map(|&index| mean_difference(&stats[index], &stats[kept[0]]))
+        .collect();
     let mut pairs = Vec::new();
     for first in 0..conditions.len() {
         for second in first + 1..conditions.len() {
@@ -491,6 +511,7 @@ pub(crate) fn fit_one_way_sharing(
         exact_decimal: sums.exact_decimal,
         blocks: None,
         sorted_values,
+        mean_gaps,
     })
 }
 

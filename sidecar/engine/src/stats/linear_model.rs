@@ -18,6 +18,7 @@ use std::collections::{BTreeMap, BTreeSet};
 
 use nalgebra::{DMatrix, DVector};
 
+use crate::stats::accumulate::{binary_exponent, scale_by_power_of_two};
 use crate::stats::StatsError;
 use qr::{sequential_qr, upper_triangular_inverse, SequentialQr};
 
@@ -40,8 +41,44 @@ pub struct CellSummary {
     /// [`crate::stats::accumulate::centre_values`]): the digits that `mean` loses at a large
     /// offset. Equal to `mean` when no centre was taken.
     pub centred_mean: f64,
-    /// Sum of squared deviations from the cell mean, `Σ (y - mean)²`.
-    pub centred_ss: f64,
+    /// Sum of squared deviations from the cell mean, `Σ (y - mean)²`, divided by
+    /// `4^scale_exponent`: finite and with full precision at any magnitude of the data
+    /// (at 1e160 the sum itself is beyond the largest `f64`, at 1e-170 below the smallest).
+    pub centred_ss_scaled: f64,
+    /// The power of two the deviations were divided by before squaring (0 when they
+    /// were not).
+    pub scale_exponent: i32,
+}
+
+impl CellSummary {
+    /// The centred sum of squares in the data's units: infinite when beyond the largest
+    /// `f64`, NaN when a positive sum is below the smallest normal one.
+    pub fn centred_ss(&self) -> f64 {
+        unscale_square(self.centred_ss_scaled, self.scale_exponent)
+    }
+
+    /// The cell's standard deviation (divisor `n - 1`) from the scaled sum, so it is right
+    /// whenever it is itself a finite number; `None` with one value.
+    pub fn sd(&self) -> Option<f64> {
+        (self.n > 1).then(|| {
+            scale_by_power_of_two(
+                (self.centred_ss_scaled / (self.n - 1) as f64).sqrt(),
+                i64::from(self.scale_exponent),
+            )
+        })
+    }
+}
+
+/// `scaled * 4^exponent`, a sum of squares put back in the data's units: infinite beyond
+/// the largest `f64`, NaN where a positive sum falls below the smallest normal `f64` (a
+/// zero there would read as "no spread").
+pub fn unscale_square(scaled: f64, exponent: i32) -> f64 {
+    let value = scale_by_power_of_two(scaled, 2 * i64::from(exponent));
+    if scaled != 0.0 && scaled.is_finite() && value.abs() < f64::MIN_POSITIVE {
+        f64::NAN
+    } else {
+        value
+    }
 }
 
 /// One factor of the design.
@@ -98,8 +135,12 @@ pub struct AnovaRow {
     pub term: String,
     /// Degrees of freedom of the hypothesis.
     pub df: usize,
-    /// Sum of squares.
+    /// Sum of squares (infinite beyond the largest `f64`, NaN below the smallest normal
+    /// one; see [`FactorialFit::scale_exponent`]).
     pub sum_sq: f64,
+    /// The sum of squares divided by `4^scale_exponent` of the fit: finite whenever the
+    /// data have spread, for ratios (shares of the total, F).
+    pub sum_sq_scaled: f64,
     /// Mean square, `sum_sq / df`.
     pub mean_sq: f64,
     /// F ratio against the residual mean square; `None` without residual information.
@@ -212,12 +253,26 @@ pub struct FactorialFit {
     pub type_iii: AnovaTable,
     /// Residual line.
     pub residual: ResidualLine,
+    /// Residual standard deviation `sqrt(residual mean square)` from the scaled sums, so
+    /// it is right whenever it is itself a finite number; `None` without residual df.
+    pub residual_sd: Option<f64>,
     /// Within-cell (pure error) part of the residual.
     pub pure_error: SumOfSquaresLine,
     /// Lack of fit of the cell means (zero when the model is saturated on the cells).
     pub lack_of_fit: SumOfSquaresLine,
+    /// F ratio of the lack of fit against the pure error and its upper-tail probability,
+    /// formed from the scaled sums (`None` without degrees of freedom for either, or
+    /// without spread within cells).
+    pub lack_of_fit_test: Option<(f64, Option<f64>)>,
+    /// The power of two the response was divided by before squaring: every sum of squares
+    /// was formed divided by `4^scale_exponent` (F, p and R² come from those), and the
+    /// reported sums are infinite where beyond the largest `f64` and NaN where below the
+    /// smallest normal one.
+    pub scale_exponent: i32,
     /// Corrected total: `df = N - 1`, `Σ (y - grand mean)²`.
     pub total: SumOfSquaresLine,
+    /// The corrected total sum of squares divided by `4^scale_exponent`.
+    pub total_ss_scaled: f64,
     /// `1 - residual / total`; `None` when the total sum of squares is zero.
     pub r_squared: Option<f64>,
     /// Number of observations.
@@ -247,8 +302,9 @@ pub struct FactorialFit {
 /// Cells come out sorted by their level vectors.
 ///
 /// # Remarks
-/// Two passes per cell: the mean, then the sum of squared deviations from it, which is
-/// accurate to rounding (no cancellation).
+/// Two passes per cell: the mean, then the sum of squared deviations from it, each
+/// deviation divided by a power of two near the largest first (so no square overflows or
+/// underflows), which is accurate to rounding (no cancellation).
 ///
 /// # Errors
 /// [`StatsError::InvalidParameter`] when the two slices differ in length, level vectors
@@ -291,13 +347,22 @@ pub fn summarise_cells(levels: &[Vec<usize>], values: &[f64]) -> Result<Vec<Cell
         .into_iter()
         .map(|(key, group)| {
             let mean = group.iter().sum::<f64>() / group.len() as f64;
-            let centred_ss = group.iter().map(|value| (value - mean).powi(2)).sum();
+            // Deviations divided by a power of two near the largest before squaring.
+            let largest = group
+                .iter()
+                .fold(0.0_f64, |largest, value| largest.max((value - mean).abs()));
+            let exponent = if largest > 0.0 { binary_exponent(largest) } else { 0 };
+            let centred_ss_scaled = group
+                .iter()
+                .map(|value| scale_by_power_of_two(value - mean, -i64::from(exponent)).powi(2))
+                .sum();
             CellSummary {
                 levels: key.to_vec(),
                 n: group.len(),
                 mean,
                 centred_mean: mean,
-                centred_ss,
+                centred_ss_scaled,
+                scale_exponent: exponent,
             }
         })
         .collect())
@@ -424,15 +489,22 @@ fn build_terms(factors: &[FactorSpec], order: usize) -> Result<Vec<ModelTerm>, S
     Ok(terms)
 }
 
-/// Power of two near the largest centred cell mean, by which the response is divided
-/// before the QR so that its squares neither overflow nor underflow (exact in binary).
-fn response_scale(cells: &[CellSummary]) -> f64 {
-    let largest = cells.iter().map(|cell| cell.centred_mean.abs()).fold(0.0_f64, f64::max);
-    if largest > 0.0 && largest.is_finite() {
-        2.0_f64.powi((largest.log2().floor() as i32).clamp(-1000, 1000))
-    } else {
-        1.0
+/// Exponent of the power of two by which the response is divided before the QR, so that
+/// squares neither overflow nor underflow (exact in binary): that of the largest centred
+/// cell mean or within-cell spread (the root of a centred sum of squares).
+fn response_exponent(cells: &[CellSummary]) -> i32 {
+    let mut exponent: Option<i32> = None;
+    for cell in cells {
+        let mut consider = |value: f64, shift: i32| {
+            if value > 0.0 && value.is_finite() {
+                let candidate = binary_exponent(value) + shift;
+                exponent = Some(exponent.map_or(candidate, |current| current.max(candidate)));
+            }
+        };
+        consider(cell.centred_mean.abs(), 0);
+        consider(cell.centred_ss_scaled.sqrt(), cell.scale_exponent);
     }
+    exponent.unwrap_or(0).clamp(-1000, 1000)
 }
 
 fn build_design(factors: &[FactorSpec], cells: &[CellSummary], order: usize, scale: f64) -> Result<Design, StatsError> {
@@ -532,11 +604,11 @@ fn validate(cells: &[CellSummary], factors: &[FactorSpec], model: &ModelSpec) ->
                 value: cell.mean,
             });
         }
-        if !(cell.centred_ss.is_finite() && cell.centred_ss >= 0.0) {
+        if !(cell.centred_ss_scaled.is_finite() && cell.centred_ss_scaled >= 0.0) {
             return Err(StatsError::InvalidParameter {
-                name: "cell centred_ss",
+                name: "cell centred_ss_scaled",
                 rule: "finite and non-negative",
-                value: cell.centred_ss,
+                value: cell.centred_ss_scaled,
             });
         }
         if !seen.insert(cell.levels.as_slice()) {
@@ -581,17 +653,18 @@ fn f_test(mean_sq: f64, df: usize, residual: &ResidualLine) -> (Option<f64>, Opt
     (Some(f_value), p_value)
 }
 
-/// A line of the table from a sum of squares in scaled units (`sum_sq * scale_sq` in the
-/// data's units): the F ratio is formed from the scaled sums, so it stays finite where
+/// A line of the table from a sum of squares in scaled units (`sum_sq * 4^exponent` in
+/// the data's units): the F ratio is formed from the scaled sums, so it stays finite where
 /// the sums themselves overflow.
-fn anova_row(term: &str, df: usize, sum_sq: f64, residual: &ResidualLine, scale_sq: f64) -> AnovaRow {
+fn anova_row(term: &str, df: usize, sum_sq: f64, residual: &ResidualLine, exponent: i32) -> AnovaRow {
     let mean_sq = sum_sq / df as f64;
     let (f_value, p_value) = f_test(mean_sq, df, residual);
     AnovaRow {
         term: term.to_string(),
         df,
-        sum_sq: sum_sq * scale_sq,
-        mean_sq: mean_sq * scale_sq,
+        sum_sq: unscale_square(sum_sq, exponent),
+        sum_sq_scaled: sum_sq,
+        mean_sq: unscale_square(mean_sq, exponent),
         f_value,
         p_value,
     }
@@ -650,8 +723,10 @@ struct Solution {
     coefficients: DVector<f64>,
     /// (X'WX)⁻¹ restricted to kept columns
     unscaled_covariance: DMatrix<f64>,
-    /// σ², `None` without residual df
-    sigma_sq: Option<f64>,
+    /// σ² divided by `scale²`, `None` without residual df
+    scaled_sigma_sq: Option<f64>,
+    /// The power of two the response was divided by.
+    scale: f64,
     /// The centre taken off the cell means, added back to every estimate through the
     /// intercept.
     centre: f64,
@@ -698,7 +773,9 @@ impl Solution {
         }
         Estimate {
             value: Some(value),
-            standard_error: self.sigma_sq.map(|sigma_sq| (sigma_sq * variance.max(0.0)).sqrt()),
+            standard_error: self
+                .scaled_sigma_sq
+                .map(|sigma_sq| (sigma_sq * variance.max(0.0)).sqrt() * self.scale),
         }
     }
 }
@@ -729,10 +806,13 @@ impl Solution {
 /// estimable when it is consistent with every aliasing relation found by the QR.
 /// p-values come from the F survival function of `stats::dist`, never `1 - cdf`.
 /// The response is each cell's `centred_mean` divided by a power of two near the largest
-/// of them, so squares neither overflow nor underflow; sums of squares are scaled back for
-/// the tables, F ratios are formed from the scaled sums, and the cells' common centre is
-/// added back to every estimate through the intercept (grand mean, least-squares means,
-/// fitted cell means).
+/// of them or of the within-cell spreads (the cells' sums of squares arrive divided by
+/// their own power of two), so squares neither overflow nor underflow at any magnitude;
+/// F ratios, p-values, R², standard errors and the residual SD are formed from the scaled
+/// sums, the sums of squares are scaled back for the tables (infinite beyond the largest
+/// `f64`, NaN below the smallest normal one, see [`unscale_square`]), and the cells'
+/// common centre is added back to every estimate through the intercept (grand mean,
+/// least-squares means, fitted cell means).
 /// Checked against statsmodels 0.15.0 (`ols` with `C(x, Sum)` coding and `anova_lm`
 /// typ 1, 2, 3, `t_test`) on unbalanced two- and three-factor data, a block design and a
 /// design with an empty cell, and against scipy 1.17.1 `f_oneway` for one factor.
@@ -753,8 +833,8 @@ pub fn fit_factorial(
     let n_treatments = factors.iter().filter(|factor| !factor.is_block).count();
     // Centre and scale: the response is the centred cell mean over a power of two, the
     // sums of squares are formed in those units and scaled back only for display.
-    let scale = response_scale(cells);
-    let scale_sq = scale * scale;
+    let exponent = response_exponent(cells);
+    let scale = scale_by_power_of_two(1.0, i64::from(exponent));
     let centre = cells.first().map_or(0.0, |cell| cell.mean - cell.centred_mean);
 
     // choose the order and fit the full model
@@ -788,16 +868,32 @@ pub fn fit_factorial(
     };
 
     // residual, pure error, lack of fit, total; `scaled_*` in units of scale^2
-    let scaled_within: f64 = cells.iter().map(|cell| (cell.centred_ss / scale) / scale).sum();
+    let scaled_within: f64 = cells
+        .iter()
+        .map(|cell| {
+            scale_by_power_of_two(
+                cell.centred_ss_scaled,
+                2 * (i64::from(cell.scale_exponent) - i64::from(exponent)),
+            )
+        })
+        .sum();
     let scaled_lack_of_fit = full.residual_sum_sq();
     let pure_error = SumOfSquaresLine {
         df: n_observations - cells.len(),
-        sum_sq: scaled_within * scale_sq,
+        sum_sq: unscale_square(scaled_within, exponent),
     };
     let lack_of_fit = SumOfSquaresLine {
         df: cells.len() - rank,
-        sum_sq: scaled_lack_of_fit * scale_sq,
+        sum_sq: unscale_square(scaled_lack_of_fit, exponent),
     };
+    // Lack of fit against pure error, from the scaled sums.
+    let lack_of_fit_test = (lack_of_fit.df > 0 && pure_error.df > 0 && scaled_within > 0.0)
+        .then(|| {
+            let f_value = (scaled_lack_of_fit / lack_of_fit.df as f64) / (scaled_within / pure_error.df as f64);
+            let p_value = crate::stats::dist::f_sf(f_value, lack_of_fit.df as f64, pure_error.df as f64).ok();
+            (f_value, p_value)
+        })
+        .filter(|(f_value, _)| f_value.is_finite());
     let residual_df = n_observations - rank;
     let scaled_residual_ss = scaled_within + scaled_lack_of_fit;
     let scaled_residual = ResidualLine {
@@ -807,8 +903,8 @@ pub fn fit_factorial(
     };
     let residual = ResidualLine {
         df: residual_df,
-        sum_sq: scaled_residual_ss * scale_sq,
-        mean_sq: scaled_residual.mean_sq.map(|mean_sq| mean_sq * scale_sq),
+        sum_sq: unscale_square(scaled_residual_ss, exponent),
+        mean_sq: scaled_residual.mean_sq.map(|mean_sq| unscale_square(mean_sq, exponent)),
     };
     let scaled_means: Vec<f64> = cells.iter().map(|cell| cell.centred_mean / scale).collect();
     let grand_weighted_mean = cells
@@ -825,7 +921,7 @@ pub fn fit_factorial(
             .sum::<f64>();
     let total = SumOfSquaresLine {
         df: n_observations - 1,
-        sum_sq: scaled_total_ss * scale_sq,
+        sum_sq: unscale_square(scaled_total_ss, exponent),
     };
     let r_squared = (scaled_total_ss > 0.0).then(|| 1.0 - scaled_residual_ss / scaled_total_ss);
 
@@ -858,7 +954,7 @@ pub fn fit_factorial(
         if df > 0 {
             type_i
                 .rows
-                .push(anova_row(&term.name, df, sum_sq, &scaled_residual, scale_sq));
+                .push(anova_row(&term.name, df, sum_sq, &scaled_residual, exponent));
         }
     }
 
@@ -877,7 +973,7 @@ pub fn fit_factorial(
         if df > 0 {
             type_ii
                 .rows
-                .push(anova_row(&term.name, df, sum_sq, &scaled_residual, scale_sq));
+                .push(anova_row(&term.name, df, sum_sq, &scaled_residual, exponent));
         }
     }
 
@@ -903,7 +999,7 @@ pub fn fit_factorial(
         if df > 0 {
             type_iii
                 .rows
-                .push(anova_row(&term.name, df, sum_sq, &scaled_residual, scale_sq));
+                .push(anova_row(&term.name, df, sum_sq, &scaled_residual, exponent));
         }
     }
 
@@ -911,7 +1007,8 @@ pub fn fit_factorial(
         qr: full,
         coefficients: scaled_coefficients * scale,
         unscaled_covariance,
-        sigma_sq: residual.mean_sq,
+        scaled_sigma_sq: scaled_residual.mean_sq,
+        scale,
         centre,
     };
 
@@ -995,9 +1092,15 @@ pub fn fit_factorial(
         type_ii,
         type_iii,
         residual,
+        residual_sd: scaled_residual
+            .mean_sq
+            .map(|mean_sq| scale_by_power_of_two(mean_sq.sqrt(), i64::from(exponent))),
         pure_error,
         lack_of_fit,
+        lack_of_fit_test,
+        scale_exponent: exponent,
         total,
+        total_ss_scaled: scaled_total_ss,
         r_squared,
         n_observations,
         rank,

@@ -7,7 +7,9 @@
 //! contrast column minus mean at the low level); the regression coefficient
 //! of a ±1 coded column is half the effect.
 
+use crate::stats::accumulate::{magnitude_exponent, scale_by_power_of_two};
 use crate::stats::dist;
+use crate::stats::linear_model::unscale_square;
 use crate::stats::two_level::{detect_design, runs_to_masks, AliasChain, DesignKind, DesignSummary, Word};
 use crate::stats::StatsError;
 
@@ -674,6 +676,64 @@ fn within_groups<K: Ord + Clone>(keys: &[K], responses: &[f64]) -> (f64, usize) 
 /// does not match the runs, or the factorial runs are not a regular fraction
 /// or full factorial; as [`detect_design`] otherwise.
 pub fn analyse_two_level_in_layout(
+    runs: &[Vec<f64>],
+    responses: &[f64],
+    layout: &RunLayout<'_>,
+    options: &AnalysisOptions,
+) -> Result<TwoLevelAnalysis, StatsError> {
+    // Any magnitude: responses beyond 2^±200 are divided by a power of two near the
+    // largest (exact) so that no square overflows or underflows; every figure in the
+    // response's unit is put back afterwards, t and p are free of the unit.
+    let exponent = magnitude_exponent(responses);
+    if exponent == 0 {
+        return analyse_at_unit_scale(runs, responses, layout, options);
+    }
+    let scaled: Vec<f64> = responses
+        .iter()
+        .map(|&y| scale_by_power_of_two(y, -i64::from(exponent)))
+        .collect();
+    Ok(analyse_at_unit_scale(runs, &scaled, layout, options)?.in_unit_of(exponent))
+}
+
+impl TwoLevelAnalysis {
+    /// The analysis of responses divided by `2^exponent`, put back in the responses' unit:
+    /// levels, effects, standard errors and margins times `2^exponent`, the pure-error
+    /// variance and the curvature sum of squares times `4^exponent` (infinite beyond the
+    /// largest `f64`, NaN below the smallest normal one); t, p and Lenth's ratios as they
+    /// are.
+    fn in_unit_of(mut self, exponent: i32) -> Self {
+        let level = |value: f64| scale_by_power_of_two(value, i64::from(exponent));
+        let square = |value: f64| unscale_square(value, exponent);
+        self.grand_mean = level(self.grand_mean);
+        for estimate in self.effects.iter_mut().chain(self.confounded_with_blocks.iter_mut()) {
+            estimate.effect = level(estimate.effect);
+            estimate.coefficient = level(estimate.coefficient);
+            estimate.standard_error = estimate.standard_error.map(level);
+        }
+        self.pure_error_variance = self.pure_error_variance.map(square);
+        if let Some(curvature) = self.curvature.as_mut() {
+            curvature.factorial_mean = level(curvature.factorial_mean);
+            curvature.centre_mean = level(curvature.centre_mean);
+            curvature.difference = level(curvature.difference);
+            curvature.sum_of_squares = square(curvature.sum_of_squares);
+            curvature.centre_sd = curvature.centre_sd.map(level);
+            curvature.standard_error = curvature.standard_error.map(level);
+        }
+        if let Some(lenth) = self.lenth.as_mut() {
+            lenth.initial_scale = level(lenth.initial_scale);
+            lenth.pseudo_standard_error = level(lenth.pseudo_standard_error);
+            lenth.margin_of_error = level(lenth.margin_of_error);
+            lenth.simultaneous_margin_of_error = level(lenth.simultaneous_margin_of_error);
+        }
+        for point in self.normal_plot.iter_mut().chain(self.half_normal_plot.iter_mut()) {
+            point.value = level(point.value);
+        }
+        self
+    }
+}
+
+/// [`analyse_two_level_in_layout`] on responses whose squares stay in range.
+fn analyse_at_unit_scale(
     runs: &[Vec<f64>],
     responses: &[f64],
     layout: &RunLayout<'_>,

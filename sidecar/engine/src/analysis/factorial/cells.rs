@@ -102,7 +102,8 @@ pub(super) fn summarise(
                 n: group.n as usize,
                 mean: centred.centre + group.mean,
                 centred_mean: group.mean,
-                centred_ss: group.centred_ss.max(0.0),
+                centred_ss_scaled: group.centred_ss_scaled.max(0.0),
+                scale_exponent: group.scale_exponent,
             }
         })
         .collect();

@@ -54,10 +54,18 @@ pub(super) fn anova_lines(table: &crate::stats::linear_model::AnovaTable) -> Vec
         .collect()
 }
 
-pub(super) fn tables_agree(first: &[AnovaLine], second: &[AnovaLine], scale: f64) -> bool {
-    first.len() == second.len()
-        && first.iter().zip(second).all(|(a, b)| {
-            a.source == b.source && a.df == b.df && (a.sum_sq - b.sum_sq).abs() <= 1e-9 * (scale + a.sum_sq.abs())
+/// Whether two tables of the fit hold the same terms with the same df and sums of squares
+/// (to 1e-9 of the total), compared in the fit's scaled units.
+pub(super) fn tables_agree(
+    first: &crate::stats::linear_model::AnovaTable,
+    second: &crate::stats::linear_model::AnovaTable,
+    scale: f64,
+) -> bool {
+    first.rows.len() == second.rows.len()
+        && first.rows.iter().zip(&second.rows).all(|(a, b)| {
+            a.term == b.term
+                && a.df == b.df
+                && (a.sum_sq_scaled - b.sum_sq_scaled).abs() <= 1e-9 * (scale + a.sum_sq_scaled.abs())
         })
 }
 
@@ -73,8 +81,9 @@ pub(super) fn kway_model(
     let type_i = anova_lines(&fit.type_i);
     let type_ii = anova_lines(&fit.type_ii);
     let type_iii = anova_lines(&fit.type_iii);
-    let scale = fit.total.sum_sq.abs();
-    let types_coincide = tables_agree(&type_i, &type_ii, scale) && tables_agree(&type_ii, &type_iii, scale);
+    let scale = fit.total_ss_scaled.abs();
+    let types_coincide =
+        tables_agree(&fit.type_i, &fit.type_ii, scale) && tables_agree(&fit.type_ii, &fit.type_iii, scale);
     let types_note = if fit.is_balanced {
         "Every combination of levels has the same number of values (balanced data), so the Type I, II and III sums of squares are the same; read any of them.".to_string()
     } else if types_coincide {
@@ -101,9 +110,11 @@ pub(super) fn kway_model(
     if fit.lack_of_fit.df > 0 && fit.pure_error.df > 0 {
         let pure_ms = fit.pure_error.sum_sq / fit.pure_error.df as f64;
         let lack_ms = fit.lack_of_fit.sum_sq / fit.lack_of_fit.df as f64;
-        let f_value = (pure_ms > 0.0).then(|| lack_ms / pure_ms);
-        let p_value =
-            f_value.and_then(|f| crate::stats::dist::f_sf(f, fit.lack_of_fit.df as f64, fit.pure_error.df as f64).ok());
+        // From the scaled sums: the mean squares themselves may be beyond the arithmetic.
+        let (f_value, p_value) = match fit.lack_of_fit_test {
+            Some((f_value, p_value)) => (Some(f_value), p_value),
+            None => (None, None),
+        };
         error_lines.push(AnovaLine {
             source: "lack of fit".into(),
             df: fit.lack_of_fit.df,
@@ -137,7 +148,7 @@ pub(super) fn kway_model(
             levels: level_names(&cell_fit.levels),
             n: cell_fit.n,
             mean: cell_fit.observed_mean,
-            sd: (cell.n > 1).then(|| (cell.centred_ss / (cell.n - 1) as f64).sqrt()),
+            sd: cell.sd(),
             fitted: cell_fit.fitted.value,
             fitted_se: cell_fit.fitted.standard_error,
         })
@@ -202,7 +213,7 @@ pub(super) fn kway_model(
         error_lines,
         types_coincide,
         types_note,
-        residual_sd: fit.residual.mean_sq.map(f64::sqrt),
+        residual_sd: fit.residual_sd,
         residual_df: fit.residual.df,
         r_squared: fit.r_squared,
         type_iii_depends_on_coding: fit.type_iii_depends_on_coding,

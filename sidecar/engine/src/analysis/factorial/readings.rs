@@ -73,20 +73,24 @@ pub(super) fn read_model(
         &model.type_iii
     };
     let mut terms: Vec<&AnovaLine> = table.iter().collect();
-    terms.sort_by(|a, b| b.sum_sq.total_cmp(&a.sum_sq));
+    // Shares and order from the scaled sums of squares of the fit (the sums themselves
+    // may be beyond the arithmetic at extreme magnitudes).
+    let fit_table = if fit.is_balanced { &fit.type_i } else { &fit.type_iii };
+    let scaled_of = |line: &AnovaLine| fit_table.row(&line.source).map_or(line.sum_sq, |row| row.sum_sq_scaled);
+    terms.sort_by(|a, b| scaled_of(b).total_cmp(&scaled_of(a)));
     let blocks: BTreeSet<&str> = used
         .iter()
         .filter(|factor| factor.is_block)
         .map(|factor| factor.name.as_str())
         .collect();
-    let total = fit.total.sum_sq;
+    let total = fit.total_ss_scaled;
     for line in terms
         .iter()
         .filter(|line| !blocks.contains(line.source.as_str()))
         .take(3)
     {
         let share = if total > 0.0 {
-            line.sum_sq / total * 100.0
+            scaled_of(line) / total * 100.0
         } else {
             f64::NAN
         };

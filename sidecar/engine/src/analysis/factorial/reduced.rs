@@ -7,7 +7,7 @@ use nalgebra::{DMatrix, DVector};
 
 use crate::analysis::verdict::round_for_text;
 use crate::options::Direction;
-use crate::stats::accumulate::{centre_values, GroupAccumulator};
+use crate::stats::accumulate::{binary_exponent, centre_values, scale_by_power_of_two, GroupAccumulator};
 use crate::stats::dist::t_sf;
 use crate::stats::linear_model::{CellSummary, FactorialFit};
 use crate::stats::two_level::Word;
@@ -54,9 +54,13 @@ pub(super) struct RowFit {
     pub(super) coefficients: DVector<f64>,
     /// R of the QR of the weighted matrix
     pub(super) r: DMatrix<f64>,
-    pub(super) residual_ss: f64,
+    /// Residual sum of squares divided by `4^scale_exponent`.
+    pub(super) residual_ss_scaled: f64,
     pub(super) residual_df: usize,
-    pub(super) total_ss: f64,
+    /// Corrected total sum of squares divided by `4^scale_exponent`.
+    pub(super) total_ss_scaled: f64,
+    /// The power of two the deviations were divided by before squaring.
+    pub(super) scale_exponent: i32,
 }
 
 impl RowFit {
@@ -65,25 +69,54 @@ impl RowFit {
         let solution = self.r.transpose().solve_lower_triangular(row)?;
         Some(solution.norm())
     }
+
+    /// The residual standard deviation in the data's units, from the scaled sums (right
+    /// whenever it is itself a finite number); `None` without residual df.
+    pub(super) fn sigma(&self) -> Option<f64> {
+        (self.residual_df > 0).then(|| {
+            scale_by_power_of_two(
+                (self.residual_ss_scaled / self.residual_df as f64).sqrt(),
+                i64::from(self.scale_exponent),
+            )
+        })
+    }
+
+    /// `1 - residual / total` from the scaled sums; `None` without spread.
+    pub(super) fn r_squared(&self) -> Option<f64> {
+        (self.total_ss_scaled > 0.0).then(|| 1.0 - self.residual_ss_scaled / self.total_ss_scaled)
+    }
 }
 
 /// Weighted least squares by Householder QR: rows `x_c` (the first column the
 /// intercept), weights `n_c`, cell means as deviations from `centre` (exactly
-/// accumulated, see `stats::accumulate::centre_values`) and centred sums. The fit runs on
-/// the deviations, so a large offset costs no digits; `centre` is added back through the
-/// intercept. `None` when the columns are dependent or there are too few cells.
+/// accumulated, see `stats::accumulate::centre_values`) and centred sums held as
+/// `(sum / 4^e, e)`. The fit runs on the deviations, so a large offset costs no digits;
+/// they are divided by a power of two near the largest mean or within-cell spread before
+/// squaring, so no square overflows or underflows at any magnitude; `centre` is added
+/// back through the intercept. `None` when the columns are dependent or there are too
+/// few cells.
 pub(super) fn fit_rows(
     rows: &[Vec<f64>],
     counts: &[usize],
     centred_means: &[f64],
-    centred: &[f64],
+    centred: &[(f64, i32)],
     centre: f64,
 ) -> Option<RowFit> {
-    let means = centred_means;
     let n_columns = rows.first()?.len();
     if rows.len() < n_columns {
         return None;
     }
+    let exponent = centred_means
+        .iter()
+        .map(|mean| (mean.abs(), 0))
+        .chain(centred.iter().map(|&(ss, e)| (ss.sqrt(), e)))
+        .filter(|(value, _)| *value > 0.0 && value.is_finite())
+        .map(|(value, shift)| binary_exponent(value) + shift)
+        .max()
+        .unwrap_or(0)
+        .clamp(-1000, 1000);
+    let down = |value: f64| scale_by_power_of_two(value, -i64::from(exponent));
+    let means: Vec<f64> = centred_means.iter().map(|&mean| down(mean)).collect();
     let mut matrix = DMatrix::<f64>::zeros(rows.len(), n_columns);
     let mut response = DVector::<f64>::zeros(rows.len());
     for (index, row) in rows.iter().enumerate() {
@@ -103,24 +136,29 @@ pub(super) fn fit_rows(
         }
     }
     let q_transpose_y = qr.q().transpose() * &response;
-    let mut coefficients = r.solve_upper_triangular(&q_transpose_y)?;
-    let fitted = &matrix * &coefficients;
+    let scaled_coefficients = r.solve_upper_triangular(&q_transpose_y)?;
+    let fitted = &matrix * &scaled_coefficients;
+    let mut coefficients = scaled_coefficients.map(|value| scale_by_power_of_two(value, i64::from(exponent)));
     coefficients[0] += centre;
-    let within: f64 = centred.iter().sum();
+    let within: f64 = centred
+        .iter()
+        .map(|&(ss, e)| scale_by_power_of_two(ss, 2 * (i64::from(e) - i64::from(exponent))))
+        .sum();
     let lack: f64 = (&response - fitted).norm_squared();
     let n_total: usize = counts.iter().sum();
-    let grand = counts.iter().zip(means).map(|(&n, &m)| n as f64 * m).sum::<f64>() / n_total as f64;
+    let grand = counts.iter().zip(&means).map(|(&n, &m)| n as f64 * m).sum::<f64>() / n_total as f64;
     let between: f64 = counts
         .iter()
-        .zip(means)
+        .zip(&means)
         .map(|(&n, &m)| n as f64 * (m - grand).powi(2))
         .sum();
     Some(RowFit {
         coefficients,
         r,
-        residual_ss: within + lack,
+        residual_ss_scaled: within + lack,
         residual_df: n_total.saturating_sub(n_columns),
-        total_ss: within + between,
+        total_ss_scaled: within + between,
+        scale_exponent: exponent,
     })
 }
 
@@ -236,12 +274,16 @@ pub(super) fn reduced_general(input: &ReducedInput<'_>, alpha: f64) -> Option<Re
         .collect();
     let counts: Vec<usize> = input.cells.iter().map(|c| c.n).collect();
     let means: Vec<f64> = input.cells.iter().map(|c| c.centred_mean).collect();
-    let centred: Vec<f64> = input.cells.iter().map(|c| c.centred_ss).collect();
+    let centred: Vec<(f64, i32)> = input
+        .cells
+        .iter()
+        .map(|c| (c.centred_ss_scaled, c.scale_exponent))
+        .collect();
     // The cells hold means about one centre (`cells::summarise`); the centre is recovered
     // from the first cell to within half a unit in the last place of the data.
     let centre = input.cells.first().map_or(0.0, |cell| cell.mean - cell.centred_mean);
     let row_fit = fit_rows(&rows, &counts, &means, &centred, centre)?;
-    let sigma = (row_fit.residual_df > 0).then(|| (row_fit.residual_ss / row_fit.residual_df as f64).sqrt());
+    let sigma = row_fit.sigma();
     let fitted_cells: Vec<f64> = rows.iter().map(|row| dot(row, &row_fit.coefficients)).collect();
     let residual_check = residual_check(input, &fitted_cells, sigma);
     // Best settings over the treatment factors in the model (blocks averaged out).
@@ -304,7 +346,7 @@ pub(super) fn reduced_general(input: &ReducedInput<'_>, alpha: f64) -> Option<Re
         coefficients: coefficient_lines(&names, &row_fit, sigma),
         residual_sd: sigma,
         residual_df: row_fit.residual_df,
-        r_squared: (row_fit.total_ss > 0.0).then(|| 1.0 - row_fit.residual_ss / row_fit.total_ss),
+        r_squared: row_fit.r_squared(),
         residual_check,
         best,
         outside_trial,
@@ -600,7 +642,7 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
         let stats = accumulator.finish();
         counts.push(group.len());
         means.push(stats[0].mean);
-        centred.push(stats[0].centred_ss.max(0.0));
+        centred.push((stats[0].centred_ss_scaled.max(0.0), stats[0].scale_exponent));
         rows.push(column_row(
             &columns,
             input.used,
@@ -610,7 +652,7 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
         ));
     }
     let row_fit = fit_rows(&rows, &counts, &means, &centred, centring.centre)?;
-    let sigma = (row_fit.residual_df > 0).then(|| (row_fit.residual_ss / row_fit.residual_df as f64).sqrt());
+    let sigma = row_fit.sigma();
     let fitted_cells: Vec<f64> = rows.iter().map(|row| dot(row, &row_fit.coefficients)).collect();
     let residuals: Vec<f64> = records
         .iter()
@@ -694,7 +736,7 @@ pub(super) fn reduced_two_level(input: &ReducedInput<'_>, two: &TwoLevelOutcome,
         coefficients: coefficient_lines(&column_names, &row_fit, sigma),
         residual_sd: sigma,
         residual_df: row_fit.residual_df,
-        r_squared: (row_fit.total_ss > 0.0).then(|| 1.0 - row_fit.residual_ss / row_fit.total_ss),
+        r_squared: row_fit.r_squared(),
         residual_check,
         best,
         outside_trial,

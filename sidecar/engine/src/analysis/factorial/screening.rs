@@ -2,6 +2,7 @@
 //! method, curvature from centre points and advice on aliasing.
 
 use crate::analysis::verdict::{p_equals, round_for_text};
+use crate::stats::accumulate::{binary_exponent, scale_by_power_of_two};
 use crate::stats::two_level::{detect_design, resolution_numeral, DesignKind, DesignSummary, Word, FACTOR_LETTERS};
 use crate::stats::two_level_analysis::{
     analyse_two_level_in_layout, contrast_effect, AnalysisOptions, RunLayout, TwoLevelAnalysis,
@@ -304,12 +305,20 @@ fn judgement(analysis: &TwoLevelAnalysis, blocked: bool, has_centre: bool) -> Ju
         .collect();
     let n_pooled = pooled.iter().filter(|p| **p).count();
     if n_pooled >= MIN_POOLED_INTERACTION_DF && n_pooled < n_effects {
-        let sum_sq: f64 = analysis
+        // Root mean square of the pooled effects, each divided by a power of two near the
+        // largest first, so no square overflows or underflows at any magnitude.
+        let pooled_effects: Vec<f64> = analysis
             .effects
             .iter()
             .zip(&pooled)
             .filter(|(_, p)| **p)
-            .map(|(e, _)| e.effect * e.effect)
+            .map(|(e, _)| e.effect)
+            .collect();
+        let largest = pooled_effects.iter().fold(0.0_f64, |largest, e| largest.max(e.abs()));
+        let exponent = if largest > 0.0 { binary_exponent(largest) } else { 0 };
+        let scaled_sum_sq: f64 = pooled_effects
+            .iter()
+            .map(|&e| scale_by_power_of_two(e, -i64::from(exponent)).powi(2))
             .sum();
         let names: Vec<String> = analysis
             .effects
@@ -319,7 +328,11 @@ fn judgement(analysis: &TwoLevelAnalysis, blocked: bool, has_centre: bool) -> Ju
             .map(|(e, _)| e.chain.leader().to_string())
             .collect();
         return Judgement {
-            se: Some((sum_sq / n_pooled as f64).sqrt()).filter(|se| *se > 0.0),
+            se: Some(scale_by_power_of_two(
+                (scaled_sum_sq / n_pooled as f64).sqrt(),
+                i64::from(exponent),
+            ))
+            .filter(|se| *se > 0.0),
             df: n_pooled,
             pooled,
             basis: ErrorBasis {

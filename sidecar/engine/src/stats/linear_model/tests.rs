@@ -310,7 +310,8 @@ fn random_cells(rng: &mut Lcg, factors: &[FactorSpec], counts: impl Fn(&mut Lcg)
                 n,
                 mean,
                 centred_mean: mean,
-                centred_ss: if n > 1 { (n - 1) as f64 * rng.next_unit() } else { 0.0 },
+                centred_ss_scaled: if n > 1 { (n - 1) as f64 * rng.next_unit() } else { 0.0 },
+                scale_exponent: 0,
             }
         })
         .collect()
@@ -462,8 +463,8 @@ fn summarise_cells_gives_counts_means_and_centred_sums() {
     assert_eq!(cells[0].levels, vec![0, 1]);
     assert_eq!(cells[0].n, 3);
     assert!((cells[0].mean - 3.0).abs() < 1e-15);
-    assert!((cells[0].centred_ss - 14.0).abs() < 1e-13);
-    assert_eq!((cells[1].n, cells[1].centred_ss), (1, 0.0));
+    assert!((cells[0].centred_ss() - 14.0).abs() < 1e-13);
+    assert_eq!((cells[1].n, cells[1].centred_ss()), (1, 0.0));
     assert!(summarise_cells(&levels, &values[..3]).is_err());
     assert!(summarise_cells(&[], &[]).is_err());
 }
@@ -476,7 +477,8 @@ fn bad_input_is_refused() {
         n: 2,
         mean: 1.0,
         centred_mean: 1.0,
-        centred_ss: 0.5,
+        centred_ss_scaled: 0.5,
+        scale_exponent: 0,
     };
     let other = CellSummary {
         levels: vec![1, 1],
@@ -519,7 +521,8 @@ fn bad_input_is_refused() {
         ),
         (
             vec![CellSummary {
-                centred_ss: -1.0,
+                centred_ss_scaled: -1.0,
+                scale_exponent: 0,
                 ..good.clone()
             }],
             factors.to_vec(),
@@ -529,7 +532,8 @@ fn bad_input_is_refused() {
         (
             vec![CellSummary {
                 n: 1,
-                centred_ss: 0.0,
+                centred_ss_scaled: 0.0,
+                scale_exponent: 0,
                 ..good.clone()
             }],
             factors.to_vec(),
@@ -556,14 +560,16 @@ fn wholly_aliased_terms_are_dropped_from_the_tables() {
             n: 2,
             mean: 3.0,
             centred_mean: 3.0,
-            centred_ss: 0.5,
+            centred_ss_scaled: 0.5,
+            scale_exponent: 0,
         },
         CellSummary {
             levels: vec![1, 1],
             n: 3,
             mean: 5.0,
             centred_mean: 5.0,
-            centred_ss: 1.0,
+            centred_ss_scaled: 1.0,
+            scale_exponent: 0,
         },
     ];
     let fit = fit_factorial(&cells, &factors, &ModelSpec::default()).expect("fit");
