@@ -720,6 +720,13 @@ fn one_way_lead_reason(checks: &ModelChecks, smallest_n: u64, non_normal: bool, 
     } else if checks.sd_ratio.is_some_and(|ratio| ratio > UNEQUAL_SPREAD_RATIO) {
         // A ratio of SDs swollen by a stray value, which the median-based test discounts.
         "The spreads show no clear difference by the Brown-Forsythe test".to_string()
+    } else if checks.brown_forsythe_spread.is_none() && checks.sd_ratio.is_none() {
+        // Not "alike" when they could not be compared at all.
+        if smallest_n < 2 {
+            "The spreads could not be compared (a condition has only one value)".to_string()
+        } else {
+            "The spreads could not be compared (the analysis notes say why)".to_string()
+        }
     } else {
         "The spreads look alike".to_string()
     };
@@ -742,6 +749,28 @@ fn one_way_lead_reason(checks: &ModelChecks, smallest_n: u64, non_normal: bool, 
 mod tests {
     use super::*;
     use crate::analysis::oneway::fit_one_way;
+
+    /// With a condition of one value the spread tests cannot be made (each needs two
+    /// values a condition, common practice), and the reason for the lead says so rather
+    /// than calling the spreads alike.
+    #[test]
+    fn spreads_that_cannot_be_compared_are_not_called_alike() {
+        let names: Vec<String> = ["140", "150", "160"].iter().map(|name| name.to_string()).collect();
+        let group_values = vec![vec![18.2, 18.9, 17.8, 18.5], vec![20.1, 19.7, 20.4, 19.9], vec![21.0]];
+        let values: Vec<f64> = group_values.iter().flatten().copied().collect();
+        let groups = [0, 0, 0, 0, 1, 1, 1, 1, 2];
+        let records = vec![vec![0, 1, 2, 3], vec![4, 5, 6, 7], vec![8]];
+        let fit = fit_one_way(&names, &groups, &values, 0.95, &[]).expect("fits");
+        let assessment = assess(&fit, &group_values, &records, &AssessmentOptions::default());
+        assert!(assessment.checks.brown_forsythe_spread.is_none());
+        assert!(
+            assessment
+                .lead_reason
+                .starts_with("The spreads could not be compared (a condition has only one value)"),
+            "{}",
+            assessment.lead_reason
+        );
+    }
 
     /// scipy 1.17.1: inverting `scipy.stats.ncf.cdf(F, 2, 12, nc)` at 0.975 and
     /// 0.025 with `brentq` for F = 7.137827822120864 (f_oneway of the data below)
