@@ -8,9 +8,12 @@
 
 use std::path::Path;
 
-use workbook_io::testing::{biff12_record, biff8_record, xls_file, xls_stream, xlsb_parts, zip_of};
+use workbook_io::testing::{
+    biff12_record, biff8_extern_sheet, biff8_name, biff8_record, biff8_self_supbook, ptg_area3d, xls_book_stream,
+    xls_file, xls_stream, xlsb_parts, zip_of,
+};
 
-use crate::common::{sha256_of, temp_folder};
+use crate::common::{sha256_of, temp_folder, trialyst};
 use crate::hostile::{run_capped, STALL_LIMIT};
 
 /// Rows 2..=21 of a two-column trial: Line (upper/lower) and Width (mm), invented.
@@ -140,4 +143,73 @@ fn damaged_xlsb_cells_are_findings_at_their_cells() {
     let parts = xlsb_parts(&sheet, &strings);
     std::fs::write(folder.path().join("damaged.xlsb"), zip_of(&parts)).expect("written");
     check_findings(folder.path(), "damaged.xlsb");
+}
+
+#[test]
+fn a_defined_name_of_a_damaged_xls_chooses_the_table() {
+    // Two sheets, each with a trial table: "First" (30 records at A1, with a
+    // Number record cut short, so calamine refuses the workbook and the
+    // tolerant reader reads it) and "Second" (20 records at C3:D23), which
+    // the defined name "Widths" (MS-XLS 2.4.150, PtgArea3d 2.5.198.28 through
+    // ExternSheet 2.4.106 and SupBook 2.4.271) stands for.
+    let folder = temp_folder();
+    let strings = ["Line", "Width (mm)", "upper", "lower"];
+    let label_sst = |row: u16, col: u16, index: u32| {
+        let mut body = xls_head(row, col);
+        body.extend(index.to_le_bytes());
+        biff8_record(0x00FD, &body) // LabelSst (2.4.149)
+    };
+    let number = |row: u16, col: u16, value: f64| {
+        let mut body = xls_head(row, col);
+        body.extend(value.to_le_bytes());
+        biff8_record(0x0203, &body) // Number (2.4.180)
+    };
+    let table = |top: u16, left: u16, records: u16| {
+        let mut cells = vec![label_sst(top, left, 0), label_sst(top, left + 1, 1)];
+        for record in 1..=records {
+            cells.push(label_sst(top + record, left, 2 + u32::from(record % 2)));
+            cells.push(number(top + record, left + 1, width(record)));
+        }
+        cells
+    };
+    let mut first = table(0, 0, 30);
+    let mut short = xls_head(40, 5);
+    short.extend([0u8; 4]); // 10 bytes of a 14-byte Number
+    first.push(biff8_record(0x0203, &short));
+    let second = table(2, 2, 20);
+    let globals = [
+        biff8_self_supbook(2),
+        biff8_extern_sheet(&[(0, 1, 1)]),
+        biff8_name(0, 0, "Widths", &ptg_area3d(0x3B, 0, (2, 22), (2, 3))),
+    ];
+    let stream = xls_book_stream(&strings, &globals, &[("First", &first), ("Second", &second)], None);
+    let path = folder.path().join("named.xls");
+    std::fs::write(&path, xls_file(&stream)).expect("written");
+    let hash_before = sha256_of(&path);
+    let by_name = trialyst(
+        folder.path(),
+        &["run", "--json", "--no-write", "--range", "Widths", "named.xls"],
+    );
+    by_name.expect_code(0);
+    let line: serde_json::Value = serde_json::from_str(by_name.stdout().trim()).expect("one JSON line");
+    assert_eq!(line["table"]["n_records"], 20, "{}", by_name.report());
+    assert_eq!(line["table"]["range"], "C3:D23", "{}", by_name.report());
+    // Without the name, the larger table (the first sheet's) is analysed.
+    let by_default = trialyst(folder.path(), &["run", "--json", "--no-write", "named.xls"]);
+    by_default.expect_code(0);
+    let line: serde_json::Value = serde_json::from_str(by_default.stdout().trim()).expect("one JSON line");
+    assert_eq!(line["table"]["n_records"], 30, "{}", by_default.report());
+    // A name the workbook does not hold is refused naming the file and the name.
+    let unknown = trialyst(
+        folder.path(),
+        &["run", "--json", "--no-write", "--range", "Heights", "named.xls"],
+    );
+    assert_ne!(unknown.code(), 0, "{}", unknown.report());
+    let said = unknown.stdout() + &unknown.stderr();
+    assert!(
+        said.contains("Heights") && said.contains("named.xls"),
+        "{}",
+        unknown.report()
+    );
+    assert_eq!(sha256_of(&path), hash_before, "the file was changed");
 }

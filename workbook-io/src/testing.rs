@@ -18,6 +18,19 @@ pub fn biff8_record(kind: u16, body: &[u8]) -> Vec<u8> {
 /// BOF, `cells`, and EOF, or instead of EOF the bytes of `cut` (a stream
 /// that ends inside a record).
 pub fn xls_stream(strings: &[&str], cells: &[Vec<u8>], cut: Option<Vec<u8>>) -> Vec<u8> {
+    xls_book_stream(strings, &[], &[("Trial", cells)], cut)
+}
+
+/// A BIFF8 Workbook stream of several worksheets: globals (BOF, an SST of
+/// `strings` in one-byte characters, the records of `globals`, a BoundSheet8
+/// per sheet, EOF), then each sheet: BOF, its cell records and EOF; the last
+/// sheet ends with the bytes of `cut` instead of EOF when given.
+pub fn xls_book_stream(
+    strings: &[&str],
+    globals: &[Vec<u8>],
+    sheets: &[(&str, &[Vec<u8>])],
+    cut: Option<Vec<u8>>,
+) -> Vec<u8> {
     // BOF (MS-XLS 2.4.21): BIFF8, globals (0x0005) or worksheet (0x0010).
     let bof = |dt: u16| {
         let mut body = 0x0600u16.to_le_bytes().to_vec();
@@ -33,26 +46,82 @@ pub fn xls_stream(strings: &[&str], cells: &[Vec<u8>], cut: Option<Vec<u8>>) -> 
         sst.push(0);
         sst.extend(text.as_bytes());
     }
-    let sst = biff8_record(0x00FC, &sst);
-    let name = b"Trial";
-    let globals_len = bof(5).len() + sst.len() + (4 + 8 + name.len()) + 4;
-    // BoundSheet8 (2.4.28): the sheet's BOF position, visible, worksheet, name.
-    let mut bound = (globals_len as u32).to_le_bytes().to_vec();
-    bound.extend([0u8, 0u8, name.len() as u8, 0u8]);
-    bound.extend(name);
-    let mut stream = bof(5);
-    stream.extend(sst);
-    stream.extend(biff8_record(0x0085, &bound));
-    stream.extend(biff8_record(0x000A, &[]));
-    stream.extend(bof(0x10));
-    for cell in cells {
-        stream.extend(cell);
+    let mut head = bof(5);
+    head.extend(biff8_record(0x00FC, &sst));
+    for record in globals {
+        head.extend(record);
     }
-    match cut {
-        Some(partial) => stream.extend(partial),
-        None => stream.extend(biff8_record(0x000A, &[])),
+    let bound_len: usize = sheets.iter().map(|(name, _)| 4 + 8 + name.len()).sum();
+    let mut offset = head.len() + bound_len + 4;
+    let mut bodies = Vec::new();
+    for (index, (name, cells)) in sheets.iter().enumerate() {
+        // BoundSheet8 (2.4.28): the sheet's BOF position, visible, worksheet, name.
+        let mut bound = (offset as u32).to_le_bytes().to_vec();
+        bound.extend([0u8, 0u8, name.len() as u8, 0u8]);
+        bound.extend(name.as_bytes());
+        head.extend(biff8_record(0x0085, &bound));
+        let mut body = bof(0x10);
+        for cell in cells.iter() {
+            body.extend(cell);
+        }
+        match (&cut, index + 1 == sheets.len()) {
+            (Some(partial), true) => body.extend(partial),
+            _ => body.extend(biff8_record(0x000A, &[])),
+        }
+        offset += body.len();
+        bodies.push(body);
     }
-    stream
+    head.extend(biff8_record(0x000A, &[]));
+    for body in bodies {
+        head.extend(body);
+    }
+    head
+}
+
+/// A SupBook record (MS-XLS 2.4.271) that stands for the workbook holding
+/// it: its sheet count, then 0x0401.
+pub fn biff8_self_supbook(sheet_count: u16) -> Vec<u8> {
+    let mut body = sheet_count.to_le_bytes().to_vec();
+    body.extend(0x0401u16.to_le_bytes());
+    biff8_record(0x01AE, &body)
+}
+
+/// An ExternSheet record (MS-XLS 2.4.106): the count, then each XTI entry
+/// (supporting book, first sheet, last sheet).
+pub fn biff8_extern_sheet(entries: &[(u16, i16, i16)]) -> Vec<u8> {
+    let mut body = (entries.len() as u16).to_le_bytes().to_vec();
+    for (book, first, last) in entries {
+        body.extend(book.to_le_bytes());
+        body.extend(first.to_le_bytes());
+        body.extend(last.to_le_bytes());
+    }
+    biff8_record(0x0017, &body)
+}
+
+/// A Lbl record (MS-XLS 2.4.150) with `flags`, of the workbook (`scope` 0)
+/// or of sheet `scope` (1-based), its one-byte-character name and `formula`.
+pub fn biff8_name(flags: u16, scope: u16, name: &str, formula: &[u8]) -> Vec<u8> {
+    let mut body = flags.to_le_bytes().to_vec();
+    body.push(0); // chKey
+    body.push(name.len() as u8); // cch
+    body.extend((formula.len() as u16).to_le_bytes()); // cce
+    body.extend(0u16.to_le_bytes());
+    body.extend(scope.to_le_bytes()); // itab
+    body.extend([0u8; 4]);
+    body.push(0); // one-byte characters
+    body.extend(name.as_bytes());
+    body.extend(formula);
+    biff8_record(0x0018, &body)
+}
+
+/// A PtgArea3d (MS-XLS 2.5.198.28) of class `ptg` (0x3B, 0x5B or 0x7B): the
+/// XTI index, first and last row, first and last column (absolute).
+pub fn ptg_area3d(ptg: u8, xti: u16, rows: (u16, u16), cols: (u16, u16)) -> Vec<u8> {
+    let mut formula = vec![ptg];
+    for field in [xti, rows.0, rows.1, cols.0, cols.1] {
+        formula.extend(field.to_le_bytes());
+    }
+    formula
 }
 
 /// A compound file holding `stream` as its Workbook stream: an xls file.

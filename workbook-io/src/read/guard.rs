@@ -129,11 +129,21 @@ fn check_xls_sheet_sizes(path: &Path, bytes: &[u8], limits: &ReadLimits) -> Resu
         .open_stream(stream_name)
         .and_then(|reader| reader.take(bytes.len() as u64).read_to_end(&mut stream))
         .map_err(|error| corrupt(format!("the Workbook stream cannot be read ({error})")))?;
+    walk_xls_sheets(path, &stream, limits, &mut 0)
+}
 
+/// The work of [`check_xls_sheet_sizes`] on the Workbook stream itself,
+/// counting the records it visits in `visited`.
+fn walk_xls_sheets(path: &Path, stream: &[u8], limits: &ReadLimits, visited: &mut u64) -> Result<(), ReadError> {
+    let corrupt = |detail: String| ReadError::Corrupt {
+        path: path.to_path_buf(),
+        detail,
+    };
     // Globals: BoundSheet8 records (0x0085) give each sheet's stream offset
     // and name, up to the first EOF (0x000A).
     let mut sheets: Vec<(usize, String)> = Vec::new();
-    for (record_type, body) in biff_records(&stream, 0) {
+    for (record_type, body, _) in biff_records(stream, 0) {
+        *visited += 1;
         match record_type {
             0x0085 if body.len() >= 8 => {
                 let offset = u32::from_le_bytes([body[0], body[1], body[2], body[3]]) as usize;
@@ -152,6 +162,15 @@ fn check_xls_sheet_sizes(path: &Path, bytes: &[u8], limits: &ReadLimits) -> Resu
             )));
         }
     }
+    // The parser walks each listed sheet from its start to its EOF; sheets
+    // that start inside one another, or one place listed many times, would
+    // make it (and this walk) cover the same records again and again, and
+    // it keeps every sheet it walks. Sound sheets lie apart and cover the
+    // stream at most once, so more than twice is refused, and this walk
+    // stays linear in the stream's length.
+    let budget = stream.len().saturating_mul(2);
+    let mut walked = 0usize;
+    let listed = sheets.len();
     for (offset, name) in sheets {
         let too_large = |what: String| ReadError::TooLarge {
             path: path.to_path_buf(),
@@ -161,7 +180,18 @@ fn check_xls_sheet_sizes(path: &Path, bytes: &[u8], limits: &ReadLimits) -> Resu
         let mut seen_sheet_bof = false;
         let mut depth = 0usize;
         let mut span: Option<(u32, u32, u32, u32)> = None;
-        for (record_type, body) in biff_records(&stream, offset) {
+        let mut sheet_end = offset;
+        for (record_type, body, end) in biff_records(stream, offset) {
+            *visited += 1;
+            sheet_end = end;
+            if walked + (end - offset) > budget {
+                return Err(corrupt(format!(
+                    "its sheet list is damaged: the {listed} sheets it lists start inside one another or at one \
+                     place, so reading them would cover the Workbook stream's {} bytes more than twice (stopped at \
+                     sheet '{name}')",
+                    stream.len()
+                )));
+            }
             // Nested substreams (charts) are skipped by the parser; so here.
             if depth > 0 {
                 match record_type {
@@ -233,14 +263,16 @@ fn check_xls_sheet_sizes(path: &Path, bytes: &[u8], limits: &ReadLimits) -> Resu
                 _ => {}
             }
         }
+        walked += sheet_end - offset;
     }
     Ok(())
 }
 
-/// The records of a BIFF stream from `offset`: (type, body), stopping at the
-/// first record that runs past the end. Continuation records (0x003C) belong
-/// to the record before them and are passed over.
-fn biff_records(stream: &[u8], offset: usize) -> impl Iterator<Item = (u16, &[u8])> {
+/// The records of a BIFF stream from `offset`: (type, body, the position
+/// after it), stopping at the first record that runs past the end.
+/// Continuation records (0x003C) belong to the record before them and are
+/// passed over.
+fn biff_records(stream: &[u8], offset: usize) -> impl Iterator<Item = (u16, &[u8], usize)> {
     let mut position = offset;
     std::iter::from_fn(move || loop {
         let header = stream.get(position..position.checked_add(4)?)?;
@@ -249,7 +281,7 @@ fn biff_records(stream: &[u8], offset: usize) -> impl Iterator<Item = (u16, &[u8
         let body = stream.get(position + 4..position + 4 + length)?;
         position += 4 + length;
         if record_type != 0x003C {
-            return Some((record_type, body));
+            return Some((record_type, body, position));
         }
     })
 }
@@ -802,7 +834,98 @@ fn read_varint(bytes: &[u8], start: usize, max_bytes: usize) -> Option<(u32, usi
 
 #[cfg(test)]
 mod tests {
-    use super::{attribute_value, scan_xml_tags, OdsMeasure};
+    use super::{attribute_value, scan_xml_tags, walk_xls_sheets, OdsMeasure};
+    use crate::read::{ReadError, ReadLimits};
+    use crate::testing::biff8_record;
+
+    /// A Workbook stream (MS-XLS 2.4.21 BOF, 2.4.28 BoundSheet8, 2.4.180
+    /// Number, 2.4.103 EOF) of one worksheet of `cells` numbers whose sheet
+    /// list has `sheets` entries: the first at the sheet's BOF, the others at
+    /// evenly spaced Number records inside it (or, with `same_place`, all at
+    /// the BOF). Returns the stream and how many records it holds.
+    fn listed_inside_one_sheet(sheets: usize, cells: usize, same_place: bool) -> (Vec<u8>, u64) {
+        let bof = |kind: u16| {
+            let mut body = 0x0600u16.to_le_bytes().to_vec();
+            body.extend(kind.to_le_bytes());
+            body.extend([0u8; 12]);
+            biff8_record(0x0809, &body)
+        };
+        let name = |index: usize| format!("S{index:05}");
+        let bound_len: usize = (0..sheets).map(|index| 4 + 8 + name(index).len()).sum();
+        let sheet_start = bof(5).len() + bound_len + 4;
+        let first_cell = sheet_start + bof(0x10).len();
+        let number_len = 4 + 14;
+        let mut stream = bof(5);
+        for index in 0..sheets {
+            let offset = if index == 0 || same_place {
+                sheet_start
+            } else {
+                first_cell + number_len * (index * cells / sheets)
+            };
+            let mut body = (offset as u32).to_le_bytes().to_vec();
+            body.extend([0u8, 0u8, name(index).len() as u8, 0u8]);
+            body.extend(name(index).as_bytes());
+            stream.extend(biff8_record(0x0085, &body));
+        }
+        stream.extend(biff8_record(0x000A, &[]));
+        assert_eq!(stream.len(), sheet_start);
+        stream.extend(bof(0x10));
+        for cell in 0..cells {
+            // Rows 1 to 65,536 of columns A, B, ...: a rectangle well under the cap.
+            let mut body = ((cell % 65_536) as u16).to_le_bytes().to_vec();
+            body.extend(((cell / 65_536) as u16).to_le_bytes());
+            body.extend(0u16.to_le_bytes());
+            body.extend((cell as f64).to_le_bytes());
+            stream.extend(biff8_record(0x0203, &body));
+        }
+        stream.extend(biff8_record(0x000A, &[]));
+        (stream, (sheets + cells + 4) as u64)
+    }
+
+    #[test]
+    fn sheets_listed_inside_one_sheet_are_walked_in_linear_time() {
+        // 2,000 sheet entries into one sheet of 2 MB (116,508 Number records):
+        // each walked from its start to the sheet's end, as the parser walks
+        // them, visited 116,571,255 records (984 times the stream's 118,512).
+        let (stream, records) = listed_inside_one_sheet(2_000, 116_508, false);
+        assert!(stream.len() > 2_000_000);
+        let path = std::path::Path::new("overlap.xls");
+        let mut visited = 0;
+        match walk_xls_sheets(path, &stream, &ReadLimits::default(), &mut visited) {
+            Err(ReadError::Corrupt { detail, .. }) => {
+                assert!(
+                    detail.contains("sheet list is damaged") && detail.contains("'S"),
+                    "{detail}"
+                );
+            }
+            other => panic!("{other:?}"),
+        }
+        assert!(visited <= 3 * records, "{visited} records visited of {records}");
+        // All 2,000 at the sheet's own start: the same sheet 2,000 times over.
+        let (stream, records) = listed_inside_one_sheet(2_000, 116_508, true);
+        let mut visited = 0;
+        let outcome = walk_xls_sheets(path, &stream, &ReadLimits::default(), &mut visited);
+        assert!(matches!(outcome, Err(ReadError::Corrupt { .. })), "{outcome:?}");
+        assert!(visited <= 3 * records, "{visited} records visited of {records}");
+    }
+
+    #[test]
+    fn sheets_that_lie_apart_or_one_listed_twice_pass() {
+        // The same sheet listed twice at its start covers the stream less
+        // than twice over; a sheet listed three times of a stream it fills does not.
+        for (sheets, passes) in [(1, true), (2, true), (3, false)] {
+            let (stream, records) = listed_inside_one_sheet(sheets, 50_000, true);
+            let mut visited = 0;
+            let outcome = walk_xls_sheets(
+                std::path::Path::new("twice.xls"),
+                &stream,
+                &ReadLimits::default(),
+                &mut visited,
+            );
+            assert_eq!(outcome.is_ok(), passes, "{sheets} entries: {outcome:?}");
+            assert!(visited <= sheets as u64 * records, "{visited}");
+        }
+    }
 
     fn measure(xml: &str) -> Option<(String, u64, u64)> {
         let mut measure = OdsMeasure::default();

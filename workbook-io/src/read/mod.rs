@@ -15,6 +15,9 @@ mod sheet_xml_tests;
 mod xls_cells;
 #[cfg(test)]
 mod xls_cells_tests;
+mod xls_names;
+#[cfg(test)]
+mod xls_names_tests;
 mod xlsb_cells;
 #[cfg(test)]
 mod xlsb_cells_tests;
@@ -660,7 +663,7 @@ fn own_xls_workbook(path: &Path, book: xls_cells::XlsBook, limits: &ReadLimits) 
                 visible: sheet.visible,
             })
             .collect(),
-        defined_names: Vec::new(),
+        defined_names: book.names.clone(),
         inner: None,
         own_xls: Some(book),
         limits: limits.clone(),

@@ -12,6 +12,9 @@
 //! empty) become cells. A record whose content does not fit its type becomes
 //! an unreadable cell at its own address (an error cell whose text describes
 //! it and does not start with '#'), and the rest of the sheet is still read.
+//! Defined names (Lbl) whose formula is one reference to a rectangle of one
+//! sheet of this workbook are read too, so that a range can be given by name;
+//! any other defined name is passed over.
 //!
 //! Every length is checked before it is used: nothing here indexes past a
 //! slice, and nothing is allocated from a count the file declares (strings
@@ -23,6 +26,7 @@ use std::path::Path;
 use crate::cell::{CellPos, CellRect, CellValue};
 
 use super::sheet_xml::{is_builtin_date_id, is_date_format};
+use super::xls_names::{defined_name, References, SELF_SUPPORTING_BOOK};
 use super::GridBuilder;
 
 /// Why the workbook could not be read here either.
@@ -54,6 +58,9 @@ pub(crate) struct XlsBook {
     /// For each XF record in order: whether its number format shows dates.
     date_xfs: Vec<bool>,
     pub sheets: Vec<XlsSheet>,
+    /// Defined names and the range each stands for (`'Sheet'!A1:C9`),
+    /// workbook-wide names before names of one sheet.
+    pub names: Vec<(String, String)>,
 }
 
 /// One BIFF record: its type, its body and the bodies of the CONTINUE
@@ -111,7 +118,7 @@ fn records(stream: &[u8], offset: usize) -> impl Iterator<Item = Record<'_>> {
     })
 }
 
-fn u16_at(bytes: &[u8], at: usize) -> Option<u16> {
+pub(super) fn u16_at(bytes: &[u8], at: usize) -> Option<u16> {
     bytes.get(at..at + 2).map(|two| u16::from_le_bytes([two[0], two[1]]))
 }
 
@@ -129,14 +136,14 @@ fn f64_at(bytes: &[u8], at: usize) -> Option<f64> {
 /// A reader over a record body and its CONTINUE bodies, for strings that may
 /// cross from one to the next (MS-XLS 2.5.293, 2.4.58: characters that cross
 /// start the next body with a fresh flags byte).
-struct Segments<'a> {
+pub(super) struct Segments<'a> {
     parts: Vec<&'a [u8]>,
     part: usize,
     at: usize,
 }
 
 impl<'a> Segments<'a> {
-    fn new(parts: Vec<&'a [u8]>) -> Self {
+    pub(super) fn new(parts: Vec<&'a [u8]>) -> Self {
         Self { parts, part: 0, at: 0 }
     }
 
@@ -164,7 +171,7 @@ impl<'a> Segments<'a> {
         Some(byte)
     }
 
-    fn u16(&mut self) -> Option<u16> {
+    pub(super) fn u16(&mut self) -> Option<u16> {
         Some(u16::from_le_bytes([self.byte()?, self.byte()?]))
     }
 
@@ -321,7 +328,9 @@ impl XlsBook {
             strings: Vec::new(),
             date_xfs: Vec::new(),
             sheets: Vec::new(),
+            names: Vec::new(),
         };
+        let mut references = References::default();
         let mut date_formats: Vec<u16> = Vec::new();
         let mut xf_formats: Vec<u16> = Vec::new();
         let mut seen_bof = false;
@@ -397,6 +406,14 @@ impl XlsBook {
                         }
                     }
                 }
+                // SupBook (MS-XLS 2.4.271): whether it stands for this workbook.
+                0x01AE => references
+                    .supporting_books
+                    .push(u16_at(record.body, 2) == Some(SELF_SUPPORTING_BOOK)),
+                // ExternSheet (2.4.106): the XTI entries, as far as they are there.
+                0x0017 => references.read_extern_sheet(record.body, &record.continues),
+                // Lbl (2.4.150).
+                0x0018 => references.names.extend(defined_name(record.body)),
                 0x000A => break,
                 _ => {}
             }
@@ -404,6 +421,7 @@ impl XlsBook {
         if !seen_bof {
             return Err(XlsRefusal::Unreadable);
         }
+        book.names = references.resolve(&book.sheets);
         book.date_xfs = xf_formats
             .iter()
             .map(|&id| is_builtin_date_id(u32::from(id)) || date_formats.contains(&id))
