@@ -81,6 +81,29 @@ struct SetAside {
     reason: String,
 }
 
+/// Reports a column kept as context (a finding at its header) and lists it among the
+/// columns set aside in the choice line, with `reason` in a few words.
+fn set_column_aside(
+    (findings, set_aside): (&mut Findings, &mut Vec<SetAside>),
+    (sheet, header_row, column): (&str, u32, &header::HeaderColumn),
+    action: &str,
+    message: String,
+    reason: &str,
+) {
+    findings.push(column_finding(
+        FindingKind::IdentifierColumn,
+        sheet,
+        header_row,
+        column,
+        action,
+        message,
+    ));
+    set_aside.push(SetAside {
+        name: column.name.clone(),
+        reason: reason.into(),
+    });
+}
+
 fn detect_table_cells(
     grid: &SheetGrid,
     request: &TableRequest,
@@ -506,21 +529,16 @@ fn detect_table_cells(
             if !constant.is_empty() && constant.len() < factors_found.len() && n_data_rows >= 2 {
                 for &index in &constant {
                     let column = &columns[index];
-                    findings.push(column_finding(
-                        FindingKind::IdentifierColumn,
-                        &sheet,
-                        header_row,
-                        column,
+                    set_column_aside(
+                        (&mut findings, &mut set_aside),
+                        (&sheet, header_row, column),
                         "not used as a factor",
                         format!(
                             "the column '{}' has the same label on every row, so it cannot separate conditions and was kept as context; name it as a factor to use it",
                             column.name
                         ),
-                    ));
-                    set_aside.push(SetAside {
-                        name: column.name.clone(),
-                        reason: "the same on every row".into(),
-                    });
+                        "the same on every row",
+                    );
                 }
                 factors_found.retain(|index| !constant.contains(index));
             }
@@ -568,21 +586,16 @@ fn detect_table_cells(
                     if !settings.is_empty() && settings.len() < response_columns.len() {
                         for &index in &settings {
                             let column = &columns[index];
-                            findings.push(column_finding(
-                                FindingKind::IdentifierColumn,
-                                &sheet,
-                                header_row,
-                                column,
+                            set_column_aside(
+                                (&mut findings, &mut set_aside),
+                                (&sheet, header_row, column),
                                 "not analysed as a response",
                                 format!(
                                     "the column '{}' holds a few repeated settings, like a factor of the design, so it was not analysed as a response; name it as a factor or response to use it",
                                     column.name
                                 ),
-                            ));
-                            set_aside.push(SetAside {
-                                name: column.name.clone(),
-                                reason: "settings of the design".into(),
-                            });
+                                "settings of the design",
+                            );
                         }
                         response_columns.retain(|index| !settings.contains(index));
                     }
